@@ -1,0 +1,291 @@
+//! Fixed-point formats of the device path, and the integer helpers it uses.
+//!
+//! # Formats
+//!
+//! | quantity | type | range | resolution |
+//! |---|---|---|---|
+//! | absolute pressure, Pa | [`Pressure`] = `U28F4` | 0 … 268.4 MPa (2684 bar) | 0.0625 Pa |
+//! | temperature, K | [`Temperature`] = `U16F16` | 0 … 65 536 K | 15.3 µK |
+//! | compressibility factor Z | [`Compressibility`] = `U2F30` | 0 … 4 | 9.3e-10 |
+//! | ∂Z/∂p per MPa, ∂Z/∂T per K | [`ZSlope`] = `I8F24` | ±128 | 6.0e-8 |
+//! | density kg/m³, fill fraction | `U32F32` | 0 … 4.29e9 | 2.3e-10 |
+//! | mass kg, amount mol, volume m³ | `U24F40` | 0 … 1.68e7 | 9.1e-13 |
+//! | vessel elastic expansion, 1/MPa | [`ElasticExpansion`] = `U0F32` | 0 … 1 | 2.3e-10 |
+//! | vessel thermal expansion, 1/K | [`ThermalExpansion`] = `I0F32` | ±0.5 | 2.3e-10 |
+//! | vessel volume factor V/V₀ | [`Compressibility`] = `U2F30` | 0 … 4 | 9.3e-10 |
+//!
+//! # How the per-sample arithmetic stays cheap
+//!
+//! On a Cortex-M0 a 32×32→64 multiply costs tens of instructions and a 64-bit
+//! division hundreds, while float operations are library calls. The per-sample
+//! path therefore works on 32-bit values whose binary scale is fixed either at
+//! compile time or when a setup is prepared, and multiplies them by prepared
+//! constants ([`Coef`]: a normalised 32-bit mantissa with a binary exponent)
+//! followed by a shift whose amount is also known at preparation time. Divisions
+//! happen only while preparing a setup, plus one per density and one per
+//! iteration of the settled-pressure solver.
+
+use fixed::types::{I0F32, I8F24, U0F32, U2F30, U16F16, U24F40, U28F4, U32F32};
+
+/// Absolute pressure in pascal.
+pub type Pressure = U28F4;
+/// Thermodynamic temperature in kelvin.
+pub type Temperature = U16F16;
+/// A dimensionless factor near one: compressibility factor Z, vessel volume factor.
+pub type Compressibility = U2F30;
+/// A slope of Z: per MPa (with pressure) or per K (with temperature).
+pub type ZSlope = I8F24;
+/// Density in kg/m³.
+pub type Density = U32F32;
+/// Mass in kg.
+pub type Mass = U24F40;
+/// Amount of substance in mol.
+pub type Amount = U24F40;
+/// Volume in m³.
+pub type Volume = U24F40;
+/// A fraction (fill fraction: 1 = rated content).
+pub type Fraction = U32F32;
+/// Relative volume change of a vessel per MPa of internal pressure.
+pub type ElasticExpansion = U0F32;
+/// Relative volume change of a vessel per kelvin.
+pub type ThermalExpansion = I0F32;
+
+/// A positive constant prepared for the fixed-point path: `mantissa × 2^-shift`
+/// with the mantissa normalised to `[2^31, 2^32)` (or zero).
+///
+/// Constants are built at compile time ([`Coef::from_f64`] in a `const`) or
+/// while a setup is prepared ([`Coef::from_raw`], [`Coef::mul`],
+/// [`Coef::recip`]); per sample they are only applied ([`Coef::scale`]): one
+/// 32×32→64 multiply and a shift. Relative precision of a constant: 2^-32.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Coef {
+    mantissa: u32,
+    shift: i32,
+}
+
+impl Coef {
+    /// Zero.
+    pub const ZERO: Coef = Coef {
+        mantissa: 0,
+        shift: 0,
+    };
+
+    /// Builds a constant from an `f64`. Meant for `const` items, where the
+    /// float work happens at compile time; zero, negative and non-finite
+    /// inputs give [`Coef::ZERO`].
+    pub const fn from_f64(v: f64) -> Coef {
+        if v.is_nan() || v <= 0.0 || !v.is_finite() {
+            return Coef::ZERO;
+        }
+        let mut x = v;
+        let mut shift = 0i32;
+        while x >= 4_294_967_296.0 {
+            x /= 2.0;
+            shift -= 1;
+        }
+        while x < 2_147_483_648.0 {
+            x *= 2.0;
+            shift += 1;
+        }
+        let m = (x + 0.5) as u64;
+        if m >= 1 << 32 {
+            Coef {
+                mantissa: 1 << 31,
+                shift: shift - 1,
+            }
+        } else {
+            Coef {
+                mantissa: m as u32,
+                shift,
+            }
+        }
+    }
+
+    /// The constant `raw × 2^-frac_bits`, rounded to 32 significant bits.
+    pub const fn from_raw(raw: u64, frac_bits: u32) -> Coef {
+        Coef::normalize(raw, frac_bits as i32)
+    }
+
+    /// `raw × 2^-shift`, normalised with round-to-nearest.
+    const fn normalize(raw: u64, shift: i32) -> Coef {
+        if raw == 0 {
+            return Coef::ZERO;
+        }
+        let lz = raw.leading_zeros();
+        let top = raw << lz;
+        let mut m = (top >> 32) + ((top >> 31) & 1);
+        let mut s = shift + lz as i32 - 32;
+        if m >= 1 << 32 {
+            m = 1 << 31;
+            s -= 1;
+        }
+        Coef {
+            mantissa: m as u32,
+            shift: s,
+        }
+    }
+
+    /// True for the zero constant.
+    pub const fn is_zero(self) -> bool {
+        self.mantissa == 0
+    }
+
+    /// The product of two constants (preparation time).
+    pub const fn mul(self, other: Coef) -> Coef {
+        Coef::normalize(
+            self.mantissa as u64 * other.mantissa as u64,
+            self.shift + other.shift,
+        )
+    }
+
+    /// The reciprocal (one 64-bit division; preparation time). `None` for zero.
+    pub const fn recip(self) -> Option<Coef> {
+        if self.mantissa == 0 {
+            return None;
+        }
+        let m = self.mantissa as u64;
+        let q = ((1u64 << 63) + m / 2) / m;
+        Some(Coef::normalize(q, 63 - self.shift))
+    }
+
+    /// The value as `f64` (for tests and host tools).
+    pub fn to_f64(self) -> f64 {
+        libm::ldexp(self.mantissa as f64, -self.shift)
+    }
+
+    /// The binary exponent: the value is below `2^(32 - shift)`.
+    pub const fn shift(self) -> i32 {
+        self.shift
+    }
+
+    /// The normalised mantissa.
+    pub const fn mantissa(self) -> u32 {
+        self.mantissa
+    }
+
+    /// Applies the constant to a raw value: `x × 2^-x_frac` times the constant,
+    /// returned as a raw value with `out_frac` fraction bits, rounded to
+    /// nearest. The flag is true when the result did not fit and was clamped
+    /// to `u64::MAX`.
+    pub const fn scale(self, x: u32, x_frac: u32, out_frac: u32) -> (u64, bool) {
+        let product = x as u64 * self.mantissa as u64;
+        shr_round(product, x_frac as i32 + self.shift - out_frac as i32)
+    }
+}
+
+/// `value >> shift` rounded to nearest for positive shifts, `value << -shift`
+/// for negative ones. The flag is true when a left shift overflowed (the
+/// result is then `u64::MAX`).
+pub const fn shr_round(value: u64, shift: i32) -> (u64, bool) {
+    if shift > 0 {
+        if shift >= 64 {
+            return (0, false);
+        }
+        let s = shift as u32;
+        ((value >> s) + ((value >> (s - 1)) & 1), false)
+    } else if shift == 0 {
+        (value, false)
+    } else {
+        let l = shift.unsigned_abs();
+        if value == 0 {
+            (0, false)
+        } else if l >= 64 || value.leading_zeros() < l {
+            (u64::MAX, true)
+        } else {
+            (value << l, false)
+        }
+    }
+}
+
+/// Signed `value >> shift` (shift ≥ 1), rounded to nearest (ties up).
+pub const fn shr_round_i64(value: i64, shift: u32) -> i64 {
+    (value >> shift) + ((value >> (shift - 1)) & 1)
+}
+
+/// Narrows to `u32`, clamping; the flag is true when clamped.
+pub const fn sat_u32(value: u64) -> (u32, bool) {
+    if value > u32::MAX as u64 {
+        (u32::MAX, true)
+    } else {
+        (value as u32, false)
+    }
+}
+
+/// Converts an `f64` to a fixed-point value by rounding to nearest.
+/// Errors name `what` when the value is not finite or does not fit.
+pub fn from_f64<T: fixed::traits::Fixed>(
+    value: f64,
+    what: &'static str,
+) -> Result<T, crate::Error> {
+    if !value.is_finite() {
+        return Err(crate::Error::NotFinite(what));
+    }
+    T::checked_from_num(value).ok_or(crate::Error::OutOfRange(what))
+}
+
+/// Exact `f64` value of a fixed-point number.
+pub fn to_f64<T: fixed::traits::Fixed>(value: T) -> f64 {
+    value.to_num::<f64>()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    #[test]
+    fn from_f64_normalises() {
+        for v in [1.0, 0.5, 3.0, 1e-9, 1e9, 8.314_462_618, 123_456.789] {
+            let c = Coef::from_f64(v);
+            assert!(c.mantissa() >= 1 << 31);
+            assert!((c.to_f64() / v - 1.0).abs() < 2.5e-10, "{v}");
+        }
+        assert!(Coef::from_f64(0.0).is_zero());
+        assert!(Coef::from_f64(-1.0).is_zero());
+        assert!(Coef::from_f64(f64::NAN).is_zero());
+    }
+
+    proptest! {
+        #[test]
+        fn mul_and_recip_are_accurate(a in 1e-12f64..1e12, b in 1e-12f64..1e12) {
+            let (ca, cb) = (Coef::from_f64(a), Coef::from_f64(b));
+            prop_assert!((ca.mul(cb).to_f64() / (a * b) - 1.0).abs() < 1e-9);
+            let r = ca.recip().unwrap();
+            prop_assert!((r.to_f64() * a - 1.0).abs() < 1e-9);
+        }
+
+        #[test]
+        fn scale_rounds_to_nearest(x in 0u32.., v in 1e-6f64..1e6, xf in 0u32..32, of in 0u32..40) {
+            let c = Coef::from_f64(v);
+            let exact = x as f64 / (1u64 << xf) as f64 * c.to_f64() * (1u64 << of) as f64;
+            let (raw, sat) = c.scale(x, xf, of);
+            if exact < 1.8e19 {
+                prop_assert!(!sat);
+                // Rounded to nearest, within the f64 noise of the check itself.
+                prop_assert!((raw as f64 - exact).abs() <= 0.5 + exact * 1e-15, "{raw} {exact}");
+            }
+        }
+
+        #[test]
+        fn from_raw_matches(raw in 1u64.., frac in 0u32..64) {
+            let c = Coef::from_raw(raw, frac);
+            let v = raw as f64 / 2f64.powi(frac as i32);
+            prop_assert!((c.to_f64() / v - 1.0).abs() < 2.5e-10);
+        }
+    }
+
+    #[test]
+    fn shr_round_edges() {
+        assert_eq!(shr_round(3, 1), (2, false));
+        assert_eq!(shr_round(5, 2), (1, false));
+        assert_eq!(shr_round(6, 2), (2, false));
+        assert_eq!(shr_round(u64::MAX, 64), (0, false));
+        assert_eq!(shr_round(1, -63), (1 << 63, false));
+        assert_eq!(shr_round(2, -63), (u64::MAX, true));
+        assert_eq!(shr_round(0, -100), (0, false));
+        assert_eq!(shr_round_i64(-3, 1), -1);
+        assert_eq!(shr_round_i64(-5, 1), -2);
+        assert_eq!(sat_u32(1 << 40), (u32::MAX, true));
+    }
+}

@@ -1,0 +1,333 @@
+//! Gases known by name.
+//!
+//! Molar masses are the values adopted by each gas's reference equation of
+//! state (the publication is named in [`GasInfo::source`]); they are the
+//! values CoolProp 8.0.0 carries for the same equations, so the ideal, device
+//! and reference paths all use one molar mass per gas. They agree with the
+//! IUPAC/CIAAW 2021 standard atomic weights to better than 1e-4 relative (see
+//! the test below).
+
+use crate::Error;
+use crate::fx::Coef;
+
+/// A gas this crate knows by name.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum Gas {
+    /// Nitrogen, N2.
+    Nitrogen,
+    /// Oxygen, O2.
+    Oxygen,
+    /// Argon, Ar.
+    Argon,
+    /// Helium (helium-4), He.
+    Helium,
+    /// Normal hydrogen, H2.
+    Hydrogen,
+    /// Methane, CH4.
+    Methane,
+    /// Dry air as a pseudo-pure fluid.
+    Air,
+    /// Carbon dioxide, CO2.
+    CarbonDioxide,
+    /// Neon, Ne.
+    Neon,
+    /// Krypton, Kr.
+    Krypton,
+    /// Xenon, Xe.
+    Xenon,
+    /// Ethane, C2H6.
+    Ethane,
+    /// Propane, C3H8.
+    Propane,
+}
+
+/// What the crate knows about one gas.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct GasInfo {
+    /// Stable lower-case name, as used on the command line and in JSON.
+    pub name: &'static str,
+    /// Chemical formula.
+    pub formula: &'static str,
+    /// Molar mass in kg/mol.
+    pub molar_mass_kg_mol: f64,
+    /// Critical temperature in K (from the same equation of state).
+    pub critical_temperature_k: f64,
+    /// Critical pressure in Pa (from the same equation of state).
+    pub critical_pressure_pa: f64,
+    /// The publication of the reference equation of state whose molar mass
+    /// and critical point are used here.
+    pub source: &'static str,
+    /// M/R in kg·K/J as a fixed-point constant (computed at compile time).
+    pub(crate) m_over_r: Coef,
+    /// 1/M in mol/kg as a fixed-point constant (computed at compile time).
+    pub(crate) inv_molar_mass: Coef,
+}
+
+const fn info(
+    name: &'static str,
+    formula: &'static str,
+    molar_mass_kg_mol: f64,
+    critical_temperature_k: f64,
+    critical_pressure_pa: f64,
+    source: &'static str,
+) -> GasInfo {
+    GasInfo {
+        name,
+        formula,
+        molar_mass_kg_mol,
+        critical_temperature_k,
+        critical_pressure_pa,
+        source,
+        m_over_r: Coef::from_f64(molar_mass_kg_mol / crate::constants::MOLAR_GAS_CONSTANT_J_MOL_K),
+        inv_molar_mass: Coef::from_f64(1.0 / molar_mass_kg_mol),
+    }
+}
+
+// Molar masses and critical points as adopted by each equation of state
+// (values read from CoolProp 8.0.0, which implements those publications).
+const NITROGEN: GasInfo = info(
+    "nitrogen",
+    "N2",
+    0.028_013_48,
+    126.192,
+    3_395_800.0,
+    "Span, Lemmon, Jacobsen, Wagner, Yokozeki, J. Phys. Chem. Ref. Data 29, 1361 (2000)",
+);
+const OXYGEN: GasInfo = info(
+    "oxygen",
+    "O2",
+    0.031_998_8,
+    154.599,
+    5_046_410.0,
+    "Schmidt & Wagner, Fluid Phase Equilib. 19, 175 (1985)",
+);
+const ARGON: GasInfo = info(
+    "argon",
+    "Ar",
+    0.039_948,
+    150.687,
+    4_863_000.0,
+    "Tegeler, Span, Wagner, J. Phys. Chem. Ref. Data 28, 779 (1999)",
+);
+const HELIUM: GasInfo = info(
+    "helium",
+    "He",
+    0.004_002_602,
+    5.1953,
+    228_322.8,
+    "Ortiz-Vega, Hall, Holste, Lemmon et al., J. Phys. Chem. Ref. Data (2019)",
+);
+const HYDROGEN: GasInfo = info(
+    "hydrogen",
+    "H2",
+    0.002_015_88,
+    33.1443,
+    1_296_357.6,
+    "Leachman, Jacobsen, Penoncello, Lemmon, J. Phys. Chem. Ref. Data 38, 721 (2009)",
+);
+const METHANE: GasInfo = info(
+    "methane",
+    "CH4",
+    0.016_042_8,
+    190.564,
+    4_599_200.0,
+    "Setzmann & Wagner, J. Phys. Chem. Ref. Data 20, 1061 (1991)",
+);
+const AIR: GasInfo = info(
+    "air",
+    "N2+O2+Ar",
+    0.028_965_46,
+    132.5306,
+    3_786_000.0,
+    "Lemmon, Jacobsen, Penoncello, Friend, J. Phys. Chem. Ref. Data 29, 331 (2000)",
+);
+const CARBON_DIOXIDE: GasInfo = info(
+    "carbon_dioxide",
+    "CO2",
+    0.044_009_8,
+    304.1282,
+    7_377_298.4,
+    "Span & Wagner, J. Phys. Chem. Ref. Data 25, 1509 (1996)",
+);
+const NEON: GasInfo = info(
+    "neon",
+    "Ne",
+    0.020_179,
+    44.4,
+    2_661_630.7,
+    "Thol, Fenkl, Lemmon, J. Phys. Chem. Ref. Data (2019, neon)",
+);
+const KRYPTON: GasInfo = info(
+    "krypton",
+    "Kr",
+    0.083_798,
+    209.4796,
+    5_525_432.5,
+    "Lemmon & Span, J. Chem. Eng. Data 51, 785 (2006)",
+);
+const XENON: GasInfo = info(
+    "xenon",
+    "Xe",
+    0.131_293,
+    289.7326,
+    5_841_913.6,
+    "Lemmon & Span, J. Chem. Eng. Data 51, 785 (2006)",
+);
+const ETHANE: GasInfo = info(
+    "ethane",
+    "C2H6",
+    0.030_069_04,
+    305.322,
+    4_872_200.0,
+    "Buecker & Wagner, J. Phys. Chem. Ref. Data 35, 205 (2006)",
+);
+const PROPANE: GasInfo = info(
+    "propane",
+    "C3H8",
+    0.044_095_62,
+    369.89,
+    4_251_165.3,
+    "Lemmon, McLinden, Wagner, J. Chem. Eng. Data 54, 3141 (2009)",
+);
+
+impl Gas {
+    /// Every gas, in a stable order.
+    pub const ALL: [Gas; 13] = [
+        Gas::Nitrogen,
+        Gas::Oxygen,
+        Gas::Argon,
+        Gas::Helium,
+        Gas::Hydrogen,
+        Gas::Methane,
+        Gas::Air,
+        Gas::CarbonDioxide,
+        Gas::Neon,
+        Gas::Krypton,
+        Gas::Xenon,
+        Gas::Ethane,
+        Gas::Propane,
+    ];
+
+    /// What the crate knows about this gas.
+    pub const fn info(self) -> &'static GasInfo {
+        match self {
+            Gas::Nitrogen => &NITROGEN,
+            Gas::Oxygen => &OXYGEN,
+            Gas::Argon => &ARGON,
+            Gas::Helium => &HELIUM,
+            Gas::Hydrogen => &HYDROGEN,
+            Gas::Methane => &METHANE,
+            Gas::Air => &AIR,
+            Gas::CarbonDioxide => &CARBON_DIOXIDE,
+            Gas::Neon => &NEON,
+            Gas::Krypton => &KRYPTON,
+            Gas::Xenon => &XENON,
+            Gas::Ethane => &ETHANE,
+            Gas::Propane => &PROPANE,
+        }
+    }
+
+    /// Stable lower-case name (`"nitrogen"`, `"carbon_dioxide"`, ...).
+    pub const fn name(self) -> &'static str {
+        self.info().name
+    }
+
+    /// Molar mass in kg/mol.
+    pub const fn molar_mass_kg_mol(self) -> f64 {
+        self.info().molar_mass_kg_mol
+    }
+
+    /// True when the gas can be liquid or two-phase somewhere in the
+    /// operating envelope (its critical temperature is above −60 °C).
+    pub fn liquefiable_in_envelope(self) -> bool {
+        self.info().critical_temperature_k > crate::envelope::TEMPERATURE_MIN_K
+    }
+
+    /// Looks a gas up by name or formula, ignoring case; `-`, `_` and spaces
+    /// are interchangeable (`"carbon-dioxide"`, `"CO2"`, `"n2"`).
+    pub fn from_name(name: &str) -> Result<Gas, Error> {
+        let wanted = name.trim();
+        Gas::ALL
+            .iter()
+            .copied()
+            .find(|g| {
+                let i = g.info();
+                same_name(i.name, wanted) || i.formula.eq_ignore_ascii_case(wanted)
+            })
+            .ok_or(Error::UnknownGas)
+    }
+}
+
+fn same_name(ours: &str, theirs: &str) -> bool {
+    let norm = |c: char| match c {
+        '-' | ' ' => '_',
+        c => c.to_ascii_lowercase(),
+    };
+    ours.len() == theirs.len() && ours.chars().zip(theirs.chars()).all(|(a, b)| a == norm(b))
+}
+
+impl core::fmt::Display for Gas {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn names_round_trip() {
+        for g in Gas::ALL {
+            assert_eq!(Gas::from_name(g.name()), Ok(g));
+            assert_eq!(Gas::from_name(&g.name().to_uppercase()), Ok(g));
+        }
+        assert_eq!(Gas::from_name("carbon-dioxide"), Ok(Gas::CarbonDioxide));
+        assert_eq!(Gas::from_name("co2"), Ok(Gas::CarbonDioxide));
+        assert_eq!(Gas::from_name("n2"), Ok(Gas::Nitrogen));
+        assert_eq!(Gas::from_name("unobtainium"), Err(Error::UnknownGas));
+    }
+
+    #[test]
+    fn molar_masses_match_standard_atomic_weights() {
+        // IUPAC/CIAAW 2021 conventional standard atomic weights:
+        // H 1.008, He 4.002602, C 12.011, N 14.007, O 15.999, Ne 20.1797,
+        // Ar 39.95 (abridged; 39.948 for the atmospheric value), Kr 83.798,
+        // Xe 131.293. Air: the EOS's own composition, checked separately.
+        let expect = [
+            (Gas::Nitrogen, 2.0 * 14.007),
+            (Gas::Oxygen, 2.0 * 15.999),
+            (Gas::Argon, 39.948),
+            (Gas::Helium, 4.002_602),
+            (Gas::Hydrogen, 2.0 * 1.008),
+            (Gas::Methane, 12.011 + 4.0 * 1.008),
+            (Gas::CarbonDioxide, 12.011 + 2.0 * 15.999),
+            (Gas::Neon, 20.1797),
+            (Gas::Krypton, 83.798),
+            (Gas::Xenon, 131.293),
+            (Gas::Ethane, 2.0 * 12.011 + 6.0 * 1.008),
+            (Gas::Propane, 3.0 * 12.011 + 8.0 * 1.008),
+        ];
+        for (g, grams) in expect {
+            let rel = (g.molar_mass_kg_mol() * 1000.0 - grams).abs() / grams;
+            assert!(rel < 2e-4, "{g}: {rel}");
+        }
+        // Dry air, Lemmon et al. 2000 composition N2 0.7812, Ar 0.0092, O2 0.2096
+        // gives 28.9586 g/mol; CoolProp 8.0.0 carries 28.96546 g/mol for the same
+        // equation, which is the value used here (2.4e-4 apart).
+        let air = 0.7812 * 28.013_48 + 0.0092 * 39.948 + 0.2096 * 31.9988;
+        assert!((Gas::Air.molar_mass_kg_mol() * 1000.0 - air).abs() / air < 3e-4);
+    }
+
+    #[test]
+    fn fixed_constants_match_f64() {
+        for g in Gas::ALL {
+            let i = g.info();
+            let k = i.molar_mass_kg_mol / crate::constants::MOLAR_GAS_CONSTANT_J_MOL_K;
+            assert!((i.m_over_r.to_f64() / k - 1.0).abs() < 1e-9);
+            assert!((i.inv_molar_mass.to_f64() * i.molar_mass_kg_mol - 1.0).abs() < 1e-9);
+        }
+    }
+}

@@ -1,0 +1,113 @@
+//! Gas models: the compressibility factor Z(p, T) and its slopes.
+//!
+//! The content estimate needs, at a pressure and temperature, the
+//! compressibility factor `Z = p / (ρ_molar·R·T)` and its partial derivatives
+//! (for the settled-pressure solver and for uncertainty), whether the state is
+//! inside the model's validity range, and whether the gas is liquid or
+//! two-phase there. That is the whole seam:
+//!
+//! * [`Compressibility`] — the float form, generic over [`Real`];
+//! * [`CompressibilityFx`] — the fixed-point form for devices.
+//!
+//! A model reports trouble through [`Status`] flags in its answer
+//! ([`Status::MODEL_OUT_OF_RANGE`], [`Status::TWO_PHASE`]); it never fails.
+//! Models are per gas: one value answers for one gas.
+
+mod ideal;
+
+pub use ideal::Ideal;
+
+use crate::{Gas, Real, Status, fx};
+
+/// A model's answer at one (p, T), float form.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ZPoint<F = f64> {
+    /// Compressibility factor Z (1 for an ideal gas).
+    pub z: F,
+    /// ∂Z/∂p at constant T, per MPa.
+    pub dz_dp_per_mpa: F,
+    /// ∂Z/∂T at constant p, per K.
+    pub dz_dt_per_k: F,
+    /// [`Status::MODEL_OUT_OF_RANGE`] and/or [`Status::TWO_PHASE`] when they apply.
+    pub flags: Status,
+}
+
+/// A model's answer at one (p, T), fixed-point form (formats in [`fx`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ZPointFx {
+    /// Compressibility factor Z.
+    pub z: fx::Compressibility,
+    /// ∂Z/∂p at constant T, per MPa.
+    pub dz_dp_per_mpa: fx::ZSlope,
+    /// ∂Z/∂T at constant p, per K.
+    pub dz_dt_per_k: fx::ZSlope,
+    /// [`Status::MODEL_OUT_OF_RANGE`] and/or [`Status::TWO_PHASE`] when they apply.
+    pub flags: Status,
+}
+
+/// The states a model declares itself valid for.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ModelRange {
+    /// Highest pressure, Pa.
+    pub pressure_max_pa: f64,
+    /// Lowest temperature, K.
+    pub temperature_min_k: f64,
+    /// Highest temperature, K.
+    pub temperature_max_k: f64,
+}
+
+/// The float form of a gas model.
+pub trait Compressibility<F: Real> {
+    /// The gas this model describes.
+    fn gas(&self) -> Gas;
+    /// Short stable name of the model kind (`"ideal"`, `"device"`, `"reference"`).
+    fn kind(&self) -> &'static str;
+    /// Where the model is valid.
+    fn range(&self) -> ModelRange;
+    /// Z and its slopes at absolute pressure `p_pa` (Pa) and temperature
+    /// `t_k` (K). Inputs are finite and inside the envelope (callers clamp).
+    fn z(&self, p_pa: F, t_k: F) -> ZPoint<F>;
+}
+
+/// The fixed-point form of a gas model.
+///
+/// Contract for implementors: never panic, answer every input (clamping to
+/// the model's range and flagging [`Status::MODEL_OUT_OF_RANGE`]), and never
+/// return a Z below [`CompressibilityFx::z_floor`].
+pub trait CompressibilityFx {
+    /// The gas this model describes.
+    fn gas(&self) -> Gas;
+    /// Z and its slopes at absolute pressure `p` and temperature `t`.
+    fn z_fx(&self, p: fx::Pressure, t: fx::Temperature) -> ZPointFx;
+    /// The smallest Z the model returns. The estimator sizes its internal
+    /// density scale from it (a smaller floor costs density resolution).
+    fn z_floor(&self) -> fx::Compressibility;
+}
+
+impl<F: Real, M: Compressibility<F>> Compressibility<F> for &M {
+    fn gas(&self) -> Gas {
+        (**self).gas()
+    }
+    fn kind(&self) -> &'static str {
+        (**self).kind()
+    }
+    fn range(&self) -> ModelRange {
+        (**self).range()
+    }
+    fn z(&self, p_pa: F, t_k: F) -> ZPoint<F> {
+        (**self).z(p_pa, t_k)
+    }
+}
+
+impl<M: CompressibilityFx> CompressibilityFx for &M {
+    fn gas(&self) -> Gas {
+        (**self).gas()
+    }
+    fn z_fx(&self, p: fx::Pressure, t: fx::Temperature) -> ZPointFx {
+        (**self).z_fx(p, t)
+    }
+    fn z_floor(&self) -> fx::Compressibility {
+        (**self).z_floor()
+    }
+}

@@ -1,0 +1,195 @@
+//! The status word: one bit per condition a reader of an estimate must know.
+//!
+//! Every estimate carries a [`Status`]. An empty status means the numbers are
+//! within the envelope and the model's range. Flags are additive: stages OR
+//! their own flags into the word they pass on.
+//!
+//! Bit allocation (kept stable: the bits go over the wire):
+//!
+//! | bits  | owner                                   |
+//! |-------|-----------------------------------------|
+//! | 0–7   | content estimate and gas model           |
+//! | 8–15  | sensors and plausibility                 |
+//! | 16–23 | tracking over time and alarms            |
+//! | 24–31 | device: configuration, storage, link     |
+
+use core::fmt;
+use core::ops::{BitAnd, BitOr, BitOrAssign};
+
+/// A set of condition flags. See the associated constants for each bit.
+#[derive(Clone, Copy, PartialEq, Eq, Hash, Default, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Status(u32);
+
+macro_rules! flags {
+    ($( $(#[doc = $doc:literal])* $name:ident = $bit:literal, $text:literal; )*) => {
+        impl Status {
+            $( $(#[doc = $doc])* pub const $name: Status = Status(1 << $bit); )*
+
+            /// Every named flag with its stable snake_case name, in bit order.
+            pub const NAMED: &'static [(Status, &'static str)] = &[ $( (Status::$name, $text), )* ];
+        }
+    };
+}
+
+flags! {
+    /// Input pressure was outside 0–1000 bar absolute and was clamped to the envelope.
+    PRESSURE_OUTSIDE_ENVELOPE = 0, "pressure_outside_envelope";
+    /// Input temperature was outside −60…+150 °C and was clamped to the envelope.
+    TEMPERATURE_OUTSIDE_ENVELOPE = 1, "temperature_outside_envelope";
+    /// An output reached the limit of its number format and was clamped there.
+    SATURATED = 2, "saturated";
+    /// The gas model was asked about a state outside its declared validity range.
+    MODEL_OUT_OF_RANGE = 3, "model_out_of_range";
+    /// The gas is liquid or two-phase here: pressure does not tell the content,
+    /// and the content outputs are not valid.
+    TWO_PHASE = 4, "two_phase";
+    /// The settled-pressure iteration stopped at its bound before converging.
+    NOT_CONVERGED = 5, "not_converged";
+    /// At the settled reference temperature the same content would be liquid or
+    /// two-phase: the settled pressure is not valid.
+    SETTLED_TWO_PHASE = 6, "settled_two_phase";
+}
+
+impl Status {
+    /// No flag set.
+    pub const OK: Status = Status(0);
+
+    /// Flags after which the content outputs (density, mass, amount, standard
+    /// volume, fill fraction) must not be shown as valid numbers.
+    pub const CONTENT_INVALID: Status = Status(Status::TWO_PHASE.0);
+
+    /// The raw bits, for the wire.
+    pub const fn bits(self) -> u32 {
+        self.0
+    }
+
+    /// Rebuilds a status from raw bits (unknown bits are kept).
+    pub const fn from_bits(bits: u32) -> Status {
+        Status(bits)
+    }
+
+    /// True when no flag is set.
+    pub const fn is_ok(self) -> bool {
+        self.0 == 0
+    }
+
+    /// True when every flag of `other` is set in `self`.
+    pub const fn contains(self, other: Status) -> bool {
+        self.0 & other.0 == other.0
+    }
+
+    /// True when any flag of `other` is set in `self`.
+    pub const fn intersects(self, other: Status) -> bool {
+        self.0 & other.0 != 0
+    }
+
+    /// `self` without the flags of `other`.
+    pub const fn without(self, other: Status) -> Status {
+        Status(self.0 & !other.0)
+    }
+
+    /// The stable names of the flags that are set, in bit order. Bits without
+    /// a name are skipped (see [`Status::unnamed_bits`]).
+    pub fn names(self) -> impl Iterator<Item = &'static str> {
+        Status::NAMED
+            .iter()
+            .filter(move |(flag, _)| self.contains(*flag))
+            .map(|(_, name)| *name)
+    }
+
+    /// Bits that are set but have no name in this version.
+    pub fn unnamed_bits(self) -> u32 {
+        let named = Status::NAMED.iter().fold(0, |acc, (f, _)| acc | f.0);
+        self.0 & !named
+    }
+
+    /// Looks a flag up by its stable name.
+    pub fn from_name(name: &str) -> Option<Status> {
+        Status::NAMED
+            .iter()
+            .find(|(_, n)| *n == name)
+            .map(|(f, _)| *f)
+    }
+}
+
+impl BitOr for Status {
+    type Output = Status;
+    fn bitor(self, rhs: Status) -> Status {
+        Status(self.0 | rhs.0)
+    }
+}
+
+impl BitAnd for Status {
+    type Output = Status;
+    fn bitand(self, rhs: Status) -> Status {
+        Status(self.0 & rhs.0)
+    }
+}
+
+impl BitOrAssign for Status {
+    fn bitor_assign(&mut self, rhs: Status) {
+        self.0 |= rhs.0;
+    }
+}
+
+impl fmt::Debug for Status {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str("Status(")?;
+        fmt::Display::fmt(self, f)?;
+        f.write_str(")")
+    }
+}
+
+impl fmt::Display for Status {
+    /// Comma-separated flag names, or `ok`.
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        if self.is_ok() {
+            return f.write_str("ok");
+        }
+        let mut first = true;
+        for name in self.names() {
+            if !first {
+                f.write_str(",")?;
+            }
+            f.write_str(name)?;
+            first = false;
+        }
+        let rest = self.unnamed_bits();
+        if rest != 0 {
+            if !first {
+                f.write_str(",")?;
+            }
+            write!(f, "bits_{rest:#x}")?;
+        }
+        Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn names_are_unique_snake_case_and_bits_distinct() {
+        let mut seen = 0u32;
+        for (i, (flag, name)) in Status::NAMED.iter().enumerate() {
+            assert_eq!(flag.bits().count_ones(), 1);
+            assert_eq!(seen & flag.bits(), 0, "bit reused by {name}");
+            seen |= flag.bits();
+            assert!(name.chars().all(|c| c.is_ascii_lowercase() || c == '_'));
+            assert_eq!(Status::from_name(name), Some(*flag));
+            for (_, other) in &Status::NAMED[i + 1..] {
+                assert_ne!(name, other);
+            }
+        }
+    }
+
+    #[test]
+    fn display_lists_flags() {
+        let s = Status::SATURATED | Status::TWO_PHASE;
+        assert_eq!(s.to_string(), "saturated,two_phase");
+        assert_eq!(Status::OK.to_string(), "ok");
+        assert_eq!(Status::from_bits(1 << 31).to_string(), "bits_0x80000000");
+    }
+}
