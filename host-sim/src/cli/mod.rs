@@ -1,0 +1,63 @@
+//! The `isochor` command line: argument parsing and one module per command.
+//! Commands are thin: they parse, call the library, and print.
+
+mod content;
+
+use clap::{Parser, Subcommand, ValueEnum};
+use std::process::ExitCode;
+
+/// Gas content of pressurised tanks from pressure and temperature.
+#[derive(Debug, Parser)]
+#[command(name = "isochor", version, about, long_about = None)]
+pub struct Cli {
+    /// The command to run.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The commands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Estimate the content of one tank from one pressure and temperature.
+    Content(content::ContentArgs),
+}
+
+/// Output format shared by the commands.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, ValueEnum)]
+pub enum Format {
+    /// A readable table with units and cautions.
+    #[default]
+    Text,
+    /// One JSON object with SI fields, for other programs.
+    Json,
+}
+
+/// Parses the process arguments, runs the command and returns the exit code
+/// (0 success, 2 bad input, 1 other failure).
+pub fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match run(cli) {
+        Ok(out) => {
+            print!("{out}");
+            ExitCode::SUCCESS
+        }
+        Err(e) => {
+            eprintln!("isochor: error: {e}");
+            ExitCode::from(e.exit_code())
+        }
+    }
+}
+
+/// Runs a parsed command and returns what it prints on success.
+pub fn run(cli: Cli) -> Result<String, crate::Error> {
+    match cli.command {
+        Command::Content(args) => content::run(&args),
+    }
+}
+
+/// Serialises a value as pretty JSON with a trailing newline.
+pub(crate) fn to_json<T: serde::Serialize>(value: &T) -> Result<String, crate::Error> {
+    serde_json::to_string_pretty(value)
+        .map(|s| s + "\n")
+        .map_err(|e| crate::Error::Output(e.to_string()))
+}

@@ -1,0 +1,36 @@
+//! The crate's one error type.
+
+/// Everything that can go wrong on the host side.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum Error {
+    /// A quantity on the command line could not be read.
+    #[error("{what} '{input}': {reason}")]
+    Quantity {
+        /// Which option or field.
+        what: &'static str,
+        /// The text as given.
+        input: String,
+        /// Why it was refused.
+        reason: String,
+    },
+    /// A value that parses but makes no physical sense or is out of range.
+    #[error("{0}")]
+    Invalid(String),
+    /// The core refused a setup or sample.
+    #[error(transparent)]
+    Core(#[from] isochor_core::Error),
+    /// Output could not be written or encoded.
+    #[error("output: {0}")]
+    Output(String),
+}
+
+impl Error {
+    /// The process exit code for this error: 2 for bad input, 1 otherwise.
+    pub fn exit_code(&self) -> u8 {
+        match self {
+            Error::Quantity { .. } | Error::Invalid(_) | Error::Core(_) => 2,
+            Error::Output(_) => 1,
+        }
+    }
+}

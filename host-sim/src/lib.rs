@@ -1,0 +1,17 @@
+//! # isochor-sim
+//!
+//! The desktop side of isochor: the `isochor` command line, built as thin
+//! commands over this library, and the host-only computations behind them.
+//!
+//! * [`units`] — parsing of quantities with units (`200bar`, `35C`, `50L`).
+//! * [`content`] — the content report of `isochor content` (both core paths).
+//! * [`safety`] — the cautions printed with every human-readable result.
+//! * [`cli`] — argument parsing and the commands.
+
+pub mod cli;
+pub mod content;
+mod error;
+pub mod safety;
+pub mod units;
+
+pub use error::Error;

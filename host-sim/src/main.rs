@@ -1,0 +1,5 @@
+//! The `isochor` command: a thin shell over the `isochor_sim` library.
+
+fn main() -> std::process::ExitCode {
+    isochor_sim::cli::main()
+}

@@ -1,0 +1,481 @@
+//! `isochor content` end to end: the JSON interface against an independent
+//! ideal-gas computation, and clear refusals of bad input.
+
+use serde_json::Value;
+use std::process::{Command, Output};
+
+fn isochor(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_isochor"))
+        .args(args)
+        .output()
+        .expect("run isochor")
+}
+
+fn json(args: &[&str]) -> Value {
+    let mut all = args.to_vec();
+    all.extend(["--format", "json"]);
+    let out = isochor(&all);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).expect("valid JSON")
+}
+
+const BASE: [&str; 10] = [
+    "content",
+    "--gas",
+    "nitrogen",
+    "--capacity",
+    "50L",
+    "--pressure",
+    "200bar",
+    "--temperature",
+    "35C",
+    "--rated-pressure",
+];
+
+fn base(rest: &[&'static str]) -> Vec<&'static str> {
+    let mut v = BASE.to_vec();
+    v.push("200bar");
+    v.extend_from_slice(rest);
+    v
+}
+
+fn close(v: &Value, expected: f64, rel: f64) -> bool {
+    let x = v.as_f64().expect("number");
+    ((x - expected) / expected).abs() <= rel
+}
+
+#[test]
+fn json_matches_independent_ideal_gas_computation() {
+    let j = json(&base(&[]));
+    // Independent computation: CODATA 2018 R = 8.314462618 J/(mol K); N2
+    // molar mass 28.01348 g/mol (Span et al., J. Phys. Chem. Ref. Data 29, 2000).
+    let r = 8.314_462_618_153_24;
+    let (p, t, v, m_mol) = (200e5, 308.15, 0.050, 0.028_013_48);
+    let n = p * v / (r * t);
+    let rho = p * m_mol / (r * t);
+    let n_rated = 200e5 * v / (r * 288.15);
+    let v_std = n * r * 288.15 / 101_325.0;
+    let p_settled = p * 288.15 / t;
+    assert_eq!(j["gas"], "nitrogen");
+    assert_eq!(j["model"], "ideal");
+    assert_eq!(j["reference"]["temperature_k"], 288.15);
+    assert_eq!(j["reference"]["pressure_pa"], 101_325.0);
+    assert_eq!(j["settled_reference_k"], 288.15);
+    for (side, tol) in [("float", 1e-12), ("fixed", 1e-5)] {
+        let o = &j[side];
+        assert!(close(&o["density_kg_m3"], rho, tol), "{side} density");
+        assert!(close(&o["mass_kg"], n * m_mol, tol), "{side} mass");
+        assert!(close(&o["amount_mol"], n, tol), "{side} amount");
+        assert!(
+            close(&o["standard_volume_m3"], v_std, tol),
+            "{side} standard volume"
+        );
+        assert!(
+            close(&o["settled_pressure_pa"], p_settled, tol),
+            "{side} settled"
+        );
+        assert!(
+            close(&o["fill_fraction"], n / n_rated, tol),
+            "{side} fraction"
+        );
+        assert_eq!(o["z"], 1.0);
+        assert_eq!(o["status"], serde_json::json!([]));
+    }
+}
+
+#[test]
+fn gauge_standard_and_reference_options() {
+    // Gauge: 200 bar gauge + 1.01325 bar barometric (both pressures).
+    let j = json(&base(&["--gauge"]));
+    let expected_p = 200e5 + 101_325.0;
+    assert!(close(&j["sample"]["pressure_pa"], expected_p, 1e-15));
+    assert!(close(&j["tank"]["rated_pressure_pa"], expected_p, 1e-15));
+    // Normal conditions (0 °C): standard volume scales by 273.15/288.15.
+    let a = json(&base(&[]));
+    let b = json(&base(&["--standard", "normal"]));
+    let ratio = b["float"]["standard_volume_m3"].as_f64().unwrap()
+        / a["float"]["standard_volume_m3"].as_f64().unwrap();
+    assert!((ratio - 273.15 / 288.15).abs() < 1e-12);
+    // Custom standard and settled reference at 20 °C.
+    let c = json(&base(&[
+        "--standard",
+        "25C,100kPa",
+        "--reference-temperature",
+        "20C",
+    ]));
+    assert_eq!(c["reference"]["name"], "custom");
+    assert!(close(&c["reference"]["temperature_k"], 298.15, 1e-15));
+    assert!(close(
+        &c["float"]["settled_pressure_pa"],
+        200e5 * 293.15 / 308.15,
+        1e-12
+    ));
+    // psi and Fahrenheit.
+    let d = json(&[
+        "content",
+        "--gas",
+        "oxygen",
+        "--capacity",
+        "0.68m3",
+        "--pressure",
+        "2000psi",
+        "--temperature",
+        "70F",
+        "--rated-pressure",
+        "2015psi",
+        "--standard",
+        "60f",
+    ]);
+    assert!(close(
+        &d["sample"]["pressure_pa"],
+        2000.0 * 6_894.757_293_168,
+        1e-12
+    ));
+    assert!(close(&d["sample"]["temperature_k"], 294.261_111_1, 1e-9));
+}
+
+#[test]
+fn text_output_carries_units_and_cautions() {
+    let out = isochor(&base(&[]));
+    assert!(out.status.success());
+    let text = String::from_utf8(out.stdout).unwrap();
+    for needle in [
+        "kg/m³",
+        "mass",
+        "settled pressure",
+        "fill fraction",
+        "CAUTION",
+        "Asphyxiant",
+    ] {
+        assert!(text.contains(needle), "missing {needle}:\n{text}");
+    }
+    let out = isochor(&[
+        "content",
+        "--gas",
+        "oxygen",
+        "--capacity",
+        "10L",
+        "--pressure",
+        "150bar",
+        "--temperature",
+        "20C",
+        "--rated-pressure",
+        "200bar",
+    ]);
+    assert!(
+        String::from_utf8(out.stdout)
+            .unwrap()
+            .contains("oxygen-clean")
+    );
+}
+
+#[test]
+fn outside_envelope_is_reported_not_refused() {
+    let j = json(&[
+        "content",
+        "--gas",
+        "helium",
+        "--capacity",
+        "50L",
+        "--pressure",
+        "1100bar",
+        "--temperature",
+        "20C",
+        "--rated-pressure",
+        "300bar",
+    ]);
+    for side in ["fixed", "float"] {
+        let flags = j[side]["status"].as_array().unwrap();
+        assert!(
+            flags.iter().any(|f| f == "pressure_outside_envelope"),
+            "{side}: {flags:?}"
+        );
+    }
+}
+
+#[test]
+fn bad_input_gives_clear_message_and_nonzero_exit() {
+    let cases: &[(&[&str], &str)] = &[
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+            ],
+            "missing unit",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "200bbar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+            ],
+            "unknown pressure unit",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "kryptonite",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+            ],
+            "unknown gas",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "-5L",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+            ],
+            "must be positive",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "0.01L",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+            ],
+            "water capacity",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "NaNbar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+            ],
+            "--pressure",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "-3bar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+            ],
+            "negative",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "-3bar",
+                "--gauge",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+            ],
+            "negative",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "-300C",
+                "--rated-pressure",
+                "200bar",
+            ],
+            "absolute zero",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "2000bar",
+            ],
+            "rated pressure",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+                "--standard",
+                "moon",
+            ],
+            "--standard",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+                "--reference-temperature",
+                "300C",
+            ],
+            "--reference-temperature",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+                "--gauge",
+                "--barometric",
+                "5bar",
+            ],
+            "--barometric",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+                "--elastic-expansion-per-bar",
+                "1",
+            ],
+            "elastic expansion",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "35C",
+                "--rated-pressure",
+                "200bar",
+                "--format",
+                "xml",
+            ],
+            "invalid value",
+        ),
+        (
+            &[
+                "content",
+                "--gas",
+                "nitrogen",
+                "--capacity",
+                "50L",
+                "--pressure",
+                "200bar",
+                "--temperature",
+                "35C",
+            ],
+            "--rated-pressure",
+        ),
+    ];
+    for (args, needle) in cases {
+        let out = isochor(args);
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert!(!out.status.success(), "accepted: {args:?}");
+        assert_eq!(out.status.code(), Some(2), "{args:?}: {err}");
+        assert!(
+            err.contains(needle),
+            "{args:?}: expected '{needle}' in: {err}"
+        );
+        assert!(out.stdout.is_empty(), "{args:?} printed a result");
+    }
+}
