@@ -42,6 +42,7 @@
     )
 )]
 
+pub mod checksum;
 pub mod constants;
 pub mod content;
 pub mod envelope;
@@ -52,6 +53,7 @@ pub mod model;
 mod real;
 mod setup;
 mod status;
+pub mod time;
 
 pub use error::Error;
 /// The fixed-point crate the device formats come from (re-exported so users

@@ -55,6 +55,16 @@ impl Status {
     /// No flag set.
     pub const OK: Status = Status(0);
 
+    /// Every bit of the content-and-model range (bits 0–7).
+    pub const CONTENT_RANGE: Status = Status(0x0000_00FF);
+    /// Every bit of the sensor range (bits 8–15): any of them means a sensor
+    /// reading is faulty or implausible.
+    pub const SENSOR_RANGE: Status = Status(0x0000_FF00);
+    /// Every bit of the tracking-and-alarm range (bits 16–23).
+    pub const TRACKING_RANGE: Status = Status(0x00FF_0000);
+    /// Every bit of the device range (bits 24–31).
+    pub const DEVICE_RANGE: Status = Status(0xFF00_0000);
+
     /// Flags after which the content outputs (density, mass, amount, standard
     /// volume, fill fraction) must not be shown as valid numbers.
     pub const CONTENT_INVALID: Status = Status(Status::TWO_PHASE.0);
