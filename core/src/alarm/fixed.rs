@@ -87,11 +87,14 @@ impl LimitsFx {
             );
             raise = raise.with(
                 AlarmKind::OverPressure,
-                c.fill_fraction > self.over_fill_fraction || c.pressure_pa > self.pressure_max_pa,
+                c.settled_fraction
+                    .is_some_and(|f| f > self.over_fill_fraction)
+                    || c.pressure_pa > self.pressure_max_pa,
             );
             clear = clear.with(
                 AlarmKind::OverPressure,
-                c.fill_fraction < self.over_fill_fraction.saturating_sub(h)
+                c.settled_fraction
+                    .is_none_or(|f| f < self.over_fill_fraction.saturating_sub(h))
                     && c.pressure_pa
                         < self
                             .pressure_max_pa
@@ -136,6 +139,11 @@ pub struct LevelInputs {
     pub temperature_k: fx::Temperature,
     /// Fill fraction.
     pub fill_fraction: fx::Fraction,
+    /// The fill fraction the over-fill criterion judges: the present one when
+    /// settled, the predicted settled one while not settled (`None` until
+    /// there is a prediction: right after a fast fill the warm gas reads
+    /// high, and only the absolute pressure limit applies).
+    pub settled_fraction: Option<fx::Fraction>,
     /// Expected time to empty, when the rate is known to better than ±50 %.
     pub time_to_empty: Option<Millis>,
 }

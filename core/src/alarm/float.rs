@@ -41,11 +41,14 @@ pub struct Limits<F = f64> {
 impl Limits<f64> {
     /// Limits for a tank, following the trade's rules:
     ///
-    /// * over-fill at the rated content: the service (rated) pressure is the
-    ///   settled pressure of a full vessel at its reference temperature, 15 °C
-    ///   in ISO practice (ISO 10286, definition of working pressure; from
+    /// * over-fill above the rated content: the service (rated) pressure is
+    ///   the settled pressure of a full vessel at its reference temperature,
+    ///   15 °C in ISO practice (ISO 10286, definition of working pressure; from
     ///   memory), so a pressure above the rated pressure *corrected to the
-    ///   present temperature* is a content above the rated content;
+    ///   present temperature* is a content above the rated content. The
+    ///   default limit is 2 % above the rated content (common practice: about
+    ///   the expanded uncertainty of a good gauge, so a cylinder filled
+    ///   exactly to its rating does not raise the alarm);
     /// * the pressure itself never above 5/4 of the service pressure: US
     ///   practice, where the pressure at 55 °C (131 °F) must not exceed 5/4 of
     ///   the marked service pressure (49 CFR 173.301a(c); from memory). The
@@ -61,7 +64,7 @@ impl Limits<f64> {
             low_fraction: 0.10,
             low_time_to_empty: Millis::from_secs(3600),
             fraction_hysteresis: 0.01,
-            over_fill_fraction: 1.0,
+            over_fill_fraction: 1.02,
             pressure_max_pa: p_atm + 1.25 * (tank.rated_pressure_pa - p_atm).max(0.0),
             pressure_hysteresis_pa: 0.01 * tank.rated_pressure_pa,
             temperature_max_k: ZERO_CELSIUS_K + 65.0,
@@ -123,11 +126,14 @@ impl<F: Real> Limits<F> {
             // Over-pressure: content above the limit, or pressure above the limit.
             raise = raise.with(
                 AlarmKind::OverPressure,
-                c.fill_fraction > self.over_fill_fraction || c.pressure_pa > self.pressure_max_pa,
+                c.settled_fraction
+                    .is_some_and(|f| f > self.over_fill_fraction)
+                    || c.pressure_pa > self.pressure_max_pa,
             );
             clear = clear.with(
                 AlarmKind::OverPressure,
-                c.fill_fraction < self.over_fill_fraction - h
+                c.settled_fraction
+                    .is_none_or(|f| f < self.over_fill_fraction - h)
                     && c.pressure_pa < self.pressure_max_pa - self.pressure_hysteresis_pa,
             );
             let th = self.temperature_hysteresis_k;
@@ -169,6 +175,11 @@ pub struct LevelInputs<F> {
     pub temperature_k: F,
     /// Fill fraction.
     pub fill_fraction: F,
+    /// The fill fraction the over-fill criterion judges: the present one when
+    /// settled, the predicted settled one while not settled (`None` until
+    /// there is a prediction: right after a fast fill the warm gas reads
+    /// high, and only the absolute pressure limit applies).
+    pub settled_fraction: Option<F>,
     /// Expected time to empty down to the reserve, when the rate is known to
     /// better than ±50 % (k = 2).
     pub time_to_empty: Option<Millis>,

@@ -368,6 +368,11 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             pressure_pa: c.pressure_pa,
             temperature_k: c.temperature_k,
             fill_fraction: c.fill_fraction,
+            settled_fraction: if self.settle_active {
+                self.predicted.map(|p| p.fill_fraction)
+            } else {
+                Some(c.fill_fraction)
+            },
             time_to_empty: self.tte_for_alarm(),
         });
         let (raise, clear) = self.cfg.limits.conditions(&Inputs {
