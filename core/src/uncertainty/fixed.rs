@@ -5,7 +5,7 @@
 //! roots of 64-bit values, about twenty 32×32→64 multiplies and a few wider
 //! ones. The tracker evaluates it once per rate block, not per sample.
 
-use fixed::types::{I2F30, U0F32};
+use fixed::types::{I8F24, U0F32};
 
 use super::float::UncertaintyConfig;
 use crate::content::fixed::{Content, Estimator};
@@ -69,10 +69,10 @@ pub struct UncertaintyFx {
     pub mass_kg: fx::Mass,
     /// Expanded uncertainty of the fill fraction (k = 2).
     pub fill_fraction: fx::Fraction,
-    /// Sensitivity coefficient c_p = ∂ln m/∂ln p.
-    pub c_p: I2F30,
-    /// Sensitivity coefficient c_T = ∂ln m/∂ln T.
-    pub c_t: I2F30,
+    /// Sensitivity coefficient c_p = ∂ln m/∂ln p (±128).
+    pub c_p: I8F24,
+    /// Sensitivity coefficient c_T = ∂ln m/∂ln T (±128).
+    pub c_t: I8F24,
 }
 
 /// Fraction bits of the internal fraction-of-rated-content terms.
@@ -192,8 +192,8 @@ impl EvaluatorFx {
         UncertaintyFx {
             mass_kg: fx::Mass::from_bits(mass),
             fill_fraction: fx::Fraction::from_bits((u_frac as u64) << 5),
-            c_p: I2F30::from_bits(c_p.clamp(i32::MIN as i128, i32::MAX as i128) as i32),
-            c_t: I2F30::from_bits(c_t.clamp(i32::MIN as i128, i32::MAX as i128) as i32),
+            c_p: I8F24::from_bits((c_p >> 6).clamp(i32::MIN as i128, i32::MAX as i128) as i32),
+            c_t: I8F24::from_bits((c_t >> 6).clamp(i32::MIN as i128, i32::MAX as i128) as i32),
         }
     }
 }
