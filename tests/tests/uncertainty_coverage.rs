@@ -9,7 +9,9 @@
 
 use isochor_core::constants::MOLAR_GAS_CONSTANT_J_MOL_K;
 use isochor_core::content::{fixed, float};
-use isochor_core::model::{Compressibility, CompressibilityFx, Ideal, ModelRange, ZPoint, ZPointFx};
+use isochor_core::model::{
+    Compressibility, CompressibilityFx, Ideal, ModelRange, ZPoint, ZPointFx,
+};
 use isochor_core::uncertainty::fixed::{EvaluatorFx, UncertaintyConfigFx};
 use isochor_core::uncertainty::float::{Evaluator, UncertaintyConfig};
 use isochor_core::{Gas, Setup, SetupFx, Status, Tank, envelope as env, fx};
@@ -85,7 +87,11 @@ fn k2_intervals_cover_at_least_95_percent_of_readings() {
     ] {
         assert!(pct(c) >= 95.0, "{what}: coverage {:.2} %", pct(c));
         // Not grossly conservative either: a k = 2 interval covers ~95.4 %.
-        assert!(pct(c) <= 98.5, "{what}: coverage {:.2} % (too wide)", pct(c));
+        assert!(
+            pct(c) <= 98.5,
+            "{what}: coverage {:.2} % (too wide)",
+            pct(c)
+        );
     }
     assert!(worst_fx < 1e-5);
 }
@@ -188,7 +194,9 @@ fn sensitivities_match_finite_differences_and_fixed_matches_f64() {
                 .max((fx::to_f64(ux.c_t) - u.c_t).abs());
         }
     }
-    println!("sensitivities vs finite differences: worst {worst_c:.1e}; fixed vs f64 uncertainty: worst {worst_fx:.1e}");
+    println!(
+        "sensitivities vs finite differences: worst {worst_c:.1e}; fixed vs f64 uncertainty: worst {worst_fx:.1e}"
+    );
     assert!(worst_c < 2e-3, "{worst_c}");
     assert!(worst_fx < 1e-5, "{worst_fx}");
 }

@@ -94,7 +94,7 @@ impl LimitsFx {
             clear = clear.with(
                 AlarmKind::OverPressure,
                 c.settled_fraction
-                    .is_none_or(|f| f < self.over_fill_fraction.saturating_sub(h))
+                    .is_some_and(|f| f < self.over_fill_fraction.saturating_sub(h))
                     && c.pressure_pa
                         < self
                             .pressure_max_pa
@@ -142,7 +142,8 @@ pub struct LevelInputs {
     /// The fill fraction the over-fill criterion judges: the present one when
     /// settled, the predicted settled one while not settled (`None` until
     /// there is a prediction: right after a fast fill the warm gas reads
-    /// high, and only the absolute pressure limit applies).
+    /// high, so the over-fill criterion neither raises nor clears then, and
+    /// only the absolute pressure limit can raise the alarm).
     pub settled_fraction: Option<fx::Fraction>,
     /// Expected time to empty, when the rate is known to better than ±50 %.
     pub time_to_empty: Option<Millis>,

@@ -133,7 +133,7 @@ impl<F: Real> Limits<F> {
             clear = clear.with(
                 AlarmKind::OverPressure,
                 c.settled_fraction
-                    .is_none_or(|f| f < self.over_fill_fraction - h)
+                    .is_some_and(|f| f < self.over_fill_fraction - h)
                     && c.pressure_pa < self.pressure_max_pa - self.pressure_hysteresis_pa,
             );
             let th = self.temperature_hysteresis_k;
@@ -178,7 +178,8 @@ pub struct LevelInputs<F> {
     /// The fill fraction the over-fill criterion judges: the present one when
     /// settled, the predicted settled one while not settled (`None` until
     /// there is a prediction: right after a fast fill the warm gas reads
-    /// high, and only the absolute pressure limit applies).
+    /// high, so the over-fill criterion neither raises nor clears then, and
+    /// only the absolute pressure limit can raise the alarm).
     pub settled_fraction: Option<F>,
     /// Expected time to empty down to the reserve, when the rate is known to
     /// better than ±50 % (k = 2).
