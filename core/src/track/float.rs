@@ -698,6 +698,101 @@ fn median3<F: Real>(a: F, b: F, c: F) -> F {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::model::Ideal;
+    use crate::{Gas, Setup, StandardCondition};
+
+    fn tracker_f32() -> Tracker<f32, Ideal> {
+        let setup = Setup {
+            gas: Gas::Nitrogen,
+            tank: Tank::new(0.05f32, 200e5),
+            standard: StandardCondition {
+                temperature_k: 288.15f32,
+                pressure_pa: 101_325.0,
+            },
+            settled_reference_k: 288.15f32,
+        };
+        let est = Estimator::new(setup, Ideal::new(Gas::Nitrogen)).unwrap();
+        let c = TrackConfig::for_tank(&Tank::new(0.05, 200e5), UncertaintyConfig::example(300e5));
+        let cfg = TrackConfig {
+            smoothing_pressure: c.smoothing_pressure,
+            smoothing_temperature: c.smoothing_temperature,
+            block: c.block,
+            max_gap: c.max_gap,
+            reserve_fraction: 0.05f32,
+            settle_time_constant: c.settle_time_constant,
+            settle_step: 0.005,
+            settle_tolerance: 0.002,
+            leak_mode: c.leak_mode,
+            declared_draw_kg_h: None,
+            leak_threshold_per_day: 0.001,
+            uncertainty: UncertaintyConfig {
+                pressure_full_scale_pa: 300e5f32,
+                pressure_fs: 0.0015,
+                pressure_reading: 0.0006,
+                temperature_k: 0.5,
+                capacity: 0.005,
+                model: 0.001,
+            },
+            limits: Limits {
+                low_fraction: 0.1f32,
+                low_time_to_empty: c.limits.low_time_to_empty,
+                fraction_hysteresis: 0.01,
+                over_fill_fraction: 1.02,
+                pressure_max_pa: 250e5,
+                pressure_hysteresis_pa: 2e5,
+                temperature_max_k: 338.15,
+                temperature_min_k: 233.15,
+                temperature_hysteresis_k: 2.0,
+            },
+            debounce: c.debounce,
+        };
+        Tracker::new(est, cfg).unwrap()
+    }
+
+    #[test]
+    fn single_precision_runs_a_steady_draw() {
+        // f32 exists for firmware budgets: the same algorithm must work.
+        let mut t = tracker_f32();
+        let mut last = None;
+        for i in 0..3600u64 {
+            // 180 bar falling 10 bar per hour at 15 °C.
+            let p = 180e5f32 - 10e5 * i as f32 / 3600.0;
+            last = Some(t.update(Instant(i * 1000), p, 288.15, Status::OK).unwrap());
+        }
+        let r = last.unwrap().rate.unwrap();
+        // 10 bar/h of 200 bar rated = 5 %/h of the rated mass (11.7 kg).
+        let expected = 0.05 * t.estimator().rated_mass_kg();
+        assert!((r.kg_h / expected - 1.0).abs() < 1e-3, "{r:?}");
+    }
+
+    #[test]
+    fn bad_readings_are_errors_and_gaps_restart_the_windows() {
+        let mut t = tracker_f32();
+        for i in 0..900u64 {
+            t.update(Instant(i * 1000), 150e5, 288.15, Status::OK)
+                .unwrap();
+        }
+        assert!(
+            t.update(Instant(900_000), f32::NAN, 288.15, Status::OK)
+                .is_err()
+        );
+        // A flagged reading is no error: it is skipped and counted as a fault.
+        let r = t
+            .update(
+                Instant(901_000),
+                f32::NAN,
+                288.15,
+                Status::from_bits(1 << 8),
+            )
+            .unwrap();
+        assert!(r.status.intersects(Status::SENSOR_RANGE));
+        assert!(r.rate.is_some());
+        // Ten minutes without samples (more than max_gap): windows restart.
+        let r = t
+            .update(Instant(1_600_000), 150e5, 288.15, Status::OK)
+            .unwrap();
+        assert!(r.rate.is_none());
+    }
 
     #[test]
     fn median_of_three() {
