@@ -3,7 +3,7 @@
 //!
 //! An alarm is evaluated in two steps:
 //!
-//! 1. **Conditions** (numbers, so mirrored: [`fixed::Limits`] and
+//! 1. **Conditions** (numbers, so mirrored: [`fixed::LimitsFx`] and
 //!    [`float::Limits`]): from the present values, is the raise condition met
 //!    (value beyond its threshold), and is the clear condition met (value back
 //!    past the threshold by the hysteresis band)? Conditions computed by the

@@ -750,7 +750,10 @@ impl<M: CompressibilityFx> Tracker<M> {
             ((self.cfg.leak_threshold_per_day.to_bits() as i128 * older as i128) >> 32) as i64;
         let rel = |v: i64| {
             if older > 0 {
-                ((v as i128) << 32).checked_div(older as i128).unwrap_or(0) as i64
+                ((v as i128) << 32)
+                    .checked_div(older as i128)
+                    .unwrap_or(0)
+                    .clamp(i64::MIN as i128, i64::MAX as i128) as i64
             } else {
                 0
             }
