@@ -13,6 +13,9 @@
 //! | vessel elastic expansion, 1/MPa | [`ElasticExpansion`] = `U0F32` | 0 … 1 | 2.3e-10 |
 //! | vessel thermal expansion, 1/K | [`ThermalExpansion`] = `I0F32` | ±0.5 | 2.3e-10 |
 //! | vessel volume factor V/V₀ | [`Compressibility`] = `U2F30` | 0 … 4 | 9.3e-10 |
+//! | mass flow kg/h, volume flow m³/h (signed) | [`MassRate`], [`VolumeRate`] = `I32F32` | ±2.1e9 | 2.3e-10 |
+//! | fraction per hour or per day (signed) | [`FractionRate`] = `I32F32` | ±2.1e9 | 2.3e-10 |
+//! | small fractions (thresholds, uncertainties) | [`SmallFraction`] = `U0F32` | 0 … 1 | 2.3e-10 |
 //!
 //! # How the per-sample arithmetic stays cheap
 //!
@@ -25,7 +28,7 @@
 //! happen only while preparing a setup, plus one per density and one per
 //! iteration of the settled-pressure solver.
 
-use fixed::types::{I0F32, I8F24, U0F32, U2F30, U16F16, U24F40, U28F4, U32F32};
+use fixed::types::{I0F32, I8F24, I32F32, U0F32, U2F30, U16F16, U24F40, U28F4, U32F32};
 
 /// Absolute pressure in pascal.
 pub type Pressure = U28F4;
@@ -49,6 +52,15 @@ pub type Fraction = U32F32;
 pub type ElasticExpansion = U0F32;
 /// Relative volume change of a vessel per kelvin.
 pub type ThermalExpansion = I0F32;
+/// Mass flow, kg/h (signed: positive = gas leaving the tank where a field
+/// says "consumption").
+pub type MassRate = I32F32;
+/// Standard-volume flow, m³/h (signed like [`MassRate`]).
+pub type VolumeRate = I32F32;
+/// A rate of a fraction of content, per hour or per day (signed).
+pub type FractionRate = I32F32;
+/// A fraction below one: thresholds and relative uncertainties.
+pub type SmallFraction = U0F32;
 
 /// A positive constant prepared for the fixed-point path: `mantissa × 2^-shift`
 /// with the mantissa normalised to `[2^31, 2^32)` (or zero).

@@ -42,6 +42,7 @@
     )
 )]
 
+pub mod alarm;
 pub mod checksum;
 pub mod constants;
 pub mod content;
@@ -54,6 +55,8 @@ mod real;
 mod setup;
 mod status;
 pub mod time;
+pub mod track;
+pub mod uncertainty;
 
 pub use error::Error;
 /// The fixed-point crate the device formats come from (re-exported so users

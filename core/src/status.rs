@@ -49,6 +49,26 @@ flags! {
     /// At the settled reference temperature the same content would be liquid or
     /// two-phase: the settled pressure is not valid.
     SETTLED_TWO_PHASE = 6, "settled_two_phase";
+    /// Alarm: the gas has not settled after a fast fill or draw; pressure and
+    /// content still drift towards the predicted settled values.
+    NOT_SETTLED = 16, "not_settled";
+    /// Alarm: content is lost faster than allowed (standby: any loss; in use:
+    /// loss beyond the declared or learned draw), judged on the
+    /// temperature-compensated content.
+    LEAK = 17, "leak";
+    /// Alarm: content fraction or time to empty below its threshold.
+    LOW_CONTENT = 18, "low_content";
+    /// Alarm: content above the rated content (pressure above the rated
+    /// pressure corrected to the present temperature) or pressure above 5/4
+    /// of the service pressure.
+    OVER_PRESSURE = 19, "over_pressure";
+    /// Alarm: gas temperature above its limit.
+    OVER_TEMPERATURE = 20, "over_temperature";
+    /// Alarm: gas temperature below its limit.
+    UNDER_TEMPERATURE = 21, "under_temperature";
+    /// Alarm: the sensor front end has reported a fault (any flag of
+    /// [`Status::SENSOR_RANGE`]) for longer than the debounce time.
+    SENSOR_FAULT = 22, "sensor_fault";
 }
 
 impl Status {

@@ -193,3 +193,6 @@ pub fn temperature_grid(step_k: f64) -> Vec<f64> {
     v.push(env::TEMPERATURE_MAX_K);
     v
 }
+
+pub mod synth;
+pub mod tracking;

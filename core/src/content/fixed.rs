@@ -87,6 +87,8 @@ pub struct Estimator<M> {
     standard_volume: Coef,
     /// τ per unit ρv: R·T_ref/M, Pa per kg/m³.
     target: Coef,
+    /// 1/T_ref, per K.
+    inv_t_ref: Coef,
     /// Flags raised while preparing (model range at the rated or standard condition).
     setup_status: Status,
 }
@@ -141,6 +143,10 @@ impl<M: CompressibilityFx> Estimator<M> {
                     T_FRAC,
                 ))
                 .mul(gas.inv_molar_mass),
+            inv_t_ref: recip(Coef::from_raw(
+                setup.settled_reference_k.to_bits() as u64,
+                T_FRAC,
+            ))?,
             setup_status: Status::OK,
         };
 
@@ -275,13 +281,58 @@ impl<M: CompressibilityFx> Estimator<M> {
         v.clamp(0, u32::MAX as i64) as u32
     }
 
+    /// The pressure that a content given as a fill fraction develops at the
+    /// temperature `temperature` in this tank: the same bounded Newton solver
+    /// as the settled pressure, at another temperature. Used for the
+    /// over-pressure limit (the rated content, fraction 1, at the present
+    /// temperature) and for predicted settled pressures. The fraction is
+    /// clamped to 0…16 and the temperature to the envelope. Cost: two
+    /// constant products plus the solver (one 64/64 division per step).
+    pub fn pressure_at(
+        &self,
+        fill_fraction: fx::Fraction,
+        temperature: fx::Temperature,
+    ) -> (fx::Pressure, Status) {
+        // Fraction Q32 clamped below 16 → Q28 in 32 bits.
+        let f_q28 = (fill_fraction.to_bits().min((16u64 << 32) - 1) >> 4) as u32;
+        let t = temperature.to_bits().clamp(
+            env::TEMPERATURE_MIN.to_bits(),
+            env::TEMPERATURE_MAX.to_bits(),
+        );
+        // ρv = f·ρv_rated, internal density scale (≤ 16 × rated, see new()).
+        let (rho_v, over) = shr_round(f_q28 as u64 * self.rho_v_rated as u64, 28);
+        let (rho_v, sat) = sat_u32(rho_v);
+        // τ per unit ρv at t: R·T_ref/M × t/T_ref.
+        let per = self
+            .target
+            .mul(Coef::from_raw(t as u64, T_FRAC))
+            .mul(self.inv_t_ref);
+        let (p, mut status) =
+            self.solve_pressure(per, fx::Temperature::from_bits(t), rho_v, ONE_Q30 as u32);
+        if over || sat {
+            status |= Status::SATURATED;
+        }
+        (fx::Pressure::from_bits(p), status)
+    }
+
     /// Settled pressure (raw `Pressure` bits) for the content ρv, seeded with
     /// Z at the sample (raw `Compressibility` bits).
     fn settle(&self, rho_v: u32, z_now: u32) -> (u32, Status) {
+        self.solve_pressure(self.target, self.setup.settled_reference_k, rho_v, z_now)
+    }
+
+    /// Solves p·f(p, t_ref) = τ·Z(p, t_ref) for p (raw `Pressure` bits) with
+    /// τ = `per_rho_v`·ρv, seeded with τ·`z_now`.
+    fn solve_pressure(
+        &self,
+        per_rho_v: Coef,
+        t_ref: fx::Temperature,
+        rho_v: u32,
+        z_now: u32,
+    ) -> (u32, Status) {
         let mut status = Status::OK;
-        let t_ref = self.setup.settled_reference_k;
         // τ = ρv·R·T_ref/M in Pressure bits.
-        let (target, over) = self.target.scale(rho_v, self.rho_shift, P_FRAC);
+        let (target, over) = per_rho_v.scale(rho_v, self.rho_shift, P_FRAC);
         let (target, sat) = sat_u32(target);
         if over || sat {
             status |= Status::SATURATED;

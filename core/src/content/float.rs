@@ -169,12 +169,43 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
             + tank.thermal_expansion_per_k * (t - tank.rated_temperature_k)
     }
 
+    /// The pressure (Pa, absolute) that a content given as a fill fraction
+    /// develops at the temperature `temperature_k` in this tank: the same
+    /// bounded Newton solver as the settled pressure, at another temperature.
+    /// Used for the over-pressure limit (the rated content, fraction 1, at the
+    /// present temperature) and for predicted settled pressures. Inputs are
+    /// clamped: the fraction to 0…16, the temperature to the envelope.
+    pub fn pressure_at(&self, fill_fraction: F, temperature_k: F) -> (F, Status) {
+        let f = if fill_fraction.is_finite() {
+            fill_fraction.clamp_to(F::ZERO, F::lit(16.0))
+        } else {
+            F::ZERO
+        };
+        let t = if temperature_k.is_finite() {
+            temperature_k
+        } else {
+            self.setup.settled_reference_k
+        };
+        let t = t.clamp_to(
+            F::lit(env::TEMPERATURE_MIN_K),
+            F::lit(env::TEMPERATURE_MAX_K),
+        );
+        let rho_v = f * self.rho_v_rated;
+        let target = rho_v * self.target_per_rho_v * t / self.setup.settled_reference_k;
+        self.solve_pressure(target, t, F::ONE)
+    }
+
     /// Settled pressure for the content ρv, seeded with Z at the sample.
     fn settle(&self, rho_v: F, z_now: F) -> (F, Status) {
-        let p_max = F::lit(SETTLED_PRESSURE_MAX_PA);
-        let t_ref = self.setup.settled_reference_k;
         let target = rho_v * self.target_per_rho_v;
-        let mut p = (target * z_now).clamp_to(F::ZERO, p_max);
+        self.solve_pressure(target, self.setup.settled_reference_k, z_now)
+    }
+
+    /// Solves p·f(p, t) = τ·Z(p, t) for p with τ = `target`, seeded with
+    /// τ·`z_seed`.
+    fn solve_pressure(&self, target: F, t_ref: F, z_seed: F) -> (F, Status) {
+        let p_max = F::lit(SETTLED_PRESSURE_MAX_PA);
+        let mut p = (target * z_seed).clamp_to(F::ZERO, p_max);
         let mut flags = Status::OK;
         let mut converged = false;
         for _ in 0..SETTLE_ITERATIONS {

@@ -1,0 +1,883 @@
+//! Tracking over time, fixed-point form: the device path. Same steps and
+//! names as [`super::float`]; the method is in [`super`].
+//!
+//! # Formats inside
+//!
+//! * fill fraction in blocks and windows: `u32` with 28 fraction bits (Q28,
+//!   0 … 16 rated contents, 3.7e-9 resolution); fits and rates in `i64` Q36;
+//! * smoothing states: the input's raw bits with 16 more fraction bits, and
+//!   α in Q16 (α = Δt/(τ + Δt), recomputed only when Δt changes);
+//! * rates leave as `I32F32` (kg/h, m³/h, fraction per day).
+//!
+//! # Cost
+//!
+//! Per sample, besides the content estimate: two medians of three (six
+//! compares), two smoothing steps (two 48×16-bit multiplies), one fraction
+//! accumulation (one 64-bit add), the alarm conditions (about fifteen
+//! compares) and the debounce (seven small state machines). No division per
+//! sample unless the sample interval changed (then two 64/32 divisions for
+//! α). Per block (default once a minute): one 64/32 division for the block
+//! mean, the least-squares fits (about 100 multiply-adds, two 64-bit
+//! divisions, two integer square roots), the uncertainty (one 64/32
+//! division, two square roots) and two runs of the bounded pressure solver
+//! (over-pressure reference and settled prediction). Per hour: two 128-bit
+//! divisions for the reported leak rates.
+
+use super::float::TrackConfig;
+use super::{
+    DAY_HOURS, HOUR_MS, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
+    SETTLE_WINDOW, validate_timing,
+};
+use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
+use crate::alarm::{Alarms, DebounceTable, Events};
+use crate::content::fixed::{Content, Estimator};
+use crate::fx::{self, Coef};
+use crate::model::CompressibilityFx;
+use crate::time::{Instant, Millis};
+use crate::uncertainty::fixed::{EvaluatorFx, UncertaintyConfigFx, UncertaintyFx, isqrt};
+use crate::{Error, Status};
+
+pub use super::float::TimeToEmpty;
+
+/// Fraction bits of block means and windows.
+const Q: u32 = 28;
+/// Fraction bits of fits and rates.
+const QF: u32 = 36;
+/// Extra fraction bits of the smoothing states.
+const SMOOTH_FRAC: u32 = 16;
+/// 1/(24 × 24): from the ×24 daily loss in fraction per day to per hour.
+const PER_576: Coef = Coef::from_f64(1.0 / 576.0);
+/// Largest raw input smoothed (2^31 − 1: far outside the envelope already).
+const RAW_MAX: u32 = i32::MAX as u32;
+
+/// Everything the tracker needs besides the estimator, fixed-point form (see
+/// [`TrackConfig`] for meanings and limits).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct TrackConfigFx {
+    /// Time constant of the pressure smoothing.
+    pub smoothing_pressure: Millis,
+    /// Time constant of the temperature smoothing.
+    pub smoothing_temperature: Millis,
+    /// Length of a rate block (divides one hour).
+    pub block: Millis,
+    /// A longer time between usable samples restarts the windows.
+    pub max_gap: Millis,
+    /// Time to empty counts down to this fill fraction.
+    pub reserve_fraction: fx::Fraction,
+    /// Time constant of thermal settling.
+    pub settle_time_constant: Millis,
+    /// Block-to-block change of the fill fraction that marks a fast fill or draw.
+    pub settle_step: fx::SmallFraction,
+    /// Settled when the predicted drift left is below this fraction.
+    pub settle_tolerance: fx::SmallFraction,
+    /// How losses are judged.
+    pub leak_mode: LeakMode,
+    /// In use: the expected draw, kg/h (`None`: learned).
+    pub declared_draw_kg_h: Option<fx::MassRate>,
+    /// Leak above this fraction of the content per day.
+    pub leak_threshold_per_day: fx::SmallFraction,
+    /// Declared input uncertainties.
+    pub uncertainty: UncertaintyConfigFx,
+    /// Alarm thresholds.
+    pub limits: LimitsFx,
+    /// Alarm debounce times.
+    pub debounce: DebounceTable,
+}
+
+impl TrackConfigFx {
+    /// Converts (rounding to nearest) and validates a float configuration.
+    pub fn from_f64(c: &TrackConfig<f64>) -> Result<Self, Error> {
+        c.validate()?;
+        let declared_draw_kg_h = match c.declared_draw_kg_h {
+            Some(d) => Some(fx::from_f64(d, "declared draw")?),
+            None => None,
+        };
+        let fx = TrackConfigFx {
+            smoothing_pressure: c.smoothing_pressure,
+            smoothing_temperature: c.smoothing_temperature,
+            block: c.block,
+            max_gap: c.max_gap,
+            reserve_fraction: fx::from_f64(c.reserve_fraction, "reserve fraction")?,
+            settle_time_constant: c.settle_time_constant,
+            settle_step: fx::from_f64(c.settle_step, "settle step")?,
+            settle_tolerance: fx::from_f64(c.settle_tolerance, "settle tolerance")?,
+            leak_mode: c.leak_mode,
+            declared_draw_kg_h,
+            leak_threshold_per_day: fx::from_f64(c.leak_threshold_per_day, "leak threshold")?,
+            uncertainty: UncertaintyConfigFx::from_f64(&c.uncertainty)?,
+            limits: LimitsFx::from_f64(&c.limits)?,
+            debounce: c.debounce,
+        };
+        fx.validate()?;
+        Ok(fx)
+    }
+
+    /// The exact float equivalent.
+    pub fn to_real<F: crate::Real>(&self) -> TrackConfig<F> {
+        TrackConfig {
+            smoothing_pressure: self.smoothing_pressure,
+            smoothing_temperature: self.smoothing_temperature,
+            block: self.block,
+            max_gap: self.max_gap,
+            reserve_fraction: F::lit(fx::to_f64(self.reserve_fraction)),
+            settle_time_constant: self.settle_time_constant,
+            settle_step: F::lit(fx::to_f64(self.settle_step)),
+            settle_tolerance: F::lit(fx::to_f64(self.settle_tolerance)),
+            leak_mode: self.leak_mode,
+            declared_draw_kg_h: self.declared_draw_kg_h.map(|d| F::lit(fx::to_f64(d))),
+            leak_threshold_per_day: F::lit(fx::to_f64(self.leak_threshold_per_day)),
+            uncertainty: self.uncertainty.to_real(),
+            limits: self.limits.to_real(),
+            debounce: self.debounce,
+        }
+    }
+
+    /// Checks every field against its accepted range (integer comparisons).
+    pub fn validate(&self) -> Result<(), Error> {
+        validate_timing(
+            self.block,
+            self.max_gap,
+            [self.smoothing_pressure, self.smoothing_temperature],
+            self.settle_time_constant,
+        )?;
+        if self.reserve_fraction > fx::Fraction::ONE {
+            return Err(Error::OutOfRange("reserve fraction"));
+        }
+        let half = fx::SmallFraction::from_bits(1 << 31);
+        for (v, what) in [
+            (self.settle_step, "settle step"),
+            (self.settle_tolerance, "settle tolerance"),
+            (self.leak_threshold_per_day, "leak threshold"),
+        ] {
+            if v > half {
+                return Err(Error::OutOfRange(what));
+            }
+        }
+        if let Some(d) = self.declared_draw_kg_h
+            && (d < fx::MassRate::ZERO || d > fx::MassRate::from_num(1_000_000))
+        {
+            return Err(Error::OutOfRange("declared draw"));
+        }
+        self.limits.to_real::<f64>().validate()
+    }
+}
+
+/// Consumption rate from the compensated content, fixed-point form (see
+/// [`super::float::Rate`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct RateFx {
+    /// Consumption, kg/h (positive: gas leaving the tank).
+    pub kg_h: fx::MassRate,
+    /// Consumption, standard m³/h.
+    pub standard_m3_h: fx::VolumeRate,
+    /// Expanded uncertainty of the rate (k = 2), kg/h.
+    pub u_kg_h: fx::MassRate,
+    /// 1 − U/|rate|, 0 … 1.
+    pub confidence: fx::Fraction,
+    /// Blocks in the fit.
+    pub blocks: u32,
+}
+
+/// Thermal settling state and prediction, fixed-point form.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct SettlingFx {
+    /// A fast fill or draw happened and the gas has not settled yet.
+    pub not_settled: bool,
+    /// Predicted settled values, once the settling window is full.
+    pub predicted: Option<SettledPredictionFx>,
+}
+
+/// What the gauge will read once the gas has settled (fixed-point form).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct SettledPredictionFx {
+    /// Predicted settled pressure at the present temperature, absolute.
+    pub pressure_pa: fx::Pressure,
+    /// Predicted settled mass.
+    pub mass_kg: fx::Mass,
+    /// Predicted settled fill fraction.
+    pub fill_fraction: fx::Fraction,
+}
+
+/// The leak detector's latest verdict (fixed-point form).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct LeakFx {
+    /// Loss over the last day, fraction of the content per day.
+    pub loss_per_day: fx::FractionRate,
+    /// Loss beyond the expected draw, fraction of the content per day.
+    pub excess_per_day: fx::FractionRate,
+    /// The expected draw it was judged against, kg/h.
+    pub expected_draw_kg_h: fx::MassRate,
+    /// The excess loss exceeds the threshold.
+    pub leaking: bool,
+}
+
+/// Everything the tracker reports for one sample (fixed-point form; see
+/// [`super::float::Track`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct TrackFx {
+    /// The sample's time.
+    pub at: Instant,
+    /// The content estimate on the despiked, smoothed sample.
+    pub content: Option<Content>,
+    /// Expanded uncertainty (k = 2) of mass and fill fraction.
+    pub uncertainty: Option<UncertaintyFx>,
+    /// Consumption rate.
+    pub rate: Option<RateFx>,
+    /// Time to empty.
+    pub time_to_empty: Option<TimeToEmpty>,
+    /// Thermal settling.
+    pub settling: SettlingFx,
+    /// Leak detector verdict.
+    pub leak: Option<LeakFx>,
+    /// The pressure the rated content develops at the present temperature.
+    pub rated_pressure_now_pa: Option<fx::Pressure>,
+    /// Alarm raises and clears at this sample.
+    pub events: Events,
+    /// Content flags, the sample's sensor flags and the active alarms.
+    pub status: Status,
+}
+
+/// One least-squares line through equally spaced block means (Q36).
+#[derive(Clone, Copy, Debug)]
+struct Fit {
+    mean: i64,
+    /// Per block.
+    slope: i64,
+    /// Standard error of the slope, per block.
+    se: i64,
+}
+
+/// The tracker: all state of the pipeline for one tank (fixed-point form).
+#[derive(Clone, Debug)]
+pub struct Tracker<M> {
+    est: Estimator<M>,
+    cfg: TrackConfigFx,
+    unc: EvaluatorFx,
+    alarms: Alarms,
+    /// Rated mass per unit fraction; rated standard volume per unit fraction.
+    rated_mass: Coef,
+    rated_volume: Coef,
+    /// Rated mass / (24 × 24): kg/h per unit of the ×24 daily loss.
+    draw_kg_h: Coef,
+    /// Declared draw, Q28 fraction per day × 24.
+    declared24: Option<i64>,
+    blocks_per_hour: u32,
+    tau_blocks: Coef,
+    // Despike and smoothing.
+    last_at: Option<Instant>,
+    p_hist: [u32; 2],
+    t_hist: [u32; 2],
+    hist_len: u8,
+    p_smooth: i64,
+    t_smooth: i64,
+    alpha_dt: Millis,
+    alpha_p: i64,
+    alpha_t: i64,
+    // Blocks.
+    block_start: Instant,
+    block_sum: u64,
+    block_n: u32,
+    ring: [u32; RATE_WINDOW],
+    ring_len: usize,
+    prev_block: Option<u32>,
+    // Leak.
+    hour_sum: u64,
+    hour_blocks: u32,
+    day_ring: [u32; LEAK_RING],
+    day_len: usize,
+    learned24: Option<i64>,
+    // Settling.
+    settle_active: bool,
+    settle_blocks: usize,
+    settle_since: Instant,
+    // Latest outputs.
+    content: Option<Content>,
+    uncertainty: Option<UncertaintyFx>,
+    rate: Option<RateFx>,
+    tte: Option<TimeToEmpty>,
+    predicted: Option<SettledPredictionFx>,
+    leak: Option<LeakFx>,
+    rated_pressure_now_pa: Option<fx::Pressure>,
+}
+
+impl<M: CompressibilityFx> Tracker<M> {
+    /// A tracker for the tank of `est`, with no history. All divisions of
+    /// the configuration happen here.
+    pub fn new(est: Estimator<M>, cfg: TrackConfigFx) -> Result<Self, Error> {
+        cfg.validate()?;
+        let unc = EvaluatorFx::new(cfg.uncertainty, &est)?;
+        let tank = est.setup().tank;
+        let rated = est.estimate(tank.rated_pressure_pa, tank.rated_temperature_k);
+        let rated_mass = Coef::from_raw(est.rated_mass_kg().to_bits(), 40);
+        let inv_rated_mass = rated_mass
+            .recip()
+            .ok_or(Error::ModelUnusable("rated condition"))?;
+        // Rated standard volume = rated mass × (standard volume / mass).
+        let v_per_kg = Coef::from_raw(rated.standard_volume_m3.to_bits(), 40).mul(
+            Coef::from_raw(rated.mass_kg.to_bits(), 40)
+                .recip()
+                .ok_or(Error::ModelUnusable("rated condition"))?,
+        );
+        let blocks_per_hour = (HOUR_MS / cfg.block.0) as u32;
+        let declared24 = match cfg.declared_draw_kg_h {
+            Some(d) => {
+                // kg/h × 24 h / rated mass = fraction per day; × 24 for the
+                // ×24 daily sums; in Q28.
+                let c = Coef::from_raw(d.to_bits().max(0) as u64, 32)
+                    .mul(Coef::from_raw(24 * 24, 0))
+                    .mul(inv_rated_mass);
+                let (v, _) = c.scale(1, 0, Q);
+                Some(v.min(i64::MAX as u64) as i64)
+            }
+            None => None,
+        };
+        Ok(Tracker {
+            unc,
+            alarms: Alarms::new(cfg.debounce),
+            rated_mass,
+            rated_volume: rated_mass.mul(v_per_kg),
+            draw_kg_h: rated_mass.mul(PER_576),
+            declared24,
+            blocks_per_hour,
+            tau_blocks: Coef::from_raw(cfg.settle_time_constant.0, 0).mul(
+                Coef::from_raw(cfg.block.0, 0)
+                    .recip()
+                    .ok_or(Error::OutOfRange("block"))?,
+            ),
+            last_at: None,
+            p_hist: [0; 2],
+            t_hist: [0; 2],
+            hist_len: 0,
+            p_smooth: 0,
+            t_smooth: 0,
+            alpha_dt: Millis(0),
+            alpha_p: 1 << SMOOTH_FRAC,
+            alpha_t: 1 << SMOOTH_FRAC,
+            block_start: Instant(0),
+            block_sum: 0,
+            block_n: 0,
+            ring: [0; RATE_WINDOW],
+            ring_len: 0,
+            prev_block: None,
+            hour_sum: 0,
+            hour_blocks: 0,
+            day_ring: [0; LEAK_RING],
+            day_len: 0,
+            learned24: None,
+            settle_active: false,
+            settle_blocks: 0,
+            settle_since: Instant(0),
+            content: None,
+            uncertainty: None,
+            rate: None,
+            tte: None,
+            predicted: None,
+            leak: None,
+            rated_pressure_now_pa: None,
+            est,
+            cfg,
+        })
+    }
+
+    /// The content estimator.
+    pub fn estimator(&self) -> &Estimator<M> {
+        &self.est
+    }
+
+    /// The configuration.
+    pub fn config(&self) -> &TrackConfigFx {
+        &self.cfg
+    }
+
+    /// Forgets the learned draw (in-use leak mode learns it again).
+    pub fn relearn_draw(&mut self) {
+        self.learned24 = None;
+    }
+
+    /// The expected draw learned in use, kg/h.
+    pub fn learned_draw_kg_h(&self) -> Option<fx::MassRate> {
+        self.learned24
+            .map(|d| fx::MassRate::from_bits(coef_mul(self.draw_kg_h, d, Q, 32)))
+    }
+
+    /// Takes one sample: absolute pressure and temperature from the sensor
+    /// front end, the front end's flags for this sample (only
+    /// [`Status::SENSOR_RANGE`] bits are looked at) and the sample's time.
+    /// Never fails.
+    pub fn update(
+        &mut self,
+        at: Instant,
+        pressure: fx::Pressure,
+        temperature: fx::Temperature,
+        sensor: Status,
+    ) -> TrackFx {
+        let sensor = sensor & Status::SENSOR_RANGE;
+        let fault = !sensor.is_ok();
+        if !fault {
+            self.check_gap(at);
+            let (p, t) = self.despike(
+                pressure.to_bits().min(RAW_MAX),
+                temperature.to_bits().min(RAW_MAX),
+            );
+            let (p, t) = self.smooth(at, p, t);
+            let content = self
+                .est
+                .estimate(fx::Pressure::from_bits(p), fx::Temperature::from_bits(t));
+            self.content = Some(content);
+            self.close_blocks(at, &content);
+            if !content.status.intersects(Status::CONTENT_INVALID) {
+                let bits = content.fill_fraction.to_bits();
+                let q = ((bits >> (32 - Q)) + ((bits >> (31 - Q)) & 1)).min(u32::MAX as u64);
+                self.block_sum += q;
+                self.block_n += 1;
+            }
+            self.last_at = Some(at);
+        }
+
+        let level = self.content.map(|c| LevelInputs {
+            pressure_pa: c.pressure_pa,
+            temperature_k: c.temperature_k,
+            fill_fraction: c.fill_fraction,
+            settled_fraction: if self.settle_active {
+                self.predicted.map(|p| p.fill_fraction)
+            } else {
+                Some(c.fill_fraction)
+            },
+            time_to_empty: self.tte_for_alarm(),
+        });
+        let (raise, clear) = self.cfg.limits.conditions(&Inputs {
+            content: level,
+            sensor_fault: fault,
+            leak: self.leak.is_some_and(|l| l.leaking),
+            not_settled: self.settle_active,
+        });
+        let events = self.alarms.update(at, raise, clear);
+        let content_status = self.content.map_or(Status::OK, |c| c.status);
+        TrackFx {
+            at,
+            content: self.content,
+            uncertainty: self.uncertainty,
+            rate: self.rate,
+            time_to_empty: self.tte,
+            settling: SettlingFx {
+                not_settled: self.settle_active,
+                predicted: if self.settle_active {
+                    self.predicted
+                } else {
+                    None
+                },
+            },
+            leak: self.leak,
+            rated_pressure_now_pa: self.rated_pressure_now_pa,
+            events,
+            status: content_status | sensor | self.alarms.active().status(),
+        }
+    }
+
+    /// The time to empty the low-content alarm may use (confidence ≥ 0.5).
+    fn tte_for_alarm(&self) -> Option<Millis> {
+        match (self.rate, self.tte) {
+            (Some(r), Some(t)) if r.confidence >= fx::Fraction::from_bits(1 << 31) => {
+                Some(t.expected)
+            }
+            _ => None,
+        }
+    }
+
+    /// Restarts the windows after a gap longer than `max_gap` or when time
+    /// runs backwards (the previous block mean is kept).
+    fn check_gap(&mut self, at: Instant) {
+        let restart = match self.last_at {
+            None => true,
+            Some(last) => at < last || at.since(last) > self.cfg.max_gap,
+        };
+        if restart {
+            self.hist_len = 0;
+            self.block_start = at;
+            self.block_sum = 0;
+            self.block_n = 0;
+            self.ring_len = 0;
+            self.rate = None;
+            self.tte = None;
+            self.reset_leak();
+            self.last_at = None;
+        }
+    }
+
+    /// Median of the last three readings per channel (raw bits).
+    fn despike(&mut self, p: u32, t: u32) -> (u32, u32) {
+        let [p0, p1] = self.p_hist;
+        let [t0, t1] = self.t_hist;
+        let out = if self.hist_len >= 2 {
+            (median3(p0, p1, p), median3(t0, t1, t))
+        } else {
+            (p, t)
+        };
+        self.p_hist = [p1, p];
+        self.t_hist = [t1, t];
+        self.hist_len = self.hist_len.saturating_add(1);
+        out
+    }
+
+    /// First-order low-pass per channel with α = Δt/(τ + Δt) in Q16.
+    fn smooth(&mut self, at: Instant, p: u32, t: u32) -> (u32, u32) {
+        match self.last_at {
+            None => {
+                self.p_smooth = (p as i64) << SMOOTH_FRAC;
+                self.t_smooth = (t as i64) << SMOOTH_FRAC;
+            }
+            Some(last) => {
+                let dt = at.since(last);
+                if dt.0 > 0 {
+                    if dt != self.alpha_dt {
+                        // Two 64/32 divisions, only when the interval changes.
+                        self.alpha_dt = dt;
+                        self.alpha_p = alpha_q16(dt, self.cfg.smoothing_pressure);
+                        self.alpha_t = alpha_q16(dt, self.cfg.smoothing_temperature);
+                    }
+                    // |x − y| < 2^47, α ≤ 2^16: the product fits in i64.
+                    let step = |y: &mut i64, x: u32, a: i64| {
+                        let d = ((x as i64) << SMOOTH_FRAC) - *y;
+                        *y += fx::shr_round_i64(d * a, SMOOTH_FRAC);
+                    };
+                    step(&mut self.p_smooth, p, self.alpha_p);
+                    step(&mut self.t_smooth, t, self.alpha_t);
+                }
+            }
+        }
+        let out = |y: i64| fx::shr_round_i64(y, SMOOTH_FRAC).clamp(0, RAW_MAX as i64) as u32;
+        (out(self.p_smooth), out(self.t_smooth))
+    }
+
+    /// Closes the current block when `at` lies past its end.
+    fn close_blocks(&mut self, at: Instant, content: &Content) {
+        let end = self.block_start + self.cfg.block;
+        if at < end {
+            return;
+        }
+        if self.block_n > 0 {
+            // One 64/32 division per block.
+            let n = self.block_n as u64;
+            let mean = ((self.block_sum + n / 2) / n).min(u32::MAX as u64) as u32;
+            self.block(end, mean, content);
+        }
+        self.block_start = end;
+        if at >= self.block_start + self.cfg.block {
+            self.block_start = at;
+        }
+        self.block_sum = 0;
+        self.block_n = 0;
+    }
+
+    /// Everything that happens once per block.
+    fn block(&mut self, end: Instant, mean: u32, content: &Content) {
+        if let Some(prev) = self.prev_block {
+            let step = mean as i64 - prev as i64;
+            // |step| in Q28 against the threshold in Q32.
+            if (step.unsigned_abs() << (32 - Q)) > self.cfg.settle_step.to_bits() as u64 {
+                self.settle_active = true;
+                self.settle_blocks = 0;
+                self.settle_since = end;
+                self.predicted = None;
+                if step > 0 {
+                    self.ring_len = 0;
+                    self.rate = None;
+                    self.tte = None;
+                }
+            } else if self.settle_active {
+                self.settle_blocks += 1;
+            }
+        }
+        self.prev_block = Some(mean);
+        self.ring.rotate_left(1);
+        if let Some(last) = self.ring.last_mut() {
+            *last = mean;
+        }
+        self.ring_len = (self.ring_len + 1).min(RATE_WINDOW);
+
+        self.rate_and_time_to_empty();
+        self.settle(end, mean, content.temperature_k);
+        self.leak_block(mean);
+        self.uncertainty = Some(self.unc.evaluate(content));
+        self.rated_pressure_now_pa = Some(
+            self.est
+                .pressure_at(fx::Fraction::ONE, content.temperature_k)
+                .0,
+        );
+    }
+
+    /// Rate and time to empty from the window.
+    fn rate_and_time_to_empty(&mut self) {
+        let n = self.ring_len.min(RATE_WINDOW);
+        if n < RATE_MIN_BLOCKS {
+            self.rate = None;
+            self.tte = None;
+            return;
+        }
+        let fit = self.fit(n);
+        let bph = self.blocks_per_hour as i64;
+        let per_h = -fit.slope * bph;
+        let u_per_h = 2 * fit.se * bph;
+        let confidence = if per_h != 0 {
+            let mag = per_h.unsigned_abs();
+            let u = u_per_h.unsigned_abs();
+            if u >= mag {
+                0
+            } else {
+                (1u64 << 32) - ratio_q32(u, mag)
+            }
+        } else {
+            0
+        };
+        let kg_h = coef_mul(self.rated_mass, per_h, QF, 32);
+        self.rate = Some(RateFx {
+            kg_h: fx::MassRate::from_bits(kg_h),
+            standard_m3_h: fx::VolumeRate::from_bits(coef_mul(self.rated_volume, per_h, QF, 32)),
+            u_kg_h: fx::MassRate::from_bits(coef_mul(self.rated_mass, u_per_h, QF, 32)),
+            confidence: fx::Fraction::from_bits(confidence),
+            blocks: n as u32,
+        });
+        // Fitted value at the window's end: mean + slope·(n − 1)/2.
+        let end = fit.mean + fx::shr_round_i64(fit.slope * (n as i64 - 1), 1);
+        let reserve = (self.cfg.reserve_fraction.to_bits() << (QF - 32)) as i64;
+        let left = end - reserve;
+        self.tte = if per_h > 0 && left > 0 {
+            // left < 2^41 (Q36, ≤ 16 + margin), × 3.6e6 < 2^63.
+            let ms = |rate: i64| Millis((left.min(1 << 41) * HOUR_MS as i64 / rate) as u64);
+            Some(TimeToEmpty {
+                expected: ms(per_h),
+                earliest: ms(per_h + u_per_h),
+                latest: if per_h > u_per_h {
+                    Some(ms(per_h - u_per_h))
+                } else {
+                    None
+                },
+            })
+        } else {
+            None
+        };
+    }
+
+    /// Settling state and prediction.
+    fn settle(&mut self, end: Instant, last: u32, temperature: fx::Temperature) {
+        if !self.settle_active {
+            return;
+        }
+        let tau = self.cfg.settle_time_constant;
+        let mut settled = end.since(self.settle_since).0 >= tau.0 * SETTLE_TIME_CONSTANTS;
+        if self.settle_blocks >= SETTLE_WINDOW && self.ring_len >= SETTLE_WINDOW {
+            let fit = self.fit(SETTLE_WINDOW);
+            let f_inf = (fit.mean + coef_mul(self.tau_blocks, fit.slope, QF, QF)).max(0);
+            // Q36 → Q32 fraction.
+            let f32 = fx::shr_round_i64(f_inf, QF - 32) as u64;
+            let fraction = fx::Fraction::from_bits(f32);
+            let (p, _) = self.est.pressure_at(fraction, temperature);
+            let (mass, _) =
+                self.rated_mass
+                    .scale((f_inf >> (QF - Q)).min(u32::MAX as i64) as u32, Q, 40);
+            self.predicted = Some(SettledPredictionFx {
+                pressure_pa: p,
+                mass_kg: fx::Mass::from_bits(mass),
+                fill_fraction: fraction,
+            });
+            let drift = (f_inf - ((last as i64) << (QF - Q))).unsigned_abs();
+            settled |= drift < (self.cfg.settle_tolerance.to_bits() as u64) << (QF - 32);
+        }
+        if settled {
+            self.settle_active = false;
+            self.predicted = None;
+        }
+    }
+
+    /// Leak detection: hourly means into the two-day ring.
+    fn leak_block(&mut self, mean: u32) {
+        if self.settle_active {
+            self.reset_leak();
+            return;
+        }
+        self.hour_sum += mean as u64;
+        self.hour_blocks += 1;
+        if self.hour_blocks < self.blocks_per_hour {
+            return;
+        }
+        let bph = self.blocks_per_hour as u64;
+        let hour = ((self.hour_sum + bph / 2) / bph).min(u32::MAX as u64) as u32;
+        self.hour_sum = 0;
+        self.hour_blocks = 0;
+        self.day_ring.rotate_left(1);
+        if let Some(last) = self.day_ring.last_mut() {
+            *last = hour;
+        }
+        self.day_len = (self.day_len + 1).min(LEAK_RING);
+        if self.day_len < LEAK_RING {
+            return;
+        }
+        // Day sums (24 × the day means), Q28.
+        let older: i64 = self
+            .day_ring
+            .iter()
+            .take(DAY_HOURS)
+            .map(|&x| x as i64)
+            .sum();
+        let newer: i64 = self
+            .day_ring
+            .iter()
+            .skip(DAY_HOURS)
+            .map(|&x| x as i64)
+            .sum();
+        let loss24 = older - newer;
+        let expected24 = match self.cfg.leak_mode {
+            LeakMode::Standby => 0,
+            LeakMode::InUse => match self.declared24 {
+                Some(d) => d,
+                None => match self.learned24 {
+                    Some(d) => d,
+                    None => {
+                        self.learned24 = Some(loss24.max(0));
+                        return;
+                    }
+                },
+            },
+        };
+        let excess24 = loss24 - expected24;
+        // θ·older: U0F32 × Q28 sum → Q28.
+        let limit =
+            ((self.cfg.leak_threshold_per_day.to_bits() as i128 * older as i128) >> 32) as i64;
+        let rel = |v: i64| {
+            if older > 0 {
+                ((v as i128) << 32)
+                    .checked_div(older as i128)
+                    .unwrap_or(0)
+                    .clamp(i64::MIN as i128, i64::MAX as i128) as i64
+            } else {
+                0
+            }
+        };
+        self.leak = Some(LeakFx {
+            loss_per_day: fx::FractionRate::from_bits(rel(loss24)),
+            excess_per_day: fx::FractionRate::from_bits(rel(excess24)),
+            expected_draw_kg_h: fx::MassRate::from_bits(coef_mul(
+                self.draw_kg_h,
+                expected24,
+                Q,
+                32,
+            )),
+            leaking: excess24 > limit,
+        });
+    }
+
+    /// Empties the leak ring (its verdict goes with it).
+    fn reset_leak(&mut self) {
+        self.hour_sum = 0;
+        self.hour_blocks = 0;
+        self.day_len = 0;
+        self.leak = None;
+    }
+
+    /// Least-squares line through the last `n` block means (Q28 in, Q36 out).
+    fn fit(&self, n: usize) -> Fit {
+        let ys = self.ring.iter().skip(RATE_WINDOW - n);
+        let ni = n as i64;
+        let sum: i64 = ys.clone().map(|&y| y as i64).sum();
+        // Mean in Q36: one 64-bit division (sum < 2^37, << 8 < 2^45).
+        let mean = ((sum << (QF - Q)) + ni / 2) / ni;
+        // Σ (2i − (n − 1))·y = 2·Σ(i − ī)·y, exact (< 2^42).
+        let sxy2: i64 = ys
+            .clone()
+            .enumerate()
+            .map(|(i, &y)| (2 * i as i64 - (ni - 1)) * y as i64)
+            .sum();
+        // slope = Σ(i − ī)y / Σ(i − ī)² = 6·sxy2 / (n(n² − 1)), Q36.
+        let den = ni * (ni * ni - 1);
+        let num = (sxy2 as i128) << (QF - Q);
+        let slope = div_round_i128(num * 6, den as i128) as i64;
+        // Residuals in Q36; their sum of squares in Q72 (u128).
+        let ssr: u128 = ys
+            .enumerate()
+            .map(|(i, &y)| {
+                let c = 2 * i as i64 - (ni - 1);
+                let fitted = mean + fx::shr_round_i64(slope * c, 1);
+                let r = ((y as i64) << (QF - Q)) - fitted;
+                (r as i128 * r as i128) as u128
+            })
+            .sum();
+        // SE² = SSR/(n − 2) / Σ(i − ī)² = 12·SSR / ((n − 2)·n·(n² − 1)), Q72.
+        let se = if n > 2 {
+            let d = ((ni - 2) * den) as u128;
+            let se2 = (ssr * 12 / d).min(u64::MAX as u128) as u64;
+            isqrt(se2) as i64
+        } else {
+            0
+        };
+        Fit { mean, slope, se }
+    }
+}
+
+/// The median of three values.
+fn median3(a: u32, b: u32, c: u32) -> u32 {
+    a.min(b).max(a.max(b).min(c))
+}
+
+/// α = Δt/(τ + Δt) in Q16 (rounded).
+fn alpha_q16(dt: Millis, tau: Millis) -> i64 {
+    let den = dt.0.saturating_add(tau.0).max(1);
+    ((dt.0.min(1 << 40) << 16) + den / 2)
+        .checked_div(den)
+        .unwrap_or(1 << 16) as i64
+}
+
+/// `v × 2^-v_frac × c`, returned with `out_frac` fraction bits (signed,
+/// rounded, saturated). Block-rate helper: one 64×32 multiply in 128 bits.
+fn coef_mul(c: Coef, v: i64, v_frac: u32, out_frac: u32) -> i64 {
+    let prod = v as i128 * c.mantissa() as i128;
+    let shift = v_frac as i32 + c.shift() - out_frac as i32;
+    let r = if shift > 0 {
+        let s = shift.unsigned_abs().min(127);
+        (prod >> s) + ((prod >> (s - 1)) & 1)
+    } else {
+        prod << shift.unsigned_abs().min(60)
+    };
+    r.clamp(i64::MIN as i128, i64::MAX as i128) as i64
+}
+
+/// `num/den` in Q32 for `num < den` (rounded down), without a 128-bit division.
+fn ratio_q32(num: u64, den: u64) -> u64 {
+    let s = 64 - den.leading_zeros();
+    let shift = s.saturating_sub(31);
+    let (n, d) = (num >> shift, (den >> shift).max(1));
+    ((n << 32) / d).min(1 << 32)
+}
+
+/// `num/den` rounded to nearest (den > 0).
+fn div_round_i128(num: i128, den: i128) -> i128 {
+    if den <= 0 {
+        return 0;
+    }
+    if num >= 0 {
+        (num + den / 2) / den
+    } else {
+        -((-num + den / 2) / den)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn alpha_and_helpers() {
+        assert_eq!(alpha_q16(Millis(1000), Millis(0)), 1 << 16);
+        assert_eq!(alpha_q16(Millis(1000), Millis(3000)), 1 << 14);
+        assert_eq!(ratio_q32(1, 4), 1 << 30);
+        assert_eq!(ratio_q32(3 << 40, 4 << 40), 3 << 30);
+        let c = Coef::from_f64(0.5);
+        assert_eq!(coef_mul(c, -(1 << 20), 0, 0), -(1 << 19));
+        assert_eq!(median3(7, 1, 100), 7);
+        assert_eq!(div_round_i128(-7, 2), -4);
+    }
+}

@@ -1,0 +1,804 @@
+//! Tracking over time, float form (the reference; the method is in
+//! [`super`], mirrored step by step by [`super::fixed`]).
+
+use super::{
+    DAY_HOURS, HOUR_MS, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
+    SETTLE_WINDOW, validate_timing,
+};
+use crate::alarm::float::{Inputs, LevelInputs, Limits};
+use crate::alarm::{Alarms, DebounceTable, Events};
+use crate::content::float::{Content, Estimator};
+use crate::model::Compressibility;
+use crate::time::{Instant, Millis};
+use crate::uncertainty::float::{Evaluator, Uncertainty, UncertaintyConfig};
+use crate::{Error, Real, Status, Tank};
+
+/// Everything the tracker needs besides the estimator, float form.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct TrackConfig<F = f64> {
+    /// Time constant of the pressure smoothing (0: none). Accepted: ≤ 1 h.
+    pub smoothing_pressure: Millis,
+    /// Time constant of the temperature smoothing (0: none). Accepted: ≤ 1 h.
+    pub smoothing_temperature: Millis,
+    /// Length of a rate block. Accepted: 1 s … 1 h, dividing one hour.
+    pub block: Millis,
+    /// A longer time between usable samples restarts the windows (rate,
+    /// leak, filters). Accepted: 1 s … 24 h.
+    pub max_gap: Millis,
+    /// Time to empty counts down to this fill fraction. Accepted: 0 … 1.
+    pub reserve_fraction: F,
+    /// Time constant of thermal settling after a fast fill or draw.
+    /// Accepted: 1 min … 24 h.
+    pub settle_time_constant: Millis,
+    /// A change of the block mean of the fill fraction from one block to the
+    /// next larger than this marks a fast fill or draw. Accepted: 0 … 0.5.
+    pub settle_step: F,
+    /// Settled when the predicted drift left is below this fraction.
+    /// Accepted: 0 … 0.5.
+    pub settle_tolerance: F,
+    /// How losses are judged.
+    pub leak_mode: LeakMode,
+    /// In use: the expected draw, kg/h; `None` learns it from the first two
+    /// settled days. Accepted: 0 … 1e6 kg/h.
+    pub declared_draw_kg_h: Option<F>,
+    /// Leak when the (excess) loss per day exceeds this fraction of the
+    /// content. Accepted: 0 … 0.5.
+    pub leak_threshold_per_day: F,
+    /// Declared input uncertainties.
+    pub uncertainty: UncertaintyConfig<F>,
+    /// Alarm thresholds.
+    pub limits: Limits<F>,
+    /// Alarm debounce times.
+    pub debounce: DebounceTable,
+}
+
+impl TrackConfig<f64> {
+    /// Defaults for a tank (common practice where no source is named; each
+    /// value is explained in README "Tracking over time"): smoothing 4 s,
+    /// 60 s blocks, gaps over 5 min restart, reserve 5 %, settling τ = 30 min
+    /// with a step of 0.5 % per block (30 %/h) and a tolerance of 0.2 %,
+    /// standby leak threshold 0.1 % of the content per day, alarm limits from
+    /// [`Limits::for_tank`].
+    pub fn for_tank(tank: &Tank<f64>, uncertainty: UncertaintyConfig<f64>) -> Self {
+        TrackConfig {
+            smoothing_pressure: Millis::from_secs(4),
+            smoothing_temperature: Millis::from_secs(4),
+            block: Millis::from_secs(60),
+            max_gap: Millis::from_secs(300),
+            reserve_fraction: 0.05,
+            settle_time_constant: Millis::from_secs(1800),
+            settle_step: 0.005,
+            settle_tolerance: 0.002,
+            leak_mode: LeakMode::Standby,
+            declared_draw_kg_h: None,
+            leak_threshold_per_day: 0.001,
+            uncertainty,
+            limits: Limits::for_tank(tank),
+            debounce: DebounceTable::default(),
+        }
+    }
+}
+
+impl<F: Real> TrackConfig<F> {
+    /// Checks every field against its accepted range.
+    pub fn validate(&self) -> Result<(), Error> {
+        validate_timing(
+            self.block,
+            self.max_gap,
+            [self.smoothing_pressure, self.smoothing_temperature],
+            self.settle_time_constant,
+        )?;
+        let fractions = [
+            (self.reserve_fraction, 1.0, "reserve fraction"),
+            (self.settle_step, 0.5, "settle step"),
+            (self.settle_tolerance, 0.5, "settle tolerance"),
+            (self.leak_threshold_per_day, 0.5, "leak threshold"),
+        ];
+        for (v, hi, what) in fractions {
+            if !v.is_finite() {
+                return Err(Error::NotFinite(what));
+            }
+            if v < F::ZERO || v > F::lit(hi) {
+                return Err(Error::OutOfRange(what));
+            }
+        }
+        if let Some(d) = self.declared_draw_kg_h {
+            if !d.is_finite() {
+                return Err(Error::NotFinite("declared draw"));
+            }
+            if d < F::ZERO || d > F::lit(1e6) {
+                return Err(Error::OutOfRange("declared draw"));
+            }
+        }
+        self.uncertainty.validate()?;
+        self.limits.validate()
+    }
+}
+
+/// Consumption rate from the compensated content, float form.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct Rate<F = f64> {
+    /// Consumption, kg/h (positive: gas leaving the tank).
+    pub kg_h: F,
+    /// Consumption, standard m³/h at the setup's standard condition.
+    pub standard_m3_h: F,
+    /// Expanded uncertainty of the rate (k = 2), kg/h.
+    pub u_kg_h: F,
+    /// 1 − U/|rate|, clamped to 0 … 1: 0 means the rate cannot be told
+    /// from zero.
+    pub confidence: F,
+    /// Blocks in the fit.
+    pub blocks: u32,
+}
+
+/// Time until the content reaches the reserve at the present rate.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct TimeToEmpty {
+    /// At the estimated rate.
+    pub expected: Millis,
+    /// At the rate plus its expanded uncertainty.
+    pub earliest: Millis,
+    /// At the rate minus its expanded uncertainty; `None` when that rate is
+    /// not a consumption (the tank may never empty).
+    pub latest: Option<Millis>,
+}
+
+/// Thermal settling state and prediction, float form.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct Settling<F = f64> {
+    /// A fast fill or draw happened and the gas has not settled yet.
+    pub not_settled: bool,
+    /// Predicted settled values, once the settling window is full.
+    pub predicted: Option<SettledPrediction<F>>,
+}
+
+/// What the gauge will read once the gas has settled (float form).
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct SettledPrediction<F = f64> {
+    /// Predicted settled pressure at the present temperature, Pa absolute.
+    pub pressure_pa: F,
+    /// Predicted settled mass, kg.
+    pub mass_kg: F,
+    /// Predicted settled fill fraction.
+    pub fill_fraction: F,
+}
+
+/// The leak detector's latest verdict (float form).
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct Leak<F = f64> {
+    /// Loss over the last day as a fraction of the content per day (day means).
+    pub loss_per_day: F,
+    /// Loss beyond the expected draw, fraction of the content per day.
+    pub excess_per_day: F,
+    /// The expected draw it was judged against, kg/h (0 in standby).
+    pub expected_draw_kg_h: F,
+    /// The excess loss exceeds the threshold.
+    pub leaking: bool,
+}
+
+/// Everything the tracker reports for one sample (float form).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Track<F = f64> {
+    /// The sample's time.
+    pub at: Instant,
+    /// The content estimate on the despiked, smoothed sample (`None` before
+    /// the first usable sample).
+    pub content: Option<Content<F>>,
+    /// Expanded uncertainty (k = 2) of mass and fill fraction, refreshed per
+    /// block.
+    pub uncertainty: Option<Uncertainty<F>>,
+    /// Consumption rate, once enough blocks are in the window.
+    pub rate: Option<Rate<F>>,
+    /// Time to empty, while the rate is a consumption.
+    pub time_to_empty: Option<TimeToEmpty>,
+    /// Thermal settling.
+    pub settling: Settling<F>,
+    /// Leak detector verdict, once two settled days are in (and, in use with
+    /// a learned draw, after learning).
+    pub leak: Option<Leak<F>>,
+    /// The over-pressure reference: the pressure the rated content develops
+    /// at the present temperature, Pa absolute (refreshed per block).
+    pub rated_pressure_now_pa: Option<F>,
+    /// Alarm raises and clears at this sample.
+    pub events: Events,
+    /// Content flags, the sample's sensor flags and the active alarms.
+    pub status: Status,
+}
+
+/// One least-squares line through equally spaced block means.
+#[derive(Clone, Copy, Debug)]
+struct Fit<F> {
+    mean: F,
+    /// Per block.
+    slope: F,
+    /// Standard error of the slope, per block.
+    se: F,
+}
+
+/// The tracker: all state of the pipeline for one tank (float form).
+#[derive(Clone, Debug)]
+pub struct Tracker<F: Real, M> {
+    est: Estimator<F, M>,
+    cfg: TrackConfig<F>,
+    unc: Evaluator<F>,
+    alarms: Alarms,
+    rated_mass_kg: F,
+    standard_m3_per_kg: F,
+    blocks_per_hour: u32,
+    tau_blocks: F,
+    // Despike and smoothing.
+    last_at: Option<Instant>,
+    p_hist: [F; 2],
+    t_hist: [F; 2],
+    hist_len: u8,
+    p_smooth: F,
+    t_smooth: F,
+    // Blocks.
+    block_start: Instant,
+    block_sum: F,
+    block_n: u32,
+    ring: [F; RATE_WINDOW],
+    ring_len: usize,
+    prev_block: Option<F>,
+    // Leak.
+    hour_sum: F,
+    hour_blocks: u32,
+    day_ring: [F; LEAK_RING],
+    day_len: usize,
+    learned_draw_per_day: Option<F>,
+    // Settling.
+    settle_active: bool,
+    settle_blocks: usize,
+    settle_since: Instant,
+    // Latest outputs.
+    content: Option<Content<F>>,
+    uncertainty: Option<Uncertainty<F>>,
+    rate: Option<Rate<F>>,
+    tte: Option<TimeToEmpty>,
+    predicted: Option<SettledPrediction<F>>,
+    leak: Option<Leak<F>>,
+    rated_pressure_now_pa: Option<F>,
+}
+
+impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
+    /// A tracker for the tank of `est`, with no history.
+    pub fn new(est: Estimator<F, M>, cfg: TrackConfig<F>) -> Result<Self, Error> {
+        cfg.validate()?;
+        let unc = Evaluator::new(cfg.uncertainty, &est)?;
+        let tank = est.setup().tank;
+        let rated = est.estimate(tank.rated_pressure_pa, tank.rated_temperature_k)?;
+        let rated_mass_kg = est.rated_mass_kg();
+        let blocks_per_hour = (HOUR_MS / cfg.block.0) as u32;
+        Ok(Tracker {
+            unc,
+            alarms: Alarms::new(cfg.debounce),
+            rated_mass_kg,
+            standard_m3_per_kg: rated.standard_volume_m3 / rated.mass_kg,
+            blocks_per_hour,
+            tau_blocks: F::lit(cfg.settle_time_constant.0 as f64) / F::lit(cfg.block.0 as f64),
+            last_at: None,
+            p_hist: [F::ZERO; 2],
+            t_hist: [F::ZERO; 2],
+            hist_len: 0,
+            p_smooth: F::ZERO,
+            t_smooth: F::ZERO,
+            block_start: Instant(0),
+            block_sum: F::ZERO,
+            block_n: 0,
+            ring: [F::ZERO; RATE_WINDOW],
+            ring_len: 0,
+            prev_block: None,
+            hour_sum: F::ZERO,
+            hour_blocks: 0,
+            day_ring: [F::ZERO; LEAK_RING],
+            day_len: 0,
+            learned_draw_per_day: None,
+            settle_active: false,
+            settle_blocks: 0,
+            settle_since: Instant(0),
+            content: None,
+            uncertainty: None,
+            rate: None,
+            tte: None,
+            predicted: None,
+            leak: None,
+            rated_pressure_now_pa: None,
+            est,
+            cfg,
+        })
+    }
+
+    /// The content estimator.
+    pub fn estimator(&self) -> &Estimator<F, M> {
+        &self.est
+    }
+
+    /// The configuration.
+    pub fn config(&self) -> &TrackConfig<F> {
+        &self.cfg
+    }
+
+    /// Forgets the learned draw (in-use leak mode learns it again).
+    pub fn relearn_draw(&mut self) {
+        self.learned_draw_per_day = None;
+    }
+
+    /// The expected draw learned in use, kg/h.
+    pub fn learned_draw_kg_h(&self) -> Option<F> {
+        self.learned_draw_per_day
+            .map(|d| d * self.rated_mass_kg / F::lit(DAY_HOURS as f64))
+    }
+
+    /// Takes one sample: absolute pressure (Pa) and temperature (K) from the
+    /// sensor front end, the front end's flags for this sample (only
+    /// [`Status::SENSOR_RANGE`] bits are looked at) and the sample's time.
+    /// Fails only for NaN or infinite readings that the front end did not
+    /// flag; the state is then unchanged.
+    pub fn update(
+        &mut self,
+        at: Instant,
+        pressure_pa: F,
+        temperature_k: F,
+        sensor: Status,
+    ) -> Result<Track<F>, Error> {
+        let sensor = sensor & Status::SENSOR_RANGE;
+        let fault = !sensor.is_ok();
+        if !fault {
+            if !pressure_pa.is_finite() {
+                return Err(Error::NotFinite("pressure"));
+            }
+            if !temperature_k.is_finite() {
+                return Err(Error::NotFinite("temperature"));
+            }
+            self.check_gap(at);
+            let (p, t) = self.despike(pressure_pa, temperature_k);
+            let (p, t) = self.smooth(at, p, t);
+            let content = self.est.estimate(p, t)?;
+            self.content = Some(content);
+            self.close_blocks(at, &content);
+            if !content.status.intersects(Status::CONTENT_INVALID) {
+                self.block_sum += content.fill_fraction;
+                self.block_n += 1;
+            }
+            self.last_at = Some(at);
+        }
+
+        let level = self.content.map(|c| LevelInputs {
+            pressure_pa: c.pressure_pa,
+            temperature_k: c.temperature_k,
+            fill_fraction: c.fill_fraction,
+            settled_fraction: if self.settle_active {
+                self.predicted.map(|p| p.fill_fraction)
+            } else {
+                Some(c.fill_fraction)
+            },
+            time_to_empty: self.tte_for_alarm(),
+        });
+        let (raise, clear) = self.cfg.limits.conditions(&Inputs {
+            content: level,
+            sensor_fault: fault,
+            leak: self.leak.is_some_and(|l| l.leaking),
+            not_settled: self.settle_active,
+        });
+        let events = self.alarms.update(at, raise, clear);
+        let content_status = self.content.map_or(Status::OK, |c| c.status);
+        Ok(Track {
+            at,
+            content: self.content,
+            uncertainty: self.uncertainty,
+            rate: self.rate,
+            time_to_empty: self.tte,
+            settling: Settling {
+                not_settled: self.settle_active,
+                predicted: if self.settle_active {
+                    self.predicted
+                } else {
+                    None
+                },
+            },
+            leak: self.leak,
+            rated_pressure_now_pa: self.rated_pressure_now_pa,
+            events,
+            status: content_status | sensor | self.alarms.active().status(),
+        })
+    }
+
+    /// The time to empty the low-content alarm may use: a rate known to
+    /// better than ±50 % (confidence ≥ 0.5).
+    fn tte_for_alarm(&self) -> Option<Millis> {
+        match (self.rate, self.tte) {
+            (Some(r), Some(t)) if r.confidence >= F::lit(0.5) => Some(t.expected),
+            _ => None,
+        }
+    }
+
+    /// Restarts the windows after a gap longer than `max_gap` or when time
+    /// runs backwards. The previous block mean is kept, so a refill during
+    /// the gap is still seen as a fast fill.
+    fn check_gap(&mut self, at: Instant) {
+        let restart = match self.last_at {
+            None => true,
+            Some(last) => at < last || at.since(last) > self.cfg.max_gap,
+        };
+        if restart {
+            self.hist_len = 0;
+            self.block_start = at;
+            self.block_sum = F::ZERO;
+            self.block_n = 0;
+            self.ring_len = 0;
+            self.rate = None;
+            self.tte = None;
+            self.reset_leak();
+            self.last_at = None;
+        }
+    }
+
+    /// Median of the last three readings per channel.
+    fn despike(&mut self, p: F, t: F) -> (F, F) {
+        let [p0, p1] = self.p_hist;
+        let [t0, t1] = self.t_hist;
+        let out = if self.hist_len >= 2 {
+            (median3(p0, p1, p), median3(t0, t1, t))
+        } else {
+            (p, t)
+        };
+        self.p_hist = [p1, p];
+        self.t_hist = [t1, t];
+        self.hist_len = self.hist_len.saturating_add(1);
+        out
+    }
+
+    /// First-order low-pass per channel with α = Δt/(τ + Δt).
+    fn smooth(&mut self, at: Instant, p: F, t: F) -> (F, F) {
+        match self.last_at {
+            None => {
+                self.p_smooth = p;
+                self.t_smooth = t;
+            }
+            Some(last) => {
+                let dt = F::lit(at.since(last).0 as f64);
+                let alpha = |tau: Millis| dt / (F::lit(tau.0 as f64) + dt);
+                let (ap, at_) = (
+                    alpha(self.cfg.smoothing_pressure),
+                    alpha(self.cfg.smoothing_temperature),
+                );
+                if dt > F::ZERO {
+                    self.p_smooth += ap * (p - self.p_smooth);
+                    self.t_smooth += at_ * (t - self.t_smooth);
+                }
+            }
+        }
+        (self.p_smooth, self.t_smooth)
+    }
+
+    /// Closes the current block when `at` lies past its end.
+    fn close_blocks(&mut self, at: Instant, content: &Content<F>) {
+        let end = self.block_start + self.cfg.block;
+        if at < end {
+            return;
+        }
+        if self.block_n > 0 {
+            let mean = self.block_sum / F::lit(self.block_n as f64);
+            self.block(end, mean, content);
+        }
+        // Blocks stay aligned; a skipped block (no sample) is a gap and was
+        // handled by check_gap.
+        self.block_start = end;
+        if at >= self.block_start + self.cfg.block {
+            self.block_start = at;
+        }
+        self.block_sum = F::ZERO;
+        self.block_n = 0;
+    }
+
+    /// Everything that happens once per block.
+    fn block(&mut self, end: Instant, mean: F, content: &Content<F>) {
+        // Settling: a fast change between consecutive blocks.
+        if let Some(prev) = self.prev_block {
+            let step = mean - prev;
+            if step.abs() > self.cfg.settle_step {
+                self.settle_active = true;
+                self.settle_blocks = 0;
+                self.settle_since = end;
+                self.predicted = None;
+                if step > F::ZERO {
+                    // A fill: the rate starts again.
+                    self.ring_len = 0;
+                    self.rate = None;
+                    self.tte = None;
+                }
+            } else if self.settle_active {
+                self.settle_blocks += 1;
+            }
+        }
+        self.prev_block = Some(mean);
+        self.ring.rotate_left(1);
+        if let Some(last) = self.ring.last_mut() {
+            *last = mean;
+        }
+        self.ring_len = (self.ring_len + 1).min(RATE_WINDOW);
+
+        self.rate_and_time_to_empty();
+        self.settle(end, mean, content.temperature_k);
+        self.leak_block(mean);
+        self.uncertainty = Some(self.unc.evaluate(content));
+        self.rated_pressure_now_pa = Some(self.est.pressure_at(F::ONE, content.temperature_k).0);
+    }
+
+    /// Rate and time to empty from the window.
+    fn rate_and_time_to_empty(&mut self) {
+        let n = self.ring_len.min(RATE_WINDOW);
+        if n < RATE_MIN_BLOCKS {
+            self.rate = None;
+            self.tte = None;
+            return;
+        }
+        let fit = self.fit(n);
+        let bph = F::lit(self.blocks_per_hour as f64);
+        let per_h = -fit.slope * bph;
+        let u_per_h = F::lit(2.0) * fit.se * bph;
+        let confidence = if per_h.abs() > F::ZERO {
+            (F::ONE - u_per_h / per_h.abs()).clamp_to(F::ZERO, F::ONE)
+        } else {
+            F::ZERO
+        };
+        let kg_h = per_h * self.rated_mass_kg;
+        self.rate = Some(Rate {
+            kg_h,
+            standard_m3_h: kg_h * self.standard_m3_per_kg,
+            u_kg_h: u_per_h * self.rated_mass_kg,
+            confidence,
+            blocks: n as u32,
+        });
+        let end = fit.mean + fit.slope * F::lit((n - 1) as f64 / 2.0);
+        let left = end - self.cfg.reserve_fraction;
+        self.tte = if per_h > F::ZERO && left > F::ZERO {
+            let ms = |rate: F| Millis((left / rate * F::lit(HOUR_MS as f64)).to_f64() as u64);
+            Some(TimeToEmpty {
+                expected: ms(per_h),
+                earliest: ms(per_h + u_per_h),
+                latest: if per_h > u_per_h {
+                    Some(ms(per_h - u_per_h))
+                } else {
+                    None
+                },
+            })
+        } else {
+            None
+        };
+    }
+
+    /// Settling state and prediction.
+    fn settle(&mut self, end: Instant, last: F, temperature_k: F) {
+        if !self.settle_active {
+            return;
+        }
+        let tau = self.cfg.settle_time_constant;
+        let mut settled = end.since(self.settle_since).0 >= tau.0 * SETTLE_TIME_CONSTANTS;
+        if self.settle_blocks >= SETTLE_WINDOW && self.ring_len >= SETTLE_WINDOW {
+            let fit = self.fit(SETTLE_WINDOW);
+            let f_inf = (fit.mean + self.tau_blocks * fit.slope).max(F::ZERO);
+            let (p, _) = self.est.pressure_at(f_inf, temperature_k);
+            self.predicted = Some(SettledPrediction {
+                pressure_pa: p,
+                mass_kg: f_inf * self.rated_mass_kg,
+                fill_fraction: f_inf,
+            });
+            settled |= (f_inf - last).abs() < self.cfg.settle_tolerance;
+        }
+        if settled {
+            self.settle_active = false;
+            self.predicted = None;
+        }
+    }
+
+    /// Leak detection: hourly means into the two-day ring.
+    fn leak_block(&mut self, mean: F) {
+        if self.settle_active {
+            self.reset_leak();
+            return;
+        }
+        self.hour_sum += mean;
+        self.hour_blocks += 1;
+        if self.hour_blocks < self.blocks_per_hour {
+            return;
+        }
+        let hour = self.hour_sum / F::lit(self.blocks_per_hour as f64);
+        self.hour_sum = F::ZERO;
+        self.hour_blocks = 0;
+        self.day_ring.rotate_left(1);
+        if let Some(last) = self.day_ring.last_mut() {
+            *last = hour;
+        }
+        self.day_len = (self.day_len + 1).min(LEAK_RING);
+        if self.day_len < LEAK_RING {
+            return;
+        }
+        let older: F = self
+            .day_ring
+            .iter()
+            .take(DAY_HOURS)
+            .fold(F::ZERO, |a, &x| a + x);
+        let newer: F = self
+            .day_ring
+            .iter()
+            .skip(DAY_HOURS)
+            .fold(F::ZERO, |a, &x| a + x);
+        let hours = F::lit(DAY_HOURS as f64);
+        // Loss per day as a fraction of the rated content.
+        let loss = (older - newer) / hours;
+        let expected = match self.cfg.leak_mode {
+            LeakMode::Standby => F::ZERO,
+            LeakMode::InUse => match self.cfg.declared_draw_kg_h {
+                Some(kg_h) => kg_h * hours / self.rated_mass_kg,
+                None => match self.learned_draw_per_day {
+                    Some(d) => d,
+                    None => {
+                        self.learned_draw_per_day = Some(loss.max(F::ZERO));
+                        return;
+                    }
+                },
+            },
+        };
+        let content = older / hours;
+        let excess = loss - expected;
+        let (loss_rel, excess_rel) = if content > F::ZERO {
+            (loss / content, excess / content)
+        } else {
+            (F::ZERO, F::ZERO)
+        };
+        self.leak = Some(Leak {
+            loss_per_day: loss_rel,
+            excess_per_day: excess_rel,
+            expected_draw_kg_h: expected * self.rated_mass_kg / hours,
+            leaking: excess > self.cfg.leak_threshold_per_day * content,
+        });
+    }
+
+    /// Empties the leak ring (its verdict goes with it).
+    fn reset_leak(&mut self) {
+        self.hour_sum = F::ZERO;
+        self.hour_blocks = 0;
+        self.day_len = 0;
+        self.leak = None;
+    }
+
+    /// Least-squares line through the last `n` block means of the window.
+    fn fit(&self, n: usize) -> Fit<F> {
+        let nf = F::lit(n as f64);
+        let centre = F::lit((n as f64 - 1.0) / 2.0);
+        let ys = self.ring.iter().skip(RATE_WINDOW - n);
+        let mean = ys.clone().fold(F::ZERO, |a, &y| a + y) / nf;
+        let sxy = ys
+            .clone()
+            .enumerate()
+            .fold(F::ZERO, |a, (i, &y)| a + (F::lit(i as f64) - centre) * y);
+        // Σ(i − ī)² = n(n² − 1)/12.
+        let sxx = nf * (nf * nf - F::ONE) / F::lit(12.0);
+        let slope = sxy / sxx;
+        let ssr = ys.enumerate().fold(F::ZERO, |a, (i, &y)| {
+            let r = y - mean - slope * (F::lit(i as f64) - centre);
+            a + r * r
+        });
+        let se = if n > 2 {
+            (ssr / (nf - F::lit(2.0)) / sxx).sqrt()
+        } else {
+            F::ZERO
+        };
+        Fit { mean, slope, se }
+    }
+}
+
+/// The median of three values.
+fn median3<F: Real>(a: F, b: F, c: F) -> F {
+    a.min(b).max(a.max(b).min(c))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::Ideal;
+    use crate::{Gas, Setup, StandardCondition};
+
+    fn tracker_f32() -> Tracker<f32, Ideal> {
+        let setup = Setup {
+            gas: Gas::Nitrogen,
+            tank: Tank::new(0.05f32, 200e5),
+            standard: StandardCondition {
+                temperature_k: 288.15f32,
+                pressure_pa: 101_325.0,
+            },
+            settled_reference_k: 288.15f32,
+        };
+        let est = Estimator::new(setup, Ideal::new(Gas::Nitrogen)).unwrap();
+        let c = TrackConfig::for_tank(&Tank::new(0.05, 200e5), UncertaintyConfig::example(300e5));
+        let cfg = TrackConfig {
+            smoothing_pressure: c.smoothing_pressure,
+            smoothing_temperature: c.smoothing_temperature,
+            block: c.block,
+            max_gap: c.max_gap,
+            reserve_fraction: 0.05f32,
+            settle_time_constant: c.settle_time_constant,
+            settle_step: 0.005,
+            settle_tolerance: 0.002,
+            leak_mode: c.leak_mode,
+            declared_draw_kg_h: None,
+            leak_threshold_per_day: 0.001,
+            uncertainty: UncertaintyConfig {
+                pressure_full_scale_pa: 300e5f32,
+                pressure_fs: 0.0015,
+                pressure_reading: 0.0006,
+                temperature_k: 0.5,
+                capacity: 0.005,
+                model: 0.001,
+            },
+            limits: Limits {
+                low_fraction: 0.1f32,
+                low_time_to_empty: c.limits.low_time_to_empty,
+                fraction_hysteresis: 0.01,
+                over_fill_fraction: 1.02,
+                pressure_max_pa: 250e5,
+                pressure_hysteresis_pa: 2e5,
+                temperature_max_k: 338.15,
+                temperature_min_k: 233.15,
+                temperature_hysteresis_k: 2.0,
+            },
+            debounce: c.debounce,
+        };
+        Tracker::new(est, cfg).unwrap()
+    }
+
+    #[test]
+    fn single_precision_runs_a_steady_draw() {
+        // f32 exists for firmware budgets: the same algorithm must work.
+        let mut t = tracker_f32();
+        let mut last = None;
+        for i in 0..3600u64 {
+            // 180 bar falling 10 bar per hour at 15 °C.
+            let p = 180e5f32 - 10e5 * i as f32 / 3600.0;
+            last = Some(t.update(Instant(i * 1000), p, 288.15, Status::OK).unwrap());
+        }
+        let r = last.unwrap().rate.unwrap();
+        // 10 bar/h of 200 bar rated = 5 %/h of the rated mass (11.7 kg).
+        let expected = 0.05 * t.estimator().rated_mass_kg();
+        assert!((r.kg_h / expected - 1.0).abs() < 1e-3, "{r:?}");
+    }
+
+    #[test]
+    fn bad_readings_are_errors_and_gaps_restart_the_windows() {
+        let mut t = tracker_f32();
+        for i in 0..900u64 {
+            t.update(Instant(i * 1000), 150e5, 288.15, Status::OK)
+                .unwrap();
+        }
+        assert!(
+            t.update(Instant(900_000), f32::NAN, 288.15, Status::OK)
+                .is_err()
+        );
+        // A flagged reading is no error: it is skipped and counted as a fault.
+        let r = t
+            .update(
+                Instant(901_000),
+                f32::NAN,
+                288.15,
+                Status::from_bits(1 << 8),
+            )
+            .unwrap();
+        assert!(r.status.intersects(Status::SENSOR_RANGE));
+        assert!(r.rate.is_some());
+        // Ten minutes without samples (more than max_gap): windows restart.
+        let r = t
+            .update(Instant(1_600_000), 150e5, 288.15, Status::OK)
+            .unwrap();
+        assert!(r.rate.is_none());
+    }
+
+    #[test]
+    fn median_of_three() {
+        assert_eq!(median3(1.0, 2.0, 3.0), 2.0);
+        assert_eq!(median3(3.0, 1.0, 2.0), 2.0);
+        assert_eq!(median3(2.0, 3.0, 1.0), 2.0);
+        assert_eq!(median3(5.0, 5.0, 100.0), 5.0);
+    }
+}

@@ -1,0 +1,127 @@
+//! Tracking over time: the sample pipeline, consumption rate, time to empty,
+//! temperature-proof leak detection, thermal settling and alarms, with the
+//! uncertainty of every estimate.
+//!
+//! Both paths ([`fixed::Tracker`], [`float::Tracker`]) run the same steps
+//! under the same names; all state is a fixed-size struct the caller owns,
+//! time is the caller's [`Instant`](crate::time::Instant), and the result of a
+//! series of samples depends only on the samples and their times.
+//!
+//! # Per sample
+//!
+//! 1. `despike` — median of the last three readings, per channel (pressure,
+//!    temperature): a single wild reading never reaches the estimate.
+//!    Samples the sensor front end flags (any bit of
+//!    [`Status::SENSOR_RANGE`](crate::Status::SENSOR_RANGE)) are not used at
+//!    all; they only feed the `sensor_fault` alarm.
+//! 2. `smooth` — first-order low-pass per channel, y += α·(x − y) with
+//!    α = Δt/(τ + Δt) for the actual sample interval Δt (backward Euler; the
+//!    fixed path recomputes α only when Δt changes).
+//! 3. the content estimate on the smoothed pressure and temperature.
+//! 4. `accumulate` — the fill fraction is summed into the current rate
+//!    block.
+//! 5. alarm conditions and debounce ([`crate::alarm`]).
+//!
+//! # Per block (every `block`, default 60 s; the block divides one hour)
+//!
+//! * The block mean of the fill fraction (mass over rated mass: the
+//!   temperature-compensated content) enters a window of the last
+//!   [`RATE_WINDOW`] block means.
+//! * **Rate**: least-squares slope over the window (at least
+//!   [`RATE_MIN_BLOCKS`] blocks), with its standard error from the residuals;
+//!   rate in kg/h and standard m³/h, expanded uncertainty U = 2·SE, and a
+//!   confidence 1 − U/|rate| (0 … 1).
+//! * **Time to empty** down to the reserve fraction: (F_end − F_reserve)/rate,
+//!   with earliest and latest from rate ± U, F_end the fitted value at the end
+//!   of the window.
+//! * **Settling**: a block mean that differs from the previous one by more than
+//!   `settle_step` marks a fast fill or draw; from then on the estimate is
+//!   `not_settled`. The gas relaxes to the sensor's temperature as a first
+//!   order system, so the apparent content follows
+//!   F(t) = F∞ + (F₀ − F∞)·e^(−t/τ) and F∞ = F + τ·dF/dt. From
+//!   [`SETTLE_WINDOW`] blocks after the event on, the slope and mean of the
+//!   last [`SETTLE_WINDOW`] blocks give the predicted settled content F∞ (at
+//!   the window centre, where the slope belongs), its mass, and the predicted
+//!   settled pressure (the pressure F∞ develops at the present temperature,
+//!   through the gas model). `not_settled` clears when the predicted drift
+//!   left |F∞ − F_last| is below `settle_tolerance`, or 3τ after the event.
+//!   τ is configured (`settle_time_constant`); a draw during settling biases
+//!   the prediction by τ × draw rate.
+//! * The uncertainty of the content ([`crate::uncertainty`]) and the
+//!   over-pressure reference (the pressure of the rated content at the
+//!   present temperature) are refreshed.
+//!
+//! # Per hour: leak detection on the compensated content
+//!
+//! Hourly means of the fill fraction go into a ring of [`LEAK_RING`] hours.
+//! With the ring full, the loss per day is the mean of the older 24 hours
+//! minus the mean of the newer 24 hours. Both means span exactly one day, so
+//! every component that repeats daily — the day/night temperature swing and
+//! what is left of it after compensation (sensor lag, small model and sensor
+//! errors that follow temperature) — cancels, while a steady loss shows in
+//! full. The loss is judged relative to the content (the older day's mean):
+//!
+//! * [`LeakMode::Standby`]: any loss above `leak_threshold_per_day` is a leak;
+//! * [`LeakMode::InUse`]: the loss beyond the expected draw is judged; the
+//!   expected draw is `declared_draw_kg_h`, or, when none is declared, the
+//!   loss per day learned from the first full ring (kept until
+//!   `relearn_draw`).
+//!
+//! The ring restarts at every fast fill or draw (and stays empty while not
+//! settled) and after a gap in the samples, so a verdict always rests on two
+//! whole settled days.
+
+pub mod fixed;
+pub mod float;
+
+/// Block means in the rate window.
+pub const RATE_WINDOW: usize = 32;
+/// Fewest blocks for a rate (three degrees of freedom for its standard error).
+pub const RATE_MIN_BLOCKS: usize = 5;
+/// Blocks in the settling window (slope and mean for the settled prediction).
+pub const SETTLE_WINDOW: usize = 8;
+/// Hours per day: the leak means span this many hourly means.
+pub const DAY_HOURS: usize = 24;
+/// Hourly means kept for leak detection: two days.
+pub const LEAK_RING: usize = 2 * DAY_HOURS;
+/// Milliseconds per hour.
+pub const HOUR_MS: u64 = 3_600_000;
+/// After this many settling time constants the gas counts as settled.
+pub const SETTLE_TIME_CONSTANTS: u64 = 3;
+
+/// How losses are judged.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum LeakMode {
+    /// The tank is not in use: any loss beyond the threshold is a leak.
+    Standby,
+    /// The tank feeds a consumer: only loss beyond the expected draw
+    /// (declared or learned) counts.
+    InUse,
+}
+
+/// Checks the timing fields shared by both configuration forms.
+pub(crate) fn validate_timing(
+    block: crate::time::Millis,
+    max_gap: crate::time::Millis,
+    smoothing: [crate::time::Millis; 2],
+    settle_time_constant: crate::time::Millis,
+) -> Result<(), crate::Error> {
+    use crate::Error;
+    let b = block.0;
+    if !(1000..=HOUR_MS).contains(&b) || !HOUR_MS.is_multiple_of(b) {
+        return Err(Error::OutOfRange("block"));
+    }
+    if max_gap.0 < 1000 || max_gap.0 > 24 * HOUR_MS {
+        return Err(Error::OutOfRange("maximum gap"));
+    }
+    for s in smoothing {
+        if s.0 > HOUR_MS {
+            return Err(Error::OutOfRange("smoothing time constant"));
+        }
+    }
+    if !(60_000..=24 * HOUR_MS).contains(&settle_time_constant.0) {
+        return Err(Error::OutOfRange("settle time constant"));
+    }
+    Ok(())
+}

@@ -1,0 +1,164 @@
+//! Consumption rate, time to empty and thermal settling on synthetic series
+//! with known truth (1 Hz), fixed-point and f64 trackers side by side. Run with
+//! `-- --nocapture` for the figures in README.
+
+use isochor_core::alarm::AlarmKind;
+use isochor_core::fx;
+use isochor_core::track::float::TrackConfig;
+use isochor_core::uncertainty::float::UncertaintyConfig;
+use isochor_tests::synth::{Fill, HOUR_MS, Scenario, rated_mass};
+use isochor_tests::tracking::{run, tank_of};
+
+fn config(sc: &Scenario) -> TrackConfig {
+    TrackConfig::for_tank(&tank_of(sc), UncertaintyConfig::example(300e5))
+}
+
+#[test]
+fn rate_and_time_to_empty_under_a_steady_draw() {
+    // 50 L nitrogen, ±15 K swing, a draw of 4 % of the rated content per hour
+    // from 95 %: the reserve (5 %) is reached after 22.5 h.
+    let mut sc = Scenario::standby(1, 31);
+    let m_rated = rated_mass(sc.gas, sc.capacity_m3, 200e5, 288.15);
+    sc.mass0_kg = 0.95 * m_rated;
+    sc.draw_kg_h = 0.04 * m_rated;
+    sc.duration_ms = 22 * HOUR_MS;
+    let cfg = config(&sc);
+    let reserve_kg = cfg.reserve_fraction * m_rated;
+    let (mut n, mut worst_rate, mut sq_rate, mut worst_tte, mut covered) =
+        (0u64, 0.0, 0.0, 0.0f64, 0u64);
+    let mut first_rate_at = None;
+    let agree = run(&sc, &cfg, |s, a, _| {
+        // Judge once a minute, from a full window on (32 min).
+        if s.t_ms % 60_000 != 0 {
+            return;
+        }
+        if let Some(r) = a.rate {
+            first_rate_at.get_or_insert(s.t_ms);
+            if r.blocks < 32 {
+                return;
+            }
+            let e = (fx::to_f64(r.kg_h) - sc.draw_kg_h) / sc.draw_kg_h;
+            worst_rate = f64::max(worst_rate, e.abs());
+            sq_rate += e * e;
+            n += 1;
+            if (fx::to_f64(r.kg_h) - sc.draw_kg_h).abs() <= fx::to_f64(r.u_kg_h) {
+                covered += 1;
+            }
+            let truth_ms = (s.mass_kg - reserve_kg) / sc.draw_kg_h * HOUR_MS as f64;
+            let t = a.time_to_empty.expect("a consumption has a time to empty");
+            let err_min = (t.expected.0 as f64 - truth_ms).abs() / 60_000.0;
+            // Relative to the time left, judged while more than 1 h is left.
+            if truth_ms > HOUR_MS as f64 {
+                worst_tte = worst_tte.max(err_min / (truth_ms / 60_000.0));
+            }
+        }
+    });
+    let rms = (sq_rate / n as f64).sqrt();
+    println!(
+        "steady draw 4 %/h with ±15 K swing: first rate after {} min; rate error worst {:.2} %, rms {:.2} %; U(rate) k=2 covers {:.0} % of minutes; time to empty worst {:.2} % of the time left; {}",
+        first_rate_at.unwrap_or(0) / 60_000,
+        worst_rate * 100.0,
+        rms * 100.0,
+        covered as f64 / n as f64 * 100.0,
+        worst_tte * 100.0,
+        agree.summary()
+    );
+    assert!(n > 1000);
+    // The 10-min lag of the temperature sensor behind the wall leaves a bias
+    // of the order lag × d²T/dt² / T relative to the content (about 1 % of
+    // this draw at the steepest part of the swing); bounds with margin.
+    assert!(worst_rate < 0.05, "rate error {worst_rate}");
+    assert!(rms < 0.015, "rate rms error {rms}");
+    assert!(worst_tte < 0.05, "time to empty error {worst_tte}");
+    agree.assert_close("steady draw");
+}
+
+#[test]
+fn settling_after_a_fast_fill_is_flagged_and_predicted() {
+    // A cylinder at 10 % filled to 100 % in 5 min at 10:00; the gas ends 30 K
+    // warmer than the wall and settles with τ = 30 min (the tracker's
+    // configured constant); the temperature sensor sits on the wall.
+    let mut sc = Scenario::standby(1, 41);
+    let m_rated = rated_mass(sc.gas, sc.capacity_m3, 200e5, 288.15);
+    sc.mass0_kg = 0.10 * m_rated;
+    sc.weather.swing_k = 5.0;
+    let fill_at = 10 * HOUR_MS;
+    let fill_end = fill_at + 5 * 60_000;
+    sc.fills.push(Fill {
+        at_ms: fill_at,
+        duration_ms: 5 * 60_000,
+        to_mass_kg: 1.0 * m_rated,
+        heat_k: 30.0,
+        settle_tau_s: 1800.0,
+    });
+    sc.duration_ms = 16 * HOUR_MS;
+    let cfg = config(&sc);
+    let mut worst_pred = 0.0f64;
+    let mut worst_pred_p = 0.0f64;
+    let mut worst_raw = 0.0f64;
+    let mut first_pred = None;
+    let agree = run(&sc, &cfg, |s, a, _| {
+        if s.t_ms < fill_end || s.t_ms % 60_000 != 0 {
+            return;
+        }
+        let truth = s.mass_kg / m_rated;
+        if let Some(c) = a.content
+            && s.t_ms < fill_end + 20 * 60_000
+        {
+            worst_raw = worst_raw.max((fx::to_f64(c.fill_fraction) - truth).abs());
+        }
+        if let Some(p) = a.settling.predicted {
+            first_pred.get_or_insert(s.t_ms);
+            worst_pred = worst_pred.max((fx::to_f64(p.fill_fraction) - truth).abs());
+            // Truth settled pressure: the same mass at the wall temperature as
+            // the sensor reads it now.
+            let t_now = fx::to_f64(a.content.expect("content").temperature_k);
+            let p_truth = s.p_true_pa * t_now / s.gas_k;
+            worst_pred_p = worst_pred_p.max((fx::to_f64(p.pressure_pa) / p_truth - 1.0).abs());
+        }
+    });
+    let raised = agree
+        .events_fixed
+        .iter()
+        .find(|e| e.kind == AlarmKind::NotSettled && e.raised)
+        .map(|e| e.at.0)
+        .expect("not_settled raised");
+    let cleared = agree
+        .events_fixed
+        .iter()
+        .find(|e| e.kind == AlarmKind::NotSettled && !e.raised)
+        .map(|e| e.at.0)
+        .expect("not_settled cleared");
+    println!(
+        "fast fill 10→100 % in 5 min, +30 K, τ 30 min: not_settled raised {:.0} min after the fill started, cleared {:.0} min after it ended; first prediction {:.0} min after; apparent content error up to {:.2} % of rated in the first 20 min, predicted settled content error up to {:.2} %, predicted settled pressure error up to {:.2} %; {}",
+        (raised - fill_at) as f64 / 60_000.0,
+        (cleared - fill_end) as f64 / 60_000.0,
+        (first_pred.unwrap_or(0).saturating_sub(fill_end)) as f64 / 60_000.0,
+        worst_raw * 100.0,
+        worst_pred * 100.0,
+        worst_pred_p * 100.0,
+        agree.summary()
+    );
+    assert!(raised <= fill_at + 2 * 60_000, "raised late");
+    // 3τ after the last fast block, at a block boundary.
+    assert!(
+        cleared <= fill_end + 3 * 1800 * 1000 + 2 * 60_000,
+        "cleared late"
+    );
+    assert!(worst_raw > 0.05, "the scenario must disturb the estimate");
+    assert!(worst_pred < 0.01, "prediction error {worst_pred}");
+    assert!(
+        worst_pred_p < 0.01,
+        "pressure prediction error {worst_pred_p}"
+    );
+    // No leak alarm from the settling drift.
+    assert!(
+        agree
+            .events_fixed
+            .iter()
+            .all(|e| e.kind == AlarmKind::NotSettled),
+        "{:?}",
+        agree.events_fixed
+    );
+    agree.assert_close("fast fill");
+}
