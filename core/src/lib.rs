@@ -42,6 +42,7 @@
     )
 )]
 
+pub mod auth;
 pub mod checksum;
 pub mod constants;
 pub mod content;
@@ -49,6 +50,7 @@ pub mod envelope;
 mod error;
 pub mod fx;
 mod gas;
+pub mod link;
 pub mod model;
 mod real;
 mod setup;
