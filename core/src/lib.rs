@@ -55,6 +55,7 @@ pub mod model;
 mod real;
 mod setup;
 mod status;
+pub mod store;
 pub mod time;
 
 pub use error::Error;

@@ -334,7 +334,8 @@ pub enum Outcome {
 pub enum Origin {
     /// The latest stored copy.
     Stored,
-    /// An older stored copy: the latest one is damaged.
+    /// The newest readable copy, which may not be the newest written: a newer
+    /// copy is damaged, or unreadable bytes in the area may have held one.
     Fallback,
     /// Safe defaults: no stored copy is readable.
     Default,
