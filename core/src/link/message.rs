@@ -247,6 +247,18 @@ pub enum Command {
     },
 }
 
+impl Command {
+    /// The command that writes `value` (validated and encoded here; the device
+    /// validates again before storing).
+    pub fn write_record<R: crate::store::Record>(value: &R) -> Result<Command, crate::Error> {
+        Ok(Command::WriteRecord {
+            kind: R::KIND.0,
+            version: R::VERSION,
+            bytes: crate::store::encode_record(value)?,
+        })
+    }
+}
+
 /// A sensor input of the device.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub enum SensorChannel {

@@ -25,6 +25,7 @@
 //! delivers, in pieces of any size.
 
 mod accumulator;
+pub mod device;
 mod message;
 
 pub use accumulator::{Accumulator, Feed};

@@ -94,6 +94,27 @@ pub trait Record: Serialize + DeserializeOwned + MaxSize + Sized {
     fn safe_default() -> Self;
 }
 
+/// The postcard encoding of a record, after validating it (what
+/// [`Command::WriteRecord`](crate::link::Command::WriteRecord) carries).
+pub fn encode_record<R: Record>(value: &R) -> Result<heapless::Vec<u8, MAX_RECORD_LEN>, Error> {
+    value.validate()?;
+    let mut buf = [0u8; MAX_RECORD_LEN];
+    let used = postcard::to_slice(value, &mut buf).map_err(|_| Error::RecordTooLarge)?;
+    heapless::Vec::from_slice(used).map_err(|_| Error::RecordTooLarge)
+}
+
+/// Decodes a record sent as `version` (must be [`Record::VERSION`]) from its
+/// whole postcard encoding. Not validated: call [`Record::validate`].
+pub fn decode_record<R: Record>(version: u16, bytes: &[u8]) -> Result<R, Error> {
+    if version != R::VERSION {
+        return Err(Error::MessageBody);
+    }
+    match postcard::take_from_bytes::<R>(bytes) {
+        Ok((value, [])) => Ok(value),
+        _ => Err(Error::MessageBody),
+    }
+}
+
 /// The status flags that say where a loaded value came from.
 pub const fn origin_status(origin: Origin, damaged: bool) -> Status {
     let s = match origin {
