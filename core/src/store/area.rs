@@ -71,8 +71,9 @@ fn max_opt(a: Option<u32>, b: Option<u32>) -> Option<u32> {
 
 impl RecordArea {
     /// The area of records of `kind` at `start` with banks of `bank_len`
-    /// bytes. Checks that both banks are whole erase sectors inside `flash`
-    /// and that the write unit is supported (at most 32 bytes).
+    /// bytes. Checks that both banks are whole erase sectors inside `flash`,
+    /// that each holds at least two copies of the largest record, and that the
+    /// write unit is supported (at most 32 bytes).
     pub fn new<F: NorFlash>(
         flash: &F,
         kind: RecordKind,
@@ -86,7 +87,7 @@ impl RecordArea {
             || unit > MAX_UNIT
             || !u64::from(start).is_multiple_of(erase)
             || !u64::from(bank_len).is_multiple_of(erase)
-            || (u64::from(bank_len) as usize) < Self::span(MAX_RECORD_LEN, unit)
+            || (u64::from(bank_len) as usize) < 2 * Self::span(MAX_RECORD_LEN, unit)
             || end > flash.capacity() as u64
         {
             return Err(Error::StoreLayout);
@@ -301,7 +302,6 @@ impl RecordArea {
             Some(s) => s.checked_add(1).ok_or(Error::SequenceExhausted)?,
         };
         let span = Self::span(len, unit) as u32;
-        let fits = |s: &BankScan| s.append_at.filter(|a| a + span <= self.bank_len);
         // The bank holding the newest valid copy is never erased.
         let current = match (s0.newest_valid, s1.newest_valid) {
             (Some(a), Some(b)) if b > a => 1,
@@ -309,22 +309,29 @@ impl RecordArea {
             _ => 0,
         };
         let other = 1 - current;
-        let (cur_scan, other_scan) = if current == 0 { (&s0, &s1) } else { (&s1, &s0) };
-        let (bank, at) = if let Some(at) = fits(cur_scan) {
-            (current, at)
-        } else if let Some(at) = fits(other_scan) {
-            (other, at)
-        } else {
-            let target = if s0.newest_valid.is_none() && s1.newest_valid.is_none() {
-                current
-            } else {
-                other
-            };
-            let from = self.bank_start(target);
+        let (cur_scan, other_scan) = if current == 0 { (s0, s1) } else { (s1, s0) };
+        let erase = |flash: &mut F, bank: u32| {
+            let from = self.bank_start(bank);
             flash
                 .erase(from, from + self.bank_len)
-                .map_err(|_| Error::Flash)?;
-            (target, 0)
+                .map_err(|_| Error::Flash)
+        };
+        // Unreadable bytes at the end of the other bank could pass for an
+        // interrupted newer copy: clear them, so that after this write the
+        // area is unambiguous again.
+        if other_scan.trailing_damage {
+            erase(flash, other)?;
+        }
+        // Append to the current bank when it has room after its last valid
+        // copy; otherwise start the other bank afresh.
+        let (bank, at) = match cur_scan.append_at.filter(|a| a + span <= self.bank_len) {
+            Some(at) => (current, at),
+            None => {
+                if !other_scan.trailing_damage {
+                    erase(flash, other)?;
+                }
+                (other, 0)
+            }
         };
 
         let [m0, m1] = MAGIC.to_le_bytes();

@@ -33,7 +33,10 @@
 //! 3. The copy goes after the last valid copy of the bank that holds the
 //!    newest value, if everything after it is erased and there is room.
 //!    Otherwise the *other* bank is erased and the copy goes at its start: the
-//!    newest valid copy is never touched while a new one is written.
+//!    newest valid copy is never touched while a new one is written. Unreadable
+//!    bytes at the end of the other bank (an interrupted write) are erased
+//!    first in any case, so that after a successful write no unreadable bytes
+//!    can pass for a newer copy.
 //! 4. The copy is read back and checked.
 //!
 //! A power cut at any byte therefore leaves either the previous value or the
