@@ -7,7 +7,7 @@ use std::fs;
 use isochor_core::SetupFx;
 use isochor_core::link::{self, Command, Message, Outcome, Ping, Reply, Signed, Telemetry};
 use isochor_core::store::sim::SimFlash;
-use isochor_core::store::{GasModelRef, RecordArea, RecordKind};
+use isochor_core::store::{GasModelRef, Record, RecordArea, RecordKind};
 
 fn main() {
     let frames = [
