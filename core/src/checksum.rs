@@ -14,6 +14,7 @@ pub fn crc32c(bytes: &[u8]) -> u32 {
 }
 
 /// An incremental CRC-32C over several pieces.
+#[derive(Clone)]
 pub struct Crc32c(Digest<'static, u32, NoTable>);
 
 impl Crc32c {

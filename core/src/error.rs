@@ -22,6 +22,49 @@ pub enum Error {
     /// The gas model's answer at the rated or standard condition was unusable
     /// (for example two-phase), so the setup cannot be prepared.
     ModelUnusable(&'static str),
+
+    // ---- link (issue 6) ----
+    /// A frame's COBS encoding is broken (a code byte points past the end).
+    FrameEncoding,
+    /// A frame is shorter than a header and a CRC, or longer than the
+    /// protocol's maximum frame.
+    FrameLength,
+    /// A frame's CRC-32C does not match its content.
+    FrameCrc,
+    /// A frame of another protocol version (the version it carries).
+    ProtocolVersion(u8),
+    /// A frame of a message kind this version does not know (its raw code).
+    UnknownKind(u8),
+    /// A frame's body does not decode as its kind's message (or has bytes left
+    /// over).
+    MessageBody,
+    /// The output buffer is too small for the encoded frame or record.
+    BufferTooSmall,
+
+    // ---- storage (issue 6) ----
+    /// The flash driver reported an error (or the power failed during a write).
+    Flash,
+    /// A record does not fit its flash area or the record size limit.
+    RecordTooLarge,
+    /// The storage layout does not fit the flash (areas overlap, are not
+    /// aligned to erase sectors, or lie past its end).
+    StoreLayout,
+    /// A record's sequence number reached its maximum: the area is worn out.
+    SequenceExhausted,
+
+    // ---- authentication (issue 6) ----
+    /// No signing session is open, or it has expired.
+    NoSession,
+    /// A signature does not match.
+    BadSignature,
+    /// A signed command's counter is not the next one (replay or reordering).
+    Replay,
+    /// Too many failed signatures: locked out for this many more ms.
+    LockedOut(u64),
+    /// A gas-model piece is not the next one (the offset expected).
+    ChunkOrder(u32),
+    /// A gas-model blob does not match its CRC-32C.
+    BlobCrc,
 }
 
 impl fmt::Display for Error {
@@ -33,6 +76,23 @@ impl fmt::Display for Error {
             Error::ModelUnusable(what) => {
                 write!(f, "the gas model gives no usable answer at the {what}")
             }
+            Error::FrameEncoding => f.write_str("frame: broken COBS encoding"),
+            Error::FrameLength => f.write_str("frame: too short or too long"),
+            Error::FrameCrc => f.write_str("frame: CRC-32C mismatch"),
+            Error::ProtocolVersion(v) => write!(f, "frame: unsupported protocol version {v}"),
+            Error::UnknownKind(k) => write!(f, "frame: unknown message kind {k:#04x}"),
+            Error::MessageBody => f.write_str("frame: body does not decode as its message kind"),
+            Error::BufferTooSmall => f.write_str("output buffer too small"),
+            Error::Flash => f.write_str("flash write or erase failed"),
+            Error::RecordTooLarge => f.write_str("record too large for its area"),
+            Error::StoreLayout => f.write_str("storage layout does not fit the flash"),
+            Error::SequenceExhausted => f.write_str("record sequence number exhausted"),
+            Error::NoSession => f.write_str("no signing session open (or it expired)"),
+            Error::BadSignature => f.write_str("signature does not match"),
+            Error::Replay => f.write_str("command counter out of order (replay)"),
+            Error::LockedOut(ms) => write!(f, "locked out after failed signatures for {ms} ms"),
+            Error::ChunkOrder(o) => write!(f, "gas-model piece out of order, expected offset {o}"),
+            Error::BlobCrc => f.write_str("gas-model blob CRC-32C mismatch"),
         }
     }
 }

@@ -43,6 +43,7 @@
 )]
 
 pub mod alarm;
+pub mod auth;
 pub mod checksum;
 pub mod constants;
 pub mod content;
@@ -50,10 +51,12 @@ pub mod envelope;
 mod error;
 pub mod fx;
 mod gas;
+pub mod link;
 pub mod model;
 mod real;
 mod setup;
 mod status;
+pub mod store;
 pub mod time;
 pub mod track;
 pub mod uncertainty;

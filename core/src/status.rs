@@ -69,6 +69,18 @@ flags! {
     /// Alarm: the sensor front end has reported a fault (any flag of
     /// [`Status::SENSOR_RANGE`]) for longer than the debounce time.
     SENSOR_FAULT = 22, "sensor_fault";
+    /// A stored record's newest copy is unreadable: an older copy is in use.
+    CONFIG_FALLBACK = 24, "config_fallback";
+    /// No stored copy of a record is readable: its safe defaults are in use,
+    /// and figures that depend on it mean nothing for a real tank.
+    CONFIG_DEFAULT = 25, "config_default";
+    /// Configuration storage holds unreadable bytes (an interrupted write or
+    /// a flash fault); the values in use are still checked copies.
+    STORAGE_DAMAGED = 26, "storage_damaged";
+    /// A configuration write failed; the previous value is kept.
+    STORAGE_WRITE_FAILED = 27, "storage_write_failed";
+    /// Signed commands are refused for a while after failed signatures.
+    AUTH_LOCKED_OUT = 28, "auth_locked_out";
 }
 
 impl Status {

@@ -23,6 +23,12 @@ pub enum Error {
     /// Output could not be written or encoded.
     #[error("output: {0}")]
     Output(String),
+    /// The link to a device failed (port, connection, timeout, bad reply).
+    #[error("link: {0}")]
+    Link(String),
+    /// The device refused a request.
+    #[error("device refused: {0}")]
+    Refused(String),
 }
 
 impl Error {
@@ -30,7 +36,7 @@ impl Error {
     pub fn exit_code(&self) -> u8 {
         match self {
             Error::Quantity { .. } | Error::Invalid(_) | Error::Core(_) => 2,
-            Error::Output(_) => 1,
+            Error::Output(_) | Error::Link(_) | Error::Refused(_) => 1,
         }
     }
 }

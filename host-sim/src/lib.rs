@@ -5,12 +5,14 @@
 //!
 //! * [`units`] — parsing of quantities with units (`200bar`, `35C`, `50L`).
 //! * [`content`] — the content report of `isochor content` (both core paths).
+//! * [`link`] — the serial link: transports, client, emulated device, views.
 //! * [`safety`] — the cautions printed with every human-readable result.
 //! * [`cli`] — argument parsing and the commands.
 
 pub mod cli;
 pub mod content;
 mod error;
+pub mod link;
 pub mod safety;
 pub mod units;
 

@@ -2,6 +2,8 @@
 //! Commands are thin: they parse, call the library, and print.
 
 mod content;
+mod listen;
+mod send;
 
 use clap::{Parser, Subcommand, ValueEnum};
 use std::process::ExitCode;
@@ -20,6 +22,10 @@ pub struct Cli {
 pub enum Command {
     /// Estimate the content of one tank from one pressure and temperature.
     Content(content::ContentArgs),
+    /// Show what a device sends: live view, JSON lines or CSV.
+    Listen(listen::ListenArgs),
+    /// Send a request or a signed command to a device.
+    Send(send::SendArgs),
 }
 
 /// Output format shared by the commands.
@@ -52,6 +58,8 @@ pub fn main() -> ExitCode {
 pub fn run(cli: Cli) -> Result<String, crate::Error> {
     match cli.command {
         Command::Content(args) => content::run(&args),
+        Command::Listen(args) => listen::run(&args),
+        Command::Send(args) => send::run(&args),
     }
 }
 

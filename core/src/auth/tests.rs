@@ -1,0 +1,206 @@
+use super::*;
+use crate::link::{Command, SensorChannel};
+
+/// A deterministic nonce source for tests (xorshift64*; not for devices).
+struct TestNonces(u64);
+
+impl NonceSource for TestNonces {
+    fn fill_nonce(&mut self, out: &mut [u8; NONCE_LEN]) {
+        for chunk in out.chunks_mut(8) {
+            self.0 ^= self.0 >> 12;
+            self.0 ^= self.0 << 25;
+            self.0 ^= self.0 >> 27;
+            let v = self.0.wrapping_mul(0x2545_F491_4F6C_DD1D).to_le_bytes();
+            chunk.copy_from_slice(&v[..chunk.len()]);
+        }
+    }
+}
+
+const SERIAL: u64 = 0x1234_5678;
+
+fn secret() -> Secret {
+    Secret::new([7u8; SECRET_LEN])
+}
+
+fn signed(secret: &Secret, nonce: &[u8; NONCE_LEN], counter: u32, command: Command) -> Signed {
+    Signed {
+        tag: 1,
+        counter,
+        mac: sign_command(secret, SERIAL, nonce, counter, &command).unwrap(),
+        command,
+    }
+}
+
+#[test]
+fn hmac_sha256_known_vectors() {
+    // RFC 4231 §4.2 (test case 1) and §4.3 (test case 2), HMAC-SHA-256.
+    let mut m = HmacSha256::new_from_slice(&[0x0b; 20]).unwrap();
+    m.update(b"Hi There");
+    assert_eq!(
+        m.finalize().into_bytes()[..],
+        hex("b0344c61d8db38535ca8afceaf0bf12b881dc200c9833da726e9376c2e32cff7")
+    );
+    let mut m = HmacSha256::new_from_slice(b"Jefe").unwrap();
+    m.update(b"what do ya want for nothing?");
+    assert_eq!(
+        m.finalize().into_bytes()[..],
+        hex("5bdcc146bf60754e6a042426089575c75a003f089d2739839dec58b964ec3843")
+    );
+}
+
+fn hex(s: &str) -> std::vec::Vec<u8> {
+    (0..s.len())
+        .step_by(2)
+        .map(|i| u8::from_str_radix(&s[i..i + 2], 16).unwrap())
+        .collect()
+}
+
+#[test]
+fn secret_hex_parsing() {
+    let text = "00112233445566778899aabbccddeeff00112233445566778899AABBCCDDEEFF\n";
+    let s = Secret::from_hex(text).unwrap();
+    assert_eq!(s.0[1], 0x11);
+    assert_eq!(s.0[31], 0xff);
+    assert!(Secret::from_hex("0011").is_err());
+    assert!(Secret::from_hex(&"zz".repeat(32)).is_err());
+    assert_eq!(std::format!("{s:?}"), "Secret(..)");
+}
+
+#[test]
+fn good_session_then_replay_and_reorder_rejected() {
+    let mut auth = Authenticator::new(secret(), SERIAL, Policy::default());
+    let mut rng = TestNonces(1);
+    let t0 = Instant(1_000);
+    let nonce = auth.challenge(t0, &mut rng).unwrap();
+    let first = signed(&secret(), &nonce, 1, Command::ClearAlarms);
+    let v = auth.verify(t0, &first).unwrap();
+    assert_eq!(v.counter, 1);
+    assert!(verify_done(&secret(), SERIAL, &nonce, 1, &v.done_mac));
+    assert!(!verify_done(&secret(), SERIAL, &nonce, 2, &v.done_mac));
+    // Same frame again: the counter is no longer the next one.
+    assert_eq!(auth.verify(t0, &first), Err(Error::Replay));
+    // The session is closed after a failure.
+    let second = signed(&secret(), &nonce, 2, Command::Reboot);
+    assert_eq!(auth.verify(t0, &second), Err(Error::NoSession));
+    // In a new session the old frames carry the wrong nonce.
+    let nonce2 = auth.challenge(t0, &mut rng).unwrap();
+    assert_ne!(nonce, nonce2);
+    assert_eq!(auth.verify(t0, &first), Err(Error::BadSignature));
+    // Skipping ahead is refused too.
+    let nonce3 = auth.challenge(t0, &mut rng).unwrap();
+    let skip = signed(&secret(), &nonce3, 2, Command::ClearAlarms);
+    assert_eq!(auth.verify(t0, &skip), Err(Error::Replay));
+}
+
+#[test]
+fn session_counts_up_and_expires() {
+    let mut auth = Authenticator::new(secret(), SERIAL, Policy::default());
+    let mut rng = TestNonces(2);
+    let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
+    for counter in 1..=5 {
+        let cmd = Command::ZeroCalibration {
+            channel: SensorChannel::Pressure,
+        };
+        auth.verify(
+            Instant(10 * u64::from(counter)),
+            &signed(&secret(), &nonce, counter, cmd),
+        )
+        .unwrap();
+    }
+    let late = signed(&secret(), &nonce, 6, Command::ClearAlarms);
+    assert_eq!(auth.verify(Instant(60_000), &late), Err(Error::NoSession));
+}
+
+#[test]
+fn altered_command_wrong_secret_or_device_rejected() {
+    let mut auth = Authenticator::new(secret(), SERIAL, Policy::default());
+    let mut rng = TestNonces(3);
+    let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
+    let mut s = signed(&secret(), &nonce, 1, Command::ClearAlarms);
+    s.command = Command::Reboot;
+    assert_eq!(auth.verify(Instant(0), &s), Err(Error::BadSignature));
+
+    let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
+    let other = Secret::new([8u8; SECRET_LEN]);
+    let s = signed(&other, &nonce, 1, Command::ClearAlarms);
+    assert_eq!(auth.verify(Instant(0), &s), Err(Error::BadSignature));
+
+    let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
+    let cmd = Command::ClearAlarms;
+    let s = Signed {
+        tag: 1,
+        counter: 1,
+        mac: sign_command(&secret(), SERIAL + 1, &nonce, 1, &cmd).unwrap(),
+        command: cmd,
+    };
+    assert_eq!(auth.verify(Instant(0), &s), Err(Error::BadSignature));
+}
+
+#[test]
+fn every_single_bit_of_a_signature_matters() {
+    let mut rng = TestNonces(4);
+    for bit in 0..MAC_LEN * 8 {
+        let mut auth = Authenticator::new(secret(), SERIAL, Policy::default());
+        let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
+        let mut s = signed(&secret(), &nonce, 1, Command::ClearAlarms);
+        s.mac[bit / 8] ^= 1 << (bit % 8);
+        assert_eq!(auth.verify(Instant(0), &s), Err(Error::BadSignature));
+    }
+}
+
+#[test]
+fn failures_back_off_and_success_resets() {
+    let policy = Policy::default();
+    let mut auth = Authenticator::new(secret(), SERIAL, policy);
+    let mut rng = TestNonces(5);
+    let bad_secret = Secret::new([9u8; SECRET_LEN]);
+    let mut now = Instant(0);
+    let mut lockouts = std::vec::Vec::new();
+    for _ in 0..8 {
+        let nonce = auth.challenge(now, &mut rng).unwrap();
+        let s = signed(&bad_secret, &nonce, 1, Command::ClearAlarms);
+        assert_eq!(auth.verify(now, &s), Err(Error::BadSignature));
+        match auth.locked_for(now) {
+            None => lockouts.push(0),
+            Some(left) => {
+                lockouts.push(left.as_millis());
+                // Everything is refused while locked, even a good signature.
+                assert_eq!(
+                    auth.challenge(now, &mut rng),
+                    Err(Error::LockedOut(left.as_millis()))
+                );
+                now = now + left;
+            }
+        }
+    }
+    assert_eq!(lockouts, [0, 0, 0, 1_000, 2_000, 4_000, 8_000, 16_000]);
+    assert_eq!(auth.failures(), 8);
+    let nonce = auth.challenge(now, &mut rng).unwrap();
+    auth.verify(now, &signed(&secret(), &nonce, 1, Command::ClearAlarms))
+        .unwrap();
+    assert_eq!(auth.failures(), 0);
+    // The back-off is capped.
+    let mut auth = Authenticator::new(secret(), SERIAL, policy);
+    let mut now = Instant(0);
+    for _ in 0..100 {
+        if let Some(left) = auth.locked_for(now) {
+            now = now + left;
+        }
+        let nonce = auth.challenge(now, &mut rng).unwrap();
+        let _ = auth.verify(now, &signed(&bad_secret, &nonce, 1, Command::Reboot));
+    }
+    assert_eq!(
+        auth.locked_for(now).map(|m| m.as_millis()),
+        Some(policy.max_lockout_ms)
+    );
+}
+
+#[test]
+fn no_session_costs_nothing() {
+    let mut auth = Authenticator::new(secret(), SERIAL, Policy::default());
+    let s = signed(&secret(), &[0; NONCE_LEN], 1, Command::Reboot);
+    for _ in 0..10 {
+        assert_eq!(auth.verify(Instant(0), &s), Err(Error::NoSession));
+    }
+    assert_eq!(auth.failures(), 0);
+}

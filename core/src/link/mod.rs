@@ -1,0 +1,231 @@
+//! The serial link: messages, frames and the receive accumulator.
+//!
+//! # Frame format
+//!
+//! ```text
+//! frame   = COBS(payload) 0x00
+//! payload = version:u8  kind:u8  body  crc:u32-le
+//! body    = postcard encoding of the kind's message
+//! crc     = CRC-32C (CRC-32/ISCSI, check value 0xE3069283) of version, kind and body
+//! ```
+//!
+//! * COBS (consistent overhead byte stuffing, Cheshire & Baker, IEEE/ACM
+//!   Transactions on Networking 7(2), 1999) removes every 0x00 from the
+//!   payload, so 0x00 only ever ends a frame: a receiver that joins a stream
+//!   mid-frame, or loses bytes to noise, is back in step at the next 0x00.
+//! * The protocol version travels in every frame ([`PROTOCOL_VERSION`]).
+//! * The message kind is one byte ([`Kind`]); a frame of a kind this version
+//!   does not know decodes to [`Error::UnknownKind`] with the raw code kept.
+//! * postcard bounds every body at compile time (`MaxSize`), which bounds every
+//!   frame: [`MAX_FRAME_LEN`] bytes including the delimiter. Receive buffers of
+//!   that size never overflow on valid traffic.
+//!
+//! Encoding needs no allocation ([`encode`] writes into a caller's buffer);
+//! receiving is done by an [`Accumulator`] fed with whatever the UART
+//! delivers, in pieces of any size.
+
+mod accumulator;
+pub mod device;
+mod message;
+
+pub use accumulator::{Accumulator, Feed};
+pub use message::*;
+
+use postcard::experimental::max_size::MaxSize;
+
+use crate::Error;
+use crate::checksum::crc32c;
+
+/// The protocol version this crate speaks; every frame carries it.
+pub const PROTOCOL_VERSION: u8 = 1;
+
+/// Bytes before the body: version and kind.
+pub const HEADER_LEN: usize = 2;
+/// Bytes of the CRC-32C after the body.
+pub const CRC_LEN: usize = 4;
+
+macro_rules! messages {
+    ($( $(#[doc = $doc:literal])* $variant:ident($ty:ty) = $code:literal, $name:literal; )*) => {
+        /// Every message of the protocol.
+        #[derive(Clone, Debug, PartialEq, Eq)]
+        #[allow(clippy::large_enum_variant)]
+        pub enum Message {
+            $( $(#[doc = $doc])* $variant($ty), )*
+        }
+
+        /// The kind of a message: its one-byte code on the wire.
+        #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+        #[cfg_attr(feature = "defmt", derive(defmt::Format))]
+        #[repr(u8)]
+        pub enum Kind {
+            $( $(#[doc = $doc])* $variant = $code, )*
+        }
+
+        impl Kind {
+            /// Every kind, in code order.
+            pub const ALL: &'static [Kind] = &[ $( Kind::$variant, )* ];
+
+            /// The code on the wire.
+            pub const fn code(self) -> u8 {
+                self as u8
+            }
+
+            /// The kind of a wire code, `None` for codes this version does not know.
+            pub const fn from_code(code: u8) -> Option<Kind> {
+                match code {
+                    $( $code => Some(Kind::$variant), )*
+                    _ => None,
+                }
+            }
+
+            /// Stable snake_case name (used in host output).
+            pub const fn name(self) -> &'static str {
+                match self {
+                    $( Kind::$variant => $name, )*
+                }
+            }
+        }
+
+        impl Message {
+            /// The kind of this message.
+            pub const fn kind(&self) -> Kind {
+                match self {
+                    $( Message::$variant(_) => Kind::$variant, )*
+                }
+            }
+
+            fn encode_body(&self, out: &mut [u8]) -> Result<usize, Error> {
+                let used = match self {
+                    $( Message::$variant(m) => postcard::to_slice(m, out).map(|s| s.len()), )*
+                };
+                used.map_err(|_| Error::BufferTooSmall)
+            }
+
+            fn decode_body(kind: Kind, body: &[u8]) -> Result<Message, Error> {
+                match kind {
+                    $( Kind::$variant => whole::<$ty>(body).map(Message::$variant), )*
+                }
+            }
+        }
+
+        /// The largest body of any message, bytes (postcard `MaxSize`).
+        pub const MAX_BODY_LEN: usize = {
+            let mut max = 0;
+            $( if <$ty as MaxSize>::POSTCARD_MAX_SIZE > max { max = <$ty as MaxSize>::POSTCARD_MAX_SIZE; } )*
+            max
+        };
+    };
+}
+
+messages! {
+    /// Device → host: who the device is.
+    Identity(Identity) = 0x01, "identity";
+    /// Device → host: one estimate.
+    Telemetry(Telemetry) = 0x02, "telemetry";
+    /// Device → host: an alarm was raised or cleared.
+    Alarm(AlarmEvent) = 0x03, "alarm";
+    /// Device → host: the answer to a request.
+    Reply(Reply) = 0x04, "reply";
+    /// Host → device: are you there?
+    Ping(Ping) = 0x10, "ping";
+    /// Host → device: send your identity.
+    GetIdentity(GetIdentity) = 0x11, "get_identity";
+    /// Host → device: open a signing session.
+    GetChallenge(GetChallenge) = 0x12, "get_challenge";
+    /// Host → device: read a stored record.
+    ReadRecord(ReadRecord) = 0x13, "read_record";
+    /// Host → device: a signed command.
+    Signed(Signed) = 0x14, "signed";
+    /// Host → device: raw sensor codes to take as a sample.
+    InjectSample(InjectSample) = 0x15, "inject_sample";
+}
+
+/// Decodes a whole body: bytes left over are an error.
+fn whole<T: serde::de::DeserializeOwned>(body: &[u8]) -> Result<T, Error> {
+    match postcard::take_from_bytes::<T>(body) {
+        Ok((value, [])) => Ok(value),
+        _ => Err(Error::MessageBody),
+    }
+}
+
+/// The largest payload (header, body, CRC), bytes.
+pub const MAX_PAYLOAD_LEN: usize = HEADER_LEN + MAX_BODY_LEN + CRC_LEN;
+
+/// The largest frame on the wire, bytes: COBS-encoded payload plus the 0x00
+/// delimiter. Known at compile time.
+pub const MAX_FRAME_LEN: usize = cobs::max_encoding_length(MAX_PAYLOAD_LEN) + 1;
+
+/// Writes the payload of `msg` (header, body, CRC) into `out`; returns its
+/// length.
+pub fn encode_payload(msg: &Message, out: &mut [u8]) -> Result<usize, Error> {
+    let (header, rest) = out
+        .split_first_chunk_mut::<HEADER_LEN>()
+        .ok_or(Error::BufferTooSmall)?;
+    *header = [PROTOCOL_VERSION, msg.kind().code()];
+    let body_len = msg.encode_body(rest)?;
+    let crc_at = HEADER_LEN + body_len;
+    let crc = crc32c(out.get(..crc_at).ok_or(Error::BufferTooSmall)?);
+    out.get_mut(crc_at..crc_at + CRC_LEN)
+        .ok_or(Error::BufferTooSmall)?
+        .copy_from_slice(&crc.to_le_bytes());
+    Ok(crc_at + CRC_LEN)
+}
+
+/// Encodes `msg` as a complete frame (COBS payload and the 0x00 delimiter)
+/// into `out`; returns the frame length (at most [`MAX_FRAME_LEN`]).
+pub fn encode(msg: &Message, out: &mut [u8]) -> Result<usize, Error> {
+    let mut payload = [0u8; MAX_PAYLOAD_LEN];
+    let n = encode_payload(msg, &mut payload)?;
+    let src = payload.get(..n).ok_or(Error::BufferTooSmall)?;
+    let used = cobs::try_encode(src, out).map_err(|_| Error::BufferTooSmall)?;
+    *out.get_mut(used).ok_or(Error::BufferTooSmall)? = 0;
+    Ok(used + 1)
+}
+
+/// Decodes a payload (COBS already removed): checks length, CRC, version and
+/// kind, then the body.
+pub fn decode_payload(payload: &[u8]) -> Result<Message, Error> {
+    if payload.len() < HEADER_LEN + CRC_LEN || payload.len() > MAX_PAYLOAD_LEN {
+        return Err(Error::FrameLength);
+    }
+    let (covered, crc) = payload
+        .split_last_chunk::<CRC_LEN>()
+        .ok_or(Error::FrameLength)?;
+    if crc32c(covered) != u32::from_le_bytes(*crc) {
+        return Err(Error::FrameCrc);
+    }
+    let ([version, code], body) = covered
+        .split_first_chunk::<HEADER_LEN>()
+        .ok_or(Error::FrameLength)?;
+    if *version != PROTOCOL_VERSION {
+        return Err(Error::ProtocolVersion(*version));
+    }
+    let kind = Kind::from_code(*code).ok_or(Error::UnknownKind(*code))?;
+    Message::decode_body(kind, body)
+}
+
+/// Decodes one frame held whole in `frame`, with or without its trailing
+/// 0x00 delimiter. `frame` must not contain any other 0x00. The bytes are
+/// decoded in place (COBS decoding shortens them), so they are left changed.
+pub fn decode_in_place(frame: &mut [u8]) -> Result<Message, Error> {
+    let body = match frame.split_last_mut() {
+        Some((0, body)) => body,
+        _ => frame,
+    };
+    if body.len() > MAX_FRAME_LEN - 1 {
+        return Err(Error::FrameLength);
+    }
+    if body.contains(&0) {
+        return Err(Error::FrameEncoding);
+    }
+    let n = cobs::decode_in_place(body).map_err(|_| Error::FrameEncoding)?;
+    decode_payload(body.get(..n).ok_or(Error::FrameEncoding)?)
+}
+
+/// Decodes one frame (copied first; see [`decode_in_place`]).
+pub fn decode(frame: &[u8]) -> Result<Message, Error> {
+    let mut buf = [0u8; MAX_FRAME_LEN];
+    let dst = buf.get_mut(..frame.len()).ok_or(Error::FrameLength)?;
+    dst.copy_from_slice(frame);
+    decode_in_place(dst)
+}

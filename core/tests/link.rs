@@ -1,0 +1,484 @@
+//! The serial link: known vectors, round trips of every message, frame bounds,
+//! the accumulator fed in random pieces, and single-bit-flip detection.
+
+use heapless::Vec as HVec;
+use isochor_core::link::{
+    self, Accumulator, AlarmEvent, AlarmTransition, Command, Feed, GetChallenge, GetIdentity,
+    Identity, InjectSample, Kind, MAX_FRAME_LEN, Message, Origin, Outcome, Ping, RawCode,
+    ReadRecord, Refusal, Reply, SensorChannel, Signed, Telemetry,
+};
+use isochor_core::{Error, checksum};
+use proptest::collection::vec;
+use proptest::prelude::*;
+use proptest::strategy::ValueTree;
+
+// ---- known vectors ----
+
+#[test]
+fn crc_check_values() {
+    // CRC catalogue (Greg Cook, "Catalogue of parametrised CRC algorithms",
+    // reveng.sourceforge.io): check value = CRC of the ASCII string "123456789".
+    let iso_hdlc = crc::Crc::<u32>::new(&crc::CRC_32_ISO_HDLC);
+    assert_eq!(iso_hdlc.checksum(b"123456789"), 0xCBF4_3926); // CRC-32/ISO-HDLC
+    assert_eq!(checksum::crc32c(b"123456789"), 0xE306_9283); // CRC-32/ISCSI (CRC-32C), used here
+    let xmodem = crc::Crc::<u16>::new(&crc::CRC_16_XMODEM);
+    assert_eq!(xmodem.checksum(b"123456789"), 0x31C3); // CRC-16/XMODEM
+}
+
+#[test]
+fn cobs_examples() {
+    // Cheshire & Baker, "Consistent Overhead Byte Stuffing", IEEE/ACM
+    // Transactions on Networking 7(2), 1999 (examples as tabulated in the
+    // COBS literature).
+    let cases: [(&[u8], &[u8]); 2] = [
+        (&[0x0A, 0x0B, 0x00, 0x0C], &[0x03, 0x0A, 0x0B, 0x02, 0x0C]),
+        (&[0x00, 0x00, 0x01, 0x00], &[0x01, 0x01, 0x02, 0x01, 0x01]),
+    ];
+    for (raw, encoded) in cases {
+        let mut out = [0u8; 16];
+        let n = cobs::encode(raw, &mut out);
+        assert_eq!(&out[..n], encoded);
+        let mut back = [0u8; 16];
+        let m = cobs::decode(encoded, &mut back).unwrap().frame_size();
+        assert_eq!(&back[..m], raw);
+    }
+}
+
+#[test]
+fn frame_layout_is_as_documented() {
+    let msg = Message::Ping(Ping { tag: 1, token: 2 });
+    let mut payload = [0u8; link::MAX_PAYLOAD_LEN];
+    let n = link::encode_payload(&msg, &mut payload).unwrap();
+    // version, kind, postcard body (varint tag 1, varint token 2), CRC-32C LE.
+    assert_eq!(&payload[..4], &[link::PROTOCOL_VERSION, 0x10, 0x01, 0x02]);
+    assert_eq!(n, 8);
+    let crc = checksum::crc32c(&payload[..4]);
+    assert_eq!(&payload[4..8], &crc.to_le_bytes());
+    let mut frame = [0u8; MAX_FRAME_LEN];
+    let f = link::encode(&msg, &mut frame).unwrap();
+    let mut cobs_part = [0u8; 32];
+    let c = cobs::encode(&payload[..n], &mut cobs_part);
+    assert_eq!(&frame[..f - 1], &cobs_part[..c]);
+    assert_eq!(frame[f - 1], 0);
+}
+
+#[test]
+fn max_frame_is_small_and_reached_by_no_message() {
+    // A compile-time figure: print it for the README.
+    println!(
+        "MAX_BODY_LEN = {}, MAX_FRAME_LEN = {MAX_FRAME_LEN}",
+        link::MAX_BODY_LEN
+    );
+    const { assert!(MAX_FRAME_LEN <= 256) };
+    // The largest messages with every field at its longest.
+    let big = [
+        Message::Signed(Signed {
+            tag: u16::MAX,
+            counter: u32::MAX,
+            mac: [0xFF; 32],
+            command: Command::GasModelChunk {
+                offset: u32::MAX,
+                total_len: u32::MAX,
+                blob_crc: u32::MAX,
+                bytes: HVec::from_slice(&[0xFF; link::CHUNK_MAX_LEN]).unwrap(),
+            },
+        }),
+        Message::Reply(Reply {
+            tag: u16::MAX,
+            outcome: Outcome::Record {
+                kind: u16::MAX,
+                version: u16::MAX,
+                origin: Origin::Default,
+                bytes: HVec::from_slice(&[0; link::RECORD_MAX_LEN]).unwrap(),
+            },
+        }),
+        Message::Telemetry(Telemetry {
+            seq: u32::MAX,
+            uptime_ms: u64::MAX,
+            pressure_pa: u32::MAX,
+            temperature_k: u32::MAX,
+            density_kg_m3: u64::MAX,
+            mass_kg: u64::MAX,
+            standard_volume_m3: u64::MAX,
+            settled_pressure_pa: u32::MAX,
+            fill_fraction: u64::MAX,
+            rate_kg_h: i64::MIN,
+            time_to_empty_s: Some(u32::MAX),
+            mass_uncertainty_kg: u64::MAX,
+            status: u32::MAX,
+        }),
+    ];
+    for m in big {
+        let mut out = [0u8; MAX_FRAME_LEN];
+        let n = link::encode(&m, &mut out).unwrap();
+        assert!(n <= MAX_FRAME_LEN);
+        assert_eq!(link::decode(&out[..n]).unwrap(), m);
+    }
+}
+
+#[test]
+fn unknown_kind_and_other_version_are_typed_errors() {
+    let frame_of = |payload_head: &[u8]| {
+        let mut payload = payload_head.to_vec();
+        payload.extend_from_slice(&checksum::crc32c(payload_head).to_le_bytes());
+        let mut out = [0u8; 64];
+        let n = cobs::encode(&payload, &mut out);
+        out[..n].to_vec()
+    };
+    assert_eq!(
+        link::decode(&frame_of(&[link::PROTOCOL_VERSION, 0x7F, 1, 2, 3])),
+        Err(Error::UnknownKind(0x7F))
+    );
+    assert_eq!(
+        link::decode(&frame_of(&[2, 0x10, 1, 2])),
+        Err(Error::ProtocolVersion(2))
+    );
+    // A known kind with a body that does not decode, or has bytes left over.
+    assert_eq!(
+        link::decode(&frame_of(&[link::PROTOCOL_VERSION, 0x10, 0x80])),
+        Err(Error::MessageBody)
+    );
+    assert_eq!(
+        link::decode(&frame_of(&[link::PROTOCOL_VERSION, 0x10, 1, 2, 3])),
+        Err(Error::MessageBody)
+    );
+    assert_eq!(link::decode(&frame_of(&[1])), Err(Error::FrameLength));
+    for k in Kind::ALL {
+        assert_eq!(Kind::from_code(k.code()), Some(*k));
+    }
+}
+
+#[test]
+fn accumulator_outcomes() {
+    let mut acc = Accumulator::new();
+    // Too long: dropped up to its delimiter, then in step again.
+    let mut stream = vec![0x55u8; MAX_FRAME_LEN + 10];
+    stream.push(0);
+    let mut frame = [0u8; MAX_FRAME_LEN];
+    let msg = Message::GetIdentity(GetIdentity { tag: 9 });
+    let n = link::encode(&msg, &mut frame).unwrap();
+    stream.extend_from_slice(&[0, 0]); // empty frames are skipped
+    stream.extend_from_slice(&frame[..n]);
+    stream.extend_from_slice(&[9, 1, 2, 3, 4, 5, 6, 7, 8, 0]); // garbage frame
+    let rest = match acc.feed(&stream) {
+        Feed::Overfull { rest } => rest,
+        other => panic!("{other:?}"),
+    };
+    let rest = match acc.feed(rest) {
+        Feed::Frame { message, rest } => {
+            assert_eq!(message, msg);
+            rest
+        }
+        other => panic!("{other:?}"),
+    };
+    match acc.feed(rest) {
+        Feed::BadFrame { error, rest } => {
+            assert_eq!(error, Error::FrameCrc);
+            assert!(rest.is_empty());
+        }
+        other => panic!("{other:?}"),
+    }
+    assert_eq!(acc.feed(&[]), Feed::NeedMore);
+    assert_eq!(acc.pending(), 0);
+}
+
+// ---- strategies for every message ----
+
+fn channel() -> impl Strategy<Value = SensorChannel> {
+    prop_oneof![
+        Just(SensorChannel::Pressure),
+        Just(SensorChannel::Temperature)
+    ]
+}
+
+fn bytes<const N: usize>() -> impl Strategy<Value = HVec<u8, N>> {
+    vec(any::<u8>(), 0..=N).prop_map(|v| HVec::from_slice(&v).unwrap())
+}
+
+fn command() -> impl Strategy<Value = Command> {
+    prop_oneof![
+        (
+            any::<u16>(),
+            any::<u16>(),
+            bytes::<{ link::RECORD_MAX_LEN }>()
+        )
+            .prop_map(|(kind, version, bytes)| Command::WriteRecord {
+                kind,
+                version,
+                bytes
+            }),
+        channel().prop_map(|channel| Command::ZeroCalibration { channel }),
+        Just(Command::ClearAlarms),
+        Just(Command::Reboot),
+        (
+            any::<u32>(),
+            any::<u32>(),
+            any::<u32>(),
+            bytes::<{ link::CHUNK_MAX_LEN }>()
+        )
+            .prop_map(
+                |(offset, total_len, blob_crc, bytes)| Command::GasModelChunk {
+                    offset,
+                    total_len,
+                    blob_crc,
+                    bytes
+                }
+            ),
+    ]
+}
+
+fn identity() -> impl Strategy<Value = Identity> {
+    (
+        any::<u64>(),
+        any::<u16>(),
+        any::<[u8; 3]>(),
+        any::<u8>(),
+        any::<u16>(),
+        any::<u32>(),
+    )
+        .prop_map(
+            |(serial, hardware_rev, firmware_version, protocol, max_frame_len, capabilities)| {
+                Identity {
+                    serial,
+                    hardware_rev,
+                    firmware_version,
+                    protocol,
+                    max_frame_len,
+                    capabilities,
+                }
+            },
+        )
+}
+
+fn telemetry() -> impl Strategy<Value = Telemetry> {
+    (
+        (
+            any::<u32>(),
+            any::<u64>(),
+            any::<u32>(),
+            any::<u32>(),
+            any::<u64>(),
+            any::<u64>(),
+        ),
+        (
+            any::<u64>(),
+            any::<u32>(),
+            any::<u64>(),
+            any::<i64>(),
+            any::<Option<u32>>(),
+        ),
+        (any::<u64>(), any::<u32>()),
+    )
+        .prop_map(|((a, b, c, d, e, f), (g, h, i, j, k), (l, m))| Telemetry {
+            seq: a,
+            uptime_ms: b,
+            pressure_pa: c,
+            temperature_k: d,
+            density_kg_m3: e,
+            mass_kg: f,
+            standard_volume_m3: g,
+            settled_pressure_pa: h,
+            fill_fraction: i,
+            rate_kg_h: j,
+            time_to_empty_s: k,
+            mass_uncertainty_kg: l,
+            status: m,
+        })
+}
+
+fn refusal() -> impl Strategy<Value = Refusal> {
+    prop_oneof![
+        Just(Refusal::NoSession),
+        Just(Refusal::BadSignature),
+        Just(Refusal::Replay),
+        any::<u32>().prop_map(|retry_after_ms| Refusal::LockedOut { retry_after_ms }),
+        "[a-z ]{0,40}".prop_map(|f| Refusal::out_of_range(&f)),
+        Just(Refusal::BadRecord),
+        Just(Refusal::Unsupported),
+        any::<u32>().prop_map(|expected| Refusal::ChunkOrder { expected }),
+        Just(Refusal::BlobCrc),
+        Just(Refusal::BlobTooLarge),
+        Just(Refusal::Storage),
+    ]
+}
+
+fn outcome() -> impl Strategy<Value = Outcome> {
+    prop_oneof![
+        any::<u32>().prop_map(|token| Outcome::Pong { token }),
+        identity().prop_map(Outcome::Identity),
+        (any::<[u8; 16]>(), any::<u32>())
+            .prop_map(|(nonce, valid_ms)| Outcome::Challenge { nonce, valid_ms }),
+        (
+            any::<u16>(),
+            any::<u16>(),
+            prop_oneof![
+                Just(Origin::Stored),
+                Just(Origin::Fallback),
+                Just(Origin::Default)
+            ],
+            bytes::<{ link::RECORD_MAX_LEN }>()
+        )
+            .prop_map(|(kind, version, origin, bytes)| Outcome::Record {
+                kind,
+                version,
+                origin,
+                bytes
+            }),
+        (any::<u32>(), any::<[u8; 32]>()).prop_map(|(counter, mac)| Outcome::Done { counter, mac }),
+        Just(Outcome::Taken),
+        refusal().prop_map(Outcome::Refused),
+    ]
+}
+
+fn message() -> impl Strategy<Value = Message> {
+    prop_oneof![
+        identity().prop_map(Message::Identity),
+        telemetry().prop_map(Message::Telemetry),
+        (
+            any::<u32>(),
+            any::<u64>(),
+            any::<u16>(),
+            any::<bool>(),
+            any::<u32>(),
+            any::<u64>()
+        )
+            .prop_map(
+                |(seq, uptime_ms, alarm, raised, status, mass_kg)| Message::Alarm(AlarmEvent {
+                    seq,
+                    uptime_ms,
+                    alarm,
+                    transition: if raised {
+                        AlarmTransition::Raised
+                    } else {
+                        AlarmTransition::Cleared
+                    },
+                    status,
+                    mass_kg,
+                })
+            ),
+        (any::<u16>(), outcome()).prop_map(|(tag, outcome)| Message::Reply(Reply { tag, outcome })),
+        (any::<u16>(), any::<u32>()).prop_map(|(tag, token)| Message::Ping(Ping { tag, token })),
+        any::<u16>().prop_map(|tag| Message::GetIdentity(GetIdentity { tag })),
+        any::<u16>().prop_map(|tag| Message::GetChallenge(GetChallenge { tag })),
+        (any::<u16>(), any::<u16>())
+            .prop_map(|(tag, kind)| Message::ReadRecord(ReadRecord { tag, kind })),
+        (any::<u16>(), any::<u32>(), any::<[u8; 32]>(), command()).prop_map(
+            |(tag, counter, mac, command)| Message::Signed(Signed {
+                tag,
+                counter,
+                mac,
+                command
+            })
+        ),
+        (
+            any::<u16>(),
+            any::<u64>(),
+            vec((channel(), any::<u32>()), 0..=link::INJECT_MAX_CODES)
+        )
+            .prop_map(|(tag, at_ms, codes)| Message::InjectSample(InjectSample {
+                tag,
+                at_ms,
+                codes: codes
+                    .into_iter()
+                    .map(|(channel, code)| RawCode { channel, code })
+                    .collect(),
+            })),
+    ]
+}
+
+fn encode(m: &Message) -> Vec<u8> {
+    let mut out = [0u8; MAX_FRAME_LEN];
+    let n = link::encode(m, &mut out).unwrap();
+    out[..n].to_vec()
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 4000, failure_persistence: None, ..ProptestConfig::default() })]
+
+    #[test]
+    fn every_message_round_trips(m in message()) {
+        let frame = encode(&m);
+        prop_assert!(frame.len() <= MAX_FRAME_LEN);
+        prop_assert_eq!(frame.last(), Some(&0));
+        prop_assert!(!frame[..frame.len() - 1].contains(&0));
+        prop_assert_eq!(link::decode(&frame), Ok(m));
+    }
+
+    /// A stream of frames with noise between them, cut into random pieces:
+    /// every frame comes out once, in order, and nothing else decodes.
+    #[test]
+    fn accumulator_takes_random_pieces(msgs in vec(message(), 1..12),
+                                       noise in vec(vec(1u8..=255, 0..20), 12),
+                                       cuts in vec(1usize..70, 1..200)) {
+        let mut stream = Vec::new();
+        for (m, junk) in msgs.iter().zip(&noise) {
+            stream.extend_from_slice(junk);
+            stream.push(0); // the noise ends as a (bad or empty) frame
+            stream.extend_from_slice(&encode(m));
+        }
+        let mut acc = Accumulator::new();
+        let mut got = Vec::new();
+        let mut at = 0;
+        let mut i = 0;
+        while at < stream.len() {
+            let n = cuts[i % cuts.len()].min(stream.len() - at);
+            i += 1;
+            let mut piece = &stream[at..at + n];
+            at += n;
+            loop {
+                match acc.feed(piece) {
+                    Feed::NeedMore => break,
+                    Feed::Frame { message, rest } => { got.push(message); piece = rest; }
+                    Feed::BadFrame { rest, .. } | Feed::Overfull { rest } => piece = rest,
+                }
+            }
+        }
+        prop_assert_eq!(got, msgs);
+    }
+
+    /// Random bytes never panic the decoder and never yield a frame unless
+    /// they happen to contain one.
+    #[test]
+    fn random_bytes_do_not_panic(data in vec(any::<u8>(), 0..600)) {
+        let mut acc = Accumulator::new();
+        let mut piece = &data[..];
+        loop {
+            match acc.feed(piece) {
+                Feed::NeedMore => break,
+                Feed::Frame { rest, .. } | Feed::BadFrame { rest, .. } | Feed::Overfull { rest } => piece = rest,
+            }
+        }
+        let _ = link::decode(&data);
+    }
+}
+
+#[test]
+fn every_single_bit_flip_in_1000_frames_is_detected() {
+    let mut runner = proptest::test_runner::TestRunner::deterministic();
+    let strategy = message();
+    let (mut frames, mut flips) = (0u64, 0u64);
+    for _ in 0..1200 {
+        let m = strategy.new_tree(&mut runner).unwrap().current();
+        let frame = encode(&m);
+        frames += 1;
+        for bit in 0..frame.len() * 8 {
+            let mut bad = frame.clone();
+            bad[bit / 8] ^= 1 << (bit % 8);
+            bad.push(0); // a delimiter in case the flip removed the frame's own
+            flips += 1;
+            let mut acc = Accumulator::new();
+            let mut piece = &bad[..];
+            loop {
+                match acc.feed(piece) {
+                    Feed::NeedMore => break,
+                    Feed::Frame { message, .. } => {
+                        panic!("flip of bit {bit} accepted: {message:?} (was {m:?})")
+                    }
+                    Feed::BadFrame { rest, .. } | Feed::Overfull { rest } => piece = rest,
+                }
+            }
+        }
+    }
+    println!("bit flips: {frames} frames, {flips} single-bit flips, {flips} detected");
+    assert!(frames >= 1000);
+}
