@@ -13,6 +13,11 @@
 //! | vessel elastic expansion, 1/MPa | [`ElasticExpansion`] = `U0F32` | 0 … 1 | 2.3e-10 |
 //! | vessel thermal expansion, 1/K | [`ThermalExpansion`] = `I0F32` | ±0.5 | 2.3e-10 |
 //! | vessel volume factor V/V₀ | [`Compressibility`] = `U2F30` | 0 … 4 | 9.3e-10 |
+//! | gauge pressure, Pa (relative to barometric; signed) | [`GaugePressure`] = `I28F4` | ±134.2 MPa (±1342 bar) | 0.0625 Pa |
+//! | resistance, Ω (sensor configuration, diagnostics) | [`Resistance`] = `U32F32` | 0 … 4.29 GΩ | 2.3e-10 Ω |
+//! | loop current, mA | [`Milliamps`] = `U8F24` | 0 … 256 mA | 6.0e-8 mA |
+//! | sensor coefficient (tempcos, polynomials, Steinhart–Hart, excitation) | [`Coefficient`] = `I16F48` | ±32 768 | 3.6e-15 |
+//! | calibration anchor (SI value of a corrected quantity) | [`Anchor`] = `I40F24` | ±5.5e11 | 6.0e-8 |
 //!
 //! # How the per-sample arithmetic stays cheap
 //!
@@ -25,7 +30,9 @@
 //! happen only while preparing a setup, plus one per density and one per
 //! iteration of the settled-pressure solver.
 
-use fixed::types::{I0F32, I8F24, U0F32, U2F30, U16F16, U24F40, U28F4, U32F32};
+use fixed::types::{
+    I0F32, I8F24, I16F48, I28F4, I40F24, U0F32, U2F30, U8F24, U16F16, U24F40, U28F4, U32F32,
+};
 
 /// Absolute pressure in pascal.
 pub type Pressure = U28F4;
@@ -49,6 +56,18 @@ pub type Fraction = U32F32;
 pub type ElasticExpansion = U0F32;
 /// Relative volume change of a vessel per kelvin.
 pub type ThermalExpansion = I0F32;
+/// Gauge pressure in pascal: absolute pressure minus barometric pressure
+/// (negative below the ambient).
+pub type GaugePressure = I28F4;
+/// Electrical resistance in ohm.
+pub type Resistance = U32F32;
+/// Electrical current in milliampere (4–20 mA loops).
+pub type Milliamps = U8F24;
+/// A signed sensor coefficient in configuration (temperature coefficients,
+/// polynomial coefficients, Steinhart–Hart constants, excitation).
+pub type Coefficient = I16F48;
+/// An SI value that anchors a calibration correction (Pa or K).
+pub type Anchor = I40F24;
 
 /// A positive constant prepared for the fixed-point path: `mantissa × 2^-shift`
 /// with the mantissa normalised to `[2^31, 2^32)` (or zero).
@@ -124,6 +143,12 @@ impl Coef {
             mantissa: m as u32,
             shift: s,
         }
+    }
+
+    /// The constant `raw × 2^-shift` (any sign of `shift`), rounded to 32
+    /// significant bits.
+    pub const fn from_parts(raw: u64, shift: i32) -> Coef {
+        Coef::normalize(raw, shift)
     }
 
     /// True for the zero constant.
