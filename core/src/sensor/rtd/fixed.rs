@@ -54,6 +54,18 @@ pub fn ratio_minus_one(t: i32) -> i64 {
     (x * h + (1 << 28)) >> 29
 }
 
+/// Under- or over-range when `W` lies beyond −200 … 850 °C (where
+/// [`celsius`] clamps it).
+fn beyond_standard(w: u32) -> Status {
+    if w < W_MIN {
+        Status::SENSOR_UNDER_RANGE
+    } else if w > W_MAX {
+        Status::SENSOR_OVER_RANGE
+    } else {
+        Status::OK
+    }
+}
+
 /// `t(W)` in °C at 2^-20 for `W` at 2^-30, `W` clamped to −200 … 850 °C.
 pub fn celsius(w: u32) -> i32 {
     let w = w.clamp(W_MIN, W_MAX);
@@ -143,13 +155,9 @@ impl Rtd {
         let lz = r.leading_zeros().min(32);
         let top = (r << lz >> 32) as u32;
         let (w, over) = self.inv_r0.scale(top, 64 - lz, 30);
-        let (w, sat) = sat_u32(w);
+        let (w, _) = sat_u32(if over { u64::MAX } else { w });
         let t = (celsius(w) as i64 + ZERO_C_Q20 + 8) >> 4;
-        let mut status = Status::OK;
-        if over || sat {
-            status |= Status::SENSOR_SATURATED;
-        }
-        self.check_range(t, status)
+        self.check_range(t, beyond_standard(w))
     }
 
     /// The resistance of the sensor element at `temperature`, Ω (the inverse
@@ -171,14 +179,12 @@ impl Rtd {
     }
 
     fn convert(&self, s: Sample) -> TemperatureReading<fx::Temperature> {
-        let (w, sat) = self.ratio(&s);
+        // A ratio beyond the format (W ≥ 4) is beyond 850 °C: clamped and
+        // flagged over range like any ratio past the standard's range.
+        let (w, _) = self.ratio(&s);
         let t = (celsius(w) as i64 + ZERO_C_Q20 + 8) >> 4;
         let t = self.self_heating(t, &s);
-        let mut status = s.status;
-        if sat {
-            status |= Status::SENSOR_SATURATED;
-        }
-        self.check_range(t, status)
+        self.check_range(t, s.status | beyond_standard(w))
     }
 
     /// `W = (R_ref/R₀)·num/den` at 2^-30; the flag is true when it did not fit.

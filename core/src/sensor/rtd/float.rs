@@ -30,6 +30,18 @@ pub fn celsius<F: Real>(w: F) -> F {
     }
 }
 
+/// Under- or over-range when `W` lies beyond −200 … 850 °C (where
+/// [`celsius`] clamps it).
+fn beyond_standard<F: Real>(w: F) -> Status {
+    if w < ratio(F::lit(T_MIN_C)) {
+        Status::SENSOR_UNDER_RANGE
+    } else if w > ratio(F::lit(T_MAX_C)) {
+        Status::SENSOR_OVER_RANGE
+    } else {
+        Status::OK
+    }
+}
+
 /// The root of `1 + A·t + B·t² = W`, in the form without cancellation:
 /// `t = 2u / (A + √(A² + 4B·u))`, `u = W − 1`.
 fn quadratic_root<F: Real>(w: F) -> F {
@@ -102,7 +114,7 @@ impl<F: Real> Rtd<F> {
         let w = self.ratio(&s);
         let t = celsius(w) + F::lit(ZERO_CELSIUS_K);
         let t = self.self_heating(t, &s);
-        self.check_range(t, s.status)
+        self.check_range(t, s.status | beyond_standard(w))
     }
 
     /// `W = R/R₀ = (R_ref/R₀)·num/den`.

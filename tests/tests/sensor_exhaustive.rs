@@ -1,0 +1,116 @@
+//! Exhaustive: every 16-bit converter code through each conversion, fixed
+//! point against the `f64` path on the same code, maximum error asserted.
+//! (The `f64` paths themselves are checked against published values in
+//! `sensor_references.rs`.)
+
+use isochor_core::sensor::VALUE_INVALID;
+use isochor_core::sensor::ntc::{self, NtcConfig};
+use isochor_core::sensor::resistive::Circuit;
+use isochor_core::sensor::rtd::{self, RtdConfig};
+use isochor_core::{Status, fx};
+
+/// The paths must give the same flags, except for a range flag on a value
+/// within `tol` of a range limit (rounding decides which side it falls).
+fn same_flags(a: Status, b: Status, value: f64, limits: [f64; 2], tol: f64, code: u32) {
+    if a == b {
+        return;
+    }
+    let range = Status::SENSOR_UNDER_RANGE | Status::SENSOR_OVER_RANGE;
+    let near = limits.iter().any(|l| (value - l).abs() < tol);
+    assert!(
+        near && a.without(range) == b.without(range),
+        "code {code}: fixed {a} float {b} at {value}"
+    );
+}
+
+/// Worst absolute error and where it occurred.
+#[derive(Default, Debug)]
+struct Worst {
+    error: f64,
+    code: u32,
+    compared: u32,
+}
+
+impl Worst {
+    fn add(&mut self, code: u32, fixed: f64, float: f64) {
+        self.compared += 1;
+        let e = (fixed - float).abs();
+        if e > self.error {
+            self.error = e;
+            self.code = code;
+        }
+    }
+}
+
+fn rtd_case(r0: f64, circuit: Circuit, rref: f64) -> Worst {
+    let cfg = RtdConfig::new(r0, circuit, 16, rref).unwrap();
+    let fixed = rtd::fixed::Rtd::new(&cfg).unwrap();
+    let float = rtd::float::Rtd::<f64>::new(&cfg).unwrap();
+    let mut w = Worst::default();
+    for code in 0..=u16::MAX as u32 {
+        let a = fixed.read(code);
+        let b = float.read(code);
+        let limits = [fx::to_f64(cfg.range_min_k), fx::to_f64(cfg.range_max_k)];
+        same_flags(a.status, b.status, b.temperature_k, limits, 1e-4, code);
+        if !a.status.intersects(VALUE_INVALID) {
+            w.add(code, fx::to_f64(a.temperature_k), b.temperature_k);
+        }
+    }
+    w
+}
+
+#[test]
+fn rtd_every_code() {
+    for (r0, circuit, rref) in [
+        (100.0, Circuit::Ratiometric, 400.0),
+        (1000.0, Circuit::Ratiometric, 4020.0),
+        (100.0, Circuit::DividerLow, 1000.0),
+        (1000.0, Circuit::DividerHigh, 2000.0),
+    ] {
+        let w = rtd_case(r0, circuit, rref);
+        println!(
+            "RTD R0 {r0} {circuit:?} Rref {rref}: worst {:.2e} K at code {} ({} codes)",
+            w.error, w.code, w.compared
+        );
+        assert!(w.compared > 20_000);
+        // Target 0.001 °C; bound asserted with margin over the measured figure.
+        assert!(w.error < 2e-5, "{w:?}");
+    }
+}
+
+fn ntc_case(model: ntc::NtcModel, circuit: Circuit, rref: f64) -> Worst {
+    let cfg = NtcConfig::new(model, circuit, 16, rref).unwrap();
+    let fixed = ntc::fixed::Ntc::new(&cfg).unwrap();
+    let float = ntc::float::Ntc::<f64>::new(&cfg).unwrap();
+    let mut w = Worst::default();
+    for code in 0..=u16::MAX as u32 {
+        let a = fixed.read(code);
+        let b = float.read(code);
+        let limits = [fx::to_f64(cfg.range_min_k), fx::to_f64(cfg.range_max_k)];
+        same_flags(a.status, b.status, b.temperature_k, limits, 1e-4, code);
+        if !a.status.intersects(VALUE_INVALID) {
+            w.add(code, fx::to_f64(a.temperature_k), b.temperature_k);
+        }
+    }
+    w
+}
+
+#[test]
+fn ntc_every_code() {
+    let beta = NtcConfig::beta(10_000.0, 298.15, 3950.0).unwrap();
+    let sh = NtcConfig::steinhart_hart(1.129148e-3, 2.34125e-4, 8.76741e-8).unwrap();
+    for (name, model, circuit, rref) in [
+        ("beta 3950", beta, Circuit::DividerLow, 10_000.0),
+        ("beta 3950", beta, Circuit::DividerHigh, 10_000.0),
+        ("Steinhart-Hart", sh, Circuit::DividerLow, 10_000.0),
+        ("Steinhart-Hart", sh, Circuit::Ratiometric, 2_000_000.0),
+    ] {
+        let w = ntc_case(model, circuit, rref);
+        println!(
+            "NTC {name} {circuit:?} Rref {rref}: worst {:.2e} K at code {} ({} codes)",
+            w.error, w.code, w.compared
+        );
+        assert!(w.compared > 20_000);
+        assert!(w.error < 2e-5, "{w:?}");
+    }
+}
