@@ -114,3 +114,59 @@ fn ntc_every_code() {
         assert!(w.error < 2e-5, "{w:?}");
     }
 }
+
+#[test]
+fn bridge_every_code() {
+    use isochor_core::sensor::PressureKind;
+    use isochor_core::sensor::bridge::{self, BridgeConfig};
+    // An invented 0–300 bar gauge transducer on a bipolar 16-bit converter:
+    // zero 1 % of the range, span 80 %, with temperature coefficients and a
+    // linearity correction of realistic size.
+    let mut cfg = BridgeConfig::new(16, true, 0.01, 0.8, 0.0, 300e5, PressureKind::Gauge).unwrap();
+    cfg.zero[1] = fx::Coefficient::from_num(2e-5);
+    cfg.zero[2] = fx::Coefficient::from_num(-3e-8);
+    cfg.span_tc = [
+        fx::Coefficient::from_num(-1.5e-4),
+        fx::Coefficient::from_num(4e-7),
+    ];
+    cfg.linearity = [
+        fx::Coefficient::from_num(1e-3),
+        fx::Coefficient::from_num(0.995),
+        fx::Coefficient::from_num(6e-3),
+        fx::Coefficient::from_num(-2e-3),
+    ];
+    cfg.range_margin = fx::Coefficient::from_num(0.02);
+    let mut unipolar = cfg;
+    unipolar.bipolar = false;
+    let full_scale = 300e5;
+    for cfg in [cfg, unipolar] {
+        let fixed = bridge::fixed::Bridge::new(&cfg).unwrap();
+        let float = bridge::float::Bridge::<f64>::new(&cfg).unwrap();
+        let (lo, hi) = cfg.rails();
+        let baro = fx::Pressure::from_num(97_000);
+        let limits = [-0.02 * full_scale, 1.02 * full_scale];
+        for t_c in [-40.0, 25.0, 85.0] {
+            let t = fx::Temperature::from_num(273.15 + t_c);
+            let mut w = Worst::default();
+            for code in lo..=hi {
+                let a = fixed.read(code, t, baro);
+                let b = float.read(code, fx::to_f64(t), fx::to_f64(baro)).unwrap();
+                same_flags(a.status, b.status, b.gauge_pa, limits, 1.0, code as u32);
+                if !a.status.intersects(VALUE_INVALID) {
+                    w.add(code as u32, fx::to_f64(a.gauge_pa), b.gauge_pa);
+                    let e = (fx::to_f64(a.pressure_pa) - b.pressure_pa).abs();
+                    assert!(e <= w.error.max(0.07) + 1e-6, "code {code}: {a:?} {b:?}");
+                }
+            }
+            println!(
+                "bridge bipolar={} at {t_c} C: worst {:.2e} of full scale at code {} ({} codes)",
+                cfg.bipolar,
+                w.error / full_scale,
+                w.code as i32,
+                w.compared
+            );
+            assert!(w.compared > 40_000);
+            assert!(w.error / full_scale < 1e-6, "{w:?}");
+        }
+    }
+}
