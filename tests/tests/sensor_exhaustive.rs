@@ -170,3 +170,47 @@ fn bridge_every_code() {
         }
     }
 }
+
+#[test]
+fn loop_every_code() {
+    use isochor_core::sensor::PressureKind;
+    use isochor_core::sensor::current_loop::{self, LoopConfig};
+    use isochor_core::time::Millis;
+    // An invented 0–300 bar gauge transmitter, 150 Ω shunt, 16-bit converter
+    // with a 3.3 V reference (22 mA full scale).
+    let cfg =
+        LoopConfig::new(16, 3.3, 150.0, 0.0, 300e5, PressureKind::Gauge, Millis(500)).unwrap();
+    let fixed = current_loop::fixed::Loop::new(&cfg).unwrap();
+    let float = current_loop::float::Loop::<f64>::new(&cfg).unwrap();
+    let baro = fx::Pressure::from_num(101_325);
+    let full_scale = 300e5;
+    let (mut wi, mut wp) = (Worst::default(), Worst::default());
+    let mut band_edges = 0;
+    for code in 0..=u16::MAX as u32 {
+        let (ia, sa) = fixed.current(code);
+        let (ib, sb) = float.current(code);
+        assert_eq!(sa, sb);
+        wi.add(code, fx::to_f64(ia), ib);
+        let (ba, a) = fixed.convert_current(ia, baro);
+        let (bb, b) = float.convert_current(ib, fx::to_f64(baro)).unwrap();
+        if ba != bb {
+            // Only where the current lies within one fixed-point step of a boundary.
+            band_edges += 1;
+            assert!(
+                [3.6, 3.8, 20.5, 21.0].iter().any(|e| (ib - e).abs() < 1e-7),
+                "code {code}"
+            );
+            continue;
+        }
+        assert_eq!(a.status, b.status, "code {code}");
+        wp.add(code, fx::to_f64(a.gauge_pa), b.gauge_pa);
+    }
+    println!(
+        "loop: current worst {:.2e} mA, pressure worst {:.2e} of full scale ({} band-edge codes)",
+        wi.error,
+        wp.error / full_scale,
+        band_edges
+    );
+    assert!(wi.error < 1e-7);
+    assert!(wp.error / full_scale < 1e-6, "{wp:?}");
+}

@@ -220,18 +220,6 @@ pub(crate) fn finite<F: Real>(v: F, what: &'static str) -> Result<F, Error> {
     }
 }
 
-/// Limits a raw `i64` to the `u32` range of an unsigned format; the flags say
-/// which side was clamped (below zero, above the maximum).
-pub(crate) fn clamp_u32(v: i64) -> (u32, bool, bool) {
-    if v < 0 {
-        (0, true, false)
-    } else if v > u32::MAX as i64 {
-        (u32::MAX, false, true)
-    } else {
-        (v as u32, false, false)
-    }
-}
-
 /// Limits a raw `i64` to the `i32` range of a signed format; the flag is true
 /// when clamped.
 pub(crate) fn clamp_i32(v: i64) -> (i32, bool) {
