@@ -22,6 +22,13 @@ pub enum Error {
     /// The gas model's answer at the rated or standard condition was unusable
     /// (for example two-phase), so the setup cannot be prepared.
     ModelUnusable(&'static str),
+    /// The output buffer is too small for the encoded record.
+    BufferTooSmall,
+    /// Stored or received bytes do not form a valid record; the text says
+    /// what is wrong.
+    Malformed(&'static str),
+    /// Stored or received bytes fail their CRC-32C check.
+    ChecksumMismatch,
 }
 
 impl fmt::Display for Error {
@@ -33,6 +40,9 @@ impl fmt::Display for Error {
             Error::ModelUnusable(what) => {
                 write!(f, "the gas model gives no usable answer at the {what}")
             }
+            Error::BufferTooSmall => f.write_str("buffer too small for the record"),
+            Error::Malformed(what) => write!(f, "malformed data: {what}"),
+            Error::ChecksumMismatch => f.write_str("checksum mismatch (corrupt data)"),
         }
     }
 }

@@ -54,6 +54,8 @@ const fn sqrt_f64(y: f64) -> f64 {
 
 /// `c_j = round(2^32 / (1 + (j + ½)/64))`: multiplying a mantissa of the
 /// `j`-th interval by `c_j` lands within 2^-7 of one.
+// Const evaluation: an index out of bounds fails the build, never a device.
+#[allow(clippy::indexing_slicing)]
 const LN_RECIP: [u32; LN_N] = {
     let mut t = [0u32; LN_N];
     let mut j = 0;
@@ -67,6 +69,8 @@ const LN_RECIP: [u32; LN_N] = {
 
 /// `−ln(c_j·2^-32)` in Q32, from the rounded `c_j` (so the table is exact to
 /// the last bit for the multiplier actually used).
+// Const evaluation: an index out of bounds fails the build, never a device.
+#[allow(clippy::indexing_slicing)]
 const LN_NEG: [u32; LN_N] = {
     let mut t = [0u32; LN_N];
     let mut j = 0;
@@ -147,6 +151,8 @@ fn recip_unit(m: u32) -> u32 {
 /// 2^-32 has its top two bits not both zero; six bits give 48 intervals).
 const SQRT_BITS: u32 = 6;
 /// `1/√d` at the middle of each interval of width 1/64, at 2^-30.
+// Const evaluation: an index out of bounds fails the build, never a device.
+#[allow(clippy::indexing_slicing)]
 const RSQRT_SEED: [u32; 64] = {
     let mut t = [0u32; 64];
     let mut j = 16;

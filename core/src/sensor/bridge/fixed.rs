@@ -121,7 +121,7 @@ impl Bridge {
         // |s − zero| < 2 at 2^-30: < 2^31.
         let d = (s - zero) >> 1;
         let (u, over) = SCoef::from_coef(g).apply(d, 30, 30);
-        if over || u > U_MAX || u < -U_MAX {
+        if over || !(-U_MAX..=U_MAX).contains(&u) {
             (u.clamp(-U_MAX, U_MAX), Status::SENSOR_SATURATED)
         } else {
             (u, Status::OK)

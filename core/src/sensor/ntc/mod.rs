@@ -113,13 +113,13 @@ impl NtcConfig {
                 t0_k,
                 beta_k,
             } => {
-                if r0_ohms < 1 || r0_ohms > 10_000_000 {
+                if !(1..=10_000_000).contains(&r0_ohms) {
                     return Err(Error::OutOfRange("R0"));
                 }
-                if t0_k < 150 || t0_k > 500 {
+                if !(150..=500).contains(&t0_k) {
                     return Err(Error::OutOfRange("T0"));
                 }
-                if beta_k < 1000 || beta_k > 10_000 {
+                if !(1000..=10_000).contains(&beta_k) {
                     return Err(Error::OutOfRange("beta"));
                 }
             }
