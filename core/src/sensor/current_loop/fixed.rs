@@ -4,7 +4,7 @@
 //! Formats: current in mA at 2^-24 ([`fx::Milliamps`]), pressure in Pa at
 //! 2^-4. 2 multiplies per code, no division.
 
-use super::{Band, LoopConfig, LoopSample, LoopState};
+use super::{Band, LoopConfig, LoopSample, LoopState, flags};
 use crate::fx::{self, Coef};
 use crate::sensor::{PressureKind, PressureReading, SCoef, gauge};
 use crate::time::{Instant, Millis};
@@ -99,7 +99,7 @@ impl Loop {
         let used = current.to_bits().clamp(MEAS_LO, MEAS_HI);
         let p = self.pressure(used);
         let mut r = gauge::fixed::reading(self.kind, p, barometric);
-        r.status |= b.status();
+        r.status = flags(b, r.status);
         (b, r)
     }
 

@@ -3,7 +3,7 @@
 
 use super::{
     Band, FAILURE_HIGH_MA, FAILURE_LOW_MA, LoopConfig, LoopSample, LoopState, MEASURING_MAX_MA,
-    MEASURING_MIN_MA, RANGE_HI_MA, RANGE_LO_MA,
+    MEASURING_MIN_MA, RANGE_HI_MA, RANGE_LO_MA, flags,
 };
 use crate::sensor::{PressureKind, PressureReading, finite, gauge};
 use crate::time::{Instant, Millis};
@@ -84,7 +84,7 @@ impl<F: Real> Loop<F> {
         let band = band(i);
         let used = i.clamp_to(F::lit(MEASURING_MIN_MA), F::lit(MEASURING_MAX_MA));
         let mut r = gauge::float::reading(self.kind, self.pressure(used), b);
-        r.status |= band.status();
+        r.status = flags(band, r.status);
         Ok((band, r))
     }
 

@@ -88,6 +88,16 @@ impl Band {
     }
 }
 
+/// The flags of a converted loop sample: a failure band's value is no
+/// measurement, so range flags from converting it are dropped.
+pub(crate) fn flags(band: Band, converted: Status) -> Status {
+    if band.is_failure() {
+        converted.without(Status::SENSOR_UNDER_RANGE | Status::SENSOR_OVER_RANGE) | band.status()
+    } else {
+        converted | band.status()
+    }
+}
+
 /// A 4–20 mA pressure channel.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]

@@ -96,7 +96,7 @@ impl Ntc {
 
     /// `L = ln(num) − ln(den) + ln R_ref` at 2^-27.
     fn log_resistance(&self, s: &Sample) -> i64 {
-        let ln_num = fxmath::ln(s.num as u64, 8).unwrap_or(0);
+        let ln_num = fxmath::ln(s.num as u64, s.num_frac).unwrap_or(0);
         let ln_den = fxmath::ln(s.den as u64, 0).unwrap_or(0);
         let l = ln_num - ln_den + self.ln_rref;
         (l + (1 << 4)) >> (32 - L_FRAC)

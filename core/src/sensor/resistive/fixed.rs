@@ -8,12 +8,14 @@ use crate::fx::{Coef, sat_u32};
 use crate::{Error, Status};
 
 /// One code, read: the measured resistance as `num/den` (lead-corrected,
-/// `num` at 2^-8), the self-heating and the flags.
+/// `num` at 2^-`num_frac`), the self-heating and the flags.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Sample {
-    /// Numerator of `R/R_ref`, lead-corrected, at 2^-8 (> 0).
+    /// Numerator of `R/R_ref`, lead-corrected, at 2^-`num_frac` (> 0).
     pub num: u32,
+    /// Fraction bits of `num`: `32 − bits`, so that any code fits.
+    pub num_frac: u32,
     /// Denominator of `R/R_ref` (> 0).
     pub den: u32,
     /// Self-heating of the sensor, K at 2^-16 (to subtract from the reading).
@@ -77,6 +79,7 @@ impl Input {
         let num = self.lead_correct(num, den);
         Sample {
             num,
+            num_frac: 32 - self.bits,
             den,
             heating: self.heating(code, num),
             status,
@@ -112,12 +115,13 @@ impl Input {
         }
     }
 
-    /// `num − λ·den` at 2^-8 (positive for valid codes: the lead resistance is
-    /// below the short threshold).
+    /// `num − λ·den` at 2^-(32 − bits) (positive for valid codes: the lead
+    /// resistance is below the short threshold).
     fn lead_correct(&self, num: u32, den: u32) -> u32 {
-        let n8 = (num as u64) << 8;
-        let (l, _) = self.lead.scale(den, 0, 8);
-        let (n, _) = sat_u32(n8.saturating_sub(l).max(1));
+        let frac = 32 - self.bits;
+        let n = (num as u64) << frac;
+        let (l, _) = self.lead.scale(den, 0, frac);
+        let (n, _) = sat_u32(n.saturating_sub(l).max(1));
         n
     }
 
@@ -127,8 +131,8 @@ impl Input {
             return 0;
         }
         let (h, _) = match self.circuit {
-            // θ·I²·R_ref·num/2^bits, num at 2^-8.
-            Circuit::Ratiometric => self.heating.scale(num, 8 + self.bits, 16),
+            // θ·I²·R_ref·num/2^bits, num at 2^-(32 − bits).
+            Circuit::Ratiometric => self.heating.scale(num, 32, 16),
             // θ·V²/R_ref·x(1 − x), x(1 − x) at 2^-32 (≤ 2^30).
             Circuit::DividerLow | Circuit::DividerHigh => {
                 let x = (code as u64) << (32 - self.bits);

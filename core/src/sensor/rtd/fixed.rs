@@ -151,10 +151,10 @@ impl Rtd {
     /// here); open and short thresholds are not applied.
     pub fn read_ohms(&self, ohms: fx::Resistance) -> TemperatureReading<fx::Temperature> {
         let r = ohms.to_bits().saturating_sub(self.lead);
-        // R/R₀ at 2^-30 from R at 2^-32: scale the top 32 bits.
+        // R/R₀ at 2^-30 from R at 2^-32: the top 32 bits of R are R at 2^-lz.
         let lz = r.leading_zeros().min(32);
         let top = (r << lz >> 32) as u32;
-        let (w, over) = self.inv_r0.scale(top, 64 - lz, 30);
+        let (w, over) = self.inv_r0.scale(top, lz, 30);
         let (w, _) = sat_u32(if over { u64::MAX } else { w });
         let t = (celsius(w) as i64 + ZERO_C_Q20 + 8) >> 4;
         self.check_range(t, beyond_standard(w))
@@ -198,7 +198,7 @@ impl Rtd {
         let Some(c) = c else {
             return (u32::MAX, true);
         };
-        let (w, over) = c.scale(s.num, 8, 30);
+        let (w, over) = c.scale(s.num, s.num_frac, 30);
         let (w, sat) = sat_u32(w);
         (w, over || sat)
     }

@@ -104,10 +104,12 @@ impl<F: Real> Rtd<F> {
     /// inverse direction). Outside −200 … 850 °C it is an error.
     pub fn ohms(&self, temperature_k: F) -> Result<F, Error> {
         let t = finite(temperature_k, "temperature")? - F::lit(ZERO_CELSIUS_K);
-        if t < F::lit(T_MIN_C) || t > F::lit(T_MAX_C) {
+        // A micro-kelvin of tolerance absorbs the rounding of K ↔ °C at the limits.
+        let tol = F::lit(1e-6);
+        if t < F::lit(T_MIN_C) - tol || t > F::lit(T_MAX_C) + tol {
             return Err(Error::OutOfRange("temperature (IEC 60751: -200...850 C)"));
         }
-        Ok(self.r0_ohms * ratio(t))
+        Ok(self.r0_ohms * ratio(t.clamp_to(F::lit(T_MIN_C), F::lit(T_MAX_C))))
     }
 
     fn convert(&self, s: Sample<F>) -> TemperatureReading<F> {
