@@ -6,12 +6,14 @@
 //! * [`units`] — parsing of quantities with units (`200bar`, `35C`, `50L`).
 //! * [`content`] — the content report of `isochor content` (both core paths).
 //! * [`safety`] — the cautions printed with every human-readable result.
+//! * [`sensor`] — sensor option parsing and the least-squares calibration fit.
 //! * [`cli`] — argument parsing and the commands.
 
 pub mod cli;
 pub mod content;
 mod error;
 pub mod safety;
+pub mod sensor;
 pub mod units;
 
 pub use error::Error;

@@ -2,6 +2,7 @@
 //! Commands are thin: they parse, call the library, and print.
 
 mod content;
+mod sensor;
 
 use clap::{Parser, Subcommand, ValueEnum};
 use std::process::ExitCode;
@@ -20,6 +21,9 @@ pub struct Cli {
 pub enum Command {
     /// Estimate the content of one tank from one pressure and temperature.
     Content(content::ContentArgs),
+    /// Sensor front-ends: convert single values both ways, fit a calibration,
+    /// read back a calibration record.
+    Sensor(sensor::SensorArgs),
 }
 
 /// Output format shared by the commands.
@@ -52,6 +56,7 @@ pub fn main() -> ExitCode {
 pub fn run(cli: Cli) -> Result<String, crate::Error> {
     match cli.command {
         Command::Content(args) => content::run(&args),
+        Command::Sensor(args) => sensor::run(&args),
     }
 }
 
