@@ -9,14 +9,14 @@
 //! |---|---|---|---|
 //! | [`ln`] | 64-entry table of reciprocals `c_j ≈ 1/(1 + (j+½)/64)` with their logarithms, then `ln(1+r)` for `|r| < 2^-7` by a 4-term series | 4 | 1.0e-9 absolute |
 //! | [`recip`] | linear seed `48/17 − 32/17·d`, 3 Newton steps `r ← r(2 − d·r)` | 7 | 2e-9 relative |
-//! | [`sqrt`] | 48-entry seed table of `1/√d`, 3 Newton steps `y ← y(3 − d·y²)/2`, then `√d = d·y` | 10 | 2e-9 relative |
+//! | [`sqrt`] | 49-entry table of `1/√d`, linear interpolation, 2 Newton steps `y ← y(3 − d·y²)/2`, then `√d = d·y` | 8 | 2e-9 relative |
 //!
 //! The tables are computed at compile time from `f64` (const evaluation only,
 //! nothing of it runs on a device). On a Cortex-M0 a 32×32→64 multiply is a
 //! short library routine (four 16-bit `muls` and carries, about 20
 //! instructions); a 64-bit division costs hundreds, which is why none is used.
 
-use crate::fx::Coef;
+use crate::fx::{Coef, mul_s32, mul_u32};
 
 /// ln 2 at 2^-48 (so that k·ln 2 stays exact to a Q32 bit for any exponent).
 const LN2_Q48: i64 = 195_103_586_505_167;
@@ -89,10 +89,9 @@ pub fn ln(x: u64, frac: u32) -> Option<i64> {
     if x == 0 {
         return None;
     }
-    let lz = x.leading_zeros();
-    let top = x << lz;
+    let (top, lz, round) = normalize(x);
     // Mantissa in [2^31, 2^32): value m·2^-31 in [1, 2); rounded to 32 bits.
-    let (m, carry) = match ((top >> 32) as u32).checked_add(((top >> 31) & 1) as u32) {
+    let (m, carry) = match top.checked_add(round) {
         Some(m) => (m, 0),
         None => (1 << 31, 1),
     };
@@ -102,18 +101,20 @@ pub fn ln(x: u64, frac: u32) -> Option<i64> {
     let c = LN_RECIP.get(j).copied().unwrap_or(1 << 31);
     let neg = LN_NEG.get(j).copied().unwrap_or(0);
     // m·c at 2^-63 lies within 2^-7 of one: r = m·c − 1 at 2^-37.
-    let prod = m as u64 * c as u64;
+    let prod = mul_u32(m, c);
     let r = (prod.wrapping_sub(1 << 63) as i64) >> 26;
     // ln(1 + r) = r·(1 − r·(1/2 − r·(1/3 − r/4))); factors at 2^-31.
     const THIRD: i64 = 715_827_883;
     const HALF: i64 = 1 << 30;
     const ONE: i64 = 1 << 31;
     let t3 = THIRD - (r >> 8);
-    let t2 = HALF - ((r * t3) >> 37);
-    let t1 = ONE - ((r * t2) >> 37);
+    let t2 = HALF - (mul_s32(r, t3) >> 37);
+    let t1 = ONE - (mul_s32(r, t2) >> 37);
     // r·t1 at 2^-68 → Q32 (rounded).
-    let ln1p = (r * t1 + (1 << 35)) >> 36;
-    Some(((k * LN2_Q48 + (1 << 15)) >> 16) + neg as i64 + ln1p)
+    let ln1p = (mul_s32(r, t1) + (1 << 35)) >> 36;
+    // k·ln 2 at 2^-48 → Q32, with ln 2 split in 32 + 16 bits (32-bit multiplies).
+    let k_ln2 = mul_s32(k, LN2_Q48 >> 16) + ((mul_s32(k, LN2_Q48 & 0xFFFF) + (1 << 15)) >> 16);
+    Some(k_ln2 + neg as i64 + ln1p)
 }
 
 /// `1/(x·2^-frac)` as a [`Coef`] (relative error ≤ 2e-9), without division;
@@ -122,10 +123,8 @@ pub fn recip(x: u64, frac: u32) -> Option<Coef> {
     if x == 0 {
         return None;
     }
-    let lz = x.leading_zeros();
-    let top = x << lz;
     // d = m·2^-32 in [0.5, 1): x·2^-frac = d·2^e with e = 64 − lz − frac.
-    let m = (top >> 32) as u32;
+    let (m, lz, _) = normalize(x);
     let e = 64 - lz as i32 - frac as i32;
     let r = recip_unit(m);
     // 1/x = (1/d)·2^-e; r is 1/d at 2^-30.
@@ -137,12 +136,12 @@ fn recip_unit(m: u32) -> u32 {
     // r0 = 48/17 − 32/17·d, at 2^-30: relative error ≤ 1/17.
     const A: u64 = 3_031_741_621; // 48/17 · 2^30
     const B: u64 = 2_021_161_081; // 32/17 · 2^30
-    let mut r = A - ((B * m as u64) >> 32);
+    let mut r = A - (mul_u32(B as u32, m) >> 32);
     for _ in 0..3 {
         // e = 1 − d·r at 2^-62, then r += r·e.
-        let e = (1i64 << 62) - (m as u64 * r) as i64;
+        let e = (1i64 << 62) - mul_u32(m, r as u32) as i64;
         let e31 = e >> 31;
-        r = (r as i64 + ((r as i64 * e31) >> 31)) as u64;
+        r = (r as i64 + (mul_s32(r as i64, e31) >> 31)) as u64;
     }
     r.min(1 << 31) as u32
 }
@@ -150,19 +149,38 @@ fn recip_unit(m: u32) -> u32 {
 /// First index bits of the square-root seed table (`d` in `[0.25, 1)` at
 /// 2^-32 has its top two bits not both zero; six bits give 48 intervals).
 const SQRT_BITS: u32 = 6;
-/// `1/√d` at the middle of each interval of width 1/64, at 2^-30.
+/// `1/√d` at the interval ends `d = j/64` (`j` = 16 … 64), at 2^-30.
 // Const evaluation: an index out of bounds fails the build, never a device.
 #[allow(clippy::indexing_slicing)]
-const RSQRT_SEED: [u32; 64] = {
-    let mut t = [0u32; 64];
+const RSQRT_SEED: [u32; 65] = {
+    let mut t = [0u32; 65];
     let mut j = 16;
-    while j < 64 {
-        let mid = (j as f64 + 0.5) / 64.0;
-        t[j] = (1_073_741_824.0 / sqrt_f64(mid) + 0.5) as u32;
+    while j <= 64 {
+        let at = j as f64 / 64.0;
+        t[j] = (1_073_741_824.0 / sqrt_f64(at) + 0.5) as u32;
         j += 1;
     }
     t
 };
+
+/// The top 32 bits of `x > 0` with the leading one at bit 31, the number of
+/// leading zeros of `x` (as `u64`), and the next bit below (for rounding).
+/// 32-bit operations only; inputs below 2^32 take the short way.
+#[inline]
+fn normalize(x: u64) -> (u32, u32, u32) {
+    let (hi, lo) = ((x >> 32) as u32, x as u32);
+    if hi == 0 {
+        let z = lo.leading_zeros();
+        (lo << z, 32 + z, 0)
+    } else {
+        let z = hi.leading_zeros();
+        if z == 0 {
+            (hi, 0, lo >> 31)
+        } else {
+            ((hi << z) | (lo >> (32 - z)), z, (lo >> (31 - z)) & 1)
+        }
+    }
+}
 
 /// `√(x·2^-frac)` as a [`Coef`] (relative error ≤ 2e-9), without division;
 /// zero for `x = 0`.
@@ -170,27 +188,30 @@ pub fn sqrt(x: u64, frac: u32) -> Coef {
     if x == 0 {
         return Coef::ZERO;
     }
-    let lz = x.leading_zeros();
-    // x·2^-frac = (top·2^-64)·2^e, e = 64 − lz − frac; make e even.
-    let mut top = x << lz;
+    // x·2^-frac = (top·2^-32)·2^e, e = 64 − lz − frac; make e even.
+    let (mut d, lz, _) = normalize(x);
     let mut e = 64 - lz as i32 - frac as i32;
     if e & 1 != 0 {
-        top >>= 1;
+        d >>= 1;
         e += 1;
     }
-    // d in [0.25, 1) at 2^-32.
-    let d = (top >> 32) as u32;
+    // d in [0.25, 1) at 2^-32: seed by linear interpolation in the table
+    // (relative error ≤ 4e-4), then two Newton steps (≤ 1e-13, below the
+    // arithmetic's 2^-30).
     let j = ((d >> (32 - SQRT_BITS)) as usize) & 63;
-    let mut y = RSQRT_SEED.get(j).copied().unwrap_or(1 << 30) as u64;
-    for _ in 0..3 {
+    let y0 = RSQRT_SEED.get(j).copied().unwrap_or(1 << 30);
+    let y1 = RSQRT_SEED.get(j + 1).copied().unwrap_or(1 << 30);
+    let f = d << SQRT_BITS;
+    let mut y = (y0 - (mul_u32(y0 - y1, f) >> 32) as u32) as u64;
+    for _ in 0..2 {
         // y ← y·(3 − d·y²)/2, y at 2^-30 (1 < y ≤ 2).
-        let y2 = (y * y) >> 30; // at 2^-30, ≤ 4
-        let dy2 = (d as u64 * y2) >> 32; // at 2^-30, ≈ 1
+        let y2 = mul_u32(y as u32, y as u32) >> 30; // at 2^-30, ≤ 4
+        let dy2 = mul_u32(d, y2.min(u32::MAX as u64) as u32) >> 32; // at 2^-30, ≈ 1
         let f = (3i64 << 30) - dy2 as i64; // at 2^-30, ≈ 2
-        y = ((y as i64 * f) >> 31) as u64;
+        y = (mul_s32(y as i64, f) >> 31) as u64;
     }
     // √d = d·y at 2^-62; √x = √d·2^(e/2).
-    Coef::from_parts(d as u64 * y, 62 - e / 2)
+    Coef::from_parts(mul_u32(d, y as u32), 62 - e / 2)
 }
 
 #[cfg(test)]

@@ -6,6 +6,13 @@ use super::{BridgeConfig, U_LIMIT};
 use crate::sensor::{PressureReading, finite, gauge};
 use crate::{Error, Real, Status, fx};
 
+/// Zero and span of a bridge at one transducer temperature.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Compensation<F> {
+    zero: F,
+    span: F,
+}
+
 /// A prepared bridge channel, float.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Bridge<F> {
@@ -50,11 +57,29 @@ impl<F: Real> Bridge<F> {
         temperature_k: F,
         barometric_pa: F,
     ) -> Result<PressureReading<F, F>, Error> {
+        let comp = self.compensation(temperature_k)?;
+        self.read_compensated(code, &comp, barometric_pa)
+    }
+
+    /// The zero and span at a transducer temperature (see the fixed path's
+    /// `Bridge::compensation`). NaN or infinite inputs are errors.
+    pub fn compensation(&self, temperature_k: F) -> Result<Compensation<F>, Error> {
         let t = finite(temperature_k, "transducer temperature")?;
+        let (zero, span) = self.compensate(t);
+        Ok(Compensation { zero, span })
+    }
+
+    /// Converts one code with a prepared compensation. NaN or infinite
+    /// inputs are errors.
+    pub fn read_compensated(
+        &self,
+        code: i32,
+        comp: &Compensation<F>,
+        barometric_pa: F,
+    ) -> Result<PressureReading<F, F>, Error> {
         let b = finite(barometric_pa, "barometric pressure")?;
         let (s, mut status) = self.signal(code);
-        let (zero, span) = self.compensate(t);
-        let (u, st) = self.normalize(s, zero, span);
+        let (u, st) = self.normalize(s, comp.zero, comp.span);
         status |= st;
         let q = self.linearize(u);
         let p = self.scale(q);

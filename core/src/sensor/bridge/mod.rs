@@ -20,7 +20,9 @@
 //! scale); `|u| > 1.5` is saturated (the value is clamped there).
 //!
 //! Cost per code, fixed point: zero and span 4 multiplies, one division-free
-//! reciprocal (7), `u` 1, the cubic 3, the pressure 1: 16 multiplies.
+//! reciprocal (7), `u` 1, the cubic 3, the pressure 1: 16 multiplies; with the
+//! compensation prepared once per temperature (`compensation`,
+//! `read_compensated`) 5 per code.
 
 pub mod fixed;
 pub mod float;

@@ -2,7 +2,7 @@
 //! fraction bits, 0 … 24). 5 multiplies per value, no division.
 
 use super::{Correction, X_MAX, X_MIN};
-use crate::fx::{self, Coef};
+use crate::fx::{self, Coef, mul_s32};
 use crate::sensor::SCoef;
 use crate::{Error, Status};
 
@@ -78,9 +78,9 @@ impl Corrector {
     /// `D(x)` at 2^-27 (every product below 2^62).
     fn deviation(&self, x: i64) -> i64 {
         let [d0, d1, d2, d3] = self.d;
-        let h = d2 + ((x * d3) >> 30);
-        let h = d1 + ((x * h) >> 30);
-        d0 + ((x * h) >> 30)
+        let h = d2 + (mul_s32(x, d3) >> 30);
+        let h = d1 + (mul_s32(x, h) >> 30);
+        d0 + (mul_s32(x, h) >> 30)
     }
 }
 

@@ -6,7 +6,7 @@
 //! (7), the temperature (1), lead and self-heating (2–3). No division.
 
 use super::{NtcConfig, NtcModel};
-use crate::fx;
+use crate::fx::{self, mul_s32};
 use crate::fxmath;
 use crate::sensor::resistive::fixed::{Input, Sample};
 use crate::sensor::{SCoef, TemperatureReading};
@@ -105,8 +105,12 @@ impl Ntc {
     /// `y = 1/T = c0 + c1·L + c3·L³` at 2^-44.
     fn inverse_temperature(&self, l: i64) -> i64 {
         let (t1, _) = self.c1.apply(l, L_FRAC, Y_FRAC);
+        if self.c3 == SCoef::default() {
+            // Beta model: no cubic term.
+            return self.c0 + t1;
+        }
         // L² at 2^-22 (< 2^32 for |L| < 32).
-        let l2 = (l * l) >> (2 * L_FRAC - 22);
+        let l2 = mul_s32(l, l) >> (2 * L_FRAC - 22);
         let (c3l2, _) = self.c3.apply(l2, 22, Y_FRAC);
         let (t3, _) = SCoef::from_i64(c3l2, Y_FRAC).apply(l, L_FRAC, Y_FRAC);
         self.c0 + t1 + t3

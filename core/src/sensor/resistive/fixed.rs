@@ -4,7 +4,7 @@
 //! correction, one or two for self-heating.
 
 use super::{Circuit, FrontEnd};
-use crate::fx::{Coef, sat_u32};
+use crate::fx::{Coef, mul_u32, sat_u32};
 use crate::{Error, Status};
 
 /// One code, read: the measured resistance as `num/den` (lead-corrected,
@@ -135,8 +135,9 @@ impl Input {
             Circuit::Ratiometric => self.heating.scale(num, 32, 16),
             // θ·V²/R_ref·x(1 − x), x(1 − x) at 2^-32 (≤ 2^30).
             Circuit::DividerLow | Circuit::DividerHigh => {
-                let x = (code as u64) << (32 - self.bits);
-                let p = (x * ((1u64 << 32) - x)) >> 32;
+                // x ≥ 2^(32 − bits) for valid codes, so 1 − x fits 32 bits.
+                let x = code << (32 - self.bits);
+                let p = mul_u32(x, 0u32.wrapping_sub(x)) >> 32;
                 self.heating.scale(p as u32, 32, 16)
             }
         };

@@ -10,7 +10,7 @@
 
 use super::consts::{q, slope_inverse};
 use super::{A, B, C, ITERATIONS_FIXED, RtdConfig};
-use crate::fx::{self, Coef, sat_u32};
+use crate::fx::{self, Coef, mul_s32, sat_u32};
 use crate::fxmath;
 use crate::sensor::TemperatureReading;
 use crate::sensor::resistive::Circuit;
@@ -44,14 +44,14 @@ pub fn ratio_minus_one(t: i32) -> i64 {
     // x = t/1024 at 2^-31 (|x| < 0.84).
     let x = t as i64 * 2;
     let h = if t < 0 {
-        let h = A3 + ((x * A4) >> 31);
-        A2 + ((x * h) >> 31)
+        let h = A3 + (mul_s32(x, A4) >> 31);
+        A2 + (mul_s32(x, h) >> 31)
     } else {
         A2
     };
-    let h = A1 + ((x * h) >> 31);
+    let h = A1 + (mul_s32(x, h) >> 31);
     // x·h at 2^-59 → 2^-30.
-    (x * h + (1 << 28)) >> 29
+    (mul_s32(x, h) + (1 << 28)) >> 29
 }
 
 /// Under- or over-range when `W` lies beyond −200 … 850 °C (where
@@ -93,9 +93,9 @@ fn refine_below_zero(mut t: i32, u: i64) -> i32 {
     for _ in 0..ITERATIONS_FIXED {
         let f = ratio_minus_one(t) - u;
         let x = t as i64 * 2;
-        let g = G0 + ((x * (G1 + ((x * G2) >> 31))) >> 31);
+        let g = G0 + (mul_s32(x, G1 + (mul_s32(x, G2) >> 31)) >> 31);
         // f at 2^-30 × g at 2^-22 → t at 2^-20.
-        let step = (f * g + (1 << 31)) >> 32;
+        let step = (mul_s32(f, g) + (1 << 31)) >> 32;
         t = (t as i64 - step).clamp(-(250 << 20), 0) as i32;
     }
     t
