@@ -2,7 +2,7 @@
 //! the multi-point least-squares calibration fit, and its CSV input.
 //!
 //! The fit finds the correction polynomial of
-//! [`Correction`](isochor_core::sensor::calibration::Correction):
+//! `Correction` (`isochor_core::sensor::calibration`):
 //! with `lo`, `hi` the smallest and largest measured value,
 //! `x = (measured − lo)/(hi − lo)` and `y = (reference − lo)/(hi − lo)`, it
 //! minimises `Σ (P(x) − y)²` over `P(x) = c₀ + c₁x + … + c_d·x^d`

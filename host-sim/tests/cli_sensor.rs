@@ -199,6 +199,9 @@ fn calibration_flow_from_csv_to_a_stored_record() {
     let j = json(&["sensor", "rtd", "--r0", "100", "--ohms", "100"]);
     let cfg = dir.join("pt100.json");
     std::fs::write(&cfg, j["config"].to_string()).unwrap();
+    // The whole report is accepted too.
+    let full = dir.join("pt100-report.json");
+    std::fs::write(&full, j.to_string()).unwrap();
     // Bath points (invented): the channel reads 0.05 K high at the ice point
     // and 0.08 K low at 200 °C.
     let csv = dir.join("points.csv");
@@ -240,6 +243,25 @@ fn calibration_flow_from_csv_to_a_stored_record() {
     assert_eq!(back["sensor_kind"], "rtd");
     assert_eq!(back["checksum"], "ok");
     assert_eq!(back["config"], j_config(&cfg));
+    // The same fit from the whole report writes the same record.
+    let rec2 = dir.join("cal2.rec");
+    let _ = json(&[
+        "sensor",
+        "fit",
+        "--input",
+        csv_s,
+        "--degree",
+        "1",
+        "--record",
+        rec2.to_str().unwrap(),
+        "--sensor-config",
+        full.to_str().unwrap(),
+        "--sequence",
+        "3",
+        "--channel",
+        "temperature",
+    ]);
+    assert_eq!(std::fs::read(&rec2).unwrap(), bytes);
     // A corrupted record is refused.
     let mut bad = bytes.clone();
     bad[10] ^= 1;

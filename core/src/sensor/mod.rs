@@ -6,7 +6,7 @@
 //! device stores — see [`calibration::CalibrationRecord`]) and two converters
 //! with the same steps under the same names: `fixed` (the device path, 32-bit
 //! integer arithmetic with constants prepared at configuration time) and
-//! `float` (generic over [`Real`](crate::Real), `f64` is the reference).
+//! `float` (generic over [`Real`], `f64` is the reference).
 //!
 //! | front-end | module | outputs |
 //! |---|---|---|

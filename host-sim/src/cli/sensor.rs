@@ -311,8 +311,9 @@ pub struct FitArgs {
     /// Write a calibration record to this file.
     #[arg(long)]
     pub record: Option<String>,
-    /// JSON file with the sensor configuration (the `config` object printed
-    /// by `isochor sensor rtd|ntc|loop|bridge --format json`).
+    /// JSON file with the sensor configuration: the output of
+    /// `isochor sensor rtd|ntc|loop|bridge ... --format json` (or its `config`
+    /// object).
     #[arg(long)]
     pub sensor_config: Option<String>,
     /// Sequence number of the record.
@@ -838,8 +839,14 @@ fn run_fit(a: &FitArgs) -> Result<String, Error> {
         let cfg_path = a.sensor_config.as_deref().unwrap_or_default();
         let cfg_text = std::fs::read_to_string(cfg_path)
             .map_err(|e| Error::Invalid(format!("--sensor-config {cfg_path}: {e}")))?;
-        let sensor: SensorConfig = serde_json::from_str(&cfg_text)
-            .map_err(|e| Error::Invalid(format!("--sensor-config {cfg_path}: {e}")))?;
+        // The file may hold the configuration itself or a whole conversion
+        // report with its `config` object.
+        let bad = |e: serde_json::Error| Error::Invalid(format!("--sensor-config {cfg_path}: {e}"));
+        let mut value: Value = serde_json::from_str(&cfg_text).map_err(bad)?;
+        if let Some(inner) = value.get_mut("config") {
+            value = inner.take();
+        }
+        let sensor: SensorConfig = serde_json::from_value(value).map_err(bad)?;
         let channel: Channel = a.channel.map(Into::into).unwrap_or(Channel::Pressure);
         let expects_pressure = matches!(channel, Channel::Pressure | Channel::Barometric);
         if expects_pressure != (quantity == Quantity::Pressure) {

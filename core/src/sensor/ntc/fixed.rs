@@ -2,8 +2,9 @@
 //! [`super::float`].
 //!
 //! Formats: `L = ln R` at 2^-27 (`|L| < 32`), `y = 1/T` at 2^-44. Cost per
-//! code: two logarithms (8 multiplies), the polynomial (4), the reciprocal
-//! (7), the temperature (1), lead and self-heating (2–3). No division.
+//! code: two logarithms (12 multiplies), the polynomial (1 for beta, 4 for
+//! Steinhart–Hart), the reciprocal (7), the temperature (1), lead and
+//! self-heating (2). No division.
 
 use super::{NtcConfig, NtcModel};
 use crate::fx::{self, mul_s32};

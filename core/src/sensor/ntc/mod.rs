@@ -9,7 +9,7 @@
 //! Both paths compute `L = ln(num) − ln(den) + ln R_ref` from the resistive
 //! input's ratio (no division), `y = c₀ + c₁·L + c₃·L³`, then `T = 1/y`. The
 //! fixed path uses the division-free [`fxmath::ln`](crate::fxmath::ln) and
-//! [`fxmath::recip`](crate::fxmath::recip): about 24 multiplies per code.
+//! [`fxmath::recip`](crate::fxmath::recip): 23–26 multiplies per code.
 //!
 //! The inverse (resistance at a temperature) is float only (host tools and
 //! simulation): `R = R₀·exp(β(1/T − 1/T₀))`, and for Steinhart–Hart the

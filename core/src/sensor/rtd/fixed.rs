@@ -4,9 +4,10 @@
 //! Formats: `W = R/R₀` at 2^-30 (`u32`, W < 4), `t` in °C at 2^-20 (`i32`),
 //! polynomial coefficients at 2^-28 in the variable `x = t/1024` at 2^-31.
 //!
-//! Cost per code (32×32→64 multiplies): ratio 1 (series circuit) or 9
-//! (dividers: one division-free reciprocal); closed form 12 (one square
-//! root); below 0 °C 3 × 8 more; self-heating 1–2. No division.
+//! Cost per code (32×32→64 multiplies): ratio 1 (series circuit) or 8
+//! (dividers: one division-free reciprocal); closed form 10 (one square
+//! root); below 0 °C 2 × 7 more; self-heating 1–2. No division. Measured on
+//! a Cortex-M0: see `firmware/examples/sensor_cost.rs`.
 
 use super::consts::{q, slope_inverse};
 use super::{A, B, C, ITERATIONS_FIXED, RtdConfig};
