@@ -253,3 +253,48 @@ fn loop_every_code() {
     assert!(wi.error < 1e-7);
     assert!(wp.error / full_scale < 1e-6, "{wp:?}");
 }
+
+#[test]
+fn resistance_inputs_agree_between_paths() {
+    // Resistances given directly (leads included): 20 000 log-spaced values
+    // from 1 Ω to 10 MΩ through both paths, with 2-wire leads configured.
+    let mut rtd_cfg = RtdConfig::new(100.0, Circuit::Ratiometric, 16, 400.0).unwrap();
+    rtd_cfg.front_end.lead_ohms = fx::Resistance::from_num(0.7);
+    let model = NtcConfig::beta(10_000.0, 298.15, 3950.0).unwrap();
+    let mut ntc_cfg = NtcConfig::new(model, Circuit::DividerLow, 16, 10_000.0).unwrap();
+    ntc_cfg.front_end.lead_ohms = fx::Resistance::from_num(2.0);
+    let (ri, rf) = (
+        rtd::fixed::Rtd::new(&rtd_cfg).unwrap(),
+        rtd::float::Rtd::<f64>::new(&rtd_cfg).unwrap(),
+    );
+    let (ni, nf) = (
+        ntc::fixed::Ntc::new(&ntc_cfg).unwrap(),
+        ntc::float::Ntc::<f64>::new(&ntc_cfg).unwrap(),
+    );
+    let (mut wr, mut wn) = (Worst::default(), Worst::default());
+    for i in 0..20_000u32 {
+        let ohms = fx::to_f64(fx::Resistance::from_num(
+            10f64.powf(i as f64 * 7.0 / 20_000.0),
+        ));
+        let q = fx::Resistance::from_num(ohms);
+        let (a, b) = (ri.read_ohms(q), rf.read_ohms(ohms).unwrap());
+        let limits = [
+            fx::to_f64(rtd_cfg.range_min_k),
+            fx::to_f64(rtd_cfg.range_max_k),
+        ];
+        same_flags(a.status, b.status, b.temperature_k, limits, 1e-4, i);
+        wr.add(i, fx::to_f64(a.temperature_k), b.temperature_k);
+        let (a, b) = (ni.read_ohms(q), nf.read_ohms(ohms).unwrap());
+        let limits = [
+            fx::to_f64(ntc_cfg.range_min_k),
+            fx::to_f64(ntc_cfg.range_max_k),
+        ];
+        same_flags(a.status, b.status, b.temperature_k, limits, 1e-4, i);
+        wn.add(i, fx::to_f64(a.temperature_k), b.temperature_k);
+    }
+    println!(
+        "resistance inputs: RTD worst {:.2e} K, NTC worst {:.2e} K",
+        wr.error, wn.error
+    );
+    assert!(wr.error < 3e-5 && wn.error < 3e-5, "{wr:?} {wn:?}");
+}

@@ -81,21 +81,30 @@ fn rtd_lead_and_self_heating_corrections() {
     let fl = rtd::float::Rtd::<f64>::new(&cfg).unwrap();
     let t = fl.read_ohms(139.5055).unwrap().temperature_k - ZERO_CELSIUS_K;
     assert!((t - 100.0).abs() < 1e-3, "{t}");
+    let fi = rtd::fixed::Rtd::new(&cfg).unwrap();
+    let tq = fx::to_f64(
+        fi.read_ohms(fx::Resistance::from_num(139.5055))
+            .temperature_k,
+    );
+    assert!((tq - ZERO_CELSIUS_K - 100.0).abs() < 1e-3, "{tq}");
     // Self-heating: 1 mA through the sensor, 0.1 K/mW (invented sensor):
-    // P = I²R = 0.1385 mW, the sensor reads 0.01385 K warm.
+    // P = I²R, about 0.1385 mW near 100 °C: the sensor reads 0.01385 K warm.
+    // Applied to converter codes (the series circuit's current is known).
     cfg.front_end.lead_ohms = fx::Resistance::ZERO;
+    let plain = rtd::float::Rtd::<f64>::new(&cfg).unwrap();
     cfg.front_end.excitation = fx::Coefficient::from_num(1e-3);
     cfg.front_end.self_heating_k_per_mw = fx::Coefficient::from_num(0.1);
     let fl = rtd::float::Rtd::<f64>::new(&cfg).unwrap();
-    let t = fl.read_ohms(138.5055).unwrap().temperature_k - ZERO_CELSIUS_K;
-    let expected = 100.0 - 0.1 * 1e-3 * 1e-3 * 138.5055 * 1e3;
-    assert!((t - expected).abs() < 1e-4, "{t} {expected}");
+    let code = (138.5055 / 400.0 * 65536.0) as u32;
+    let r_code = 400.0 * code as f64 / 65536.0;
+    let expected = plain.read(code).temperature_k - 0.1 * 1e-3 * 1e-3 * r_code * 1e3;
+    let t = fl.read(code).temperature_k;
+    assert!((t - expected).abs() < 1e-9, "{t} {expected}");
+    assert!((plain.read(code).temperature_k - t - 0.01385).abs() < 1e-4);
     // The same code through both paths agrees.
     let fi = rtd::fixed::Rtd::new(&cfg).unwrap();
-    let code = (138.5055 / 400.0 * 65536.0) as u32;
     let a = fx::to_f64(fi.read(code).temperature_k);
-    let b = fl.read(code).temperature_k;
-    assert!((a - b).abs() < 2e-5);
+    assert!((a - t).abs() < 2e-5);
 }
 
 #[test]

@@ -75,15 +75,17 @@ impl Ntc {
         self.convert(self.input.sample(code))
     }
 
-    /// Converts a measured resistance, Ω (no lead or self-heating correction,
-    /// no open or short thresholds).
+    /// Converts a measured resistance (leads included), Ω: open and short
+    /// thresholds and the lead correction apply, self-heating does not (see
+    /// the resistive input's `sample_ohms`).
     pub fn read_ohms(&self, ohms: fx::Resistance) -> TemperatureReading<fx::Temperature> {
-        let l = fxmath::ln(ohms.to_bits(), 32);
+        let (r, fault) = self.input.sample_ohms(ohms);
+        let l = fxmath::ln(r, 32);
         let (t, status) = match l {
             Some(l) => self.temperature(self.inverse_temperature(l >> (32 - L_FRAC))),
             None => (u32::MAX, Status::SENSOR_SATURATED),
         };
-        self.check_range(t as i64, status)
+        self.check_range(t as i64, status | fault)
     }
 
     fn convert(&self, s: Sample) -> TemperatureReading<fx::Temperature> {

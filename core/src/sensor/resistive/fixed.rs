@@ -4,7 +4,7 @@
 //! correction, one or two for self-heating.
 
 use super::{Circuit, FrontEnd};
-use crate::fx::{Coef, mul_u32, sat_u32};
+use crate::fx::{self, Coef, mul_u32, sat_u32};
 use crate::{Error, Status};
 
 /// One code, read: the measured resistance as `num/den` (lead-corrected,
@@ -38,6 +38,10 @@ pub struct Input {
     lead: Coef,
     /// Self-heating per unit of the circuit's power variable (see `heating`).
     heating: Coef,
+    /// Lead, short and open resistances, Ω at 2^-32.
+    lead_ohms: u64,
+    short_ohms: u64,
+    open_ohms: u64,
 }
 
 impl Input {
@@ -69,7 +73,27 @@ impl Input {
             hi,
             lead,
             heating,
+            lead_ohms: f.lead_ohms.to_bits(),
+            short_ohms: f.short_ohms.to_bits(),
+            open_ohms: f.open_ohms.to_bits(),
         })
+    }
+
+    /// Reads a measured resistance (leads included): the open and short
+    /// thresholds are applied (a faulty value is replaced by the threshold),
+    /// then the leads are subtracted. Returns the sensor resistance (Ω at
+    /// 2^-32) and the flags. No self-heating correction: it belongs to
+    /// converter codes, where the circuit's state is known.
+    pub fn sample_ohms(&self, ohms: fx::Resistance) -> (u64, Status) {
+        let r = ohms.to_bits();
+        let (r, status) = if r < self.short_ohms {
+            (self.short_ohms, Status::SENSOR_SHORT_CIRCUIT)
+        } else if r > self.open_ohms {
+            (self.open_ohms, Status::SENSOR_OPEN_CIRCUIT)
+        } else {
+            (r, Status::OK)
+        };
+        (r.saturating_sub(self.lead_ohms).max(1), status)
     }
 
     /// Reads one code.

@@ -72,9 +72,11 @@ impl<F: Real> Input<F> {
         }
     }
 
-    /// Reads a measured resistance (leads included), Ω: the same steps with
-    /// `num/den = R/R_ref`; open and short thresholds are applied to `R`.
-    /// Self-heating is taken at the equivalent code of the circuit.
+    /// Reads a measured resistance (leads included), Ω: the open and short
+    /// thresholds are applied to `R` (a faulty value is replaced by the
+    /// threshold), then the same steps with `num/den = R/R_ref`. No
+    /// self-heating correction: it belongs to converter codes, where the
+    /// circuit's state is known.
     pub fn sample_ohms(&self, ohms: F, f: &FrontEnd) -> Result<Sample<F>, Error> {
         let ohms = finite(ohms, "resistance")?;
         let short = F::lit(fx::to_f64(f.short_ohms));
@@ -89,21 +91,11 @@ impl<F: Real> Input<F> {
             r = open;
         }
         let (num, den) = (r / self.reference_ohms, F::ONE);
-        // Equivalent code (x = code/full) of this resistance.
-        let x = match self.circuit {
-            Circuit::Ratiometric => num,
-            Circuit::DividerLow => num / (F::ONE + num),
-            Circuit::DividerHigh => F::ONE / (F::ONE + num),
-        };
         let num = self.lead_correct(num, den);
-        let heating = match self.circuit {
-            Circuit::Ratiometric => self.heating * num,
-            Circuit::DividerLow | Circuit::DividerHigh => self.heating * x * (F::ONE - x),
-        };
         Ok(Sample {
             num,
             den,
-            heating,
+            heating: F::ZERO,
             status,
         })
     }

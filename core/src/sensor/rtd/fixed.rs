@@ -112,8 +112,6 @@ pub struct Rtd {
     w_per_ratio: Coef,
     /// 1/R₀ for resistance inputs.
     inv_r0: Coef,
-    /// Lead resistance, Ω at 2^-32.
-    lead: u64,
     r0: Coef,
     range_min: u32,
     range_max: u32,
@@ -135,7 +133,6 @@ impl Rtd {
             circuit: f.circuit,
             w_per_ratio: w,
             inv_r0,
-            lead: f.lead_ohms.to_bits(),
             r0,
             range_min: config.range_min_k.to_bits(),
             range_max: config.range_max_k.to_bits(),
@@ -147,18 +144,18 @@ impl Rtd {
         self.convert(self.input.sample(code))
     }
 
-    /// Converts a measured resistance (leads included), Ω. No self-heating
-    /// correction (the excitation of a resistance given directly is unknown
-    /// here); open and short thresholds are not applied.
+    /// Converts a measured resistance (leads included), Ω: open and short
+    /// thresholds and the lead correction apply, self-heating does not (see
+    /// the resistive input's `sample_ohms`).
     pub fn read_ohms(&self, ohms: fx::Resistance) -> TemperatureReading<fx::Temperature> {
-        let r = ohms.to_bits().saturating_sub(self.lead);
+        let (r, status) = self.input.sample_ohms(ohms);
         // R/R₀ at 2^-30 from R at 2^-32: the top 32 bits of R are R at 2^-lz.
         let lz = r.leading_zeros().min(32);
         let top = (r << lz >> 32) as u32;
         let (w, over) = self.inv_r0.scale(top, lz, 30);
         let (w, _) = sat_u32(if over { u64::MAX } else { w });
         let t = (celsius(w) as i64 + ZERO_C_Q20 + 8) >> 4;
-        self.check_range(t, beyond_standard(w))
+        self.check_range(t, status | beyond_standard(w))
     }
 
     /// The resistance of the sensor element at `temperature`, Ω (the inverse
