@@ -23,7 +23,7 @@ pub enum Error {
     /// (for example two-phase), so the setup cannot be prepared.
     ModelUnusable(&'static str),
 
-    // ---- link (issue 6) ----
+    // ---- link ----
     /// A frame's COBS encoding is broken (a code byte points past the end).
     FrameEncoding,
     /// A frame is shorter than a header and a CRC, or longer than the
@@ -41,7 +41,7 @@ pub enum Error {
     /// The output buffer is too small for the encoded frame or record.
     BufferTooSmall,
 
-    // ---- storage (issue 6) ----
+    // ---- storage ----
     /// The flash driver reported an error (or the power failed during a write).
     Flash,
     /// A record does not fit its flash area or the record size limit.
@@ -52,7 +52,7 @@ pub enum Error {
     /// A record's sequence number reached its maximum: the area is worn out.
     SequenceExhausted,
 
-    // ---- authentication (issue 6) ----
+    // ---- authentication ----
     /// No signing session is open, or it has expired.
     NoSession,
     /// A signature does not match.
@@ -65,6 +65,11 @@ pub enum Error {
     ChunkOrder(u32),
     /// A gas-model blob does not match its CRC-32C.
     BlobCrc,
+    /// Stored or received bytes do not form a valid record; the text says
+    /// what is wrong.
+    Malformed(&'static str),
+    /// Stored or received bytes fail their CRC-32C check.
+    ChecksumMismatch,
 }
 
 impl fmt::Display for Error {
@@ -93,6 +98,8 @@ impl fmt::Display for Error {
             Error::LockedOut(ms) => write!(f, "locked out after failed signatures for {ms} ms"),
             Error::ChunkOrder(o) => write!(f, "gas-model piece out of order, expected offset {o}"),
             Error::BlobCrc => f.write_str("gas-model blob CRC-32C mismatch"),
+            Error::Malformed(what) => write!(f, "malformed data: {what}"),
+            Error::ChecksumMismatch => f.write_str("checksum mismatch (corrupt data)"),
         }
     }
 }

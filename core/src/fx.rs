@@ -16,6 +16,11 @@
 //! | mass flow kg/h, volume flow m³/h (signed) | [`MassRate`], [`VolumeRate`] = `I32F32` | ±2.1e9 | 2.3e-10 |
 //! | fraction per hour or per day (signed) | [`FractionRate`] = `I32F32` | ±2.1e9 | 2.3e-10 |
 //! | small fractions (thresholds, uncertainties) | [`SmallFraction`] = `U0F32` | 0 … 1 | 2.3e-10 |
+//! | gauge pressure, Pa (relative to barometric; signed) | [`GaugePressure`] = `I28F4` | ±134.2 MPa (±1342 bar) | 0.0625 Pa |
+//! | resistance, Ω (sensor configuration, diagnostics) | [`Resistance`] = `U32F32` | 0 … 4.29 GΩ | 2.3e-10 Ω |
+//! | loop current, mA | [`Milliamps`] = `U8F24` | 0 … 256 mA | 6.0e-8 mA |
+//! | sensor coefficient (tempcos, polynomials, Steinhart–Hart, excitation) | [`Coefficient`] = `I16F48` | ±32 768 | 3.6e-15 |
+//! | calibration anchor (SI value of a corrected quantity) | [`Anchor`] = `I40F24` | ±5.5e11 | 6.0e-8 |
 //!
 //! # How the per-sample arithmetic stays cheap
 //!
@@ -28,7 +33,9 @@
 //! happen only while preparing a setup, plus one per density and one per
 //! iteration of the settled-pressure solver.
 
-use fixed::types::{I0F32, I8F24, I32F32, U0F32, U2F30, U16F16, U24F40, U28F4, U32F32};
+use fixed::types::{
+    I0F32, I8F24, I16F48, I28F4, I32F32, I40F24, U0F32, U2F30, U8F24, U16F16, U24F40, U28F4, U32F32,
+};
 
 /// Absolute pressure in pascal.
 pub type Pressure = U28F4;
@@ -61,6 +68,18 @@ pub type VolumeRate = I32F32;
 pub type FractionRate = I32F32;
 /// A fraction below one: thresholds and relative uncertainties.
 pub type SmallFraction = U0F32;
+/// Gauge pressure in pascal: absolute pressure minus barometric pressure
+/// (negative below the ambient).
+pub type GaugePressure = I28F4;
+/// Electrical resistance in ohm.
+pub type Resistance = U32F32;
+/// Electrical current in milliampere (4–20 mA loops).
+pub type Milliamps = U8F24;
+/// A signed sensor coefficient in configuration (temperature coefficients,
+/// polynomial coefficients, Steinhart–Hart constants, excitation).
+pub type Coefficient = I16F48;
+/// An SI value that anchors a calibration correction (Pa or K).
+pub type Anchor = I40F24;
 
 /// A positive constant prepared for the fixed-point path: `mantissa × 2^-shift`
 /// with the mantissa normalised to `[2^31, 2^32)` (or zero).
@@ -138,6 +157,12 @@ impl Coef {
         }
     }
 
+    /// The constant `raw × 2^-shift` (any sign of `shift`), rounded to 32
+    /// significant bits.
+    pub const fn from_parts(raw: u64, shift: i32) -> Coef {
+        Coef::normalize(raw, shift)
+    }
+
     /// True for the zero constant.
     pub const fn is_zero(self) -> bool {
         self.mantissa == 0
@@ -181,8 +206,71 @@ impl Coef {
     /// nearest. The flag is true when the result did not fit and was clamped
     /// to `u64::MAX`.
     pub const fn scale(self, x: u32, x_frac: u32, out_frac: u32) -> (u64, bool) {
-        let product = x as u64 * self.mantissa as u64;
+        let product = mul_u32(x, self.mantissa);
         shr_round(product, x_frac as i32 + self.shift - out_frac as i32)
+    }
+}
+
+/// `a × b`, exact. On ARMv6-M (Cortex-M0/M0+/M1: no `UMULL`, recognised by
+/// the absence of 32-bit atomics) it uses [`mul_u32_parts`], four 16×16→32
+/// multiplies inline, instead of the generic 64×64 library routine; elsewhere
+/// the native multiply.
+#[inline]
+pub const fn mul_u32(a: u32, b: u32) -> u64 {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        mul_u32_parts(a, b)
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        a as u64 * b as u64
+    }
+}
+
+/// `a × b` from four 16×16→32 products (the Cortex-M0 form of [`mul_u32`],
+/// exposed so that hosts test it).
+#[inline]
+pub const fn mul_u32_parts(a: u32, b: u32) -> u64 {
+    let (a0, a1) = (a & 0xFFFF, a >> 16);
+    let (b0, b1) = (b & 0xFFFF, b >> 16);
+    let lo = a0 * b0;
+    let (mid, c1) = (a0 * b1).overflowing_add(a1 * b0);
+    let (lo, c2) = lo.overflowing_add(mid << 16);
+    let hi = a1 * b1 + (mid >> 16) + ((c1 as u32) << 16) + c2 as u32;
+    ((hi as u64) << 32) | lo as u64
+}
+
+/// `a × b` for signed values whose magnitudes fit 32 bits (larger
+/// magnitudes are clamped to `u32::MAX`) and whose product fits `i64`,
+/// through [`mul_u32`].
+#[inline]
+pub const fn mul_s32(a: i64, b: i64) -> i64 {
+    let (ma, mb) = (a.unsigned_abs(), b.unsigned_abs());
+    let ma = if ma > u32::MAX as u64 {
+        u32::MAX
+    } else {
+        ma as u32
+    };
+    let mb = if mb > u32::MAX as u64 {
+        u32::MAX
+    } else {
+        mb as u32
+    };
+    let p = mul_u32(ma, mb) as i64;
+    if (a < 0) != (b < 0) { -p } else { p }
+}
+
+/// `value >> s` for `s < 64` with 32-bit operations (a variable 64-bit shift
+/// is a library call on a Cortex-M0).
+#[inline]
+const fn shr64(value: u64, s: u32) -> u64 {
+    let (lo, hi) = (value as u32, (value >> 32) as u32);
+    if s == 0 {
+        value
+    } else if s < 32 {
+        (((hi >> s) as u64) << 32) | ((lo >> s) | (hi << (32 - s))) as u64
+    } else {
+        (hi >> (s - 32)) as u64
     }
 }
 
@@ -195,7 +283,8 @@ pub const fn shr_round(value: u64, shift: i32) -> (u64, bool) {
             return (0, false);
         }
         let s = shift as u32;
-        ((value >> s) + ((value >> (s - 1)) & 1), false)
+        let half = shr64(value, s - 1);
+        ((half >> 1) + (half & 1), false)
     } else if shift == 0 {
         (value, false)
     } else {
@@ -287,8 +376,29 @@ mod tests {
         }
     }
 
+    proptest! {
+        #[test]
+        fn multiplies_are_exact(a in 0u32.., b in 0u32.., c in -(1i64 << 31)..(1i64 << 31), d in -(1i64 << 32)..(1i64 << 32)) {
+            prop_assert_eq!(mul_u32_parts(a, b), a as u64 * b as u64);
+            prop_assert_eq!(mul_u32(a, b), a as u64 * b as u64);
+            let (mc, md) = (c.unsigned_abs().min(u32::MAX as u64) as i128, d.unsigned_abs().min(u32::MAX as u64) as i128);
+            let want = mc * md * if (c < 0) != (d < 0) { -1 } else { 1 };
+            prop_assert_eq!(mul_s32(c, d) as i128, want);
+        }
+
+        #[test]
+        fn shifts_match_native(v in 0u64.., s in 1i32..64) {
+            let want = (v >> s) + ((v >> (s - 1)) & 1);
+            prop_assert_eq!(shr_round(v, s), (want, false));
+        }
+    }
+
     #[test]
     fn shr_round_edges() {
+        assert_eq!(
+            mul_u32_parts(u32::MAX, u32::MAX),
+            u32::MAX as u64 * u32::MAX as u64
+        );
         assert_eq!(shr_round(3, 1), (2, false));
         assert_eq!(shr_round(5, 2), (1, false));
         assert_eq!(shr_round(6, 2), (2, false));

@@ -81,6 +81,32 @@ flags! {
     STORAGE_WRITE_FAILED = 27, "storage_write_failed";
     /// Signed commands are refused for a while after failed signatures.
     AUTH_LOCKED_OUT = 28, "auth_locked_out";
+    /// A resistive sensor or its wiring is open (resistance above the open
+    /// threshold, or the converter driven to its upper rail by an open input).
+    SENSOR_OPEN_CIRCUIT = 8, "sensor_open_circuit";
+    /// A resistive sensor or its wiring is shorted (resistance below the short
+    /// threshold).
+    SENSOR_SHORT_CIRCUIT = 9, "sensor_short_circuit";
+    /// The converter code is at a rail or outside the converter's range, or the
+    /// reading lies beyond what the conversion can represent: the value is held
+    /// at a limit and is not a measurement.
+    SENSOR_SATURATED = 10, "sensor_saturated";
+    /// The reading is below the sensor's measuring range (including a negative
+    /// absolute pressure clamped to zero, and a 4–20 mA loop between 3.6 and
+    /// 3.8 mA or in its failure band before the persistence time).
+    SENSOR_UNDER_RANGE = 11, "sensor_under_range";
+    /// The reading is above the sensor's measuring range (beyond full scale,
+    /// or a loop between 20.5 and 21.0 mA or in its failure band before the
+    /// persistence time).
+    SENSOR_OVER_RANGE = 12, "sensor_over_range";
+    /// A 4–20 mA transmitter signals failure (NAMUR NE 43: ≤ 3.6 mA or
+    /// ≥ 21.0 mA for longer than the configured persistence time).
+    SENSOR_LOOP_FAILURE = 13, "sensor_loop_failure";
+    /// The reading changed faster than the configured plausible rate.
+    SENSOR_RATE_IMPLAUSIBLE = 14, "sensor_rate_implausible";
+    /// The reading has not moved beyond the configured band for longer than
+    /// the configured time (frozen converter or sensor).
+    SENSOR_STUCK = 15, "sensor_stuck";
 }
 
 impl Status {

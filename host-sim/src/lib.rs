@@ -7,6 +7,7 @@
 //! * [`content`] — the content report of `isochor content` (both core paths).
 //! * [`link`] — the serial link: transports, client, emulated device, views.
 //! * [`safety`] — the cautions printed with every human-readable result.
+//! * [`sensor`] — sensor option parsing and the least-squares calibration fit.
 //! * [`cli`] — argument parsing and the commands.
 
 pub mod cli;
@@ -14,6 +15,7 @@ pub mod content;
 mod error;
 pub mod link;
 pub mod safety;
+pub mod sensor;
 pub mod units;
 
 pub use error::Error;

@@ -147,7 +147,7 @@ fn sensor_fault_raises_after_three_seconds_and_clears_after_ten() {
     let mut s = Vec::new();
     for i in 0..200u64 {
         let flags = if (50..60).contains(&i) {
-            // Any bit of the sensor range is a fault (issue 4 names them).
+            // Any bit of the sensor range is a fault.
             Status::from_bits(1 << 9)
         } else {
             Status::OK

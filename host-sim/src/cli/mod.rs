@@ -4,6 +4,7 @@
 mod content;
 mod listen;
 mod send;
+mod sensor;
 
 use clap::{Parser, Subcommand, ValueEnum};
 use std::process::ExitCode;
@@ -26,6 +27,9 @@ pub enum Command {
     Listen(listen::ListenArgs),
     /// Send a request or a signed command to a device.
     Send(send::SendArgs),
+    /// Sensor front-ends: convert single values both ways, fit a calibration,
+    /// read back a calibration record.
+    Sensor(sensor::SensorArgs),
 }
 
 /// Output format shared by the commands.
@@ -60,6 +64,7 @@ pub fn run(cli: Cli) -> Result<String, crate::Error> {
         Command::Content(args) => content::run(&args),
         Command::Listen(args) => listen::run(&args),
         Command::Send(args) => send::run(&args),
+        Command::Sensor(args) => sensor::run(&args),
     }
 }
 

@@ -1,0 +1,166 @@
+//! Ratiometric bridge pressure transducers (strain-gauge or piezoresistive
+//! bridges read by a converter whose reference is the bridge excitation).
+//!
+//! The converter code gives the signal `s` as a fraction of the converter's
+//! range (`code/2^(bits−1)` for bipolar converters, `code/2^bits` for
+//! unipolar ones). With `ΔT = T − T_ref` the transducer's own temperature
+//! minus the temperature of the coefficients:
+//!
+//! * zero: `z(ΔT) = z₀ + z₁·ΔT + z₂·ΔT²` (signal at the low end of the range);
+//! * span: `S(ΔT) = S₀·(1 + k₁·ΔT + k₂·ΔT²)` (signal change over the range);
+//! * normalised reading `u = (s − z(ΔT)) / S(ΔT)` (0 at the low end, 1 at full scale);
+//! * linearity correction `q(u) = c₀ + c₁·u + c₂·u² + c₃·u³` (identity: 0, 1, 0, 0);
+//! * pressure `p = p_lo + (p_hi − p_lo)·q(u)`, gauge or absolute by the
+//!   transducer's [`PressureKind`], then both forms via [`gauge`](super::gauge).
+//!
+//! Faults: a code at either rail of the converter (or beyond its range) is
+//! [`Status::SENSOR_SATURATED`](crate::Status::SENSOR_SATURATED) (amplifier or
+//! converter clipped, or an open bridge wire pulled to a rail);
+//! `q < −margin` is under range, `q > 1 + margin` over range (beyond full
+//! scale); `|u| > 1.5` is saturated (the value is clamped there).
+//!
+//! Cost per code, fixed point: zero and span 4 multiplies, one division-free
+//! reciprocal (7), `u` 1, the cubic 3, the pressure 1: 16 multiplies; with the
+//! compensation prepared once per temperature (`compensation`,
+//! `read_compensated`) 5 per code.
+
+pub mod fixed;
+pub mod float;
+
+use crate::sensor::PressureKind;
+use crate::{Error, fx};
+
+/// Largest `|u|` converted (150 % of the range); beyond, the reading saturates.
+pub const U_LIMIT: f64 = 1.5;
+
+/// A bridge pressure channel.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct BridgeConfig {
+    /// Converter resolution, bits (8 … 24).
+    pub adc_bits: u8,
+    /// Bipolar converter (two's-complement codes, `s = code/2^(bits−1)`);
+    /// else unipolar (`s = code/2^bits`).
+    pub bipolar: bool,
+    /// Zero `[z₀, z₁ per K, z₂ per K²]`, fractions of the converter range
+    /// (`|z₀| ≤ 1`, `|z₁| ≤ 1e-2`, `|z₂| ≤ 1e-4`).
+    pub zero: [fx::Coefficient; 3],
+    /// Span `S₀` at the reference temperature, fraction of the converter
+    /// range (1e-4 … 2).
+    pub span: fx::Coefficient,
+    /// Span temperature coefficients `[k₁ per K, k₂ per K²]`, relative
+    /// (`|k₁| ≤ 1e-3`, `|k₂| ≤ 1e-5`).
+    pub span_tc: [fx::Coefficient; 2],
+    /// Temperature of the coefficients, K.
+    pub reference_k: fx::Temperature,
+    /// Linearity correction `[c₀, c₁, c₂, c₃]` (each within ±2).
+    pub linearity: [fx::Coefficient; 4],
+    /// Pressure at the low end of the range (`u = 0`), Pa, of `kind`.
+    pub range_lo_pa: fx::GaugePressure,
+    /// Pressure at full scale (`u = 1`), Pa, of `kind`.
+    pub range_hi_pa: fx::GaugePressure,
+    /// What the transducer measures.
+    pub kind: PressureKind,
+    /// Fraction of the range beyond 0 and 1 tolerated before the reading is
+    /// flagged under or over range (0 … 0.5).
+    pub range_margin: fx::Coefficient,
+}
+
+impl BridgeConfig {
+    /// A transducer without temperature coefficients or linearity correction
+    /// (host helper, from `f64`): `zero` and `span` in fractions of the
+    /// converter range, reference temperature 25 °C, no margin.
+    pub fn new(
+        adc_bits: u8,
+        bipolar: bool,
+        zero: f64,
+        span: f64,
+        range_lo_pa: f64,
+        range_hi_pa: f64,
+        kind: PressureKind,
+    ) -> Result<BridgeConfig, Error> {
+        let c = BridgeConfig {
+            adc_bits,
+            bipolar,
+            zero: [
+                fx::from_f64(zero, "zero")?,
+                fx::Coefficient::ZERO,
+                fx::Coefficient::ZERO,
+            ],
+            span: fx::from_f64(span, "span")?,
+            span_tc: [fx::Coefficient::ZERO; 2],
+            reference_k: fx::Temperature::lit("298.15"),
+            linearity: [
+                fx::Coefficient::ZERO,
+                fx::Coefficient::ONE,
+                fx::Coefficient::ZERO,
+                fx::Coefficient::ZERO,
+            ],
+            range_lo_pa: fx::from_f64(range_lo_pa, "range low end")?,
+            range_hi_pa: fx::from_f64(range_hi_pa, "range high end")?,
+            kind,
+            range_margin: fx::Coefficient::ZERO,
+        };
+        c.validate()?;
+        Ok(c)
+    }
+
+    /// Checks every field.
+    pub fn validate(&self) -> Result<(), Error> {
+        if !(8..=24).contains(&self.adc_bits) {
+            return Err(Error::OutOfRange("converter bits"));
+        }
+        let within = |v: fx::Coefficient, lim: f64, what| {
+            if fx::to_f64(v).abs() > lim {
+                Err(Error::OutOfRange(what))
+            } else {
+                Ok(())
+            }
+        };
+        within(self.zero[0], 1.0, "zero")?;
+        within(self.zero[1], 1e-2, "zero temperature coefficient")?;
+        within(
+            self.zero[2],
+            1e-4,
+            "zero second-order temperature coefficient",
+        )?;
+        if fx::to_f64(self.span) < 1e-4 || self.span > 2 {
+            return Err(Error::OutOfRange("span"));
+        }
+        within(self.span_tc[0], 1e-3, "span temperature coefficient")?;
+        within(
+            self.span_tc[1],
+            1e-5,
+            "span second-order temperature coefficient",
+        )?;
+        if self.reference_k < 150 || self.reference_k > 500 {
+            return Err(Error::OutOfRange("reference temperature"));
+        }
+        for c in self.linearity {
+            within(c, 2.0, "linearity coefficient")?;
+        }
+        if self.range_hi_pa <= self.range_lo_pa {
+            return Err(Error::OutOfRange("range high end"));
+        }
+        if self.range_margin < 0 || fx::to_f64(self.range_margin) > 0.5 {
+            return Err(Error::OutOfRange("range margin"));
+        }
+        Ok(())
+    }
+
+    /// Lowest and highest valid codes (codes at or beyond them are at a rail).
+    pub fn rails(&self) -> (i32, i32) {
+        let bits = self.adc_bits.clamp(8, 24) as u32;
+        if self.bipolar {
+            (-(1 << (bits - 1)), (1 << (bits - 1)) - 1)
+        } else {
+            (0, (1 << bits) - 1)
+        }
+    }
+
+    /// `log2` of the code that represents a signal of 1.
+    pub(crate) fn signal_bits(&self) -> u32 {
+        let bits = self.adc_bits.clamp(8, 24) as u32;
+        if self.bipolar { bits - 1 } else { bits }
+    }
+}
