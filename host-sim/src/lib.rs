@@ -5,11 +5,13 @@
 //!
 //! * [`units`] — parsing of quantities with units (`200bar`, `35C`, `50L`).
 //! * [`content`] — the content report of `isochor content` (both core paths).
+//! * [`eos`] — the reference equations of state (f64, host only).
 //! * [`safety`] — the cautions printed with every human-readable result.
 //! * [`cli`] — argument parsing and the commands.
 
 pub mod cli;
 pub mod content;
+pub mod eos;
 mod error;
 pub mod safety;
 pub mod units;
