@@ -83,11 +83,11 @@ pub fn parse_standard(s: &str) -> Result<(String, StandardCondition), Error> {
     ))
 }
 
-/// Turns the arguments into a request (all validation of units and signs).
-pub fn request(a: &ContentArgs) -> Result<ContentRequest, Error> {
-    let gas = Gas::from_name(&a.gas).map_err(|_| Error::Quantity {
+/// Parses `--gas`.
+pub fn parse_gas(name: &str) -> Result<Gas, Error> {
+    Gas::from_name(name).map_err(|_| Error::Quantity {
         what: "--gas",
-        input: a.gas.clone(),
+        input: name.to_string(),
         reason: format!(
             "unknown gas (known: {})",
             Gas::ALL
@@ -96,7 +96,12 @@ pub fn request(a: &ContentArgs) -> Result<ContentRequest, Error> {
                 .collect::<Vec<_>>()
                 .join(", ")
         ),
-    })?;
+    })
+}
+
+/// Turns the arguments into a request (all validation of units and signs).
+pub fn request(a: &ContentArgs) -> Result<ContentRequest, Error> {
+    let gas = parse_gas(&a.gas)?;
     let barometric = if a.gauge {
         let b = units::pressure_pa(&a.barometric, "--barometric")?;
         if !(50e3..=110e3).contains(&b) {

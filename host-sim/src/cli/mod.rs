@@ -2,6 +2,7 @@
 //! Commands are thin: they parse, call the library, and print.
 
 mod content;
+mod props;
 
 use clap::{Parser, Subcommand, ValueEnum};
 use std::process::ExitCode;
@@ -20,6 +21,8 @@ pub struct Cli {
 pub enum Command {
     /// Estimate the content of one tank from one pressure and temperature.
     Content(content::ContentArgs),
+    /// Reference equation of state at one pressure and temperature.
+    Props(props::PropsArgs),
 }
 
 /// Output format shared by the commands.
@@ -52,6 +55,7 @@ pub fn main() -> ExitCode {
 pub fn run(cli: Cli) -> Result<String, crate::Error> {
     match cli.command {
         Command::Content(args) => content::run(&args),
+        Command::Props(args) => props::run(&args),
     }
 }
 
