@@ -22,6 +22,9 @@ pub enum Error {
     /// The gas model's answer at the rated or standard condition was unusable
     /// (for example two-phase), so the setup cannot be prepared.
     ModelUnusable(&'static str),
+    /// A device gas-model table or blob is malformed, corrupt or of an
+    /// unsupported version; the text says what was wrong.
+    ModelData(&'static str),
 }
 
 impl fmt::Display for Error {
@@ -33,6 +36,7 @@ impl fmt::Display for Error {
             Error::ModelUnusable(what) => {
                 write!(f, "the gas model gives no usable answer at the {what}")
             }
+            Error::ModelData(what) => write!(f, "gas-model table refused: {what}"),
         }
     }
 }

@@ -6,6 +6,7 @@
 //! * [`units`] — parsing of quantities with units (`200bar`, `35C`, `50L`).
 //! * [`content`] — the content report of `isochor content` (both core paths).
 //! * [`eos`] — the reference equations of state (f64, host only).
+//! * [`model`] — building and checking device gas models.
 //! * [`safety`] — the cautions printed with every human-readable result.
 //! * [`cli`] — argument parsing and the commands.
 
@@ -13,6 +14,7 @@ pub mod cli;
 pub mod content;
 pub mod eos;
 mod error;
+pub mod model;
 pub mod safety;
 pub mod units;
 

@@ -2,6 +2,7 @@
 //! Commands are thin: they parse, call the library, and print.
 
 mod content;
+mod model;
 mod props;
 
 use clap::{Parser, Subcommand, ValueEnum};
@@ -23,6 +24,8 @@ pub enum Command {
     Content(content::ContentArgs),
     /// Reference equation of state at one pressure and temperature.
     Props(props::PropsArgs),
+    /// Build or check device gas models (compact tables for the device).
+    Model(model::ModelArgs),
 }
 
 /// Output format shared by the commands.
@@ -56,6 +59,7 @@ pub fn run(cli: Cli) -> Result<String, crate::Error> {
     match cli.command {
         Command::Content(args) => content::run(&args),
         Command::Props(args) => props::run(&args),
+        Command::Model(args) => model::run(&args),
     }
 }
 
