@@ -44,8 +44,9 @@ pub struct ContentArgs {
     /// 14.696 psia), or TEMPERATURE,PRESSURE such as 25C,100kPa.
     #[arg(long, default_value = "iso13443", allow_hyphen_values = true)]
     pub standard: String,
-    /// Gas model.
-    #[arg(long, value_enum, default_value_t = ModelChoice::Ideal)]
+    /// Gas model: device (the built-in table a device runs), reference (the
+    /// reference equation of state) or ideal.
+    #[arg(long, value_enum, default_value_t = ModelChoice::Device)]
     pub model: ModelChoice,
     /// Elastic volume expansion of the vessel per bar of pressure (e.g. 1.2e-5).
     #[arg(long, default_value = "0", allow_hyphen_values = true)]
