@@ -158,3 +158,58 @@ proptest! {
         prop_assert_eq!(stats.status_mismatches, 0);
     }
 }
+
+/// Bound of the fixed-point estimate against the f64 estimate with the same
+/// device model: the model's fixed-point evaluation differs from its f64
+/// evaluation by up to half a coefficient step (≤ 2^-16 in Z, see
+/// core/src/model/device/fixed.rs), on top of the estimator's 1e-5.
+const DEVICE_BOUND: f64 = 5e-5;
+
+#[test]
+fn device_models_dense_grid_every_gas() {
+    use isochor_core::model::DeviceModel;
+    let pressures = pressure_grid(100, 40);
+    let temperatures = temperature_grid(5.0);
+    let mut all = ErrorStats::default();
+    let mut compared = 0u64;
+    for gas in Gas::ALL {
+        let model = DeviceModel::builtin(gas).unwrap();
+        // Rated at a state every table covers as gas: 5 bar at 15 °C for the
+        // liquefiable gases, service pressures for the others.
+        let tanks = if gas.liquefiable_in_envelope() && gas != Gas::Krypton {
+            vec![Tank::new(0.05, 5e5), Tank::new(1.0, 3e5)]
+        } else {
+            vec![Tank::new(0.05, 200e5), Tank::new(0.12, 700e5)]
+        };
+        for (i, tank) in tanks.into_iter().enumerate() {
+            let setup = Setup::new(gas, tank);
+            let (fixed_est, float_est) = estimators(&setup, model.clone(), model.clone());
+            let mut stats = ErrorStats::default();
+            for &p in &pressures {
+                for &t in &temperatures {
+                    let pf = fx::Pressure::from_num(p);
+                    let tf = fx::Temperature::from_num(t);
+                    let a = fixed_est.estimate(pf, tf);
+                    let b = float_est.estimate(fx::to_f64(pf), fx::to_f64(tf)).unwrap();
+                    // Values are compared where both paths call them valid and
+                    // agree on the model's flags (the boundary curves of
+                    // liquefiable gases are evaluated in each arithmetic).
+                    if a.status != b.status
+                        || !a.status.without(isochor_tests::BOUNDARY_FLAGS).is_ok()
+                    {
+                        continue;
+                    }
+                    compare_at(&mut stats, &fixed_est, &float_est, pf, tf);
+                    compared += 1;
+                }
+            }
+            stats.assert_within(DEVICE_BOUND, &format!("{gas} device tank #{i}"));
+            all.merge(&stats);
+        }
+    }
+    assert!(compared > 50_000, "{compared}");
+    eprintln!("device models, fixed vs f64 over {} samples:", all.samples);
+    for (q, w) in isochor_tests::QUANTITIES.iter().zip(all.worst) {
+        eprintln!("  {q:<20} {w:.2e}");
+    }
+}

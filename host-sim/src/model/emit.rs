@@ -65,7 +65,7 @@ pub fn rust_module(models: &[Built]) -> String {
         let _ = writeln!(
             out,
             "/// {}: {:.2}…{:.2} K, 0…{} bar; max density error {:.1e}.\n\
-             pub const {n}: Table<'static> = Table {{\n    gas: Gas::{:?},\n    temperature_knots: &{n}_T,\n    pressure_knots: &{n}_P,\n    z_offset: {},\n    z_step_exp: {},\n    coefs: &{n}_Z,\n    boundary: {boundary},\n}};",
+             pub const {n}: Table<'static> = Table {{\n    gas: Gas::{:?},\n    temperature_knots: &{n}_T,\n    pressure_knots: &{n}_P,\n    z_offset: {},\n    z_step_exp: {},\n    z_floor: {},\n    coefs: &{n}_Z,\n    boundary: {boundary},\n}};",
             b.spec.gas,
             t.range().temperature_min_k,
             t.range().temperature_max_k,
@@ -74,6 +74,7 @@ pub fn rust_module(models: &[Built]) -> String {
             b.spec.gas,
             t.z_offset,
             t.z_step_exp,
+            t.z_floor,
         );
     }
     out.push_str("\n/// The built-in table of `gas`.\npub const fn table(gas: Gas) -> Option<Table<'static>> {\n    match gas {\n");

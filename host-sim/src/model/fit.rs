@@ -39,9 +39,12 @@ impl Samples {
     /// A grid of `dt` K × `p_max/np` inside the domain (exact curves).
     pub fn new(dom: &Domain, dt: f64, np: usize) -> Samples {
         let nt = ((dom.t_max - dom.t_min) / dt).ceil().max(4.0) as usize;
-        let ts: Vec<f64> = (0..=nt)
+        let mut ts: Vec<f64> = (0..=nt)
             .map(|i| exact_t(dom.t_min + (dom.t_max - dom.t_min) * i as f64 / nt as f64))
             .collect();
+        // The ends enclose the requested range in fixed point.
+        ts[0] = (dom.t_min * 65_536.0).floor() / 65_536.0;
+        ts[nt] = (dom.t_max * 65_536.0).ceil() / 65_536.0;
         let top = dom.p_top();
         let ps: Vec<f64> = (0..=np)
             .map(|j| (top * j as f64 / np as f64).round())
@@ -552,8 +555,13 @@ pub fn fit_table(
         }),
     };
     let too_big = |_| Error::Build(format!("{gas}: table too large"));
+    // Z floor: a little below the smallest Z sampled in the covered domain
+    // (the device clamps its answers there; states outside are clamped onto
+    // the domain first). It sets the estimator's density resolution.
+    let z_floor = 0.98 * zlo;
     Ok(TableBuf {
         gas,
+        z_floor: (z_floor * (1u64 << 30) as f64).floor() as u32,
         temperature_knots: heapless::Vec::from_slice(&kt_raw).map_err(too_big)?,
         pressure_knots: heapless::Vec::from_slice(&kp_raw).map_err(too_big)?,
         z_offset: off_bits as u32,

@@ -232,8 +232,17 @@ pub fn build(spec: &BuildSpec) -> Result<Built, Error> {
     let mut np = 6usize;
     let mut best: Option<Built> = None;
     for _ in 0..40 {
-        let cand = fit::fit_table(spec.gas, &dom, &samples, nt, np)?;
-        let report = check_table(&cand.table(), &check)?;
+        let (cand, report) = match fit::fit_table(spec.gas, &dom, &samples, nt, np)
+            .and_then(|c| check_table(&c.table(), &check).map(|r| (c, r)))
+        {
+            Ok(x) => x,
+            Err(_) => {
+                // This split does not fit: try the next size.
+                nt = (nt + 1).min(MAX_KNOTS - 1);
+                np = (np + 2).min(MAX_KNOTS - 1);
+                continue;
+            }
+        };
         let bytes = blob_len(&cand)?;
         if std::env::var_os("ISOCHOR_BUILD_TRACE").is_some() {
             eprintln!(
@@ -265,8 +274,12 @@ pub fn build(spec: &BuildSpec) -> Result<Built, Error> {
             if (a + 3) * (b + 3) > MAX_COEFS {
                 return Ok(0.0);
             }
-            let t = fit::fit_table(spec.gas, &dom, &samples, a, b)?;
-            let r = check_table(&t.table(), &check)?;
+            let Ok(t) = fit::fit_table(spec.gas, &dom, &samples, a, b) else {
+                return Ok(0.0);
+            };
+            let Ok(r) = check_table(&t.table(), &check) else {
+                return Ok(0.0);
+            };
             let added = ((a + 3) * (b + 3) - (nt + 3) * (np + 3)) as f64;
             Ok((report.max_rel_error / r.max_rel_error).ln() / added)
         };

@@ -48,6 +48,8 @@ pub struct TableBuf {
     pub z_offset: u32,
     /// See [`Table::z_step_exp`].
     pub z_step_exp: u8,
+    /// See [`Table::z_floor`].
+    pub z_floor: u32,
     /// See [`Table::coefs`].
     pub coefs: Vec<u16, MAX_COEFS>,
     /// See [`Table::boundary`].
@@ -63,6 +65,7 @@ impl TableBuf {
             pressure_knots: &self.pressure_knots,
             z_offset: self.z_offset,
             z_step_exp: self.z_step_exp,
+            z_floor: self.z_floor,
             coefs: &self.coefs,
             boundary: self.boundary.as_ref().map(|b| Boundary {
                 critical_temperature: b.critical_temperature,
@@ -81,6 +84,7 @@ impl TableBuf {
             pressure_knots: Vec::from_slice(t.pressure_knots).map_err(cap)?,
             z_offset: t.z_offset,
             z_step_exp: t.z_step_exp,
+            z_floor: t.z_floor,
             coefs: Vec::from_slice(t.coefs).map_err(cap)?,
             boundary: match &t.boundary {
                 None => None,

@@ -10,16 +10,18 @@
 //! Knots are placed by the builder where Z curves most (for methane, densely
 //! around 50–250 bar at low temperature, sparsely above); its coefficients are
 //! fitted to the reference equation by least squares and stored as `u16`
-//! steps of `2^-z_step_exp` above `z_offset`. Because B-spline weights are
-//! non-negative and sum to one, every answer lies between the smallest and the
-//! largest coefficient: the model's [`z_floor`](crate::model::CompressibilityFx::z_floor)
-//! is the smallest coefficient.
+//! steps of `2^-z_step_exp` above `z_offset`. B-spline weights are
+//! non-negative and sum to one, so every answer lies between the smallest and
+//! the largest coefficient; the table also carries the smallest Z of the states
+//! it covers (less 2 %) as the model's
+//! [`z_floor`](crate::model::CompressibilityFx::z_floor), and answers are
+//! clamped to it.
 //!
 //! The Z stored is the *effective* compressibility factor: the one that gives
 //! the reference equation's mass density with the CODATA 2018 gas constant,
 //! `Z_eff = p·M/(ρ·R·T)`, since the content estimate computes `ρ = p·M/(Z·R·T)`
 //! with CODATA R while each reference equation carries its own R. As p → 0,
-//! `Z_eff → R_eos/R` (within 6e-6 of one for every gas here).
+//! `Z_eff → R_eos/R` (within 1.5e-5 of one for every gas here).
 //!
 //! Gases that can be liquid inside the table's temperature range (carbon
 //! dioxide, ethane, propane, xenon) carry a [`Boundary`]: the saturation
@@ -80,6 +82,10 @@ pub struct Table<'a> {
     pub z_offset: u32,
     /// Coefficient step is `2^-z_step_exp` in Z (14…24).
     pub z_step_exp: u8,
+    /// The smallest Z the model answers, Q30 bits (at least 1/16): a little
+    /// below the smallest Z of the states the table covers; answers are
+    /// clamped to it.
+    pub z_floor: u32,
     /// Coefficients, `(temperature spans + 3) × (pressure spans + 3)`,
     /// row-major by temperature.
     pub coefs: &'a [u16],
@@ -137,8 +143,11 @@ impl<'a> Table<'a> {
         // Largest Z must stay below 4 (the Compressibility format).
         let max_q = self.coefs.iter().copied().max().unwrap_or(0) as u64;
         let top = self.z_offset as u64 + (max_q << (30 - self.z_step_exp as u32));
-        if top >= 1 << 32 || self.z_floor_bits() == 0 {
+        if top >= 1 << 32 {
             return Err(bad("coefficient range"));
+        }
+        if self.z_floor < 1 << 26 {
+            return Err(bad("Z floor"));
         }
         if let Some(b) = &self.boundary {
             let n = self.rows();
@@ -149,11 +158,9 @@ impl<'a> Table<'a> {
         Ok(())
     }
 
-    /// The smallest Z the table can return, Q30 bits.
+    /// The smallest Z the table returns, Q30 bits.
     pub fn z_floor_bits(&self) -> u32 {
-        let min_q = self.coefs.iter().copied().min().unwrap_or(0) as u32;
-        self.z_offset
-            .saturating_add(min_q << (30 - self.z_step_exp.min(30) as u32))
+        self.z_floor
     }
 
     /// Z of one coefficient, as `f64`.
@@ -169,7 +176,7 @@ impl<'a> Table<'a> {
             + self.boundary.map_or(0, |b| {
                 4 * (1 + b.saturation_pressure.len() + b.limit_pressure.len())
             })
-            + 5
+            + 9
     }
 
     /// The temperature range, K, and the highest pressure, Pa.
