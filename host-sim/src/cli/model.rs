@@ -212,7 +212,17 @@ fn run_build(a: &BuildArgs) -> Result<String, Error> {
     }
     match a.emit {
         Emit::Blob => write(&a.output, &model::blob(&built[0].table)?)?,
-        Emit::Rust => write(&a.output, model::rust_module(&built).as_bytes())?,
+        Emit::Rust => {
+            write(&a.output, model::rust_module(&built).as_bytes())?;
+            // The committed file is rustfmt-formatted; format the output the
+            // same way so a fresh build compares equal (CI diffs them).
+            let fmt = std::process::Command::new("rustfmt")
+                .args(["--edition", "2024", &a.output])
+                .status();
+            if !fmt.is_ok_and(|s| s.success()) {
+                report += "note: rustfmt not run on the output; run `cargo fmt` before committing\n";
+            }
+        }
     }
     Ok(report + &format!("wrote {}\n", a.output))
 }
