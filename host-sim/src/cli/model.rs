@@ -220,7 +220,8 @@ fn run_build(a: &BuildArgs) -> Result<String, Error> {
                 .args(["--edition", "2024", &a.output])
                 .status();
             if !fmt.is_ok_and(|s| s.success()) {
-                report += "note: rustfmt not run on the output; run `cargo fmt` before committing\n";
+                report +=
+                    "note: rustfmt not run on the output; run `cargo fmt` before committing\n";
             }
         }
     }

@@ -15,9 +15,9 @@ use crate::model::ZPointFx;
 use crate::{Error, Status, fx};
 
 /// Raw temperature bits per kelvin.
-pub const T_RAW_PER_UNIT: f64 = 65_536.0;
+pub const T_RAW_PER_UNIT: u64 = 65_536;
 /// Raw pressure bits per MPa.
-pub const P_RAW_PER_UNIT: f64 = 16.0e6;
+pub const P_RAW_PER_UNIT: u64 = 16_000_000;
 /// 1.0 in Q16.
 const ONE: u32 = 1 << 16;
 
@@ -26,18 +26,41 @@ const ONE: u32 = 1 << 16;
 pub struct Span {
     /// t_k, raw bits.
     start: u32,
-    /// Right shift bringing offsets into the span below 2^16.
-    shift: u8,
     /// 2^31 / (h >> shift), rounded: u = ((x − t_k) >> shift)·inv >> 15.
     inv: u32,
-    /// Level-2 fractions (x − t_j)/(t_j+2 − t_j) = a0 + a1·u for j = k−1, k (Q16).
-    level2: [(u32, u32); 2],
-    /// Level-3 fractions for j = k−2, k−1, k (Q16).
-    level3: [(u32, u32); 3],
+    /// Level-2 fractions (x − t_j)/(t_j+2 − t_j) = a0 + a1·u for j = k−1, k.
+    level2: [Frac; 2],
+    /// Level-3 fractions for j = k−2, k−1, k.
+    level3: [Frac; 3],
     /// du per axis unit (K or MPa) as mantissa in [2^15, 2^16) × 2^-exp.
-    du_mantissa: u32,
+    du_mantissa: u16,
     /// See `du_mantissa`.
-    du_exp: i32,
+    du_exp: i8,
+    /// Right shift bringing offsets into the span below 2^16.
+    shift: u8,
+}
+
+/// A fraction a0 + a1·u of a span: a0 in Q16 (below one), a1 − 2^-16 in Q16
+/// (0 < a1 ≤ 1, so it fits 16 bits exactly).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+struct Frac {
+    a0: u16,
+    a1_less_ulp: u16,
+}
+
+impl Frac {
+    fn new(a0: u32, a1: u32) -> Frac {
+        Frac {
+            a0: a0.min(ONE - 1) as u16,
+            a1_less_ulp: a1.clamp(1, ONE).wrapping_sub(1) as u16,
+        }
+    }
+    fn a0(self) -> u32 {
+        self.a0 as u32
+    }
+    fn a1(self) -> u32 {
+        self.a1_less_ulp as u32 + 1
+    }
 }
 
 /// The prepared spans of one axis.
@@ -60,7 +83,7 @@ impl Axis {
     /// B-spline: the end knots count three times). `raw_per_unit` converts
     /// raw bits to the unit of the slopes (K or MPa). All divisions happen
     /// here.
-    pub fn prepare(knots: &[u32], raw_per_unit: f64) -> Result<Axis, Error> {
+    pub fn prepare(knots: &[u32], raw_per_unit: u64) -> Result<Axis, Error> {
         let n = knots.len().saturating_sub(1);
         let ext = |i: isize| -> u64 {
             let j = i.clamp(0, n as isize) as usize;
@@ -81,28 +104,32 @@ impl Axis {
             let inv = (((1u64 << 31) + hs / 2) / hs) as u32;
             let frac = |j: isize, d: isize| {
                 let den = ext(j + d) - ext(j);
-                (q16(tk - ext(j), den), q16(h, den))
+                Frac::new(q16(tk - ext(j), den), q16(h, den))
             };
             // u = Δraw·inv·2^-(31+shift): du/dunit = inv·raw_per_unit·2^-(31+shift),
-            // normalised.
-            let du = inv as f64 * raw_per_unit / (1u64 << (31 + shift)) as f64;
-            let mut du_exp = 0i32;
-            let mut m = du;
-            while m >= 65_536.0 {
-                m /= 2.0;
+            // normalised to a 16-bit mantissa (integers only: this runs on the
+            // device). inv < 2^32 and raw_per_unit < 2^24: the product fits.
+            let mut m = inv as u64 * raw_per_unit;
+            let mut du_exp = 31 + shift as i32;
+            if m == 0 {
+                return Err(Error::ModelData("knots"));
+            }
+            while m >= 1 << 16 {
+                m = (m + 1) >> 1;
                 du_exp -= 1;
             }
-            while m < 32_768.0 {
-                m *= 2.0;
+            while m < 1 << 15 {
+                m <<= 1;
                 du_exp += 1;
             }
+            let du_exp = i8::try_from(du_exp).map_err(|_| Error::ModelData("knots"))?;
             let span = Span {
                 start: tk as u32,
                 shift: shift as u8,
                 inv,
                 level2: [frac(k - 1, 2), frac(k, 2)],
                 level3: [frac(k - 2, 3), frac(k - 1, 3), frac(k, 3)],
-                du_mantissa: (m as u32).min(ONE - 1),
+                du_mantissa: m.min(ONE as u64 - 1) as u16,
                 du_exp,
             };
             spans
@@ -137,17 +164,23 @@ impl Axis {
 
 static DEFAULT_SPAN: Span = Span {
     start: 0,
-    shift: 0,
     inv: 0,
-    level2: [(0, 0); 2],
-    level3: [(0, 0); 3],
+    level2: [Frac {
+        a0: 0,
+        a1_less_ulp: 0,
+    }; 2],
+    level3: [Frac {
+        a0: 0,
+        a1_less_ulp: 0,
+    }; 3],
     du_mantissa: 0,
     du_exp: 0,
+    shift: 0,
 };
 
 /// a0 + a1·u in Q16, at most one.
-fn fraction((a0, a1): (u32, u32), u: u32) -> u32 {
-    (a0 + mul16(a1, u)).min(ONE)
+fn fraction(f: Frac, u: u32) -> u32 {
+    (f.a0() + mul16(f.a1(), u)).min(ONE)
 }
 
 /// `a·b / 2^16` rounded, for a, b ≤ 2^16 (when a < 2^16, a·b + 2^15 < 2^32).
@@ -179,9 +212,9 @@ impl Span {
         let w = [n2[0] - p[0], p[0] + n2[1] - p[1], p[1] + n2[2] - p[2], p[2]];
         // dN/du = 3·[−q0, q0 − q1, q1 − q2, q2], q_j = N2_j·a1_j (Q16 → Q13).
         let q = [
-            (mul16(n2[0], self.level3[0].1) >> 3) as i32,
-            (mul16(n2[1], self.level3[1].1) >> 3) as i32,
-            (mul16(n2[2], self.level3[2].1) >> 3) as i32,
+            (mul16(n2[0], self.level3[0].a1()) >> 3) as i32,
+            (mul16(n2[1], self.level3[1].a1()) >> 3) as i32,
+            (mul16(n2[2], self.level3[2].a1()) >> 3) as i32,
         ];
         let dw = [-3 * q[0], 3 * (q[0] - q[1]), 3 * (q[1] - q[2]), 3 * q[2]];
         (w, dw)
@@ -328,8 +361,8 @@ fn outputs(
     // Slopes: accumulators in steps·2^11 per unit u; ×du/dunit, Z per step
     // 2^-e, I8F24 → shift = du_exp − 13 + e.
     let slope = |acc: i32, s: &Span| {
-        let wide = mul_i32_u16_wide(acc, s.du_mantissa);
-        let shift = s.du_exp - 13 + e;
+        let wide = mul_i32_u16_wide(acc, s.du_mantissa as u32);
+        let shift = s.du_exp as i32 - 13 + e;
         let v = if shift >= 0 {
             wide >> shift.min(63)
         } else {

@@ -58,8 +58,9 @@ pub use blob::{BLOB_MAGIC, BLOB_VERSION, BoundaryBuf, TableBuf};
 use super::{Compressibility, CompressibilityFx, ModelRange, ZPoint, ZPointFx};
 use crate::{Error, Gas, Real, fx};
 
-/// Most spans per axis (knots − 1).
-pub const MAX_SPANS: usize = 48;
+/// Most spans per axis (knots − 1). A prepared model keeps 32 bytes per span
+/// in RAM.
+pub const MAX_SPANS: usize = 40;
 /// Most knots per axis.
 pub const MAX_KNOTS: usize = MAX_SPANS + 1;
 /// Most coefficients of one table (2 KiB of `u16`).
