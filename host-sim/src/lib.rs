@@ -7,7 +7,7 @@
 //! * [`content`] — the content report of `isochor content` (both core paths).
 //! * [`eos`] — the reference equations of state (f64, host only).
 //! * [`model`] — building and checking device gas models.
-//! * [`reference`] — the reference equation of state as a gas model.
+//! * [`reference`](mod@reference) — the reference equation of state as a gas model.
 //! * [`safety`] — the cautions printed with every human-readable result.
 //! * [`cli`] — argument parsing and the commands.
 

@@ -315,7 +315,7 @@ pub fn blob(t: &TableBuf) -> Result<Vec<u8>, Error> {
 }
 
 /// Checks a table against the reference equation on the grid of
-/// [`fit::Samples::new_offset`] (0.5 K × p_max/1000, offset from the sample
+/// `fit::Samples::new_offset` (0.5 K × p_max/1000, offset from the sample
 /// nodes), fixed point and float.
 pub fn check(table: &isochor_core::model::device::Table<'_>) -> Result<CheckReport, Error> {
     let r = table.range();
