@@ -70,6 +70,9 @@ pub enum Error {
     Malformed(&'static str),
     /// Stored or received bytes fail their CRC-32C check.
     ChecksumMismatch,
+    /// A device gas-model table or blob is malformed, corrupt or of an
+    /// unsupported version; the text says what was wrong.
+    ModelData(&'static str),
 }
 
 impl fmt::Display for Error {
@@ -100,6 +103,7 @@ impl fmt::Display for Error {
             Error::BlobCrc => f.write_str("gas-model blob CRC-32C mismatch"),
             Error::Malformed(what) => write!(f, "malformed data: {what}"),
             Error::ChecksumMismatch => f.write_str("checksum mismatch (corrupt data)"),
+            Error::ModelData(what) => write!(f, "gas-model table refused: {what}"),
         }
     }
 }

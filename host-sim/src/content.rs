@@ -5,17 +5,24 @@
 //! formats. The JSON field names are an interface (other tools read them):
 //! keep them stable.
 
+use crate::reference::ReferenceModel;
 use crate::{Error, safety, units};
 use isochor_core::content::{fixed, float};
-use isochor_core::model::{Compressibility, CompressibilityFx, Ideal};
+use isochor_core::model::{Compressibility, CompressibilityFx, DeviceModel, Ideal};
 use isochor_core::{Gas, Setup, SetupFx, StandardCondition, Status, Tank, fx};
 use serde::Serialize;
 
 /// Which gas model to use.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, clap::ValueEnum)]
 pub enum ModelChoice {
     /// The ideal gas (Z = 1).
     Ideal,
+    /// The reference equation of state (host only; the fixed-point side runs
+    /// the device arithmetic on its answers).
+    Reference,
+    /// The built-in device table of the gas (what a device runs).
+    #[default]
+    Device,
 }
 
 impl ModelChoice {
@@ -23,6 +30,8 @@ impl ModelChoice {
     pub fn name(self) -> &'static str {
         match self {
             ModelChoice::Ideal => "ideal",
+            ModelChoice::Reference => "reference",
+            ModelChoice::Device => "device",
         }
     }
 }
@@ -72,7 +81,8 @@ pub struct TankReport {
     pub rated_mass_kg: f64,
 }
 
-/// The standard condition.
+/// The standard condition, and the content by the reference equation of
+/// state when it applies.
 #[derive(Clone, Debug, Serialize)]
 pub struct ReferenceReport {
     /// Its name (`iso13443`, `normal`, `ntp`, `60f` or `custom`).
@@ -81,6 +91,11 @@ pub struct ReferenceReport {
     pub temperature_k: f64,
     /// Absolute pressure, Pa.
     pub pressure_pa: f64,
+    /// The content by the reference equation of state (f64 estimate), with the
+    /// same field names as `fixed` and `float`; absent when the reference
+    /// estimate cannot be prepared (e.g. a two-phase rated condition).
+    #[serde(flatten)]
+    pub eos: Option<Outputs>,
 }
 
 /// The outputs of one path. Content values are `null` when the status says
@@ -156,11 +171,43 @@ pub struct ContentReport {
     pub caution: String,
 }
 
-/// Runs one sample through both paths.
+/// Runs one sample through both paths, and through the reference equation.
 pub fn report(req: &ContentRequest) -> Result<ContentReport, Error> {
-    match req.model {
-        ModelChoice::Ideal => run(req, Ideal::new(req.gas), Ideal::new(req.gas)),
-    }
+    let mut r = match req.model {
+        ModelChoice::Ideal => run(req, Ideal::new(req.gas), Ideal::new(req.gas))?,
+        ModelChoice::Reference => {
+            let m = ReferenceModel::new(req.gas);
+            run(req, m.clone(), m)?
+        }
+        ModelChoice::Device => {
+            let m = DeviceModel::builtin(req.gas)?;
+            run(req, m.clone(), m)?
+        }
+    };
+    r.reference.eos = reference_outputs(req);
+    Ok(r)
+}
+
+/// The f64 estimate with the reference equation of state.
+fn reference_outputs(req: &ContentRequest) -> Option<Outputs> {
+    let setup = Setup {
+        gas: req.gas,
+        tank: req.tank,
+        standard: req.standard.1,
+        settled_reference_k: req.settled_reference_k,
+    };
+    let est = float::Estimator::new(setup, ReferenceModel::new(req.gas)).ok()?;
+    let a = est.estimate(req.pressure_pa, req.temperature_k).ok()?;
+    Some(Outputs::new(
+        a.density_kg_m3,
+        a.mass_kg,
+        a.amount_mol,
+        a.standard_volume_m3,
+        a.settled_pressure_pa,
+        a.fill_fraction,
+        a.z.z,
+        a.status,
+    ))
 }
 
 fn run<MF, MX>(
@@ -217,6 +264,7 @@ where
             name: req.standard.0.clone(),
             temperature_k: req.standard.1.temperature_k,
             pressure_pa: req.standard.1.pressure_pa,
+            eos: None,
         },
         settled_reference_k: req.settled_reference_k,
         fixed: Outputs::new(
@@ -268,64 +316,83 @@ pub fn render_text(r: &ContentReport) -> String {
         units::fmt_bar(r.sample.pressure_pa),
         units::fmt_celsius(r.sample.temperature_k)
     );
+    let eos = r.reference.eos.as_ref();
     let _ = writeln!(
         s,
-        "  {:<18} {:>22} {:>22}",
-        "", "fixed point (device)", "f64 reference"
+        "  {:<18} {:>22} {:>22} {:>22}",
+        "",
+        format!("fixed point ({})", r.model),
+        format!("f64 ({})", r.model),
+        if eos.is_some() { "reference EOS" } else { "" }
     );
-    let row = |s: &mut String, name: &str, a: Option<String>, b: Option<String>| {
+    let row = |s: &mut String,
+               name: &str,
+               a: Option<String>,
+               b: Option<String>,
+               c: Option<Option<String>>| {
         let na = || "not valid".to_string();
         let _ = writeln!(
             s,
-            "  {:<18} {:>22} {:>22}",
+            "  {:<18} {:>22} {:>22} {:>22}",
             name,
             a.unwrap_or_else(na),
-            b.unwrap_or_else(na)
+            b.unwrap_or_else(na),
+            c.map(|c| c.unwrap_or_else(na)).unwrap_or_default()
         );
     };
     let (f, x) = (&r.fixed, &r.float);
     let num = |v: Option<f64>, unit: &str, prec: usize| v.map(|v| format!("{v:.prec$} {unit}"));
+    let third = |g: &dyn Fn(&Outputs) -> Option<String>| eos.map(g);
     row(
         &mut s,
         "density",
         num(f.density_kg_m3, "kg/m³", 4),
         num(x.density_kg_m3, "kg/m³", 4),
+        third(&|o| num(o.density_kg_m3, "kg/m³", 4)),
     );
     row(
         &mut s,
         "mass",
         num(f.mass_kg, "kg", 4),
         num(x.mass_kg, "kg", 4),
+        third(&|o| num(o.mass_kg, "kg", 4)),
     );
     row(
         &mut s,
         "amount",
         num(f.amount_mol, "mol", 3),
         num(x.amount_mol, "mol", 3),
+        third(&|o| num(o.amount_mol, "mol", 3)),
     );
     row(
         &mut s,
         "standard volume",
         num(f.standard_volume_m3, "m³", 4),
         num(x.standard_volume_m3, "m³", 4),
+        third(&|o| num(o.standard_volume_m3, "m³", 4)),
     );
+    let bar = |v: Option<f64>| v.map(|p| units::fmt_bar(p) + " abs");
     row(
         &mut s,
         "settled pressure",
-        f.settled_pressure_pa.map(|p| units::fmt_bar(p) + " abs"),
-        x.settled_pressure_pa.map(|p| units::fmt_bar(p) + " abs"),
+        bar(f.settled_pressure_pa),
+        bar(x.settled_pressure_pa),
+        third(&|o| bar(o.settled_pressure_pa)),
     );
+    let pct = |v: Option<f64>| v.map(|v| format!("{:.3} %", v * 100.0));
     row(
         &mut s,
         "fill fraction",
-        f.fill_fraction.map(|v| format!("{:.3} %", v * 100.0)),
-        x.fill_fraction.map(|v| format!("{:.3} %", v * 100.0)),
+        pct(f.fill_fraction),
+        pct(x.fill_fraction),
+        third(&|o| pct(o.fill_fraction)),
     );
     row(
         &mut s,
-        "Z",
+        "Z (CODATA R)",
         Some(format!("{:.6}", f.z)),
         Some(format!("{:.6}", x.z)),
+        third(&|o| Some(format!("{:.6}", o.z))),
     );
     let status = |v: &[String]| {
         if v.is_empty() {
@@ -339,6 +406,7 @@ pub fn render_text(r: &ContentReport) -> String {
         "status",
         Some(status(&f.status)),
         Some(status(&x.status)),
+        third(&|o| Some(status(&o.status))),
     );
     let _ = writeln!(
         s,

@@ -29,14 +29,48 @@ pub enum Error {
     /// The device refused a request.
     #[error("device refused: {0}")]
     Refused(String),
+    /// A state outside the declared range of a reference equation of state.
+    #[error("{0}")]
+    EosRange(String),
+    /// A liquid or two-phase state, where the reference equation of state is
+    /// not evaluated on the gas branch.
+    #[error("{0}")]
+    TwoPhase(String),
+    /// Committed equation-of-state data could not be read.
+    #[error("equation-of-state data: {0}")]
+    EosData(String),
+    /// An iteration did not converge.
+    #[error("{0}")]
+    NoConvergence(String),
+    /// A file could not be read or written.
+    #[error("{path}: {reason}")]
+    File {
+        /// The file.
+        path: String,
+        /// What went wrong.
+        reason: String,
+    },
+    /// A gas model could not be built to the requested accuracy and size.
+    #[error("model build: {0}")]
+    Build(String),
 }
 
 impl Error {
     /// The process exit code for this error: 2 for bad input, 1 otherwise.
     pub fn exit_code(&self) -> u8 {
         match self {
-            Error::Quantity { .. } | Error::Invalid(_) | Error::Core(_) => 2,
-            Error::Output(_) | Error::Link(_) | Error::Refused(_) => 1,
+            Error::Quantity { .. }
+            | Error::Invalid(_)
+            | Error::Core(_)
+            | Error::EosRange(_)
+            | Error::TwoPhase(_) => 2,
+            Error::Output(_)
+            | Error::Link(_)
+            | Error::Refused(_)
+            | Error::EosData(_)
+            | Error::NoConvergence(_)
+            | Error::File { .. }
+            | Error::Build(_) => 1,
         }
     }
 }

@@ -6,14 +6,20 @@
 //! * [`units`] — parsing of quantities with units (`200bar`, `35C`, `50L`).
 //! * [`content`] — the content report of `isochor content` (both core paths).
 //! * [`link`] — the serial link: transports, client, emulated device, views.
+//! * [`eos`] — the reference equations of state (f64, host only).
+//! * [`model`] — building and checking device gas models.
+//! * [`reference`](mod@reference) — the reference equation of state as a gas model.
 //! * [`safety`] — the cautions printed with every human-readable result.
 //! * [`sensor`] — sensor option parsing and the least-squares calibration fit.
 //! * [`cli`] — argument parsing and the commands.
 
 pub mod cli;
 pub mod content;
+pub mod eos;
 mod error;
 pub mod link;
+pub mod model;
+pub mod reference;
 pub mod safety;
 pub mod sensor;
 pub mod units;

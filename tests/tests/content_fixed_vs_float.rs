@@ -6,7 +6,7 @@
 //! up to 1e-5 of the value at 1 bar).
 
 use isochor_core::model::Ideal;
-use isochor_core::{Gas, Setup, StandardCondition, Tank, envelope as env, fx};
+use isochor_core::{Gas, Setup, StandardCondition, Status, Tank, envelope as env, fx};
 use isochor_tests::{ErrorStats, compare_at, estimators, pressure_grid, temperature_grid};
 use proptest::prelude::*;
 
@@ -156,5 +156,82 @@ proptest! {
         }
         stats.assert_within(BOUND, "random");
         prop_assert_eq!(stats.status_mismatches, 0);
+    }
+}
+
+/// Bound of the fixed-point estimate against the f64 estimate with the same
+/// device model: the model's fixed-point evaluation differs from its f64
+/// evaluation by up to half a coefficient step (≤ 2^-16 in Z, see
+/// core/src/model/device/fixed.rs), on top of the estimator's 1e-5.
+const DEVICE_BOUND: f64 = 5e-5;
+
+#[test]
+fn device_models_dense_grid_every_gas() {
+    use isochor_core::model::DeviceModel;
+    let pressures = pressure_grid(100, 40);
+    let temperatures = temperature_grid(5.0);
+    let mut all = ErrorStats::default();
+    let mut compared = 0u64;
+    let mut differ = 0u64;
+    for gas in Gas::ALL {
+        let model = DeviceModel::builtin(gas).unwrap();
+        // Rated at a state every table covers as gas: 5 bar at 15 °C for the
+        // liquefiable gases, service pressures for the others.
+        let tanks = if gas.liquefiable_in_envelope() && gas != Gas::Krypton {
+            vec![Tank::new(0.05, 5e5), Tank::new(1.0, 3e5)]
+        } else {
+            vec![Tank::new(0.05, 200e5), Tank::new(0.12, 700e5)]
+        };
+        for (i, tank) in tanks.into_iter().enumerate() {
+            let setup = Setup::new(gas, tank);
+            let (fixed_est, float_est) = estimators(&setup, model.clone(), model.clone());
+            let mut stats = ErrorStats::default();
+            for &p in &pressures {
+                for &t in &temperatures {
+                    let pf = fx::Pressure::from_num(p);
+                    let tf = fx::Temperature::from_num(t);
+                    let a = fixed_est.estimate(pf, tf);
+                    let b = float_est.estimate(fx::to_f64(pf), fx::to_f64(tf)).unwrap();
+                    // Values are compared where both paths call them valid and
+                    // agree on the model's flags (the boundary curves of
+                    // liquefiable gases are evaluated in each arithmetic).
+                    let edge = isochor_tests::BOUNDARY_FLAGS;
+                    // Where either path calls the state invalid (outside the
+                    // table, liquid or two-phase, now or settled), the solver's
+                    // not_converged may differ and nothing is shown as valid.
+                    let invalid =
+                        Status::MODEL_OUT_OF_RANGE | Status::TWO_PHASE | Status::SETTLED_TWO_PHASE;
+                    let either_invalid =
+                        a.status.intersects(invalid) || b.status.intersects(invalid);
+                    if a.status.without(edge) != b.status.without(edge) {
+                        if !either_invalid {
+                            differ += 1;
+                        }
+                        continue;
+                    }
+                    if !a.status.without(edge).is_ok() {
+                        continue;
+                    }
+                    compare_at(&mut stats, &fixed_est, &float_est, pf, tf);
+                    compared += 1;
+                }
+            }
+            stats.assert_within(DEVICE_BOUND, &format!("{gas} device tank #{i}"));
+            all.merge(&stats);
+        }
+    }
+    assert!(compared > 50_000, "{compared}");
+    // Status words differ only for samples within rounding of a flag's edge
+    // (table range, boundary curves, the solver's stopping rule).
+    assert!(
+        differ * 1000 < compared,
+        "{differ} of {compared} status words differ"
+    );
+    eprintln!(
+        "device models, fixed vs f64 over {} samples ({differ} with different status):",
+        all.samples
+    );
+    for (q, w) in isochor_tests::QUANTITIES.iter().zip(all.worst) {
+        eprintln!("  {q:<20} {w:.2e}");
     }
 }

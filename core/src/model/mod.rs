@@ -13,8 +13,10 @@
 //! ([`Status::MODEL_OUT_OF_RANGE`], [`Status::TWO_PHASE`]); it never fails.
 //! Models are per gas: one value answers for one gas.
 
+pub mod device;
 mod ideal;
 
+pub use device::DeviceModel;
 pub use ideal::Ideal;
 
 use crate::{Gas, Real, Status, fx};

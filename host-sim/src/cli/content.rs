@@ -44,8 +44,9 @@ pub struct ContentArgs {
     /// 14.696 psia), or TEMPERATURE,PRESSURE such as 25C,100kPa.
     #[arg(long, default_value = "iso13443", allow_hyphen_values = true)]
     pub standard: String,
-    /// Gas model.
-    #[arg(long, value_enum, default_value_t = ModelChoice::Ideal)]
+    /// Gas model: device (the built-in table a device runs), reference (the
+    /// reference equation of state) or ideal.
+    #[arg(long, value_enum, default_value_t = ModelChoice::Device)]
     pub model: ModelChoice,
     /// Elastic volume expansion of the vessel per bar of pressure (e.g. 1.2e-5).
     #[arg(long, default_value = "0", allow_hyphen_values = true)]
@@ -83,11 +84,11 @@ pub fn parse_standard(s: &str) -> Result<(String, StandardCondition), Error> {
     ))
 }
 
-/// Turns the arguments into a request (all validation of units and signs).
-pub fn request(a: &ContentArgs) -> Result<ContentRequest, Error> {
-    let gas = Gas::from_name(&a.gas).map_err(|_| Error::Quantity {
+/// Parses `--gas`.
+pub fn parse_gas(name: &str) -> Result<Gas, Error> {
+    Gas::from_name(name).map_err(|_| Error::Quantity {
         what: "--gas",
-        input: a.gas.clone(),
+        input: name.to_string(),
         reason: format!(
             "unknown gas (known: {})",
             Gas::ALL
@@ -96,7 +97,12 @@ pub fn request(a: &ContentArgs) -> Result<ContentRequest, Error> {
                 .collect::<Vec<_>>()
                 .join(", ")
         ),
-    })?;
+    })
+}
+
+/// Turns the arguments into a request (all validation of units and signs).
+pub fn request(a: &ContentArgs) -> Result<ContentRequest, Error> {
+    let gas = parse_gas(&a.gas)?;
     let barometric = if a.gauge {
         let b = units::pressure_pa(&a.barometric, "--barometric")?;
         if !(50e3..=110e3).contains(&b) {

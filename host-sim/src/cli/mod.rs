@@ -3,6 +3,8 @@
 
 mod content;
 mod listen;
+mod model;
+mod props;
 mod send;
 mod sensor;
 
@@ -30,6 +32,10 @@ pub enum Command {
     /// Sensor front-ends: convert single values both ways, fit a calibration,
     /// read back a calibration record.
     Sensor(sensor::SensorArgs),
+    /// Reference equation of state at one pressure and temperature.
+    Props(props::PropsArgs),
+    /// Build or check device gas models (compact tables for the device).
+    Model(model::ModelArgs),
 }
 
 /// Output format shared by the commands.
@@ -65,6 +71,8 @@ pub fn run(cli: Cli) -> Result<String, crate::Error> {
         Command::Listen(args) => listen::run(&args),
         Command::Send(args) => send::run(&args),
         Command::Sensor(args) => sensor::run(&args),
+        Command::Props(args) => props::run(&args),
+        Command::Model(args) => model::run(&args),
     }
 }
 
