@@ -7,6 +7,8 @@
 //!   0 … 16 rated contents, 3.7e-9 resolution); fits and rates in `i64` Q36;
 //! * smoothing states: the input's raw bits with 16 more fraction bits, and
 //!   α in Q16 (α = Δt/(τ + Δt), recomputed only when Δt changes);
+//! * block temperatures (the smoothing state at each block's close): K in
+//!   Q23 (`u32`, below 512 K); their slope and curvature Q32 (K/h, K/h²);
 //! * rates leave as `I32F32` (kg/h, m³/h, fraction per day).
 //!
 //! # Cost
