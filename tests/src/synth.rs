@@ -15,7 +15,7 @@
 //! * temperature sensor: first order towards the *wall*, i.e. towards the
 //!   ambient-following gas temperature without the fill excess (a sensor on
 //!   the outside of the vessel does not see the hot gas core), plus its lag,
-//!   offset and noise;
+//!   offset, gain error and noise;
 //! * mass: a relative leak (fraction of content per day, exponential decay),
 //!   a constant draw in kg/h, and fills that add mass linearly over their
 //!   duration;
@@ -57,6 +57,9 @@ pub struct SensorErrors {
     pub p_noise_pa: f64,
     /// Temperature offset, K.
     pub t_offset_k: f64,
+    /// Temperature gain error about 0 °C (relative): the reading gains
+    /// `t_gain × (T − 273.15 K)`.
+    pub t_gain: f64,
     /// Temperature noise, standard deviation, K.
     pub t_noise_k: f64,
     /// Temperature sensor lag behind the wall, s.
@@ -177,6 +180,7 @@ impl Scenario {
                 p_gain: 0.001,
                 p_noise_pa: 0.05e5,
                 t_offset_k: 0.3,
+                t_gain: 0.0,
                 t_noise_k: 0.05,
                 t_lag_s: 600.0,
             },
@@ -294,7 +298,10 @@ impl Iterator for Series {
         let s = self.sc.sensors;
         let p_read =
             p_true * (1.0 + s.p_gain) + s.p_offset_pa + s.p_noise_pa * normal(&mut self.rng);
-        let t_read = self.sensor_t + s.t_offset_k + s.t_noise_k * normal(&mut self.rng);
+        let t_read = self.sensor_t
+            + s.t_offset_k
+            + s.t_gain * (self.sensor_t - 273.15)
+            + s.t_noise_k * normal(&mut self.rng);
         self.t_ms += self.sc.dt_ms;
         Some(Sample {
             t_ms: t,

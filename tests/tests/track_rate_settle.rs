@@ -4,10 +4,11 @@
 
 use isochor_core::alarm::AlarmKind;
 use isochor_core::fx;
+use isochor_core::model::Ideal;
 use isochor_core::track::float::TrackConfig;
 use isochor_core::uncertainty::float::UncertaintyConfig;
 use isochor_tests::synth::{Fill, HOUR_MS, Scenario, rated_mass};
-use isochor_tests::tracking::{run, tank_of};
+use isochor_tests::tracking::{RateScore, run, tank_of};
 
 fn config(sc: &Scenario) -> TrackConfig {
     TrackConfig::for_tank(&tank_of(sc), UncertaintyConfig::example(300e5))
@@ -24,10 +25,11 @@ fn rate_and_time_to_empty_under_a_steady_draw() {
     sc.duration_ms = 22 * HOUR_MS;
     let cfg = config(&sc);
     let reserve_kg = cfg.reserve_fraction * m_rated;
-    let (mut n, mut worst_rate, mut sq_rate, mut worst_tte, mut covered) =
-        (0u64, 0.0, 0.0, 0.0f64, 0u64);
+    let (mut n, mut worst_rate, mut sq_rate, mut worst_tte) = (0u64, 0.0, 0.0, 0.0f64);
     let mut first_rate_at = None;
+    let mut score = RateScore::default();
     let agree = run(&sc, &cfg, |s, a, _| {
+        score.add(s, sc.draw_kg_h, reserve_kg, a.rate, a.time_to_empty);
         // Judge once a minute, from a full window on (32 min).
         if s.t_ms % 60_000 != 0 {
             return;
@@ -41,9 +43,6 @@ fn rate_and_time_to_empty_under_a_steady_draw() {
             worst_rate = f64::max(worst_rate, e.abs());
             sq_rate += e * e;
             n += 1;
-            if (fx::to_f64(r.kg_h) - sc.draw_kg_h).abs() <= fx::to_f64(r.u_kg_h) {
-                covered += 1;
-            }
             let truth_ms = (s.mass_kg - reserve_kg) / sc.draw_kg_h * HOUR_MS as f64;
             let t = a.time_to_empty.expect("a consumption has a time to empty");
             let err_min = (t.expected.0 as f64 - truth_ms).abs() / 60_000.0;
@@ -55,13 +54,15 @@ fn rate_and_time_to_empty_under_a_steady_draw() {
     });
     let rms = (sq_rate / n as f64).sqrt();
     println!(
-        "steady draw 4 %/h with ±15 K swing: first rate after {} min; rate error worst {:.2} %, rms {:.2} %; U(rate) k=2 covers {:.0} % of minutes; time to empty worst {:.2} % of the time left; {}",
+        "steady draw 4 %/h with ±15 K swing: first rate after {} min; rate error worst {:.2} %, rms {:.2} %; time to empty worst {:.2} % of the time left; {}; {}; tracker state {} bytes (fixed), {} bytes (f64)",
         first_rate_at.unwrap_or(0) / 60_000,
         worst_rate * 100.0,
         rms * 100.0,
-        covered as f64 / n as f64 * 100.0,
         worst_tte * 100.0,
-        agree.summary()
+        score.summary(),
+        agree.summary(),
+        core::mem::size_of::<isochor_core::track::fixed::Tracker<Ideal>>(),
+        core::mem::size_of::<isochor_core::track::float::Tracker<f64, Ideal>>(),
     );
     assert!(n > 1000);
     // The 10-min lag of the temperature sensor behind the wall leaves a bias
@@ -70,6 +71,30 @@ fn rate_and_time_to_empty_under_a_steady_draw() {
     assert!(worst_rate < 0.05, "rate error {worst_rate}");
     assert!(rms < 0.015, "rate rms error {rms}");
     assert!(worst_tte < 0.05, "time to empty error {worst_tte}");
+    // The k = 2 interval (first-order GUM, crate::uncertainty): this
+    // instrument's sensor lags by 10 min, exactly the declared standard
+    // uncertainty of the lag (UncertaintyConfig::example), so the dominant
+    // systematic part sits at one standard uncertainty and the interval holds
+    // the truth in nearly every minute; that the budget is not inflated shows
+    // in the median U against the rms error (2 for an honest normal budget).
+    // The population test (track_rate_uncertainty) checks the 95 %.
+    assert_eq!(score.minutes, n);
+    assert!(
+        (0.90..=1.0).contains(&score.coverage()),
+        "U(rate) coverage {}",
+        score.coverage()
+    );
+    assert!(
+        score.median_u() < 2.5 * score.rms(),
+        "U(rate) too wide: median {} against rms error {}",
+        score.median_u(),
+        score.rms()
+    );
+    assert!(
+        (0.90..=1.0).contains(&score.tte_coverage()),
+        "time-to-empty bounds coverage {}",
+        score.tte_coverage()
+    );
     agree.assert_close("steady draw");
 }
 

@@ -7,6 +7,8 @@
 //!   0 … 16 rated contents, 3.7e-9 resolution); fits and rates in `i64` Q36;
 //! * smoothing states: the input's raw bits with 16 more fraction bits, and
 //!   α in Q16 (α = Δt/(τ + Δt), recomputed only when Δt changes);
+//! * block temperatures (the smoothing state at each block's close): K in
+//!   Q23 (`u32`, below 512 K); their slope and curvature Q32 (K/h, K/h²);
 //! * rates leave as `I32F32` (kg/h, m³/h, fraction per day).
 //!
 //! # Cost
@@ -18,15 +20,19 @@
 //! sample unless the sample interval changed (then two 64/32 divisions for
 //! α). Per block (default once a minute): one 64/32 division for the block
 //! mean, the least-squares fits (about 100 multiply-adds, two 64-bit
-//! divisions, two integer square roots), the uncertainty (one 64/32
-//! division, two square roots) and two runs of the bounded pressure solver
-//! (over-pressure reference and settled prediction). Per hour: two 128-bit
-//! divisions for the reported leak rates.
+//! divisions, two integer square roots), the autocorrelation of the rate
+//! fit's residuals (32 more multiply-adds, one 64-bit and one 128-bit
+//! division), the temperature parabola (≤ 64 multiply-adds, one 64-bit and
+//! three 128-bit divisions), the uncertainty (one 64/32 division, two square
+//! roots), the rate budget (one 64-bit and one 128-bit division, about forty
+//! wide multiplies, three square roots) and two runs of the bounded pressure
+//! solver (over-pressure reference and settled prediction). Per hour: two
+//! 128-bit divisions for the reported leak rates.
 
 use super::float::TrackConfig;
 use super::{
     DAY_HOURS, HOUR_MS, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
-    SETTLE_WINDOW, validate_timing,
+    SETTLE_WINDOW, TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -34,7 +40,9 @@ use crate::content::fixed::{Content, Estimator};
 use crate::fx::{self, Coef};
 use crate::model::CompressibilityFx;
 use crate::time::{Instant, Millis};
-use crate::uncertainty::fixed::{EvaluatorFx, UncertaintyConfigFx, UncertaintyFx, isqrt};
+use crate::uncertainty::fixed::{
+    EvaluatorFx, QT_MEAN, RateWindowFx, UncertaintyConfigFx, UncertaintyFx, isqrt,
+};
 use crate::{Error, Status};
 
 pub use super::float::TimeToEmpty;
@@ -248,8 +256,20 @@ struct Fit {
     mean: i64,
     /// Per block.
     slope: i64,
-    /// Standard error of the slope, per block.
+    /// Standard error of the slope, per block, corrected for the lag-1
+    /// autocorrelation of the residuals.
     se: i64,
+}
+
+/// Level, slope and curvature of the block temperatures over a window.
+#[derive(Clone, Copy, Debug)]
+struct TemperatureFit {
+    /// Mean, K, Q23.
+    mean: u32,
+    /// dT/dt at the rate window's centre, K/h, Q32.
+    slope_per_h: i64,
+    /// d²T/dt², K/h², Q32.
+    curvature_per_h2: i64,
 }
 
 /// The tracker: all state of the pipeline for one tank (fixed-point form).
@@ -284,6 +304,10 @@ pub struct Tracker<M> {
     block_n: u32,
     ring: [u32; RATE_WINDOW],
     ring_len: usize,
+    /// Smoothed temperature at each block's close, K, Q23 (the last
+    /// `ring_len` beside `ring`, and up to as many before), and how many.
+    t_ring: [u32; TEMPERATURE_WINDOW],
+    t_len: usize,
     prev_block: Option<u32>,
     // Leak.
     hour_sum: u64,
@@ -310,7 +334,17 @@ impl<M: CompressibilityFx> Tracker<M> {
     /// the configuration happen here.
     pub fn new(est: Estimator<M>, cfg: TrackConfigFx) -> Result<Self, Error> {
         cfg.validate()?;
-        let unc = EvaluatorFx::new(cfg.uncertainty, &est)?;
+        let unc = EvaluatorFx::new(
+            UncertaintyConfigFx {
+                temperature_lag: effective_lag(
+                    cfg.uncertainty.temperature_lag,
+                    cfg.smoothing_pressure,
+                    cfg.smoothing_temperature,
+                ),
+                ..cfg.uncertainty
+            },
+            &est,
+        )?;
         let tank = est.setup().tank;
         let rated = est.estimate(tank.rated_pressure_pa, tank.rated_temperature_k);
         let rated_mass = Coef::from_raw(est.rated_mass_kg().to_bits(), 40);
@@ -362,6 +396,8 @@ impl<M: CompressibilityFx> Tracker<M> {
             block_sum: 0,
             block_n: 0,
             ring: [0; RATE_WINDOW],
+            t_ring: [0; TEMPERATURE_WINDOW],
+            t_len: 0,
             ring_len: 0,
             prev_block: None,
             hour_sum: 0,
@@ -502,6 +538,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.block_sum = 0;
             self.block_n = 0;
             self.ring_len = 0;
+            self.t_len = 0;
             self.rate = None;
             self.tte = None;
             self.reset_leak();
@@ -586,6 +623,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 self.predicted = None;
                 if step > 0 {
                     self.ring_len = 0;
+                    self.t_len = 0;
                     self.rate = None;
                     self.tte = None;
                 }
@@ -598,9 +636,17 @@ impl<M: CompressibilityFx> Tracker<M> {
         if let Some(last) = self.ring.last_mut() {
             *last = mean;
         }
+        self.t_ring.rotate_left(1);
+        if let Some(last) = self.t_ring.last_mut() {
+            // Q32 (raw U16F16 bits + 16) → Q23; below 512 K for any valid
+            // estimate.
+            let t = fx::shr_round_i64(self.t_smooth, 16 + 16 - QT_MEAN);
+            *last = t.clamp(0, u32::MAX as i64) as u32;
+        }
         self.ring_len = (self.ring_len + 1).min(RATE_WINDOW);
+        self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
-        self.rate_and_time_to_empty();
+        self.rate_and_time_to_empty(content);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(mean);
         self.uncertainty = Some(self.unc.evaluate(content));
@@ -612,7 +658,7 @@ impl<M: CompressibilityFx> Tracker<M> {
     }
 
     /// Rate and time to empty from the window.
-    fn rate_and_time_to_empty(&mut self) {
+    fn rate_and_time_to_empty(&mut self, content: &Content) {
         let n = self.ring_len.min(RATE_WINDOW);
         if n < RATE_MIN_BLOCKS {
             self.rate = None;
@@ -620,9 +666,31 @@ impl<M: CompressibilityFx> Tracker<M> {
             return;
         }
         let fit = self.fit(n);
+        let temp = self.temperature_fit(n, self.t_len);
         let bph = self.blocks_per_hour as i64;
         let per_h = -fit.slope * bph;
-        let u_per_h = 2 * fit.se * bph;
+        // Fitted value at the window's end: mean + slope·(n − 1)/2.
+        let end = fit.mean + fx::shr_round_i64(fit.slope * (n as i64 - 1), 1);
+        let reserve = (self.cfg.reserve_fraction.to_bits() << (QF - 32)) as i64;
+        let left = end - reserve;
+        // Standard uncertainties of the rate and of the content the time to
+        // empty counts down from (crate::uncertainty), Q36.
+        let budget = self.unc.rate(
+            content,
+            &RateWindowFx {
+                slope_per_h: fit.slope * bph,
+                u_fit_per_h: (fit.se * bph).unsigned_abs(),
+                fill_fraction: fit.mean,
+                temperature: temp.mean,
+                dt_per_h: temp.slope_per_h,
+                d2t_per_h2: temp.curvature_per_h2,
+                left_fraction: left,
+                reserve_fraction: reserve,
+                blocks: n as u32,
+                blocks_per_hour: self.blocks_per_hour,
+            },
+        );
+        let u_per_h = budget.rate_per_h.saturating_mul(2).min(i64::MAX as u64) as i64;
         let confidence = if per_h != 0 {
             let mag = per_h.unsigned_abs();
             let u = u_per_h.unsigned_abs();
@@ -642,18 +710,20 @@ impl<M: CompressibilityFx> Tracker<M> {
             confidence: fx::Fraction::from_bits(confidence),
             blocks: n as u32,
         });
-        // Fitted value at the window's end: mean + slope·(n − 1)/2.
-        let end = fit.mean + fx::shr_round_i64(fit.slope * (n as i64 - 1), 1);
-        let reserve = (self.cfg.reserve_fraction.to_bits() << (QF - 32)) as i64;
-        let left = end - reserve;
         self.tte = if per_h > 0 && left > 0 {
             // left < 2^41 (Q36, ≤ 16 + margin), × 3.6e6 < 2^63.
             let ms = |rate: i64| Millis((left.min(1 << 41) * HOUR_MS as i64 / rate) as u64);
+            // The bounds: left/(rate ± U) with U the rate spread of the
+            // time to empty's own budget (k = 2).
+            let u_t = budget
+                .time_to_empty_per_h
+                .saturating_mul(2)
+                .min(i64::MAX as u64) as i64;
             Some(TimeToEmpty {
                 expected: ms(per_h),
-                earliest: ms(per_h + u_per_h),
-                latest: if per_h > u_per_h {
-                    Some(ms(per_h - u_per_h))
+                earliest: ms(per_h.saturating_add(u_t)),
+                latest: if per_h > u_t {
+                    Some(ms(per_h - u_t))
                 } else {
                     None
                 },
@@ -796,25 +866,77 @@ impl<M: CompressibilityFx> Tracker<M> {
         let den = ni * (ni * ni - 1);
         let num = (sxy2 as i128) << (QF - Q);
         let slope = div_round_i128(num * 6, den as i128) as i64;
-        // Residuals in Q36; their sum of squares in Q72 (u128).
-        let ssr: u128 = ys
-            .enumerate()
-            .map(|(i, &y)| {
+        // Residuals in Q36; the sums of their squares and of products of
+        // neighbours in Q72.
+        let (ssr, s1, _) = ys.enumerate().fold(
+            (0u128, 0i128, None),
+            |(ssr, s1, prev): (u128, i128, Option<i64>), (i, &y)| {
                 let c = 2 * i as i64 - (ni - 1);
                 let fitted = mean + fx::shr_round_i64(slope * c, 1);
                 let r = ((y as i64) << (QF - Q)) - fitted;
-                (r as i128 * r as i128) as u128
-            })
-            .sum();
-        // SE² = SSR/(n − 2) / Σ(i − ī)² = 12·SSR / ((n − 2)·n·(n² − 1)), Q72.
+                let s1 = prev.map_or(s1, |q| s1 + q as i128 * r as i128);
+                (ssr + (r as i128 * r as i128) as u128, s1, Some(r))
+            },
+        );
+        // SE² = SSR/(n − 2) / Σ(i − ī)² = 12·SSR / ((n − 2)·n·(n² − 1)), Q72,
+        // × (n − 2)/(n_e − 2) for the autocorrelation (see the float form).
         let se = if n > 2 {
             let d = ((ni - 2) * den) as u128;
-            let se2 = (ssr * 12 / d).min(u64::MAX as u128) as u64;
-            isqrt(se2) as i64
+            let rho = if ssr > 0 && s1 > 0 {
+                // s1 ≤ SSR (Cauchy–Schwarz): ρ in Q32, both narrowed to 64 bits.
+                let sh = (128 - ssr.leading_zeros()).saturating_sub(63);
+                let (num, den) = ((s1 as u128 >> sh) as u64, (ssr >> sh) as u64);
+                ratio_q32(num.min(den), den) as i64
+            } else {
+                0
+            };
+            let (up, down) = ((1i64 << 32) + rho, (1i64 << 32) - rho);
+            let f_num = (ni - 2) * up;
+            let f_den = (ni * down - 2 * up).max(up);
+            let se2 = (ssr * 12 / d).saturating_mul(f_num as u128) / f_den as u128;
+            isqrt(se2.min(u64::MAX as u128) as u64) as i64
         } else {
             0
         };
         Fit { mean, slope, se }
+    }
+
+    /// Level, curvature, and slope at the rate window's centre of a parabola
+    /// through the last `m` ≥ `n` block temperatures (Q23), per hour, on the
+    /// orthogonal polynomials of the float form written with integers:
+    /// d = 2i − (m − 1) = 2(i − ī) and
+    /// q = 3d² − (m² − 1) = 12((i − ī)² − (m² − 1)/12).
+    fn temperature_fit(&self, n: usize, m: usize) -> TemperatureFit {
+        let m = m.clamp(n, TEMPERATURE_WINDOW);
+        let ts = self.t_ring.iter().skip(TEMPERATURE_WINDOW - m);
+        let ni = m as i64;
+        let sum: u64 = ts.clone().map(|&t| t as u64).sum();
+        let mean = ((sum + m as u64 / 2) / m as u64).min(u32::MAX as u64) as i64;
+        // Deviations from the mean (Q23, |·| < 2^32): Σd = Σq = 0, so the
+        // sums against them equal those against the temperatures
+        // (|s1| < 2^44, |s2| < 2^52).
+        let (s1, s2) = ts.enumerate().fold((0i64, 0i64), |(s1, s2), (i, &t)| {
+            let dev = t as i64 - mean;
+            let d = 2 * i as i64 - (ni - 1);
+            let q = 3 * d * d - (ni * ni - 1);
+            (s1 + d * dev, s2 + q * dev)
+        });
+        // m(m² − 1) and m(m² − 1)(m² − 4) (< 2^31 for m ≤ 64).
+        let n3 = (ni * (ni * ni - 1)) as i128;
+        let n5 = n3 * (ni * ni - 4) as i128;
+        let bph = self.blocks_per_hour as i128;
+        let up = 1i128 << (32 - QT_MEAN);
+        // Slope 6·s1/n3 per block, plus the curvature 30·s2/n5 per block²
+        // times the (m − n)/2 blocks to the rate window's centre; Q23 → Q32.
+        let (s1, s2) = (s1 as i128, s2 as i128);
+        let slope = div_round_i128(6 * s1 * bph * up, n3)
+            + div_round_i128(15 * s2 * (m - n) as i128 * bph * up, n5);
+        let curvature = div_round_i128(30 * s2 * bph * bph * up, n5);
+        TemperatureFit {
+            mean: mean as u32,
+            slope_per_h: slope.clamp(-(1 << 52), 1 << 52) as i64,
+            curvature_per_h2: curvature.clamp(-(1 << 62), 1 << 62) as i64,
+        }
     }
 }
 

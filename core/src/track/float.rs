@@ -3,14 +3,16 @@
 
 use super::{
     DAY_HOURS, HOUR_MS, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
-    SETTLE_WINDOW, validate_timing,
+    SETTLE_WINDOW, TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::float::{Inputs, LevelInputs, Limits};
 use crate::alarm::{Alarms, DebounceTable, Events};
 use crate::content::float::{Content, Estimator};
 use crate::model::Compressibility;
 use crate::time::{Instant, Millis};
-use crate::uncertainty::float::{Evaluator, Uncertainty, UncertaintyConfig};
+use crate::uncertainty::float::{
+    Evaluator, RateBudget, RateWindow, Uncertainty, UncertaintyConfig,
+};
 use crate::{Error, Real, Status, Tank};
 
 /// Everything the tracker needs besides the estimator, float form.
@@ -212,8 +214,20 @@ struct Fit<F> {
     mean: F,
     /// Per block.
     slope: F,
-    /// Standard error of the slope, per block.
+    /// Standard error of the slope, per block, corrected for the lag-1
+    /// autocorrelation of the residuals.
     se: F,
+}
+
+/// Level, slope and curvature of the block temperatures over a window.
+#[derive(Clone, Copy, Debug)]
+struct TemperatureFit<F> {
+    /// Mean, K.
+    mean: F,
+    /// dT/dt at the rate window's centre, K/h.
+    slope_per_h: F,
+    /// d²T/dt², K/h².
+    curvature_per_h2: F,
 }
 
 /// The tracker: all state of the pipeline for one tank (float form).
@@ -240,6 +254,10 @@ pub struct Tracker<F: Real, M> {
     block_n: u32,
     ring: [F; RATE_WINDOW],
     ring_len: usize,
+    /// Smoothed temperature at each block's close (the last `ring_len`
+    /// beside `ring`, and up to as many before), and how many are in.
+    t_ring: [F; TEMPERATURE_WINDOW],
+    t_len: usize,
     prev_block: Option<F>,
     // Leak.
     hour_sum: F,
@@ -265,7 +283,17 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
     /// A tracker for the tank of `est`, with no history.
     pub fn new(est: Estimator<F, M>, cfg: TrackConfig<F>) -> Result<Self, Error> {
         cfg.validate()?;
-        let unc = Evaluator::new(cfg.uncertainty, &est)?;
+        let unc = Evaluator::new(
+            UncertaintyConfig {
+                temperature_lag: effective_lag(
+                    cfg.uncertainty.temperature_lag,
+                    cfg.smoothing_pressure,
+                    cfg.smoothing_temperature,
+                ),
+                ..cfg.uncertainty
+            },
+            &est,
+        )?;
         let tank = est.setup().tank;
         let rated = est.estimate(tank.rated_pressure_pa, tank.rated_temperature_k)?;
         let rated_mass_kg = est.rated_mass_kg();
@@ -287,6 +315,8 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             block_sum: F::ZERO,
             block_n: 0,
             ring: [F::ZERO; RATE_WINDOW],
+            t_ring: [F::ZERO; TEMPERATURE_WINDOW],
+            t_len: 0,
             ring_len: 0,
             prev_block: None,
             hour_sum: F::ZERO,
@@ -427,6 +457,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.block_sum = F::ZERO;
             self.block_n = 0;
             self.ring_len = 0;
+            self.t_len = 0;
             self.rate = None;
             self.tte = None;
             self.reset_leak();
@@ -505,6 +536,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 if step > F::ZERO {
                     // A fill: the rate starts again.
                     self.ring_len = 0;
+                    self.t_len = 0;
                     self.rate = None;
                     self.tte = None;
                 }
@@ -517,9 +549,14 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         if let Some(last) = self.ring.last_mut() {
             *last = mean;
         }
+        self.t_ring.rotate_left(1);
+        if let Some(last) = self.t_ring.last_mut() {
+            *last = self.t_smooth;
+        }
         self.ring_len = (self.ring_len + 1).min(RATE_WINDOW);
+        self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
-        self.rate_and_time_to_empty();
+        self.rate_and_time_to_empty(content);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(mean);
         self.uncertainty = Some(self.unc.evaluate(content));
@@ -527,7 +564,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
     }
 
     /// Rate and time to empty from the window.
-    fn rate_and_time_to_empty(&mut self) {
+    fn rate_and_time_to_empty(&mut self, content: &Content<F>) {
         let n = self.ring_len.min(RATE_WINDOW);
         if n < RATE_MIN_BLOCKS {
             self.rate = None;
@@ -535,9 +572,31 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             return;
         }
         let fit = self.fit(n);
+        let temp = self.temperature_fit(n, self.t_len);
         let bph = F::lit(self.blocks_per_hour as f64);
         let per_h = -fit.slope * bph;
-        let u_per_h = F::lit(2.0) * fit.se * bph;
+        let end = fit.mean + fit.slope * F::lit((n - 1) as f64 / 2.0);
+        let left = end - self.cfg.reserve_fraction;
+        // Standard uncertainties of the rate (the fit's scatter, the
+        // temperature dynamics and the scale errors) and of the content the
+        // time to empty counts down from (crate::uncertainty).
+        let budget: RateBudget<F> = self.unc.rate(
+            content,
+            &RateWindow {
+                slope_per_h: fit.slope * bph,
+                u_fit_per_h: fit.se * bph,
+                fill_fraction: fit.mean,
+                temperature_k: temp.mean,
+                dt_per_h: temp.slope_per_h,
+                d2t_per_h2: temp.curvature_per_h2,
+                left_fraction: left,
+                reserve_fraction: self.cfg.reserve_fraction,
+                blocks: n as u32,
+                blocks_per_hour: self.blocks_per_hour,
+            },
+        );
+        let two = F::lit(2.0);
+        let u_per_h = two * budget.rate_per_h;
         let confidence = if per_h.abs() > F::ZERO {
             (F::ONE - u_per_h / per_h.abs()).clamp_to(F::ZERO, F::ONE)
         } else {
@@ -551,15 +610,16 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             confidence,
             blocks: n as u32,
         });
-        let end = fit.mean + fit.slope * F::lit((n - 1) as f64 / 2.0);
-        let left = end - self.cfg.reserve_fraction;
         self.tte = if per_h > F::ZERO && left > F::ZERO {
             let ms = |rate: F| Millis((left / rate * F::lit(HOUR_MS as f64)).to_f64() as u64);
+            // The bounds: left/(rate ± U) with U the rate spread of the
+            // time to empty's own budget (k = 2).
+            let u_t = two * budget.time_to_empty_per_h;
             Some(TimeToEmpty {
                 expected: ms(per_h),
-                earliest: ms(per_h + u_per_h),
-                latest: if per_h > u_per_h {
-                    Some(ms(per_h - u_per_h))
+                earliest: ms(per_h + u_t),
+                latest: if per_h > u_t {
+                    Some(ms(per_h - u_t))
                 } else {
                     None
                 },
@@ -677,16 +737,65 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         // Σ(i − ī)² = n(n² − 1)/12.
         let sxx = nf * (nf * nf - F::ONE) / F::lit(12.0);
         let slope = sxy / sxx;
-        let ssr = ys.enumerate().fold(F::ZERO, |a, (i, &y)| {
-            let r = y - mean - slope * (F::lit(i as f64) - centre);
-            a + r * r
-        });
+        // Sum of squared residuals and of products of neighbours.
+        let (ssr, s1, _) = ys.enumerate().fold(
+            (F::ZERO, F::ZERO, None),
+            |(ssr, s1, prev): (F, F, Option<F>), (i, &y)| {
+                let r = y - mean - slope * (F::lit(i as f64) - centre);
+                (ssr + r * r, prev.map_or(s1, |q| s1 + q * r), Some(r))
+            },
+        );
         let se = if n > 2 {
-            (ssr / (nf - F::lit(2.0)) / sxx).sqrt()
+            let two = F::lit(2.0);
+            // Lag-1 autocorrelation ρ of the residuals (0 … 1) and the
+            // effective number of blocks n_e = n(1 − ρ)/(1 + ρ), kept ≥ 3:
+            // SE² × (n − 2)/(n_e − 2).
+            let rho = if ssr > F::ZERO {
+                (s1 / ssr).clamp_to(F::ZERO, F::ONE)
+            } else {
+                F::ZERO
+            };
+            let (up, down) = (F::ONE + rho, F::ONE - rho);
+            let factor = (nf - two) * up / (nf * down - two * up).max(up);
+            (ssr / (nf - two) / sxx * factor).sqrt()
         } else {
             F::ZERO
         };
         Fit { mean, slope, se }
+    }
+
+    /// Level, curvature, and slope at the centre of the rate window (its
+    /// last `n` blocks) of a parabola through the last `m` ≥ `n` block
+    /// temperatures, per hour: least squares on the orthogonal polynomials
+    /// 1, (i − ī) and (i − ī)² − (m² − 1)/12 of equally spaced points. The
+    /// longer window steadies the curvature (its noise falls as m^−2.5).
+    fn temperature_fit(&self, n: usize, m: usize) -> TemperatureFit<F> {
+        let m = m.clamp(n, TEMPERATURE_WINDOW);
+        // The rate window's centre lies (m − n)/2 blocks after this one's.
+        let offset = F::lit((m - n) as f64 / 2.0);
+        let nf = F::lit(m as f64);
+        let centre = F::lit((m as f64 - 1.0) / 2.0);
+        let ts = self.t_ring.iter().skip(TEMPERATURE_WINDOW - m);
+        let mean = ts.clone().fold(F::ZERO, |a, &t| a + t) / nf;
+        let q = (nf * nf - F::ONE) / F::lit(12.0);
+        let (s1, s2) = ts
+            .enumerate()
+            .fold((F::ZERO, F::ZERO), |(s1, s2), (i, &t)| {
+                let d = F::lit(i as f64) - centre;
+                let dev = t - mean;
+                (s1 + d * dev, s2 + (d * d - q) * dev)
+            });
+        // Σ(i − ī)² = n(n² − 1)/12; Σ((i − ī)² − q)² = n(n² − 1)(n² − 4)/180.
+        let n2 = nf * nf;
+        let sxx = nf * (n2 - F::ONE) / F::lit(12.0);
+        let s22 = nf * (n2 - F::ONE) * (n2 - F::lit(4.0)) / F::lit(180.0);
+        let bph = F::lit(self.blocks_per_hour as f64);
+        let curvature = F::lit(2.0) * s2 / s22;
+        TemperatureFit {
+            mean,
+            slope_per_h: (s1 / sxx + curvature * offset) * bph,
+            curvature_per_h2: curvature * bph * bph,
+        }
     }
 }
 
@@ -732,6 +841,8 @@ mod tests {
                 temperature_k: 0.5,
                 capacity: 0.005,
                 model: 0.001,
+                temperature_lag: Millis::from_secs(600),
+                temperature_gain: 0.003,
             },
             limits: Limits {
                 low_fraction: 0.1f32,

@@ -26,14 +26,20 @@
 //!
 //! * The block mean of the fill fraction (mass over rated mass: the
 //!   temperature-compensated content) enters a window of the last
-//!   [`RATE_WINDOW`] block means.
+//!   [`RATE_WINDOW`] block means; the smoothed temperature at the block's
+//!   close enters a window of the last [`TEMPERATURE_WINDOW`].
 //! * **Rate**: least-squares slope over the window (at least
-//!   [`RATE_MIN_BLOCKS`] blocks), with its standard error from the residuals;
-//!   rate in kg/h and standard m³/h, expanded uncertainty U = 2·SE, and a
-//!   confidence 1 − U/|rate| (0 … 1).
+//!   [`RATE_MIN_BLOCKS`] blocks), in kg/h and standard m³/h, with its
+//!   expanded uncertainty U (k = 2) from the budget of
+//!   [`crate::uncertainty`]: the residuals' scatter (widened for their
+//!   autocorrelation), the temperature dynamics (dT/dt and d²T/dt² from a
+//!   parabola through the block temperatures, times the declared lag and
+//!   gain uncertainties of the temperature sensor and the sensitivity c_T)
+//!   and the scale errors; and a confidence 1 − U/|rate| (0 … 1).
 //! * **Time to empty** down to the reserve fraction: (F_end − F_reserve)/rate,
-//!   with earliest and latest from rate ± U, F_end the fitted value at the end
-//!   of the window.
+//!   F_end the fitted value at the end of the window; earliest and latest
+//!   from rate ± U_t, U_t the time to empty's own budget written as a rate
+//!   spread (each input moves level and rate together).
 //! * **Settling**: a block mean that differs from the previous one by more than
 //!   `settle_step` marks a fast fill or draw; from then on the estimate is
 //!   `not_settled`. The gas relaxes to the sensor's temperature as a first
@@ -78,6 +84,9 @@ pub mod float;
 pub const RATE_WINDOW: usize = 32;
 /// Fewest blocks for a rate (three degrees of freedom for its standard error).
 pub const RATE_MIN_BLOCKS: usize = 5;
+/// Block temperatures kept for the temperature curvature of the rate
+/// budget: the rate window and as many blocks before it.
+pub const TEMPERATURE_WINDOW: usize = 2 * RATE_WINDOW;
 /// Blocks in the settling window (slope and mean for the settled prediction).
 pub const SETTLE_WINDOW: usize = 8;
 /// Hours per day: the leak means span this many hourly means.
@@ -124,4 +133,34 @@ pub(crate) fn validate_timing(
         return Err(Error::OutOfRange("settle time constant"));
     }
     Ok(())
+}
+
+/// The temperature lag uncertainty the rate budget uses: the declared one
+/// plus the difference of the smoothing time constants (a temperature
+/// smoothed longer than the pressure lags it by the difference; a known
+/// effect left uncorrected, added to the uncertainty as GUM F.2.4.5 allows),
+/// at most [`MAX_TEMPERATURE_LAG`](crate::uncertainty::float::MAX_TEMPERATURE_LAG).
+pub(crate) fn effective_lag(
+    declared: crate::time::Millis,
+    smoothing_pressure: crate::time::Millis,
+    smoothing_temperature: crate::time::Millis,
+) -> crate::time::Millis {
+    let max = crate::uncertainty::float::MAX_TEMPERATURE_LAG;
+    let diff = smoothing_temperature.0.abs_diff(smoothing_pressure.0);
+    crate::time::Millis(declared.0.saturating_add(diff).min(max.0))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::time::Millis;
+
+    #[test]
+    fn effective_lag_adds_the_smoothing_difference_and_saturates() {
+        let s = Millis::from_secs;
+        assert_eq!(effective_lag(s(600), s(4), s(4)), s(600));
+        assert_eq!(effective_lag(s(600), s(4), s(64)), s(660));
+        assert_eq!(effective_lag(s(600), s(64), s(4)), s(660));
+        assert_eq!(effective_lag(s(7000), s(0), s(3600)), s(7200));
+    }
 }

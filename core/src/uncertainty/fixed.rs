@@ -3,7 +3,9 @@
 //!
 //! Cost per evaluation: one 64/32 division (1/(Z·T)), two integer square
 //! roots of 64-bit values, about twenty 32×32→64 multiplies and a few wider
-//! ones. The tracker evaluates it once per rate block, not per sample.
+//! ones. The tracker evaluates it once per rate block, not per sample, and
+//! the rate budget once per block too (one more 64/32 division for 1/T,
+//! about thirty wider multiplies, four integer square roots).
 
 use fixed::types::{I8F24, U0F32};
 
@@ -11,6 +13,7 @@ use super::float::UncertaintyConfig;
 use crate::content::fixed::{Content, Estimator};
 use crate::fx::{self, Coef};
 use crate::model::CompressibilityFx;
+use crate::time::Millis;
 use crate::{Error, TankFx};
 
 /// The declared standard uncertainties (k = 1) of the inputs, fixed-point
@@ -30,6 +33,10 @@ pub struct UncertaintyConfigFx {
     pub capacity: U0F32,
     /// Relative standard uncertainty of the gas model's density.
     pub model: U0F32,
+    /// Standard uncertainty of the temperature reading's lag behind the gas.
+    pub temperature_lag: Millis,
+    /// Relative standard uncertainty of the temperature sensor's slope.
+    pub temperature_gain: U0F32,
 }
 
 impl UncertaintyConfigFx {
@@ -43,6 +50,8 @@ impl UncertaintyConfigFx {
             temperature_k: fx::from_f64(c.temperature_k, "temperature uncertainty")?,
             capacity: fx::from_f64(c.capacity, "capacity uncertainty")?,
             model: fx::from_f64(c.model, "model uncertainty")?,
+            temperature_lag: c.temperature_lag,
+            temperature_gain: fx::from_f64(c.temperature_gain, "temperature gain uncertainty")?,
         };
         fx.to_real::<f64>().validate()?;
         Ok(fx)
@@ -57,6 +66,8 @@ impl UncertaintyConfigFx {
             temperature_k: F::lit(fx::to_f64(self.temperature_k)),
             capacity: F::lit(fx::to_f64(self.capacity)),
             model: F::lit(fx::to_f64(self.model)),
+            temperature_lag: self.temperature_lag,
+            temperature_gain: F::lit(fx::to_f64(self.temperature_gain)),
         }
     }
 }
@@ -84,6 +95,53 @@ const TERM_MAX: u64 = 1 << 30;
 /// Pa → MPa.
 const PER_MPA: Coef = Coef::from_f64(1e-6);
 
+/// ms → h.
+const PER_HOUR_MS: Coef = Coef::from_f64(1.0 / 3_600_000.0);
+/// Fraction bits of the rate budget (fraction of the rated content, per
+/// hour for rates), like the tracker's fits.
+const QR: u32 = 36;
+/// Fraction bits of temperatures, their rates and 1/T in the rate budget.
+const QT: u32 = 32;
+/// Fraction bits of the window's mean temperature.
+pub(crate) const QT_MEAN: u32 = 23;
+
+/// What a rate window tells the rate budget, fixed-point form (see
+/// [`super::float`]'s `RateWindow`).
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct RateWindowFx {
+    /// dF/dt, per hour, Q36 (signed).
+    pub slope_per_h: i64,
+    /// Standard uncertainty of the slope from the fit, per hour, Q36.
+    pub u_fit_per_h: u64,
+    /// Mean fill fraction, Q36.
+    pub fill_fraction: i64,
+    /// Mean temperature, K, Q23.
+    pub temperature: u32,
+    /// dT/dt, K/h, Q32 (|·| ≤ 2^20 K/h).
+    pub dt_per_h: i64,
+    /// d²T/dt², K/h², Q32 (|·| ≤ 2^30 K/h²).
+    pub d2t_per_h2: i64,
+    /// Fill fraction above the reserve at the window's end, Q36.
+    pub left_fraction: i64,
+    /// The reserve fraction, Q36.
+    pub reserve_fraction: i64,
+    /// Blocks in the fit.
+    pub blocks: u32,
+    /// Blocks per hour.
+    pub blocks_per_hour: u32,
+}
+
+/// Standard uncertainties (k = 1) behind the rate and the time to empty,
+/// fixed-point form.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct RateBudgetFx {
+    /// Of the consumption rate, per hour, Q36.
+    pub rate_per_h: u64,
+    /// Of the time to empty t, as the rate spread rate × u(t)/t, per hour,
+    /// Q36.
+    pub time_to_empty_per_h: u64,
+}
+
 /// Prepared uncertainty evaluation for one fixed-point estimator.
 #[derive(Clone, Copy, Debug)]
 pub struct EvaluatorFx {
@@ -96,8 +154,24 @@ pub struct EvaluatorFx {
     temperature: Coef,
     capacity: Coef,
     model: Coef,
+    /// The temperature lag uncertainty in hours; the temperature gain.
+    lag_h: Coef,
+    gain: Coef,
     /// The rated mass, per unit fraction.
     rated_mass: Coef,
+}
+
+/// The sensitivities of one estimate (Q30) and its terms (standard
+/// uncertainties, fractions of the rated content, Q28).
+#[derive(Clone, Copy, Debug)]
+struct Terms {
+    c_p: i128,
+    c_t: i128,
+    fs: u64,
+    rd: u64,
+    tt: u64,
+    cap: u64,
+    model: u64,
 }
 
 impl EvaluatorFx {
@@ -129,6 +203,8 @@ impl EvaluatorFx {
             temperature: Coef::from_raw(cfg.temperature_k.to_bits() as u64, 16),
             capacity: frac(cfg.capacity),
             model: frac(cfg.model),
+            lag_h: Coef::from_raw(cfg.temperature_lag.0, 0).mul(PER_HOUR_MS),
+            gain: frac(cfg.temperature_gain),
             rated_mass,
         })
     }
@@ -138,8 +214,8 @@ impl EvaluatorFx {
         &self.cfg
     }
 
-    /// Expanded uncertainties (k = 2) of the mass and fill fraction of `c`.
-    pub fn evaluate(&self, c: &Content) -> UncertaintyFx {
+    /// Sensitivity coefficients and terms of `c`.
+    fn terms(&self, c: &Content) -> Terms {
         let (p, t, z) = (
             c.pressure_pa.to_bits(),
             c.temperature_k.to_bits(),
@@ -180,20 +256,102 @@ impl EvaluatorFx {
         );
         let (cap, _) = self.capacity.scale(f, Q, Q);
         let (model, _) = self.model.scale(f, Q, Q);
+        let m = |v: u64| v.min(TERM_MAX);
+        Terms {
+            c_p,
+            c_t,
+            fs: m(fs),
+            rd: m(rd),
+            tt: m(tt),
+            cap: m(cap),
+            model: m(model),
+        }
+    }
 
-        let sq = |v: u64| {
-            let v = v.min(TERM_MAX);
-            v * v
-        };
-        let common = sq(fs) + sq(rd) + sq(tt);
-        let u_mass = isqrt(common + sq(cap) + sq(model));
-        let u_frac = isqrt(common + 2 * sq(model));
+    /// Expanded uncertainties (k = 2) of the mass and fill fraction of `c`.
+    pub fn evaluate(&self, c: &Content) -> UncertaintyFx {
+        let k = self.terms(c);
+        let sq = |v: u64| v * v;
+        let common = sq(k.fs) + sq(k.rd) + sq(k.tt);
+        let u_mass = isqrt(common + sq(k.cap) + sq(k.model));
+        let u_frac = isqrt(common + 2 * sq(k.model));
         let (mass, _) = self.rated_mass.scale(u_mass.saturating_mul(2), Q, 40);
+        let c_i8f24 =
+            |v: i128| I8F24::from_bits((v >> 6).clamp(i32::MIN as i128, i32::MAX as i128) as i32);
         UncertaintyFx {
             mass_kg: fx::Mass::from_bits(mass),
             fill_fraction: fx::Fraction::from_bits((u_frac as u64) << 5),
-            c_p: I8F24::from_bits((c_p >> 6).clamp(i32::MIN as i128, i32::MAX as i128) as i32),
-            c_t: I8F24::from_bits((c_t >> 6).clamp(i32::MIN as i128, i32::MAX as i128) as i32),
+            c_p: c_i8f24(k.c_p),
+            c_t: c_i8f24(k.c_t),
+        }
+    }
+
+    /// Standard uncertainties (k = 1) of the consumption rate measured over
+    /// a rate window and of the time to empty, input by input; the same
+    /// steps as the float form (the budget is in [`super`]).
+    pub(crate) fn rate(&self, c: &Content, w: &RateWindowFx) -> RateBudgetFx {
+        let k = self.terms(c);
+        // 1/T, Q32 per K (T ≥ 1 K: ≤ 2^32).
+        let inv_t = (1u64 << (QT + QT_MEAN)) / (w.temperature as u64).max(1 << QT_MEAN);
+        let inv_t = inv_t as i128;
+        // k = c_T/T, Q32 per K (signed), and |k|.
+        let kt = (k.c_t * inv_t) >> 30;
+        let ct = kt.unsigned_abs();
+        let f = w.fill_fraction.max(0) as i128;
+        let fdot = w.slope_per_h as i128;
+        let (td, tdd) = (w.dt_per_h as i128, w.d2t_per_h2 as i128);
+        // 1/t = rate/left, Q36 per hour (0 without a time to empty).
+        let rho = if fdot < 0 && w.left_fraction > 0 {
+            ((-fdot << QR) / w.left_fraction as i128).min(1 << 62)
+        } else {
+            0
+        };
+        let reserve = w.reserve_fraction.max(0) as i128;
+        let q36 = |v: i128| v >> QR;
+        // F·dT/dt and F·(dT/dt)/T, Q36 (signed).
+        let f_td = (f * td) >> QT;
+        let f_td_t = (f_td * inv_t) >> QT;
+        // A = F·(d²T/dt² − (dT/dt)²/T) + dF/dt·dT/dt, Q68 → Q36.
+        let td2_t = (((td * td) >> QT) * inv_t) >> QT;
+        let a = (f * (tdd - td2_t)).saturating_add(fdot * td) >> QT;
+        let per_k = |v: i128| sat64(v.unsigned_abs().saturating_mul(ct) >> QT);
+        let lag = apply(self.lag_h, per_k(a));
+        let lag_t = apply(self.lag_h, per_k(q36(f_td.saturating_mul(rho)) + a));
+        let gain = apply(self.gain, per_k(f_td));
+        let offset = apply(self.temperature, per_k(fdot - f_td_t));
+        let reserve_rho = q36(reserve.saturating_mul(rho));
+        let offset_t = apply(self.temperature, per_k(reserve_rho - f_td_t));
+        // The full-scale term (Q28 → Q36) times |k|·|dT/dt| and |1/t + k·dT/dt|.
+        let fs = (k.fs as i128) << (QR - Q);
+        let k_td = (kt * td) >> (2 * QT - QR);
+        let fs_rate = sat64(q36(fs.saturating_mul(k_td.abs())).unsigned_abs());
+        let fs_t = sat64(q36(fs.saturating_mul((rho + k_td).abs())).unsigned_abs());
+        // Scale errors (see the float form).
+        let c_p = k.c_p.unsigned_abs() as i128;
+        let fdot_abs = fdot.abs();
+        let reading = apply(self.reading, sat64(((fdot_abs * c_p) >> 30).unsigned_abs()));
+        let reading_t = apply(
+            self.reading,
+            sat64(((reserve_rho * c_p) >> 30).unsigned_abs()),
+        );
+        let fdot_abs = sat64(fdot_abs.unsigned_abs());
+        let capacity = apply(self.capacity, fdot_abs);
+        let model = apply(self.model, fdot_abs);
+        let model_t = apply(self.model, sat64(reserve_rho.unsigned_abs()));
+        let u = w.u_fit_per_h;
+        // The fit's scatter through the slope and F_end (see the float
+        // form): r = (1/t) per block, Q36; √((n² − 1)/12) in Q16.
+        let n = w.blocks as u64;
+        let r = (rho as u64) / (w.blocks_per_hour.max(1) as u64);
+        let lead = (r as u128 * (n.saturating_sub(1)) as u128) >> 1;
+        let u_end0 = sat64((u as u128).saturating_mul((1u128 << QR) + lead) >> QR);
+        let spread_n = isqrt(((n * n).saturating_sub(1) << 32) / 12) as u128;
+        let u_end1 = sat64(((u as u128 * r as u128) >> QR).saturating_mul(spread_n) >> 16);
+        RateBudgetFx {
+            rate_per_h: hypot(&[u, lag, gain, offset, fs_rate, reading, capacity, model]),
+            time_to_empty_per_h: hypot(&[
+                u_end0, u_end1, lag_t, gain, offset_t, fs_t, reading_t, model_t, model_t,
+            ]),
         }
     }
 }
@@ -207,6 +365,32 @@ fn mul_q30(a: u64, b: u128) -> u64 {
 /// Narrows to `u32`, clamping.
 fn sat(v: u64) -> u32 {
     v.min(u32::MAX as u64) as u32
+}
+
+/// Narrows to `u64`, clamping.
+fn sat64(v: u128) -> u64 {
+    v.min(u64::MAX as u128) as u64
+}
+
+/// `v × c` (saturated): one 64×32-bit multiply.
+fn apply(c: Coef, v: u64) -> u64 {
+    let prod = v as u128 * c.mantissa() as u128;
+    let shift = c.shift();
+    sat64(if shift >= 0 {
+        prod >> shift.unsigned_abs().min(127)
+    } else {
+        prod.saturating_mul(1 << shift.unsigned_abs().min(32))
+    })
+}
+
+/// √(Σ vᵢ²) of at most sixteen values, to 2^-29 relative: the values are
+/// shifted down together until the largest is below 2^29, so the squares
+/// and their sum fit in 64 bits.
+fn hypot(v: &[u64]) -> u64 {
+    let max = v.iter().copied().max().unwrap_or(0);
+    let s = (64 - max.leading_zeros()).saturating_sub(29);
+    let sum: u64 = v.iter().take(16).map(|&x| (x >> s) * (x >> s)).sum();
+    (isqrt(sum) as u64) << s
 }
 
 /// ⌊√v⌋ of a 64-bit value, bit by bit (32 rounds of shifts and compares).
@@ -232,6 +416,81 @@ pub fn isqrt(v: u64) -> u32 {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::model::Ideal;
+    use crate::uncertainty::float::{Evaluator, RateWindow};
+    use crate::{Gas, Setup, SetupFx, Tank};
+
+    /// The rate budget of both paths on the same window, over a grid of
+    /// fill fractions, rates, temperatures and temperature dynamics.
+    #[test]
+    fn rate_budget_fixed_matches_float() {
+        let setup = Setup::new(Gas::Nitrogen, Tank::new(0.05, 200e5));
+        let sfx = SetupFx::from_f64(&setup).unwrap();
+        let est_fx = crate::content::fixed::Estimator::new(sfx, Ideal::new(Gas::Nitrogen)).unwrap();
+        let est_f =
+            crate::content::float::Estimator::new(sfx.to_real::<f64>(), Ideal::new(Gas::Nitrogen))
+                .unwrap();
+        let decl = UncertaintyConfig::example(300e5);
+        let dfx = UncertaintyConfigFx::from_f64(&decl).unwrap();
+        let (efx, ef) = (
+            EvaluatorFx::new(dfx, &est_fx).unwrap(),
+            Evaluator::new(dfx.to_real::<f64>(), &est_f).unwrap(),
+        );
+        let mut worst = [0.0f64; 2];
+        for &(p, t) in &[(20e5, 250.0), (120e5, 288.15), (190e5, 330.0)] {
+            let cfx = est_fx.estimate(fx::Pressure::from_num(p), fx::Temperature::from_num(t));
+            let cf = est_f
+                .estimate(fx::to_f64(cfx.pressure_pa), fx::to_f64(cfx.temperature_k))
+                .unwrap();
+            for &rate in &[-0.2, -0.01, 0.0, 3e-4] {
+                for &(td, tdd) in &[(0.0, 0.0), (3.8, -0.9), (-12.0, 4.0), (0.2, 0.05)] {
+                    for &u_fit in &[0.0, 1e-5, 3e-3] {
+                        let f = cf.fill_fraction;
+                        let q36 = |v: f64| (v * (1u64 << 36) as f64).round() as i64;
+                        let q32 = |v: f64| (v * (1u64 << 32) as f64).round() as i64;
+                        let wfx = RateWindowFx {
+                            slope_per_h: q36(rate),
+                            u_fit_per_h: q36(u_fit) as u64,
+                            fill_fraction: q36(f),
+                            temperature: (t * (1u64 << QT_MEAN) as f64).round() as u32,
+                            dt_per_h: q32(td),
+                            d2t_per_h2: q32(tdd),
+                            left_fraction: q36(f - 0.05),
+                            reserve_fraction: q36(0.05),
+                            blocks: 32,
+                            blocks_per_hour: 60,
+                        };
+                        let wf = RateWindow {
+                            slope_per_h: wfx.slope_per_h as f64 / 2f64.powi(36),
+                            u_fit_per_h: wfx.u_fit_per_h as f64 / 2f64.powi(36),
+                            fill_fraction: wfx.fill_fraction as f64 / 2f64.powi(36),
+                            temperature_k: wfx.temperature as f64 / 2f64.powi(QT_MEAN as i32),
+                            dt_per_h: wfx.dt_per_h as f64 / 2f64.powi(32),
+                            d2t_per_h2: wfx.d2t_per_h2 as f64 / 2f64.powi(32),
+                            left_fraction: wfx.left_fraction as f64 / 2f64.powi(36),
+                            reserve_fraction: wfx.reserve_fraction as f64 / 2f64.powi(36),
+                            blocks: 32,
+                            blocks_per_hour: 60,
+                        };
+                        let (bfx, bf) = (efx.rate(&cfx, &wfx), ef.rate(&cf, &wf));
+                        let pairs = [
+                            (bfx.rate_per_h, bf.rate_per_h),
+                            (bfx.time_to_empty_per_h, bf.time_to_empty_per_h),
+                        ];
+                        for (k, (a, b)) in pairs.into_iter().enumerate() {
+                            let a = a as f64 / 2f64.powi(36);
+                            // Relative, judged against at least 1e-4 per
+                            // hour (Q36 steps are 1.5e-11).
+                            let rel = (a - b).abs() / b.max(1e-4);
+                            worst[k] = worst[k].max(rel);
+                        }
+                    }
+                }
+            }
+        }
+        // Relative error of the budget arithmetic itself (inputs identical).
+        assert!(worst[0] < 1e-6 && worst[1] < 1e-6, "{worst:?}");
+    }
 
     #[test]
     fn isqrt_exact() {

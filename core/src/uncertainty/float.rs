@@ -4,6 +4,7 @@
 use crate::constants::MOLAR_GAS_CONSTANT_J_MOL_K;
 use crate::content::float::{Content, Estimator};
 use crate::model::Compressibility;
+use crate::time::Millis;
 use crate::{Error, Real, Tank};
 
 /// The declared standard uncertainties (k = 1) of the inputs, float form.
@@ -23,6 +24,16 @@ pub struct UncertaintyConfig<F = f64> {
     /// Relative standard uncertainty of the gas model's density (of Z).
     /// Accepted: 0 … 0.5.
     pub model: F,
+    /// Standard uncertainty of the time by which the temperature reading
+    /// lags (or leads) the gas temperature: the sensor's own response, its
+    /// mounting, and the gas following the wall. The reading is not
+    /// corrected for it; it enters the uncertainty of the consumption rate
+    /// through d²T/dt². Accepted: 0 … 2 h.
+    pub temperature_lag: Millis,
+    /// Relative standard uncertainty of the temperature sensor's slope (a
+    /// gain error turns dT/dt into an apparent content rate). Accepted:
+    /// 0 … 0.5.
+    pub temperature_gain: F,
 }
 
 impl UncertaintyConfig<f64> {
@@ -31,6 +42,15 @@ impl UncertaintyConfig<f64> {
     /// temperature sensor good to 0.5 K standard uncertainty, water capacity
     /// known to 0.5 % and a model good to 0.1 % (all standard uncertainties).
     /// Invented figures of a typical industrial pair; declare your own.
+    ///
+    /// The temperature dynamics: a lag of [`DEFAULT_TEMPERATURE_LAG`]
+    /// (10 min standard uncertainty: conservative for a sensor bonded to the
+    /// vessel wall, common practice; a sensor in a valve block, regulator or
+    /// on a board can lag or lead the gas by much more — measure it with a
+    /// temperature step) and a slope good to ±0.5 % (rectangular), the
+    /// temperature-proportional part of the IEC 60751 class B tolerance
+    /// ±(0.30 + 0.005·|t|) °C of platinum resistance thermometers (from
+    /// memory).
     pub fn example(full_scale_pa: f64) -> Self {
         UncertaintyConfig {
             pressure_full_scale_pa: full_scale_pa,
@@ -39,12 +59,21 @@ impl UncertaintyConfig<f64> {
             temperature_k: 0.5,
             capacity: 0.005,
             model: 0.001,
+            temperature_lag: DEFAULT_TEMPERATURE_LAG,
+            temperature_gain: 0.005 / SQRT_3,
         }
     }
 }
 
 /// √3, for rectangular distributions (GUM 4.3.7).
 pub const SQRT_3: f64 = 1.732_050_807_568_877_2;
+
+/// The conservative default standard uncertainty of the temperature lag
+/// behind the gas: 10 min (see [`UncertaintyConfig::example`]).
+pub const DEFAULT_TEMPERATURE_LAG: Millis = Millis::from_secs(600);
+
+/// Largest accepted temperature lag uncertainty: 2 h.
+pub const MAX_TEMPERATURE_LAG: Millis = Millis::from_secs(7200);
 
 impl<F: Real> UncertaintyConfig<F> {
     /// Checks every field against its accepted range.
@@ -66,6 +95,12 @@ impl<F: Real> UncertaintyConfig<F> {
             (self.temperature_k, 0.0, 50.0, "temperature uncertainty"),
             (self.capacity, 0.0, 0.5, "capacity uncertainty"),
             (self.model, 0.0, 0.5, "model uncertainty"),
+            (
+                self.temperature_gain,
+                0.0,
+                0.5,
+                "temperature gain uncertainty",
+            ),
         ];
         for (v, lo, hi, what) in checks {
             if !v.is_finite() {
@@ -77,6 +112,9 @@ impl<F: Real> UncertaintyConfig<F> {
             if x < lo || x > hi {
                 return Err(Error::OutOfRange(what));
             }
+        }
+        if self.temperature_lag > MAX_TEMPERATURE_LAG {
+            return Err(Error::OutOfRange("temperature lag uncertainty"));
         }
         Ok(())
     }
@@ -95,6 +133,44 @@ pub struct Uncertainty<F = f64> {
     pub c_t: F,
 }
 
+/// What a rate window tells the rate budget (per hour; see [`super`]).
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct RateWindow<F> {
+    /// dF/dt of the fill fraction (the fitted slope), per hour; negative
+    /// while gas leaves.
+    pub slope_per_h: F,
+    /// Standard uncertainty of the slope from the scatter of the fit
+    /// (corrected for autocorrelation), per hour.
+    pub u_fit_per_h: F,
+    /// Mean fill fraction over the window.
+    pub fill_fraction: F,
+    /// Mean temperature over the window, K.
+    pub temperature_k: F,
+    /// dT/dt at the window centre, K/h.
+    pub dt_per_h: F,
+    /// d²T/dt² over the window, K/h².
+    pub d2t_per_h2: F,
+    /// Fill fraction above the reserve at the window's end (what the time
+    /// to empty counts down).
+    pub left_fraction: F,
+    /// The reserve fraction.
+    pub reserve_fraction: F,
+    /// Blocks in the fit.
+    pub blocks: u32,
+    /// Blocks per hour.
+    pub blocks_per_hour: u32,
+}
+
+/// Standard uncertainties (k = 1) behind the rate and the time to empty.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct RateBudget<F> {
+    /// Of the consumption rate, fraction of the rated content per hour.
+    pub rate_per_h: F,
+    /// Of the time to empty t, as the rate spread with the same relative
+    /// size: rate × u(t)/t, per hour.
+    pub time_to_empty_per_h: F,
+}
+
 /// Prepared uncertainty evaluation for one estimator.
 #[derive(Clone, Copy, Debug)]
 pub struct Evaluator<F: Real> {
@@ -103,6 +179,36 @@ pub struct Evaluator<F: Real> {
     /// V₀·M/R, kg·K/Pa: m/p = this·f/(Z·T).
     mass_per_pressure: F,
     rated_mass_kg: F,
+    /// The temperature lag uncertainty, h.
+    lag_h: F,
+}
+
+/// The sensitivities of one estimate and its terms (standard
+/// uncertainties as fractions of the rated content), shared by both budgets.
+#[derive(Clone, Copy, Debug)]
+struct Terms<F> {
+    c_p: F,
+    c_t: F,
+    /// Pressure: full-scale part, reading part.
+    fs: F,
+    rd: F,
+    /// Temperature.
+    tt: F,
+    /// Water capacity, gas model.
+    cap: F,
+    model: F,
+}
+
+impl<F: Real> Terms<F> {
+    /// u(F)², the fill fraction's combined variance.
+    fn fraction_variance(&self) -> F {
+        self.common() + F::lit(2.0) * self.model * self.model
+    }
+
+    /// The pressure and temperature part of both variances.
+    fn common(&self) -> F {
+        self.fs * self.fs + self.rd * self.rd + self.tt * self.tt
+    }
 }
 
 impl<F: Real> Evaluator<F> {
@@ -120,6 +226,7 @@ impl<F: Real> Evaluator<F> {
             mass_per_pressure: setup.tank.water_capacity_m3 * F::lit(gas.molar_mass_kg_mol)
                 / F::lit(MOLAR_GAS_CONSTANT_J_MOL_K),
             rated_mass_kg: est.rated_mass_kg(),
+            lag_h: F::lit(cfg.temperature_lag.0 as f64 / HOUR_MS),
         })
     }
 
@@ -128,11 +235,10 @@ impl<F: Real> Evaluator<F> {
         &self.cfg
     }
 
-    /// Expanded uncertainties (k = 2) of the mass and fill fraction of `c`.
-    pub fn evaluate(&self, c: &Content<F>) -> Uncertainty<F> {
+    /// Sensitivity coefficients and the full-scale term of `c`.
+    fn terms(&self, c: &Content<F>) -> Terms<F> {
         let cfg = &self.cfg;
         let (p, t, z) = (c.pressure_pa, c.temperature_k, c.z.z);
-        let m = c.mass_kg;
         let c_p = F::ONE - p * F::lit(1e-6) * c.z.dz_dp_per_mpa / z
             + self.tank.elastic_expansion_per_mpa * F::lit(1e-6) * p;
         let c_t = -F::ONE - t * c.z.dz_dt_per_k / z + self.tank.thermal_expansion_per_k * t;
@@ -145,18 +251,95 @@ impl<F: Real> Evaluator<F> {
             * (cfg.pressure_fs * cfg.pressure_full_scale_pa)
             / (z * t)
             * inv_rated;
-        let f = m * inv_rated;
-        let rd = c_p_abs * f * cfg.pressure_reading;
-        let tt = c_t_abs * f * cfg.temperature_k / t;
-        let cap = f * cfg.capacity;
-        let model = f * cfg.model;
-        let common = fs * fs + rd * rd + tt * tt;
-        let two = F::lit(2.0);
-        Uncertainty {
-            mass_kg: two * (common + cap * cap + model * model).sqrt() * self.rated_mass_kg,
-            fill_fraction: two * (common + two * model * model).sqrt(),
+        let f = c.mass_kg * inv_rated;
+        Terms {
             c_p,
             c_t,
+            fs,
+            rd: c_p_abs * f * cfg.pressure_reading,
+            tt: c_t_abs * f * cfg.temperature_k / t,
+            cap: f * cfg.capacity,
+            model: f * cfg.model,
+        }
+    }
+
+    /// Expanded uncertainties (k = 2) of the mass and fill fraction of `c`.
+    pub fn evaluate(&self, c: &Content<F>) -> Uncertainty<F> {
+        let k = self.terms(c);
+        let two = F::lit(2.0);
+        Uncertainty {
+            mass_kg: two
+                * (k.common() + k.cap * k.cap + k.model * k.model).sqrt()
+                * self.rated_mass_kg,
+            fill_fraction: two * k.fraction_variance().sqrt(),
+            c_p: k.c_p,
+            c_t: k.c_t,
+        }
+    }
+
+    /// Standard uncertainties (k = 1) of the consumption rate measured over
+    /// a rate window and of the time to empty, input by input (the budget is
+    /// in [`super`]). `c` is the latest estimate (sensitivities).
+    pub(crate) fn rate(&self, c: &Content<F>, w: &RateWindow<F>) -> RateBudget<F> {
+        let cfg = &self.cfg;
+        let k = self.terms(c);
+        let inv_t = F::ONE / w.temperature_k.max(F::ONE);
+        // k = c_T/T: relative content error per kelvin of temperature error.
+        let kt = k.c_t * inv_t;
+        let ct = kt.abs();
+        let (f, fdot) = (w.fill_fraction, w.slope_per_h);
+        let (td, tdd) = (w.dt_per_h, w.d2t_per_h2);
+        // 1/t = rate/left (0 when there is no time to empty), and F_reserve.
+        let rho = if -fdot > F::ZERO && w.left_fraction > F::ZERO {
+            -fdot / w.left_fraction
+        } else {
+            F::ZERO
+        };
+        let reserve = w.reserve_fraction;
+        // A reading error ε of the temperature shifts the content by
+        // e = k·F·ε and its slope by ė: a lag (ε = −τ·dT/dt:
+        // ė = −k·τ·A), a gain error (ε̇ = g·dT/dt), an offset (ε = δ). The
+        // time to empty t = left/rate moves by δt/t = e/left + ė/rate: as a
+        // rate, e·rate/left + ė.
+        let a = f * (tdd - td * td * inv_t) + fdot * td;
+        let lag = ct * self.lag_h * a.abs();
+        let lag_t = ct * self.lag_h * (f * td * rho + a).abs();
+        let gain = ct * cfg.temperature_gain * f * td.abs();
+        let offset = ct * cfg.temperature_k * (fdot - f * td * inv_t).abs();
+        let offset_t = ct * cfg.temperature_k * (reserve * rho - f * td * inv_t).abs();
+        // The pressure offset's apparent content goes as 1/(Z·T).
+        let fs = ct * k.fs * td.abs();
+        let fs_t = k.fs * (rho + kt * td).abs();
+        // Scale errors: the rate in kg/h scales with the pressure reading
+        // part, the capacity and the model; in the time to empty only the
+        // reserve's share is left of the reading part and of the model's
+        // (sample and rated state).
+        let fdot_abs = fdot.abs();
+        let reading = fdot_abs * k.c_p.abs() * cfg.pressure_reading;
+        let reading_t = reserve * rho * k.c_p.abs() * cfg.pressure_reading;
+        let capacity = fdot_abs * cfg.capacity;
+        let model = fdot_abs * cfg.model;
+        let model_t = reserve * rho * cfg.model;
+        let hypot = |v: &[F]| v.iter().fold(F::ZERO, |s, &x| s + x * x).sqrt();
+        let u = w.u_fit_per_h;
+        // The fit's scatter reaches the time to empty through the slope and
+        // through F_end = mean + slope·(n − 1)/2 (mean and slope
+        // independent): with r = (1/t) per block, u·(1 + r·(n − 1)/2) and
+        // u·r·√((n² − 1)/12).
+        let n = F::lit(w.blocks as f64);
+        let r = rho / F::lit(w.blocks_per_hour.max(1) as f64);
+        let u_end = [
+            u * (F::ONE + r * (n - F::ONE) / F::lit(2.0)),
+            u * r * ((n * n - F::ONE) / F::lit(12.0)).sqrt(),
+        ];
+        RateBudget {
+            rate_per_h: hypot(&[u, lag, gain, offset, fs, reading, capacity, model]),
+            time_to_empty_per_h: hypot(&[
+                u_end[0], u_end[1], lag_t, gain, offset_t, fs_t, reading_t, model_t, model_t,
+            ]),
         }
     }
 }
+
+/// Milliseconds per hour, as a float.
+const HOUR_MS: f64 = 3_600_000.0;

@@ -44,6 +44,67 @@
 //! parts at one sample a second), the temperature difference between the gas
 //! and its sensor after fast fills (see the settling prediction), and
 //! correlation between inputs.
+//!
+//! # Consumption rate and time to empty
+//!
+//! The tracker ([`crate::track`]) measures the rate R = −dF/dt as the
+//! least-squares slope of the last n ≤ 32 block means of the fill fraction F.
+//! Its uncertainty is propagated input by input (GUM eq. 10), per block:
+//!
+//! * **Scatter of the fit** (type A): the standard error of the slope from
+//!   the residuals, widened for their lag-1 autocorrelation ρ (0 ≤ ρ ≤ 1) by
+//!   the effective sample size n_e = n·(1 − ρ)/(1 + ρ):
+//!   u_fit² = SE²·(n − 2)/(n_e − 2), n_e kept ≥ 3 (Santer et al. 2000,
+//!   "Statistical significance of trends and trend differences in
+//!   layer-average atmospheric temperature time series", J. Geophys. Res.
+//!   105(D6), 7337–7356; from memory). Smooth drifts and smoothing longer
+//!   than a block make neighbouring residuals alike; the plain SE then
+//!   claims far too much.
+//! * **Temperature dynamics** (type B). A reading error ε of the temperature
+//!   shifts the content by e = k·F·ε with k = c_T/T, and the rate by ė:
+//!   - the temperature reading lags (or leads) the gas by τ, declared as a
+//!     standard uncertainty u(τ) (`temperature_lag`, not corrected):
+//!     ε = −τ·dT/dt and ė = −k·τ·A with A = F·(d²T/dt² − (dT/dt)²/T) +
+//!     dF/dt·dT/dt, so u = |k|·u(τ)·|A|;
+//!   - a gain error g of the sensor's slope (`temperature_gain`): ε̇ = g·dT/dt,
+//!     u = |k|·u(g)·F·|dT/dt|;
+//!   - an offset (`temperature_k`): u = |k|·u(T)·|dF/dt − F·(dT/dt)/T|;
+//!   - the pressure offset (full-scale part) reads as content
+//!     u_FS,F = c_p·(m/p)·u_FS·p_FS/m_rated that goes as 1/(Z·T):
+//!     u = |k|·u_FS,F·|dT/dt|.
+//!
+//!   dT/dt and d²T/dt² come from the tracker's own smoothed temperatures: a
+//!   least-squares parabola through the temperature at each block's close
+//!   over the rate window and up to as many blocks before it (64 at most;
+//!   the curvature's noise falls as the window length to the power −2.5),
+//!   the slope taken at the rate window's centre. c_T and c_p are the
+//!   sensitivities above, from the gas model's derivatives.
+//! * **Scale errors** of the rate in kg/h: the pressure reading part
+//!   |c_p|·u_rd·R, the water capacity u_V·R and the model u_Z·R.
+//!
+//! u(R)² is the sum of the squares; U(R) = 2·u(R) (k = 2) and the reported
+//! confidence is 1 − U/|R| (clamped to 0 … 1).
+//!
+//! The time to empty t = left/R (left = F_end − F_reserve) takes each input
+//! through both the level and the rate, since the same error moves both:
+//! δt/t = e/left + ė/R. Written as a rate spread u_t = R·u(t)/t:
+//!
+//! u_t² = u_fit²·[(1 + r·(n − 1)/2)² + r²·(n² − 1)/12]
+//!      + (|k|·u(τ)·(F·(dT/dt)·R/left + A))² + (|k|·u(g)·F·dT/dt)²
+//!      + (|k|·u(T)·(F_reserve·R/left − F·(dT/dt)/T))² + (u_FS,F·(R/left + k·dT/dt))²
+//!      + (c_p·u_rd·F_reserve·R/left)² + 2·(u_Z·F_reserve·R/left)²
+//!
+//! with r = R/left per block: the fit's scatter reaches t through the slope
+//! and through F_end = mean + slope·(n − 1)/2 (mean and slope independent).
+//! The pressure gain and the model scale level and rate alike, so only the
+//! reserve's share is left; the capacity cancels. The bounds are
+//! earliest = left/(R + 2·u_t) and latest = left/(R − 2·u_t) (none when
+//! R ≤ 2·u_t).
+//!
+//! Not included: the delay of the content behind the gas by the pressure
+//! smoothing (τ_p × R in the level; 4 s by default), and second-order terms
+//! (the product of the lag and the noise of d²T/dt² makes |d²T/dt²| as
+//! estimated slightly larger than the truth on average: conservative).
 
 pub mod fixed;
 pub mod float;
