@@ -6,6 +6,7 @@
 //! * [`units`] — parsing of quantities with units (`200bar`, `35C`, `50L`).
 //! * [`content`] — the content report of `isochor content` (both core paths).
 //! * [`link`] — the serial link: transports, client, emulated device, views.
+//! * [`bench`] — converter codes for given readings (drives devices that take injected samples).
 //! * [`eos`] — the reference equations of state (f64, host only).
 //! * [`model`] — building and checking device gas models.
 //! * [`reference`](mod@reference) — the reference equation of state as a gas model.
@@ -13,6 +14,7 @@
 //! * [`sensor`] — sensor option parsing and the least-squares calibration fit.
 //! * [`cli`] — argument parsing and the commands.
 
+pub mod bench;
 pub mod cli;
 pub mod content;
 pub mod eos;
