@@ -25,7 +25,12 @@ const GASES: &[(&str, &str)] = &[
 
 fn main() {
     let target = env::var("TARGET").unwrap_or_default();
-    let memory = if target.starts_with("thumbv6m") {
+    // `ISOCHOR_MEMORY=mps2`: the `mps2` map for Cortex-M0 code too, to run
+    // measurement programs whose float runs need more than 16 KiB of RAM
+    // on QEMU's `mps2-an385` (its Cortex-M3 executes Cortex-M0 code
+    // instruction for instruction).
+    let mps2 = env::var("ISOCHOR_MEMORY").is_ok_and(|m| m == "mps2");
+    let memory = if target.starts_with("thumbv6m") && !mps2 {
         // QEMU `microbit`: nRF51822, 256 KiB flash at 0, 16 KiB RAM. The
         // last 21 KiB of flash hold the store (0x3AC00) and the
         // provisioning page (0x3FC00): code gets the rest.
@@ -52,7 +57,12 @@ fn main() {
         format!("/// The only built-in gas of this build (`None`: all).\npub const ONLY_GAS: Option<isochor_core::Gas> = {only};\n"),
     )
     .expect("write only_gas.rs");
+    println!("cargo:rustc-check-cfg=cfg(isochor_mps2)");
+    if mps2 || !target.starts_with("thumbv6m") {
+        println!("cargo:rustc-cfg=isochor_mps2");
+    }
     println!("cargo:rustc-link-search={}", out.display());
     println!("cargo:rerun-if-changed=build.rs");
     println!("cargo:rerun-if-env-changed=ISOCHOR_GAS");
+    println!("cargo:rerun-if-env-changed=ISOCHOR_MEMORY");
 }

@@ -24,6 +24,7 @@
 #![no_main]
 
 use core::hint::black_box;
+use core::mem::MaybeUninit;
 use cortex_m::peripheral::{Peripherals, SYST, syst::SystClkSource};
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
@@ -37,7 +38,7 @@ use isochor_core::time::Instant;
 use isochor_core::{Gas, Real, SetupFx, StandardConditionFx, Status, TankFx, fx};
 
 /// Core clock of the emulated board, Hz.
-const CORE_HZ: u64 = if cfg!(target_abi = "eabihf") {
+const CORE_HZ: u64 = if cfg!(any(target_abi = "eabihf", isochor_mps2)) {
     25_000_000
 } else {
     16_000_000
@@ -128,14 +129,20 @@ fn report(name: &str, (mean_x100, worst): (u64, u64)) {
     );
 }
 
+#[inline(never)]
 fn run_fixed(model: &DeviceModel<'static>) -> Option<(u64, u64)> {
     let s = setup();
     let p = PressureCalibration::nominal();
     let t = TemperatureCalibration::nominal();
     let tracking = TrackingSettings::for_tank(&s, p.full_scale());
     let cfg = track_config(&tracking, &AlarmThresholds::for_tank(&s));
-    let mut pipe =
-        fixed::Pipeline::new(s, model, &p.0, &t.0, cfg, tracking.barometric_pa).ok()?;
+    let mut pipe = match fixed::Pipeline::new(s, model, &p.0, &t.0, cfg, tracking.barometric_pa) {
+        Ok(p) => p,
+        Err(e) => {
+            hprintln!("fixed pipeline: {:?}", e);
+            return None;
+        }
+    };
     let mut seq = 0u32;
     let r = measure(|at, raw| {
         let out = pipe.sample(at, raw);
@@ -146,6 +153,7 @@ fn run_fixed(model: &DeviceModel<'static>) -> Option<(u64, u64)> {
     Some(r)
 }
 
+#[inline(never)]
 fn run_float<F: Real>(model: &DeviceModel<'static>) -> Option<(u64, u64)> {
     let s = setup();
     let p = PressureCalibration::nominal();
@@ -160,6 +168,7 @@ fn run_float<F: Real>(model: &DeviceModel<'static>) -> Option<(u64, u64)> {
         cfg.to_real(),
         F::lit(fx::to_f64(tracking.barometric_pa)),
     )
+    .map_err(|e| hprintln!("float pipeline: {:?}", e))
     .ok()?;
     let r = measure(|at, raw| match pipe.sample(at, raw) {
         Ok(out) => out.status.bits() ^ out.content.map_or(0, |c| c.mass_kg.to_f64() as u32),
@@ -189,22 +198,28 @@ fn main() -> ! {
     let x100 = instructions_x100(elapsed(a, b)) / 100_000;
     hprintln!("scale_check_2={}.{:02}", x100 / 100, x100 % 100);
 
-    let Ok(model) = DeviceModel::builtin(Gas::Nitrogen) else {
+    // The model in a static: the Cortex-M0's 16 KiB hold it, one pipeline
+    // at a time and the f64 tracker's frames.
+    static mut MODEL: MaybeUninit<DeviceModel<'static>> = MaybeUninit::uninit();
+    let Ok(m) = DeviceModel::builtin(Gas::Nitrogen) else {
         debug::exit(debug::EXIT_FAILURE);
         loop {
             cortex_m::asm::wfi();
         }
     };
+    // SAFETY: written once here, before the only reference is taken.
+    let model: &'static DeviceModel<'static> =
+        unsafe { (*core::ptr::addr_of_mut!(MODEL)).write(m) };
     let mut ok = true;
-    match run_fixed(&model) {
+    match run_fixed(model) {
         Some(r) => report("instructions_fixed", r),
         None => ok = false,
     }
-    match run_float::<f32>(&model) {
+    match run_float::<f32>(model) {
         Some(r) => report("instructions_f32", r),
         None => ok = false,
     }
-    match run_float::<f64>(&model) {
+    match run_float::<f64>(model) {
         Some(r) => report("instructions_f64", r),
         None => ok = false,
     }
@@ -219,7 +234,10 @@ fn main() -> ! {
 }
 
 #[panic_handler]
-fn panic(_: &core::panic::PanicInfo) -> ! {
+fn panic(info: &core::panic::PanicInfo) -> ! {
+    if let Some(l) = info.location() {
+        hprintln!("panic at {}:{}", l.file(), l.line());
+    }
     debug::exit(debug::EXIT_FAILURE);
     loop {
         cortex_m::asm::wfi();
