@@ -88,10 +88,8 @@ impl<SPI: SpiDevice> Ads1220<SPI> {
     /// low bits of a `u32`.
     pub fn read_code(&mut self) -> Result<u32, SPI::Error> {
         let mut r = [0u8; 3];
-        self.spi.transaction(&mut [
-            Operation::Write(&[cmd::RDATA]),
-            Operation::Read(&mut r),
-        ])?;
+        self.spi
+            .transaction(&mut [Operation::Write(&[cmd::RDATA]), Operation::Read(&mut r)])?;
         let [a, b, c] = r;
         Ok(u32::from(a) << 16 | u32::from(b) << 8 | u32::from(c))
     }
@@ -263,7 +261,12 @@ mod tests {
     #[test]
     fn the_sampler_paces_itself_and_never_blocks() {
         let mut m = Mock::default();
-        m.results = vec![[0xFF, 0xFF, 0xF0], [0x12, 0x34, 0x56], [0x00, 0x10, 0x00], [0xFF, 0, 0]];
+        m.results = vec![
+            [0xFF, 0xFF, 0xF0],
+            [0x12, 0x34, 0x56],
+            [0x00, 0x10, 0x00],
+            [0xFF, 0, 0],
+        ];
         let ch = |mux: u8| Channel {
             registers: [mux, 0x04, 0x40, 0x00],
             conversion: Millis(60),

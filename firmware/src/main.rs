@@ -11,15 +11,18 @@
 #![no_std]
 #![no_main]
 
+use core::mem::MaybeUninit;
 use cortex_m_rt::{ExceptionFrame, entry, exception};
 use isochor_core::link::ResetReason;
+
+use isochor_core::model::DeviceModel;
 use isochor_core::model::device::TableBuf;
 use isochor_firmware::arm;
 
-#[cfg(target_abi = "eabihf")]
-use isochor_firmware::arm::mps2 as board;
 #[cfg(not(target_abi = "eabihf"))]
 use isochor_firmware::arm::microbit as board;
+#[cfg(target_abi = "eabihf")]
+use isochor_firmware::arm::mps2 as board;
 
 #[cfg(feature = "defmt")]
 use defmt_rtt as _;
@@ -49,6 +52,9 @@ fn model_buffer() -> Option<&'static mut TableBuf> {
     }
 }
 
+/// The prepared gas model of this start.
+static mut PREPARED: MaybeUninit<DeviceModel<'static>> = MaybeUninit::uninit();
+
 #[entry]
 fn main() -> ! {
     arm::paint_stack();
@@ -57,7 +63,10 @@ fn main() -> ! {
     #[cfg(not(target_abi = "eabihf"))]
     let b = board::Microbit::take();
     match b {
-        Some(b) => isochor_firmware::run::run(b, model_buffer()),
+        // SAFETY: taken once, here.
+        Some(b) => isochor_firmware::run::run(b, model_buffer(), unsafe {
+            &mut *core::ptr::addr_of_mut!(PREPARED)
+        }),
         None => arm::record_and_reset(ResetReason::HardFault, None),
     }
 }

@@ -71,7 +71,9 @@ impl Retained {
     /// The same record with a panic location (the end of a long file name).
     pub fn at(mut self, file: &str, line: u32) -> Retained {
         let b = file.as_bytes();
-        let tail = b.get(b.len().saturating_sub(FAULT_FILE_MAX_LEN)..).unwrap_or(&[]);
+        let tail = b
+            .get(b.len().saturating_sub(FAULT_FILE_MAX_LEN)..)
+            .unwrap_or(&[]);
         for (d, s) in self.file.iter_mut().zip(tail) {
             *d = *s;
         }
@@ -165,7 +167,8 @@ mod tests {
 
     #[test]
     fn records_round_trip_and_noise_is_power_on() {
-        let r = Retained::new(ResetReason::Panic, 7).at("src/some/very/long/path/to/a/module/file_name.rs", 42);
+        let r = Retained::new(ResetReason::Panic, 7)
+            .at("src/some/very/long/path/to/a/module/file_name.rs", 42);
         let w = r.encode();
         assert_eq!(Retained::decode(&w), Some(r));
         let b = r.report();
@@ -182,7 +185,10 @@ mod tests {
         assert_eq!(armed.reason, ResetReason::Unknown);
         // A panic, then an unannounced reset the hardware calls a watchdog.
         let (report, armed) = on_boot(Some(r), None);
-        assert_eq!((report.reason, report.boots, report.fault_line), (ResetReason::Panic, 8, 42));
+        assert_eq!(
+            (report.reason, report.boots, report.fault_line),
+            (ResetReason::Panic, 8, 42)
+        );
         let (report, _) = on_boot(Some(armed), Some(ResetReason::Watchdog));
         assert_eq!((report.reason, report.boots), (ResetReason::Watchdog, 9));
     }

@@ -9,13 +9,19 @@
 //! asks for it (after the last frame left), and sleep until an interrupt
 //! when nothing happened.
 
+use core::mem::MaybeUninit;
 use embedded_io::{Read, ReadReady, Write};
-use isochor_core::app::{Gauge, GaugeIo, Models, decode_loaded_model};
+
+use isochor_core::app::{Gauge, GaugeIo, Models, decode_loaded_model, model_for, stored_gas};
 use isochor_core::auth::{Authenticator, NonceSource, Policy, Secret};
 use isochor_core::link::{Identity, NONCE_LEN, ResetReason};
+use isochor_core::model::DeviceModel;
 use isochor_core::model::device::TableBuf;
 
-use crate::board::{Board, Clock, SampleSource, System, Watchdog};
+use isochor_core::link::BootReport;
+use isochor_core::store::Layout;
+
+use crate::board::{Board, Clock, Parts, SampleSource, System, Watchdog};
 
 /// Firmware version reported in the identity and the boot message.
 pub const FIRMWARE_VERSION: [u8; 3] = [0, 2, 0];
@@ -43,10 +49,62 @@ impl<S: Write, R: NonceSource, Y: System> GaugeIo for Io<'_, S, R, Y> {
 
 /// Runs the gauge on `board` for ever. `model_buffer` holds the decoded
 /// gas-model blob (builds without room for one pass `None` and refuse
-/// blobs).
-pub fn run<B: Board>(board: B, model_buffer: Option<&'static mut TableBuf>) -> ! {
+/// blobs); `model` holds the prepared gas model (statics, so that they
+/// count as static RAM and not as stack).
+///
+/// The start is split in steps that each return before the next begins
+/// (preparing the model needs about 10 KiB of stack on a Cortex-M0, the
+/// running gauge keeps about 5 KiB on it): the deepest stack is the larger
+/// of the two, not their sum — which is what lets the gauge run in the
+/// 16 KiB of a `microbit`.
+pub fn run<B: Board>(
+    board: B,
+    model_buffer: Option<&'static mut TableBuf>,
+    model: &'static mut MaybeUninit<DeviceModel<'static>>,
+) -> ! {
     let mut p = board.split();
     let boot = p.system.boot_report();
+    let layout = match B::layout(&p.flash) {
+        Ok(l) => l,
+        // A layout that does not fit is a fault of the board definition.
+        Err(_) => p.system.restart(ResetReason::HardFault),
+    };
+    let loadable = model_buffer.is_some();
+    let model = prepare::<B>(&mut p.flash, &layout, model_buffer, model);
+    serve::<B>(p, layout, boot, Models { model, loadable })
+}
+
+/// Decodes the committed gas-model blob (when the build can) and prepares
+/// the model of the stored setup's gas.
+#[inline(never)]
+fn prepare<B: Board>(
+    flash: &mut B::Flash,
+    layout: &Layout,
+    buffer: Option<&'static mut TableBuf>,
+    slot: &'static mut MaybeUninit<DeviceModel<'static>>,
+) -> Option<&'static DeviceModel<'static>> {
+    let table: Option<&'static TableBuf> = match buffer {
+        Some(buf) => match decode_loaded_model(flash, layout) {
+            Some(t) => {
+                *buf = t;
+                Some(buf)
+            }
+            None => None,
+        },
+        None => None,
+    };
+    let gas = stored_gas(flash, layout);
+    model_for(gas, table, B::builtin).map(|m| &*slot.write(m))
+}
+
+/// The gauge's life after the start.
+#[inline(never)]
+fn serve<B: Board>(
+    mut p: Parts<B>,
+    layout: Layout,
+    boot: BootReport,
+    models: Models<'static>,
+) -> ! {
     let (serial, secret) = match p.system.provisioning() {
         Some(v) => v,
         None => {
@@ -62,22 +120,6 @@ pub fn run<B: Board>(board: B, model_buffer: Option<&'static mut TableBuf>) -> !
             (0, Secret::new(key))
         }
     };
-    let layout = match B::layout(&p.flash) {
-        Ok(l) => l,
-        // A layout that does not fit is a fault of the board definition.
-        Err(_) => p.system.restart(ResetReason::HardFault),
-    };
-    let loadable = model_buffer.is_some();
-    let table: Option<&'static TableBuf> = match model_buffer {
-        Some(buf) => match decode_loaded_model(&mut p.flash, &layout) {
-            Some(t) => {
-                *buf = t;
-                Some(buf)
-            }
-            None => None,
-        },
-        None => None,
-    };
     let identity = Identity {
         serial,
         hardware_rev: B::HARDWARE_REV,
@@ -87,11 +129,6 @@ pub fn run<B: Board>(board: B, model_buffer: Option<&'static mut TableBuf>) -> !
         capabilities: 0,
     };
     let auth = Authenticator::new(secret, serial, Policy::default());
-    let models = Models {
-        loaded: table,
-        builtin: B::builtin,
-        loadable,
-    };
     let mut gauge = match Gauge::new(
         identity,
         auth,

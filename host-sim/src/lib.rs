@@ -6,6 +6,7 @@
 //! * [`units`] — parsing of quantities with units (`200bar`, `35C`, `50L`).
 //! * [`content`] — the content report of `isochor content` (both core paths).
 //! * [`link`] — the serial link: transports, client, emulated device, views.
+//! * [`firmware`] — the reference firmware in QEMU: builds, provisioning, the emulator, image sizes.
 //! * [`bench`] — converter codes for given readings (drives devices that take injected samples).
 //! * [`eos`] — the reference equations of state (f64, host only).
 //! * [`model`] — building and checking device gas models.
@@ -19,6 +20,7 @@ pub mod cli;
 pub mod content;
 pub mod eos;
 mod error;
+pub mod firmware;
 pub mod link;
 pub mod model;
 pub mod reference;

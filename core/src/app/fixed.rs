@@ -87,6 +87,7 @@ impl<M: CompressibilityFx> Pipeline<M> {
     /// Prepares the front-ends, corrections, estimator and tracker (all
     /// divisions happen here). The calibrations must be of a pressure and a
     /// temperature front-end.
+    #[inline(never)]
     pub fn new(
         setup: SetupFx,
         model: M,

@@ -11,6 +11,7 @@ use crate::link::{
     self, Accumulator, AlarmEvent, Boot, BootReport, Diagnostics, Feed, Identity, InjectSample,
     Kind, MAX_FRAME_LEN, Message, NONCE_LEN, Outcome, Reply, SensorChannel, Telemetry, capability,
 };
+use crate::model::CompressibilityFx;
 use crate::model::device::{DeviceModel, Table, TableBuf};
 use crate::sensor::calibration::CalibrationRecord;
 use crate::store::{
@@ -49,21 +50,44 @@ impl NonceSource for IoNonces<'_> {
     }
 }
 
-/// The gas models a gauge can use.
+/// The gas model a gauge uses, prepared by the firmware at start for the
+/// stored setup's gas ([`model_for`]); a change of gas or of gas model
+/// restarts the gauge so that the next start prepares the new one. Kept
+/// outside the gauge (by reference), which keeps the gauge small: a
+/// prepared model takes 2.7 KiB.
 #[derive(Clone, Copy)]
 pub struct Models<'m> {
-    /// The table of the committed gas-model blob, decoded at start
-    /// ([`decode_loaded_model`]); used when it is of the setup's gas.
-    pub loaded: Option<&'m TableBuf>,
-    /// The built-in tables of this build (`None` for gases left out).
-    pub builtin: fn(Gas) -> Option<Table<'static>>,
+    /// The prepared model, `None` when the build has none for the gas.
+    pub model: Option<&'m DeviceModel<'m>>,
     /// Gas-model blobs are accepted (the build has room to decode one).
     pub loadable: bool,
+}
+
+/// The model for `gas`: the loaded table when it is of that gas, else the
+/// build's built-in table (`builtin` gives `None` for gases left out).
+#[inline(never)]
+pub fn model_for<'m>(
+    gas: Gas,
+    loaded: Option<&'m TableBuf>,
+    builtin: fn(Gas) -> Option<Table<'static>>,
+) -> Option<DeviceModel<'m>> {
+    if let Some(t) = loaded.filter(|t| t.gas == gas) {
+        return DeviceModel::new(t.table()).ok();
+    }
+    builtin(gas).and_then(|t| DeviceModel::new(t).ok())
+}
+
+/// The stored setup's gas (read before the gauge starts, to prepare its
+/// model).
+pub fn stored_gas<F: NorFlash>(flash: &mut F, layout: &Layout) -> Gas {
+    let s: crate::store::Loaded<crate::SetupFx> = layout.setup.load(flash);
+    s.value.gas
 }
 
 /// The table of the committed gas-model blob, if there is one and it
 /// decodes (a blob that no longer decodes is ignored: the built-in model is
 /// used, and the reference says where it came from).
+#[inline(never)]
 pub fn decode_loaded_model<F: NorFlash>(flash: &mut F, layout: &Layout) -> Option<TableBuf> {
     let r: crate::store::Loaded<crate::store::GasModelRef> = layout.gas_model_ref.load(flash);
     if r.value.len == 0 {
@@ -76,7 +100,7 @@ pub fn decode_loaded_model<F: NorFlash>(flash: &mut F, layout: &Layout) -> Optio
 struct App<'m> {
     models: Models<'m>,
     injection: bool,
-    pipeline: Option<Pipeline<DeviceModel<'m>>>,
+    pipeline: Option<Pipeline<&'m DeviceModel<'m>>>,
     pressure_calibration: CalibrationRecord,
     temperature_calibration: CalibrationRecord,
     dirty: bool,
@@ -90,15 +114,16 @@ struct App<'m> {
 }
 
 impl<'m> App<'m> {
-    fn model(&self, gas: Gas) -> Option<DeviceModel<'m>> {
-        if let Some(t) = self.models.loaded.filter(|t| t.gas == gas) {
-            return DeviceModel::new(t.table()).ok();
-        }
-        (self.models.builtin)(gas).and_then(|t| DeviceModel::new(t).ok())
+    /// True when the setup's gas needs another model than the one prepared.
+    fn needs_other_model(&self, r: &Records) -> bool {
+        self.models
+            .model
+            .is_some_and(|m| CompressibilityFx::gas(m) != r.setup.value.gas)
     }
 
     /// Prepares the pipeline from the records in use (a new tracker: a
     /// changed configuration starts the tracking afresh).
+    #[inline(never)]
     fn rebuild(&mut self, r: &Records) {
         self.pressure_calibration = r.pressure_calibration.value.0;
         self.temperature_calibration = r.temperature_calibration.value.0;
@@ -113,7 +138,8 @@ impl<'m> App<'m> {
         } else {
             AlarmThresholds::for_tank(&setup)
         };
-        self.pipeline = self.model(setup.gas).and_then(|m| {
+        self.pipeline = None;
+        self.pipeline = self.models.model.and_then(|m| {
             Pipeline::new(
                 setup,
                 m,
@@ -126,6 +152,7 @@ impl<'m> App<'m> {
         });
     }
 
+    #[inline(never)]
     fn take(&mut self, at: Instant, raw: &RawSample) {
         self.samples = self.samples.wrapping_add(1);
         self.last_sample_at = at;
@@ -210,6 +237,7 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
     /// [`Responder::new`]) and prepares the pipeline. `identity` gets the
     /// capabilities of this application; `injection` makes the gauge take
     /// its samples from [`InjectSample`] messages (emulation, bench rigs).
+    #[inline(never)]
     pub fn new(
         mut identity: Identity,
         auth: Authenticator,
@@ -235,7 +263,7 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
             };
         let mut responder = Responder::new(identity, auth, flash, layout)?;
         responder.set_model_loading(models.loadable);
-        let mut app = App {
+        let app = App {
             models,
             injection,
             pipeline: None,
@@ -250,7 +278,6 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
             unusable_at: None,
             cleared: None,
         };
-        app.rebuild(responder.records());
         Ok(Gauge {
             responder,
             app,
@@ -264,8 +291,11 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
         })
     }
 
-    /// Announces the start: one [`Boot`] message.
+    /// Prepares the pipeline from the stored records and announces the
+    /// start: one [`Boot`] message.
+    #[inline(never)]
     pub fn start(&mut self, io: &mut dyn GaugeIo) {
+        self.app.rebuild(self.responder.records());
         let id = self.responder.identity();
         let msg = Message::Boot(Boot {
             serial: id.serial,
@@ -277,6 +307,7 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
 
     /// Takes bytes from the link at the board's time `now`: every complete
     /// frame is answered (and injected samples are taken and reported).
+    #[inline(never)]
     pub fn receive(&mut self, now: Instant, bytes: &[u8], io: &mut dyn GaugeIo) {
         self.now = now;
         let mut rest = bytes;
@@ -302,11 +333,13 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
 
     /// Takes one sample read from the board's own converters at `at` and
     /// sends its telemetry and alarm frames.
+    #[inline(never)]
     pub fn sample(&mut self, at: Instant, raw: &RawSample, io: &mut dyn GaugeIo) {
         self.app.take(at, raw);
         self.flush(io);
     }
 
+    #[inline(never)]
     fn on_message(&mut self, msg: &Message, io: &mut dyn GaugeIo) {
         if let Message::GetDiagnostics(g) = msg {
             let (peak, size) = io.stack_usage();
@@ -336,7 +369,12 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
         }
         if self.app.dirty {
             self.app.dirty = false;
-            self.app.rebuild(self.responder.records());
+            if self.app.needs_other_model(self.responder.records()) {
+                // Another gas: the next start prepares its model.
+                self.app.restart = true;
+            } else {
+                self.app.rebuild(self.responder.records());
+            }
         }
         self.flush(io);
     }
@@ -354,6 +392,7 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
     }
 
     /// Sends the telemetry and alarm frames of what happened.
+    #[inline(never)]
     fn flush(&mut self, io: &mut dyn GaugeIo) {
         let device = self.device_status();
         if let Some(t) = self.app.track.take() {
@@ -408,7 +447,7 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
     }
 
     /// The pipeline, when the configuration is usable.
-    pub fn pipeline(&self) -> Option<&Pipeline<DeviceModel<'m>>> {
+    pub fn pipeline(&self) -> Option<&Pipeline<&'m DeviceModel<'m>>> {
         self.app.pipeline.as_ref()
     }
 
@@ -430,6 +469,7 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
 
 /// Encodes and sends one message (a message that does not encode is a bug
 /// of this crate's size bounds and is dropped).
+#[inline(never)]
 fn send(io: &mut dyn GaugeIo, msg: &Message) {
     let mut buf = [0u8; MAX_FRAME_LEN];
     if let Ok(n) = link::encode(msg, &mut buf)

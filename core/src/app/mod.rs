@@ -51,7 +51,9 @@ pub mod fixed;
 pub mod float;
 mod gauge;
 
-pub use gauge::{FIRMWARE_VERSION, Gauge, GaugeIo, Models, decode_loaded_model};
+pub use gauge::{
+    FIRMWARE_VERSION, Gauge, GaugeIo, Models, decode_loaded_model, model_for, stored_gas,
+};
 
 use crate::link::{RawCode, SensorChannel};
 use crate::sensor::PressureKind;

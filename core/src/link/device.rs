@@ -75,6 +75,7 @@ impl<F: NorFlash> Responder<F> {
     /// Loads the stored records (falling back as the store documents); a
     /// gas-model reference whose blob is damaged or does not decode falls
     /// back to the built-in models.
+    #[inline(never)]
     pub fn new(
         mut identity: Identity,
         auth: Authenticator,
@@ -193,6 +194,7 @@ impl<F: NorFlash> Responder<F> {
     /// Answers one message from the host. Messages that only go from the
     /// device to the host get no answer, nor do the requests the firmware
     /// answers itself ([`Message::GetDiagnostics`]).
+    #[inline(never)]
     pub fn handle(
         &mut self,
         now: Instant,
@@ -234,6 +236,7 @@ impl<F: NorFlash> Responder<F> {
         Some(Message::Reply(Reply { tag, outcome }))
     }
 
+    #[inline(never)]
     fn read_record(&mut self, kind: RecordKind) -> Outcome {
         let r = &self.records;
         match kind {
@@ -247,6 +250,7 @@ impl<F: NorFlash> Responder<F> {
         }
     }
 
+    #[inline(never)]
     fn signed(&mut self, now: Instant, s: &Signed, actions: &mut dyn DeviceActions) -> Outcome {
         let verified = match self.auth.verify(now, s) {
             Ok(v) => v,
@@ -314,6 +318,7 @@ impl<F: NorFlash> Responder<F> {
 
     /// Decodes, validates (before anything is written; the store validates
     /// again, as every store does), stores and reloads one record.
+    #[inline(never)]
     fn replace<R: DeviceRecord>(&mut self, version: u16, bytes: &[u8]) -> Result<(), Error> {
         let value: R = decode_record(version, bytes)?;
         value.validate()?;
@@ -328,6 +333,7 @@ impl<F: NorFlash> Responder<F> {
         Ok(())
     }
 
+    #[inline(never)]
     fn zero(
         &mut self,
         channel: SensorChannel,
@@ -352,6 +358,7 @@ impl<F: NorFlash> Responder<F> {
         Ok(())
     }
 
+    #[inline(never)]
     fn gas_chunk(
         &mut self,
         offset: u32,

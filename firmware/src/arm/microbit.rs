@@ -254,9 +254,8 @@ pub struct Services(());
 impl System for Services {
     fn provisioning(&mut self) -> Option<(u64, Secret)> {
         // SAFETY: the last flash page, memory-mapped and readable.
-        let block = unsafe {
-            core::slice::from_raw_parts(PROVISIONING as *const u8, Provisioning::LEN)
-        };
+        let block =
+            unsafe { core::slice::from_raw_parts(PROVISIONING as *const u8, Provisioning::LEN) };
         Provisioning::from_bytes(block).map(|p| (p.serial, p.secret))
     }
     fn boot_report(&mut self) -> BootReport {

@@ -35,7 +35,10 @@ static TICKS: AtomicU32 = AtomicU32::new(0);
 /// writer, so a load and a store suffice on a Cortex-M0 without atomic
 /// read-modify-write).
 pub fn tick() {
-    TICKS.store(TICKS.load(Ordering::Relaxed).wrapping_add(1), Ordering::Relaxed);
+    TICKS.store(
+        TICKS.load(Ordering::Relaxed).wrapping_add(1),
+        Ordering::Relaxed,
+    );
 }
 
 /// Milliseconds from SysTick interrupts at 1 kHz, extended to 64 bits.
@@ -216,7 +219,8 @@ static BOOTS: AtomicU32 = AtomicU32::new(1);
 pub fn kept() -> Option<Retained> {
     // SAFETY: any bit pattern is a valid `[u32; WORDS]` (the CRC tells a
     // record from noise); read once at start, before any writer runs.
-    let words = unsafe { core::ptr::read_volatile(core::ptr::addr_of!(BOOT).cast::<[u32; WORDS]>()) };
+    let words =
+        unsafe { core::ptr::read_volatile(core::ptr::addr_of!(BOOT).cast::<[u32; WORDS]>()) };
     Retained::decode(&words)
 }
 
@@ -226,7 +230,9 @@ pub fn keep(r: &Retained) {
     let words = r.encode();
     // SAFETY: plain volatile stores into our own static; handlers that call
     // this never return to the code they interrupted.
-    unsafe { core::ptr::write_volatile(core::ptr::addr_of_mut!(BOOT).cast::<[u32; WORDS]>(), words) };
+    unsafe {
+        core::ptr::write_volatile(core::ptr::addr_of_mut!(BOOT).cast::<[u32; WORDS]>(), words)
+    };
 }
 
 /// Starts since power-on, as recorded at this start.

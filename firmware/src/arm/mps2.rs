@@ -230,9 +230,8 @@ impl Board for Mps2 {
     fn split(self) -> Parts<Self> {
         // SAFETY: the PSRAM window belongs to this driver alone (nothing
         // else in the image refers to it) and `split` runs once.
-        let mem = unsafe {
-            core::slice::from_raw_parts_mut(STORE_START as *mut u8, STORE_LEN as usize)
-        };
+        let mem =
+            unsafe { core::slice::from_raw_parts_mut(STORE_START as *mut u8, STORE_LEN as usize) };
         let mut flash = RamNor::new(mem);
         let _ = format_if_blank(&mut flash);
         let key = provisioning().map_or([0; 32], |p| p.secret.derive(b"isochor/1/nonce-key"));

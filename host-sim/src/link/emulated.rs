@@ -8,7 +8,7 @@
 use std::io;
 use std::time::{Duration, Instant as StdInstant};
 
-use isochor_core::app::{Gauge, GaugeIo, Models, decode_loaded_model};
+use isochor_core::app::{Gauge, GaugeIo, Models, decode_loaded_model, model_for, stored_gas};
 use isochor_core::auth::{Authenticator, NonceSource, Policy, Secret};
 use isochor_core::link::{BootReport, Identity, NONCE_LEN, ResetReason};
 use isochor_core::model::device::builtin;
@@ -130,6 +130,8 @@ impl EmulatedDevice {
                 .ok_or_else(|| Error::Link("the emulated device has no flash".into()))?;
             let layout = layout(&flash)?;
             let table = decode_loaded_model(flash.as_mut(), &layout);
+            let gas = stored_gas(flash.as_mut(), &layout);
+            let model = model_for(gas, table.as_ref(), builtin::table);
             self.boots += 1;
             let boot = BootReport::new(self.next_reason, self.boots);
             let auth = Authenticator::new(self.secret.clone(), self.identity.serial, self.policy);
@@ -139,8 +141,7 @@ impl EmulatedDevice {
                 *flash,
                 layout,
                 Models {
-                    loaded: table.as_ref(),
-                    builtin: builtin::table,
+                    model: model.as_ref(),
                     loadable: true,
                 },
                 true,
