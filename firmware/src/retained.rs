@@ -14,7 +14,7 @@ use isochor_core::checksum::crc32c;
 use isochor_core::link::{BootReport, FAULT_FILE_MAX_LEN, ResetReason};
 
 /// Words of the record.
-pub const WORDS: usize = 17;
+pub const WORDS: usize = 5 + FAULT_FILE_MAX_LEN / 4 + 1;
 const MAGIC: u32 = 0x4953_4252; // "ISBR"
 const FILE_WORDS: usize = FAULT_FILE_MAX_LEN / 4;
 
