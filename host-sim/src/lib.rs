@@ -6,6 +6,8 @@
 //! * [`units`] — parsing of quantities with units (`200bar`, `35C`, `50L`).
 //! * [`content`] — the content report of `isochor content` (both core paths).
 //! * [`link`] — the serial link: transports, client, emulated device, views.
+//! * [`firmware`] — the reference firmware in QEMU: builds, provisioning, the emulator, image sizes.
+//! * [`bench`] — converter codes for given readings (drives devices that take injected samples).
 //! * [`eos`] — the reference equations of state (f64, host only).
 //! * [`model`] — building and checking device gas models.
 //! * [`reference`](mod@reference) — the reference equation of state as a gas model.
@@ -13,10 +15,12 @@
 //! * [`sensor`] — sensor option parsing and the least-squares calibration fit.
 //! * [`cli`] — argument parsing and the commands.
 
+pub mod bench;
 pub mod cli;
 pub mod content;
 pub mod eos;
 mod error;
+pub mod firmware;
 pub mod link;
 pub mod model;
 pub mod reference;
