@@ -7,7 +7,7 @@
 //! * [`content`] — the content report of `isochor content` (both core paths).
 //! * [`link`] — the serial link: transports, client, emulated device, views.
 //! * [`firmware`] — the reference firmware in QEMU: builds, provisioning, the emulator, image sizes.
-//! * [`bench`] — converter codes for given readings (drives devices that take injected samples).
+//! * [`mod@bench`] — converter codes for given readings (drives devices that take injected samples).
 //! * [`eos`] — the reference equations of state (f64, host only).
 //! * [`model`] — building and checking device gas models.
 //! * [`reference`](mod@reference) — the reference equation of state as a gas model.
