@@ -415,6 +415,14 @@ impl Eos {
         }
     }
 
+    /// Isochoric molar heat capacity of the ideal gas c_v⁰ = −R·τ²·α⁰_ττ at
+    /// `t_k`, J/(mol·K) (no residual terms: cheap).
+    pub fn ideal_cv(&self, t_k: f64) -> f64 {
+        let tau = self.reducing_temperature_k / t_k;
+        let tt: f64 = self.ideal.iter().map(|term| term.eval_tau(tau).2).sum();
+        -self.gas_constant * tau * tau * tt
+    }
+
     /// Caloric properties at a molar density and temperature (one evaluation
     /// of every term; no iteration).
     pub fn caloric(&self, rho_mol_m3: f64, t_k: f64) -> Caloric {
