@@ -11,6 +11,11 @@
 //!
 //! A backend that drives emulated firmware over its serial link implements
 //! the same trait.
+//!
+//! Like a board, both prepare the bridge's temperature compensation (the
+//! one reciprocal of the bridge path) again only when the temperature
+//! reading has moved by more than [`COMPENSATION_STEP_K`] since it was last
+//! prepared.
 
 use super::sensors::{Codes, PressureCode, PressureFrontEnd, TemperatureFrontEnd};
 use crate::Error;
@@ -26,6 +31,10 @@ use isochor_core::time::Instant;
 use isochor_core::track::fixed::{TrackConfigFx, Tracker as TrackerFx};
 use isochor_core::track::float::{TrackConfig, Tracker};
 use isochor_core::{Gas, Setup, SetupFx, Status, fx, fx::to_f64};
+
+/// Temperature change after which the bridge compensation is prepared
+/// again, K.
+pub const COMPENSATION_STEP_K: f64 = 0.05;
 
 /// What the gauge reports for one sample, in SI units whatever the backend.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
@@ -196,7 +205,10 @@ pub struct FixedGauge {
 }
 
 enum PressureFx {
-    Bridge(bridge::fixed::Bridge),
+    Bridge(
+        bridge::fixed::Bridge,
+        Option<(u32, bridge::fixed::Compensation)>,
+    ),
     Loop(
         current_loop::fixed::Loop,
         current_loop::LoopState<current_loop::fixed::Reading>,
@@ -217,7 +229,9 @@ impl FixedGauge {
         let rated_kg = to_f64(est.rated_mass_kg());
         Ok(FixedGauge {
             pressure: match c.pressure {
-                PressureFrontEnd::Bridge(b) => PressureFx::Bridge(bridge::fixed::Bridge::new(&b)?),
+                PressureFrontEnd::Bridge(b) => {
+                    PressureFx::Bridge(bridge::fixed::Bridge::new(&b)?, None)
+                }
                 PressureFrontEnd::Loop(l) => PressureFx::Loop(
                     current_loop::fixed::Loop::new(&l)?,
                     current_loop::LoopState::new(),
@@ -253,8 +267,18 @@ impl Backend for FixedGauge {
             TemperatureFx::Ntc(n) => n.read(codes.temperature),
         };
         let p = match (&mut self.pressure, codes.pressure) {
-            (PressureFx::Bridge(b), PressureCode::Bridge(code)) => {
-                b.read(code, t.temperature_k, self.barometric)
+            (PressureFx::Bridge(b, comp), PressureCode::Bridge(code)) => {
+                let bits = t.temperature_k.to_bits();
+                let step = (COMPENSATION_STEP_K * 65_536.0) as u32;
+                let c = match comp {
+                    Some((at, c)) if at.abs_diff(bits) <= step => *c,
+                    _ => {
+                        let c = b.compensation(t.temperature_k);
+                        *comp = Some((bits, c));
+                        c
+                    }
+                };
+                b.read_compensated(code, &c, self.barometric)
             }
             (PressureFx::Loop(l, state), PressureCode::Loop(code)) => {
                 l.read(code, self.barometric, at, state).pressure
@@ -311,7 +335,10 @@ pub struct FloatGauge {
 }
 
 enum PressureF {
-    Bridge(bridge::float::Bridge<f64>),
+    Bridge(
+        bridge::float::Bridge<f64>,
+        Option<(f64, bridge::float::Compensation<f64>)>,
+    ),
     Loop(
         current_loop::float::Loop<f64>,
         current_loop::LoopState<current_loop::float::Reading<f64>>,
@@ -334,7 +361,9 @@ impl FloatGauge {
         let baro: fx::Pressure = fx::from_f64(c.barometric_pa, "barometric pressure")?;
         Ok(FloatGauge {
             pressure: match c.pressure {
-                PressureFrontEnd::Bridge(b) => PressureF::Bridge(bridge::float::Bridge::new(&b)?),
+                PressureFrontEnd::Bridge(b) => {
+                    PressureF::Bridge(bridge::float::Bridge::new(&b)?, None)
+                }
                 PressureFrontEnd::Loop(l) => PressureF::Loop(
                     current_loop::float::Loop::new(&l)?,
                     current_loop::LoopState::new(),
@@ -370,8 +399,19 @@ impl Backend for FloatGauge {
             TemperatureF::Ntc(n) => n.read(codes.temperature),
         };
         let p = match (&mut self.pressure, codes.pressure) {
-            (PressureF::Bridge(b), PressureCode::Bridge(code)) => {
-                b.read(code, t.temperature_k, self.barometric)?
+            (PressureF::Bridge(b, comp), PressureCode::Bridge(code)) => {
+                // The same decision as the fixed path, on the same bits.
+                let bits = (t.temperature_k * 65_536.0).round() as u32;
+                let step = (COMPENSATION_STEP_K * 65_536.0) as u32;
+                let c = match comp {
+                    Some((at, c)) if (*at as u32).abs_diff(bits) <= step => *c,
+                    _ => {
+                        let c = b.compensation(t.temperature_k)?;
+                        *comp = Some((f64::from(bits), c));
+                        c
+                    }
+                };
+                b.read_compensated(code, &c, self.barometric)?
             }
             (PressureF::Loop(l, state), PressureCode::Loop(code)) => {
                 l.read(code, self.barometric, at, state)?.pressure

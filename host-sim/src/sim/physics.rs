@@ -259,7 +259,8 @@ pub struct Truth {
     pub wall_k: f64,
     /// Pressure, Pa absolute.
     pub pressure_pa: f64,
-    /// Ambient temperature, K.
+    /// Ambient temperature, K (NaN from [`Simulator::truth`]: ask
+    /// [`Simulator::ambient_k`] when it is needed).
     pub ambient_k: f64,
     /// Net outflow, kg/s (negative while filling).
     pub outflow_kg_s: f64,
@@ -427,7 +428,6 @@ impl Simulator {
         while self.b.t < t_s {
             self.step()?;
         }
-        let ambient_k = self.ambient_k(t_s);
         let (a, b) = (&self.a, &self.b);
         let h = b.t - a.t;
         let herm = |ya: f64, fa: f64, yb: f64, fb: f64| -> f64 {
@@ -455,7 +455,7 @@ impl Simulator {
             gas_k: herm(a.y[1], a.f[1], b.y[1], b.f[1]),
             wall_k: herm(a.y[2], a.f[2], b.y[2], b.f[2]),
             pressure_pa: herm(a.p, a.dp, b.p, b.dp),
-            ambient_k,
+            ambient_k: f64::NAN,
             outflow_kg_s: -lin(a.f[0], b.f[0]),
         })
     }
@@ -473,7 +473,7 @@ impl Simulator {
         let (y0, f0) = (start.y, start.f);
         let scale_m = y0[ix::MASS].abs().max(1e-6);
         for _ in 0..200 {
-            let (y1, err) = self.dp45(t0, &y0, &f0, h)?;
+            let (y1, err, f1, aux1) = self.dp45(t0, &y0, &f0, h)?;
             let tol = |i: usize| -> f64 {
                 match i {
                     ix::MASS => RTOL * scale_m.max(y1[i].abs()),
@@ -495,7 +495,6 @@ impl Simulator {
                 continue;
             }
             // Event: a fill or blow-down reaching its pressure inside the step.
-            let (f1, aux1) = self.rates(t0 + h, &y1)?;
             if let Some(frac) = self.pressure_event(self.b.p, aux1.p) {
                 if frac < 0.999 {
                     h *= frac.max(1e-3);
@@ -520,6 +519,7 @@ impl Simulator {
                 v: aux1.v,
             };
             self.steps += 1;
+            self.p_guess = aux1.p;
             let t1 = t0 + h;
             let changed = self.switch_modes(t1, &y1)?;
             if changed {
@@ -659,21 +659,25 @@ impl Simulator {
             self.plant.vessel.water_capacity_m3,
             self.plant.vessel.elastic_per_pa,
         );
-        let mut p = self.p_guess;
-        let mut out = None;
-        for _ in 0..8 {
+        // One evaluation at the volume of the guessed pressure, then the
+        // Newton correction of p = P(m/V(p)) applied linearly to p, V and
+        // ρ: the guess comes from the previous stage, so the correction is
+        // tiny and what is left is second order in it.
+        let p_g = self.p_guess;
+        let v_g = self.volume(p_g, tw);
+        let rho_g = m / (self.molar_mass * v_g);
+        let c = self.eos.caloric(rho_g, t);
+        let (p, v, rho_mol) = if e_p == 0.0 {
+            (c.pressure_pa, v_g, rho_g)
+        } else {
+            let g = p_g - c.pressure_pa;
+            let dg = 1.0 + c.dp_drho * rho_g * v0 * e_p / v_g;
+            let p = p_g - g / dg;
             let v = self.volume(p, tw);
             let rho = m / (self.molar_mass * v);
-            let c = self.eos.caloric(rho, t);
-            let g = p - c.pressure_pa;
-            out = Some((c.pressure_pa, v, c, rho * self.molar_mass));
-            if e_p == 0.0 || g.abs() <= 1e-11 * c.pressure_pa.abs().max(1.0) {
-                break;
-            }
-            let dg = 1.0 + c.dp_drho * rho * v0 * e_p / v;
-            p -= g / dg;
-        }
-        let (p, v, c, rho) = out.ok_or_else(|| Error::Invalid("no gas state".into()))?;
+            (c.pressure_pa + c.dp_drho * (rho - rho_g), v, rho)
+        };
+        let rho = rho_mol * self.molar_mass;
         if !p.is_finite() || p > self.eos.pressure_max_pa * 1.5 {
             return Err(Error::Invalid(format!(
                 "simulated pressure {p} Pa is outside the equation of state"
@@ -774,7 +778,7 @@ impl Simulator {
         y: &[f64; N],
         k1: &[f64; N],
         h: f64,
-    ) -> Result<([f64; N], [f64; N]), Error> {
+    ) -> Result<([f64; N], [f64; N], [f64; N], Aux), Error> {
         const C: [f64; 6] = [0.2, 0.3, 0.8, 8.0 / 9.0, 1.0, 1.0];
         const A: [[f64; 6]; 6] = [
             [0.2, 0.0, 0.0, 0.0, 0.0, 0.0],
@@ -817,6 +821,7 @@ impl Simulator {
         let mut k = [[0.0; N]; 7];
         k[0] = *k1;
         let p_save = self.p_guess;
+        let mut last = Aux::default();
         for s in 0..6 {
             let mut ys = *y;
             for (i, v) in ys.iter_mut().enumerate() {
@@ -825,18 +830,23 @@ impl Simulator {
                 }
             }
             match self.rates(t + C[s] * h, &ys) {
-                Ok((f, _)) => k[s + 1] = f,
+                Ok((f, aux)) => {
+                    k[s + 1] = f;
+                    last = aux;
+                }
                 Err(e) => {
                     self.p_guess = p_save;
                     // A trial state outside the equation of state: ask for a
                     // smaller step (NaN error).
                     if h > 1e-2 {
-                        return Ok((*y, [f64::NAN; N]));
+                        return Ok((*y, [f64::NAN; N], *k1, Aux::default()));
                     }
                     return Err(e);
                 }
             }
         }
+        // The last stage is evaluated at (t + h, y1) itself (first same as
+        // last): its rates are the next step's first.
         let mut y1 = *y;
         for (i, v) in y1.iter_mut().enumerate() {
             for (j, kj) in k.iter().take(6).enumerate() {
@@ -848,7 +858,7 @@ impl Simulator {
             *e = h * E.iter().zip(&k).map(|(ej, kj)| ej * kj[i]).sum::<f64>();
         }
         self.p_guess = p_save;
-        Ok((y1, err))
+        Ok((y1, err, k[6], last))
     }
 
     /// Whether draw `d` runs at `t`.

@@ -255,7 +255,9 @@ pub fn run_with(
         first_mass.get_or_insert(truth.mass_kg);
         score.add(&truth, &r, &sensors);
         if i % trace_every == 0 {
-            trace.push(point(&truth, &r));
+            let mut tp = point(&truth, &r);
+            tp.ambient_temperature_k = sim.ambient_k(t);
+            trace.push(tp);
         }
         if let Some(b) = &bar
             && i % 65_536 == 0

@@ -19,7 +19,7 @@
 //! | `failure_low` | — | 3.4 mA (NAMUR NE 43 low failure signal) | — |
 //! | `failure_high` | — | 21.5 mA (NE 43 high failure signal) | — |
 
-use super::physics::{Truth, normal};
+use super::physics::Truth;
 use crate::Error;
 use isochor_core::sensor::bridge::{BridgeConfig, float::Bridge};
 use isochor_core::sensor::current_loop::{LoopConfig, float::Loop};
@@ -29,6 +29,7 @@ use isochor_core::sensor::rtd::{RtdConfig, float::Rtd};
 use isochor_core::{fx, fx::to_f64};
 use rand::rngs::ChaCha8Rng;
 use rand::{RngExt, SeedableRng};
+use rand_distr::StandardNormal;
 
 /// Seconds per year (365.25 days), for drift rates.
 pub const YEAR_S: f64 = 365.25 * 86_400.0;
@@ -171,6 +172,9 @@ pub struct SensorPair {
     temperature: TemperatureSensor,
     faults: Vec<Fault>,
     bridge: Option<Bridge<f64>>,
+    /// For a bridge without linearity correction and temperature
+    /// coefficients, code = a + b·p (the core's inverse is linear then).
+    bridge_linear: Option<(f64, f64)>,
     loop_: Option<(Loop<f64>, f64)>,
     rtd: Option<Rtd<f64>>,
     ntc: Option<Ntc<f64>>,
@@ -211,6 +215,17 @@ impl SensorPair {
             TemperatureFrontEnd::Rtd(c) => (Some(Rtd::new(&c)?), None, c.front_end),
             TemperatureFrontEnd::Ntc(c) => (None, Some(Ntc::new(&c)?), c.front_end),
         };
+        let bridge_linear = match (&bridge, pressure.front_end) {
+            (Some(b), PressureFrontEnd::Bridge(c)) if bridge_is_linear(&c) => {
+                let (lo, hi) = (to_f64(c.range_lo_pa), to_f64(c.range_hi_pa));
+                let ref_k = to_f64(c.reference_k);
+                let c0 = b.code(lo, ref_k, barometric_pa)?;
+                let c1 = b.code(hi, ref_k, barometric_pa)?;
+                let slope = (c1 - c0) / (hi - lo);
+                Some((c0 - slope * lo, slope))
+            }
+            _ => None,
+        };
         let mut rng = ChaCha8Rng::seed_from_u64(seed);
         let next_spike = faults
             .iter()
@@ -223,6 +238,7 @@ impl SensorPair {
             temperature,
             faults,
             bridge,
+            bridge_linear,
             loop_,
             rtd,
             ntc,
@@ -275,12 +291,12 @@ impl SensorPair {
             + ts.offset_k
             + ts.drift_k_per_year * years
             + ts.gain_error * (el - 273.15)
-            + ts.noise_k * normal(&mut self.rng);
+            + ts.noise_k * self.rng.sample::<f64, _>(StandardNormal);
         let ps = &self.pressure;
         let p_read = truth.pressure_pa * (1.0 + ps.span_error + ps.span_drift_per_year * years)
             + ps.offset_pa
             + ps.offset_drift_pa_per_year * years
-            + ps.noise_pa * normal(&mut self.rng);
+            + ps.noise_pa * self.rng.sample::<f64, _>(StandardNormal);
 
         let mut t_val = t_read;
         let mut p_val = p_read;
@@ -354,7 +370,11 @@ impl SensorPair {
             // Beyond 150 % of the range the converter is at a rail anyway.
             let lo_p = to_f64(c.range_lo_pa) - 1.49 * range;
             let hi_p = to_f64(c.range_lo_pa) + 1.49 * range;
-            let code = b.code(p_pa.clamp(lo_p, hi_p), element_k, self.barometric_pa)?;
+            let p = p_pa.clamp(lo_p, hi_p);
+            let code = match self.bridge_linear {
+                Some((a, k)) => a + k * p,
+                None => b.code(p, element_k, self.barometric_pa)?,
+            };
             return Ok(PressureCode::Bridge(
                 round_clamp(code, f64::from(lo), f64::from(hi)) as i32,
             ));
@@ -429,6 +449,17 @@ impl SensorPair {
         };
         Ok(round_clamp(x * full, 0.0, full - 1.0) as u32)
     }
+}
+
+/// True for a bridge whose code is linear in pressure at every temperature:
+/// identity linearity, no temperature coefficients, absolute pressure.
+fn bridge_is_linear(c: &BridgeConfig) -> bool {
+    use isochor_core::fx::Coefficient as K;
+    c.linearity == [K::ZERO, K::ONE, K::ZERO, K::ZERO]
+        && c.zero[1] == K::ZERO
+        && c.zero[2] == K::ZERO
+        && c.span_tc == [K::ZERO; 2]
+        && c.kind == isochor_core::sensor::PressureKind::Absolute
 }
 
 /// Rounds to the nearest integer within `lo..=hi`.
