@@ -171,7 +171,7 @@ pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
     );
     row(
         &mut o,
-        "samples judged (settled, no sensor fault)",
+        "samples judged (settled, no fault, > reserve)",
         format!("{} of {}", s.judged_samples, s.samples),
     );
     row(
@@ -226,7 +226,7 @@ pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
                 pct(s.time_to_empty_coverage, 1)
             )
         } else {
-            "not judged (the reserve is not reached in the run)".into()
+            "not judged (no steady draw in the run)".into()
         },
     );
     let _ = writeln!(o, "\n  alarm timeline:");

@@ -323,6 +323,7 @@ pub struct Simulator {
     /// Rates (and ṗ) just after `b` when a discontinuity happened there.
     after: Option<([f64; N], f64)>,
     h: f64,
+    max_step: f64,
     p_guess: f64,
     /// Right-hand side evaluations so far.
     pub evaluations: u64,
@@ -365,6 +366,7 @@ impl Simulator {
             b: Knot::default(),
             after: None,
             h: 60.0,
+            max_step: MAX_STEP_S,
             p_guess: plant.initial_pressure_pa,
             evaluations: 0,
             steps: 0,
@@ -394,6 +396,12 @@ impl Simulator {
         };
         sim.a = sim.b;
         Ok(sim)
+    }
+
+    /// Limits the steps to `s` seconds (tests compare against short steps).
+    pub fn with_max_step(mut self, s: f64) -> Simulator {
+        self.max_step = s.clamp(1e-3, MAX_STEP_S);
+        self
     }
 
     /// The plant.
@@ -464,7 +472,7 @@ impl Simulator {
     fn step(&mut self) -> Result<(), Error> {
         let t0 = self.b.t;
         let bp = self.next_breakpoint(t0);
-        let mut h = self.h.min(MAX_STEP_S).min(bp - t0).max(1e-3);
+        let mut h = self.h.min(self.max_step).min(bp - t0).max(1e-3);
         let mut start = self.b;
         if let Some((f, dp)) = self.after {
             start.f = f;
@@ -507,7 +515,7 @@ impl Simulator {
             } else {
                 5.0
             };
-            self.h = (h * grow).min(MAX_STEP_S);
+            self.h = (h * grow).min(self.max_step);
             self.a = start;
             self.after = None;
             self.b = Knot {

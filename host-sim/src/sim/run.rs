@@ -7,7 +7,10 @@
 //!   estimate. The *judged* samples are those the gauge vouches for: a valid
 //!   estimate with its uncertainty, no `not_settled` and no sensor fault
 //!   (the gauge's uncertainty budget leaves out the gas–sensor temperature
-//!   difference of a fast fill, which it flags instead). `max_abs_error_fraction`,
+//!   difference of a fast fill, which it flags instead), and a true content
+//!   above the reserve (5 % of the rated content; below it a relative error
+//!   has little meaning: full-scale errors dominate and the gauge reports
+//!   low content). `max_abs_error_fraction`,
 //!   the bias and the rms are over judged samples; `_all` variants over
 //!   every sample with an estimate.
 //! * **Uncertainty coverage**: share of judged samples whose k = 2 interval
@@ -22,9 +25,13 @@
 //!   and the pressure below the pressure limit − 1 % of the rated pressure;
 //!   `over_temperature`/`under_temperature` with the gas more than 2 K inside
 //!   the limit. `not_settled` is information, never counted.
-//! * **Time to empty**: once a minute where the gauge states one and the true
-//!   mass reaches the reserve (5 % of the true rated content) within the run
-//!   more than 1 h later: the relative error of the expected time and
+//! * **Time to empty** at the present rate, as the gauge defines it: once a
+//!   minute where the gauge states one, against (m_true − m_reserve)/R_true
+//!   with R_true the true mean outflow over the last 32 minutes (the gauge's
+//!   rate window), judged where that outflow was steady (every minute within
+//!   ±5 % of the mean), more than 1 h is left and the gauge knows its rate
+//!   to ±50 % (U(rate) ≤ |rate|/2, the condition under which the gauge itself
+//!   uses its time to empty): the relative error of the expected time and
 //!   whether earliest … latest holds the truth.
 
 use super::gauge::{Backend, FixedGauge, FloatGauge, Reading};
@@ -330,8 +337,8 @@ pub fn true_rated_mass(sc: &Scenario) -> Result<f64, Error> {
 /// Per-minute record for the time-to-empty score.
 #[derive(Clone, Copy)]
 struct Minute {
-    t_s: f64,
     mass_kg: f64,
+    outflow_kg_s: f64,
     tte: Option<(f64, f64, Option<f64>)>,
 }
 
@@ -396,13 +403,14 @@ impl Scorer {
         let flagged = r
             .status
             .intersects(Status::NOT_SETTLED | Status::SENSOR_FAULT | Status::SENSOR_RANGE);
+        let above_reserve = truth.mass_kg > self.reserve_fraction * self.rated_true;
         if let Some(m) = r.mass_kg
             && truth.mass_kg > 0.0
         {
             let e = (m - truth.mass_kg) / truth.mass_kg;
             self.max_err_all = self.max_err_all.max(e.abs());
             self.any_all = true;
-            if let (Some(u), false) = (r.u_mass_kg, flagged) {
+            if let (Some(u), false, true) = (r.u_mass_kg, flagged, above_reserve) {
                 self.n_judged += 1;
                 self.max_err = self.max_err.max(e.abs());
                 self.sum_err += e;
@@ -416,10 +424,14 @@ impl Scorer {
             }
         }
         if minute {
+            let confident = r
+                .rate_kg_h
+                .zip(r.u_rate_kg_h)
+                .is_some_and(|(x, u)| u <= 0.5 * x.abs());
             self.minutes.push(Minute {
-                t_s: t,
                 mass_kg: truth.mass_kg,
-                tte: r.time_to_empty_s,
+                outflow_kg_s: truth.outflow_kg_s,
+                tte: r.time_to_empty_s.filter(|_| confident),
             });
         }
         for ev in r.events.iter() {
@@ -490,23 +502,28 @@ impl Scorer {
         let n = self.n_judged as f64;
         let judged = self.n_judged > 0;
         self.rel_u.sort_by(f32::total_cmp);
-        // Time to empty: the true time at which the mass reaches the reserve.
+        // Time to empty at the true present rate (see the module documentation).
         let reserve = self.reserve_fraction * self.rated_true;
         let mut tte_err = Vec::new();
         let mut tte_cov = 0u64;
-        let mut reach: Option<f64> = None;
-        for m in self.minutes.iter().rev() {
-            if m.mass_kg <= reserve {
-                reach = Some(m.t_s);
-            } else if let Some(at) = reach {
-                let truth = at - m.t_s;
-                if truth > 3600.0
-                    && let Some((e, lo, hi)) = m.tte
-                {
-                    tte_err.push((e - truth).abs() / truth);
-                    if lo <= truth && hi.is_none_or(|h| truth <= h) {
-                        tte_cov += 1;
-                    }
+        const WINDOW: usize = 32;
+        for (i, m) in self.minutes.iter().enumerate().skip(WINDOW) {
+            let Some((e, lo, hi)) = m.tte else { continue };
+            let Some(w) = self.minutes.get(i + 1 - WINDOW..=i) else {
+                continue;
+            };
+            let mean = w.iter().map(|x| x.outflow_kg_s).sum::<f64>() / WINDOW as f64;
+            let steady = mean > 0.0
+                && w.iter()
+                    .all(|x| (x.outflow_kg_s - mean).abs() <= 0.05 * mean);
+            if !steady {
+                continue;
+            }
+            let truth = (m.mass_kg - reserve) / mean;
+            if truth > 3600.0 {
+                tte_err.push((e - truth).abs() / truth);
+                if lo <= truth && hi.is_none_or(|h| truth <= h) {
+                    tte_cov += 1;
                 }
             }
         }

@@ -438,6 +438,9 @@ pub struct GaugeSection {
     pub model_uncertainty: Option<f64>,
     /// Declared standard uncertainty of the temperature lag (default 10 min).
     pub temperature_lag: Option<String>,
+    /// `over_temperature` limit (default 65 °C; e.g. `"85C"` for a hydrogen
+    /// vehicle tank).
+    pub temperature_max: Option<String>,
     /// Stuck check of both channels: a converted value that does not move at
     /// all for this long is stuck (default 60 s; `"0s"` turns it off).
     #[serde(default = "default_stuck")]
@@ -467,6 +470,7 @@ impl Default for GaugeSection {
             capacity: None,
             model_uncertainty: None,
             temperature_lag: None,
+            temperature_max: None,
             stuck_after: default_stuck(),
         }
     }
@@ -960,6 +964,9 @@ impl ScenarioFile {
             .as_deref()
             .map(|d| flow_kg_s(d, gas, "gauge.declared_draw").map(|x| x * 3600.0))
             .transpose()?;
+        if let Some(t) = &g.temperature_max {
+            track.limits.temperature_max_k = units::temperature_k(t, "gauge.temperature_max")?;
+        }
         track.validate()?;
         let stuck = Millis((duration_s(&g.stuck_after, "gauge.stuck_after")? * 1e3) as u64);
         let gauge = GaugeConfig {
@@ -979,9 +986,10 @@ impl ScenarioFile {
                 0.0,
                 stuck,
             )?,
-            // −100 … +200 °C, at most 2 K/s plus 0.5 K between samples.
+            // −100 … +200 °C, at most 5 K/s plus 1 K between samples (a
+            // sensor in the gas of a fast fill sees a few K/s).
             temperature_plausibility: PlausibilityConfig::new(
-                173.15, 473.15, 2.0, 0.5, 0.0, stuck,
+                173.15, 473.15, 5.0, 1.0, 0.0, stuck,
             )?,
             track,
         };
