@@ -505,6 +505,8 @@ pub struct Scenario {
     pub seed: u64,
     /// Start times of the leaks, s (for scoring).
     pub leak_starts_s: Vec<f64>,
+    /// The file it was built from.
+    pub source: ScenarioFile,
 }
 
 impl Scenario {
@@ -529,14 +531,21 @@ impl Scenario {
             })
     }
 
-    /// The same scenario cut to `duration_s` and with another seed.
+    /// The same scenario cut to `duration_s` and with another seed: another
+    /// weather, noise and — with `instrument = "drawn"` — another instrument
+    /// drawn from the declared uncertainties.
     pub fn with(mut self, duration_s: Option<f64>, seed: Option<u64>) -> Scenario {
+        if let Some(s) = seed {
+            let mut file = self.source.clone();
+            file.seed = s;
+            let interval = self.interval_ms;
+            if let Ok(sc) = file.build() {
+                self = sc;
+                self.interval_ms = interval;
+            }
+        }
         if let Some(d) = duration_s {
             self.duration_s = d;
-        }
-        if let Some(s) = seed {
-            self.seed = s;
-            self.plant.seed = s;
         }
         self
     }
@@ -1007,6 +1016,7 @@ impl ScenarioFile {
             tank,
             seed: self.seed,
             leak_starts_s: leaks.iter().map(|l| l.start_s).collect(),
+            source: self.clone(),
         })
     }
 }
