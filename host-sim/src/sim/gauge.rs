@@ -91,8 +91,8 @@ pub enum ModelKind {
 /// A gas model chosen at run time (both seams, by delegation).
 #[derive(Clone, Debug)]
 pub enum GaugeModel {
-    /// Built-in device table.
-    Device(DeviceModel<'static>),
+    /// Built-in device table (boxed: a prepared table is 2.7 kB).
+    Device(Box<DeviceModel<'static>>),
     /// Ideal gas.
     Ideal(Ideal),
     /// Reference equation of state.
@@ -103,7 +103,7 @@ impl GaugeModel {
     /// The model of `kind` for `gas`.
     pub fn new(kind: ModelKind, gas: Gas) -> Result<GaugeModel, Error> {
         Ok(match kind {
-            ModelKind::Device => GaugeModel::Device(DeviceModel::builtin(gas)?),
+            ModelKind::Device => GaugeModel::Device(Box::new(DeviceModel::builtin(gas)?)),
             ModelKind::Ideal => GaugeModel::Ideal(Ideal::new(gas)),
             ModelKind::Reference => GaugeModel::Reference(Box::new(ReferenceModel::new(gas))),
         })
@@ -113,7 +113,7 @@ impl GaugeModel {
 impl CompressibilityFx for GaugeModel {
     fn gas(&self) -> Gas {
         match self {
-            GaugeModel::Device(m) => CompressibilityFx::gas(m),
+            GaugeModel::Device(m) => CompressibilityFx::gas(m.as_ref()),
             GaugeModel::Ideal(m) => CompressibilityFx::gas(m),
             GaugeModel::Reference(m) => CompressibilityFx::gas(m.as_ref()),
         }
@@ -147,7 +147,7 @@ impl Compressibility<f64> for GaugeModel {
     }
     fn range(&self) -> ModelRange {
         match self {
-            GaugeModel::Device(m) => Compressibility::<f64>::range(m),
+            GaugeModel::Device(m) => Compressibility::<f64>::range(m.as_ref()),
             GaugeModel::Ideal(m) => Compressibility::<f64>::range(m),
             GaugeModel::Reference(m) => Compressibility::<f64>::range(m.as_ref()),
         }

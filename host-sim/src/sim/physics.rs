@@ -299,6 +299,10 @@ struct Modes {
     blow_done: Vec<bool>,
 }
 
+/// One Dormand–Prince step: the new state, the error estimate, and the
+/// rates and derived values at the new state.
+type Stage = ([f64; N], [f64; N], [f64; N], Aux);
+
 /// The supply state of a fill (computed once).
 #[derive(Clone, Copy, Debug)]
 struct Supply {
@@ -502,13 +506,13 @@ impl Simulator {
                 h *= f;
                 continue;
             }
-            // Event: a fill or blow-down reaching its pressure inside the step.
-            if let Some(frac) = self.pressure_event(self.b.p, aux1.p) {
-                if frac < 0.999 {
-                    h *= frac.max(1e-3);
-                    continue;
-                }
-                // Close enough: the event happens at the end of this step.
+            // Event: a fill or blow-down reaching its pressure inside the
+            // step (from 0.999 of the step on, it happens at its end).
+            if let Some(frac) = self.pressure_event(self.b.p, aux1.p)
+                && frac < 0.999
+            {
+                h *= frac.max(1e-3);
+                continue;
             }
             let grow = if e > 0.0 {
                 (0.9 * e.powf(-0.2)).min(5.0)
@@ -786,7 +790,7 @@ impl Simulator {
         y: &[f64; N],
         k1: &[f64; N],
         h: f64,
-    ) -> Result<([f64; N], [f64; N], [f64; N], Aux), Error> {
+    ) -> Result<Stage, Error> {
         const C: [f64; 6] = [0.2, 0.3, 0.8, 8.0 / 9.0, 1.0, 1.0];
         const A: [[f64; 6]; 6] = [
             [0.2, 0.0, 0.0, 0.0, 0.0, 0.0],

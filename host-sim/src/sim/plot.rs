@@ -186,12 +186,7 @@ where
             .axis_desc_style(axis.clone())
             .draw()
             .map_err(out)?;
-        let series: [(
-            &str,
-            RGBColor,
-            u32,
-            Box<dyn Fn(&super::run::TracePoint) -> Option<f64>>,
-        ); 4] = [
+        let series: [Curve; 4] = [
             (
                 "ambient",
                 GREEN,
@@ -426,6 +421,14 @@ where
     }
     Ok(())
 }
+
+/// A curve of the temperature panel: name, colour, width, value.
+type Curve = (
+    &'static str,
+    RGBColor,
+    u32,
+    Box<dyn Fn(&super::run::TracePoint) -> Option<f64>>,
+);
 
 /// Draws the legend box of a panel.
 fn legend<'a, DB, CT>(c: &mut ChartContext<'a, DB, CT>, font: &FontDesc<'_>) -> Result<(), Error>
