@@ -784,13 +784,7 @@ impl Simulator {
 
     /// One Dormand–Prince 5(4) step: the 5th-order solution and the error
     /// estimate.
-    fn dp45(
-        &mut self,
-        t: f64,
-        y: &[f64; N],
-        k1: &[f64; N],
-        h: f64,
-    ) -> Result<Stage, Error> {
+    fn dp45(&mut self, t: f64, y: &[f64; N], k1: &[f64; N], h: f64) -> Result<Stage, Error> {
         const C: [f64; 6] = [0.2, 0.3, 0.8, 8.0 / 9.0, 1.0, 1.0];
         const A: [[f64; 6]; 6] = [
             [0.2, 0.0, 0.0, 0.0, 0.0, 0.0],

@@ -280,10 +280,13 @@ where
     }
     // 4. Content error against the uncertainty.
     {
+        // Above the reserve only (as the scores): near empty, full-scale
+        // errors make any relative figure large.
+        let reserve = 0.05 * s.rated_mass_true_kg;
         let rel = |p: &super::run::TracePoint| {
             p.mass_gauge_kg
                 .zip(p.u_mass_kg)
-                .filter(|_| p.mass_true_kg > 0.0)
+                .filter(|_| p.mass_true_kg > reserve)
                 .map(|(m, u)| {
                     (
                         100.0 * (m - p.mass_true_kg) / p.mass_true_kg,
@@ -304,7 +307,7 @@ where
         );
         let mut c = ChartBuilder::on(&panels[3])
             .caption(
-                "Content error: gauge − true, % of the true content (outside fills)",
+                "Content error: gauge − true, % of the true content (settled, above the 5 % reserve)",
                 caption.clone(),
             )
             .margin(12)
