@@ -28,7 +28,7 @@
 //!   stagnation enthalpy (throttling is isenthalpic, so Joule–Thomson effects
 //!   come out of the equation of state). Written for dT/dt with
 //!   (∂u/∂ρ)_T = (p − T·(∂p/∂T)_ρ)/ρ² and the vessel's dV/dt = V₀·(e_p·ṗ + e_T·Ṫ_w)
-//!   solved together (a 2 × 2 linear system, closed form in [`Plant::rates`]).
+//!   solved together (a 2 × 2 linear system, closed form, DEVELOPERS.md "Tank simulator").
 //!   A fast fill heats the gas (the inflow's enthalpy does work on the gas
 //!   already in), a fast draw cools it (what stays expands).
 //! * **Wall**: C_w·dT_w/dt = h_i·A_i·(T − T_w) + h_o·A_o·(T_amb − T_w) + α·A_sun·G(t),
