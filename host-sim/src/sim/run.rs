@@ -260,7 +260,7 @@ pub fn run_with(
         let codes = sensors.sample(&truth)?;
         let r = gauge.sample(Instant(ms), &codes)?;
         first_mass.get_or_insert(truth.mass_kg);
-        score.add(&truth, &r, &sensors);
+        score.add(ms, &truth, &r, &sensors);
         if i % trace_every == 0 {
             let mut tp = point(&truth, &r);
             tp.ambient_temperature_k = sim.ambient_k(t);
@@ -362,7 +362,7 @@ struct Scorer {
     last_fault_s: f64,
     t_gas: (f64, f64),
     p_max: f64,
-    interval_s: f64,
+    interval_ms: u64,
 }
 
 impl Scorer {
@@ -387,19 +387,18 @@ impl Scorer {
             last_fault_s: f64::NEG_INFINITY,
             t_gas: (f64::INFINITY, f64::NEG_INFINITY),
             p_max: 0.0,
-            interval_s: sc.interval_ms as f64 / 1e3,
+            interval_ms: sc.interval_ms,
         }
     }
 
-    fn add(&mut self, truth: &Truth, r: &Reading, sensors: &SensorPair) {
+    fn add(&mut self, ms: u64, truth: &Truth, r: &Reading, sensors: &SensorPair) {
         let t = truth.t_s;
         if sensors.fault_active(t) {
             self.last_fault_s = t;
         }
         self.t_gas = (self.t_gas.0.min(truth.gas_k), self.t_gas.1.max(truth.gas_k));
         self.p_max = self.p_max.max(truth.pressure_pa);
-        let step_ms = (self.interval_s * 1e3).round() as u64;
-        let minute = ((t * 1e3).round() as u64) % 60_000 < step_ms;
+        let minute = ms % 60_000 < self.interval_ms;
         let flagged = r
             .status
             .intersects(Status::NOT_SETTLED | Status::SENSOR_FAULT | Status::SENSOR_RANGE);
