@@ -442,25 +442,21 @@ impl Simulator {
         }
         let (a, b) = (&self.a, &self.b);
         let h = b.t - a.t;
-        let herm = |ya: f64, fa: f64, yb: f64, fb: f64| -> f64 {
-            if h <= 0.0 {
-                return yb;
-            }
-            let s = ((t_s - a.t) / h).clamp(0.0, 1.0);
-            let s2 = s * s;
-            let s3 = s2 * s;
-            (2.0 * s3 - 3.0 * s2 + 1.0) * ya
-                + (s3 - 2.0 * s2 + s) * h * fa
-                + (-2.0 * s3 + 3.0 * s2) * yb
-                + (s3 - s2) * h * fb
+        // Cubic Hermite basis, once for every quantity.
+        let x = if h > 0.0 {
+            ((t_s - a.t) / h).clamp(0.0, 1.0)
+        } else {
+            1.0
         };
-        let lin = |ya: f64, yb: f64| {
-            if h <= 0.0 {
-                yb
-            } else {
-                ya + (yb - ya) * ((t_s - a.t) / h).clamp(0.0, 1.0)
-            }
-        };
+        let (x2, x3) = (x * x, x * x * x);
+        let (h00, h10, h01, h11) = (
+            2.0 * x3 - 3.0 * x2 + 1.0,
+            (x3 - 2.0 * x2 + x) * h,
+            -2.0 * x3 + 3.0 * x2,
+            (x3 - x2) * h,
+        );
+        let herm = |ya: f64, fa: f64, yb: f64, fb: f64| h00 * ya + h10 * fa + h01 * yb + h11 * fb;
+        let lin = |ya: f64, yb: f64| ya + (yb - ya) * x;
         Ok(Truth {
             t_s,
             mass_kg: herm(a.y[0], a.f[0], b.y[0], b.f[0]),

@@ -183,6 +183,8 @@ pub struct SensorPair {
     rng: ChaCha8Rng,
     sensor_k: Option<f64>,
     last_t_s: f64,
+    /// The lag's step factor 1 − e^(−Δt/τ) and the Δt it was made for.
+    lag: (f64, f64),
     /// Codes frozen by a stuck fault, per fault.
     frozen: Vec<Option<Codes>>,
     last: Option<Codes>,
@@ -247,6 +249,7 @@ impl SensorPair {
             rng,
             sensor_k: None,
             last_t_s: 0.0,
+            lag: (f64::NAN, 0.0),
             last: None,
             element_k: 0.0,
         })
@@ -277,7 +280,10 @@ impl SensorPair {
                 let dt = (t - self.last_t_s).max(0.0);
                 let tau = self.temperature.time_constant_s;
                 if tau > 0.0 {
-                    prev + (touched - prev) * (1.0 - (-dt / tau).exp())
+                    if dt != self.lag.0 {
+                        self.lag = (dt, 1.0 - (-dt / tau).exp());
+                    }
+                    prev + (touched - prev) * self.lag.1
                 } else {
                     touched
                 }
