@@ -13,6 +13,7 @@
 //! * [`reference`](mod@reference) — the reference equation of state as a gas model.
 //! * [`safety`] — the cautions printed with every human-readable result.
 //! * [`sensor`] — sensor option parsing and the least-squares calibration fit.
+//! * [`sim`] — the tank simulator: physics, sensors, scenarios, scored runs, plots.
 //! * [`cli`] — argument parsing and the commands.
 
 pub mod bench;
@@ -26,6 +27,7 @@ pub mod model;
 pub mod reference;
 pub mod safety;
 pub mod sensor;
+pub mod sim;
 pub mod units;
 
 pub use error::Error;
