@@ -43,6 +43,7 @@
 )]
 
 pub mod alarm;
+pub mod app;
 pub mod auth;
 pub mod checksum;
 pub mod constants;

@@ -81,6 +81,15 @@ flags! {
     STORAGE_WRITE_FAILED = 27, "storage_write_failed";
     /// Signed commands are refused for a while after failed signatures.
     AUTH_LOCKED_OUT = 28, "auth_locked_out";
+    /// The stored setup, calibrations and gas model cannot be used together
+    /// (no gas model for the setup's gas in this build, a setup the model
+    /// refuses, or a sensor configuration that cannot be prepared): the
+    /// device sends no content figures until the configuration is fixed.
+    CONFIG_UNUSABLE = 29, "config_unusable";
+    /// The device restarted after a fault (panic or watchdog); the reason was
+    /// reported in its boot message. Latched until alarms are cleared by a
+    /// signed command.
+    RESTARTED_AFTER_FAULT = 30, "restarted_after_fault";
     /// A resistive sensor or its wiring is open (resistance above the open
     /// threshold, or the converter driven to its upper rail by an open input).
     SENSOR_OPEN_CIRCUIT = 8, "sensor_open_circuit";

@@ -3,9 +3,10 @@
 
 use heapless::Vec as HVec;
 use isochor_core::link::{
-    self, Accumulator, AlarmEvent, AlarmTransition, Command, Feed, GetChallenge, GetIdentity,
-    Identity, InjectSample, Kind, MAX_FRAME_LEN, Message, Origin, Outcome, Ping, RawCode,
-    ReadRecord, Refusal, Reply, SensorChannel, Signed, Telemetry,
+    self, Accumulator, AlarmEvent, AlarmTransition, Boot, BootReport, Command, Diagnostics, Feed,
+    GetChallenge, GetDiagnostics, GetIdentity, Identity, InjectSample, Kind, MAX_FRAME_LEN,
+    Message, Origin, Outcome, Ping, RawCode, ReadRecord, Refusal, Reply, ResetReason,
+    SensorChannel, Signed, Telemetry,
 };
 use isochor_core::{Error, checksum};
 use proptest::collection::vec;
@@ -102,10 +103,33 @@ fn max_frame_is_small_and_reached_by_no_message() {
             standard_volume_m3: u64::MAX,
             settled_pressure_pa: u32::MAX,
             fill_fraction: u64::MAX,
-            rate_kg_h: i64::MIN,
+            rate_kg_h: Some(i64::MIN),
+            rate_uncertainty_kg_h: Some(i64::MIN),
             time_to_empty_s: Some(u32::MAX),
-            mass_uncertainty_kg: u64::MAX,
+            time_to_empty_earliest_s: Some(u32::MAX),
+            time_to_empty_latest_s: Some(u32::MAX),
+            mass_uncertainty_kg: Some(u64::MAX),
+            fill_fraction_uncertainty: Some(u64::MAX),
             status: u32::MAX,
+        }),
+        Message::Boot(Boot {
+            serial: u64::MAX,
+            firmware_version: [u8::MAX; 3],
+            report: BootReport::new(ResetReason::Panic, u32::MAX)
+                .with_location(&"é".repeat(60), u32::MAX),
+        }),
+        Message::Reply(Reply {
+            tag: u16::MAX,
+            outcome: Outcome::Diagnostics(Diagnostics {
+                uptime_ms: u64::MAX,
+                boot: BootReport::new(ResetReason::Watchdog, u32::MAX)
+                    .with_location(&"x".repeat(60), u32::MAX),
+                stack_peak_bytes: u32::MAX,
+                stack_size_bytes: u32::MAX,
+                frames: u32::MAX,
+                bad_frames: u32::MAX,
+                samples: u32::MAX,
+            }),
         }),
     ];
     for m in big {
@@ -264,26 +288,38 @@ fn telemetry() -> impl Strategy<Value = Telemetry> {
             any::<u64>(),
             any::<u32>(),
             any::<u64>(),
-            any::<i64>(),
+            any::<Option<i64>>(),
             any::<Option<u32>>(),
         ),
-        (any::<u64>(), any::<u32>()),
+        (
+            any::<Option<u64>>(),
+            any::<u32>(),
+            any::<Option<i64>>(),
+            any::<(Option<u32>, Option<u32>)>(),
+            any::<Option<u64>>(),
+        ),
     )
-        .prop_map(|((a, b, c, d, e, f), (g, h, i, j, k), (l, m))| Telemetry {
-            seq: a,
-            uptime_ms: b,
-            pressure_pa: c,
-            temperature_k: d,
-            density_kg_m3: e,
-            mass_kg: f,
-            standard_volume_m3: g,
-            settled_pressure_pa: h,
-            fill_fraction: i,
-            rate_kg_h: j,
-            time_to_empty_s: k,
-            mass_uncertainty_kg: l,
-            status: m,
-        })
+        .prop_map(
+            |((a, b, c, d, e, f), (g, h, i, j, k), (l, m, n, (o, p), q))| Telemetry {
+                seq: a,
+                uptime_ms: b,
+                pressure_pa: c,
+                temperature_k: d,
+                density_kg_m3: e,
+                mass_kg: f,
+                standard_volume_m3: g,
+                settled_pressure_pa: h,
+                fill_fraction: i,
+                rate_kg_h: j,
+                rate_uncertainty_kg_h: n,
+                time_to_empty_s: k,
+                time_to_empty_earliest_s: o,
+                time_to_empty_latest_s: p,
+                mass_uncertainty_kg: l,
+                fill_fraction_uncertainty: q,
+                status: m,
+            },
+        )
 }
 
 fn refusal() -> impl Strategy<Value = Refusal> {
@@ -299,7 +335,25 @@ fn refusal() -> impl Strategy<Value = Refusal> {
         Just(Refusal::BlobCrc),
         Just(Refusal::BlobTooLarge),
         Just(Refusal::Storage),
+        Just(Refusal::BadGasModel),
     ]
+}
+
+fn reset_reason() -> impl Strategy<Value = ResetReason> {
+    prop_oneof![
+        Just(ResetReason::PowerOn),
+        Just(ResetReason::Requested),
+        Just(ResetReason::Panic),
+        Just(ResetReason::Watchdog),
+        Just(ResetReason::HardFault),
+        Just(ResetReason::Unknown),
+    ]
+}
+
+fn boot_report() -> impl Strategy<Value = BootReport> {
+    (reset_reason(), any::<u32>(), any::<u32>(), "[a-z/._]{0,70}").prop_map(
+        |(reason, boots, line, file)| BootReport::new(reason, boots).with_location(&file, line),
+    )
 }
 
 fn outcome() -> impl Strategy<Value = Outcome> {
@@ -327,6 +381,22 @@ fn outcome() -> impl Strategy<Value = Outcome> {
         (any::<u32>(), any::<[u8; 32]>()).prop_map(|(counter, mac)| Outcome::Done { counter, mac }),
         Just(Outcome::Taken),
         refusal().prop_map(Outcome::Refused),
+        (
+            any::<u64>(),
+            boot_report(),
+            any::<(u32, u32, u32, u32, u32)>()
+        )
+            .prop_map(|(uptime_ms, boot, (a, b, c, d, e))| {
+                Outcome::Diagnostics(Diagnostics {
+                    uptime_ms,
+                    boot,
+                    stack_peak_bytes: a,
+                    stack_size_bytes: b,
+                    frames: c,
+                    bad_frames: d,
+                    samples: e,
+                })
+            }),
     ]
 }
 
@@ -334,6 +404,14 @@ fn message() -> impl Strategy<Value = Message> {
     prop_oneof![
         identity().prop_map(Message::Identity),
         telemetry().prop_map(Message::Telemetry),
+        (any::<u64>(), any::<[u8; 3]>(), boot_report()).prop_map(
+            |(serial, firmware_version, report)| Message::Boot(Boot {
+                serial,
+                firmware_version,
+                report
+            })
+        ),
+        any::<u16>().prop_map(|tag| Message::GetDiagnostics(GetDiagnostics { tag })),
         (
             any::<u32>(),
             any::<u64>(),

@@ -1,62 +1,106 @@
-//! isochor reference firmware (minimal): links the core and runs one content
-//! estimate in fixed point, reporting it over semihosting. The application
-//! loop, boards, link and storage grow here (see DEVELOPERS.md).
+//! The isochor reference firmware: the gauge application on the board of
+//! the build target (`thumbv6m-none-eabi`: QEMU `microbit`;
+//! `thumbv7em-none-eabihf`: QEMU `mps2-an386`). See the library for the
+//! pieces and DEVELOPERS.md for the architecture.
+//!
+//! Panic strategy: a panic (or a hard fault, or the watchdog) records its
+//! reason — and for a panic the source location — in memory a reset keeps,
+//! then resets the board. The next start reports it in its boot message and
+//! its diagnostics, and telemetry carries `restarted_after_fault` until a
+//! signed clear-alarms command acknowledges it.
 #![no_std]
 #![no_main]
 
-use cortex_m_rt::entry;
-use cortex_m_semihosting::{debug, hprintln};
-use isochor_core::content::fixed::Estimator;
-use isochor_core::model::Ideal;
-use isochor_core::{Gas, SetupFx, StandardConditionFx, TankFx, fx};
+use core::mem::MaybeUninit;
+use cortex_m_rt::{ExceptionFrame, entry, exception};
+use isochor_core::link::ResetReason;
 
-/// A 50 L nitrogen cylinder rated 200 bar at 15 °C; ISO 13443 standard
-/// volume; settled pressure at 15 °C. Fixed-point literals: no float on the device.
-const SETUP: SetupFx = SetupFx {
-    gas: Gas::Nitrogen,
-    tank: TankFx {
-        water_capacity_m3: fx::Volume::lit("0.05"),
-        rated_pressure_pa: fx::Pressure::lit("20000000"),
-        rated_temperature_k: fx::Temperature::lit("288.15"),
-        elastic_expansion_per_mpa: fx::ElasticExpansion::ZERO,
-        thermal_expansion_per_k: fx::ThermalExpansion::ZERO,
-    },
-    standard: StandardConditionFx {
-        temperature_k: fx::Temperature::lit("288.15"),
-        pressure_pa: fx::Pressure::lit("101325"),
-    },
-    settled_reference_k: fx::Temperature::lit("288.15"),
+use isochor_core::model::DeviceModel;
+use isochor_core::model::device::TableBuf;
+use isochor_firmware::arm;
+
+#[cfg(not(target_abi = "eabihf"))]
+use isochor_firmware::arm::microbit as board;
+#[cfg(target_abi = "eabihf")]
+use isochor_firmware::arm::mps2 as board;
+
+#[cfg(feature = "defmt")]
+use defmt_rtt as _;
+
+/// Room for one decoded gas-model table (builds with `model-load`).
+#[cfg(feature = "model-load")]
+static mut MODEL: TableBuf = TableBuf {
+    gas: isochor_core::Gas::Nitrogen,
+    temperature_knots: heapless::Vec::new(),
+    pressure_knots: heapless::Vec::new(),
+    z_offset: 0,
+    z_step_exp: 0,
+    z_floor: 0,
+    coefs: heapless::Vec::new(),
+    boundary: None,
 };
 
-#[entry]
-fn main() -> ! {
-    let code = match Estimator::new(SETUP, Ideal::new(Gas::Nitrogen)) {
-        Ok(est) => {
-            let c = est.estimate(
-                fx::Pressure::lit("20000000"),
-                fx::Temperature::lit("308.15"),
-            );
-            // Print raw bits: formatting fixed-point numbers pulls in float code.
-            hprintln!(
-                "mass_bits={} settled_bits={} status={:#x}",
-                c.mass_kg.to_bits(),
-                c.settled_pressure_pa.to_bits(),
-                c.status.bits()
-            );
-            debug::EXIT_SUCCESS
-        }
-        Err(_) => debug::EXIT_FAILURE,
-    };
-    debug::exit(code);
-    loop {
-        cortex_m::asm::wfi();
+fn model_buffer() -> Option<&'static mut TableBuf> {
+    #[cfg(feature = "model-load")]
+    {
+        // SAFETY: taken once, here, before anything else can reach it.
+        Some(unsafe { &mut *core::ptr::addr_of_mut!(MODEL) })
+    }
+    #[cfg(not(feature = "model-load"))]
+    {
+        None
     }
 }
 
-#[panic_handler]
-fn panic(_: &core::panic::PanicInfo) -> ! {
-    debug::exit(debug::EXIT_FAILURE);
-    loop {
-        cortex_m::asm::wfi();
+/// The prepared gas model of this start.
+static mut PREPARED: MaybeUninit<DeviceModel<'static>> = MaybeUninit::uninit();
+
+#[entry]
+fn main() -> ! {
+    arm::paint_stack();
+    #[cfg(target_abi = "eabihf")]
+    let b = board::Mps2::take();
+    #[cfg(not(target_abi = "eabihf"))]
+    let b = board::Microbit::take();
+    match b {
+        // SAFETY: taken once, here.
+        Some(b) => isochor_firmware::run::run(b, model_buffer(), unsafe {
+            &mut *core::ptr::addr_of_mut!(PREPARED)
+        }),
+        None => arm::record_and_reset(ResetReason::HardFault, None),
     }
+}
+
+#[exception]
+fn SysTick() {
+    arm::tick();
+}
+
+#[exception]
+unsafe fn DefaultHandler(irqn: i16) {
+    #[cfg(target_abi = "eabihf")]
+    if irqn == board::UART0_RX_IRQ as i16 {
+        board::uart0_rx_interrupt();
+    }
+    #[cfg(not(target_abi = "eabihf"))]
+    if irqn == board::UART0_IRQ as i16 {
+        board::uart0_interrupt();
+    }
+}
+
+/// The watchdog's first expiry (mps2-an386: wired to NMI).
+#[exception]
+unsafe fn NonMaskableInt() {
+    arm::record_and_reset(ResetReason::Watchdog, None);
+}
+
+#[exception]
+unsafe fn HardFault(_frame: &ExceptionFrame) -> ! {
+    arm::record_and_reset(ResetReason::HardFault, None)
+}
+
+#[panic_handler]
+fn panic(info: &core::panic::PanicInfo) -> ! {
+    let location = info.location().map(|l| (l.file(), l.line()));
+    arm::record_and_reset(ResetReason::Panic, location)
 }

@@ -15,7 +15,7 @@ use isochor_core::constants::{BAR_PA, PSI_PA, ZERO_CELSIUS_K, fahrenheit_to_kelv
 
 /// Splits `"200bar"` into `(200.0, "bar")` using the longest prefix that reads
 /// as a finite number.
-fn split(input: &str, what: &'static str) -> Result<(f64, String), Error> {
+pub(crate) fn split(input: &str, what: &'static str) -> Result<(f64, String), Error> {
     let s = input.trim();
     let err = |reason: &str| Error::Quantity {
         what,

@@ -11,14 +11,17 @@ use std::time::Duration;
 use isochor_core::auth::{self, Secret};
 use isochor_core::fixed::types::U28F4;
 use isochor_core::link::{
-    self, Command, Message, Origin, Outcome, RawCode, Refusal, SensorChannel, Signed, Telemetry,
+    self, Command, Message, Origin, Outcome, Refusal, ResetReason, SensorChannel, Signed,
+    Telemetry, capability,
 };
-use isochor_core::store::{GasModelRef, Record};
-use isochor_core::{Gas, Setup, SetupFx, Status, Tank};
+use isochor_core::model::device::{TableBuf, builtin};
+use isochor_core::store::{GasModelRef, PressureCalibration, Record, TemperatureCalibration};
+use isochor_core::{Gas, Setup, SetupFx, Status, Tank, fx};
 use isochor_sim::Error;
+use isochor_sim::bench::Bench;
 use isochor_sim::link::emulated::EmulatedDevice;
 use isochor_sim::link::transport::{MemoryEnd, Tcp};
-use isochor_sim::link::{Client, Link, memory_pair};
+use isochor_sim::link::{Client, memory_pair};
 
 const SERIAL: u64 = 20_260_001;
 const SECRET_HEX: &str = "8f1d2c3b4a5968778695a4b3c2d1e0f00112233445566778899aabbccddeeff0";
@@ -30,11 +33,10 @@ fn secret() -> Secret {
 /// A device thread on one end of an in-memory pipe; returns the client end
 /// and a handle giving the device back when the client hangs up.
 fn start() -> (Client<MemoryEnd>, thread::JoinHandle<EmulatedDevice>) {
-    let (host, dev) = memory_pair();
+    let (host, mut dev) = memory_pair();
     let handle = thread::spawn(move || {
         let mut device = EmulatedDevice::new(SERIAL, secret()).unwrap();
-        let mut link = Link::new(dev);
-        device.serve(&mut link).unwrap();
+        device.serve(&mut dev).unwrap();
         device
     });
     (Client::new(host, Duration::from_secs(5)), handle)
@@ -42,6 +44,24 @@ fn start() -> (Client<MemoryEnd>, thread::JoinHandle<EmulatedDevice>) {
 
 fn n2_setup() -> SetupFx {
     SetupFx::from_f64(&Setup::new(Gas::Nitrogen, Tank::new(0.050, 200e5))).unwrap()
+}
+
+/// The nominal sensors of the reference board, on a bench.
+fn bench() -> Bench {
+    Bench::new(
+        PressureCalibration::nominal().0,
+        TemperatureCalibration::nominal().0,
+        101_325.0,
+    )
+}
+
+fn telemetry(msgs: &[Message]) -> Vec<Telemetry> {
+    msgs.iter()
+        .filter_map(|m| match m {
+            Message::Telemetry(t) => Some(*t),
+            _ => None,
+        })
+        .collect()
 }
 
 #[test]
@@ -53,6 +73,7 @@ fn requests_and_signed_commands_over_memory() {
     assert_eq!(id.serial, SERIAL);
     assert_eq!(id.protocol, link::PROTOCOL_VERSION);
     assert_eq!(usize::from(id.max_frame_len), link::MAX_FRAME_LEN);
+    assert_ne!(id.capabilities & capability::SAMPLE_INJECTION, 0);
 
     // Nothing stored yet: safe defaults, said so.
     let r = client.read_record::<SetupFx>().unwrap();
@@ -66,62 +87,90 @@ fn requests_and_signed_commands_over_memory() {
     let r = client.read_record::<SetupFx>().unwrap();
     assert_eq!((r.value, r.origin), (n2_setup(), Origin::Stored));
 
-    // Several commands in one session, then a reboot (new session after it).
+    // Zeroing needs a present reading: refused before any sample.
+    assert!(matches!(
+        client.signed(Command::ZeroCalibration {
+            channel: SensorChannel::Pressure,
+        }),
+        Err(Error::Invalid(_))
+    ));
+    // A vented vessel reading 0.2 bar too high: the zero takes it out.
+    let vented = bench().sample(101_325.0 + 20_000.0, 293.15).unwrap();
+    client.inject(1_000, &Bench::raw_codes(&vented)).unwrap();
     client
         .signed(Command::ZeroCalibration {
             channel: SensorChannel::Pressure,
         })
         .unwrap();
+    let cal = client.read_record::<PressureCalibration>().unwrap();
+    assert_eq!(cal.origin, Origin::Stored);
+    assert_eq!(cal.value.0.sequence, 1);
+    // The same code now reads the barometric pressure (within 0.01 Pa).
+    client.take_unsolicited();
+    client.inject(2_000, &Bench::raw_codes(&vented)).unwrap();
+    client.collect(Duration::from_millis(200)).unwrap();
+    let t = telemetry(&client.take_unsolicited());
+    let p = fx::to_f64(fx::Pressure::from_bits(t.last().unwrap().pressure_pa));
+    assert!((p - 101_325.0).abs() < 0.01, "{p}");
+
+    // Several commands in one session, then a reboot (new session after it).
     client.signed(Command::ClearAlarms).unwrap();
     client.signed(Command::Reboot).unwrap();
     client.signed(Command::ClearAlarms).unwrap();
-    // The setup survived the restart (it is in flash).
+    // The setup and the calibration survived the restart (they are in flash).
     let r = client.read_record::<SetupFx>().unwrap();
     assert_eq!((r.value, r.origin), (n2_setup(), Origin::Stored));
+    assert_eq!(client.read_record::<PressureCalibration>().unwrap(), cal);
+    let boots: Vec<_> = client
+        .take_unsolicited()
+        .into_iter()
+        .filter_map(|m| match m {
+            Message::Boot(b) => Some(b.report.reason),
+            _ => None,
+        })
+        .collect();
+    assert_eq!(boots, vec![ResetReason::Requested]);
 
-    // A gas-model blob in chunks.
-    let blob: Vec<u8> = (0..5000u32).map(|i| (i % 251) as u8).collect();
+    // A gas-model blob that is not a table: refused, nothing committed.
+    let junk: Vec<u8> = (0..5000u32).map(|i| (i % 251) as u8).collect();
+    match client.load_gas_model(&junk, &mut |_| {}) {
+        Err(Error::Refused(m)) => assert!(m.contains("gas-model table"), "{m}"),
+        other => panic!("{other:?}"),
+    }
+    assert_eq!(
+        client.read_record::<GasModelRef>().unwrap().value,
+        GasModelRef::NONE
+    );
+    // A real table in chunks: committed, and used after the restart it
+    // causes.
+    let table = TableBuf::from_table(&builtin::table(Gas::Nitrogen).unwrap()).unwrap();
+    let mut blob = vec![0u8; 4096];
+    let n = table.to_blob(&mut blob).unwrap();
+    blob.truncate(n);
     let mut sent = 0;
     client.load_gas_model(&blob, &mut |n| sent = n).unwrap();
     assert_eq!(sent, blob.len());
     let g = client.read_record::<GasModelRef>().unwrap();
-    assert_eq!(g.value.len, 5000);
+    assert_eq!(g.value.len as usize, blob.len());
     assert_eq!(g.value.crc, isochor_core::checksum::crc32c(&blob));
 
-    // Sample injection (no signature: the emulated device takes samples this way).
-    let out = client
-        .request(|tag| {
-            Message::InjectSample(link::InjectSample {
-                tag,
-                at_ms: 1000,
-                codes: [
-                    RawCode {
-                        channel: SensorChannel::Pressure,
-                        code: 0x12_3456,
-                    },
-                    RawCode {
-                        channel: SensorChannel::Temperature,
-                        code: 0x7F_0000,
-                    },
-                ]
-                .into_iter()
-                .collect(),
-            })
-        })
-        .unwrap();
-    assert_eq!(out, Outcome::Taken);
+    // Sample injection (no signature: the emulated device takes samples
+    // this way) gives telemetry from the whole chain.
+    let s = bench().sample(150e5, 293.15).unwrap();
+    client.take_unsolicited();
+    client.inject(10_000, &Bench::raw_codes(&s)).unwrap();
+    client.collect(Duration::from_millis(200)).unwrap();
+    let t = telemetry(&client.take_unsolicited());
+    assert_eq!(t.len(), 1);
+    assert!(fx::to_f64(t[0].mass()) > 8.0);
+    let d = client.diagnostics().unwrap();
+    assert_eq!(d.boot.reason, ResetReason::Requested);
+    // Starts: power-on, the setup's new gas, the reboot, the new gas model.
+    assert_eq!(d.boot.boots, 4);
 
     drop(client);
-    let mut device = handle.join().unwrap();
-    let a = &device.actions;
-    assert_eq!(a.setups, vec![n2_setup()]);
-    assert_eq!(a.zeroed, vec![SensorChannel::Pressure]);
-    assert_eq!(a.alarms_cleared, 2);
-    assert_eq!(a.reboots, 1);
-    assert_eq!(a.gas_models.len(), 1);
-    assert_eq!(a.samples.len(), 1);
-    let now = device.now();
-    assert!(device.responder().status(now).is_ok());
+    let device = handle.join().unwrap();
+    assert_eq!(device.boots(), 4);
 }
 
 #[test]
@@ -191,11 +240,10 @@ fn out_of_range_and_unsigned_changes_are_refused() {
     );
 
     drop((client, other, plain));
-    let d = handle.join().unwrap();
-    assert_eq!(d.actions.setups, vec![n2_setup()]);
-    assert_eq!(d.actions.alarms_cleared, 1);
-    assert_eq!(handle2.join().unwrap().actions.alarms_cleared, 0);
-    assert_eq!(handle3.join().unwrap().actions.reboots, 0);
+    // Writing a setup of another gas than the default restarts the gauge.
+    assert_eq!(handle.join().unwrap().boots(), 2);
+    assert_eq!(handle2.join().unwrap().boots(), 1);
+    assert_eq!(handle3.join().unwrap().boots(), 1);
 }
 
 fn isochor(args: &[&str], env: &[(&str, &str)], stdin: Option<&[u8]>) -> Output {
@@ -232,7 +280,7 @@ fn capture() -> Vec<u8> {
         temperature_k: (308.15 * 65536.0) as u32,
         mass_kg: (10.9 * (1u64 << 40) as f64) as u64,
         fill_fraction: (0.95 * (1u64 << 32) as f64) as u64,
-        rate_kg_h: -(1i64 << 31),
+        rate_kg_h: Some(-(1i64 << 31)),
         time_to_empty_s: Some(3600 * 21),
         ..Telemetry::default()
     };
@@ -316,8 +364,8 @@ fn tcp_device(connections: usize) -> (String, thread::JoinHandle<Vec<EmulatedDev
         let mut device = EmulatedDevice::new(SERIAL, secret()).unwrap();
         for _ in 0..connections {
             let (stream, _) = listener.accept().unwrap();
-            let mut link = Link::new(Tcp::from_stream(stream));
-            device.serve(&mut link).unwrap();
+            let mut tcp = Tcp::from_stream(stream);
+            device.serve(&mut tcp).unwrap();
         }
         devices.push(device);
         devices
@@ -417,7 +465,7 @@ fn send_over_tcp() {
     assert_eq!(out.status.code(), Some(1));
     assert!(String::from_utf8_lossy(&out.stderr).contains("wrong secret"));
 
+    // Each connection started the device afresh from its flash.
     let devices = handle.join().unwrap();
-    assert_eq!(devices[0].actions.setups.len(), 1);
-    assert_eq!(devices[0].actions.alarms_cleared, 0);
+    assert_eq!(devices[0].boots(), 5);
 }

@@ -4,7 +4,7 @@
 use super::float::Limits;
 use super::{AlarmKind, AlarmSet};
 use crate::time::Millis;
-use crate::{Error, fx};
+use crate::{Error, TankFx, fx};
 
 /// Thresholds and hysteresis bands of the level alarms, fixed-point form
 /// (see [`Limits`] for meanings and the trade rules behind the defaults).
@@ -49,6 +49,85 @@ impl LimitsFx {
                 "temperature hysteresis",
             )?,
         })
+    }
+
+    /// The limits [`Limits::for_tank`] gives, computed in integers (on a
+    /// device, from the stored tank): low content 10 % or 1 h, hysteresis
+    /// 1 %, over-fill 1.02 × rated content, pressure at most
+    /// p_atm + 1.25·(p_rated − p_atm) with a 1 % band, temperature −40 …
+    /// +65 °C with 2 K. Equal to the float limits converted, within one unit
+    /// of the last place.
+    pub fn for_tank(tank: &TankFx) -> LimitsFx {
+        // Fraction (U32F32) bits: 0.10, 0.01, 1.02 rounded to nearest.
+        const LOW: u64 = 429_496_730;
+        const HYST: u64 = 42_949_673;
+        const OVER: u64 = 4_380_866_642;
+        // 101 325 Pa in Pressure (U28F4) bits.
+        const P_ATM: u64 = 1_621_200;
+        // 338.15 K and 233.15 K in Temperature (U16F16) bits, 2 K.
+        const T_MAX: u32 = 22_160_998;
+        const T_MIN: u32 = 15_279_718;
+        const T_HYST: u32 = 2 << 16;
+        let rated = u64::from(tank.rated_pressure_pa.to_bits());
+        // p_atm + 5/4·(p − p_atm), rounded to nearest, ties to even (as the
+        // float conversion rounds).
+        let above = 5 * rated.saturating_sub(P_ATM);
+        let (q, r) = (above / 4, above % 4);
+        let q = if r > 2 || (r == 2 && q % 2 == 1) {
+            q + 1
+        } else {
+            q
+        };
+        let p_max = (P_ATM + q).min(u64::from(u32::MAX)) as u32;
+        let p_hyst = ((rated + 50) / 100) as u32;
+        LimitsFx {
+            low_fraction: fx::Fraction::from_bits(LOW),
+            low_time_to_empty: Millis::from_secs(3600),
+            fraction_hysteresis: fx::Fraction::from_bits(HYST),
+            over_fill_fraction: fx::Fraction::from_bits(OVER),
+            pressure_max_pa: fx::Pressure::from_bits(p_max),
+            pressure_hysteresis_pa: fx::Pressure::from_bits(p_hyst),
+            temperature_max_k: fx::Temperature::from_bits(T_MAX),
+            temperature_min_k: fx::Temperature::from_bits(T_MIN),
+            temperature_hysteresis_k: fx::Temperature::from_bits(T_HYST),
+        }
+    }
+
+    /// Checks the limits as [`Limits::validate`] does, with integer
+    /// comparisons only (fractions 0 … 16, fraction hysteresis ≤ 1,
+    /// pressures ≤ 2000 bar, temperatures ≤ 1000 K, temperature hysteresis
+    /// ≤ 100 K; the formats cannot be negative).
+    pub fn validate(&self) -> Result<(), Error> {
+        let fraction = |v: fx::Fraction, max: u64, what| {
+            if v.to_bits() > max << 32 {
+                Err(Error::OutOfRange(what))
+            } else {
+                Ok(())
+            }
+        };
+        fraction(self.low_fraction, 16, "low fraction")?;
+        fraction(self.fraction_hysteresis, 1, "fraction hysteresis")?;
+        fraction(self.over_fill_fraction, 16, "over-fill fraction")?;
+        // 2e8 Pa in Pressure bits.
+        const P_MAX: u32 = 3_200_000_000;
+        for (v, what) in [
+            (self.pressure_max_pa, "maximum pressure"),
+            (self.pressure_hysteresis_pa, "pressure hysteresis"),
+        ] {
+            if v.to_bits() > P_MAX {
+                return Err(Error::OutOfRange(what));
+            }
+        }
+        for (v, max, what) in [
+            (self.temperature_max_k, 1000, "maximum temperature"),
+            (self.temperature_min_k, 1000, "minimum temperature"),
+            (self.temperature_hysteresis_k, 100, "temperature hysteresis"),
+        ] {
+            if v.to_bits() > max << 16 {
+                return Err(Error::OutOfRange(what));
+            }
+        }
+        Ok(())
     }
 
     /// The exact float equivalent.

@@ -256,6 +256,20 @@ impl Alarms {
         self.active
     }
 
+    /// Clears every active alarm at `now` (a signed clear command): each
+    /// gives a cleared event and its debounce starts afresh, so an alarm
+    /// whose condition still holds is raised again after its raise delay.
+    pub fn clear_all(&mut self, now: Instant) -> Events {
+        let events = Events {
+            raised: AlarmSet::EMPTY,
+            cleared: self.active,
+            at: now,
+        };
+        self.active = AlarmSet::EMPTY;
+        self.pending_since = [None; 7];
+        events
+    }
+
     /// Advances every alarm by one sample at `now`: `raise` holds the alarms
     /// whose raise condition is met, `clear` those whose clear condition is
     /// met (an alarm in neither set is inside its hysteresis band and keeps
@@ -346,6 +360,22 @@ mod tests {
         let e = a.update(t(130), AlarmSet::EMPTY, on);
         assert_eq!(e.cleared, on);
         assert!(a.active().is_empty());
+    }
+
+    #[test]
+    fn clear_all_clears_and_rearms() {
+        let mut a = Alarms::new(DebounceTable::default());
+        let k = AlarmKind::SensorFault.set();
+        for s in 0..=3 {
+            a.update(Instant(s * 1000), k, AlarmSet::EMPTY);
+        }
+        assert_eq!(a.active(), k);
+        let e = a.clear_all(Instant(3500));
+        assert_eq!((e.raised, e.cleared), (AlarmSet::EMPTY, k));
+        assert!(a.active().is_empty());
+        // The condition still holds: raised again after its 3 s delay.
+        assert!(a.update(Instant(4000), k, AlarmSet::EMPTY).is_empty());
+        assert_eq!(a.update(Instant(7000), k, AlarmSet::EMPTY).raised, k);
     }
 
     #[test]

@@ -80,6 +80,15 @@ impl Secret {
         Ok(Secret(out))
     }
 
+    /// A 256-bit key derived from the secret for another purpose,
+    /// HMAC-SHA-256(secret, `label`): the secret itself never leaves this
+    /// type (for example the key of a board's nonce generator).
+    pub fn derive(&self, label: &[u8]) -> [u8; 32] {
+        let mut m = self.mac();
+        m.update(label);
+        m.finalize().into_bytes().into()
+    }
+
     fn mac(&self) -> HmacSha256 {
         // HMAC takes keys of any length: this cannot fail for 32 bytes.
         match HmacSha256::new_from_slice(&self.0) {
@@ -92,6 +101,66 @@ impl Secret {
 impl core::fmt::Debug for Secret {
     fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
         f.write_str("Secret(..)")
+    }
+}
+
+/// The provisioning block written at manufacture into the device's
+/// protected flash (or, in emulation, loaded by the emulator at a fixed
+/// address): who the device is and its secret.
+///
+/// ```text
+/// magic "IZPV" · version:u8 = 1 · 3 zero bytes · serial:u64-le · secret:32 bytes
+/// · CRC-32C:u32-le of everything before it          (52 bytes)
+/// ```
+#[derive(Clone, Debug)]
+pub struct Provisioning {
+    /// Serial number.
+    pub serial: u64,
+    /// The device secret.
+    pub secret: Secret,
+}
+
+impl Provisioning {
+    /// Length of the block, bytes.
+    pub const LEN: usize = 52;
+    const MAGIC: [u8; 4] = *b"IZPV";
+    const VERSION: u8 = 1;
+
+    /// The block's bytes.
+    pub fn to_bytes(&self) -> [u8; Provisioning::LEN] {
+        let mut out = [0u8; Provisioning::LEN];
+        let serial = self.serial.to_le_bytes();
+        let body = Provisioning::MAGIC
+            .iter()
+            .chain(&[Provisioning::VERSION, 0, 0, 0])
+            .chain(&serial)
+            .chain(&self.secret.0);
+        for (d, s) in out.iter_mut().zip(body) {
+            *d = *s;
+        }
+        if let Some((head, tail)) = out.split_last_chunk_mut::<4>() {
+            *tail = crate::checksum::crc32c(head).to_le_bytes();
+        }
+        out
+    }
+
+    /// Reads a block; `None` when it is not a valid one (never
+    /// provisioned, erased, damaged or of another version).
+    pub fn from_bytes(b: &[u8]) -> Option<Provisioning> {
+        let b = b.get(..Provisioning::LEN)?;
+        let (head, crc) = b.split_last_chunk::<4>()?;
+        if crate::checksum::crc32c(head) != u32::from_le_bytes(*crc)
+            || head.get(..4)? != Provisioning::MAGIC
+            || *head.get(4)? != Provisioning::VERSION
+        {
+            return None;
+        }
+        let serial = u64::from_le_bytes(head.get(8..16)?.try_into().ok()?);
+        let secret: [u8; SECRET_LEN] = head.get(16..48)?.try_into().ok()?;
+        Some(Provisioning {
+            serial,
+            secret: Secret(secret),
+        })
     }
 }
 

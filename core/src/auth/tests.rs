@@ -204,3 +204,23 @@ fn no_session_costs_nothing() {
     }
     assert_eq!(auth.failures(), 0);
 }
+
+#[test]
+fn provisioning_blocks_round_trip_and_damage_is_refused() {
+    let p = Provisioning {
+        serial: 20_260_001,
+        secret: Secret::new([7; 32]),
+    };
+    let b = p.to_bytes();
+    let back = Provisioning::from_bytes(&b).unwrap();
+    assert_eq!(back.serial, p.serial);
+    assert_eq!(back.secret.0, p.secret.0);
+    for i in 0..b.len() {
+        let mut bad = b;
+        bad[i] ^= 1;
+        assert!(Provisioning::from_bytes(&bad).is_none(), "byte {i}");
+    }
+    assert!(Provisioning::from_bytes(&[0xFF; 52]).is_none());
+    assert!(Provisioning::from_bytes(&[0; 52]).is_none());
+    assert!(Provisioning::from_bytes(&b[..51]).is_none());
+}

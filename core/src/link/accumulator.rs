@@ -38,6 +38,7 @@ pub struct Accumulator {
 
 /// The outcome of one [`Accumulator::feed`].
 #[derive(Debug, PartialEq, Eq)]
+#[allow(clippy::large_enum_variant)] // returned by value once per frame, never stored
 pub enum Feed<'a> {
     /// All input was taken; no frame is complete yet.
     NeedMore,

@@ -15,11 +15,14 @@ use postcard::experimental::max_size::MaxSize;
 use serde::{Deserialize, Serialize};
 
 use crate::content::fixed::Content;
-use crate::fx;
+use crate::track::fixed::TrackFx;
+use crate::{Status, fx};
 
 /// Largest record body carried by [`ReadRecord`] replies and
-/// [`Command::WriteRecord`], bytes (postcard-encoded record).
-pub const RECORD_MAX_LEN: usize = 128;
+/// [`Command::WriteRecord`], bytes (postcard-encoded record). Set by the
+/// largest record, a sensor calibration with a bridge transducer (195 bytes
+/// with every integer at its longest varint); frames stay within 256 bytes.
+pub const RECORD_MAX_LEN: usize = 196;
 /// Largest piece of a gas-model blob carried by one
 /// [`Command::GasModelChunk`], bytes.
 pub const CHUNK_MAX_LEN: usize = 128;
@@ -31,6 +34,9 @@ pub const NONCE_LEN: usize = 16;
 pub const MAC_LEN: usize = 32;
 /// Most raw sensor codes in one [`InjectSample`].
 pub const INJECT_MAX_CODES: usize = 4;
+/// Longest source-file name a fault report carries, bytes (longer names keep
+/// their end).
+pub const FAULT_FILE_MAX_LEN: usize = 48;
 
 /// Capability bits announced in [`Identity::capabilities`].
 pub mod capability {
@@ -45,6 +51,8 @@ pub mod capability {
     pub const SAMPLE_INJECTION: u32 = 1 << 3;
     /// The device raises and clears alarms.
     pub const ALARMS: u32 = 1 << 4;
+    /// The device answers [`GetDiagnostics`](super::GetDiagnostics).
+    pub const DIAGNOSTICS: u32 = 1 << 5;
 }
 
 /// Who the device is and what it can do (reply to [`GetIdentity`]).
@@ -68,18 +76,21 @@ pub struct Identity {
 /// One estimate, as the device reports it after each sample.
 ///
 /// Content fields come from [`crate::content::fixed::Content`]; rate, time to
-/// empty and uncertainty come from the tracking stage. Values whose status
-/// says they are not valid (see [`crate::Status::CONTENT_INVALID`]) must not
-/// be shown as numbers.
+/// empty and uncertainties from the tracking stage
+/// ([`crate::track::fixed::TrackFx`], see [`Telemetry::from_track`]). Values
+/// whose status says they are not valid (see
+/// [`crate::Status::CONTENT_INVALID`]) must not be shown as numbers; `None`
+/// means not known yet (the rate needs a few blocks, the uncertainty one).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct Telemetry {
     /// Estimate counter, +1 per estimate, wraps at 2³².
     pub seq: u32,
-    /// Time since the device started, ms.
+    /// Time of the sample on the device's clock (ms since it started; for
+    /// injected samples the time the host gave).
     pub uptime_ms: u64,
-    /// Absolute pressure, Pa: raw bits of `U28F4` ([`fx::Pressure`]).
+    /// Absolute pressure (smoothed), Pa: raw bits of `U28F4` ([`fx::Pressure`]).
     pub pressure_pa: u32,
-    /// Gas temperature, K: raw bits of `U16F16` ([`fx::Temperature`]).
+    /// Gas temperature (smoothed), K: raw bits of `U16F16` ([`fx::Temperature`]).
     pub temperature_k: u32,
     /// Density, kg/m³: raw bits of `U32F32` ([`fx::Density`]).
     pub density_kg_m3: u64,
@@ -92,22 +103,38 @@ pub struct Telemetry {
     /// Fill fraction (1 = rated content): raw bits of `U32F32` ([`fx::Fraction`]).
     pub fill_fraction: u64,
     /// Rate of change of the mass, kg/h, negative while the tank empties:
-    /// raw bits of `I32F32`.
-    pub rate_kg_h: i64,
-    /// Time until the tank is empty at the present rate, s; `None` when the
-    /// tank is not emptying or the rate is not known.
+    /// raw bits of `I32F32` ([`fx::MassRate`]); `None` until the rate window
+    /// has enough blocks.
+    pub rate_kg_h: Option<i64>,
+    /// Expanded uncertainty (k = 2) of the rate, kg/h: raw bits of `I32F32`
+    /// ([`fx::MassRate`], never negative).
+    pub rate_uncertainty_kg_h: Option<i64>,
+    /// Time until the content reaches the reserve at the present rate, s;
+    /// `None` when the tank is not emptying or the rate is not known.
     pub time_to_empty_s: Option<u32>,
+    /// Earliest time to the reserve (rate plus its expanded uncertainty), s.
+    pub time_to_empty_earliest_s: Option<u32>,
+    /// Latest time to the reserve (rate minus its expanded uncertainty), s;
+    /// `None` when that rate is not a consumption.
+    pub time_to_empty_latest_s: Option<u32>,
     /// Expanded uncertainty of the mass (coverage factor k = 2), kg: raw bits
     /// of `U24F40` ([`fx::Mass`]).
-    pub mass_uncertainty_kg: u64,
+    pub mass_uncertainty_kg: Option<u64>,
+    /// Expanded uncertainty of the fill fraction (k = 2): raw bits of
+    /// `U32F32` ([`fx::Fraction`]).
+    pub fill_fraction_uncertainty: Option<u64>,
     /// Status word bits ([`crate::Status::bits`]).
     pub status: u32,
 }
 
+/// Whole seconds of a span, saturating at `u32::MAX`.
+fn seconds(ms: crate::time::Millis) -> u32 {
+    u32::try_from(ms.0 / 1000).unwrap_or(u32::MAX)
+}
+
 impl Telemetry {
-    /// A telemetry frame carrying a content estimate. Rate, time to empty and
-    /// uncertainty are left unknown (zero rate, no time to empty, zero
-    /// uncertainty) for the tracking stage to fill in.
+    /// A telemetry frame carrying a content estimate alone: rate, time to
+    /// empty and uncertainties unknown.
     pub fn from_content(seq: u32, uptime_ms: u64, c: &Content) -> Telemetry {
         Telemetry {
             seq,
@@ -119,11 +146,46 @@ impl Telemetry {
             standard_volume_m3: c.standard_volume_m3.to_bits(),
             settled_pressure_pa: c.settled_pressure_pa.to_bits(),
             fill_fraction: c.fill_fraction.to_bits(),
-            rate_kg_h: 0,
+            rate_kg_h: None,
+            rate_uncertainty_kg_h: None,
             time_to_empty_s: None,
-            mass_uncertainty_kg: 0,
+            time_to_empty_earliest_s: None,
+            time_to_empty_latest_s: None,
+            mass_uncertainty_kg: None,
+            fill_fraction_uncertainty: None,
             status: c.status.bits(),
         }
+    }
+
+    /// The telemetry of one tracker output: content, rate (as a change of
+    /// the mass: negative while emptying), time to empty with its bounds,
+    /// uncertainties and the status, with `device` (configuration, storage,
+    /// link flags) added. Before the first usable sample the content fields
+    /// are zero and only the status speaks.
+    pub fn from_track(seq: u32, t: &TrackFx, device: Status) -> Telemetry {
+        let mut out = match &t.content {
+            Some(c) => Telemetry::from_content(seq, t.at.as_millis(), c),
+            None => Telemetry {
+                seq,
+                uptime_ms: t.at.as_millis(),
+                ..Telemetry::default()
+            },
+        };
+        if let Some(r) = &t.rate {
+            out.rate_kg_h = Some(r.kg_h.to_bits().saturating_neg());
+            out.rate_uncertainty_kg_h = Some(r.u_kg_h.to_bits());
+        }
+        if let Some(tte) = &t.time_to_empty {
+            out.time_to_empty_s = Some(seconds(tte.expected));
+            out.time_to_empty_earliest_s = Some(seconds(tte.earliest));
+            out.time_to_empty_latest_s = tte.latest.map(seconds);
+        }
+        if let Some(u) = &t.uncertainty {
+            out.mass_uncertainty_kg = Some(u.mass_kg.to_bits());
+            out.fill_fraction_uncertainty = Some(u.fill_fraction.to_bits());
+        }
+        out.status = (t.status | device).bits();
+        out
     }
 
     /// The mass as its fixed-point type.
@@ -139,7 +201,10 @@ pub struct AlarmEvent {
     pub seq: u32,
     /// Time since the device started, ms.
     pub uptime_ms: u64,
-    /// Which alarm (the alarm stage's code).
+    /// Which alarm: the [`crate::alarm::AlarmKind`] code (its bit in the
+    /// alarm set: 0 `not_settled`, 1 `leak`, 2 `low_content`,
+    /// 3 `over_pressure`, 4 `over_temperature`, 5 `under_temperature`,
+    /// 6 `sensor_fault`).
     pub alarm: u16,
     /// Raised or cleared.
     pub transition: AlarmTransition,
@@ -147,6 +212,36 @@ pub struct AlarmEvent {
     pub status: u32,
     /// Mass of gas at the event, kg: raw bits of `U24F40` ([`fx::Mass`]).
     pub mass_kg: u64,
+}
+
+impl AlarmEvent {
+    /// The frame of one tracker event, with the status and mass at it.
+    pub fn from_event(
+        seq: u32,
+        e: &crate::alarm::AlarmEvent,
+        status: Status,
+        mass: fx::Mass,
+    ) -> AlarmEvent {
+        AlarmEvent {
+            seq,
+            uptime_ms: e.at.as_millis(),
+            alarm: e.kind as u16,
+            transition: if e.raised {
+                AlarmTransition::Raised
+            } else {
+                AlarmTransition::Cleared
+            },
+            status: status.bits(),
+            mass_kg: mass.to_bits(),
+        }
+    }
+
+    /// The alarm kind of the code, `None` for codes this version does not know.
+    pub fn kind(&self) -> Option<crate::alarm::AlarmKind> {
+        crate::alarm::AlarmKind::ALL
+            .into_iter()
+            .find(|k| *k as u16 == self.alarm)
+    }
 }
 
 /// How an alarm changed.
@@ -290,6 +385,111 @@ pub struct InjectSample {
     pub codes: Vec<RawCode, INJECT_MAX_CODES>,
 }
 
+/// Why the device started (kept across the restart in memory a reset does
+/// not clear, so the next boot can tell).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum ResetReason {
+    /// Power was applied (nothing was kept from before).
+    PowerOn,
+    /// A signed reboot command, or a restart to use a new gas model.
+    Requested,
+    /// The firmware panicked; the report names where.
+    Panic,
+    /// The watchdog was not fed in time.
+    Watchdog,
+    /// A processor fault (hard fault) stopped the firmware.
+    HardFault,
+    /// A reset whose cause the firmware cannot tell (reset pin, debugger).
+    Unknown,
+}
+
+impl ResetReason {
+    /// True for restarts caused by a fault of the firmware.
+    pub const fn is_fault(self) -> bool {
+        matches!(
+            self,
+            ResetReason::Panic | ResetReason::Watchdog | ResetReason::HardFault
+        )
+    }
+}
+
+/// What the device knows about its latest start.
+#[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
+pub struct BootReport {
+    /// Why it started.
+    pub reason: ResetReason,
+    /// Starts since power was applied (1 after power-on).
+    pub boots: u32,
+    /// For a panic: the source line, else 0.
+    pub fault_line: u32,
+    /// For a panic: the source file (its last [`FAULT_FILE_MAX_LEN`] bytes),
+    /// else empty.
+    pub fault_file: String<FAULT_FILE_MAX_LEN>,
+}
+
+impl BootReport {
+    /// A report of a start with no fault.
+    pub fn new(reason: ResetReason, boots: u32) -> BootReport {
+        BootReport {
+            reason,
+            boots,
+            fault_line: 0,
+            fault_file: String::new(),
+        }
+    }
+
+    /// Sets the fault location, keeping the end of a long file name.
+    pub fn with_location(mut self, file: &str, line: u32) -> BootReport {
+        let mut start = file.len().saturating_sub(FAULT_FILE_MAX_LEN);
+        while !file.is_char_boundary(start) {
+            start += 1;
+        }
+        self.fault_file.clear();
+        let _ = self.fault_file.push_str(file.get(start..).unwrap_or(""));
+        self.fault_line = line;
+        self
+    }
+}
+
+/// Device → host, once after every start: who started and why.
+#[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
+pub struct Boot {
+    /// Serial number of the device.
+    pub serial: u64,
+    /// Firmware version, major.minor.patch.
+    pub firmware_version: [u8; 3],
+    /// The start.
+    pub report: BootReport,
+}
+
+/// Asks for the device's [`Diagnostics`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
+pub struct GetDiagnostics {
+    /// Request tag, echoed in the reply.
+    pub tag: u16,
+}
+
+/// The device's health: its latest start, stack use and link counters.
+#[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
+pub struct Diagnostics {
+    /// Time since the device started, ms (its own clock).
+    pub uptime_ms: u64,
+    /// The latest start.
+    pub boot: BootReport,
+    /// Deepest stack use measured since the start (stack painting), bytes.
+    pub stack_peak_bytes: u32,
+    /// Stack size, bytes.
+    pub stack_size_bytes: u32,
+    /// Frames received and decoded.
+    pub frames: u32,
+    /// Frames received that did not decode (COBS, length, CRC, version, kind,
+    /// body) or were too long.
+    pub bad_frames: u32,
+    /// Samples taken (converted and tracked).
+    pub samples: u32,
+}
+
 /// The device's answer to one request.
 #[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct Reply {
@@ -337,6 +537,8 @@ pub enum Outcome {
     },
     /// An injected sample was taken.
     Taken,
+    /// Answer to [`GetDiagnostics`].
+    Diagnostics(Diagnostics),
     /// The request was refused; nothing was changed.
     Refused(Refusal),
 }
@@ -388,6 +590,9 @@ pub enum Refusal {
     BlobTooLarge,
     /// The flash refused the write; the previous value is kept.
     Storage,
+    /// The gas-model blob is not a table this device can use (format,
+    /// version, checksum or content); nothing was committed.
+    BadGasModel,
 }
 
 impl Refusal {

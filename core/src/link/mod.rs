@@ -126,6 +126,8 @@ messages! {
     Alarm(AlarmEvent) = 0x03, "alarm";
     /// Device → host: the answer to a request.
     Reply(Reply) = 0x04, "reply";
+    /// Device → host: the device started (once after every start).
+    Boot(Boot) = 0x05, "boot";
     /// Host → device: are you there?
     Ping(Ping) = 0x10, "ping";
     /// Host → device: send your identity.
@@ -138,6 +140,8 @@ messages! {
     Signed(Signed) = 0x14, "signed";
     /// Host → device: raw sensor codes to take as a sample.
     InjectSample(InjectSample) = 0x15, "inject_sample";
+    /// Host → device: send your diagnostics.
+    GetDiagnostics(GetDiagnostics) = 0x16, "get_diagnostics";
 }
 
 /// Decodes a whole body: bytes left over are an error.

@@ -14,6 +14,7 @@ use serde::{Deserialize, Serialize};
 use super::{Record, RecordKind};
 use crate::Error;
 use crate::checksum::Crc32c;
+use crate::model::device::{BLOB_MAGIC, BLOB_VERSION, TableBuf};
 
 /// Which gas-model blob is in use (the record that commits a load).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
@@ -223,6 +224,57 @@ impl BlobSlots {
         crc.finish() == r.crc
     }
 
+    /// Decodes and checks the gas-model table a committed (or just
+    /// completed) blob holds, reading it straight from flash (a few dozen
+    /// bytes of buffer; the table itself is the result). Checks the blob
+    /// format of [`TableBuf::to_blob`]: the `IZTB` magic, the format version,
+    /// the postcard body with nothing left over, its own CRC-32C, and the
+    /// table's invariants ([`Table::validate`](crate::model::device::Table::validate)).
+    pub fn decode_table<F: NorFlash>(
+        &self,
+        flash: &mut F,
+        r: &GasModelRef,
+    ) -> Result<TableBuf, Error> {
+        let corrupt = Error::ModelData;
+        if r.slot > 1 || r.len > self.slot_len || r.len < 9 {
+            return Err(corrupt("blob too short"));
+        }
+        let mut head = [0u8; 5];
+        self.read(flash, r, 0, &mut head)?;
+        if head.get(..4) != Some(&BLOB_MAGIC[..]) {
+            return Err(corrupt("not a table blob"));
+        }
+        if head.get(4) != Some(&BLOB_VERSION) {
+            return Err(corrupt("unsupported blob version"));
+        }
+        let body_end = r.len - 4;
+        let mut reader = FlashReader {
+            flash,
+            base: self.slot_start(r.slot),
+            at: 5,
+            end: body_end,
+            buf: [0; READ_CHUNK],
+            buf_at: u32::MAX,
+            crc: Crc32c::new(),
+        };
+        reader.crc.update(&head);
+        let mut de = postcard::Deserializer::from_flavor(reader);
+        let table: TableBuf =
+            serde::Deserialize::deserialize(&mut de).map_err(|_| corrupt("undecodable blob"))?;
+        let (at, crc) = de.finalize().map_err(|_| corrupt("undecodable blob"))?;
+        if at != body_end {
+            return Err(corrupt("trailing bytes in blob"));
+        }
+        let crc = crc.finish();
+        let mut stored = [0u8; 4];
+        self.read(flash, r, body_end, &mut stored)?;
+        if crc != u32::from_le_bytes(stored) {
+            return Err(corrupt("checksum"));
+        }
+        table.table().validate()?;
+        Ok(table)
+    }
+
     /// Reads blob bytes at `offset` (for the model loader).
     pub fn read<F: NorFlash>(
         &self,
@@ -238,5 +290,55 @@ impl BlobSlots {
         flash
             .read(self.slot_start(r.slot) + offset, out)
             .map_err(|_| Error::Flash)
+    }
+}
+
+/// Bytes read from flash at a time by [`FlashReader`].
+const READ_CHUNK: usize = 32;
+
+/// A postcard input that reads a blob from flash byte by byte (through a
+/// small aligned buffer) and checksums what it consumes.
+struct FlashReader<'a, F> {
+    flash: &'a mut F,
+    base: u32,
+    at: u32,
+    end: u32,
+    buf: [u8; READ_CHUNK],
+    buf_at: u32,
+    crc: Crc32c,
+}
+
+impl<'de, 'a: 'de, F: NorFlash + 'de> postcard::de_flavors::Flavor<'de> for FlashReader<'a, F> {
+    /// Where reading stopped and the checksum of everything read.
+    type Remainder = (u32, Crc32c);
+    type Source = ();
+
+    fn pop(&mut self) -> postcard::Result<u8> {
+        if self.at >= self.end {
+            return Err(postcard::Error::DeserializeUnexpectedEnd);
+        }
+        let chunk = self.at - self.at % READ_CHUNK as u32;
+        if chunk != self.buf_at {
+            self.flash
+                .read(self.base + chunk, &mut self.buf)
+                .map_err(|_| postcard::Error::DeserializeUnexpectedEnd)?;
+            self.buf_at = chunk;
+        }
+        let b = *self
+            .buf
+            .get((self.at - chunk) as usize)
+            .ok_or(postcard::Error::DeserializeUnexpectedEnd)?;
+        self.crc.update(&[b]);
+        self.at += 1;
+        Ok(b)
+    }
+
+    fn try_take_n(&mut self, _ct: usize) -> postcard::Result<&'de [u8]> {
+        // A table has no byte strings: a blob that asks for one is corrupt.
+        Err(postcard::Error::DeserializeBadEncoding)
+    }
+
+    fn finalize(self) -> postcard::Result<(u32, Crc32c)> {
+        Ok((self.at, self.crc))
     }
 }

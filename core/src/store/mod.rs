@@ -55,10 +55,17 @@
 
 mod area;
 mod blob;
+mod layout;
+mod records;
 pub mod sim;
 
 pub use area::{Loaded, RecordArea};
 pub use blob::{BlobSlots, ChunkOutcome, GasModelRef};
+pub use layout::Layout;
+pub use records::{
+    AlarmThresholds, PressureCalibration, STANDARD_ATMOSPHERE, TemperatureCalibration,
+    TrackingSettings, split_track_config, track_config,
+};
 
 use postcard::experimental::max_size::MaxSize;
 use serde::{Serialize, de::DeserializeOwned};
@@ -77,12 +84,38 @@ pub struct RecordKind(pub u16);
 impl RecordKind {
     /// The estimate's setup ([`SetupFx`](crate::SetupFx)).
     pub const SETUP: RecordKind = RecordKind(1);
-    /// Sensor calibration.
-    pub const CALIBRATION: RecordKind = RecordKind(2);
-    /// Alarm thresholds.
+    /// Calibration of the pressure channel ([`PressureCalibration`]).
+    pub const PRESSURE_CALIBRATION: RecordKind = RecordKind(2);
+    /// Alarm thresholds ([`AlarmThresholds`]).
     pub const ALARM_THRESHOLDS: RecordKind = RecordKind(3);
     /// Which gas-model blob is in use ([`GasModelRef`]).
     pub const GAS_MODEL_REF: RecordKind = RecordKind(4);
+    /// Calibration of the temperature channel ([`TemperatureCalibration`]).
+    pub const TEMPERATURE_CALIBRATION: RecordKind = RecordKind(5);
+    /// Tracking settings ([`TrackingSettings`]).
+    pub const TRACKING: RecordKind = RecordKind(6);
+    /// Every kind, in code order.
+    pub const ALL: [RecordKind; 6] = [
+        RecordKind::SETUP,
+        RecordKind::PRESSURE_CALIBRATION,
+        RecordKind::ALARM_THRESHOLDS,
+        RecordKind::GAS_MODEL_REF,
+        RecordKind::TEMPERATURE_CALIBRATION,
+        RecordKind::TRACKING,
+    ];
+
+    /// Stable snake_case name (host output).
+    pub const fn name(self) -> &'static str {
+        match self.0 {
+            1 => "setup",
+            2 => "pressure_calibration",
+            3 => "alarm_thresholds",
+            4 => "gas_model_ref",
+            5 => "temperature_calibration",
+            6 => "tracking",
+            _ => "unknown",
+        }
+    }
 }
 
 /// A value kept in flash as a record.

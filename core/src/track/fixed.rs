@@ -167,7 +167,33 @@ impl TrackConfigFx {
         {
             return Err(Error::OutOfRange("declared draw"));
         }
-        self.limits.to_real::<f64>().validate()
+        self.uncertainty.validate()?;
+        self.limits.validate()
+    }
+
+    /// The defaults of [`TrackConfig::for_tank`], computed in integers (on a
+    /// device without stored tracking settings): smoothing 4 s, 60 s blocks,
+    /// gaps over 5 min restart, reserve 5 %, settling τ = 30 min with a step
+    /// of 0.5 % and a tolerance of 0.2 %, standby leak threshold 0.1 % per
+    /// day, limits from [`LimitsFx::for_tank`], default debounce.
+    pub fn for_tank(tank: &crate::TankFx, uncertainty: UncertaintyConfigFx) -> TrackConfigFx {
+        TrackConfigFx {
+            smoothing_pressure: Millis::from_secs(4),
+            smoothing_temperature: Millis::from_secs(4),
+            block: Millis::from_secs(60),
+            max_gap: Millis::from_secs(300),
+            // Fraction / SmallFraction bits of 0.05, 0.005, 0.002, 0.001.
+            reserve_fraction: fx::Fraction::from_bits(214_748_365),
+            settle_time_constant: Millis::from_secs(1800),
+            settle_step: fx::SmallFraction::from_bits(21_474_836),
+            settle_tolerance: fx::SmallFraction::from_bits(8_589_935),
+            leak_mode: LeakMode::Standby,
+            declared_draw_kg_h: None,
+            leak_threshold_per_day: fx::SmallFraction::from_bits(4_294_967),
+            uncertainty,
+            limits: LimitsFx::for_tank(tank),
+            debounce: DebounceTable::default(),
+        }
     }
 }
 
@@ -428,6 +454,18 @@ impl<M: CompressibilityFx> Tracker<M> {
     /// The configuration.
     pub fn config(&self) -> &TrackConfigFx {
         &self.cfg
+    }
+
+    /// The latest content estimate (on the smoothed sample).
+    pub fn latest_content(&self) -> Option<Content> {
+        self.content
+    }
+
+    /// Clears every active alarm at `at` (see
+    /// [`Alarms::clear_all`](crate::alarm::Alarms::clear_all)); returns the
+    /// cleared events.
+    pub fn clear_alarms(&mut self, at: Instant) -> Events {
+        self.alarms.clear_all(at)
     }
 
     /// Forgets the learned draw (in-use leak mode learns it again).

@@ -349,6 +349,13 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         &self.cfg
     }
 
+    /// Clears every active alarm at `at` (see
+    /// [`Alarms::clear_all`](crate::alarm::Alarms::clear_all)); returns the
+    /// cleared events.
+    pub fn clear_alarms(&mut self, at: Instant) -> Events {
+        self.alarms.clear_all(at)
+    }
+
     /// Forgets the learned draw (in-use leak mode learns it again).
     pub fn relearn_draw(&mut self) {
         self.learned_draw_per_day = None;

@@ -57,6 +57,57 @@ impl UncertaintyConfigFx {
         Ok(fx)
     }
 
+    /// The declaration of [`UncertaintyConfig::example`] for a pressure
+    /// sensor of `full_scale` (integer constants, for a device without a
+    /// stored declaration): pressure 0.25 % of full scale and 0.1 % of
+    /// reading (each /√3), temperature 0.5 K, capacity 0.5 %, model 0.1 %,
+    /// temperature lag 10 min, temperature gain 0.5 %/√3.
+    pub fn example(full_scale: fx::Pressure) -> UncertaintyConfigFx {
+        UncertaintyConfigFx {
+            pressure_full_scale_pa: full_scale,
+            // U0F32 bits of 0.0025/√3, 0.001/√3, 0.005, 0.001, 0.005/√3,
+            // rounded to nearest.
+            pressure_fs: U0F32::from_bits(6_199_251),
+            pressure_reading: U0F32::from_bits(2_479_701),
+            temperature_k: fx::Temperature::from_bits(1 << 15),
+            capacity: U0F32::from_bits(21_474_836),
+            model: U0F32::from_bits(4_294_967),
+            temperature_lag: super::float::DEFAULT_TEMPERATURE_LAG,
+            temperature_gain: U0F32::from_bits(12_398_503),
+        }
+    }
+
+    /// Checks every field as [`UncertaintyConfig::validate`] does, with
+    /// integer comparisons only: full scale 1 bar … 2000 bar, the relative
+    /// parts ≤ 0.5, temperature ≤ 50 K, lag ≤
+    /// [`MAX_TEMPERATURE_LAG`](super::float::MAX_TEMPERATURE_LAG).
+    pub fn validate(&self) -> Result<(), Error> {
+        // 1e5 Pa and 2e8 Pa in Pressure (U28F4) bits.
+        let fs = self.pressure_full_scale_pa.to_bits();
+        if !(1_600_000..=3_200_000_000).contains(&fs) {
+            return Err(Error::OutOfRange("pressure full scale"));
+        }
+        let half = 1u32 << 31;
+        for (v, what) in [
+            (self.pressure_fs, "pressure uncertainty of full scale"),
+            (self.pressure_reading, "pressure uncertainty of reading"),
+            (self.capacity, "capacity uncertainty"),
+            (self.model, "model uncertainty"),
+            (self.temperature_gain, "temperature gain uncertainty"),
+        ] {
+            if v.to_bits() > half {
+                return Err(Error::OutOfRange(what));
+            }
+        }
+        if self.temperature_k.to_bits() > 50 << 16 {
+            return Err(Error::OutOfRange("temperature uncertainty"));
+        }
+        if self.temperature_lag > super::float::MAX_TEMPERATURE_LAG {
+            return Err(Error::OutOfRange("temperature lag uncertainty"));
+        }
+        Ok(())
+    }
+
     /// The exact float equivalent.
     pub fn to_real<F: crate::Real>(&self) -> UncertaintyConfig<F> {
         UncertaintyConfig {
@@ -180,7 +231,7 @@ impl EvaluatorFx {
         cfg: UncertaintyConfigFx,
         est: &Estimator<M>,
     ) -> Result<Self, Error> {
-        cfg.to_real::<f64>().validate()?;
+        cfg.validate()?;
         let setup = est.setup();
         let gas = setup.gas.info();
         let rated_mass = Coef::from_raw(est.rated_mass_kg().to_bits(), 40);

@@ -2,11 +2,13 @@
 //! Commands are thin: they parse, call the library, and print.
 
 mod content;
+mod demo;
 mod listen;
 mod model;
 mod props;
 mod send;
 mod sensor;
+mod sim;
 
 use clap::{Parser, Subcommand, ValueEnum};
 use std::process::ExitCode;
@@ -23,6 +25,12 @@ pub struct Cli {
 /// The commands.
 #[derive(Debug, Subcommand)]
 pub enum Command {
+    /// Run the built-in demo: a 50 L nitrogen cylinder in an unheated
+    /// workshop over a week, with a valve leak from day four.
+    Demo(demo::DemoArgs),
+    /// Simulate tanks with real physics and score the gauge against the
+    /// truth (built-in scenarios or scenario files).
+    Sim(sim::SimArgs),
     /// Estimate the content of one tank from one pressure and temperature.
     Content(content::ContentArgs),
     /// Show what a device sends: live view, JSON lines or CSV.
@@ -73,6 +81,8 @@ pub fn run(cli: Cli) -> Result<String, crate::Error> {
         Command::Sensor(args) => sensor::run(&args),
         Command::Props(args) => props::run(&args),
         Command::Model(args) => model::run(&args),
+        Command::Demo(args) => demo::run(&args),
+        Command::Sim(args) => sim::run_cmd(&args),
     }
 }
 

@@ -1,11 +1,11 @@
-//! Reader of isochor's coefficient file format (`*.eos`, format 1).
+//! Reader of isochor's coefficient file format (`*.eos`, format 2).
 //!
 //! Line oriented; `#` starts a comment; each record is a keyword followed by
 //! whitespace-separated fields. Numbers are written as the shortest decimal
 //! that reads back as the same binary64 value. Records (see DEVELOPERS.md):
 //!
 //! ```text
-//! format isochor-eos 1
+//! format isochor-eos 2
 //! gas <isochor gas name>
 //! coolprop <CoolProp fluid name> <CoolProp version>
 //! source <publication, to the end of the line>        (one or more)
@@ -16,12 +16,17 @@
 //! range <T_min K> <T_max K> <p_max Pa>
 //! psat <T_r> <p_r Pa> <tau_r 0|1> <T_min> <T_max>      then psat_term <n> <t> ...
 //! rhov <T_r> <ρ_r mol/m³> <tau_r 0|1> <T_min> <T_max>  then rhov_term <n> <t> ...
+//! ideal_lead <a1> <a2>                  α⁰ += ln δ + a1 + a2·τ
+//! ideal_offset <a1> <a2>                α⁰ += a1 + a2·τ
+//! ideal_log_tau <a>                     α⁰ += a·ln τ
+//! ideal_power <n> <t>                   α⁰ += n·τ^t
+//! ideal_planck_einstein <n> <θ> <c> <d> α⁰ += n·ln(c + d·exp(θ·τ))
 //! power <n> <d> <t> <l>
 //! gauss <n> <d> <t> <η> <ε> <β> <γ>
 //! nonanalytic <n> <a> <b> <β> <A> <B> <C> <D>
 //! ```
 
-use super::{Ancillary, Eos, Term};
+use super::{Ancillary, Eos, IdealTerm, Term};
 use crate::Error;
 use isochor_core::Gas;
 
@@ -72,6 +77,7 @@ pub fn parse(text: &str) -> Result<Eos, Error> {
     let mut psat: Option<Ancillary> = None;
     let mut rhov: Option<Ancillary> = None;
     let mut terms = Vec::new();
+    let mut ideal = Vec::new();
     let mut format_ok = false;
     for (i, raw) in text.lines().enumerate() {
         let n = i + 1;
@@ -82,7 +88,7 @@ pub fn parse(text: &str) -> Result<Eos, Error> {
         let (key, rest) = line.split_once(char::is_whitespace).unwrap_or((line, ""));
         let fields: Vec<&str> = rest.split_whitespace().collect();
         match key {
-            "format" => format_ok = fields == ["isochor-eos", "1"],
+            "format" => format_ok = fields == ["isochor-eos", "2"],
             "gas" => gas = Some(Gas::from_name(rest.trim()).map_err(|_| bad(n, "unknown gas"))?),
             "coolprop" => coolprop = rest.trim().to_string(),
             "source" => sources.push(rest.trim().to_string()),
@@ -103,6 +109,31 @@ pub fn parse(text: &str) -> Result<Eos, Error> {
                 a.ok_or_else(|| bad(n, "ancillary term before its header"))?
                     .terms
                     .push((c, t));
+            }
+            "ideal_lead" => {
+                let [a1, a2] = numbers::<2>(&fields, n)?;
+                ideal.push(IdealTerm::Lead { a1, a2 });
+            }
+            "ideal_offset" => {
+                let [a1, a2] = numbers::<2>(&fields, n)?;
+                ideal.push(IdealTerm::Offset { a1, a2 });
+            }
+            "ideal_log_tau" => {
+                let [a] = numbers::<1>(&fields, n)?;
+                ideal.push(IdealTerm::LogTau { a });
+            }
+            "ideal_power" => {
+                let [c, t] = numbers::<2>(&fields, n)?;
+                ideal.push(IdealTerm::Power { n: c, t });
+            }
+            "ideal_planck_einstein" => {
+                let [c_n, theta, c, d] = numbers::<4>(&fields, n)?;
+                ideal.push(IdealTerm::PlanckEinstein {
+                    n: c_n,
+                    theta,
+                    c,
+                    d,
+                });
             }
             "power" => {
                 let [c, d, t, l] = numbers::<4>(&fields, n)?;
@@ -138,7 +169,7 @@ pub fn parse(text: &str) -> Result<Eos, Error> {
     }
     let missing = |what: &str| Error::EosData(format!("missing record '{what}'"));
     if !format_ok {
-        return Err(missing("format isochor-eos 1"));
+        return Err(missing("format isochor-eos 2"));
     }
     let [t_r, rho_r] = reducing.ok_or_else(|| missing("reducing"))?;
     let [t_c, p_c, rho_c] = critical.ok_or_else(|| missing("critical"))?;
@@ -160,6 +191,7 @@ pub fn parse(text: &str) -> Result<Eos, Error> {
         saturation_pressure: psat.ok_or_else(|| missing("psat"))?,
         vapour_density: rhov.ok_or_else(|| missing("rhov"))?,
         terms,
+        ideal,
     };
     let positive = [
         eos.molar_mass_kg_mol,
@@ -181,6 +213,13 @@ pub fn parse(text: &str) -> Result<Eos, Error> {
     if eos.terms.is_empty() {
         return Err(missing("power"));
     }
+    if !eos
+        .ideal
+        .iter()
+        .any(|t| matches!(t, IdealTerm::Lead { .. }))
+    {
+        return Err(missing("ideal_lead"));
+    }
     Ok(eos)
 }
 
@@ -193,7 +232,9 @@ mod tests {
         assert!(parse("").is_err());
         let good = super::super::data(Gas::Nitrogen);
         assert!(parse(good).is_ok());
-        assert!(parse(&good.replace("format isochor-eos 1", "format isochor-eos 2")).is_err());
+        assert!(parse(&good.replace("format isochor-eos 2", "format isochor-eos 1")).is_err());
+        assert!(parse(&good.replace("ideal_lead", "# ideal_lead")).is_err());
+        assert!(parse(&good.replace("ideal_log_tau 2.5", "ideal_log_tau")).is_err());
         assert!(parse(&good.replace("power ", "powr ")).is_err());
         assert!(parse(&good.replace("range 63.151", "range x")).is_err());
     }

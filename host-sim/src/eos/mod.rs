@@ -2,7 +2,7 @@
 //!
 //! Each gas is described by a multiparameter equation of state explicit in the
 //! reduced Helmholtz energy, α(τ, δ) = α⁰ + αʳ with τ = T_r/T and
-//! δ = ρ/ρ_r. Only the residual part αʳ is needed for the pressure–density–
+//! δ = ρ/ρ_r. The residual part αʳ alone gives the pressure–density–
 //! temperature behaviour:
 //!
 //! * p = ρ·R·T·(1 + δ·∂αʳ/∂δ), so Z = 1 + δ·∂αʳ/∂δ;
@@ -14,6 +14,13 @@
 //! terms `n δ^d τ^t exp(−η(δ−ε)² − β(τ−γ)²)`, and the non-analytic terms of
 //! carbon dioxide `n Δ^b δ ψ`. Derivatives are exact (second-order dual
 //! numbers, [`dual`]).
+//!
+//! The ideal-gas part α⁰ ([`IdealTerm`]) adds the caloric properties
+//! ([`Eos::caloric`]): u = RT·τ(α⁰_τ + αʳ_τ), h = u + RT(1 + δαʳ_δ),
+//! c_v = −R·τ²(α⁰_ττ + αʳ_ττ), c_p = c_v + R(1 + δαʳ_δ − δτ·αʳ_δτ)²/(1 + 2δαʳ_δ +
+//! δ²αʳ_δδ) and w² = (c_p/c_v)·(∂p/∂ρ)_T/M (Span, "Multiparameter Equations of
+//! State", Springer 2000, table 3.1; from memory), on CoolProp's reference
+//! state for u and h.
 //!
 //! The coefficients are data: one file per gas in `host-sim/data/eos/`,
 //! exported from CoolProp 8.0.0 by `host-sim/tools/export_eos.py` (format in
@@ -137,6 +144,95 @@ impl Term {
     }
 }
 
+/// One term of the ideal-gas part α⁰(τ, δ) (CoolProp's forms).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum IdealTerm {
+    /// `ln δ + a1 + a2·τ`.
+    Lead {
+        /// Constant.
+        a1: f64,
+        /// Coefficient of τ.
+        a2: f64,
+    },
+    /// `a1 + a2·τ` (the reference-state offset of u and s).
+    Offset {
+        /// Constant.
+        a1: f64,
+        /// Coefficient of τ.
+        a2: f64,
+    },
+    /// `a·ln τ`.
+    LogTau {
+        /// Coefficient.
+        a: f64,
+    },
+    /// `n·τ^t`.
+    Power {
+        /// Coefficient.
+        n: f64,
+        /// Exponent.
+        t: f64,
+    },
+    /// `n·ln(c + d·exp(θ·τ))` (Planck–Einstein; the usual
+    /// `n·ln(1 − exp(−t·τ))` is θ = −t, c = 1, d = −1).
+    PlanckEinstein {
+        /// Coefficient.
+        n: f64,
+        /// θ.
+        theta: f64,
+        /// c.
+        c: f64,
+        /// d.
+        d: f64,
+    },
+}
+
+impl IdealTerm {
+    /// The value and the first two τ-derivatives (the δ part is `ln δ` in
+    /// [`IdealTerm::Lead`], handled by the caller).
+    fn eval_tau(&self, tau: f64) -> (f64, f64, f64) {
+        match *self {
+            IdealTerm::Lead { a1, a2 } | IdealTerm::Offset { a1, a2 } => (a1 + a2 * tau, a2, 0.0),
+            IdealTerm::LogTau { a } => (a * libm::log(tau), a / tau, -a / (tau * tau)),
+            IdealTerm::Power { n, t } => {
+                let v = n * libm::pow(tau, t);
+                (v, v * t / tau, v * t * (t - 1.0) / (tau * tau))
+            }
+            IdealTerm::PlanckEinstein { n, theta, c, d } => {
+                let e = libm::exp(theta * tau);
+                let g = c + d * e;
+                (
+                    n * libm::log(g),
+                    n * d * theta * e / g,
+                    n * c * d * theta * theta * e / (g * g),
+                )
+            }
+        }
+    }
+}
+
+/// Caloric properties at one (ρ, T), molar basis, on the reference state of
+/// the equation as CoolProp sets it (only differences of u and h matter).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Caloric {
+    /// Pressure, Pa.
+    pub pressure_pa: f64,
+    /// ∂p/∂ρ at constant T, Pa per mol/m³.
+    pub dp_drho: f64,
+    /// ∂p/∂T at constant ρ, Pa/K.
+    pub dp_dt: f64,
+    /// Molar internal energy, J/mol.
+    pub u_j_mol: f64,
+    /// Molar enthalpy, J/mol.
+    pub h_j_mol: f64,
+    /// Isochoric molar heat capacity, J/(mol·K).
+    pub cv_j_mol_k: f64,
+    /// Isobaric molar heat capacity, J/(mol·K).
+    pub cp_j_mol_k: f64,
+    /// Speed of sound, m/s.
+    pub speed_of_sound_m_s: f64,
+}
+
 /// A saturation ancillary equation:
 /// `y = y_r · exp((T_r/T if tau_r) · Σ nᵢ θ^tᵢ)`, θ = 1 − T/T_r.
 #[derive(Clone, Debug, PartialEq)]
@@ -204,6 +300,8 @@ pub struct Eos {
     pub vapour_density: Ancillary,
     /// The residual terms.
     pub terms: Vec<Term>,
+    /// The ideal-gas terms.
+    pub ideal: Vec<IdealTerm>,
 }
 
 /// Where a state lies.
@@ -251,11 +349,13 @@ pub struct State {
     pub phase: Phase,
 }
 
-/// αʳ_δ, αʳ_δδ, αʳ_δτ at one point.
+/// αʳ_δ, αʳ_δδ, αʳ_δτ, αʳ_τ, αʳ_ττ at one point.
 struct Residual {
     d: f64,
     dd: f64,
     td: f64,
+    t: f64,
+    tt: f64,
 }
 
 impl Eos {
@@ -310,6 +410,49 @@ impl Eos {
             d: sum.d,
             dd: sum.dd,
             td: sum.td,
+            t: sum.t,
+            tt: sum.tt,
+        }
+    }
+
+    /// Isochoric molar heat capacity of the ideal gas c_v⁰ = −R·τ²·α⁰_ττ at
+    /// `t_k`, J/(mol·K) (no residual terms: cheap).
+    pub fn ideal_cv(&self, t_k: f64) -> f64 {
+        let tau = self.reducing_temperature_k / t_k;
+        let tt: f64 = self.ideal.iter().map(|term| term.eval_tau(tau).2).sum();
+        -self.gas_constant * tau * tau * tt
+    }
+
+    /// Caloric properties at a molar density and temperature (one evaluation
+    /// of every term; no iteration).
+    pub fn caloric(&self, rho_mol_m3: f64, t_k: f64) -> Caloric {
+        let delta = rho_mol_m3 / self.reducing_density_mol_m3;
+        let tau = self.reducing_temperature_k / t_k;
+        let r = self.residual(tau, delta);
+        let (mut i_t, mut i_tt) = (0.0, 0.0);
+        for term in &self.ideal {
+            let (_, a, b) = term.eval_tau(tau);
+            i_t += a;
+            i_tt += b;
+        }
+        let big_r = self.gas_constant;
+        let rt = big_r * t_k;
+        let p = rho_mol_m3 * rt * (1.0 + delta * r.d);
+        let dp_drho_red = 1.0 + 2.0 * delta * r.d + delta * delta * r.dd;
+        let dp_dt_red = 1.0 + delta * r.d - delta * tau * r.td;
+        let u = rt * tau * (i_t + r.t);
+        let cv = -big_r * tau * tau * (i_tt + r.tt);
+        let cp = cv + big_r * dp_dt_red * dp_dt_red / dp_drho_red;
+        let w2 = cp / cv * rt * dp_drho_red / self.molar_mass_kg_mol;
+        Caloric {
+            pressure_pa: p,
+            dp_drho: rt * dp_drho_red,
+            dp_dt: rho_mol_m3 * big_r * dp_dt_red,
+            u_j_mol: u,
+            h_j_mol: u + rt * (1.0 + delta * r.d),
+            cv_j_mol_k: cv,
+            cp_j_mol_k: cp,
+            speed_of_sound_m_s: libm::sqrt(w2.max(0.0)),
         }
     }
 

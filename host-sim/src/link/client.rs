@@ -4,8 +4,8 @@ use std::time::{Duration, Instant};
 
 use isochor_core::auth::{self, Secret};
 use isochor_core::link::{
-    CHUNK_MAX_LEN, Command, GetChallenge, GetIdentity, Identity, Message, NONCE_LEN, Origin,
-    Outcome, Ping, ReadRecord, Refusal, Signed,
+    CHUNK_MAX_LEN, Command, Diagnostics, GetChallenge, GetDiagnostics, GetIdentity, Identity,
+    InjectSample, Message, NONCE_LEN, Origin, Outcome, Ping, RawCode, ReadRecord, Refusal, Signed,
 };
 use isochor_core::store::{Record, decode_record};
 
@@ -106,6 +106,67 @@ impl<T: Transport> Client<T> {
             }
             other => Err(unexpected(other)),
         }
+    }
+
+    /// The device's diagnostics (its latest start, stack use, link counters).
+    pub fn diagnostics(&mut self) -> Result<Diagnostics, Error> {
+        match self.request(|tag| Message::GetDiagnostics(GetDiagnostics { tag }))? {
+            Outcome::Diagnostics(d) => Ok(d),
+            other => Err(unexpected(other)),
+        }
+    }
+
+    /// Sends raw codes as one sample taken at `at_ms` on the device's clock
+    /// (devices with sample injection); returns once the device took it.
+    pub fn inject(&mut self, at_ms: u64, codes: &[RawCode]) -> Result<(), Error> {
+        let codes = heapless::Vec::from_slice(codes)
+            .map_err(|_| Error::Invalid("too many codes in one sample".into()))?;
+        match self.request(|tag| {
+            Message::InjectSample(InjectSample {
+                tag,
+                at_ms,
+                codes: codes.clone(),
+            })
+        })? {
+            Outcome::Taken => Ok(()),
+            other => Err(unexpected(other)),
+        }
+    }
+
+    /// Takes the messages that arrived unasked (telemetry, alarms, boot).
+    pub fn take_unsolicited(&mut self) -> Vec<Message> {
+        std::mem::take(&mut self.unsolicited)
+    }
+
+    /// Waits up to `timeout` for unasked messages and keeps them (see
+    /// [`Client::take_unsolicited`]); returns how many arrived.
+    pub fn collect(&mut self, timeout: Duration) -> Result<usize, Error> {
+        let deadline = Instant::now() + timeout;
+        let mut n = 0;
+        loop {
+            let left = deadline.saturating_duration_since(Instant::now());
+            if left.is_zero() {
+                return Ok(n);
+            }
+            match self.link.next_event(left)? {
+                Some(LinkEvent::Message(m)) => {
+                    self.unsolicited.push(m);
+                    n += 1;
+                }
+                Some(_) => {}
+                None => return Ok(n),
+            }
+        }
+    }
+
+    /// Sends raw bytes as they are (tests: damaged frames, noise).
+    pub fn send_raw(&mut self, bytes: &[u8]) -> Result<(), Error> {
+        self.link.send_raw(bytes)
+    }
+
+    /// Forgets the signing session (the next signed command opens a new one).
+    pub fn forget_session(&mut self) {
+        self.session = None;
     }
 
     /// Reads a record of type `R`.
@@ -245,5 +306,8 @@ pub fn refusal_text(r: &Refusal) -> String {
         Refusal::BlobCrc => "gas-model blob CRC mismatch: nothing stored".into(),
         Refusal::BlobTooLarge => "gas-model blob larger than the device's slot".into(),
         Refusal::Storage => "flash write failed on the device; previous value kept".into(),
+        Refusal::BadGasModel => {
+            "not a gas-model table this device can use (format, version, checksum or content): nothing committed".into()
+        }
     }
 }

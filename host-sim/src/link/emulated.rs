@@ -1,31 +1,37 @@
-//! An emulated device: the core's device end of the link ([`Responder`]) on a
-//! simulated NOR flash, served over any [`Transport`]. Tests use it to run
-//! host and device together in one process; `isochor` commands can talk to it
-//! over TCP.
+//! An emulated device: the firmware's application ([`Gauge`], from the
+//! core) on a simulated NOR flash, served over any [`Transport`]. It runs
+//! exactly the code the reference firmware runs (records, signed commands,
+//! gas-model loads, the sensor front-ends, the tracker and its alarms), with
+//! samples taken from [`InjectSample`](isochor_core::link::InjectSample)
+//! messages, so host tests exercise the same paths as the QEMU tests.
 
+use std::io;
 use std::time::{Duration, Instant as StdInstant};
 
+use isochor_core::app::{Gauge, GaugeIo, Models, decode_loaded_model, model_for, stored_gas};
 use isochor_core::auth::{Authenticator, NonceSource, Policy, Secret};
-use isochor_core::link::device::{DeviceActions, Responder};
-use isochor_core::link::{Identity, InjectSample, Message, NONCE_LEN, SensorChannel, capability};
+use isochor_core::link::{BootReport, Identity, NONCE_LEN, ResetReason};
+use isochor_core::model::device::builtin;
+use isochor_core::store::Layout;
 use isochor_core::store::sim::SimFlash;
-use isochor_core::store::{BlobSlots, GasModelRef, RecordArea, RecordKind};
 use isochor_core::time::Instant;
-use isochor_core::{Error as CoreError, SetupFx};
 
-use super::transport::{Link, LinkEvent, Transport};
+use super::transport::Transport;
 use crate::Error;
 
 /// The emulated device's flash: 64 KiB, 1 KiB sectors, 4-byte writes.
 pub type EmulatedFlash = SimFlash<65536, 1024, 4>;
 
-/// Layout: setup area 0–4 KiB, gas-model reference 4–8 KiB (two 2 KiB banks
-/// each), gas-model slots 8–64 KiB (two 28 KiB slots).
-const SETUP_AT: u32 = 0;
-const GAS_REF_AT: u32 = 4096;
-const BANK_LEN: u32 = 2048;
-const BLOBS_AT: u32 = 8192;
-const SLOT_LEN: u32 = 28 * 1024;
+/// Record banks of 1 KiB (each record kind takes 2 KiB).
+pub const BANK_LEN: u32 = 1024;
+/// Gas-model slots of 24 KiB.
+pub const SLOT_LEN: u32 = 24 * 1024;
+
+/// The emulated device's storage layout: the six record areas from 0, then
+/// the two gas-model slots.
+pub fn layout(flash: &EmulatedFlash) -> Result<Layout, Error> {
+    Ok(Layout::contiguous(flash, 0, BANK_LEN, SLOT_LEN)?)
+}
 
 /// Nonces from the operating system's random source.
 pub struct OsNonces;
@@ -38,56 +44,32 @@ impl NonceSource for OsNonces {
     }
 }
 
-/// What the emulated firmware was asked to do.
-#[derive(Clone, Debug, Default, PartialEq, Eq)]
-pub struct Actions {
-    /// Setups applied, in order.
-    pub setups: Vec<SetupFx>,
-    /// Gas models committed, in order.
-    pub gas_models: Vec<GasModelRef>,
-    /// Channels zeroed, in order.
-    pub zeroed: Vec<SensorChannel>,
-    /// Times alarms were cleared.
-    pub alarms_cleared: u32,
-    /// Restarts done.
-    pub reboots: u32,
-    /// Samples injected, in order.
-    pub samples: Vec<InjectSample>,
-    reboot_pending: bool,
+/// The gauge's outputs onto a transport.
+struct Io<'a, T> {
+    transport: &'a mut T,
+    failed: bool,
 }
 
-impl DeviceActions for Actions {
-    fn setup_changed(&mut self, setup: &SetupFx) {
-        self.setups.push(*setup);
+impl<T: Transport> GaugeIo for Io<'_, T> {
+    fn send(&mut self, frame: &[u8]) {
+        if self.transport.send(frame).is_err() {
+            self.failed = true;
+        }
     }
-    fn gas_model_changed(&mut self, model: &GasModelRef) {
-        self.gas_models.push(*model);
-    }
-    fn zero_calibration(&mut self, channel: SensorChannel) -> Result<(), CoreError> {
-        self.zeroed.push(channel);
-        Ok(())
-    }
-    fn clear_alarms(&mut self) {
-        self.alarms_cleared += 1;
-    }
-    fn reboot_after_reply(&mut self) {
-        self.reboot_pending = true;
-    }
-    fn inject(&mut self, sample: &InjectSample) -> Result<(), CoreError> {
-        self.samples.push(sample.clone());
-        Ok(())
+    fn fill_nonce(&mut self, out: &mut [u8; NONCE_LEN]) {
+        OsNonces.fill_nonce(out);
     }
 }
 
 /// A device in software.
 pub struct EmulatedDevice {
-    responder: Option<Responder<EmulatedFlash>>,
+    flash: Option<Box<EmulatedFlash>>,
     identity: Identity,
     secret: Secret,
     policy: Policy,
     started: StdInstant,
-    /// What the firmware was asked to do.
-    pub actions: Actions,
+    boots: u32,
+    next_reason: ResetReason,
 }
 
 impl EmulatedDevice {
@@ -102,49 +84,23 @@ impl EmulatedDevice {
         secret: Secret,
         flash: Box<EmulatedFlash>,
     ) -> Result<EmulatedDevice, Error> {
-        let identity = Identity {
-            serial,
-            hardware_rev: 1,
-            firmware_version: [0, 1, 0],
-            protocol: 0,
-            max_frame_len: 0,
-            capabilities: capability::SIGNED_CONFIG
-                | capability::GAS_MODEL_LOAD
-                | capability::SAMPLE_INJECTION,
-        };
-        let mut dev = EmulatedDevice {
-            responder: None,
-            identity,
+        layout(&flash)?;
+        Ok(EmulatedDevice {
+            flash: Some(flash),
+            identity: Identity {
+                serial,
+                hardware_rev: 1,
+                firmware_version: isochor_core::app::FIRMWARE_VERSION,
+                protocol: 0,
+                max_frame_len: 0,
+                capabilities: 0,
+            },
             secret,
             policy: Policy::default(),
             started: StdInstant::now(),
-            actions: Actions::default(),
-        };
-        dev.boot(*flash)?;
-        Ok(dev)
-    }
-
-    fn boot(&mut self, flash: EmulatedFlash) -> Result<(), Error> {
-        let setup = RecordArea::new(&flash, RecordKind::SETUP, SETUP_AT, BANK_LEN)?;
-        let gas_ref = RecordArea::new(&flash, RecordKind::GAS_MODEL_REF, GAS_REF_AT, BANK_LEN)?;
-        let blobs = BlobSlots::new(&flash, BLOBS_AT, SLOT_LEN)?;
-        let auth = Authenticator::new(self.secret.clone(), self.identity.serial, self.policy);
-        self.responder = Some(Responder::new(
-            self.identity.clone(),
-            auth,
-            flash,
-            setup,
-            gas_ref,
-            blobs,
-        )?);
-        Ok(())
-    }
-
-    /// The device's responder (its stored setup, status, flash).
-    pub fn responder(&mut self) -> &mut Responder<EmulatedFlash> {
-        self.responder
-            .as_mut()
-            .expect("the responder exists between boots")
+            boots: 0,
+            next_reason: ResetReason::PowerOn,
+        })
     }
 
     /// Time since the device started.
@@ -152,34 +108,82 @@ impl EmulatedDevice {
         Instant(self.started.elapsed().as_millis() as u64)
     }
 
-    /// Answers one message (and restarts after a reboot command).
-    pub fn handle(&mut self, msg: &Message) -> Result<Option<Message>, Error> {
-        let now = self.now();
-        let Some(r) = self.responder.as_mut() else {
-            return Ok(None);
-        };
-        let reply = r.handle(now, msg, &mut OsNonces, &mut self.actions);
-        if std::mem::take(&mut self.actions.reboot_pending) {
-            self.actions.reboots += 1;
-            if let Some(flash) = self.responder.take().map(Responder::into_flash) {
-                self.boot(flash)?;
-            }
-        }
-        Ok(reply)
+    /// Starts (power-on or restart) so far.
+    pub fn boots(&self) -> u32 {
+        self.boots
     }
 
-    /// Serves requests until the other end closes the link.
-    pub fn serve<T: Transport>(&mut self, link: &mut Link<T>) -> Result<(), Error> {
+    /// The flash (between runs of [`EmulatedDevice::serve`]).
+    pub fn flash(&self) -> Option<&EmulatedFlash> {
+        self.flash.as_deref()
+    }
+
+    /// Runs the device on `transport` until the other end closes it:
+    /// starts, answers, takes injected samples, sends telemetry and alarms,
+    /// and restarts (keeping its flash) when asked to. Each start sends a
+    /// boot message.
+    pub fn serve<T: Transport>(&mut self, transport: &mut T) -> Result<(), Error> {
         loop {
-            match link.next_event(Duration::from_millis(50))? {
-                Some(LinkEvent::Message(msg)) => {
-                    if let Some(reply) = self.handle(&msg)? {
-                        link.send(&reply)?;
-                    }
+            let mut flash = self
+                .flash
+                .take()
+                .ok_or_else(|| Error::Link("the emulated device has no flash".into()))?;
+            let layout = layout(&flash)?;
+            let table = decode_loaded_model(flash.as_mut(), &layout);
+            let gas = stored_gas(flash.as_mut(), &layout);
+            let model = model_for(gas, table.as_ref(), builtin::table);
+            self.boots += 1;
+            let boot = BootReport::new(self.next_reason, self.boots);
+            let auth = Authenticator::new(self.secret.clone(), self.identity.serial, self.policy);
+            let mut gauge = Gauge::new(
+                self.identity.clone(),
+                auth,
+                *flash,
+                layout,
+                Models {
+                    model: model.as_ref(),
+                    loadable: true,
+                },
+                true,
+                boot,
+            )?;
+            let closed = self.run(&mut gauge, transport);
+            self.flash = Some(Box::new(gauge.into_flash()));
+            self.next_reason = ResetReason::Requested;
+            if closed? {
+                return Ok(());
+            }
+        }
+    }
+
+    /// Pumps bytes into the gauge; `Ok(true)` once the link closed,
+    /// `Ok(false)` when the gauge asks for a restart.
+    fn run<T: Transport>(
+        &self,
+        gauge: &mut Gauge<'_, EmulatedFlash>,
+        transport: &mut T,
+    ) -> Result<bool, Error> {
+        let mut io = Io {
+            transport,
+            failed: false,
+        };
+        gauge.start(&mut io);
+        let mut buf = [0u8; 512];
+        loop {
+            if gauge.restart_requested() {
+                return Ok(false);
+            }
+            match io.transport.receive(&mut buf, Duration::from_millis(50)) {
+                Ok(n) => {
+                    let now = self.now();
+                    gauge.receive(now, &buf[..n], &mut io);
                 }
-                Some(_) => {}
-                None if link.closed() => return Ok(()),
-                None => {}
+                Err(e) if e.kind() == io::ErrorKind::UnexpectedEof => return Ok(true),
+                Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
+                Err(e) => return Err(Error::Link(format!("receive: {e}"))),
+            }
+            if io.failed {
+                return Ok(true);
             }
         }
     }

@@ -158,6 +158,7 @@ impl Transport for MemoryEnd {
 
 /// What the reader got.
 #[derive(Debug, PartialEq, Eq)]
+#[allow(clippy::large_enum_variant)] // returned once per frame, never stored in bulk
 pub enum LinkEvent {
     /// A decoded message.
     Message(Message),
@@ -215,6 +216,13 @@ impl<T: Transport> Link<T> {
         let n = link::encode(msg, &mut out)?;
         self.transport
             .send(&out[..n])
+            .map_err(|e| Error::Link(format!("send: {e}")))
+    }
+
+    /// Sends bytes as they are, not framed (tests: damaged frames, noise).
+    pub fn send_raw(&mut self, bytes: &[u8]) -> Result<(), Error> {
+        self.transport
+            .send(bytes)
             .map_err(|e| Error::Link(format!("send: {e}")))
     }
 

@@ -4,7 +4,9 @@
 use isochor_core::Status;
 use isochor_core::fixed::types::I32F32;
 use isochor_core::fx;
-use isochor_core::link::{AlarmEvent, AlarmTransition, Message, Outcome, Telemetry};
+use isochor_core::link::{
+    AlarmEvent, AlarmTransition, BootReport, Message, Outcome, ResetReason, Telemetry,
+};
 use serde::Serialize;
 
 /// Telemetry in SI units, as JSON and CSV carry it. Content values are
@@ -32,12 +34,21 @@ pub struct TelemetryRow {
     pub settled_pressure_pa: Option<f64>,
     /// Fill fraction (1 = rated content).
     pub fill_fraction: Option<f64>,
-    /// Rate of change of mass, kg/h (negative while emptying).
-    pub rate_kg_h: f64,
+    /// Rate of change of mass, kg/h (negative while emptying); `None` until
+    /// the device knows it.
+    pub rate_kg_h: Option<f64>,
+    /// Expanded uncertainty of the rate (k = 2), kg/h.
+    pub rate_uncertainty_kg_h: Option<f64>,
     /// Time to empty, s.
     pub time_to_empty_s: Option<u32>,
+    /// Earliest time to empty (rate plus its uncertainty), s.
+    pub time_to_empty_earliest_s: Option<u32>,
+    /// Latest time to empty (rate minus its uncertainty), s.
+    pub time_to_empty_latest_s: Option<u32>,
     /// Expanded uncertainty of the mass (k = 2), kg.
     pub mass_uncertainty_kg: Option<f64>,
+    /// Expanded uncertainty of the fill fraction (k = 2).
+    pub fill_fraction_uncertainty: Option<f64>,
     /// Status flag names.
     pub status: Vec<String>,
 }
@@ -61,9 +72,19 @@ impl TelemetryRow {
             settled_pressure_pa: (valid && !status.contains(Status::SETTLED_TWO_PHASE))
                 .then(|| fx::to_f64(fx::Pressure::from_bits(t.settled_pressure_pa))),
             fill_fraction: content(fx::to_f64(fx::Fraction::from_bits(t.fill_fraction))),
-            rate_kg_h: fx::to_f64(I32F32::from_bits(t.rate_kg_h)),
+            rate_kg_h: t.rate_kg_h.map(|r| fx::to_f64(I32F32::from_bits(r))),
+            rate_uncertainty_kg_h: t
+                .rate_uncertainty_kg_h
+                .map(|r| fx::to_f64(I32F32::from_bits(r))),
             time_to_empty_s: t.time_to_empty_s,
-            mass_uncertainty_kg: content(fx::to_f64(fx::Mass::from_bits(t.mass_uncertainty_kg))),
+            time_to_empty_earliest_s: t.time_to_empty_earliest_s,
+            time_to_empty_latest_s: t.time_to_empty_latest_s,
+            mass_uncertainty_kg: t
+                .mass_uncertainty_kg
+                .and_then(|u| content(fx::to_f64(fx::Mass::from_bits(u)))),
+            fill_fraction_uncertainty: t
+                .fill_fraction_uncertainty
+                .and_then(|u| content(fx::to_f64(fx::Fraction::from_bits(u)))),
             status: status_names(status),
         }
     }
@@ -93,6 +114,9 @@ pub struct AlarmRow {
     pub uptime_ms: u64,
     /// Alarm code.
     pub alarm: u16,
+    /// Alarm name (its status flag's name; `unknown` for codes this version
+    /// does not know).
+    pub name: &'static str,
     /// "raised" or "cleared".
     pub transition: &'static str,
     /// Mass at the event, kg.
@@ -109,6 +133,7 @@ impl AlarmRow {
             seq: a.seq,
             uptime_ms: a.uptime_ms,
             alarm: a.alarm,
+            name: a.kind().map_or("unknown", |k| k.name()),
             transition: match a.transition {
                 AlarmTransition::Raised => "raised",
                 AlarmTransition::Cleared => "cleared",
@@ -122,7 +147,8 @@ impl AlarmRow {
 /// The CSV header of telemetry rows.
 pub const CSV_HEADER: &str = "seq,uptime_ms,pressure_pa,temperature_k,density_kg_m3,mass_kg,\
 standard_volume_m3,settled_pressure_pa,fill_fraction,rate_kg_h,time_to_empty_s,\
-mass_uncertainty_kg,status";
+mass_uncertainty_kg,status,rate_uncertainty_kg_h,time_to_empty_earliest_s,\
+time_to_empty_latest_s,fill_fraction_uncertainty";
 
 fn opt<T: ToString>(v: Option<T>) -> String {
     v.map(|x| x.to_string()).unwrap_or_default()
@@ -131,7 +157,7 @@ fn opt<T: ToString>(v: Option<T>) -> String {
 /// One CSV line (no newline); flags joined with `|`.
 pub fn csv_line(r: &TelemetryRow) -> String {
     format!(
-        "{},{},{},{},{},{},{},{},{},{},{},{},{}",
+        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
         r.seq,
         r.uptime_ms,
         r.pressure_pa,
@@ -141,10 +167,14 @@ pub fn csv_line(r: &TelemetryRow) -> String {
         opt(r.standard_volume_m3),
         opt(r.settled_pressure_pa),
         opt(r.fill_fraction),
-        r.rate_kg_h,
+        opt(r.rate_kg_h),
         opt(r.time_to_empty_s),
         opt(r.mass_uncertainty_kg),
-        r.status.join("|")
+        r.status.join("|"),
+        opt(r.rate_uncertainty_kg_h),
+        opt(r.time_to_empty_earliest_s),
+        opt(r.time_to_empty_latest_s),
+        opt(r.fill_fraction_uncertainty),
     )
 }
 
@@ -169,7 +199,7 @@ pub fn text_telemetry(r: &TelemetryRow) -> String {
     };
     format!(
         "#{:<6} {:>10.3} s  p {:>9.3} bar  T {:>7.2} °C  mass {:>12}  Vstd {:>12}  fill {:>8}  \
-         settled {:>11}  rate {:>+9.4} kg/h  empty in {:>9}  ±{:>10}  [{status}]",
+         settled {:>11}  rate {:>13}  empty in {:>9}  ±{:>10}  [{status}]",
         r.seq,
         r.uptime_ms as f64 / 1000.0,
         r.pressure_pa / 1e5,
@@ -178,7 +208,8 @@ pub fn text_telemetry(r: &TelemetryRow) -> String {
         fmt_opt(r.standard_volume_m3, 1.0, 3, "m³"),
         fmt_opt(r.fill_fraction, 100.0, 1, "%"),
         fmt_opt(r.settled_pressure_pa, 1e-5, 2, "bar"),
-        r.rate_kg_h,
+        r.rate_kg_h
+            .map_or_else(|| "n/a".to_string(), |x| format!("{x:+.4} kg/h")),
         r.time_to_empty_s.map(hms).unwrap_or_else(|| "n/a".into()),
         fmt_opt(r.mass_uncertainty_kg, 1.0, 4, "kg"),
     )
@@ -190,9 +221,10 @@ pub fn text_other(m: &Message) -> String {
         Message::Alarm(a) => {
             let r = AlarmRow::from_event(a);
             format!(
-                "ALARM {} {} (code {}) at {:.3} s, mass {:.4} kg [{}]",
+                "ALARM {} {} {} (code {}) at {:.3} s, mass {:.4} kg [{}]",
                 r.seq,
                 r.transition.to_uppercase(),
+                r.name,
                 r.alarm,
                 r.uptime_ms as f64 / 1000.0,
                 r.mass_kg,
@@ -208,6 +240,14 @@ pub fn text_other(m: &Message) -> String {
             i.firmware_version[2],
             i.protocol
         ),
+        Message::Boot(b) => format!(
+            "device serial {} started (firmware {}.{}.{}): {}",
+            b.serial,
+            b.firmware_version[0],
+            b.firmware_version[1],
+            b.firmware_version[2],
+            boot_text(&b.report)
+        ),
         Message::Reply(r) => match &r.outcome {
             Outcome::Refused(x) => format!(
                 "reply {}: refused: {}",
@@ -217,6 +257,28 @@ pub fn text_other(m: &Message) -> String {
             other => format!("reply {}: {other:?}", r.tag),
         },
         other => format!("{} message", other.kind().name()),
+    }
+}
+
+/// A sentence for a start report.
+pub fn boot_text(b: &BootReport) -> String {
+    let reason = reset_reason_name(b.reason);
+    let mut t = format!("{reason}, start {} since power-on", b.boots);
+    if b.fault_line != 0 || !b.fault_file.is_empty() {
+        t.push_str(&format!(", fault at {}:{}", b.fault_file, b.fault_line));
+    }
+    t
+}
+
+/// Stable snake_case name of a reset reason.
+pub fn reset_reason_name(r: ResetReason) -> &'static str {
+    match r {
+        ResetReason::PowerOn => "power_on",
+        ResetReason::Requested => "requested",
+        ResetReason::Panic => "panic",
+        ResetReason::Watchdog => "watchdog",
+        ResetReason::HardFault => "hard_fault",
+        ResetReason::Unknown => "unknown",
     }
 }
 
@@ -287,6 +349,17 @@ pub fn listen<T: super::Transport, W: std::io::Write>(
                     shown += 1;
                 }
                 Some(text_other(m))
+            }
+            (LinkEvent::Message(Message::Boot(b)), ListenFormat::Jsonl) => {
+                Some(json(&serde_json::json!({
+                    "type": "boot",
+                    "serial": b.serial,
+                    "firmware_version": format!("{}.{}.{}", b.firmware_version[0], b.firmware_version[1], b.firmware_version[2]),
+                    "reason": reset_reason_name(b.report.reason),
+                    "boots": b.report.boots,
+                    "fault_file": b.report.fault_file.as_str(),
+                    "fault_line": b.report.fault_line,
+                }))?)
             }
             (LinkEvent::Message(m), ListenFormat::Jsonl) => Some(json(&serde_json::json!({
                 "type": m.kind().name(),

@@ -1,0 +1,228 @@
+//! The gauge application, without hardware: what the reference firmware
+//! runs, and what the host's emulated device runs too.
+//!
+//! One sample's way: raw converter codes → sensor front-ends and their
+//! calibration corrections ([`fixed::Pipeline::convert`]) → the tracker
+//! (content, rate, time to empty, leak, settling, uncertainty, alarms) →
+//! telemetry and alarm frames ([`Gauge`]). Between samples the gauge answers
+//! the host (records, signed commands, gas-model loads, diagnostics) through
+//! the core's [`Responder`](crate::link::device::Responder).
+//!
+//! Hardware stays outside: the firmware owns the converters, the UART, the
+//! flash driver (any `NorFlash`), the clock, the random source and the
+//! watchdog, and drives the [`Gauge`] with bytes, samples and times. The
+//! host's `EmulatedDevice` drives the same [`Gauge`] over a simulated flash,
+//! so host tests and emulator tests run the same application code.
+//!
+//! The pipeline exists twice with the same steps and names, as every
+//! computation of the crate: [`fixed::Pipeline`] (the device) and
+//! [`float::Pipeline`] (generic over [`Real`](crate::Real); `f64` is the
+//! reference the end-to-end tests compare telemetry with, `f32` and `f64`
+//! are what the firmware budget measures the same algorithm in).
+//!
+//! # Steps per sample
+//!
+//! 1. `temperature`: the temperature front-end (RTD or NTC) converts its
+//!    code; the calibration correction follows.
+//! 2. `compensation`: a bridge transducer is compensated at the gas
+//!    temperature (the transducer sits on the vessel); the compensation is
+//!    prepared once per bucket of temperature codes ([`COMPENSATION_BUCKETS`]
+//!    over the converter range, about 0.07 K for the reference board's
+//!    Pt1000) from the bucket's central code, so both paths take the same
+//!    decision from the same integer code.
+//! 3. `pressure`: the pressure front-end (bridge or 4–20 mA with NAMUR NE 43
+//!    persistence) converts its code with the site's barometric pressure;
+//!    the calibration correction follows.
+//! 4. `track`: the tracker takes pressure, temperature, both channels' flags
+//!    and the sample's time.
+//!
+//! # Zero calibration
+//!
+//! `zero` shifts a channel's correction so that the present reading (the
+//! last valid one, before correction) reads as the reference: the
+//! barometric pressure for the pressure channel (a vented vessel holds gas
+//! at the ambient pressure), 0 °C for the temperature channel (an ice
+//! bath). The correction's constant coefficient absorbs the offset
+//! (`c₀ += δ/(hi − lo)`, an exact shift of every reading); an identity
+//! correction first takes the transducer's range as its interval. The new
+//! record gets the next sequence number and is stored like any record.
+
+pub mod fixed;
+pub mod float;
+mod gauge;
+
+pub use gauge::{
+    FIRMWARE_VERSION, Gauge, GaugeIo, Models, decode_loaded_model, model_for, stored_gas,
+};
+
+use crate::link::{RawCode, SensorChannel};
+use crate::sensor::PressureKind;
+use crate::sensor::calibration::{CalibrationRecord, Correction, SensorConfig};
+use crate::{Error, fx};
+
+/// Buckets of the temperature converter's range in which a bridge
+/// transducer's compensation is prepared once.
+pub const COMPENSATION_BUCKETS: u32 = 1 << 14;
+
+/// One raw sample: the codes as the converters deliver them.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct RawSample {
+    /// Pressure converter code (a bipolar converter's two's-complement code
+    /// in its low `adc_bits` bits).
+    pub pressure: u32,
+    /// Temperature converter code.
+    pub temperature: u32,
+}
+
+impl RawSample {
+    /// The sample of an injected message: exactly one code per channel.
+    pub fn from_codes(codes: &[RawCode]) -> Result<RawSample, Error> {
+        let mut p = None;
+        let mut t = None;
+        for c in codes {
+            let slot = match c.channel {
+                SensorChannel::Pressure => &mut p,
+                SensorChannel::Temperature => &mut t,
+            };
+            if slot.replace(c.code).is_some() {
+                return Err(Error::OutOfRange("sample codes"));
+            }
+        }
+        match (p, t) {
+            (Some(pressure), Some(temperature)) => Ok(RawSample {
+                pressure,
+                temperature,
+            }),
+            _ => Err(Error::OutOfRange("sample codes")),
+        }
+    }
+}
+
+/// A bipolar converter's code as a signed value (sign taken from bit
+/// `bits − 1`; higher bits ignored); a unipolar code as it is.
+pub fn signed_code(code: u32, bits: u8, bipolar: bool) -> i32 {
+    let bits = u32::from(bits.clamp(8, 24));
+    if bipolar {
+        let shift = 32 - bits;
+        ((code << shift) as i32) >> shift
+    } else {
+        (code & ((1 << bits) - 1)) as i32
+    }
+}
+
+/// The central code of the compensation bucket of a temperature code.
+pub fn bucket_code(code: u32, adc_bits: u8) -> (u32, u32) {
+    let bits = u32::from(adc_bits.clamp(8, 24));
+    let shift = bits.saturating_sub(COMPENSATION_BUCKETS.trailing_zeros());
+    let bucket = code >> shift;
+    let centre = if shift == 0 {
+        code
+    } else {
+        (bucket << shift) | (1 << (shift - 1))
+    };
+    (bucket, centre)
+}
+
+/// Converter bits of a temperature front-end.
+pub(crate) fn temperature_bits(s: &SensorConfig) -> u8 {
+    match s {
+        SensorConfig::Rtd(c) => c.front_end.adc_bits,
+        SensorConfig::Ntc(c) => c.front_end.adc_bits,
+        SensorConfig::Bridge(c) => c.adc_bits,
+        SensorConfig::Loop(c) => c.adc_bits,
+    }
+}
+
+/// The absolute measuring range of a pressure front-end, as calibration
+/// anchors (`Anchor` bits: Pa at 2^-24), with the barometric pressure for
+/// gauge transducers.
+fn pressure_range(s: &SensorConfig, barometric: fx::Pressure) -> Option<(i64, i64)> {
+    let (lo, hi, kind) = match s {
+        SensorConfig::Bridge(b) => (b.range_lo_pa, b.range_hi_pa, b.kind),
+        SensorConfig::Loop(l) => (l.range_lo_pa, l.range_hi_pa, l.kind),
+        _ => return None,
+    };
+    let base = match kind {
+        PressureKind::Absolute => 0,
+        PressureKind::Gauge => i64::from(barometric.to_bits()),
+    };
+    // Pa at 2^-4 → 2^-24.
+    Some((
+        (i64::from(lo.to_bits()) + base) << 20,
+        (i64::from(hi.to_bits()) + base) << 20,
+    ))
+}
+
+/// The measuring range of a temperature front-end, as anchors (K at 2^-24).
+fn temperature_range(s: &SensorConfig) -> Option<(i64, i64)> {
+    let (lo, hi) = match s {
+        SensorConfig::Rtd(c) => (c.range_min_k, c.range_max_k),
+        SensorConfig::Ntc(c) => (c.range_min_k, c.range_max_k),
+        _ => return None,
+    };
+    Some((i64::from(lo.to_bits()) << 8, i64::from(hi.to_bits()) << 8))
+}
+
+/// A calibration re-zeroed: the correction shifted by `target − present`
+/// (both anchors: SI at 2^-24; `present` is the corrected reading now), the
+/// sequence number advanced. Integer arithmetic (one 128-bit division).
+pub fn rezero(
+    record: &CalibrationRecord,
+    present: i64,
+    target: i64,
+    barometric: fx::Pressure,
+) -> Result<CalibrationRecord, Error> {
+    let mut c = record.correction;
+    if c == Correction::IDENTITY {
+        let (lo, hi) = match record.channel {
+            crate::sensor::calibration::Channel::Pressure => {
+                pressure_range(&record.sensor, barometric)
+            }
+            _ => temperature_range(&record.sensor),
+        }
+        .ok_or(Error::OutOfRange("calibration channel"))?;
+        c.lo = fx::Anchor::from_bits(lo);
+        c.hi = fx::Anchor::from_bits(hi);
+    }
+    let span = i128::from(c.hi.to_bits()) - i128::from(c.lo.to_bits());
+    if span <= 0 {
+        return Err(Error::OutOfRange("calibrated interval"));
+    }
+    // δ/(hi − lo) at 2^-48, rounded to nearest.
+    let delta = (i128::from(target) - i128::from(present)) << 48;
+    let half = span / 2;
+    let step = if delta < 0 {
+        (delta - half) / span
+    } else {
+        (delta + half) / span
+    };
+    let [c0, c1, c2, c3] = c.coefficients;
+    let c0 = i128::from(c0.to_bits()) + step;
+    let c0 = i64::try_from(c0).map_err(|_| Error::OutOfRange("correction coefficient"))?;
+    c.coefficients = [fx::Coefficient::from_bits(c0), c1, c2, c3];
+    c.validate()?;
+    Ok(CalibrationRecord {
+        sequence: record.sequence.wrapping_add(1),
+        correction: c,
+        ..*record
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn codes_are_signed_and_bucketed() {
+        assert_eq!(signed_code(0x00FF_FFFF, 24, true), -1);
+        assert_eq!(signed_code(0x007F_FFFF, 24, true), 0x7F_FFFF);
+        assert_eq!(signed_code(0xFF80_0000, 24, true), -0x80_0000);
+        assert_eq!(signed_code(0x1234, 16, false), 0x1234);
+        assert_eq!(signed_code(0x1_1234, 16, false), 0x1234);
+        let (b, c) = bucket_code(0x12_3456, 24);
+        assert_eq!(b, 0x12_3456 >> 10);
+        assert_eq!(c, (b << 10) | 512);
+        assert_eq!(bucket_code(300, 12), (300, 300));
+    }
+}

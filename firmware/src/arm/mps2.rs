@@ -1,0 +1,263 @@
+//! The QEMU `mps2-an386` machine: Cortex-M4F at 25 MHz, code in 4 MiB of
+//! SSRAM at 0, data in SSRAM at 0x2000_0000. Written against the
+//! peripherals QEMU 7.2 emulates: CMSDK APB UART0 (0x4000_4000, receive
+//! interrupt 0) and the CMSDK APB watchdog (0x4000_8000, its interrupt on
+//! NMI, reset on the second expiry).
+//!
+//! The machine has no flash: the store lives in RAM-backed NOR emulation
+//! ([`crate::ram_nor`]) at the start of the 16 MiB PSRAM (0x2100_0000),
+//! which the firmware image and the start-up code never touch and a system
+//! reset does not clear — so records survive a reboot, but not a new QEMU
+//! process (the emulated part then starts blank and is formatted). The
+//! provisioning block is loaded by the emulator into the last KiB of PSRAM
+//! ([`PROVISIONING`]). Not a product storage: an emulation target for the
+//! application and its measurements.
+//!
+//! The machine has no random generator either: nonces come from
+//! HMAC-SHA-256 keyed with the device secret over the start count, a
+//! counter and the clock. Unpredictable to whoever lacks the secret, but
+//! they repeat across QEMU processes (the start count restarts at 1):
+//! acceptable for emulation only; a product board uses a hardware source.
+
+use embedded_io::{ErrorType, Read, ReadReady, Write};
+use hmac::{Hmac, KeyInit, Mac};
+use isochor_core::auth::{NonceSource, Provisioning, Secret};
+use isochor_core::link::{BootReport, NONCE_LEN, ResetReason};
+use isochor_core::model::device::Table;
+use isochor_core::store::Layout;
+use isochor_core::{Error, Gas};
+use sha2::Sha256;
+
+use super::{RxRing, SysTickClock};
+use crate::board::{Board, Clock, Injected, Parts, System, Watchdog};
+use crate::ram_nor::{RamNor, format_if_blank};
+use crate::retained;
+
+/// Core clock, Hz.
+pub const CORE_HZ: u32 = 25_000_000;
+/// Start of the emulated flash (PSRAM).
+pub const STORE_START: u32 = 0x2100_0000;
+/// Record bank length.
+pub const BANK_LEN: u32 = 1024;
+/// Gas-model slot length.
+pub const SLOT_LEN: u32 = 4096;
+/// Size of the store.
+pub const STORE_LEN: u32 = Layout::size(BANK_LEN, SLOT_LEN);
+/// Address of the provisioning block (the last KiB of PSRAM).
+pub const PROVISIONING: u32 = 0x21FF_FC00;
+/// UART0 receive interrupt number.
+pub const UART0_RX_IRQ: u16 = 0;
+
+const UART0: u32 = 0x4000_4000;
+const WATCHDOG: u32 = 0x4000_8000;
+
+fn rd(addr: u32) -> u32 {
+    // SAFETY: `addr` is a register of this board's memory map.
+    unsafe { core::ptr::read_volatile(addr as *const u32) }
+}
+
+fn wr(addr: u32, v: u32) {
+    // SAFETY: `addr` is a register of this board's memory map.
+    unsafe { core::ptr::write_volatile(addr as *mut u32, v) }
+}
+
+/// Bytes the UART interrupt received.
+pub static RX: RxRing = RxRing::new();
+
+/// The UART0 receive interrupt: moves every received byte into [`RX`].
+pub fn uart0_rx_interrupt() {
+    while rd(UART0 + 0x4) & 2 != 0 {
+        // STATE.RXFULL
+        RX.push(rd(UART0) as u8);
+    }
+    wr(UART0 + 0xC, 2); // INTCLEAR RX
+}
+
+#[derive(Clone, Copy)]
+struct Irq(u16);
+// SAFETY: the number is a valid interrupt of the machine.
+unsafe impl cortex_m::interrupt::InterruptNumber for Irq {
+    fn number(self) -> u16 {
+        self.0
+    }
+}
+
+/// UART0 at 115 200 Bd (25 MHz / 217), received bytes through [`RX`].
+pub struct Uart(());
+
+impl Uart {
+    fn new() -> Uart {
+        wr(UART0 + 0x10, CORE_HZ / 115_200); // BAUDDIV (≥ 16)
+        wr(UART0 + 0x8, 0b1011); // CTRL: TX, RX, RX interrupt
+        // SAFETY: the handler only touches UART0 and the ring.
+        unsafe { cortex_m::peripheral::NVIC::unmask(Irq(UART0_RX_IRQ)) };
+        Uart(())
+    }
+}
+
+impl ErrorType for Uart {
+    type Error = core::convert::Infallible;
+}
+
+impl ReadReady for Uart {
+    fn read_ready(&mut self) -> Result<bool, Self::Error> {
+        Ok(RX.ready())
+    }
+}
+
+impl Read for Uart {
+    fn read(&mut self, buf: &mut [u8]) -> Result<usize, Self::Error> {
+        loop {
+            let n = RX.take(buf);
+            if n > 0 || buf.is_empty() {
+                return Ok(n);
+            }
+            cortex_m::asm::wfi();
+        }
+    }
+}
+
+impl Write for Uart {
+    fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
+        for &b in buf {
+            while rd(UART0 + 0x4) & 1 != 0 {} // STATE.TXFULL
+            wr(UART0, u32::from(b));
+        }
+        Ok(buf.len())
+    }
+    fn flush(&mut self) -> Result<(), Self::Error> {
+        while rd(UART0 + 0x4) & 1 != 0 {}
+        Ok(())
+    }
+}
+
+/// Nonces from HMAC-SHA-256 (see the module documentation: emulation only).
+pub struct KeyedNonces {
+    key: [u8; 32],
+    counter: u64,
+    clock: SysTickClock,
+}
+
+impl NonceSource for KeyedNonces {
+    fn fill_nonce(&mut self, out: &mut [u8; NONCE_LEN]) {
+        self.counter += 1;
+        let Ok(mut mac) = Hmac::<Sha256>::new_from_slice(&self.key) else {
+            return;
+        };
+        mac.update(b"isochor/1/emulated-nonce");
+        mac.update(&super::boots().to_le_bytes());
+        mac.update(&self.counter.to_le_bytes());
+        mac.update(&self.clock.now().as_millis().to_le_bytes());
+        let tag = mac.finalize().into_bytes();
+        for (d, s) in out.iter_mut().zip(tag.iter()) {
+            *d = *s;
+        }
+    }
+}
+
+/// The CMSDK watchdog: 2 s to its interrupt (NMI: the boot record says
+/// "watchdog", then the board resets), reset enabled.
+pub struct Wdog(());
+
+impl Watchdog for Wdog {
+    fn start(&mut self) {
+        wr(WATCHDOG + 0xC00, 0x1ACC_E551); // LOCK: unlock
+        wr(WATCHDOG, 2 * CORE_HZ); // LOAD
+        wr(WATCHDOG + 0x8, 0b11); // CONTROL: interrupt and reset enabled
+        wr(WATCHDOG + 0xC00, 0); // lock
+    }
+    fn feed(&mut self) {
+        wr(WATCHDOG + 0xC00, 0x1ACC_E551);
+        wr(WATCHDOG + 0xC, 1); // INTCLR: clears and reloads
+        wr(WATCHDOG + 0xC00, 0);
+    }
+}
+
+fn provisioning() -> Option<Provisioning> {
+    // SAFETY: the last KiB of PSRAM, mapped RAM.
+    let block =
+        unsafe { core::slice::from_raw_parts(PROVISIONING as *const u8, Provisioning::LEN) };
+    Provisioning::from_bytes(block)
+}
+
+/// Board services.
+pub struct Services(());
+
+impl System for Services {
+    fn provisioning(&mut self) -> Option<(u64, Secret)> {
+        provisioning().map(|p| (p.serial, p.secret))
+    }
+    fn boot_report(&mut self) -> BootReport {
+        let (report, armed) = retained::on_boot(super::kept(), None);
+        super::keep(&armed);
+        report
+    }
+    fn restart(&mut self, reason: ResetReason) -> ! {
+        super::record_and_reset(reason, None)
+    }
+    fn idle(&mut self) {
+        cortex_m::asm::wfi();
+    }
+    fn stack_usage(&self) -> (u32, u32) {
+        super::stack_usage()
+    }
+}
+
+/// The board.
+pub struct Mps2 {
+    syst: cortex_m::peripheral::SYST,
+}
+
+impl Mps2 {
+    /// Takes the core peripherals (once; `None` after).
+    pub fn take() -> Option<Mps2> {
+        let cp = cortex_m::Peripherals::take()?;
+        Some(Mps2 { syst: cp.SYST })
+    }
+}
+
+impl Board for Mps2 {
+    type Serial = Uart;
+    type Flash = RamNor<'static>;
+    type Sensors = Injected;
+    type Clock = SysTickClock;
+    type Watchdog = Wdog;
+    type Rng = KeyedNonces;
+    type System = Services;
+
+    const HARDWARE_REV: u16 = 2;
+
+    fn split(self) -> Parts<Self> {
+        // SAFETY: the PSRAM window belongs to this driver alone (nothing
+        // else in the image refers to it) and `split` runs once.
+        let mem =
+            unsafe { core::slice::from_raw_parts_mut(STORE_START as *mut u8, STORE_LEN as usize) };
+        let mut flash = RamNor::new(mem);
+        let _ = format_if_blank(&mut flash);
+        let key = provisioning().map_or([0; 32], |p| p.secret.derive(b"isochor/1/nonce-key"));
+        Parts {
+            serial: Uart::new(),
+            flash,
+            sensors: Injected,
+            clock: SysTickClock::start(self.syst, CORE_HZ),
+            watchdog: Wdog(()),
+            rng: KeyedNonces {
+                key,
+                counter: 0,
+                clock: SysTickClock::view(),
+            },
+            system: Services(()),
+        }
+    }
+
+    fn layout(flash: &RamNor<'static>) -> Result<Layout, Error> {
+        Layout::contiguous(flash, 0, BANK_LEN, SLOT_LEN)
+    }
+
+    fn builtin(gas: Gas) -> Option<Table<'static>> {
+        match crate::arm::ONLY_GAS {
+            Some(g) if g != gas => None,
+            _ => isochor_core::model::device::builtin::table(gas),
+        }
+    }
+}

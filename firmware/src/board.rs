@@ -1,0 +1,125 @@
+//! What a board implements: narrow traits over its hardware, each with a
+//! written contract. The application ([`crate::run`]) sees nothing else.
+//!
+//! | trait | what | reference boards |
+//! |---|---|---|
+//! | [`Board`] | bundles the parts below, the storage layout and the built-in gas models | `microbit`, `mps2-an386` |
+//! | serial: `embedded_io::{Read, ReadReady, Write}` | the host link, 8N1 | UART0 of each board |
+//! | flash: `embedded_storage::nor_flash::NorFlash` | records and gas-model blobs | nRF51 NVMC; RAM-backed NOR on `mps2-an386` |
+//! | [`SampleSource`] | raw converter codes (or none: injected samples) | [`crate::adc::AdcSampler`] over an `embedded_hal::spi::SpiDevice`; in emulation none |
+//! | [`Clock`] | monotonic milliseconds since start | SysTick |
+//! | [`Watchdog`] | started once, fed every loop | nRF51 WDT; CMSDK watchdog |
+//! | `isochor_core::auth::NonceSource` | unpredictable nonce bytes | nRF51 RNG; keyed generator on `mps2-an386` (emulation only) |
+//! | [`System`] | provisioning, reset reason, restart, sleep, stack use | per board |
+
+use embedded_io::{Read, ReadReady, Write};
+use embedded_storage::nor_flash::NorFlash;
+use isochor_core::app::RawSample;
+use isochor_core::auth::{NonceSource, Secret};
+use isochor_core::link::{BootReport, ResetReason};
+use isochor_core::model::device::Table;
+use isochor_core::store::Layout;
+use isochor_core::time::Instant;
+use isochor_core::{Error, Gas};
+
+/// Where raw converter codes come from.
+pub trait SampleSource {
+    /// True when the board has no converters of its own and takes its
+    /// samples from `InjectSample` messages instead (emulation, bench rigs).
+    const INJECTED: bool;
+    /// A new sample when one is due at `now` (the source paces itself: for
+    /// example once a second), else `None`. Never blocks for long.
+    fn poll(&mut self, now: Instant) -> Option<RawSample>;
+}
+
+/// A source with no converters: every sample is injected over the link.
+pub struct Injected;
+
+impl SampleSource for Injected {
+    const INJECTED: bool = true;
+    fn poll(&mut self, _now: Instant) -> Option<RawSample> {
+        None
+    }
+}
+
+/// Monotonic time since start.
+pub trait Clock {
+    /// Milliseconds since the board started; never goes back.
+    fn now(&mut self) -> Instant;
+}
+
+/// The watchdog: once started it resets the board unless fed in time.
+pub trait Watchdog {
+    /// Starts the watchdog (it cannot be stopped again).
+    fn start(&mut self);
+    /// Feeds it; the application does so once per loop, at least every
+    /// few milliseconds when idle.
+    fn feed(&mut self);
+}
+
+/// Board services around the application.
+pub trait System {
+    /// The serial number and 256-bit secret written at manufacture, or
+    /// `None` when the board was not provisioned (it then answers no signed
+    /// command: it makes itself a random secret nobody knows).
+    fn provisioning(&mut self) -> Option<(u64, Secret)>;
+    /// Why the board started, from memory a reset keeps (and the board's
+    /// reset-reason register where it has one). Called once at start; it
+    /// also arms the record for the next start.
+    fn boot_report(&mut self) -> BootReport;
+    /// Records `reason` for the next start and resets the board.
+    fn restart(&mut self, reason: ResetReason) -> !;
+    /// Sleeps until an interrupt (a received byte, the clock tick).
+    fn idle(&mut self);
+    /// Deepest stack use so far and the stack size, bytes.
+    fn stack_usage(&self) -> (u32, u32);
+}
+
+/// A board: its parts, its storage layout and its gas models.
+pub trait Board {
+    /// The host link.
+    type Serial: Read + ReadReady + Write;
+    /// The flash that keeps records and gas-model blobs (offsets from 0).
+    type Flash: NorFlash;
+    /// The converters.
+    type Sensors: SampleSource;
+    /// The clock.
+    type Clock: Clock;
+    /// The watchdog.
+    type Watchdog: Watchdog;
+    /// The random source of signing nonces.
+    type Rng: NonceSource;
+    /// Board services.
+    type System: System;
+
+    /// Hardware revision reported in the identity.
+    const HARDWARE_REV: u16;
+
+    /// Takes the board apart.
+    fn split(self) -> Parts<Self>;
+
+    /// Where records and gas-model blobs live in [`Board::Flash`].
+    fn layout(flash: &Self::Flash) -> Result<Layout, Error>;
+
+    /// The built-in gas-model table of `gas` in this build (`None` for
+    /// gases the build leaves out).
+    fn builtin(gas: Gas) -> Option<Table<'static>>;
+}
+
+/// The parts of a board.
+pub struct Parts<B: Board + ?Sized> {
+    /// The host link.
+    pub serial: B::Serial,
+    /// Records and gas-model blobs.
+    pub flash: B::Flash,
+    /// The converters.
+    pub sensors: B::Sensors,
+    /// The clock.
+    pub clock: B::Clock,
+    /// The watchdog.
+    pub watchdog: B::Watchdog,
+    /// The random source.
+    pub rng: B::Rng,
+    /// Board services.
+    pub system: B::System,
+}

@@ -1,0 +1,24 @@
+//! The desktop tank simulator: real physics, simulated sensors, the gauge
+//! under test, scores, time series and plots.
+//!
+//! * [`physics`] — mass and energy balance of the gas with the reference
+//!   equation of state, lumped wall, weather, vessel expansion; adaptive
+//!   steps.
+//! * [`sensors`] — the sensors' errors, lag and faults, down to raw codes.
+//! * [`gauge`] — the gauge under test behind the [`gauge::Backend`] trait
+//!   (the core in-process, fixed point or `f64`).
+//! * [`scenario`] — scenario files (TOML) and the built-in scenarios.
+//! * [`run`](mod@run) — a run and its scores.
+//! * [`output`] — the summary table, CSV and JSON-lines time series.
+//! * [`plot`] — PNG and SVG plots.
+
+pub mod gauge;
+pub mod output;
+pub mod physics;
+pub mod plot;
+pub mod run;
+pub mod scenario;
+pub mod sensors;
+
+pub use run::{BackendKind, RunOptions, RunResult, Summary, run};
+pub use scenario::Scenario;
