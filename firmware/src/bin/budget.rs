@@ -14,6 +14,12 @@
 //! 150 bar; each figure is the mean per sample less the loop overhead, and
 //! the largest single sample (a block close) is printed beside it.
 //!
+//! Stack: the program paints the free stack before each path
+//! (`isochor_firmware::arm::paint_stack`) and prints the deepest use of the
+//! path's run beside its figures (`stack_fixed=…` bytes, from the program's
+//! entry: the pipeline's preparation, its samples and the telemetry frame's
+//! values).
+//!
 //! `isochor budget` runs this; by hand:
 //! ```sh
 //! cd firmware && cargo build --release --bin budget
@@ -28,6 +34,7 @@ use core::mem::MaybeUninit;
 use cortex_m::peripheral::{Peripherals, SYST, syst::SystClkSource};
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
+use isochor_firmware::arm::{paint_stack, stack_usage};
 use isochor_core::app::{RawSample, fixed, float};
 use isochor_core::link::Telemetry;
 use isochor_core::model::DeviceModel;
@@ -46,6 +53,18 @@ const CORE_HZ: u64 = if cfg!(any(target_abi = "eabihf", isochor_mps2)) {
 
 /// Samples per run (ten blocks of 60 s at 1 Hz).
 const N: u32 = 600;
+
+unsafe extern "C" {
+    /// Top of the stack (cortex-m-rt).
+    static _stack_start: u32;
+}
+
+/// Stack taken below the stack pointer `sp` since the last paint, bytes.
+fn stack_below(sp: usize) -> usize {
+    // Only the symbol's address is taken.
+    let top = core::ptr::addr_of!(_stack_start) as usize;
+    (stack_usage().0 as usize).saturating_sub(top.saturating_sub(sp))
+}
 
 fn ticks() -> u32 {
     SYST::get_current()
@@ -129,20 +148,27 @@ fn report(name: &str, (mean_x100, worst): (u64, u64)) {
     );
 }
 
+/// The fixed pipeline, in a static as the firmware keeps its gauge (so the
+/// stack measured is that of preparing it and of its samples).
+static mut FIXED: MaybeUninit<fixed::Pipeline<&'static DeviceModel<'static>>> =
+    MaybeUninit::uninit();
+
 #[inline(never)]
-fn run_fixed(model: &DeviceModel<'static>) -> Option<(u64, u64)> {
+fn run_fixed(model: &'static DeviceModel<'static>) -> Option<(u64, u64)> {
     let s = setup();
     let p = PressureCalibration::nominal();
     let t = TemperatureCalibration::nominal();
     let tracking = TrackingSettings::for_tank(&s, p.full_scale());
     let cfg = track_config(&tracking, &AlarmThresholds::for_tank(&s));
-    let mut pipe = match fixed::Pipeline::new(s, model, &p.0, &t.0, cfg, tracking.barometric_pa) {
+    let made = match fixed::Pipeline::new(s, model, &p.0, &t.0, cfg, tracking.barometric_pa) {
         Ok(p) => p,
         Err(e) => {
             hprintln!("fixed pipeline: {:?}", e);
             return None;
         }
     };
+    // SAFETY: the only reference to the static, taken once per run.
+    let pipe = unsafe { (*core::ptr::addr_of_mut!(FIXED)).write(made) };
     let mut seq = 0u32;
     let r = measure(|at, raw| {
         let out = pipe.sample(at, raw);
@@ -211,18 +237,25 @@ fn main() -> ! {
     let model: &'static DeviceModel<'static> =
         unsafe { (*core::ptr::addr_of_mut!(MODEL)).write(m) };
     let mut ok = true;
+    let sp = cortex_m::register::msp::read() as usize;
+    paint_stack();
     match run_fixed(model) {
         Some(r) => report("instructions_fixed", r),
         None => ok = false,
     }
+    hprintln!("stack_fixed={}", stack_below(sp));
+    paint_stack();
     match run_float::<f32>(model) {
         Some(r) => report("instructions_f32", r),
         None => ok = false,
     }
+    hprintln!("stack_f32={}", stack_below(sp));
+    paint_stack();
     match run_float::<f64>(model) {
         Some(r) => report("instructions_f64", r),
         None => ok = false,
     }
+    hprintln!("stack_f64={}", stack_below(sp));
     debug::exit(if ok {
         debug::EXIT_SUCCESS
     } else {
