@@ -16,10 +16,14 @@
 //!   (ten 60 s blocks, so the per-block work is included in its share). A full
 //!   estimate is raw converter codes to every telemetry value: sensor
 //!   front-ends, corrections, content, tracking, uncertainty and alarms.
-//! - **Stack**: the same program paints the free stack before each path and
-//!   prints the deepest use of the path's run over semihosting; the stack of a
-//!   build is that of its fixed-point path, measured by the budget program
-//!   built for the build's target and run on the build's board family.
+//! - **Stack** (`stack_bytes`): the budget program, built for the build's
+//!   target, paints the free stack before each path and prints over
+//!   semihosting the deepest stack that preparing the pipeline and running
+//!   its samples took. Beside it (`firmware_stack_bytes`), the firmware image
+//!   itself runs in QEMU on its board, takes [`STACK_RUN_SAMPLES`] samples
+//!   injected over its serial link and reports the deepest stack it used (it
+//!   paints its stack at start) in its diagnostics; when it does not run, the
+//!   reason is reported (`firmware_error`) and the other figures still are.
 
 use std::io::Read as _;
 use std::path::{Path, PathBuf};
@@ -64,10 +68,17 @@ pub struct BuildBudget {
     pub flash_bytes: u64,
     /// RAM taken by statics (`.data`, `.bss`, `.uninit`).
     pub static_ram_bytes: u64,
-    /// Deepest stack use of the fixed-point estimate (stack painting).
+    /// Deepest stack of preparing the fixed-point pipeline and of its
+    /// samples, measured in the budget program built for this build's target
+    /// (stack painting, below the program's own frames).
     pub stack_bytes: u64,
-    /// Static RAM and stack.
+    /// Static RAM and `stack_bytes`.
     pub ram_bytes: u64,
+    /// Deepest stack of the firmware image itself over a run of injected
+    /// samples (its diagnostics); `None` when the firmware did not run.
+    pub firmware_stack_bytes: Option<u64>,
+    /// Why the firmware run failed, if it did.
+    pub firmware_error: Option<String>,
 }
 
 /// The whole budget.
@@ -137,6 +148,50 @@ pub fn parse_program_output(text: &str) -> ProgramOutput {
         }
     }
     out
+}
+
+/// Samples the firmware takes over its link when its stack is measured
+/// (three 60 s blocks and more at 1 Hz).
+const STACK_RUN_SAMPLES: u64 = 200;
+
+/// The deepest stack of the firmware image `elf` on `board`: the firmware runs
+/// in QEMU with its default records, answers a ping and its identity, takes
+/// [`STACK_RUN_SAMPLES`] injected samples over its link (a slow draw of a
+/// cylinder at 20 °C, each answered with telemetry, block closes included),
+/// then reports its stack peak (stack painting, in its diagnostics).
+pub fn firmware_stack(board: Board, elf: &Path) -> Result<u64, Error> {
+    use isochor_core::store::{PressureCalibration, TemperatureCalibration};
+    let q = firmware::Qemu::start(board, elf, None, Duration::from_secs(180))?;
+    let mut c = crate::link::Client::new(q.connection()?, Duration::from_secs(5));
+    let mut answer = c.ping(0);
+    for i in 1..6 {
+        if answer.is_ok() {
+            break;
+        }
+        answer = c.ping(i);
+    }
+    if let Err(e) = answer {
+        return Err(Error::Tool(format!(
+            "the firmware ({}) does not answer in QEMU: {e}",
+            board.name()
+        )));
+    }
+    c.identity()?;
+    let bench = crate::bench::Bench::new(
+        PressureCalibration::nominal().0,
+        TemperatureCalibration::nominal().0,
+        101_325.0,
+    );
+    for i in 0..STACK_RUN_SAMPLES {
+        if q.expired() {
+            return Err(Error::Tool("the firmware run took too long".into()));
+        }
+        let p = 150e5 - 2e3 * i as f64;
+        let raw = bench.sample(p, 293.15)?;
+        c.inject(i * 1000, &crate::bench::Bench::raw_codes(&raw))?;
+        c.take_unsolicited();
+    }
+    Ok(c.diagnostics()?.stack_peak_bytes.into())
 }
 
 /// Fails with a clear message when `qemu-system-arm` or a Rust target the
@@ -274,6 +329,10 @@ pub fn measure(firmware_dir: &Path) -> Result<Budget, Error> {
         let program = build_program(firmware_dir, b.board)?;
         let out = run_program(&program, b.board)?;
         let stack = out.stack[0].ok_or_else(|| missing("stack_fixed"))?;
+        let (firmware_stack_bytes, firmware_error) = match firmware_stack(b.board, &elf) {
+            Ok(v) => (Some(v), None),
+            Err(e) => (None, Some(e.to_string())),
+        };
         rows.push(BuildBudget {
             name: b.name.clone(),
             board: b.board.name().into(),
@@ -283,6 +342,8 @@ pub fn measure(firmware_dir: &Path) -> Result<Budget, Error> {
             static_ram_bytes: size.static_ram_bytes,
             stack_bytes: stack,
             ram_bytes: size.static_ram_bytes + stack,
+            firmware_stack_bytes,
+            firmware_error,
         });
         if b.board == Board::Microbit {
             m0 = Some(out);
@@ -323,15 +384,31 @@ pub fn render_text(b: &Budget) -> String {
     let _ = writeln!(s);
     let _ = writeln!(
         s,
-        "{:<22} {:>12} {:>12} {:>12} {:>12}",
-        "build", "flash B", "static RAM B", "stack B", "RAM total B"
+        "{:<22} {:>10} {:>13} {:>9} {:>12} {:>17}",
+        "build", "flash B", "static RAM B", "stack B", "RAM total B", "firmware stack B"
     );
     for r in &b.builds {
         let _ = writeln!(
             s,
-            "{:<22} {:>12} {:>12} {:>12} {:>12}",
-            r.name, r.flash_bytes, r.static_ram_bytes, r.stack_bytes, r.ram_bytes
+            "{:<22} {:>10} {:>13} {:>9} {:>12} {:>17}",
+            r.name,
+            r.flash_bytes,
+            r.static_ram_bytes,
+            r.stack_bytes,
+            r.ram_bytes,
+            r.firmware_stack_bytes
+                .map_or_else(|| "did not run".to_string(), |v| v.to_string())
         );
+    }
+    let _ = writeln!(
+        s,
+        "(stack: preparing the fixed pipeline and its samples, budget program; firmware stack: \
+         the firmware's own peak over {STACK_RUN_SAMPLES} samples injected over its link)"
+    );
+    for r in &b.builds {
+        if let Some(e) = &r.firmware_error {
+            let _ = writeln!(s, "{}: the firmware did not run: {e}", r.name);
+        }
     }
     let _ = writeln!(s);
     let _ = writeln!(
