@@ -34,7 +34,6 @@ use core::mem::MaybeUninit;
 use cortex_m::peripheral::{Peripherals, SYST, syst::SystClkSource};
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
-use isochor_firmware::arm::{paint_stack, stack_usage};
 use isochor_core::app::{RawSample, fixed, float};
 use isochor_core::link::Telemetry;
 use isochor_core::model::DeviceModel;
@@ -43,6 +42,7 @@ use isochor_core::store::{
 };
 use isochor_core::time::Instant;
 use isochor_core::{Gas, Real, SetupFx, StandardConditionFx, Status, TankFx, fx};
+use isochor_firmware::arm::{paint_stack, stack_usage};
 
 /// Core clock of the emulated board, Hz.
 const CORE_HZ: u64 = if cfg!(any(target_abi = "eabihf", isochor_mps2)) {

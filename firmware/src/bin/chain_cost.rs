@@ -123,7 +123,7 @@ impl Stat {
         self.n += 1;
     }
     fn mean(&self) -> u64 {
-        if self.n == 0 { 0 } else { self.sum / self.n }
+        self.sum.checked_div(self.n).unwrap_or(0)
     }
     fn print(&self, name: &str) {
         if self.n == 0 {
