@@ -33,6 +33,10 @@ impl TemperatureInput {
 }
 
 /// The pressure front-end and its state.
+#[allow(
+    clippy::large_enum_variant,
+    reason = "one per pipeline: the bridge keeps its compensations in place"
+)]
 #[derive(Clone, Debug)]
 enum PressureInput {
     /// A bridge with the compensations of the latest temperature buckets.

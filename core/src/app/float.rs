@@ -34,6 +34,10 @@ impl<F: Real> TemperatureInput<F> {
 }
 
 /// The pressure front-end and its state.
+#[allow(
+    clippy::large_enum_variant,
+    reason = "one per pipeline: the bridge keeps its compensations in place"
+)]
 #[derive(Clone, Debug)]
 enum PressureInput<F> {
     /// A bridge with the compensations of the latest temperature buckets.
