@@ -20,11 +20,13 @@
 //! entry: the pipeline's preparation, its samples and the telemetry frame's
 //! values).
 //!
-//! `isochor budget` runs this; by hand:
+//! `isochor budget` runs this; by hand (Cortex-M0 code with the `mps2` memory
+//! map, on QEMU's Cortex-M3 `mps2-an385`):
 //! ```sh
-//! cd firmware && cargo build --release --bin budget
-//! qemu-system-arm -machine microbit -icount shift=0 -nographic \
-//!   -semihosting-config enable=on,target=native -kernel target/thumbv6m-none-eabi/release/budget
+//! cd firmware && ISOCHOR_MEMORY=mps2 cargo build --release --bin budget --target-dir target/m0-on-mps2
+//! qemu-system-arm -machine mps2-an385 -cpu cortex-m3 -icount shift=0 -nographic \
+//!   -semihosting-config enable=on,target=native \
+//!   -kernel target/m0-on-mps2/thumbv6m-none-eabi/release/budget
 //! ```
 #![no_std]
 #![no_main]
