@@ -15,10 +15,13 @@
 //! the largest single sample (a block close) is printed beside it.
 //!
 //! Stack: the program paints the free stack before each path
-//! (`isochor_firmware::arm::paint_stack`) and prints the deepest use of the
-//! path's run beside its figures (`stack_fixed=…` bytes, from the program's
-//! entry: the pipeline's preparation, its samples and the telemetry frame's
-//! values).
+//! (`isochor_firmware::arm::paint_stack`) and prints beside its figures the
+//! deepest stack its run took below the frame that calls it (`stack_fixed=…`
+//! bytes): the run's own frame (setup, records, the float pipelines
+//! themselves), preparing the pipeline, its samples and the telemetry
+//! frame's values. The fixed pipeline lives in a static, as the firmware's
+//! gauge does. The program's own frames above (the gas model's preparation)
+//! are not counted.
 //!
 //! `isochor budget` runs this; by hand (Cortex-M0 code with the `mps2` memory
 //! map, on QEMU's Cortex-M3 `mps2-an385`):
