@@ -152,7 +152,7 @@ pub fn parse_program_output(text: &str) -> ProgramOutput {
 
 /// Samples the firmware takes over its link when its stack is measured
 /// (three 60 s blocks and more at 1 Hz).
-const STACK_RUN_SAMPLES: u64 = 200;
+pub const STACK_RUN_SAMPLES: u64 = 200;
 
 /// The deepest stack of the firmware image `elf` on `board`: the firmware runs
 /// in QEMU with its default records, answers a ping and its identity, takes
