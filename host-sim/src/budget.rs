@@ -12,8 +12,10 @@
 //!   map (the `f64` run needs more RAM than the `microbit` has), run on QEMU's
 //!   `mps2-an385` (its Cortex-M3 executes Cortex-M0 code instruction for
 //!   instruction) with `-icount shift=0`: every instruction advances virtual
-//!   time by 1 ns and the program reads SysTick around each of 600 samples
-//!   (ten 60 s blocks, so the per-block work is included in its share). A full
+//!   time by 1 ns and the program reads SysTick around each of 3600 samples
+//!   at 1 Hz after two hours not timed (the tracker's windows full: steady
+//!   state; sixty block closes and one hourly leak step in the hour, each in
+//!   its share). A full
 //!   estimate is raw converter codes to every telemetry value: sensor
 //!   front-ends, corrections, content, tracking, uncertainty and alarms.
 //! - **Stack** (`stack_bytes`): the budget program, built for the build's
@@ -413,7 +415,8 @@ pub fn render_text(b: &Budget) -> String {
     let _ = writeln!(s);
     let _ = writeln!(
         s,
-        "Instructions per full estimate, Cortex-M0 (raw codes to all outputs; mean of 600 samples, max = one sample)"
+        "Instructions per full estimate, Cortex-M0 (raw codes to all outputs; mean of one hour at 1 Hz \
+         after two hours' warm-up, max = one sample)"
     );
     let _ = writeln!(
         s,
