@@ -38,6 +38,19 @@ impl Board {
         }
     }
 
+    /// The board of a name ([`Board::name`]).
+    pub fn from_name(name: &str) -> Result<Board, Error> {
+        Board::ALL
+            .into_iter()
+            .find(|b| b.name() == name)
+            .ok_or_else(|| {
+                Error::Invalid(format!(
+                    "unknown board {name:?}: one of {}",
+                    Board::ALL.map(Board::name).join(", ")
+                ))
+            })
+    }
+
     /// The Rust target of the board.
     pub fn target(self) -> &'static str {
         match self {
