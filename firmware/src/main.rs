@@ -55,6 +55,19 @@ fn model_buffer() -> Option<&'static mut TableBuf> {
 /// The prepared gas model of this start.
 static mut PREPARED: MaybeUninit<DeviceModel<'static>> = MaybeUninit::uninit();
 
+/// The board's flash driver.
+#[cfg(target_abi = "eabihf")]
+type Flash = <board::Mps2 as isochor_firmware::board::Board>::Flash;
+#[cfg(not(target_abi = "eabihf"))]
+type Flash = <board::Microbit as isochor_firmware::board::Board>::Flash;
+
+/// The gauge of this start (a static, so that it counts as static RAM and
+/// is never copied on the stack). In `.uninit`: an initialised static would
+/// keep a 4.4 KiB image of `None` in flash; `main` writes `None` first.
+#[unsafe(link_section = ".uninit.isochor_gauge")]
+static mut GAUGE: MaybeUninit<Option<isochor_core::app::Gauge<'static, Flash>>> =
+    MaybeUninit::uninit();
+
 #[entry]
 fn main() -> ! {
     arm::paint_stack();
@@ -64,9 +77,13 @@ fn main() -> ! {
     let b = board::Microbit::take();
     match b {
         // SAFETY: taken once, here.
-        Some(b) => isochor_firmware::run::run(b, model_buffer(), unsafe {
-            &mut *core::ptr::addr_of_mut!(PREPARED)
-        }),
+        // SAFETY: taken once, here.
+        Some(b) => isochor_firmware::run::run(
+            b,
+            model_buffer(),
+            unsafe { &mut *core::ptr::addr_of_mut!(PREPARED) },
+            unsafe { (*core::ptr::addr_of_mut!(GAUGE)).write(None) },
+        ),
         None => arm::record_and_reset(ResetReason::HardFault, None),
     }
 }

@@ -12,7 +12,7 @@
 use core::mem::MaybeUninit;
 use embedded_io::{Read, ReadReady, Write};
 
-use isochor_core::app::{Gauge, GaugeIo, Models, decode_loaded_model, model_for, stored_gas};
+use isochor_core::app::{Gauge, GaugeIo, Models, decode_loaded_model, model_for_in, stored_gas};
 use isochor_core::auth::{Authenticator, NonceSource, Policy, Secret};
 use isochor_core::link::{Identity, NONCE_LEN, ResetReason};
 use isochor_core::model::DeviceModel;
@@ -61,6 +61,7 @@ pub fn run<B: Board>(
     board: B,
     model_buffer: Option<&'static mut TableBuf>,
     model: &'static mut MaybeUninit<DeviceModel<'static>>,
+    gauge: &'static mut Option<Gauge<'static, B::Flash>>,
 ) -> ! {
     let mut p = board.split();
     let boot = p.system.boot_report();
@@ -71,7 +72,67 @@ pub fn run<B: Board>(
     };
     let loadable = model_buffer.is_some();
     let model = prepare::<B>(&mut p.flash, &layout, model_buffer, model);
-    serve::<B>(p, layout, boot, Models { model, loadable })
+    let Parts {
+        mut serial,
+        flash,
+        mut sensors,
+        mut clock,
+        mut watchdog,
+        mut rng,
+        mut system,
+    } = p;
+    let gauge = start::<B>(
+        gauge,
+        flash,
+        &mut rng,
+        &mut system,
+        layout,
+        boot,
+        Models { model, loadable },
+    );
+    watchdog.start();
+    {
+        let mut io = Io {
+            serial: &mut serial,
+            rng: &mut rng,
+            system: &system,
+        };
+        gauge.start(&mut io);
+    }
+    let mut buf = [0u8; 64];
+    loop {
+        watchdog.feed();
+        let now = clock.now();
+        let mut busy = false;
+        if serial.read_ready().unwrap_or(false)
+            && let Ok(n) = serial.read(&mut buf)
+            && n > 0
+        {
+            let mut io = Io {
+                serial: &mut serial,
+                rng: &mut rng,
+                system: &system,
+            };
+            gauge.receive(now, buf.get(..n).unwrap_or(&[]), &mut io);
+            busy = true;
+        }
+        if let Some(raw) = sensors.poll(now) {
+            let mut io = Io {
+                serial: &mut serial,
+                rng: &mut rng,
+                system: &system,
+            };
+            gauge.sample(now, &raw, &mut io);
+            busy = true;
+        }
+        if gauge.restart_requested() {
+            let _ = serial.flush();
+            system.restart(ResetReason::Requested);
+        }
+        if !busy {
+            system.idle();
+        }
+    }
 }
 
 /// Decodes the committed gas-model blob (when the build can) and prepares
@@ -94,25 +155,30 @@ fn prepare<B: Board>(
         None => None,
     };
     let gas = stored_gas(flash, layout);
-    model_for(gas, table, B::builtin).map(|m| &*slot.write(m))
+    model_for_in(slot, gas, table, B::builtin)
 }
 
-/// The gauge's life after the start.
+/// Builds the gauge into its static slot (loading every record): its own
+/// step, so the gauge is never on the stack and the copies made while it is
+/// built are gone before the loop runs.
 #[inline(never)]
-fn serve<B: Board>(
-    mut p: Parts<B>,
+fn start<B: Board>(
+    slot: &'static mut Option<Gauge<'static, B::Flash>>,
+    flash: B::Flash,
+    rng: &mut B::Rng,
+    system: &mut B::System,
     layout: Layout,
     boot: BootReport,
     models: Models<'static>,
-) -> ! {
-    let (serial, secret) = match p.system.provisioning() {
+) -> &'static mut Gauge<'static, B::Flash> {
+    let (serial, secret) = match system.provisioning() {
         Some(v) => v,
         None => {
             // Not provisioned: a secret nobody knows, so nothing can be
             // signed; telemetry still flows.
             let (mut a, mut b) = ([0u8; NONCE_LEN], [0u8; NONCE_LEN]);
-            p.rng.fill_nonce(&mut a);
-            p.rng.fill_nonce(&mut b);
+            rng.fill_nonce(&mut a);
+            rng.fill_nonce(&mut b);
             let mut key = [0u8; 32];
             for (k, v) in key.iter_mut().zip(a.iter().chain(b.iter())) {
                 *k = *v;
@@ -129,59 +195,17 @@ fn serve<B: Board>(
         capabilities: 0,
     };
     let auth = Authenticator::new(secret, serial, Policy::default());
-    let mut gauge = match Gauge::new(
+    match Gauge::new_in(
+        slot,
         identity,
         auth,
-        p.flash,
+        flash,
         layout,
         models,
         B::Sensors::INJECTED,
         boot,
     ) {
         Ok(g) => g,
-        Err(_) => p.system.restart(ResetReason::HardFault),
-    };
-    p.watchdog.start();
-    {
-        let mut io = Io {
-            serial: &mut p.serial,
-            rng: &mut p.rng,
-            system: &p.system,
-        };
-        gauge.start(&mut io);
-    }
-    let mut buf = [0u8; 64];
-    loop {
-        p.watchdog.feed();
-        let now = p.clock.now();
-        let mut busy = false;
-        if p.serial.read_ready().unwrap_or(false)
-            && let Ok(n) = p.serial.read(&mut buf)
-            && n > 0
-        {
-            let mut io = Io {
-                serial: &mut p.serial,
-                rng: &mut p.rng,
-                system: &p.system,
-            };
-            gauge.receive(now, buf.get(..n).unwrap_or(&[]), &mut io);
-            busy = true;
-        }
-        if let Some(raw) = p.sensors.poll(now) {
-            let mut io = Io {
-                serial: &mut p.serial,
-                rng: &mut p.rng,
-                system: &p.system,
-            };
-            gauge.sample(now, &raw, &mut io);
-            busy = true;
-        }
-        if gauge.restart_requested() {
-            let _ = p.serial.flush();
-            p.system.restart(ResetReason::Requested);
-        }
-        if !busy {
-            p.system.idle();
-        }
+        Err(_) => system.restart(ResetReason::HardFault),
     }
 }

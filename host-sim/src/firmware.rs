@@ -10,6 +10,7 @@ use std::io::Write as _;
 use std::net::{TcpListener, TcpStream};
 use std::path::{Path, PathBuf};
 use std::process::{Child, Command, Stdio};
+use std::sync::{Arc, Mutex};
 use std::time::{Duration, Instant};
 
 use isochor_core::auth::{Provisioning, Secret};
@@ -35,6 +36,19 @@ impl Board {
             Board::Microbit => "microbit",
             Board::Mps2An386 => "mps2-an386",
         }
+    }
+
+    /// The board of a name ([`Board::name`]).
+    pub fn from_name(name: &str) -> Result<Board, Error> {
+        Board::ALL
+            .into_iter()
+            .find(|b| b.name() == name)
+            .ok_or_else(|| {
+                Error::Invalid(format!(
+                    "unknown board {name:?}: one of {}",
+                    Board::ALL.map(Board::name).join(", ")
+                ))
+            })
     }
 
     /// The Rust target of the board.
@@ -167,10 +181,11 @@ pub fn qemu_available() -> bool {
 
 /// A running emulator; killed when dropped.
 pub struct Qemu {
-    child: Child,
+    child: Arc<Mutex<Child>>,
     /// The serial port, connected.
     pub serial: TcpStream,
     deadline: Instant,
+    messages: Arc<Mutex<String>>,
     _provisioning: Option<tempfile_path::TempPath>,
 }
 
@@ -195,6 +210,25 @@ impl Qemu {
         provisioning: Option<(u64, &Secret)>,
         limit: Duration,
     ) -> Result<Qemu, Error> {
+        // The free port found below may be taken by another program before
+        // QEMU binds it: then QEMU exits at once and a new port is tried.
+        let mut last = None;
+        for _ in 0..4 {
+            match Qemu::start_once(board, elf, provisioning, limit) {
+                Ok(q) => return Ok(q),
+                Err(Started::PortTaken(e)) => last = Some(e),
+                Err(Started::Failed(e)) => return Err(e),
+            }
+        }
+        Err(last.unwrap_or_else(|| Error::Link("qemu did not start".into())))
+    }
+
+    fn start_once(
+        board: Board,
+        elf: &Path,
+        provisioning: Option<(u64, &Secret)>,
+        limit: Duration,
+    ) -> Result<Qemu, Started> {
         // A free port: bind, note it, release (QEMU binds it next).
         let port = TcpListener::bind("127.0.0.1:0")
             .and_then(|l| l.local_addr())
@@ -237,34 +271,85 @@ impl Qemu {
         let mut child = cmd
             .spawn()
             .map_err(|e| Error::Link(format!("qemu-system-arm: {e}")))?;
+        // QEMU's diagnostics are drained all along (a full pipe would stop
+        // the emulator) and kept for the error message.
+        let messages = Arc::new(Mutex::new(String::new()));
+        if let Some(mut stderr) = child.stderr.take() {
+            let sink = Arc::clone(&messages);
+            std::thread::spawn(move || {
+                use std::io::Read;
+                let mut chunk = [0u8; 512];
+                while let Ok(n) = stderr.read(&mut chunk) {
+                    if n == 0 {
+                        break;
+                    }
+                    if let Ok(mut m) = sink.lock() {
+                        m.push_str(&String::from_utf8_lossy(chunk.get(..n).unwrap_or(&[])));
+                    }
+                }
+            });
+        }
         let start = Instant::now();
         let serial = loop {
             match TcpStream::connect(("127.0.0.1", port)) {
                 Ok(s) => break s,
                 Err(e) => {
                     if let Ok(Some(status)) = child.try_wait() {
-                        let mut err = String::new();
-                        if let Some(mut s) = child.stderr.take() {
-                            use std::io::Read;
-                            let _ = s.read_to_string(&mut err);
-                        }
-                        return Err(Error::Link(format!("qemu exited ({status}): {err}")));
+                        // Give the reader the last lines.
+                        std::thread::sleep(Duration::from_millis(50));
+                        let err = messages.lock().map(|m| m.clone()).unwrap_or_default();
+                        let e = Error::Link(format!("qemu exited ({status}): {err}"));
+                        return Err(if err.contains("in use") {
+                            Started::PortTaken(e)
+                        } else {
+                            Started::Failed(e)
+                        });
                     }
                     if start.elapsed() > Duration::from_secs(20) {
                         let _ = child.kill();
-                        return Err(Error::Link(format!("qemu serial port: {e}")));
+                        let _ = child.wait();
+                        return Err(Started::Failed(Error::Link(format!(
+                            "qemu serial port: {e}"
+                        ))));
                     }
                     std::thread::sleep(Duration::from_millis(20));
                 }
             }
         };
         let _ = serial.set_nodelay(true);
+        // The run's limit: the emulator is killed when it passes (the
+        // client's reads then end with a closed link instead of hanging).
+        let child = Arc::new(Mutex::new(child));
+        let deadline = start + limit;
+        {
+            let child = Arc::clone(&child);
+            std::thread::spawn(move || {
+                loop {
+                    std::thread::sleep(Duration::from_millis(100));
+                    let Ok(mut c) = child.lock() else { return };
+                    if !matches!(c.try_wait(), Ok(None)) {
+                        return;
+                    }
+                    if Instant::now() > deadline {
+                        let _ = c.kill();
+                        let _ = c.wait();
+                        return;
+                    }
+                }
+            });
+        }
         Ok(Qemu {
             child,
             serial,
-            deadline: start + limit,
+            deadline,
+            messages,
             _provisioning: file,
         })
+    }
+
+    /// What the emulator wrote on its standard error so far.
+    pub fn messages(&self) -> String {
+        self.messages.lock().map(|m| m.clone()).unwrap_or_default()
     }
 
     /// True once the run's time is up.
@@ -283,8 +368,24 @@ impl Qemu {
 
 impl Drop for Qemu {
     fn drop(&mut self) {
-        let _ = self.child.kill();
-        let _ = self.child.wait();
+        if let Ok(mut c) = self.child.lock() {
+            let _ = c.kill();
+            let _ = c.wait();
+        }
+    }
+}
+
+/// Why one start of the emulator failed.
+enum Started {
+    /// Another program took the port first: try another.
+    PortTaken(Error),
+    /// Anything else.
+    Failed(Error),
+}
+
+impl From<Error> for Started {
+    fn from(e: Error) -> Started {
+        Started::Failed(e)
     }
 }
 

@@ -32,13 +32,17 @@ fn qemu_or_skip() -> bool {
         std::env::var_os("CI").is_none(),
         "qemu-system-arm is missing (CI: a failure, not a skip)"
     );
-    eprintln!("qemu-system-arm not found: end-to-end firmware test not run");
+    eprintln!(
+        "SKIPPED: qemu-system-arm is not installed, so the firmware was not run end to end \
+         (install the Debian package qemu-system-arm; under CI this is a failure)"
+    );
     false
 }
 
-fn scenario(board: Board) {
+fn scenario(build: Build) {
+    let board = build.board;
     let dir = firmware::default_firmware_dir();
-    let elf = firmware::build(&dir, &Build::standard(board), &["isochor-firmware"]).unwrap();
+    let elf = firmware::build(&dir, &build, &["isochor-firmware"]).unwrap();
     let secret = Secret::new([0x5A; 32]);
     let q = Qemu::start(
         board,
@@ -212,9 +216,92 @@ fn scenario(board: Board) {
 }
 
 #[test]
-#[ignore = "passed once (360 readings, |dF| 2.3e-6, identical events), then the firmware stopped answering its first ping under the test harness; cause not yet found — run with --ignored"]
 fn mps2_an386_runs_the_scenario() {
     if qemu_or_skip() {
-        scenario(Board::Mps2An386);
+        scenario(Build::standard(Board::Mps2An386));
     }
+}
+
+/// The Cortex-M0 build with one gas model (the configuration of the
+/// issue's 16 KiB RAM goal), on QEMU's `microbit`.
+#[test]
+fn microbit_runs_the_scenario() {
+    if qemu_or_skip() {
+        scenario(Build::one_gas(Board::Microbit, "nitrogen"));
+    }
+}
+
+/// `isochor sim --firmware microbit` (the library calls the command makes):
+/// a two-hour workshop scenario run on the emulated firmware and on the
+/// in-process fixed-point core, the same raw codes into both, scored by the
+/// same scorer. The firmware runs the same fixed-point chain, so every
+/// reading agrees within the difference of their bridge compensation
+/// policies (the firmware prepares it per block of temperature codes, the
+/// in-process backend per 0.05 K: 2e-6 of the content is the bound, common
+/// practice; measured: identical) and the scores agree to the same order.
+#[test]
+fn sim_on_the_firmware_scores_like_the_fixed_core() {
+    use isochor_sim::sim::firmware::FirmwareGauge;
+    use isochor_sim::sim::run::{BackendKind, RunOptions, run, run_with};
+    use isochor_sim::sim::scenario::Scenario;
+    if !qemu_or_skip() {
+        return;
+    }
+    let sc = Scenario::builtin("workshop-leak")
+        .unwrap()
+        .with(Some(2.0 * 3600.0), None);
+    let opts = RunOptions {
+        backend: BackendKind::Fixed,
+        trace_every_s: 10.0,
+        progress: false,
+    };
+    let fixed = run(&sc, &opts).unwrap();
+    let gauge = FirmwareGauge::start(Board::Microbit, &sc.gauge, Duration::from_secs(900)).unwrap();
+    let fw = run_with(&sc, Box::new(gauge), &opts).unwrap();
+    assert_eq!(fw.summary.backend, "firmware-microbit");
+    assert_eq!(fw.trace.len(), fixed.trace.len());
+    let rated = fixed.summary.rated_mass_true_kg;
+    let mut worst = 0.0f64;
+    let mut compared = 0;
+    for (a, b) in fw.trace.iter().zip(&fixed.trace) {
+        assert_eq!(a.t_s, b.t_s);
+        assert_eq!(a.mass_true_kg, b.mass_true_kg);
+        match (a.mass_gauge_kg, b.mass_gauge_kg) {
+            (Some(x), Some(y)) => {
+                worst = worst.max((x - y).abs() / rated);
+                compared += 1;
+            }
+            (None, None) => {}
+            other => panic!("at {} s: firmware vs core {other:?}", a.t_s),
+        }
+    }
+    let (f, c) = (&fw.summary, &fixed.summary);
+    println!(
+        "sim on the firmware (microbit): {compared} readings, worst |Δm| {worst:.2e} of rated; \
+         rms error {:?} vs {:?}, coverage {:?} vs {:?}, alarms {} vs {}, {:.0} samples/s",
+        f.rms_error_fraction,
+        c.rms_error_fraction,
+        f.uncertainty_coverage,
+        c.uncertainty_coverage,
+        f.alarms.len(),
+        c.alarms.len(),
+        f.samples_per_second
+    );
+    assert!(compared > 600, "{compared}");
+    assert!(worst < 2e-6, "{worst}");
+    assert_eq!(f.samples, c.samples);
+    assert_eq!(f.judged_samples, c.judged_samples);
+    let close = |x: Option<f64>, y: Option<f64>, tol: f64| match (x, y) {
+        (Some(x), Some(y)) => (x - y).abs() <= tol,
+        (None, None) => true,
+        _ => false,
+    };
+    assert!(close(f.rms_error_fraction, c.rms_error_fraction, 2e-6));
+    assert!(close(
+        f.max_abs_error_fraction,
+        c.max_abs_error_fraction,
+        2e-6
+    ));
+    assert!(close(f.uncertainty_coverage, c.uncertainty_coverage, 0.01));
+    assert_eq!(f.false_alarms, c.false_alarms);
 }

@@ -31,6 +31,40 @@ fn main() {
             tag: 5,
             outcome: Outcome::Pong { token: 9 },
         }),
+        Message::InjectSample(link::InjectSample {
+            tag: 6,
+            at_ms: 10_000,
+            codes: heapless::Vec::from_slice(&[
+                link::RawCode {
+                    channel: link::SensorChannel::Pressure,
+                    code: 0x0012_3456,
+                },
+                link::RawCode {
+                    channel: link::SensorChannel::Temperature,
+                    code: 0x0040_0000,
+                },
+            ])
+            .expect("two codes"),
+        }),
+        Message::Alarm(link::AlarmEvent {
+            seq: 3,
+            uptime_ms: 2_010_000,
+            alarm: 6,
+            transition: link::AlarmTransition::Raised,
+            status: 1 << 22,
+            mass_kg: 1 << 40,
+        }),
+        Message::Boot(link::Boot {
+            serial: 20_260_777,
+            firmware_version: [0, 2, 0],
+            report: link::BootReport {
+                reason: link::ResetReason::Panic,
+                boots: 2,
+                fault_line: 120,
+                fault_file: heapless::String::try_from("src/run.rs").expect("short"),
+            },
+        }),
+        Message::GetDiagnostics(link::GetDiagnostics { tag: 7 }),
     ];
     fs::create_dir_all("seeds/frame_decode").expect("dir");
     let mut stream = vec![3u8, 17, 1, 64, 5, 9, 2, 33];

@@ -77,6 +77,25 @@ pub fn model_for<'m>(
     builtin(gas).and_then(|t| DeviceModel::new(t).ok())
 }
 
+/// [`model_for`] straight into `slot`: the prepared model (2.6 KiB on a
+/// Cortex-M0) is not copied through the stack on its way there.
+#[inline(never)]
+pub fn model_for_in<'m>(
+    slot: &'m mut core::mem::MaybeUninit<DeviceModel<'m>>,
+    gas: Gas,
+    loaded: Option<&'m TableBuf>,
+    builtin: fn(Gas) -> Option<Table<'static>>,
+) -> Option<&'m DeviceModel<'m>> {
+    let table = match loaded.filter(|t| t.gas == gas) {
+        Some(t) => t.table(),
+        None => builtin(gas)?,
+    };
+    match DeviceModel::new(table) {
+        Ok(m) => Some(&*slot.write(m)),
+        Err(_) => None,
+    }
+}
+
 /// The stored setup's gas (read before the gauge starts, to prepare its
 /// model).
 pub fn stored_gas<F: NorFlash>(flash: &mut F, layout: &Layout) -> Gas {
@@ -115,10 +134,12 @@ struct App<'m> {
 
 impl<'m> App<'m> {
     /// True when the setup's gas needs another model than the one prepared.
+    /// (A gauge that started without a model — its build has none for the
+    /// stored gas — restarts too: the new gas may be one the build has.)
     fn needs_other_model(&self, r: &Records) -> bool {
         self.models
             .model
-            .is_some_and(|m| CompressibilityFx::gas(m) != r.setup.value.gas)
+            .is_none_or(|m| CompressibilityFx::gas(m) != r.setup.value.gas)
     }
 
     /// Prepares the pipeline from the records in use (a new tracker: a
@@ -139,17 +160,18 @@ impl<'m> App<'m> {
             AlarmThresholds::for_tank(&setup)
         };
         self.pipeline = None;
-        self.pipeline = self.models.model.and_then(|m| {
-            Pipeline::new(
+        if let Some(m) = self.models.model {
+            // An unusable configuration leaves `None` (`config_unusable`).
+            let _ = Pipeline::new_in(
+                &mut self.pipeline,
                 setup,
                 m,
                 &self.pressure_calibration,
                 &self.temperature_calibration,
                 track_config(&tracking, &alarms),
                 tracking.barometric_pa,
-            )
-            .ok()
-        });
+            );
+        }
     }
 
     #[inline(never)]
@@ -239,7 +261,7 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
     /// its samples from [`InjectSample`] messages (emulation, bench rigs).
     #[inline(never)]
     pub fn new(
-        mut identity: Identity,
+        identity: Identity,
         auth: Authenticator,
         flash: F,
         layout: Layout,
@@ -247,6 +269,27 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
         injection: bool,
         boot: BootReport,
     ) -> Result<Gauge<'m, F>, Error> {
+        let mut slot = None;
+        Gauge::new_in(
+            &mut slot, identity, auth, flash, layout, models, injection, boot,
+        )?;
+        slot.ok_or(Error::OutOfRange("gauge"))
+    }
+
+    /// [`Gauge::new`] straight into `slot` (a static on a device): the
+    /// gauge (4.4 KiB on a Cortex-M0) is not copied through the stack.
+    #[inline(never)]
+    #[allow(clippy::too_many_arguments)]
+    pub fn new_in<'s>(
+        slot: &'s mut Option<Gauge<'m, F>>,
+        mut identity: Identity,
+        auth: Authenticator,
+        flash: F,
+        layout: Layout,
+        models: Models<'m>,
+        injection: bool,
+        boot: BootReport,
+    ) -> Result<&'s mut Gauge<'m, F>, Error> {
         identity.capabilities = capability::TELEMETRY
             | capability::SIGNED_CONFIG
             | capability::ALARMS
@@ -278,7 +321,7 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
             unusable_at: None,
             cleared: None,
         };
-        Ok(Gauge {
+        Ok(slot.insert(Gauge {
             responder,
             app,
             acc: Accumulator::new(),
@@ -288,7 +331,7 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
             bad_frames: 0,
             telemetry_seq: 0,
             event_seq: 0,
-        })
+        }))
     }
 
     /// Prepares the pipeline from the stored records and announces the
@@ -307,26 +350,55 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
 
     /// Takes bytes from the link at the board's time `now`: every complete
     /// frame is answered (and injected samples are taken and reported).
+    ///
+    /// A changed configuration is applied after the frame that changed it
+    /// and before the next one, at this level: the decoding frames are gone
+    /// from the stack while the pipeline is prepared (what lets the gauge
+    /// run in the 16 KiB of RAM of a Cortex-M0 board).
     #[inline(never)]
     pub fn receive(&mut self, now: Instant, bytes: &[u8], io: &mut dyn GaugeIo) {
         self.now = now;
         let mut rest = bytes;
         while !rest.is_empty() {
-            match self.acc.feed(rest) {
-                Feed::NeedMore => break,
-                Feed::Frame { message, rest: r } => {
-                    self.frames = self.frames.wrapping_add(1);
-                    self.on_message(&message, io);
-                    rest = r;
-                }
-                Feed::BadFrame { rest: r, .. } | Feed::Overfull { rest: r } => {
-                    self.bad_frames = self.bad_frames.wrapping_add(1);
-                    rest = r;
-                }
-            }
-            if self.app.restart {
+            let (taken, r) = self.next_frame(rest, io);
+            rest = r;
+            self.apply_changes();
+            if !taken || self.app.restart {
                 // Nothing more is taken once a restart is due.
                 break;
+            }
+        }
+    }
+
+    /// Takes the next frame (if `bytes` complete one) and answers it;
+    /// returns whether a frame or a damaged one was taken and the bytes
+    /// after it.
+    #[inline(never)]
+    fn next_frame<'b>(&mut self, bytes: &'b [u8], io: &mut dyn GaugeIo) -> (bool, &'b [u8]) {
+        match self.acc.feed(bytes) {
+            Feed::NeedMore => (false, &[]),
+            Feed::Frame { message, rest } => {
+                self.frames = self.frames.wrapping_add(1);
+                self.on_message(&message, io);
+                (true, rest)
+            }
+            Feed::BadFrame { rest, .. } | Feed::Overfull { rest } => {
+                self.bad_frames = self.bad_frames.wrapping_add(1);
+                (true, rest)
+            }
+        }
+    }
+
+    /// Applies a changed configuration: a new pipeline, or a restart when
+    /// the gas needs another model.
+    fn apply_changes(&mut self) {
+        if self.app.dirty {
+            self.app.dirty = false;
+            if self.app.needs_other_model(self.responder.records()) {
+                // Another gas: the next start prepares its model.
+                self.app.restart = true;
+            } else {
+                self.app.rebuild(self.responder.records());
             }
         }
     }
@@ -366,15 +438,6 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
         };
         if let Some(r) = reply {
             send(io, &r);
-        }
-        if self.app.dirty {
-            self.app.dirty = false;
-            if self.app.needs_other_model(self.responder.records()) {
-                // Another gas: the next start prepares its model.
-                self.app.restart = true;
-            } else {
-                self.app.rebuild(self.responder.records());
-            }
         }
         self.flush(io);
     }

@@ -53,7 +53,8 @@ pub mod float;
 mod gauge;
 
 pub use gauge::{
-    FIRMWARE_VERSION, Gauge, GaugeIo, Models, decode_loaded_model, model_for, stored_gas,
+    FIRMWARE_VERSION, Gauge, GaugeIo, Models, decode_loaded_model, model_for, model_for_in,
+    stored_gas,
 };
 
 use crate::link::{RawCode, SensorChannel};

@@ -80,7 +80,7 @@ impl Clock for SysTickClock {
 
 // ---- receive ring ----
 
-const RING: usize = 512;
+const RING: usize = 256;
 
 /// Bytes received by the UART interrupt, taken by the main loop. One
 /// producer (the interrupt) and one consumer (the loop): each index has a

@@ -65,12 +65,21 @@ fn wr(addr: u32, v: u32) {
 pub static RX: RxRing = RxRing::new();
 
 /// The UART0 receive interrupt: moves every received byte into [`RX`].
+///
+/// The interrupt is cleared *before* the data register is drained. The
+/// other order loses the link for good: a byte that arrives between the
+/// last `RXFULL` check and the clear sets `RXFULL` and the interrupt, the
+/// clear then drops the interrupt, and since the UART takes no further byte
+/// while `RXFULL` is set (QEMU's `can_receive`, the one-byte buffer of the
+/// real part), nothing would ever raise it again. Cleared first, a byte
+/// arriving at any point either is drained by the loop below or raises the
+/// interrupt anew.
 pub fn uart0_rx_interrupt() {
+    wr(UART0 + 0xC, 2); // INTCLEAR RX
     while rd(UART0 + 0x4) & 2 != 0 {
         // STATE.RXFULL
         RX.push(rd(UART0) as u8);
     }
-    wr(UART0 + 0xC, 2); // INTCLEAR RX
 }
 
 #[derive(Clone, Copy)]

@@ -3,8 +3,10 @@
 
 use super::{Format, to_json};
 use crate::Error;
+use crate::firmware::Board;
+use crate::sim::firmware::FirmwareGauge;
 use crate::sim::output::{self, Written};
-use crate::sim::run::{BackendKind, RunOptions, Summary, run};
+use crate::sim::run::{BackendKind, RunOptions, Summary, run, run_with};
 use crate::sim::scenario::{BUILTIN, Scenario, duration_s};
 use clap::Args;
 use rayon::prelude::*;
@@ -25,6 +27,11 @@ pub struct SimArgs {
     /// path) or in f64.
     #[arg(long, value_enum, default_value_t = BackendKind::Fixed)]
     pub backend: BackendKind,
+    /// Run the reference firmware in QEMU instead (board: microbit or
+    /// mps2-an386), fed the raw codes over its serial link; needs
+    /// qemu-system-arm and the firmware's source tree (it is built first).
+    #[arg(long, value_name = "BOARD", conflicts_with = "backend")]
+    pub firmware: Option<String>,
     /// Run for this long instead of the scenario's duration (e.g. 365d).
     #[arg(long)]
     pub duration: Option<String>,
@@ -72,10 +79,27 @@ pub struct Done {
     pub written: Option<Written>,
 }
 
-/// Runs the scenarios (in parallel when there are several).
+/// Runs the scenarios (in parallel when there are several) on the
+/// in-process `backend`.
 pub fn execute(
     scenarios: Vec<Scenario>,
     backend: BackendKind,
+    every_s: f64,
+    out: Option<&std::path::Path>,
+    plots: bool,
+    progress: bool,
+) -> Result<Vec<Done>, Error> {
+    execute_on(scenarios, backend, None, every_s, out, plots, progress)
+}
+
+/// Longest run of the emulated firmware for one scenario.
+const FIRMWARE_LIMIT: std::time::Duration = std::time::Duration::from_secs(24 * 3600);
+
+/// [`execute`], or on the firmware of `firmware` in QEMU when given.
+pub fn execute_on(
+    scenarios: Vec<Scenario>,
+    backend: BackendKind,
+    firmware: Option<Board>,
     every_s: f64,
     out: Option<&std::path::Path>,
     plots: bool,
@@ -90,7 +114,13 @@ pub fn execute(
     scenarios
         .par_iter()
         .map(|sc| {
-            let r = run(sc, &opts)?;
+            let r = match firmware {
+                None => run(sc, &opts)?,
+                Some(board) => {
+                    let gauge = FirmwareGauge::start(board, &sc.gauge, FIRMWARE_LIMIT)?;
+                    run_with(sc, Box::new(gauge), &opts)?
+                }
+            };
             let written = match out {
                 Some(dir) => Some(output::write_all(dir, &r, plots)?),
                 None => None,
@@ -151,9 +181,11 @@ pub fn run_cmd(a: &SimArgs) -> Result<String, Error> {
         .map(|n| load(n).map(|s| s.with(duration, a.seed)))
         .collect::<Result<Vec<_>, _>>()?;
     let out = (!a.no_files).then_some(a.out.as_path());
-    let done = execute(
+    let firmware = a.firmware.as_deref().map(Board::from_name).transpose()?;
+    let done = execute_on(
         scenarios,
         a.backend,
+        firmware,
         every,
         out,
         !a.no_plots,

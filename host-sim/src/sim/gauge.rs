@@ -9,8 +9,8 @@
 //! * [`FixedGauge`]: the fixed-point path (what a device computes);
 //! * [`FloatGauge`]: the `f64` path (the reference mirror).
 //!
-//! A backend that drives emulated firmware over its serial link implements
-//! the same trait.
+//! [`super::firmware::FirmwareGauge`] implements the same trait over the
+//! reference firmware running in QEMU, driven over its serial link.
 //!
 //! Like a board, both prepare the bridge's temperature compensation (the
 //! one reciprocal of the bridge path) again only when the temperature

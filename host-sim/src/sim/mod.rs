@@ -7,11 +7,14 @@
 //! * [`sensors`] — the sensors' errors, lag and faults, down to raw codes.
 //! * [`gauge`] — the gauge under test behind the [`gauge::Backend`] trait
 //!   (the core in-process, fixed point or `f64`).
+//! * [`firmware`](mod@firmware) — the same trait over the reference
+//!   firmware in QEMU (`isochor sim --firmware BOARD`).
 //! * [`scenario`] — scenario files (TOML) and the built-in scenarios.
 //! * [`run`](mod@run) — a run and its scores.
 //! * [`output`] — the summary table, CSV and JSON-lines time series.
 //! * [`plot`] — PNG and SVG plots.
 
+pub mod firmware;
 pub mod gauge;
 pub mod output;
 pub mod physics;

@@ -135,8 +135,11 @@ pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
     let _ = writeln!(o, "isochor simulation: {} — {}", s.scenario, s.title);
     let _ = writeln!(
         o,
-        "gauge: {} core, {} gas model; {} simulated, {} samples in {:.2} s ({:.0} samples/s); physics {} steps\n",
-        s.backend,
+        "gauge: {}, {} gas model; {} simulated, {} samples in {:.2} s ({:.0} samples/s); physics {} steps\n",
+        match s.backend.strip_prefix("firmware-") {
+            Some(board) => format!("reference firmware on {board} (QEMU)"),
+            None => format!("{} core", s.backend),
+        },
         s.model,
         fmt_duration(s.duration_s),
         s.samples,

@@ -110,39 +110,54 @@ impl BridgeConfig {
         if !(8..=24).contains(&self.adc_bits) {
             return Err(Error::OutOfRange("converter bits"));
         }
-        let within = |v: fx::Coefficient, lim: f64, what| {
-            if fx::to_f64(v).abs() > lim {
+        // Integer comparisons on the coefficients' bits (a device validates
+        // records at start and on every write: no float there); the limits
+        // are the largest bit patterns not above them, made at compile time.
+        const fn limit(x: f64) -> u64 {
+            (x * (1u64 << 48) as f64) as u64
+        }
+        let within = |v: fx::Coefficient, lim: u64, what| {
+            if v.to_bits().unsigned_abs() > lim {
                 Err(Error::OutOfRange(what))
             } else {
                 Ok(())
             }
         };
-        within(self.zero[0], 1.0, "zero")?;
-        within(self.zero[1], 1e-2, "zero temperature coefficient")?;
+        within(self.zero[0], const { limit(1.0) }, "zero")?;
+        within(
+            self.zero[1],
+            const { limit(1e-2) },
+            "zero temperature coefficient",
+        )?;
         within(
             self.zero[2],
-            1e-4,
+            const { limit(1e-4) },
             "zero second-order temperature coefficient",
         )?;
-        if fx::to_f64(self.span) < 1e-4 || self.span > 2 {
+        // span < 1e-4 ⟺ bits ≤ ⌊1e-4·2^48⌋ (1e-4·2^48 is not an integer).
+        if self.span.to_bits() <= const { limit(1e-4) as i64 } || self.span > 2 {
             return Err(Error::OutOfRange("span"));
         }
-        within(self.span_tc[0], 1e-3, "span temperature coefficient")?;
+        within(
+            self.span_tc[0],
+            const { limit(1e-3) },
+            "span temperature coefficient",
+        )?;
         within(
             self.span_tc[1],
-            1e-5,
+            const { limit(1e-5) },
             "span second-order temperature coefficient",
         )?;
         if self.reference_k < 150 || self.reference_k > 500 {
             return Err(Error::OutOfRange("reference temperature"));
         }
         for c in self.linearity {
-            within(c, 2.0, "linearity coefficient")?;
+            within(c, const { limit(2.0) }, "linearity coefficient")?;
         }
         if self.range_hi_pa <= self.range_lo_pa {
             return Err(Error::OutOfRange("range high end"));
         }
-        if self.range_margin < 0 || fx::to_f64(self.range_margin) > 0.5 {
+        if self.range_margin < 0 || self.range_margin.to_bits() > 1 << 47 {
             return Err(Error::OutOfRange("range margin"));
         }
         Ok(())

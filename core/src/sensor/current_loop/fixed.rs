@@ -61,7 +61,7 @@ impl Loop {
             .ok_or(Error::OutOfRange("shunt resistance"))?;
         let per_code = Coef::from_raw(config.adc_reference_v.to_bits() as u64, 48)
             .mul(inv_shunt)
-            .mul(Coef::from_f64(1000.0))
+            .mul(const { Coef::from_f64(1000.0) })
             .mul(Coef::from_parts(1, config.adc_bits as i32));
         let lo = config.range_lo_pa.to_bits() as i64;
         let span = config.range_hi_pa.to_bits() as i64 - lo;
@@ -70,7 +70,7 @@ impl Loop {
             top: (1 << config.adc_bits) - 1,
             per_code,
             lo,
-            slope: SCoef::from_i64(span, 4).mul(Coef::from_f64(1.0 / 16.0)),
+            slope: SCoef::from_i64(span, 4).mul(const { Coef::from_f64(1.0 / 16.0) }),
             persistence: config.persistence,
         })
     }

@@ -154,8 +154,11 @@ impl LoopConfig {
         if self.shunt_ohms < 1 || self.shunt_ohms > 100_000 {
             return Err(Error::OutOfRange("shunt resistance"));
         }
-        let i_max_ma = fx::to_f64(self.adc_reference_v) / fx::to_f64(self.shunt_ohms) * 1000.0;
-        if i_max_ma <= FAILURE_HIGH_MA || i_max_ma > 200.0 {
+        // I_max = V_ref/R_shunt in mA, compared in integers (no float on a
+        // device): V bits/2^48 · 1000 against I · R bits/2^32.
+        let v1000 = i128::from(self.adc_reference_v.to_bits()) * 1000;
+        let r = i128::from(self.shunt_ohms.to_bits()) << 16;
+        if v1000 <= FAILURE_HIGH_MA as i128 * r || v1000 > 200 * r {
             return Err(Error::OutOfRange(
                 "converter range (must reach beyond 21 mA, at most 200 mA)",
             ));

@@ -38,7 +38,7 @@ impl Checker {
             min: raw(config.min),
             max: raw(config.max),
             rate_per_ms: Coef::from_raw(config.max_rate_per_s.to_bits() as u64, 24 - frac)
-                .mul(Coef::from_f64(1e-3)),
+                .mul(const { Coef::from_f64(1e-3) }),
             allowance: raw(config.rate_allowance),
             band: raw(config.stuck_band),
             after: config.stuck_after,

@@ -57,7 +57,7 @@ impl Input {
         let exc = Coef::from_raw(f.excitation.to_bits().unsigned_abs(), 48);
         // θ in K/W.
         let theta = Coef::from_raw(f.self_heating_k_per_mw.to_bits().unsigned_abs(), 48)
-            .mul(Coef::from_f64(1000.0));
+            .mul(const { Coef::from_f64(1000.0) });
         let heating = match f.circuit {
             // P = I²·R_ref·(num/den), den = 2^bits.
             Circuit::Ratiometric => theta.mul(exc).mul(exc).mul(rref),

@@ -86,8 +86,8 @@ impl RtdConfig {
             return Err(Error::OutOfRange("R0"));
         }
         // −200 °C = 73.15 K, 850 °C = 1123.15 K.
-        let lo = fx::Temperature::lit("73.15");
-        let hi = fx::Temperature::lit("1123.15");
+        let lo = const { fx::Temperature::lit("73.15") };
+        let hi = const { fx::Temperature::lit("1123.15") };
         if self.range_min_k < lo || self.range_min_k >= self.range_max_k {
             return Err(Error::OutOfRange("range minimum"));
         }
