@@ -98,7 +98,17 @@ pub struct Estimator<M> {
 
 /// Most intervals of the settled-pressure table (enough for every built-in
 /// device model; a model with more pressure knots is solved without it).
-pub const SETTLE_TABLE_INTERVALS: usize = 24;
+/// None on ARMv6-M (Cortex-M0/M0+/M1, recognised by the absence of 32-bit
+/// atomics, as in [`fx::mul_u32`]): the table's 580 bytes do not fit beside
+/// the reference firmware in the 16 KiB of RAM of such a board, which runs
+/// the solver from Z at the sample instead (the same equation; about 2,000
+/// more instructions per sample).
+pub const SETTLE_TABLE_INTERVALS: usize =
+    if cfg!(all(target_arch = "arm", not(target_has_atomic = "32"))) {
+        0
+    } else {
+        24
+    };
 /// Nodes of the table, uniform in pressure, for a model that names no
 /// pressure knots.
 const SETTLE_UNIFORM_NODES: u32 = 17;
@@ -267,6 +277,9 @@ impl<M: CompressibilityFx> Estimator<M> {
 
     /// Builds the settled-pressure table (preparation: divisions allowed).
     fn prepare_settle_table(&self) -> SettleTable {
+        if SETTLE_TABLE_INTERVALS == 0 {
+            return SettleTable::default();
+        }
         let t_ref = self.setup.settled_reference_k;
         let mut table = SettleTable {
             iso: self.model.isotherm_fx(t_ref),

@@ -73,8 +73,16 @@ pub trait Compressibility<F: Real> {
 }
 
 /// Most coefficients an [`IsothermFx`] holds (a device model's pressure
-/// basis functions: knots + 2).
-pub const ISOTHERM_COEFS: usize = device::MAX_KNOTS + 2;
+/// basis functions: knots + 2). None on ARMv6-M (Cortex-M0/M0+/M1, no 32-bit
+/// atomics), whose reference board has 16 KiB of RAM and does without the
+/// settled-pressure table that uses the isotherm (see
+/// `content::fixed::SETTLE_TABLE_INTERVALS`): an isotherm without
+/// coefficients answers through [`CompressibilityFx::z_fx`].
+pub const ISOTHERM_COEFS: usize = if cfg!(all(target_arch = "arm", not(target_has_atomic = "32"))) {
+    0
+} else {
+    device::MAX_KNOTS + 2
+};
 
 /// Z(p) along one isotherm, prepared once by a model
 /// ([`CompressibilityFx::isotherm_fx`]) so that evaluations at that
