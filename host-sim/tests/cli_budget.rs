@@ -88,11 +88,7 @@ fn budget_reports_every_figure_positive_and_consistent() {
         let stack = u(b, "stack_bytes");
         assert!(flash > 0 && ram > 0 && stack > 0, "{b}");
         assert_eq!(u(b, "ram_bytes"), ram + stack, "{b}");
-        // The firmware's own run either gave its stack peak or a reason.
-        match b["firmware_stack_bytes"].as_u64() {
-            Some(s) => assert!(s > 0 && b["firmware_error"].is_null(), "{b}"),
-            None => assert!(b["firmware_error"].as_str().is_some_and(|e| !e.is_empty())),
-        }
+        assert!(u(b, "estimate_stack_bytes") > 0, "{b}");
     }
 
     // The human table: the goals beside the figures, and the cautions.
