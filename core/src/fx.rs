@@ -260,6 +260,14 @@ pub const fn mul_s32(a: i64, b: i64) -> i64 {
     if (a < 0) != (b < 0) { -p } else { p }
 }
 
+/// `a × b` for `i32` operands, exact, through [`mul_u32`] (on a Cortex-M0 the
+/// generic 64-bit multiply is a library call).
+#[inline]
+pub const fn mul_i32(a: i32, b: i32) -> i64 {
+    let p = mul_u32(a.unsigned_abs(), b.unsigned_abs()) as i64;
+    if (a < 0) != (b < 0) { -p } else { p }
+}
+
 /// `value >> s` for `s < 64` with 32-bit operations (a variable 64-bit shift
 /// is a library call on a Cortex-M0).
 #[inline]
@@ -384,6 +392,8 @@ mod tests {
             let (mc, md) = (c.unsigned_abs().min(u32::MAX as u64) as i128, d.unsigned_abs().min(u32::MAX as u64) as i128);
             let want = mc * md * if (c < 0) != (d < 0) { -1 } else { 1 };
             prop_assert_eq!(mul_s32(c, d) as i128, want);
+            let (e, f) = (c as i32, (d >> 1) as i32);
+            prop_assert_eq!(mul_i32(e, f), e as i64 * f as i64);
         }
 
         #[test]

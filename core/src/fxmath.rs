@@ -8,7 +8,7 @@
 //! | function | method | multiplies | worst error (tested) |
 //! |---|---|---|---|
 //! | [`ln`] | 64-entry table of reciprocals `c_j ≈ 1/(1 + (j+½)/64)` with their logarithms, then `ln(1+r)` for `|r| < 2^-7` by a 4-term series, plus `k·ln 2` | 6 | 1.0e-9 absolute |
-//! | [`recip`] | linear seed `48/17 − 32/17·d`, 3 Newton steps `r ← r(2 − d·r)` | 7 | 2e-9 relative |
+//! | [`recip`] | 33-entry table of `1/d`, linear interpolation, 2 Newton steps `r ← r(2 − d·r)` | 5 | 2e-9 relative |
 //! | [`sqrt`] | 49-entry table of `1/√d`, linear interpolation, 2 Newton steps `y ← y(3 − d·y²)/2`, then `√d = d·y` | 8 | 2e-9 relative |
 //!
 //! The tables are computed at compile time from `f64` (const evaluation only,
@@ -133,19 +133,45 @@ pub fn recip(x: u64, frac: u32) -> Option<Coef> {
     Some(Coef::from_parts(r as u64, 30 + e))
 }
 
-/// `2^62 / m` for `m` in `[2^31, 2^32)`, i.e. `1/d` at 2^-30 for `d = m·2^-32`.
-fn recip_unit(m: u32) -> u32 {
-    // r0 = 48/17 − 32/17·d, at 2^-30: relative error ≤ 1/17.
-    const A: u64 = 3_031_741_621; // 48/17 · 2^30
-    const B: u64 = 2_021_161_081; // 32/17 · 2^30
-    let mut r = A - (mul_u32(B as u32, m) >> 32);
-    for _ in 0..3 {
-        // e = 1 − d·r at 2^-62, then r += r·e.
-        let e = (1i64 << 62) - mul_u32(m, r as u32) as i64;
-        let e31 = e >> 31;
-        r = (r as i64 + (mul_s32(r as i64, e31) >> 31)) as u64;
+/// Index bits of the reciprocal seed table (32 intervals over `[0.5, 1)`).
+const RECIP_BITS: u32 = 5;
+/// `1/d` at the interval ends `d = 1/2 + j/64` (`j` = 0 … 32), at 2^-30.
+// Const evaluation: an index out of bounds fails the build, never a device.
+#[allow(clippy::indexing_slicing)]
+const RECIP_SEED: [u32; 33] = {
+    let mut t = [0u32; 33];
+    let mut j = 0;
+    while j <= 32 {
+        let d = 0.5 + j as f64 / 64.0;
+        t[j] = (1_073_741_824.0 / d + 0.5) as u32;
+        j += 1;
     }
-    r.min(1 << 31) as u32
+    t
+};
+
+/// The seed of [`recip_unit`] alone: `2^62 / m` within 4.9e-4 (relative), for
+/// callers that only scale a small correction with it.
+pub(crate) fn recip_seed(m: u32) -> u32 {
+    let j = ((m >> (31 - RECIP_BITS)) as usize) & ((1 << RECIP_BITS) - 1);
+    let y0 = RECIP_SEED.get(j).copied().unwrap_or(1 << 31);
+    let y1 = RECIP_SEED.get(j + 1).copied().unwrap_or(1 << 30);
+    // Position in the interval, Q16; y0 − y1 < 2^26, so (y0 − y1)/2^10 < 2^16
+    // and its product with the position fits 32 bits.
+    let f = (m >> (15 - RECIP_BITS)) & 0xFFFF;
+    y0 - ((((y0 - y1) >> 10) * f) >> 6)
+}
+
+/// `2^62 / m` for `m` in `[2^31, 2^32)`, i.e. `1/d` at 2^-30 for `d = m·2^-32`:
+/// a table seed interpolated linearly (relative error ≤ 4.9e-4), then two
+/// Newton steps `r ← r(2 − d·r)` (≤ 2.4e-7, then the arithmetic's 2^-30).
+pub(crate) fn recip_unit(m: u32) -> u32 {
+    let mut r = recip_seed(m) as i64;
+    for _ in 0..2 {
+        // e = 1 − d·r at 2^-62 (|e| < 2^52), then r += r·e.
+        let e = (1i64 << 62) - mul_u32(m, r as u32) as i64;
+        r += mul_s32(r, e >> 31) >> 31;
+    }
+    r.clamp(1 << 30, 1 << 31) as u32
 }
 
 /// First index bits of the square-root seed table (`d` in `[0.25, 1)` at
@@ -268,6 +294,20 @@ mod tests {
             let s = sqrt(x, frac).to_f64();
             prop_assert!((s / libm::sqrt(v) - 1.0).abs() < 2e-9, "{} {}", s, v);
         }
+    }
+
+    #[test]
+    fn recip_unit_over_its_interval() {
+        // 2^20 + 1 points over [0.5, 1), both ends included: relative error
+        // against f64 division below 2e-9 (the format's step is 2^-30).
+        let mut worst = 0f64;
+        for i in 0..=(1u64 << 20) {
+            let m = ((1u64 << 31) + (i << 11)).min(u32::MAX as u64) as u32;
+            let want = 2f64.powi(62) / m as f64;
+            let e = (recip_unit(m) as f64 / want - 1.0).abs();
+            worst = worst.max(e);
+        }
+        assert!(worst < 2e-9, "worst {worst:e}");
     }
 
     #[test]

@@ -53,6 +53,10 @@ pub enum Error {
     /// A gas model could not be built to the requested accuracy and size.
     #[error("model build: {0}")]
     Build(String),
+    /// A tool a command needs (QEMU, a Rust target, cargo) is missing or
+    /// failed.
+    #[error("{0}")]
+    Tool(String),
 }
 
 impl Error {
@@ -70,7 +74,8 @@ impl Error {
             | Error::EosData(_)
             | Error::NoConvergence(_)
             | Error::File { .. }
-            | Error::Build(_) => 1,
+            | Error::Build(_)
+            | Error::Tool(_) => 1,
         }
     }
 }

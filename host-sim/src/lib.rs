@@ -7,6 +7,7 @@
 //! * [`content`] — the content report of `isochor content` (both core paths).
 //! * [`link`] — the serial link: transports, client, emulated device, views.
 //! * [`firmware`] — the reference firmware in QEMU: builds, provisioning, the emulator, image sizes.
+//! * [`budget`] — the firmware's flash, RAM, stack and instructions per estimate, measured in QEMU.
 //! * [`mod@bench`] — converter codes for given readings (drives devices that take injected samples).
 //! * [`eos`] — the reference equations of state (f64, host only).
 //! * [`model`] — building and checking device gas models.
@@ -17,6 +18,7 @@
 //! * [`cli`] — argument parsing and the commands.
 
 pub mod bench;
+pub mod budget;
 pub mod cli;
 pub mod content;
 pub mod eos;

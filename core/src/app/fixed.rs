@@ -1,7 +1,7 @@
 //! The sample pipeline, fixed-point form (the device path). Same steps and
 //! names as [`super::float`]; the method is in [`super`].
 
-use super::{RawSample, bucket_code, signed_code, temperature_bits};
+use super::{CompensationCache, RawSample, bucket_code, signed_code, temperature_bits};
 use crate::content::fixed::Estimator;
 use crate::model::CompressibilityFx;
 use crate::sensor::bridge::fixed::{Bridge, Compensation};
@@ -33,15 +33,19 @@ impl TemperatureInput {
 }
 
 /// The pressure front-end and its state.
+#[allow(
+    clippy::large_enum_variant,
+    reason = "one per pipeline: the bridge keeps its compensations in place"
+)]
 #[derive(Clone, Debug)]
 enum PressureInput {
-    /// A bridge with the compensation of the latest temperature bucket.
+    /// A bridge with the compensations of the latest temperature buckets.
     Bridge {
         bridge: Bridge,
         bits: u8,
         bipolar: bool,
         reference_k: fx::Temperature,
-        compensation: Option<(u32, Compensation)>,
+        compensation: CompensationCache<Compensation>,
     },
     /// A 4–20 mA loop with its NE 43 persistence state.
     Loop {
@@ -133,7 +137,7 @@ impl<M: CompressibilityFx> Pipeline<M> {
                 bits: c.adc_bits,
                 bipolar: c.bipolar,
                 reference_k: c.reference_k,
-                compensation: None,
+                compensation: CompensationCache::new(),
             },
             SensorConfig::Loop(c) => PressureInput::Loop {
                 input: Loop::new(c)?,
@@ -199,20 +203,15 @@ impl<M: CompressibilityFx> Pipeline<M> {
                 compensation,
             } => {
                 let (bucket, centre) = bucket_code(raw.temperature, self.temperature_bits);
-                let comp = match compensation {
-                    Some((b, c)) if *b == bucket => *c,
-                    _ => {
-                        let c = compensation_at(
-                            bridge,
-                            *reference_k,
-                            &self.temperature,
-                            &self.temperature_correction,
-                            centre,
-                        );
-                        *compensation = Some((bucket, c));
-                        c
-                    }
-                };
+                let comp = compensation.get_or_insert_with(bucket, || {
+                    compensation_at(
+                        bridge,
+                        *reference_k,
+                        &self.temperature,
+                        &self.temperature_correction,
+                        centre,
+                    )
+                });
                 let code = signed_code(raw.pressure, *bits, *bipolar);
                 bridge.read_compensated(code, &comp, self.barometric)
             }

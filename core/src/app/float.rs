@@ -2,7 +2,7 @@
 //! reference). Same steps and names as [`super::fixed`]; the method is in
 //! [`super`].
 
-use super::{RawSample, bucket_code, signed_code, temperature_bits};
+use super::{CompensationCache, RawSample, bucket_code, signed_code, temperature_bits};
 use crate::content::float::Estimator;
 use crate::model::Compressibility;
 use crate::sensor::bridge::float::{Bridge, Compensation};
@@ -34,15 +34,19 @@ impl<F: Real> TemperatureInput<F> {
 }
 
 /// The pressure front-end and its state.
+#[allow(
+    clippy::large_enum_variant,
+    reason = "one per pipeline: the bridge keeps its compensations in place"
+)]
 #[derive(Clone, Debug)]
 enum PressureInput<F> {
-    /// A bridge with the compensation of the latest temperature bucket.
+    /// A bridge with the compensations of the latest temperature buckets.
     Bridge {
         bridge: Bridge<F>,
         bits: u8,
         bipolar: bool,
         reference_k: F,
-        compensation: Option<(u32, Compensation<F>)>,
+        compensation: CompensationCache<Compensation<F>>,
     },
     /// A 4–20 mA loop with its NE 43 persistence state.
     Loop {
@@ -124,7 +128,7 @@ impl<F: Real, M: Compressibility<F>> Pipeline<F, M> {
                 bits: c.adc_bits,
                 bipolar: c.bipolar,
                 reference_k: F::lit(crate::fx::to_f64(c.reference_k)),
-                compensation: None,
+                compensation: CompensationCache::new(),
             },
             SensorConfig::Loop(c) => PressureInput::Loop {
                 input: Loop::new(c)?,
@@ -182,20 +186,15 @@ impl<F: Real, M: Compressibility<F>> Pipeline<F, M> {
                 compensation,
             } => {
                 let (bucket, centre) = bucket_code(raw.temperature, self.temperature_bits);
-                let comp = match compensation {
-                    Some((b, c)) if *b == bucket => *c,
-                    _ => {
-                        let c = compensation_at(
-                            bridge,
-                            *reference_k,
-                            &self.temperature,
-                            &self.temperature_correction,
-                            centre,
-                        )?;
-                        *compensation = Some((bucket, c));
-                        c
-                    }
-                };
+                let comp = compensation.get_or_try(bucket, || {
+                    compensation_at(
+                        bridge,
+                        *reference_k,
+                        &self.temperature,
+                        &self.temperature_correction,
+                        centre,
+                    )
+                })?;
                 let code = signed_code(raw.pressure, *bits, *bipolar);
                 bridge.read_compensated(code, &comp, self.barometric)?
             }

@@ -29,7 +29,8 @@
 //!    prepared once per bucket of temperature codes ([`COMPENSATION_BUCKETS`]
 //!    over the converter range, about 0.07 K for the reference board's
 //!    Pt1000) from the bucket's central code, so both paths take the same
-//!    decision from the same integer code.
+//!    decision from the same integer code; the latest few buckets' are kept
+//!    ([`CompensationCache`]).
 //! 3. `pressure`: the pressure front-end (bridge or 4–20 mA with NAMUR NE 43
 //!    persistence) converts its code with the site's barometric pressure;
 //!    the calibration correction follows.
@@ -109,6 +110,68 @@ pub fn signed_code(code: u32, bits: u8, bipolar: bool) -> i32 {
         ((code << shift) as i32) >> shift
     } else {
         (code & ((1 << bits) - 1)) as i32
+    }
+}
+
+/// Compensations of the latest temperature buckets kept by a pipeline.
+pub const COMPENSATION_CACHE: usize = 4;
+
+/// The bridge compensations of the latest [`COMPENSATION_CACHE`] temperature
+/// buckets, each with its bucket (both paths; no arithmetic). A temperature
+/// whose converter noise dithers across a bucket boundary, or wanders over a
+/// few neighbouring buckets, finds its compensation prepared: the value is
+/// the one [`bucket_code`]'s central code gives, whichever sample prepared
+/// it, so keeping more buckets changes no reading, only how often the
+/// compensation is computed.
+#[derive(Clone, Copy, Debug)]
+pub struct CompensationCache<C> {
+    entries: [Option<(u32, C)>; COMPENSATION_CACHE],
+    /// The entry the next miss replaces (the oldest).
+    next: usize,
+}
+
+impl<C: Copy> CompensationCache<C> {
+    /// An empty cache.
+    pub const fn new() -> Self {
+        CompensationCache {
+            entries: [None; COMPENSATION_CACHE],
+            next: 0,
+        }
+    }
+
+    /// The compensation of `bucket`: kept, or prepared by `make` and kept in
+    /// place of the oldest. An error of `make` is returned and nothing kept.
+    pub fn get_or_try<E>(
+        &mut self,
+        bucket: u32,
+        make: impl FnOnce() -> Result<C, E>,
+    ) -> Result<C, E> {
+        if let Some((_, c)) = self.entries.iter().flatten().find(|(b, _)| *b == bucket) {
+            return Ok(*c);
+        }
+        let c = make()?;
+        if let Some(e) = self.entries.get_mut(self.next) {
+            *e = Some((bucket, c));
+        }
+        self.next = (self.next + 1) % COMPENSATION_CACHE;
+        Ok(c)
+    }
+}
+
+impl<C: Copy> CompensationCache<C> {
+    /// The compensation of `bucket`: kept, or prepared by `make` and kept in
+    /// place of the oldest.
+    pub fn get_or_insert_with(&mut self, bucket: u32, make: impl FnOnce() -> C) -> C {
+        match self.get_or_try(bucket, || Ok::<C, core::convert::Infallible>(make())) {
+            Ok(c) => c,
+            Err(never) => match never {},
+        }
+    }
+}
+
+impl<C: Copy> Default for CompensationCache<C> {
+    fn default() -> Self {
+        Self::new()
     }
 }
 

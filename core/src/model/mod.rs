@@ -72,6 +72,50 @@ pub trait Compressibility<F: Real> {
     fn z(&self, p_pa: F, t_k: F) -> ZPoint<F>;
 }
 
+/// Most coefficients an [`IsothermFx`] holds (a device model's pressure
+/// basis functions: knots + 2). None on ARMv6-M (Cortex-M0/M0+/M1, no 32-bit
+/// atomics), whose reference board has 16 KiB of RAM and does without the
+/// settled-pressure table that uses the isotherm (see
+/// `content::fixed::SETTLE_TABLE_INTERVALS`): an isotherm without
+/// coefficients answers through [`CompressibilityFx::z_fx`].
+pub const ISOTHERM_COEFS: usize = if cfg!(all(target_arch = "arm", not(target_has_atomic = "32"))) {
+    0
+} else {
+    device::MAX_KNOTS + 2
+};
+
+/// Z(p) along one isotherm, prepared once by a model
+/// ([`CompressibilityFx::isotherm_fx`]) so that evaluations at that
+/// temperature ([`CompressibilityFx::isotherm_z_fx`]) work along the
+/// pressure axis only. The content estimate prepares the isotherm of its
+/// settled reference temperature.
+#[derive(Clone, Debug, Default, PartialEq, Eq)]
+pub struct IsothermFx {
+    /// The temperature of the isotherm.
+    pub temperature: fx::Temperature,
+    /// Model-specific data (a device model: the coefficients of the pressure
+    /// basis functions at this temperature, and its boundary pressures).
+    pub(crate) coefs: heapless::Vec<u32, ISOTHERM_COEFS>,
+    /// Highest gas pressure and highest covered pressure at this
+    /// temperature (raw bits; device models of liquefiable gases).
+    pub(crate) saturation: u32,
+    pub(crate) limit: u32,
+    /// Flags every answer on this isotherm carries (temperature outside the
+    /// model's range).
+    pub(crate) flags: Status,
+}
+
+impl IsothermFx {
+    /// An isotherm without prepared data: evaluations go through
+    /// [`CompressibilityFx::z_fx`].
+    pub fn plain(temperature: fx::Temperature) -> IsothermFx {
+        IsothermFx {
+            temperature,
+            ..IsothermFx::default()
+        }
+    }
+}
+
 /// The fixed-point form of a gas model.
 ///
 /// Contract for implementors: never panic, answer every input (clamping to
@@ -85,6 +129,25 @@ pub trait CompressibilityFx {
     /// The smallest Z the model returns. The estimator sizes its internal
     /// density scale from it (a smaller floor costs density resolution).
     fn z_floor(&self) -> fx::Compressibility;
+    /// The pressures (raw [`fx::Pressure`] bits, increasing) where the
+    /// model's Z(p) changes form — a device model's pressure knots. Prepared
+    /// tables along pressure put their nodes there. Empty (the default): Z is
+    /// smooth in pressure.
+    fn pressure_knots_fx(&self) -> &[u32] {
+        &[]
+    }
+    /// Prepares the isotherm `t` for [`CompressibilityFx::isotherm_z_fx`]
+    /// (preparation time; may divide). The default prepares nothing.
+    fn isotherm_fx(&self, t: fx::Temperature) -> IsothermFx {
+        IsothermFx::plain(t)
+    }
+    /// Z and its slopes at pressure `p` on a prepared isotherm: the same
+    /// answer as `z_fx(p, iso.temperature)` (within the rounding of the
+    /// fixed-point formats), cheaper. The default calls
+    /// [`CompressibilityFx::z_fx`].
+    fn isotherm_z_fx(&self, iso: &IsothermFx, p: fx::Pressure) -> ZPointFx {
+        self.z_fx(p, iso.temperature)
+    }
 }
 
 impl<F: Real, M: Compressibility<F>> Compressibility<F> for &M {
@@ -111,5 +174,14 @@ impl<M: CompressibilityFx> CompressibilityFx for &M {
     }
     fn z_floor(&self) -> fx::Compressibility {
         (**self).z_floor()
+    }
+    fn pressure_knots_fx(&self) -> &[u32] {
+        (**self).pressure_knots_fx()
+    }
+    fn isotherm_fx(&self, t: fx::Temperature) -> IsothermFx {
+        (**self).isotherm_fx(t)
+    }
+    fn isotherm_z_fx(&self, iso: &IsothermFx, p: fx::Pressure) -> ZPointFx {
+        (**self).isotherm_z_fx(iso, p)
     }
 }

@@ -912,8 +912,8 @@ impl<M: CompressibilityFx> Tracker<M> {
                 let c = 2 * i as i64 - (ni - 1);
                 let fitted = mean + fx::shr_round_i64(slope * c, 1);
                 let r = ((y as i64) << (QF - Q)) - fitted;
-                let s1 = prev.map_or(s1, |q| s1 + q as i128 * r as i128);
-                (ssr + (r as i128 * r as i128) as u128, s1, Some(r))
+                let s1 = prev.map_or(s1, |q| s1 + mul_wide(q, r));
+                (ssr + mul_wide(r, r).unsigned_abs(), s1, Some(r))
             },
         );
         // SE² = SSR/(n − 2) / Σ(i − ī)² = 12·SSR / ((n − 2)·n·(n² − 1)), Q72,
@@ -1025,9 +1025,48 @@ fn div_round_i128(num: i128, den: i128) -> i128 {
     }
 }
 
+/// `a × b`, exact, in 128 bits: one 32×32 multiply ([`fx::mul_u32`]) when
+/// both magnitudes fit 32 bits — residuals of the rate fit do — instead of
+/// the 128-bit library routine (hundreds of instructions on a Cortex-M0);
+/// the 128-bit product otherwise.
+fn mul_wide(a: i64, b: i64) -> i128 {
+    let (ma, mb) = (a.unsigned_abs(), b.unsigned_abs());
+    if ma <= u64::from(u32::MAX) && mb <= u64::from(u32::MAX) {
+        let p = i128::from(fx::mul_u32(ma as u32, mb as u32));
+        if (a < 0) != (b < 0) { -p } else { p }
+    } else {
+        i128::from(a) * i128::from(b)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn wide_products_are_exact() {
+        let m = i64::from(u32::MAX);
+        let values = [
+            0,
+            1,
+            -1,
+            7,
+            -7,
+            m,
+            -m,
+            m + 1,
+            -(m + 1),
+            1 << 40,
+            -(1 << 40),
+            i64::MAX,
+            i64::MIN + 1,
+        ];
+        for &a in &values {
+            for &b in &values {
+                assert_eq!(mul_wide(a, b), i128::from(a) * i128::from(b), "{a} × {b}");
+            }
+        }
+    }
 
     #[test]
     fn alpha_and_helpers() {

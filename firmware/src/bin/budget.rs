@@ -8,17 +8,31 @@
 //! advances virtual time by exactly 1 ns, and read SysTick (core clock) around
 //! each sample: one tick is 1e9 / f_core instructions (62.5 on `microbit` at
 //! 16 MHz, 40 on `mps2-an386` at 25 MHz). The first line checks the scale on
-//! a loop of known length. A series of 600 samples at 1 Hz (ten 60 s blocks,
-//! so the per-block work — rate, time to empty, uncertainty, settling — is
-//! included in its share) of a 50 L nitrogen cylinder being drawn down from
-//! 150 bar; each figure is the mean per sample less the loop overhead, and
-//! the largest single sample (a block close) is printed beside it.
+//! a loop of known length. A series of samples at 1 Hz of a 50 L nitrogen
+//! cylinder being drawn down from 150 bar: two hours not timed (the tracker
+//! fills its 32-block rate window and its temperature window, so the
+//! figures are those of a tracker in steady state), then one hour timed
+//! (3600 samples: sixty 60 s block closes — rate, time to empty, their
+//! uncertainty, settling — and one hourly leak step, each in its share);
+//! each figure is the mean per sample less the loop overhead, and the
+//! largest single sample (a block close) is printed beside it.
 //!
-//! `isochor budget` runs this; by hand:
+//! Stack: the program paints the free stack before each path
+//! (`isochor_firmware::arm::paint_stack`) and prints beside its figures the
+//! deepest stack its run took below the frame that calls it (`stack_fixed=…`
+//! bytes): the run's own frame (setup, records, the float pipelines
+//! themselves), preparing the pipeline, its samples and the telemetry
+//! frame's values. The fixed pipeline lives in a static, as the firmware's
+//! gauge does. The program's own frames above (the gas model's preparation)
+//! are not counted.
+//!
+//! `isochor budget` runs this; by hand (Cortex-M0 code with the `mps2` memory
+//! map, on QEMU's Cortex-M3 `mps2-an385`):
 //! ```sh
-//! cd firmware && cargo build --release --bin budget
-//! qemu-system-arm -machine microbit -icount shift=0 -nographic \
-//!   -semihosting-config enable=on,target=native -kernel target/thumbv6m-none-eabi/release/budget
+//! cd firmware && ISOCHOR_MEMORY=mps2 cargo build --release --bin budget --target-dir target/m0-on-mps2
+//! qemu-system-arm -machine mps2-an385 -cpu cortex-m3 -icount shift=0 -nographic \
+//!   -semihosting-config enable=on,target=native \
+//!   -kernel target/m0-on-mps2/thumbv6m-none-eabi/release/budget
 //! ```
 #![no_std]
 #![no_main]
@@ -36,6 +50,7 @@ use isochor_core::store::{
 };
 use isochor_core::time::Instant;
 use isochor_core::{Gas, Real, SetupFx, StandardConditionFx, Status, TankFx, fx};
+use isochor_firmware::arm::{paint_stack, stack_usage};
 
 /// Core clock of the emulated board, Hz.
 const CORE_HZ: u64 = if cfg!(any(target_abi = "eabihf", isochor_mps2)) {
@@ -44,8 +59,22 @@ const CORE_HZ: u64 = if cfg!(any(target_abi = "eabihf", isochor_mps2)) {
     16_000_000
 };
 
-/// Samples per run (ten blocks of 60 s at 1 Hz).
-const N: u32 = 600;
+/// Samples before the timed ones (two hours at 1 Hz).
+const WARM_UP: u32 = 7200;
+/// Timed samples per run (one hour at 1 Hz).
+const N: u32 = 3600;
+
+unsafe extern "C" {
+    /// Top of the stack (cortex-m-rt).
+    static _stack_start: u32;
+}
+
+/// Stack taken below the stack pointer `sp` since the last paint, bytes.
+fn stack_below(sp: usize) -> usize {
+    // Only the symbol's address is taken.
+    let top = core::ptr::addr_of!(_stack_start) as usize;
+    (stack_usage().0 as usize).saturating_sub(top.saturating_sub(sp))
+}
 
 fn ticks() -> u32 {
     SYST::get_current()
@@ -98,7 +127,10 @@ fn measure(mut f: impl FnMut(Instant, &RawSample) -> u32) -> (u64, u64) {
     let mut total = 0u64;
     let mut worst = 0u64;
     let mut base = 0u64;
-    for i in 0..N {
+    for i in 0..WARM_UP {
+        black_box(f(Instant(u64::from(i) * 1000), &sample(i)));
+    }
+    for i in WARM_UP..WARM_UP + N {
         let s = black_box(sample(i));
         let at = Instant(u64::from(i) * 1000);
         let a = ticks();
@@ -129,20 +161,27 @@ fn report(name: &str, (mean_x100, worst): (u64, u64)) {
     );
 }
 
+/// The fixed pipeline, in a static as the firmware keeps its gauge (so the
+/// stack measured is that of preparing it and of its samples).
+static mut FIXED: MaybeUninit<fixed::Pipeline<&'static DeviceModel<'static>>> =
+    MaybeUninit::uninit();
+
 #[inline(never)]
-fn run_fixed(model: &DeviceModel<'static>) -> Option<(u64, u64)> {
+fn run_fixed(model: &'static DeviceModel<'static>) -> Option<(u64, u64)> {
     let s = setup();
     let p = PressureCalibration::nominal();
     let t = TemperatureCalibration::nominal();
     let tracking = TrackingSettings::for_tank(&s, p.full_scale());
     let cfg = track_config(&tracking, &AlarmThresholds::for_tank(&s));
-    let mut pipe = match fixed::Pipeline::new(s, model, &p.0, &t.0, cfg, tracking.barometric_pa) {
+    let made = match fixed::Pipeline::new(s, model, &p.0, &t.0, cfg, tracking.barometric_pa) {
         Ok(p) => p,
         Err(e) => {
             hprintln!("fixed pipeline: {:?}", e);
             return None;
         }
     };
+    // SAFETY: the only reference to the static, taken once per run.
+    let pipe = unsafe { (*core::ptr::addr_of_mut!(FIXED)).write(made) };
     let mut seq = 0u32;
     let r = measure(|at, raw| {
         let out = pipe.sample(at, raw);
@@ -211,18 +250,25 @@ fn main() -> ! {
     let model: &'static DeviceModel<'static> =
         unsafe { (*core::ptr::addr_of_mut!(MODEL)).write(m) };
     let mut ok = true;
+    let sp = cortex_m::register::msp::read() as usize;
+    paint_stack();
     match run_fixed(model) {
         Some(r) => report("instructions_fixed", r),
         None => ok = false,
     }
+    hprintln!("stack_fixed={}", stack_below(sp));
+    paint_stack();
     match run_float::<f32>(model) {
         Some(r) => report("instructions_f32", r),
         None => ok = false,
     }
+    hprintln!("stack_f32={}", stack_below(sp));
+    paint_stack();
     match run_float::<f64>(model) {
         Some(r) => report("instructions_f64", r),
         None => ok = false,
     }
+    hprintln!("stack_f64={}", stack_below(sp));
     debug::exit(if ok {
         debug::EXIT_SUCCESS
     } else {

@@ -1,6 +1,7 @@
 //! The `isochor` command line: argument parsing and one module per command.
 //! Commands are thin: they parse, call the library, and print.
 
+mod budget;
 mod content;
 mod demo;
 mod listen;
@@ -44,6 +45,9 @@ pub enum Command {
     Props(props::PropsArgs),
     /// Build or check device gas models (compact tables for the device).
     Model(model::ModelArgs),
+    /// Measure the firmware in QEMU: flash, RAM, stack and instructions per
+    /// estimate against the goals.
+    Budget(budget::BudgetArgs),
 }
 
 /// Output format shared by the commands.
@@ -83,6 +87,7 @@ pub fn run(cli: Cli) -> Result<String, crate::Error> {
         Command::Model(args) => model::run(&args),
         Command::Demo(args) => demo::run(&args),
         Command::Sim(args) => sim::run_cmd(&args),
+        Command::Budget(args) => budget::run(&args),
     }
 }
 

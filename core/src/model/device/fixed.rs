@@ -11,7 +11,7 @@
 //! Bounds are given beside each step; tests run with overflow checks.
 
 use super::{DeviceModel, MAX_SPANS, Table};
-use crate::model::ZPointFx;
+use crate::model::{IsothermFx, ZPointFx};
 use crate::{Error, Status, fx};
 
 /// Raw temperature bits per kelvin.
@@ -351,34 +351,132 @@ fn outputs(
     flags: Status,
 ) -> ZPointFx {
     let e = tab.z_step_exp as i32;
+    ZPointFx {
+        z: fx::Compressibility::from_bits(z_value(m, tab, z_acc)),
+        dz_dp_per_mpa: slope(zp_acc, sp, e),
+        dz_dt_per_k: slope(zt_acc, st, e),
+        flags,
+    }
+}
+
+/// Z in Q30 from the accumulator (coefficient steps·2^16), at least the floor.
+fn z_value(m: &DeviceModel<'_>, tab: &Table<'_>, z_acc: u32) -> u32 {
+    let e = tab.z_step_exp as i32;
     // z_acc is in steps·2^16; Z in Q30 adds z_acc·2^(14 − e).
     let z_rel = if e >= 14 {
         z_acc >> (e - 14)
     } else {
         z_acc << (14 - e)
     };
-    let z = tab.z_offset.saturating_add(z_rel).max(m.z_floor);
-    // Slopes: accumulators in steps·2^11 per unit u; ×du/dunit, Z per step
-    // 2^-e, I8F24 → shift = du_exp − 13 + e.
-    let slope = |acc: i32, s: &Span| {
-        let wide = mul_i32_u16_wide(acc, s.du_mantissa as u32);
-        let shift = s.du_exp as i32 - 13 + e;
-        let v = if shift >= 0 {
-            wide >> shift.min(63)
+    tab.z_offset.saturating_add(z_rel).max(m.z_floor)
+}
+
+/// A slope of Z from its accumulator: steps·2^11 per unit u; ×du/dunit, Z per
+/// step 2^-e, I8F24 → shift = du_exp − 13 + e.
+fn slope(acc: i32, s: &Span, e: i32) -> fx::ZSlope {
+    let wide = mul_i32_u16_wide(acc, s.du_mantissa as u32);
+    let shift = s.du_exp as i32 - 13 + e;
+    let v = if shift >= 0 {
+        wide >> shift.min(63)
+    } else {
+        let n = (-shift).min(62) as u32;
+        if wide.unsigned_abs() >> (62 - n) != 0 {
+            if wide < 0 { i64::MIN } else { i64::MAX }
         } else {
-            let n = (-shift).min(62) as u32;
-            if wide.unsigned_abs() >> (62 - n) != 0 {
-                if wide < 0 { i64::MIN } else { i64::MAX }
-            } else {
-                wide << n
-            }
-        };
-        fx::ZSlope::from_bits(v.clamp(i32::MIN as i64, i32::MAX as i64) as i32)
+            wide << n
+        }
     };
+    fx::ZSlope::from_bits(v.clamp(i32::MIN as i64, i32::MAX as i64) as i32)
+}
+
+/// Prepares the isotherm at raw temperature bits `t`: the temperature
+/// weights contracted into one coefficient per pressure basis function
+/// (exact: Σw = 2^16 and q < 2^16, so each sum is below 2^32), and the
+/// boundary pressures at `t`.
+pub(super) fn isotherm(m: &DeviceModel<'_>, t: u32) -> IsothermFx {
+    let tab: &Table<'_> = &m.table;
+    let tk = tab.temperature_knots;
+    let mut iso = IsothermFx::plain(fx::Temperature::from_bits(t));
+    let (t, out_t) = clamp_axis(
+        t,
+        tk.first().copied().unwrap_or(0),
+        tk.last().copied().unwrap_or(0),
+    );
+    if out_t {
+        iso.flags = Status::MODEL_OUT_OF_RANGE;
+    }
+    let (it, st, ut) = m.t_axis.locate(tk, t);
+    let (wt, _) = st.basis(ut);
+    iso.saturation = u32::MAX;
+    iso.limit = u32::MAX;
+    if let Some(b) = &tab.boundary {
+        if t < b.critical_temperature {
+            iso.saturation = curve(b.saturation_pressure, it, &wt);
+        }
+        iso.limit = curve(b.limit_pressure, it, &wt);
+    }
+    let cols = tab.columns();
+    for j in 0..cols {
+        let mut c = 0u32;
+        for (a, w) in wt.iter().enumerate() {
+            let q = tab.coefs.get((it + a) * cols + j).copied().unwrap_or(0);
+            c += w * q as u32;
+        }
+        if iso.coefs.push(c).is_err() {
+            // More columns than an isotherm holds: leave it unprepared.
+            iso.coefs.clear();
+            break;
+        }
+    }
+    iso
+}
+
+/// Z and ∂Z/∂p on a prepared isotherm at raw pressure bits `p` (∂Z/∂T is
+/// not part of an isotherm: returned as zero). The same steps as
+/// [`evaluate`] along pressure; the contraction along temperature happened
+/// in [`isotherm`].
+pub(super) fn isotherm_z(m: &DeviceModel<'_>, iso: &IsothermFx, p: u32) -> ZPointFx {
+    let tab: &Table<'_> = &m.table;
+    let cols = tab.columns();
+    if iso.coefs.len() != cols {
+        return evaluate(m, p, iso.temperature.to_bits());
+    }
+    let pk = tab.pressure_knots;
+    let mut flags = iso.flags;
+    let mut p = p;
+    let mut out_p = false;
+    if p > iso.saturation {
+        flags |= Status::TWO_PHASE;
+        p = iso.saturation;
+    } else if p > iso.limit {
+        out_p = true;
+        p = iso.limit;
+    }
+    let (p, clamped) = clamp_axis(p, 0, pk.last().copied().unwrap_or(0));
+    if out_p || clamped {
+        flags |= Status::MODEL_OUT_OF_RANGE;
+    }
+    let (ip, sp, up) = m.p_axis.locate(pk, p);
+    let (wp, dwp) = sp.basis(up);
+    let mut z_acc = 0u32;
+    let mut zp_acc = 0i32;
+    if let Some([c0, c1, c2, c3]) = iso.coefs.get(ip..ip + 4) {
+        let c = [*c0, *c1, *c2, *c3];
+        // Σw = 2^16: the sum never exceeds the largest coefficient.
+        z_acc = mul_u32_q16(c[0], wp[0])
+            + mul_u32_q16(c[1], wp[1])
+            + mul_u32_q16(c[2], wp[2])
+            + mul_u32_q16(c[3], wp[3]);
+        // Σdw = 0: Σdw·c = Σdw·(c − c0), in the units of `evaluate` (/4).
+        let d = |x: u32| (x >> 2) as i32 - (c[0] >> 2) as i32;
+        zp_acc = mul_i32_sq16(d(c[1]), dwp[1])
+            + mul_i32_sq16(d(c[2]), dwp[2])
+            + mul_i32_sq16(d(c[3]), dwp[3]);
+    }
     ZPointFx {
-        z: fx::Compressibility::from_bits(z),
-        dz_dp_per_mpa: slope(zp_acc, sp),
-        dz_dt_per_k: slope(zt_acc, st),
+        z: fx::Compressibility::from_bits(z_value(m, tab, z_acc)),
+        dz_dp_per_mpa: slope(zp_acc, sp, tab.z_step_exp as i32),
+        dz_dt_per_k: fx::ZSlope::ZERO,
         flags,
     }
 }

@@ -55,7 +55,7 @@ pub mod float;
 
 pub use blob::{BLOB_MAGIC, BLOB_VERSION, BoundaryBuf, TableBuf};
 
-use super::{Compressibility, CompressibilityFx, ModelRange, ZPoint, ZPointFx};
+use super::{Compressibility, CompressibilityFx, IsothermFx, ModelRange, ZPoint, ZPointFx};
 use crate::{Error, Gas, Real, fx};
 
 /// Most spans per axis (knots − 1). A prepared model keeps 32 bytes per span
@@ -236,6 +236,15 @@ impl CompressibilityFx for DeviceModel<'_> {
     fn z_floor(&self) -> fx::Compressibility {
         fx::Compressibility::from_bits(self.z_floor)
     }
+    fn pressure_knots_fx(&self) -> &[u32] {
+        self.table.pressure_knots
+    }
+    fn isotherm_fx(&self, t: fx::Temperature) -> IsothermFx {
+        fixed::isotherm(self, t.to_bits())
+    }
+    fn isotherm_z_fx(&self, iso: &IsothermFx, p: fx::Pressure) -> ZPointFx {
+        fixed::isotherm_z(self, iso, p.to_bits())
+    }
 }
 
 impl<F: Real> Compressibility<F> for DeviceModel<'_> {
@@ -287,6 +296,43 @@ mod tests {
             assert!(r.flags.contains(Status::MODEL_OUT_OF_RANGE), "{p} {t}");
             assert!(r.z >= m.z_floor());
         }
+    }
+
+    #[test]
+    fn isotherms_answer_as_the_full_evaluation() {
+        // Every built-in table, isotherms inside and outside its range, a
+        // dense pressure sweep past its top: Z within 8 steps of Q30, ∂Z/∂p
+        // within 1e-6 per MPa (plus 1e-4 relative), flags identical.
+        let mut worst = (0u32, 0f64);
+        for g in Gas::ALL {
+            let m = DeviceModel::builtin(g).unwrap();
+            for t_k in [200.0, 233.15, 250.0, 288.15, 300.0, 358.15, 400.0] {
+                let t = fx::Temperature::from_num(t_k);
+                let iso = m.isotherm_fx(t);
+                assert_eq!(iso.coefs.len(), m.table.columns(), "{g}");
+                for i in 0..=2000u32 {
+                    let p = fx::Pressure::from_bits(i * 900_000);
+                    let a = m.z_fx(p, t);
+                    let b = m.isotherm_z_fx(&iso, p);
+                    assert_eq!(a.flags, b.flags, "{g} {t_k} K {p} Pa");
+                    let dz = a.z.to_bits().abs_diff(b.z.to_bits());
+                    let ds = (fx::to_f64(a.dz_dp_per_mpa) - fx::to_f64(b.dz_dp_per_mpa)).abs();
+                    assert!(dz <= 8, "{g} {t_k} K {p} Pa: {} vs {}", a.z, b.z);
+                    let tol = 1e-6 + 1e-4 * fx::to_f64(a.dz_dp_per_mpa).abs();
+                    assert!(
+                        ds <= tol,
+                        "{g} {t_k} K {p} Pa: {} vs {}",
+                        a.dz_dp_per_mpa,
+                        b.dz_dp_per_mpa
+                    );
+                    worst = (worst.0.max(dz), worst.1.max(ds));
+                }
+            }
+        }
+        eprintln!(
+            "isotherm vs full evaluation: Z {} Q30 steps, dZ/dp {:.1e} per MPa",
+            worst.0, worst.1
+        );
     }
 
     #[test]

@@ -1,0 +1,133 @@
+//! `isochor budget` end to end: builds the firmware and the budget program,
+//! runs them in QEMU and checks that every figure of the JSON interface is
+//! present, positive and consistent (no figure is compared with a fixed
+//! value: they are measurements, quoted in README).
+//!
+//! Under the environment variable `CI` a missing `qemu-system-arm` fails the
+//! test; elsewhere the test says so and passes without running.
+
+use serde_json::Value;
+use std::process::{Command, Output};
+
+fn isochor(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_isochor"))
+        .args(args)
+        .output()
+        .expect("run isochor")
+}
+
+fn qemu_or_skip() -> bool {
+    if isochor_sim::firmware::qemu_available() {
+        return true;
+    }
+    assert!(
+        std::env::var_os("CI").is_none(),
+        "qemu-system-arm is missing (CI: a failure, not a skip)"
+    );
+    eprintln!("qemu-system-arm not found: isochor budget not run");
+    false
+}
+
+fn u(v: &Value, key: &str) -> u64 {
+    v[key]
+        .as_u64()
+        .unwrap_or_else(|| panic!("{key} missing or not an integer in {v}"))
+}
+
+fn f(v: &Value, key: &str) -> f64 {
+    v[key]
+        .as_f64()
+        .unwrap_or_else(|| panic!("{key} missing or not a number in {v}"))
+}
+
+#[test]
+fn budget_reports_every_figure_positive_and_consistent() {
+    if !qemu_or_skip() {
+        return;
+    }
+    let out = isochor(&["budget", "--format", "json"]);
+    assert!(
+        out.status.success(),
+        "isochor budget failed: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: Value = serde_json::from_slice(&out.stdout).expect("JSON");
+
+    // Instructions per full estimate on the Cortex-M0: the fixed path is
+    // the cheapest, f64 software float the dearest; a mean never exceeds
+    // the largest single sample.
+    let fixed = f(&v, "instructions_fixed");
+    let f32_ = f(&v, "instructions_f32");
+    let f64_ = f(&v, "instructions_f64");
+    assert!(fixed > 0.0, "{v}");
+    assert!(f64_ > f32_ && f32_ > fixed, "{v}");
+    assert!(u(&v, "instructions_fixed_max") as f64 >= fixed, "{v}");
+    assert!(u(&v, "instructions_f32_max") as f64 >= f32_, "{v}");
+    assert!(u(&v, "instructions_f64_max") as f64 >= f64_, "{v}");
+    assert!(
+        (f(&v, "ratio_f64") - f64_ / fixed).abs() < 1e-9 * f64_,
+        "{v}"
+    );
+    assert!(
+        (f(&v, "ratio_f32") - f32_ / fixed).abs() < 1e-9 * f32_,
+        "{v}"
+    );
+    assert!(u(&v, "stack_bytes_f32") > 0 && u(&v, "stack_bytes_f64") > 0);
+
+    // One entry per firmware build, every size positive.
+    let builds = v["builds"].as_array().expect("builds");
+    let targets: Vec<&str> = builds
+        .iter()
+        .map(|b| b["target"].as_str().unwrap())
+        .collect();
+    assert_eq!(targets, ["thumbv6m-none-eabi", "thumbv7em-none-eabihf"]);
+    assert_eq!(builds[0]["gas"].as_str(), Some("nitrogen"));
+    for b in builds {
+        let flash = u(b, "flash_bytes");
+        let ram = u(b, "static_ram_bytes");
+        let stack = u(b, "stack_bytes");
+        assert!(flash > 0 && ram > 0 && stack > 0, "{b}");
+        assert_eq!(u(b, "ram_bytes"), ram + stack, "{b}");
+        assert!(u(b, "estimate_stack_bytes") > 0, "{b}");
+    }
+
+    // The human table: the goals beside the figures, and the cautions.
+    let out = isochor(&["budget"]);
+    assert!(out.status.success());
+    let text = String::from_utf8_lossy(&out.stdout);
+    for needle in [
+        "≤ 2000",
+        "≥ 20× fixed",
+        "≥ 5× fixed",
+        "32768",
+        "6144",
+        "CAUTION",
+    ] {
+        assert!(text.contains(needle), "{needle} missing in:\n{text}");
+    }
+}
+
+#[test]
+fn a_folder_without_firmware_is_bad_input() {
+    let out = isochor(&["budget", "--firmware", "/nonexistent/isochor-firmware"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("not a firmware folder"));
+}
+
+#[test]
+fn the_budget_programs_lines_are_read() {
+    let text = "scale_check_2=2.00\ninstructions_fixed=8540.40 max=81520\nstack_fixed=16752\n\
+                instructions_f32=218559.33 max=476000\nstack_f32=6404\n\
+                instructions_f64=578383.66 max=1153520\nstack_f64=10060\n";
+    let o = isochor_sim::budget::parse_program_output(text);
+    assert_eq!(o.fixed, Some((8540.40, 81520)));
+    assert_eq!(o.f32, Some((218559.33, 476000)));
+    assert_eq!(o.f64, Some((578383.66, 1153520)));
+    assert_eq!(o.stack, [Some(16752), Some(6404), Some(10060)]);
+    assert_eq!(o.scale_check, Some(2.0));
+    // A line without its maximum is not a figure.
+    assert_eq!(
+        isochor_sim::budget::parse_program_output("instructions_fixed=1.0").fixed,
+        None
+    );
+}
