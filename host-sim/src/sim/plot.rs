@@ -11,6 +11,7 @@ use crate::Error;
 use isochor_core::Status;
 use isochor_core::alarm::AlarmKind;
 use isochor_core::constants::{BAR_PA, ZERO_CELSIUS_K};
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::{CoordTranslate, Shift};
 use plotters::prelude::*;
 use std::path::{Path, PathBuf};
@@ -89,6 +90,53 @@ fn range(vals: impl Iterator<Item = f64>, pad: f64, min_span: f64) -> (f64, f64)
     (mid - span * (0.5 + pad), mid + span * (0.5 + pad))
 }
 
+/// The fonts of every panel.
+struct Fonts {
+    label: FontDesc<'static>,
+    axis: FontDesc<'static>,
+    caption: FontDesc<'static>,
+}
+
+impl Fonts {
+    fn new() -> Self {
+        Fonts {
+            label: (FAMILY, 18).into_font(),
+            axis: (FAMILY, 20).into_font(),
+            caption: (FAMILY, 22).into_font(),
+        }
+    }
+}
+
+/// One panel on the shared time axis (`x`: its end and description), its
+/// mesh drawn.
+fn panel<'a, DB: DrawingBackend>(
+    area: &'a DrawingArea<DB, Shift>,
+    title: &str,
+    y_desc: &str,
+    (x_end, x_desc): (f64, &str),
+    y: std::ops::Range<f64>,
+    fonts: &Fonts,
+) -> Result<ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>, Error>
+where
+    DB::ErrorType: 'static,
+{
+    let mut c = ChartBuilder::on(area)
+        .caption(title, fonts.caption.clone())
+        .margin(12)
+        .x_label_area_size(45)
+        .y_label_area_size(LABEL_AREA)
+        .build_cartesian_2d(0.0..x_end, y)
+        .map_err(out)?;
+    c.configure_mesh()
+        .x_desc(x_desc)
+        .y_desc(y_desc)
+        .label_style(fonts.label.clone())
+        .axis_desc_style(fonts.axis.clone())
+        .draw()
+        .map_err(out)?;
+    Ok(c)
+}
+
 fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, r: &RunResult) -> Result<(), Error>
 where
     DB::ErrorType: 'static,
@@ -106,9 +154,8 @@ where
     let x_end = s.duration_s / unit;
     let x = |t: f64| t / unit;
     let panels = root.split_by_breakpoints([] as [i32; 0], [360, 720, 1030, 1340]);
-    let label = (FAMILY, 18).into_font();
-    let axis = (FAMILY, 20).into_font();
-    let caption = (FAMILY, 22).into_font();
+    let fonts = Fonts::new();
+    let label = fonts.label.clone();
     let line = |c: RGBColor| {
         move |(x, y): (i32, i32)| PathElement::new(vec![(x, y), (x + 24, y)], c.stroke_width(3))
     };
@@ -123,20 +170,14 @@ where
             0.08,
             1.0,
         );
-        let mut c = ChartBuilder::on(&panels[0])
-            .caption("Pressure", caption.clone())
-            .margin(12)
-            .x_label_area_size(45)
-            .y_label_area_size(LABEL_AREA)
-            .build_cartesian_2d(0.0..x_end, lo..hi)
-            .map_err(out)?;
-        c.configure_mesh()
-            .x_desc(xdesc)
-            .y_desc("bar (absolute)")
-            .label_style(label.clone())
-            .axis_desc_style(axis.clone())
-            .draw()
-            .map_err(out)?;
+        let mut c = panel(
+            &panels[0],
+            "Pressure",
+            "bar (absolute)",
+            (x_end, xdesc),
+            lo..hi,
+            &fonts,
+        )?;
         c.draw_series(LineSeries::new(
             pts.iter()
                 .filter_map(|p| p.pressure_read_pa.map(|v| (x(p.t_s), v / BAR_PA))),
@@ -172,20 +213,14 @@ where
             0.08,
             2.0,
         );
-        let mut c = ChartBuilder::on(&panels[1])
-            .caption("Temperature", caption.clone())
-            .margin(12)
-            .x_label_area_size(45)
-            .y_label_area_size(LABEL_AREA)
-            .build_cartesian_2d(0.0..x_end, lo..hi)
-            .map_err(out)?;
-        c.configure_mesh()
-            .x_desc(xdesc)
-            .y_desc("°C")
-            .label_style(label.clone())
-            .axis_desc_style(axis.clone())
-            .draw()
-            .map_err(out)?;
+        let mut c = panel(
+            &panels[1],
+            "Temperature",
+            "°C",
+            (x_end, xdesc),
+            lo..hi,
+            &fonts,
+        )?;
         let series: [Curve; 4] = [
             (
                 "ambient",
@@ -233,20 +268,14 @@ where
             0.08,
             1e-3,
         );
-        let mut c = ChartBuilder::on(&panels[2])
-            .caption("Content", caption.clone())
-            .margin(12)
-            .x_label_area_size(45)
-            .y_label_area_size(LABEL_AREA)
-            .build_cartesian_2d(0.0..x_end, lo.max(0.0)..hi)
-            .map_err(out)?;
-        c.configure_mesh()
-            .x_desc(xdesc)
-            .y_desc("kg")
-            .label_style(label.clone())
-            .axis_desc_style(axis.clone())
-            .draw()
-            .map_err(out)?;
+        let mut c = panel(
+            &panels[2],
+            "Content",
+            "kg",
+            (x_end, xdesc),
+            lo.max(0.0)..hi,
+            &fonts,
+        )?;
         let band = RGBColor(255, 165, 0).mix(0.3);
         for seg in segments(&pts, |p| p.mass_gauge_kg.zip(p.u_mass_kg)) {
             let mut poly: Vec<(f64, f64)> = seg.iter().map(|&(t, (m, u))| (x(t), m + u)).collect();
@@ -305,23 +334,14 @@ where
             0.1,
             0.01,
         );
-        let mut c = ChartBuilder::on(&panels[3])
-            .caption(
-                "Content error: gauge − true, % of the true content (settled, above the 5 % reserve)",
-                caption.clone(),
-            )
-            .margin(12)
-            .x_label_area_size(45)
-            .y_label_area_size(LABEL_AREA)
-            .build_cartesian_2d(0.0..x_end, lo..hi)
-            .map_err(out)?;
-        c.configure_mesh()
-            .x_desc(xdesc)
-            .y_desc("% of content")
-            .label_style(label.clone())
-            .axis_desc_style(axis.clone())
-            .draw()
-            .map_err(out)?;
+        let mut c = panel(
+            &panels[3],
+            "Content error: gauge − true, % of the true content (settled, above the 5 % reserve)",
+            "% of content",
+            (x_end, xdesc),
+            lo..hi,
+            &fonts,
+        )?;
         let band = RGBColor(160, 160, 160).mix(0.35);
         for seg in segments(&pts, rel) {
             let mut poly: Vec<(f64, f64)> = seg.iter().map(|&(t, (_, u))| (x(t), u)).collect();
@@ -360,7 +380,7 @@ where
         let kinds = AlarmKind::ALL;
         let n = kinds.len() as i32;
         let mut c = ChartBuilder::on(&panels[4])
-            .caption("Alarms (active)", caption.clone())
+            .caption("Alarms (active)", fonts.caption.clone())
             .margin(12)
             .x_label_area_size(45)
             .y_label_area_size(LABEL_AREA)
@@ -369,7 +389,7 @@ where
         c.configure_mesh()
             .x_desc(xdesc)
             .label_style(label.clone())
-            .axis_desc_style(axis.clone())
+            .axis_desc_style(fonts.axis.clone())
             .y_labels(kinds.len())
             .y_label_formatter(&|v| match v {
                 SegmentValue::CenterOf(i) | SegmentValue::Exact(i) => kinds
