@@ -26,7 +26,7 @@ use isochor_core::model::{
     Compressibility, CompressibilityFx, DeviceModel, Ideal, ModelRange, ZPoint, ZPointFx,
 };
 use isochor_core::sensor::plausibility::{PlausibilityConfig, PlausibilityState};
-use isochor_core::sensor::{bridge, current_loop, ntc, plausibility, rtd};
+use isochor_core::sensor::{TemperatureReading, bridge, current_loop, ntc, plausibility, rtd};
 use isochor_core::time::Instant;
 use isochor_core::track::fixed::{TrackConfigFx, Tracker as TrackerFx};
 use isochor_core::track::float::{TrackConfig, Tracker};
@@ -202,6 +202,9 @@ pub struct FixedGauge {
     t_state: PlausibilityState<i64>,
     tracker: TrackerFx<GaugeModel>,
     rated_kg: f64,
+    /// The last temperature code and its reading: the conversion is a pure
+    /// function of the code, and a slowly changing temperature repeats it.
+    last_temperature: Option<(u32, TemperatureReading<fx::Temperature>)>,
 }
 
 enum PressureFx {
@@ -248,6 +251,7 @@ impl FixedGauge {
             t_state: PlausibilityState::new(),
             tracker: TrackerFx::new(est, track)?,
             rated_kg,
+            last_temperature: None,
         })
     }
 }
@@ -262,9 +266,16 @@ impl Backend for FixedGauge {
     }
 
     fn sample(&mut self, at: Instant, codes: &Codes) -> Result<Reading, Error> {
-        let t = match &self.temperature {
-            TemperatureFx::Rtd(r) => r.read(codes.temperature),
-            TemperatureFx::Ntc(n) => n.read(codes.temperature),
+        let t = match self.last_temperature {
+            Some((code, reading)) if code == codes.temperature => reading,
+            _ => {
+                let reading = match &self.temperature {
+                    TemperatureFx::Rtd(r) => r.read(codes.temperature),
+                    TemperatureFx::Ntc(n) => n.read(codes.temperature),
+                };
+                self.last_temperature = Some((codes.temperature, reading));
+                reading
+            }
         };
         let p = match (&mut self.pressure, codes.pressure) {
             (PressureFx::Bridge(b, comp), PressureCode::Bridge(code)) => {
