@@ -23,7 +23,8 @@ use crate::reference::ReferenceModel;
 use isochor_core::alarm::Events;
 use isochor_core::content::{fixed as cfixed, float as cfloat};
 use isochor_core::model::{
-    Compressibility, CompressibilityFx, DeviceModel, Ideal, ModelRange, ZPoint, ZPointFx,
+    Compressibility, CompressibilityFx, DeviceModel, Ideal, IsothermFx, ModelRange, ZPoint,
+    ZPointFx,
 };
 use isochor_core::sensor::plausibility::{PlausibilityConfig, PlausibilityState};
 use isochor_core::sensor::{TemperatureReading, bridge, current_loop, ntc, plausibility, rtd};
@@ -130,6 +131,30 @@ impl CompressibilityFx for GaugeModel {
             GaugeModel::Device(m) => m.z_floor(),
             GaugeModel::Ideal(m) => m.z_floor(),
             GaugeModel::Reference(m) => m.z_floor(),
+        }
+    }
+    // The prepared-isotherm seam too, so the estimator runs the same path as
+    // on a device (settled-pressure table at the model's pressure knots, Z at
+    // the reference temperature on the prepared isotherm).
+    fn pressure_knots_fx(&self) -> &[u32] {
+        match self {
+            GaugeModel::Device(m) => m.pressure_knots_fx(),
+            GaugeModel::Ideal(m) => m.pressure_knots_fx(),
+            GaugeModel::Reference(m) => m.pressure_knots_fx(),
+        }
+    }
+    fn isotherm_fx(&self, t: fx::Temperature) -> IsothermFx {
+        match self {
+            GaugeModel::Device(m) => m.isotherm_fx(t),
+            GaugeModel::Ideal(m) => m.isotherm_fx(t),
+            GaugeModel::Reference(m) => m.isotherm_fx(t),
+        }
+    }
+    fn isotherm_z_fx(&self, iso: &IsothermFx, p: fx::Pressure) -> ZPointFx {
+        match self {
+            GaugeModel::Device(m) => m.isotherm_z_fx(iso, p),
+            GaugeModel::Ideal(m) => m.isotherm_z_fx(iso, p),
+            GaugeModel::Reference(m) => m.isotherm_z_fx(iso, p),
         }
     }
 }
