@@ -205,6 +205,8 @@ impl Coef {
     /// returned as a raw value with `out_frac` fraction bits, rounded to
     /// nearest. The flag is true when the result did not fit and was clamped
     /// to `u64::MAX`.
+    // Inlined on hosts (the simulator); device builds keep their own choice.
+    #[cfg_attr(not(target_arch = "arm"), inline(always))]
     pub const fn scale(self, x: u32, x_frac: u32, out_frac: u32) -> (u64, bool) {
         let product = mul_u32(x, self.mantissa);
         shr_round(product, x_frac as i32 + self.shift - out_frac as i32)
@@ -285,6 +287,8 @@ const fn shr64(value: u64, s: u32) -> u64 {
 /// `value >> shift` rounded to nearest for positive shifts, `value << -shift`
 /// for negative ones. The flag is true when a left shift overflowed (the
 /// result is then `u64::MAX`).
+// Inlined on hosts (the simulator); device builds keep their own choice.
+#[cfg_attr(not(target_arch = "arm"), inline(always))]
 pub const fn shr_round(value: u64, shift: i32) -> (u64, bool) {
     if shift > 0 {
         if shift >= 64 {

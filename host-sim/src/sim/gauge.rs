@@ -23,10 +23,11 @@ use crate::reference::ReferenceModel;
 use isochor_core::alarm::Events;
 use isochor_core::content::{fixed as cfixed, float as cfloat};
 use isochor_core::model::{
-    Compressibility, CompressibilityFx, DeviceModel, Ideal, ModelRange, ZPoint, ZPointFx,
+    Compressibility, CompressibilityFx, DeviceModel, Ideal, IsothermFx, ModelRange, ZPoint,
+    ZPointFx,
 };
 use isochor_core::sensor::plausibility::{PlausibilityConfig, PlausibilityState};
-use isochor_core::sensor::{bridge, current_loop, ntc, plausibility, rtd};
+use isochor_core::sensor::{TemperatureReading, bridge, current_loop, ntc, plausibility, rtd};
 use isochor_core::time::Instant;
 use isochor_core::track::fixed::{TrackConfigFx, Tracker as TrackerFx};
 use isochor_core::track::float::{TrackConfig, Tracker};
@@ -132,6 +133,30 @@ impl CompressibilityFx for GaugeModel {
             GaugeModel::Reference(m) => m.z_floor(),
         }
     }
+    // The prepared-isotherm seam too, so the estimator runs the same path as
+    // on a device (settled-pressure table at the model's pressure knots, Z at
+    // the reference temperature on the prepared isotherm).
+    fn pressure_knots_fx(&self) -> &[u32] {
+        match self {
+            GaugeModel::Device(m) => m.pressure_knots_fx(),
+            GaugeModel::Ideal(m) => m.pressure_knots_fx(),
+            GaugeModel::Reference(m) => m.pressure_knots_fx(),
+        }
+    }
+    fn isotherm_fx(&self, t: fx::Temperature) -> IsothermFx {
+        match self {
+            GaugeModel::Device(m) => m.isotherm_fx(t),
+            GaugeModel::Ideal(m) => m.isotherm_fx(t),
+            GaugeModel::Reference(m) => m.isotherm_fx(t),
+        }
+    }
+    fn isotherm_z_fx(&self, iso: &IsothermFx, p: fx::Pressure) -> ZPointFx {
+        match self {
+            GaugeModel::Device(m) => m.isotherm_z_fx(iso, p),
+            GaugeModel::Ideal(m) => m.isotherm_z_fx(iso, p),
+            GaugeModel::Reference(m) => m.isotherm_z_fx(iso, p),
+        }
+    }
 }
 
 impl Compressibility<f64> for GaugeModel {
@@ -202,6 +227,9 @@ pub struct FixedGauge {
     t_state: PlausibilityState<i64>,
     tracker: TrackerFx<GaugeModel>,
     rated_kg: f64,
+    /// The last temperature code and its reading: the conversion is a pure
+    /// function of the code, and a slowly changing temperature repeats it.
+    last_temperature: Option<(u32, TemperatureReading<fx::Temperature>)>,
 }
 
 enum PressureFx {
@@ -248,6 +276,7 @@ impl FixedGauge {
             t_state: PlausibilityState::new(),
             tracker: TrackerFx::new(est, track)?,
             rated_kg,
+            last_temperature: None,
         })
     }
 }
@@ -262,9 +291,16 @@ impl Backend for FixedGauge {
     }
 
     fn sample(&mut self, at: Instant, codes: &Codes) -> Result<Reading, Error> {
-        let t = match &self.temperature {
-            TemperatureFx::Rtd(r) => r.read(codes.temperature),
-            TemperatureFx::Ntc(n) => n.read(codes.temperature),
+        let t = match self.last_temperature {
+            Some((code, reading)) if code == codes.temperature => reading,
+            _ => {
+                let reading = match &self.temperature {
+                    TemperatureFx::Rtd(r) => r.read(codes.temperature),
+                    TemperatureFx::Ntc(n) => n.read(codes.temperature),
+                };
+                self.last_temperature = Some((codes.temperature, reading));
+                reading
+            }
         };
         let p = match (&mut self.pressure, codes.pressure) {
             (PressureFx::Bridge(b, comp), PressureCode::Bridge(code)) => {

@@ -253,6 +253,7 @@ pub fn run_with(
     let mut trace = Vec::new();
     let mut first_mass = None;
     let mut last = Truth::default();
+    let mut trace_in = 0u64;
     for i in 0..=n {
         let ms = i * sc.interval_ms;
         let t = ms as f64 / 1e3;
@@ -261,11 +262,14 @@ pub fn run_with(
         let r = gauge.sample(Instant(ms), &codes)?;
         first_mass.get_or_insert(truth.mass_kg);
         score.add(ms, &truth, &r, &sensors);
-        if i % trace_every == 0 {
+        // i % trace_every == 0, counted down (no division per sample).
+        if trace_in == 0 {
+            trace_in = trace_every;
             let mut tp = point(&truth, &r);
             tp.ambient_temperature_k = sim.ambient_k(t);
             trace.push(tp);
         }
+        trace_in -= 1;
         if let Some(b) = &bar
             && i % 65_536 == 0
         {

@@ -144,6 +144,9 @@ impl Axis {
 
     /// The span holding `x` (clamped to the axis) and its index, with u in
     /// Q16 (0 ≤ u ≤ 2^16).
+    // Inlined into its callers on hosts (the simulator); device builds keep
+    // their own choice (code size and stack).
+    #[cfg_attr(not(target_arch = "arm"), inline(always))]
     fn locate(&self, knots: &[u32], x: u32) -> (usize, &Span, u32) {
         let last = self.spans.len().saturating_sub(1);
         let k = knots
@@ -195,6 +198,9 @@ fn mul16(a: u32, b: u32) -> u32 {
 impl Span {
     /// The four weights (Q16, summing to exactly 2^16) of the basis functions
     /// k−3 … k at position u, and their slopes per unit u (Q13).
+    // Inlined into its callers on hosts (the simulator); device builds keep
+    // their own choice (code size and stack).
+    #[cfg_attr(not(target_arch = "arm"), inline(always))]
     fn basis(&self, u: u32) -> ([u32; 4], [i32; 4]) {
         let v = ONE - u;
         // Degree 2: N(k−2), N(k−1), N(k); each ≤ 2^16, sum = 2^16.
