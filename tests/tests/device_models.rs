@@ -1,13 +1,13 @@
 //! The built-in device gas models against the reference equations of state
-//! (host-sim/data/eos, exported from CoolProp 8.0.0 and tested against it in
-//! host-sim/tests/eos_coolprop.rs), in fixed point and in f64, over the
+//! (host-sim/eos/data, exported from CoolProp 8.0.0 and tested against it in
+//! host-sim/eos/tests/eos_coolprop.rs), in fixed point and in f64, over the
 //! envelope of each table; plus limits and monotonicity (common practice) and
 //! the SAE J2601 rated state of hydrogen.
 
 use isochor_core::content::{fixed, float};
 use isochor_core::model::{Compressibility, CompressibilityFx, DeviceModel, ZPoint};
 use isochor_core::{Gas, Setup, SetupFx, Status, Tank, fx};
-use isochor_sim::eos::Eos;
+use isochor_eos::Eos;
 
 /// Bound asserted per gas on the relative density error (fixed and f64),
 /// from the issue's target; measured values are in README ("isochor model

@@ -241,9 +241,9 @@ fn microbit_runs_the_scenario() {
 /// practice; measured: identical) and the scores agree to the same order.
 #[test]
 fn sim_on_the_firmware_scores_like_the_fixed_core() {
-    use isochor_sim::sim::firmware::FirmwareGauge;
-    use isochor_sim::sim::run::{BackendKind, RunOptions, run, run_with};
-    use isochor_sim::sim::scenario::Scenario;
+    use isochor_sim::firmware_gauge::FirmwareGauge;
+    use isochor_tank::run::{BackendKind, RunOptions, run, run_with};
+    use isochor_tank::scenario::Scenario;
     if !qemu_or_skip() {
         return;
     }

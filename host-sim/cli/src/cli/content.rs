@@ -1,0 +1,174 @@
+//! `isochor content`: one tank, one sample.
+
+use super::{Format, to_json};
+use crate::Error;
+use crate::content::{ContentRequest, ModelChoice, render_text, report};
+use clap::Args;
+use isochor_core::constants::ZERO_CELSIUS_K;
+use isochor_core::{Gas, StandardCondition, Tank};
+use isochor_eos::units;
+
+/// Arguments of `isochor content`.
+#[derive(Debug, Args)]
+pub struct ContentArgs {
+    /// Gas name or formula (nitrogen, oxygen, argon, helium, hydrogen, methane,
+    /// air, carbon_dioxide, neon, krypton, xenon, ethane, propane).
+    #[arg(long)]
+    pub gas: String,
+    /// Water capacity of the tank, with unit (L, mL, m3).
+    #[arg(long, allow_hyphen_values = true)]
+    pub capacity: String,
+    /// Measured pressure, with unit (Pa, kPa, MPa, bar, mbar, psi); absolute
+    /// unless --gauge.
+    #[arg(long, allow_hyphen_values = true)]
+    pub pressure: String,
+    /// Gas temperature, with unit (K, C, F).
+    #[arg(long, allow_hyphen_values = true)]
+    pub temperature: String,
+    /// Rated (service) pressure of the tank, with unit; absolute unless --gauge.
+    #[arg(long, allow_hyphen_values = true)]
+    pub rated_pressure: String,
+    /// Temperature the rated pressure refers to.
+    #[arg(long, default_value = "15C", allow_hyphen_values = true)]
+    pub rated_temperature: String,
+    /// Pressures are gauge readings (barometric pressure is added).
+    #[arg(long)]
+    pub gauge: bool,
+    /// Barometric pressure added to gauge readings.
+    #[arg(long, default_value = "101.325kPa", allow_hyphen_values = true)]
+    pub barometric: String,
+    /// Temperature the settled pressure refers to.
+    #[arg(long, default_value = "15C", allow_hyphen_values = true)]
+    pub reference_temperature: String,
+    /// Standard condition for standard volume: iso13443 (15 °C, 101.325 kPa),
+    /// normal (0 °C, 101.325 kPa), ntp (20 °C, 101.325 kPa), 60f (60 °F,
+    /// 14.696 psia), or TEMPERATURE,PRESSURE such as 25C,100kPa.
+    #[arg(long, default_value = "iso13443", allow_hyphen_values = true)]
+    pub standard: String,
+    /// Gas model: device (the built-in table a device runs), reference (the
+    /// reference equation of state) or ideal.
+    #[arg(long, value_enum, default_value_t = ModelChoice::Device)]
+    pub model: ModelChoice,
+    /// Elastic volume expansion of the vessel per bar of pressure (e.g. 1.2e-5).
+    #[arg(long, default_value = "0", allow_hyphen_values = true)]
+    pub elastic_expansion_per_bar: String,
+    /// Volumetric thermal expansion of the vessel per kelvin (e.g. 3.6e-5).
+    #[arg(long, default_value = "0", allow_hyphen_values = true)]
+    pub thermal_expansion_per_k: String,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Text)]
+    pub format: Format,
+}
+
+/// Parses `--standard`.
+pub fn parse_standard(s: &str) -> Result<(String, StandardCondition), Error> {
+    if let Some((name, cond)) = StandardCondition::named()
+        .into_iter()
+        .find(|(name, _)| name.eq_ignore_ascii_case(s.trim()))
+    {
+        return Ok((name.to_string(), cond));
+    }
+    let Some((t, p)) = s.split_once(',') else {
+        return Err(Error::Quantity {
+            what: "--standard",
+            input: s.to_string(),
+            reason: "use iso13443, normal, ntp, 60f, or TEMPERATURE,PRESSURE (e.g. 25C,100kPa)"
+                .to_string(),
+        });
+    };
+    Ok((
+        "custom".to_string(),
+        StandardCondition {
+            temperature_k: units::temperature_k(t, "--standard temperature")?,
+            pressure_pa: units::pressure_pa(p, "--standard pressure")?,
+        },
+    ))
+}
+
+/// Parses `--gas`.
+pub fn parse_gas(name: &str) -> Result<Gas, Error> {
+    Gas::from_name(name).map_err(|_| Error::Quantity {
+        what: "--gas",
+        input: name.to_string(),
+        reason: format!(
+            "unknown gas (known: {})",
+            Gas::ALL
+                .iter()
+                .map(|g| g.name())
+                .collect::<Vec<_>>()
+                .join(", ")
+        ),
+    })
+}
+
+/// Turns the arguments into a request (all validation of units and signs).
+pub fn request(a: &ContentArgs) -> Result<ContentRequest, Error> {
+    let gas = parse_gas(&a.gas)?;
+    let barometric = if a.gauge {
+        let b = units::pressure_pa(&a.barometric, "--barometric")?;
+        if !(50e3..=110e3).contains(&b) {
+            return Err(Error::Invalid(format!(
+                "--barometric {}: outside 50-110 kPa, not a barometric pressure",
+                a.barometric
+            )));
+        }
+        b
+    } else {
+        0.0
+    };
+    let pressure = units::pressure_pa(&a.pressure, "--pressure")? + barometric;
+    if pressure < 0.0 {
+        return Err(Error::Invalid(format!(
+            "--pressure {}: absolute pressure would be negative ({})",
+            a.pressure,
+            units::fmt_bar(pressure)
+        )));
+    }
+    let rated = units::pressure_pa(&a.rated_pressure, "--rated-pressure")? + barometric;
+    let tank = Tank {
+        water_capacity_m3: units::volume_m3(&a.capacity, "--capacity")?,
+        rated_pressure_pa: rated,
+        rated_temperature_k: units::temperature_k(&a.rated_temperature, "--rated-temperature")?,
+        elastic_expansion_per_mpa: units::number(
+            &a.elastic_expansion_per_bar,
+            "--elastic-expansion-per-bar",
+        )? * 10.0,
+        thermal_expansion_per_k: units::number(
+            &a.thermal_expansion_per_k,
+            "--thermal-expansion-per-k",
+        )?,
+    };
+    tank.validate()
+        .map_err(|e| Error::Invalid(format!("tank: {e}")))?;
+    let standard = parse_standard(&a.standard)?;
+    standard
+        .1
+        .validate()
+        .map_err(|e| Error::Invalid(format!("--standard {}: {e}", a.standard)))?;
+    let settled_reference_k =
+        units::temperature_k(&a.reference_temperature, "--reference-temperature")?;
+    if !(ZERO_CELSIUS_K - 60.0..=ZERO_CELSIUS_K + 150.0).contains(&settled_reference_k) {
+        return Err(Error::Invalid(format!(
+            "--reference-temperature {}: outside -60...150 C",
+            a.reference_temperature
+        )));
+    }
+    Ok(ContentRequest {
+        gas,
+        model: a.model,
+        tank,
+        pressure_pa: pressure,
+        temperature_k: units::temperature_k(&a.temperature, "--temperature")?,
+        standard,
+        settled_reference_k,
+    })
+}
+
+/// Runs the command.
+pub fn run(a: &ContentArgs) -> Result<String, Error> {
+    let r = report(&request(a)?)?;
+    match a.format {
+        Format::Json => to_json(&r),
+        Format::Text => Ok(render_text(&r)),
+    }
+}

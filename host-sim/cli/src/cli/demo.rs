@@ -1,0 +1,41 @@
+//! `isochor demo`: the built-in workshop scenario (a 50 L nitrogen cylinder
+//! over a week, a valve leak from day four) on defaults: the summary and
+//! where the plots are.
+
+use super::Format;
+use super::sim::{execute, render};
+use crate::Error;
+use clap::Args;
+use isochor_tank::run::BackendKind;
+use isochor_tank::scenario::Scenario;
+use std::path::PathBuf;
+
+/// Arguments of `isochor demo`.
+#[derive(Debug, Args)]
+pub struct DemoArgs {
+    /// Folder for the summary JSON, time series and plots.
+    #[arg(long, default_value = "isochor-out")]
+    pub out: PathBuf,
+    /// Output format of the summary.
+    #[arg(long, value_enum, default_value_t = Format::Text)]
+    pub format: Format,
+}
+
+/// Runs `isochor demo`.
+pub fn run(a: &DemoArgs) -> Result<String, Error> {
+    let sc = Scenario::builtin("workshop-leak")?;
+    let done = execute(
+        vec![sc],
+        BackendKind::Fixed,
+        60.0,
+        Some(&a.out),
+        true,
+        a.format == Format::Text,
+    )?;
+    let mut s = render(&done, a.format)?;
+    if a.format == Format::Text {
+        s += "\nOpen the PNG above to see pressure, temperatures, content with its uncertainty \
+band, the content error and the alarms. More: `isochor sim --list`.\n";
+    }
+    Ok(s)
+}

@@ -1,0 +1,470 @@
+//! The reference firmware in QEMU: building it, provisioning it, starting
+//! the emulator with its serial port on a TCP socket, and reading its
+//! images' sizes.
+//!
+//! The emulator runs under a deadline: [`Qemu`] kills it when dropped or when
+//! the deadline passes. Nothing here needs the firmware's source except
+//! [`build`], which runs `cargo` in the firmware folder.
+
+use std::io::Write as _;
+use std::net::{TcpListener, TcpStream};
+use std::path::{Path, PathBuf};
+use std::process::{Child, Command, Stdio};
+use std::sync::{Arc, Mutex};
+use std::time::{Duration, Instant};
+
+use isochor_core::auth::{Provisioning, Secret};
+
+use crate::Error;
+
+/// A board the firmware runs on in QEMU.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Board {
+    /// QEMU `microbit`: nRF51822, Cortex-M0.
+    Microbit,
+    /// QEMU `mps2-an386`: Cortex-M4F.
+    Mps2An386,
+}
+
+impl Board {
+    /// Both boards.
+    pub const ALL: [Board; 2] = [Board::Microbit, Board::Mps2An386];
+
+    /// The board's name (its QEMU machine).
+    pub fn name(self) -> &'static str {
+        match self {
+            Board::Microbit => "microbit",
+            Board::Mps2An386 => "mps2-an386",
+        }
+    }
+
+    /// The board of a name ([`Board::name`]).
+    pub fn from_name(name: &str) -> Result<Board, Error> {
+        Board::ALL
+            .into_iter()
+            .find(|b| b.name() == name)
+            .ok_or_else(|| {
+                Error::Invalid(format!(
+                    "unknown board {name:?}: one of {}",
+                    Board::ALL.map(Board::name).join(", ")
+                ))
+            })
+    }
+
+    /// The Rust target of the board.
+    pub fn target(self) -> &'static str {
+        match self {
+            Board::Microbit => "thumbv6m-none-eabi",
+            Board::Mps2An386 => "thumbv7em-none-eabihf",
+        }
+    }
+
+    /// Where QEMU loads the provisioning block.
+    pub fn provisioning_address(self) -> u32 {
+        match self {
+            Board::Microbit => 0x0003_FC00,
+            Board::Mps2An386 => 0x21FF_FC00,
+        }
+    }
+}
+
+/// The firmware folder of this source tree.
+pub fn default_firmware_dir() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("../../firmware")
+}
+
+/// One firmware build: board, features and the gas of a single-gas build.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct Build {
+    /// Name in reports.
+    pub name: String,
+    /// The board.
+    pub board: Board,
+    /// `--no-default-features` (no gas-model loading).
+    pub no_default_features: bool,
+    /// `ISOCHOR_GAS` (single built-in gas), if any.
+    pub only_gas: Option<String>,
+}
+
+impl Build {
+    /// The default build of a board (every built-in gas, gas-model loading).
+    pub fn standard(board: Board) -> Build {
+        Build {
+            name: board.name().into(),
+            board,
+            no_default_features: false,
+            only_gas: None,
+        }
+    }
+
+    /// The Cortex-M0 build with one built-in gas and no gas-model loading.
+    pub fn one_gas(board: Board, gas: &str) -> Build {
+        Build {
+            name: format!("{}-{}", board.name(), gas.replace(' ', "-")),
+            board,
+            no_default_features: true,
+            only_gas: Some(gas.into()),
+        }
+    }
+
+    /// The target folder of this build (single-gas builds get their own, so
+    /// the builds do not rebuild each other).
+    pub fn target_dir(&self, firmware: &Path) -> PathBuf {
+        match &self.only_gas {
+            None => firmware.join("target"),
+            Some(_) => firmware.join("target").join(&self.name),
+        }
+    }
+
+    /// Path of a binary of this build.
+    pub fn elf(&self, firmware: &Path, bin: &str) -> PathBuf {
+        self.target_dir(firmware)
+            .join(self.board.target())
+            .join("release")
+            .join(bin)
+    }
+}
+
+/// Runs a command to completion; its output is returned on success.
+fn run_checked(mut cmd: Command, what: &str) -> Result<String, Error> {
+    let out = cmd
+        .output()
+        .map_err(|e| Error::Link(format!("{what}: {e}")))?;
+    if !out.status.success() {
+        return Err(Error::Link(format!(
+            "{what} failed: {}\n{}",
+            out.status,
+            String::from_utf8_lossy(&out.stderr)
+        )));
+    }
+    Ok(String::from_utf8_lossy(&out.stdout).into_owned())
+}
+
+/// Builds binaries of `build` (release) in `firmware`; returns the path of
+/// the first.
+pub fn build(firmware: &Path, b: &Build, bins: &[&str]) -> Result<PathBuf, Error> {
+    let mut cmd = Command::new(std::env::var("CARGO").unwrap_or_else(|_| "cargo".into()));
+    cmd.current_dir(firmware)
+        .args(["build", "--release", "--target", b.board.target()])
+        .arg("--target-dir")
+        .arg(b.target_dir(firmware))
+        .env_remove("RUSTFLAGS")
+        .env_remove("CARGO_ENCODED_RUSTFLAGS")
+        .env_remove("CARGO_TARGET_DIR")
+        .env_remove("ISOCHOR_MEMORY");
+    for bin in bins {
+        cmd.args(["--bin", bin]);
+    }
+    if b.no_default_features {
+        cmd.arg("--no-default-features");
+    }
+    match &b.only_gas {
+        Some(g) => cmd.env("ISOCHOR_GAS", g),
+        None => cmd.env_remove("ISOCHOR_GAS"),
+    };
+    run_checked(cmd, &format!("building the firmware ({})", b.name))?;
+    Ok(b.elf(
+        firmware,
+        bins.first().copied().unwrap_or("isochor-firmware"),
+    ))
+}
+
+/// True when `qemu-system-arm` can be started.
+pub fn qemu_available() -> bool {
+    Command::new("qemu-system-arm")
+        .arg("--version")
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .status()
+        .is_ok_and(|s| s.success())
+}
+
+/// A running emulator; killed when dropped.
+pub struct Qemu {
+    child: Arc<Mutex<Child>>,
+    /// The serial port, connected.
+    pub serial: TcpStream,
+    deadline: Instant,
+    messages: Arc<Mutex<String>>,
+    _provisioning: Option<tempfile_path::TempPath>,
+}
+
+mod tempfile_path {
+    /// A file removed when dropped.
+    pub struct TempPath(pub std::path::PathBuf);
+    impl Drop for TempPath {
+        fn drop(&mut self) {
+            let _ = std::fs::remove_file(&self.0);
+        }
+    }
+}
+
+impl Qemu {
+    /// Starts `elf` on `board` with its UART on a loopback TCP socket
+    /// (QEMU waits for the connection, so no byte is lost), provisioned with
+    /// `serial` and `secret` (`None`: not provisioned), and connects. The
+    /// emulator is killed after `limit`.
+    pub fn start(
+        board: Board,
+        elf: &Path,
+        provisioning: Option<(u64, &Secret)>,
+        limit: Duration,
+    ) -> Result<Qemu, Error> {
+        // The free port found below may be taken by another program before
+        // QEMU binds it: then QEMU exits at once and a new port is tried.
+        let mut last = None;
+        for _ in 0..4 {
+            match Qemu::start_once(board, elf, provisioning, limit) {
+                Ok(q) => return Ok(q),
+                Err(Started::PortTaken(e)) => last = Some(e),
+                Err(Started::Failed(e)) => return Err(e),
+            }
+        }
+        Err(last.unwrap_or_else(|| Error::Link("qemu did not start".into())))
+    }
+
+    fn start_once(
+        board: Board,
+        elf: &Path,
+        provisioning: Option<(u64, &Secret)>,
+        limit: Duration,
+    ) -> Result<Qemu, Started> {
+        // A free port: bind, note it, release (QEMU binds it next).
+        let port = TcpListener::bind("127.0.0.1:0")
+            .and_then(|l| l.local_addr())
+            .map_err(|e| Error::Link(format!("no free port: {e}")))?
+            .port();
+        let mut cmd = Command::new("qemu-system-arm");
+        cmd.args(["-machine", board.name(), "-nographic", "-monitor", "none"])
+            .args([
+                "-serial",
+                &format!("tcp:127.0.0.1:{port},server=on,wait=on,nodelay=on"),
+            ])
+            .arg("-kernel")
+            .arg(elf)
+            .stdin(Stdio::null())
+            .stdout(Stdio::null())
+            .stderr(Stdio::piped());
+        let file = match provisioning {
+            Some((serial, secret)) => {
+                let path = std::env::temp_dir().join(format!(
+                    "isochor-provisioning-{}-{port}.bin",
+                    std::process::id()
+                ));
+                let block = Provisioning {
+                    serial,
+                    secret: secret.clone(),
+                }
+                .to_bytes();
+                std::fs::File::create(&path)
+                    .and_then(|mut f| f.write_all(&block))
+                    .map_err(|e| Error::Link(format!("provisioning file: {e}")))?;
+                cmd.arg("-device").arg(format!(
+                    "loader,file={},addr={:#x},force-raw=on",
+                    path.display(),
+                    board.provisioning_address()
+                ));
+                Some(tempfile_path::TempPath(path))
+            }
+            None => None,
+        };
+        let mut child = cmd
+            .spawn()
+            .map_err(|e| Error::Link(format!("qemu-system-arm: {e}")))?;
+        // QEMU's diagnostics are drained all along (a full pipe would stop
+        // the emulator) and kept for the error message.
+        let messages = Arc::new(Mutex::new(String::new()));
+        if let Some(mut stderr) = child.stderr.take() {
+            let sink = Arc::clone(&messages);
+            std::thread::spawn(move || {
+                use std::io::Read;
+                let mut chunk = [0u8; 512];
+                while let Ok(n) = stderr.read(&mut chunk) {
+                    if n == 0 {
+                        break;
+                    }
+                    if let Ok(mut m) = sink.lock() {
+                        m.push_str(&String::from_utf8_lossy(chunk.get(..n).unwrap_or(&[])));
+                    }
+                }
+            });
+        }
+        let start = Instant::now();
+        let serial = loop {
+            match TcpStream::connect(("127.0.0.1", port)) {
+                Ok(s) => break s,
+                Err(e) => {
+                    if let Ok(Some(status)) = child.try_wait() {
+                        // Give the reader the last lines.
+                        std::thread::sleep(Duration::from_millis(50));
+                        let err = messages.lock().map(|m| m.clone()).unwrap_or_default();
+                        let e = Error::Link(format!("qemu exited ({status}): {err}"));
+                        return Err(if err.contains("in use") {
+                            Started::PortTaken(e)
+                        } else {
+                            Started::Failed(e)
+                        });
+                    }
+                    if start.elapsed() > Duration::from_secs(20) {
+                        let _ = child.kill();
+                        let _ = child.wait();
+                        return Err(Started::Failed(Error::Link(format!(
+                            "qemu serial port: {e}"
+                        ))));
+                    }
+                    std::thread::sleep(Duration::from_millis(20));
+                }
+            }
+        };
+        let _ = serial.set_nodelay(true);
+        // The run's limit: the emulator is killed when it passes (the
+        // client's reads then end with a closed link instead of hanging).
+        let child = Arc::new(Mutex::new(child));
+        let deadline = start + limit;
+        {
+            let child = Arc::clone(&child);
+            std::thread::spawn(move || {
+                loop {
+                    std::thread::sleep(Duration::from_millis(100));
+                    let Ok(mut c) = child.lock() else { return };
+                    if !matches!(c.try_wait(), Ok(None)) {
+                        return;
+                    }
+                    if Instant::now() > deadline {
+                        let _ = c.kill();
+                        let _ = c.wait();
+                        return;
+                    }
+                }
+            });
+        }
+        Ok(Qemu {
+            child,
+            serial,
+            deadline,
+            messages,
+            _provisioning: file,
+        })
+    }
+
+    /// What the emulator wrote on its standard error so far.
+    pub fn messages(&self) -> String {
+        self.messages.lock().map(|m| m.clone()).unwrap_or_default()
+    }
+
+    /// True once the run's time is up.
+    pub fn expired(&self) -> bool {
+        Instant::now() > self.deadline
+    }
+
+    /// A second handle on the serial connection (for a client).
+    pub fn connection(&self) -> Result<crate::link::transport::Tcp, Error> {
+        self.serial
+            .try_clone()
+            .map(crate::link::transport::Tcp::from_stream)
+            .map_err(|e| Error::Link(format!("serial connection: {e}")))
+    }
+}
+
+impl Drop for Qemu {
+    fn drop(&mut self) {
+        if let Ok(mut c) = self.child.lock() {
+            let _ = c.kill();
+            let _ = c.wait();
+        }
+    }
+}
+
+/// Why one start of the emulator failed.
+enum Started {
+    /// Another program took the port first: try another.
+    PortTaken(Error),
+    /// Anything else.
+    Failed(Error),
+}
+
+impl From<Error> for Started {
+    fn from(e: Error) -> Started {
+        Started::Failed(e)
+    }
+}
+
+/// Sizes of an image, from its ELF section headers: what goes into flash
+/// (vector table, code, read-only data, the initial values of `.data`) and
+/// what takes RAM statically (`.data`, `.bss`, `.uninit`).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, serde::Serialize)]
+pub struct ImageSize {
+    /// Bytes of flash.
+    pub flash_bytes: u64,
+    /// Bytes of RAM taken by statics.
+    pub static_ram_bytes: u64,
+}
+
+/// Reads the sizes of a 32-bit little-endian ELF image.
+pub fn image_size(elf: &Path) -> Result<ImageSize, Error> {
+    let b = std::fs::read(elf).map_err(|e| Error::File {
+        path: elf.display().to_string(),
+        reason: e.to_string(),
+    })?;
+    let bad = || Error::File {
+        path: elf.display().to_string(),
+        reason: "not a 32-bit little-endian ELF image".into(),
+    };
+    if b.get(..6) != Some(&[0x7F, b'E', b'L', b'F', 1, 1][..]) {
+        return Err(bad());
+    }
+    let u16_at = |o: usize| -> Result<u64, Error> {
+        Ok(u16::from_le_bytes(
+            b.get(o..o + 2)
+                .ok_or_else(bad)?
+                .try_into()
+                .map_err(|_| bad())?,
+        )
+        .into())
+    };
+    let u32_at = |o: usize| -> Result<u64, Error> {
+        Ok(u32::from_le_bytes(
+            b.get(o..o + 4)
+                .ok_or_else(bad)?
+                .try_into()
+                .map_err(|_| bad())?,
+        )
+        .into())
+    };
+    let shoff = u32_at(0x20)? as usize;
+    let shentsize = u16_at(0x2E)? as usize;
+    let shnum = u16_at(0x30)? as usize;
+    let shstrndx = u16_at(0x32)? as usize;
+    let sec = |i: usize| shoff + i * shentsize;
+    let strtab = u32_at(sec(shstrndx) + 0x10)? as usize;
+    let mut size = ImageSize::default();
+    for i in 0..shnum {
+        let h = sec(i);
+        let name_off = u32_at(h)? as usize;
+        let name: String = b
+            .get(strtab + name_off..)
+            .ok_or_else(bad)?
+            .iter()
+            .take_while(|&&c| c != 0)
+            .map(|&c| c as char)
+            .collect();
+        let kind = u32_at(h + 4)?;
+        let flags = u32_at(h + 8)?;
+        let sz = u32_at(h + 0x14)?;
+        const ALLOC: u64 = 2;
+        const NOBITS: u64 = 8;
+        if flags & ALLOC == 0 || sz == 0 {
+            continue;
+        }
+        match name.as_str() {
+            ".data" => {
+                size.flash_bytes += sz;
+                size.static_ram_bytes += sz;
+            }
+            ".bss" | ".uninit" => size.static_ram_bytes += sz,
+            _ if kind != NOBITS => size.flash_bytes += sz,
+            _ => size.static_ram_bytes += sz,
+        }
+    }
+    Ok(size)
+}

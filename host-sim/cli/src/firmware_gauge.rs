@@ -1,0 +1,326 @@
+//! The gauge under test as emulated firmware: the reference firmware built
+//! for a board, started in QEMU ([`crate::firmware::Qemu`]), configured over
+//! its serial link with signed record writes, and fed the simulator's raw
+//! codes as sample-injection messages. Its telemetry and alarm frames
+//! become the same [`Reading`]s the in-process backends give, so a run is
+//! scored the same way.
+//!
+//! Each sample is one injection followed at once by a ping (no wait in
+//! between): the firmware answers in order, so once the pong is in, the
+//! sample's telemetry and alarm frames are in too.
+//!
+//! What the firmware does not carry over the link is absent from its
+//! readings: the leak detector's loss per day (the `leak` alarm and status
+//! flag are there), and the plausibility checks the in-process backends
+//! add (range, rate, stuck: the firmware's pipeline has the front-ends'
+//! own fault detection only). Pressure and temperature are the tracker's
+//! smoothed values telemetry carries, times to empty whole seconds.
+
+use std::time::Duration;
+
+use isochor_core::alarm::{AlarmKind, AlarmSet, Events};
+use isochor_core::app::RawSample;
+use isochor_core::auth::Secret;
+use isochor_core::link::{
+    AlarmTransition, InjectSample, Message, Outcome, Ping, RawCode, SensorChannel, Telemetry,
+};
+use isochor_core::sensor::calibration::{CalibrationRecord, Channel, Correction, SensorConfig};
+use isochor_core::store::{PressureCalibration, TemperatureCalibration, split_track_config};
+use isochor_core::time::Instant;
+use isochor_core::track::fixed::TrackConfigFx;
+use isochor_core::{SetupFx, Status, fx};
+
+use crate::Error;
+use crate::firmware::{self, Board, Build, Qemu};
+use crate::link::transport::Tcp;
+use crate::link::{Client, Link, LinkEvent};
+use isochor_tank::gauge::{Backend, GaugeConfig, ModelKind, Reading};
+use isochor_tank::sensors::{Codes, PressureCode, PressureFrontEnd, TemperatureFrontEnd};
+
+/// Serial number the emulated gauge is provisioned with.
+const SERIAL: u64 = 20_261_202;
+/// Longest wait for one answer of the firmware.
+const TIMEOUT: Duration = Duration::from_secs(10);
+
+/// Emulated firmware on a board in QEMU.
+pub struct FirmwareGauge {
+    board: Board,
+    link: Link<Tcp>,
+    rated_kg: f64,
+    next_tag: u16,
+    pressure_bits: u8,
+    _qemu: Qemu,
+}
+
+/// The firmware build that runs `config` on `board`: the Cortex-M0 board
+/// gets the single-gas build of the scenario's gas (what fits its RAM), the
+/// Cortex-M4F board the build with every built-in gas.
+pub fn build_for(board: Board, config: &GaugeConfig) -> Build {
+    match board {
+        Board::Microbit => Build::one_gas(board, config.setup.gas.name()),
+        Board::Mps2An386 => Build::standard(board),
+    }
+}
+
+impl FirmwareGauge {
+    /// Builds the firmware for `board` (from this source tree), starts it in
+    /// QEMU, provisions and configures it for `config`. The emulator is
+    /// killed after `limit` (and when the gauge is dropped).
+    pub fn start(board: Board, config: &GaugeConfig, limit: Duration) -> Result<Self, Error> {
+        if config.model != ModelKind::Device {
+            return Err(Error::Invalid(
+                "--firmware runs the firmware's built-in device models only \
+                 (model = \"device\" in the scenario's [gauge])"
+                    .into(),
+            ));
+        }
+        if !firmware::qemu_available() {
+            return Err(Error::Invalid(
+                "--firmware needs qemu-system-arm (Debian package qemu-system-arm)".into(),
+            ));
+        }
+        let dir = firmware::default_firmware_dir();
+        let elf = firmware::build(&dir, &build_for(board, config), &["isochor-firmware"])?;
+        Self::start_elf(board, &elf, config, limit)
+    }
+
+    /// As [`FirmwareGauge::start`] with an image already built.
+    pub fn start_elf(
+        board: Board,
+        elf: &std::path::Path,
+        config: &GaugeConfig,
+        limit: Duration,
+    ) -> Result<Self, Error> {
+        let setup = SetupFx::from_f64(&config.setup)?;
+        let track = TrackConfigFx::from_f64(&config.track)?;
+        let baro: fx::Pressure = fx::from_f64(config.barometric_pa, "barometric pressure")?;
+        let (tracking, alarms) = split_track_config(&track, baro);
+        let (p_sensor, pressure_bits) = match config.pressure {
+            PressureFrontEnd::Bridge(b) => (SensorConfig::Bridge(b), b.adc_bits),
+            PressureFrontEnd::Loop(l) => (SensorConfig::Loop(l), 32),
+        };
+        let t_sensor = match config.temperature {
+            TemperatureFrontEnd::Rtd(r) => SensorConfig::Rtd(r),
+            TemperatureFrontEnd::Ntc(n) => SensorConfig::Ntc(n),
+        };
+        let record = |channel, sensor| CalibrationRecord {
+            sequence: 1,
+            channel,
+            sensor,
+            correction: Correction::IDENTITY,
+        };
+        let p_cal = PressureCalibration(record(Channel::Pressure, p_sensor));
+        let t_cal = TemperatureCalibration(record(Channel::Temperature, t_sensor));
+
+        let mut key = [0u8; 32];
+        getrandom::fill(&mut key).map_err(|e| Error::Link(format!("random secret: {e}")))?;
+        let secret = Secret::new(key);
+        let qemu = Qemu::start(board, elf, Some((SERIAL, &secret)), limit)?;
+        let mut c = Client::new(qemu.connection()?, Duration::from_secs(5)).with_secret(secret);
+        // The emulator starts the board when the link connects.
+        if !(0..6).any(|i| c.ping(i).is_ok()) {
+            return Err(Error::Link(format!(
+                "the firmware on {} does not answer: {}",
+                board.name(),
+                qemu.messages()
+            )));
+        }
+        c.write_record(&setup)?;
+        // Another gas than the stored one restarts the firmware.
+        std::thread::sleep(Duration::from_millis(300));
+        c.write_record(&p_cal)?;
+        c.write_record(&t_cal)?;
+        c.write_record(&tracking)?;
+        c.write_record(&alarms)?;
+        let rated_kg = fx::to_f64(
+            isochor_core::content::fixed::Estimator::new(
+                setup,
+                isochor_core::model::DeviceModel::builtin(config.setup.gas)?,
+            )?
+            .rated_mass_kg(),
+        );
+        drop(c);
+        Ok(FirmwareGauge {
+            board,
+            link: Link::new(qemu.connection()?),
+            rated_kg,
+            next_tag: 0x4000,
+            pressure_bits,
+            _qemu: qemu,
+        })
+    }
+
+    fn tag(&mut self) -> u16 {
+        self.next_tag = self.next_tag.wrapping_add(1).max(1);
+        self.next_tag
+    }
+}
+
+/// The reading of one telemetry frame and the sample's alarm changes.
+fn reading(t: &Telemetry, events: Events) -> Reading {
+    let status = Status::from_bits(t.status);
+    let content = !status.intersects(Status::CONTENT_INVALID)
+        && (t.mass_kg != 0 || t.fill_fraction != 0 || t.density_kg_m3 != 0);
+    let valid = !status.intersects(isochor_core::sensor::VALUE_INVALID);
+    let mass = |bits: u64| fx::to_f64(fx::Mass::from_bits(bits));
+    let fraction = |bits: u64| fx::to_f64(fx::Fraction::from_bits(bits));
+    let rate = |bits: i64| fx::to_f64(fx::MassRate::from_bits(bits));
+    Reading {
+        pressure_pa: (valid && t.pressure_pa != 0)
+            .then(|| fx::to_f64(fx::Pressure::from_bits(t.pressure_pa))),
+        temperature_k: (valid && t.temperature_k != 0)
+            .then(|| fx::to_f64(fx::Temperature::from_bits(t.temperature_k))),
+        mass_kg: content.then(|| mass(t.mass_kg)),
+        fill_fraction: content.then(|| fraction(t.fill_fraction)),
+        u_mass_kg: t.mass_uncertainty_kg.filter(|_| content).map(mass),
+        // Telemetry carries the change of the mass (negative while the
+        // tank empties); readings carry the consumption.
+        rate_kg_h: t.rate_kg_h.map(|r| -rate(r)),
+        u_rate_kg_h: t.rate_uncertainty_kg_h.map(rate),
+        time_to_empty_s: t.time_to_empty_s.map(|e| {
+            (
+                f64::from(e),
+                f64::from(t.time_to_empty_earliest_s.unwrap_or(e)),
+                t.time_to_empty_latest_s.map(f64::from),
+            )
+        }),
+        loss_per_day: None,
+        status,
+        events,
+    }
+}
+
+impl Backend for FirmwareGauge {
+    fn name(&self) -> &'static str {
+        match self.board {
+            Board::Microbit => "firmware-microbit",
+            Board::Mps2An386 => "firmware-mps2-an386",
+        }
+    }
+
+    fn rated_mass_kg(&self) -> f64 {
+        self.rated_kg
+    }
+
+    fn sample(&mut self, at: Instant, codes: &Codes) -> Result<Reading, isochor_tank::Error> {
+        self.inject(at, codes)
+            .map_err(|e| isochor_tank::Error::Gauge(e.to_string()))
+    }
+}
+
+impl FirmwareGauge {
+    /// One sample injected over the link, its telemetry read back.
+    fn inject(&mut self, at: Instant, codes: &Codes) -> Result<Reading, Error> {
+        let pressure = match codes.pressure {
+            // A bipolar converter's two's-complement code in its low bits.
+            PressureCode::Bridge(c) => {
+                let mask = if self.pressure_bits >= 32 {
+                    u32::MAX
+                } else {
+                    (1u32 << self.pressure_bits) - 1
+                };
+                (c as u32) & mask
+            }
+            PressureCode::Loop(c) => c,
+        };
+        let raw = RawSample {
+            pressure,
+            temperature: codes.temperature,
+        };
+        let inject_tag = self.tag();
+        let ping_tag = self.tag();
+        let token = at.as_millis() as u32;
+        let mut out = Vec::new();
+        for m in [
+            Message::InjectSample(InjectSample {
+                tag: inject_tag,
+                at_ms: at.as_millis(),
+                codes: heapless::Vec::from_slice(&[
+                    RawCode {
+                        channel: SensorChannel::Pressure,
+                        code: raw.pressure,
+                    },
+                    RawCode {
+                        channel: SensorChannel::Temperature,
+                        code: raw.temperature,
+                    },
+                ])
+                .map_err(|_| Error::Invalid("sample codes".into()))?,
+            }),
+            Message::Ping(Ping {
+                tag: ping_tag,
+                token,
+            }),
+        ] {
+            let mut buf = [0u8; isochor_core::link::MAX_FRAME_LEN];
+            let n = isochor_core::link::encode(&m, &mut buf)?;
+            out.extend_from_slice(buf.get(..n).unwrap_or(&[]));
+        }
+        // Both frames in one write: the firmware answers them in order.
+        self.link.send_raw(&out)?;
+        let deadline = std::time::Instant::now() + TIMEOUT;
+        let mut telemetry = None;
+        let mut taken = false;
+        let mut events = Events {
+            raised: AlarmSet::EMPTY,
+            cleared: AlarmSet::EMPTY,
+            at,
+        };
+        loop {
+            let left = deadline.saturating_duration_since(std::time::Instant::now());
+            match self.link.next_event(left)? {
+                Some(LinkEvent::Message(Message::Reply(r))) if r.tag == inject_tag => {
+                    match r.outcome {
+                        Outcome::Taken => taken = true,
+                        other => {
+                            return Err(Error::Link(format!(
+                                "the firmware refused a sample at {} ms: {other:?}",
+                                at.as_millis()
+                            )));
+                        }
+                    }
+                }
+                Some(LinkEvent::Message(Message::Reply(r))) if r.tag == ping_tag => {
+                    if !matches!(r.outcome, Outcome::Pong { token: t } if t == token) {
+                        return Err(Error::Link("unexpected answer to a ping".into()));
+                    }
+                    break;
+                }
+                Some(LinkEvent::Message(Message::Telemetry(t)))
+                    if t.uptime_ms == at.as_millis() =>
+                {
+                    telemetry = Some(t);
+                }
+                Some(LinkEvent::Message(Message::Alarm(a))) if a.uptime_ms == at.as_millis() => {
+                    let kind = AlarmKind::ALL
+                        .get(usize::from(a.alarm))
+                        .copied()
+                        .ok_or_else(|| Error::Link(format!("unknown alarm {}", a.alarm)))?;
+                    match a.transition {
+                        AlarmTransition::Raised => {
+                            events.raised = events.raised.with(kind, true);
+                        }
+                        AlarmTransition::Cleared => {
+                            events.cleared = events.cleared.with(kind, true);
+                        }
+                    }
+                }
+                Some(_) => {} // boot messages, damaged frames (counted by the link)
+                None => {
+                    return Err(Error::Link(format!(
+                        "the firmware on {} did not answer the sample at {} ms",
+                        self.board.name(),
+                        at.as_millis()
+                    )));
+                }
+            }
+        }
+        match (taken, telemetry) {
+            (true, Some(t)) => Ok(reading(&t, events)),
+            _ => Err(Error::Link(format!(
+                "no telemetry for the sample at {} ms",
+                at.as_millis()
+            ))),
+        }
+    }
+}

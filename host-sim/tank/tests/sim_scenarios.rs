@@ -1,0 +1,266 @@
+//! Every built-in scenario runs and is scored, with the scores a user cares
+//! about asserted; the claimed 95 % coverage is checked on a population of
+//! instruments; the fixed-point and f64 gauges agree on a whole run; and
+//! scenario files are checked strictly.
+
+use isochor_tank::run::{BackendKind, RunOptions, RunResult, Summary, run};
+use isochor_tank::scenario::{BUILTIN, Scenario};
+use rayon::prelude::*;
+
+fn run_builtin(name: &str) -> RunResult {
+    let sc = Scenario::builtin(name).unwrap();
+    run(
+        &sc,
+        &RunOptions {
+            backend: BackendKind::Fixed,
+            trace_every_s: 60.0,
+            progress: false,
+        },
+    )
+    .unwrap()
+}
+
+fn raised<'a>(s: &'a Summary, alarm: &str) -> impl Iterator<Item = f64> + 'a {
+    let alarm = alarm.to_string();
+    s.alarms
+        .iter()
+        .filter(move |e| e.alarm == alarm && e.change == "raised")
+        .map(|e| e.t_s)
+}
+
+fn show(s: &Summary) {
+    eprintln!(
+        "{}: {} samples, max |e| {:.3} %, bias {:.3} %, coverage {:.1} %, leak after {:?} s, false alarms {}, time to empty median {:?} over {} min (bounds {:?}), alarms {:?}",
+        s.scenario,
+        s.samples,
+        s.max_abs_error_fraction.unwrap_or(f64::NAN) * 100.0,
+        s.mean_error_fraction.unwrap_or(f64::NAN) * 100.0,
+        s.uncertainty_coverage.unwrap_or(f64::NAN) * 100.0,
+        s.leak_detected_after_s,
+        s.false_alarms,
+        s.time_to_empty_median_error,
+        s.time_to_empty_minutes,
+        s.time_to_empty_coverage,
+        s.alarms
+            .iter()
+            .filter(|e| e.alarm != "not_settled")
+            .map(|e| format!("{:.0} s {} {}", e.t_s, e.alarm, e.change))
+            .collect::<Vec<_>>()
+    );
+}
+
+/// The demo: the leak (0.5 % of the content per day from day four) is found
+/// within the day (README "Tracking over time" states 24–28 h for
+/// 0.2 %/day and about 11 h for 1 %/day on synthetic series), nothing is
+/// raised before it but the injected sensor fault, and the estimate is
+/// within its uncertainty.
+#[test]
+fn workshop_leak_is_detected_without_false_alarms() {
+    let r = run_builtin("workshop-leak");
+    let s = &r.summary;
+    show(s);
+    assert_eq!(s.samples, 7 * 86_400 + 1);
+    let after = s.leak_detected_after_s.expect("leak detected");
+    assert!(after < 24.0 * 3600.0, "{after} s");
+    assert_eq!(s.false_alarms, 0);
+    assert!(raised(s, "leak").all(|t| t >= 3.0 * 86_400.0));
+    // The temperature sensor's open circuit (36 h, 10 min) is reported.
+    let faults: Vec<f64> = raised(s, "sensor_fault").collect();
+    assert_eq!(faults.len(), 1);
+    assert!((36.0 * 3600.0..36.0 * 3600.0 + 60.0).contains(&faults[0]));
+    assert!(s.max_abs_error_fraction.unwrap() < 0.015);
+    assert!(s.uncertainty_coverage.unwrap() >= 0.95);
+    // Plots and series have what the user looks at.
+    assert_eq!(r.trace.len(), 7 * 24 * 60 + 1);
+}
+
+/// A fast fill with pre-cooled hydrogen: the gas heats (compression) but
+/// stays below 85 °C (the limit of the fuelling protocols for vehicle
+/// tanks, SAE J2601; from memory), the gauge says `not_settled` while the
+/// gas cools, the time to empty during the drives is right to a few per
+/// cent, and no false alarm.
+#[test]
+fn hydrogen_fast_fill_heats_settles_and_is_tracked() {
+    let r = run_builtin("hydrogen-fast-fill");
+    let s = &r.summary;
+    show(s);
+    let t_max_c = s.gas_temperature_max_k - 273.15;
+    assert!((40.0..85.0).contains(&t_max_c), "{t_max_c} °C");
+    assert!(s.pressure_max_pa > 690e5 && s.pressure_max_pa < 705e5);
+    let fill = 6.0 * 3600.0;
+    assert!(raised(s, "not_settled").any(|t| (fill..fill + 900.0).contains(&t)));
+    assert_eq!(s.false_alarms, 0);
+    assert!(s.time_to_empty_minutes >= 30);
+    assert!(s.time_to_empty_median_error.unwrap() < 0.05);
+    assert!(s.uncertainty_coverage.unwrap() >= 0.9);
+}
+
+/// Balloons filled in bursts: single-sample spikes of a loose pressure
+/// connector never reach the estimate (median of three; the plausibility
+/// check flags each one, too briefly for the debounced `sensor_fault`
+/// alarm); no alarm, the estimate within 2 %.
+#[test]
+fn helium_party_spikes_are_caught() {
+    let r = run_builtin("helium-party");
+    let s = &r.summary;
+    show(s);
+    assert_eq!(s.false_alarms, 0);
+    assert_eq!(raised(s, "sensor_fault").count(), 0);
+    let during = r
+        .trace
+        .iter()
+        .filter(|p| (34.0 * 3600.0..38.0 * 3600.0).contains(&p.t_s));
+    let worst = during
+        .filter_map(|p| p.mass_gauge_kg.map(|m| (m / p.mass_true_kg - 1.0).abs()))
+        .fold(0.0f64, f64::max);
+    assert!(worst < 0.02, "{worst}");
+    assert!(s.max_abs_error_fraction.unwrap() < 0.02);
+    assert!(s.uncertainty_coverage.unwrap() >= 0.95);
+    assert!(s.mass_end_kg < 0.5 * s.mass_start_kg);
+}
+
+/// Hot afternoons and a 4–20 mA failure current: the failure is reported
+/// as a sensor fault after its persistence time, the time to empty of the
+/// daytime draw is right to a few per cent with bounds that hold the truth
+/// most of the time, no false alarm.
+#[test]
+fn oxygen_clinic_failure_current_and_time_to_empty() {
+    let r = run_builtin("oxygen-clinic");
+    let s = &r.summary;
+    show(s);
+    assert_eq!(s.false_alarms, 0);
+    let fault = 58.0 * 3600.0;
+    assert!(raised(s, "sensor_fault").any(|t| (fault..fault + 60.0).contains(&t)));
+    assert!(s.time_to_empty_minutes > 1000);
+    assert!(s.time_to_empty_median_error.unwrap() < 0.05);
+    assert!(s.time_to_empty_coverage.unwrap() > 0.85);
+    assert!(s.gas_temperature_max_k - 273.15 > 35.0);
+    // One instrument drawn from the declared errors: this one is off by
+    // more than its U at times (the 95 % is a population figure, tested
+    // below); its error stays within 2.5 × U's typical size.
+    assert!(s.max_abs_error_fraction.unwrap() < 0.06);
+}
+
+/// Two cold nights on methane: real-gas content at −25 °C, a draw that
+/// cools the gas below the wall the sensor sits on; no false alarm (in
+/// particular no leak with the declared draw), the estimate within 2 %.
+#[test]
+fn methane_cold_night_no_false_alarm() {
+    let r = run_builtin("methane-cold-night");
+    let s = &r.summary;
+    show(s);
+    assert_eq!(s.false_alarms, 0);
+    assert_eq!(raised(s, "leak").count(), 0);
+    assert!(s.gas_temperature_min_k - 273.15 < -20.0);
+    assert!(s.max_abs_error_fraction.unwrap() < 0.02);
+    let gap = r
+        .trace
+        .iter()
+        .map(|p| p.wall_temperature_k - p.gas_temperature_k)
+        .fold(0.0f64, f64::max);
+    eprintln!("largest wall − gas temperature during the draws: {gap:.2} K");
+    assert!(gap > 1.0);
+}
+
+/// The claim "k = 2 holds the truth 95 % of the time" is about instruments
+/// whose errors follow the declaration (README "Uncertainty"): 200
+/// instruments drawn from it (pressure offset and gain, temperature offset,
+/// water capacity), one day each of the workshop at 10 s samples.
+#[test]
+fn population_coverage_is_near_95_percent() {
+    let base = Scenario::builtin("workshop-leak").unwrap();
+    let opts = RunOptions {
+        backend: BackendKind::Fixed,
+        trace_every_s: 0.0,
+        progress: false,
+    };
+    let results: Vec<(u64, f64)> = (0..200u64)
+        .into_par_iter()
+        .map(|seed| {
+            let mut sc = base.clone().with(Some(86_400.0), Some(1000 + seed));
+            sc.interval_ms = 10_000;
+            let s = run(&sc, &opts).unwrap().summary;
+            (s.judged_samples, s.uncertainty_coverage.unwrap())
+        })
+        .collect();
+    let (n, covered) = results.iter().fold((0.0, 0.0), |(n, c), &(k, f)| {
+        (n + k as f64, c + f * k as f64)
+    });
+    let coverage = covered / n;
+    let below_90 = results.iter().filter(|r| r.1 < 0.9).count();
+    eprintln!(
+        "200 instruments: pooled coverage {:.1} % of {n} samples; {below_90} instruments below 90 %",
+        coverage * 100.0
+    );
+    assert!((0.92..=0.985).contains(&coverage), "{coverage}");
+}
+
+/// The fixed-point gauge and the f64 gauge agree over a whole run with
+/// bursts, spikes and settling (the same configuration, exactly converted).
+#[test]
+fn fixed_and_float_gauges_agree() {
+    let sc = Scenario::builtin("helium-party")
+        .unwrap()
+        .with(Some(2.0 * 86_400.0), None);
+    let mut out = Vec::new();
+    for backend in [BackendKind::Fixed, BackendKind::Float] {
+        let opts = RunOptions {
+            backend,
+            trace_every_s: 1.0,
+            progress: false,
+        };
+        out.push(run(&sc, &opts).unwrap());
+    }
+    let (a, b) = (&out[0], &out[1]);
+    let mut worst = 0.0f64;
+    for (x, y) in a.trace.iter().zip(&b.trace) {
+        if let (Some(m1), Some(m2)) = (x.mass_gauge_kg, y.mass_gauge_kg) {
+            worst = worst.max((m1 - m2).abs() / m2);
+        }
+    }
+    eprintln!(
+        "fixed vs f64 over {} samples: mass {worst:.1e} rel",
+        a.trace.len()
+    );
+    assert!(worst < 1e-5);
+    let ev = |s: &Summary| {
+        s.alarms
+            .iter()
+            .map(|e| (e.t_s, e.alarm, e.change))
+            .collect::<Vec<_>>()
+    };
+    assert_eq!(ev(&a.summary), ev(&b.summary));
+}
+
+#[test]
+fn every_builtin_parses_and_names_match() {
+    for (name, text) in BUILTIN {
+        let sc = Scenario::from_toml(text).unwrap();
+        assert_eq!(sc.name, name);
+    }
+}
+
+#[test]
+fn scenario_files_are_checked_strictly() {
+    let good = BUILTIN[0].1;
+    assert!(Scenario::from_toml(good).is_ok());
+    let cases = [
+        good.replace("water_capacity", "water_capacty"),
+        good.replace("\"50L\"", "\"50\""),
+        good.replace("\"50L\"", "\"50gal\""),
+        good.replace("isochor-scenario 1", "isochor-scenario 2"),
+        good.replace("duration = \"7d\"", "duration = \"7 weeks\""),
+        good.replace(
+            "loss_per_day = 0.005",
+            "loss_per_day = 0.005\narea = \"1mm2\"",
+        ),
+        good.replace("kind = \"open\"", "kind = \"failure_low\""),
+        good.replace("mount = \"wall\"", "mount = \"roof\""),
+        good.replace("gas = \"nitrogen\"", "gas = \"unobtainium\""),
+    ];
+    for (i, text) in cases.iter().enumerate() {
+        let e = Scenario::from_toml(text);
+        assert!(e.is_err(), "case {i} was accepted");
+        assert_eq!(e.unwrap_err().exit_code(), 2, "case {i}");
+    }
+}
