@@ -48,6 +48,7 @@ pub mod auth;
 pub mod checksum;
 pub mod constants;
 pub mod content;
+pub mod curve;
 pub mod envelope;
 mod error;
 pub mod fx;
