@@ -38,12 +38,45 @@ pub struct Content {
     pub settled_pressure_pa: fx::Pressure,
     /// Content as a fraction of the rated content (1 = full).
     pub fill_fraction: fx::Fraction,
-    /// The gas model's answer at (p, T): Z and its slopes.
+    /// The gas model's answer at (p, T): Z, and its slopes once
+    /// [`Estimator::with_slopes`] added them (the per-sample estimate leaves
+    /// them zero).
     pub z: ZPointFx,
     /// Vessel volume over water capacity, V/V₀.
     pub vessel_factor: fx::Compressibility,
     /// What the reader must know about these numbers.
     pub status: Status,
+}
+
+/// The prepared constants of an [`Estimator`] (see [`Estimator::parts`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub struct EstimatorParts {
+    /// The setup.
+    pub setup: SetupFx,
+    /// M/R, kg·K/J.
+    pub k: Coef,
+    /// Internal density scale: ρ_int = ρ·2^rho_shift.
+    pub rho_shift: u32,
+    /// Right shift from the density quotient to ρ_int.
+    pub rho_q_shift: i32,
+    /// Elastic expansion per Pa.
+    pub elastic: Coef,
+    /// ρv at the rated condition, internal density scale.
+    pub rho_v_rated: u32,
+    /// Mass per unit ρv.
+    pub mass: Coef,
+    /// Fill fraction per unit ρv.
+    pub fraction: Coef,
+    /// Amount per unit ρv.
+    pub amount: Coef,
+    /// Standard volume per unit ρv.
+    pub standard_volume: Coef,
+    /// τ per unit ρv: R·T_ref/M.
+    pub target: Coef,
+    /// 1/T_ref.
+    pub inv_t_ref: Coef,
+    /// Flags raised while preparing (bits).
+    pub setup_status: u32,
 }
 
 /// Fraction bits of the raw formats used below.
@@ -410,6 +443,65 @@ impl<M: CompressibilityFx> Estimator<M> {
         Some((p, tau, m))
     }
 
+    /// `c` with the model's slopes at its pressure and temperature (the
+    /// per-sample estimate carries Z alone).
+    pub fn with_slopes(&self, c: &Content) -> Content {
+        let mut out = *c;
+        out.z = self.model.z_fx(c.pressure_pa, c.temperature_k);
+        out
+    }
+
+    /// The constants this estimator prepared (what a prepared
+    /// configuration carries to a device, see [`Estimator::from_parts`]).
+    pub fn parts(&self) -> EstimatorParts {
+        EstimatorParts {
+            setup: self.setup,
+            k: self.k,
+            rho_shift: self.rho_shift,
+            rho_q_shift: self.rho_q_shift,
+            elastic: self.elastic,
+            rho_v_rated: self.rho_v_rated,
+            mass: self.mass,
+            fraction: self.fraction,
+            amount: self.amount,
+            standard_volume: self.standard_volume,
+            target: self.target,
+            inv_t_ref: self.inv_t_ref,
+            setup_status: self.setup_status.bits(),
+        }
+    }
+
+    /// An estimator from prepared constants and a model (a device's: the
+    /// divisions happened where the constants were prepared). The model
+    /// must be of the setup's gas and should carry the settled-pressure
+    /// curve of this setup ([`CompressibilityFx::settle_fx`]); without it
+    /// the settled pressure is solved at each sample.
+    pub fn from_parts(parts: EstimatorParts, model: M) -> Result<Self, Error> {
+        if model.gas() != parts.setup.gas {
+            return Err(Error::ModelUnusable("gas of the setup"));
+        }
+        if !(8..=31).contains(&parts.rho_shift) || parts.rho_v_rated == 0 {
+            return Err(Error::Malformed("estimator constants"));
+        }
+        Ok(Estimator {
+            setup: parts.setup,
+            model,
+            k: parts.k,
+            rho_shift: parts.rho_shift,
+            rho_q_shift: parts.rho_q_shift,
+            elastic: parts.elastic,
+            rho_v_rated: parts.rho_v_rated,
+            mass: parts.mass,
+            fraction: parts.fraction,
+            amount: parts.amount,
+            standard_volume: parts.standard_volume,
+            target: parts.target,
+            inv_t_ref: parts.inv_t_ref,
+            settle_table: SettleTable::default(),
+            setup_status: Status::from_bits(parts.setup_status),
+        })
+    }
+
     /// The setup this estimator was prepared for.
     pub fn setup(&self) -> &SetupFx {
         &self.setup
@@ -434,9 +526,17 @@ impl<M: CompressibilityFx> Estimator<M> {
         let (p, t, mut status) = clamp_inputs(pressure, temperature);
         status |= self.setup_status;
 
-        let z = self
+        // Z alone per sample; its slopes are for the uncertainty, which asks
+        // for them when it needs them (`with_slopes`).
+        let (zv, zflags) = self
             .model
-            .z_fx(fx::Pressure::from_bits(p), fx::Temperature::from_bits(t));
+            .z_value_fx(fx::Pressure::from_bits(p), fx::Temperature::from_bits(t));
+        let z = ZPointFx {
+            z: zv,
+            dz_dp_per_mpa: fx::ZSlope::ZERO,
+            dz_dt_per_k: fx::ZSlope::ZERO,
+            flags: zflags,
+        };
         status |= z.flags;
         let (density, sat_density) = self.density(p, t, z.z.to_bits());
         let vessel_factor = self.vessel_factor(p, t);
@@ -565,6 +665,13 @@ impl<M: CompressibilityFx> Estimator<M> {
     fn settle(&self, rho_v: u32, z_now: u32) -> (u32, Status) {
         let t_ref = self.setup.settled_reference_k;
         let (tau, over) = self.target.scale(rho_v, self.rho_shift, P_FRAC);
+        // A model prepared with a settled-pressure curve answers at once.
+        if !over
+            && let Ok(tau) = u32::try_from(tau)
+            && let Some(p) = self.model.settle_fx(tau)
+        {
+            return (p, Status::OK);
+        }
         if !over
             && let Ok(tau) = u32::try_from(tau)
             && let Some(p0) = self.settle_table.seed(tau)

@@ -126,6 +126,19 @@ pub trait CompressibilityFx {
     fn gas(&self) -> Gas;
     /// Z and its slopes at absolute pressure `p` and temperature `t`.
     fn z_fx(&self, p: fx::Pressure, t: fx::Temperature) -> ZPointFx;
+    /// Z alone and the flags (the per-sample call; models whose slopes cost
+    /// extra work skip them here).
+    fn z_value_fx(&self, p: fx::Pressure, t: fx::Temperature) -> (fx::Compressibility, Status) {
+        let z = self.z_fx(p, t);
+        (z.z, z.flags)
+    }
+    /// The settled pressure of a content τ = ρv·R·T_ref/M (raw `Pressure`
+    /// bits), where the model carries a settled-pressure table prepared for
+    /// the estimator's setup (a prepared configuration's model does); `None`
+    /// otherwise or beyond the table.
+    fn settle_fx(&self, _tau: u32) -> Option<u32> {
+        None
+    }
     /// The smallest Z the model returns. The estimator sizes its internal
     /// density scale from it (a smaller floor costs density resolution).
     fn z_floor(&self) -> fx::Compressibility;
@@ -171,6 +184,12 @@ impl<M: CompressibilityFx> CompressibilityFx for &M {
     }
     fn z_fx(&self, p: fx::Pressure, t: fx::Temperature) -> ZPointFx {
         (**self).z_fx(p, t)
+    }
+    fn z_value_fx(&self, p: fx::Pressure, t: fx::Temperature) -> (fx::Compressibility, Status) {
+        (**self).z_value_fx(p, t)
+    }
+    fn settle_fx(&self, tau: u32) -> Option<u32> {
+        (**self).settle_fx(tau)
     }
     fn z_floor(&self) -> fx::Compressibility {
         (**self).z_floor()

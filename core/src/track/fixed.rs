@@ -687,7 +687,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.rate_and_time_to_empty(content);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(mean);
-        self.uncertainty = Some(self.unc.evaluate(content));
+        self.uncertainty = Some(self.unc.evaluate(&self.est.with_slopes(content)));
         self.rated_pressure_now_pa = Some(
             self.est
                 .pressure_at(fx::Fraction::ONE, content.temperature_k)

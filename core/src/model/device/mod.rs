@@ -56,7 +56,7 @@ pub mod float;
 pub use blob::{BLOB_MAGIC, BLOB_VERSION, BoundaryBuf, TableBuf};
 
 use super::{Compressibility, CompressibilityFx, IsothermFx, ModelRange, ZPoint, ZPointFx};
-use crate::{Error, Gas, Real, fx};
+use crate::{Error, Gas, Real, Status, fx};
 
 /// Most spans per axis (knots − 1). A prepared model keeps 32 bytes per span
 /// in RAM.
@@ -196,9 +196,7 @@ impl<'a> Table<'a> {
 #[derive(Clone, Debug)]
 pub struct DeviceModel<'a> {
     table: Table<'a>,
-    t_axis: fixed::Axis,
-    p_axis: fixed::Axis,
-    z_floor: u32,
+    axes: fixed::Axes,
 }
 
 impl<'a> DeviceModel<'a> {
@@ -206,9 +204,7 @@ impl<'a> DeviceModel<'a> {
     pub fn new(table: Table<'a>) -> Result<DeviceModel<'a>, Error> {
         table.validate()?;
         Ok(DeviceModel {
-            t_axis: fixed::Axis::prepare(table.temperature_knots, fixed::T_RAW_PER_UNIT)?,
-            p_axis: fixed::Axis::prepare(table.pressure_knots, fixed::P_RAW_PER_UNIT)?,
-            z_floor: table.z_floor_bits(),
+            axes: fixed::Axes::prepare(&table)?,
             table,
         })
     }
@@ -231,19 +227,23 @@ impl CompressibilityFx for DeviceModel<'_> {
         self.table.gas
     }
     fn z_fx(&self, p: fx::Pressure, t: fx::Temperature) -> ZPointFx {
-        fixed::evaluate(self, p.to_bits(), t.to_bits())
+        fixed::evaluate(&self.table, &self.axes, p.to_bits(), t.to_bits())
+    }
+    fn z_value_fx(&self, p: fx::Pressure, t: fx::Temperature) -> (fx::Compressibility, Status) {
+        let (z, flags) = fixed::evaluate_z(&self.table, &self.axes, p.to_bits(), t.to_bits());
+        (fx::Compressibility::from_bits(z), flags)
     }
     fn z_floor(&self) -> fx::Compressibility {
-        fx::Compressibility::from_bits(self.z_floor)
+        fx::Compressibility::from_bits(self.table.z_floor)
     }
     fn pressure_knots_fx(&self) -> &[u32] {
         self.table.pressure_knots
     }
     fn isotherm_fx(&self, t: fx::Temperature) -> IsothermFx {
-        fixed::isotherm(self, t.to_bits())
+        fixed::isotherm(&self.table, &self.axes, t.to_bits())
     }
     fn isotherm_z_fx(&self, iso: &IsothermFx, p: fx::Pressure) -> ZPointFx {
-        fixed::isotherm_z(self, iso, p.to_bits())
+        fixed::isotherm_z(&self.table, &self.axes, iso, p.to_bits())
     }
 }
 
