@@ -215,105 +215,124 @@ impl CurveBuf {
         if initial.len() < 2 || !increasing || initial.len() > MAX_PIECES + 1 {
             return Err(Error::OutOfRange("curve domain"));
         }
+        let end = initial.last().copied().unwrap_or(0);
+        let fit_all = |knots: &[i32]| -> Result<Vec<Fitted, MAX_PIECES>, Error> {
+            let mut v: Vec<Fitted, MAX_PIECES> = Vec::new();
+            for w in knots.windows(2) {
+                if let &[a, b] = w {
+                    let piece = Fitted::new(f, a, b, b == end, weight)?;
+                    v.push(piece)
+                        .map_err(|_| Error::OutOfRange("curve pieces"))?;
+                }
+            }
+            Ok(v)
+        };
         let mut knots: Vec<i32, { MAX_PIECES + 1 }> = Vec::new();
         for &k in initial {
             let _ = knots.push(k);
         }
         // Halve the worst piece until the tolerance is met or the pieces
-        // run out.
-        let weigh = |knots: &[i32], errors: Vec<f64, MAX_PIECES>| -> Vec<f64, MAX_PIECES> {
-            errors
-                .iter()
-                .zip(knots.windows(2))
-                .map(|(e, w)| match w {
-                    &[a, b] => e * weight(a, b),
-                    _ => *e,
-                })
-                .collect()
-        };
-        let (mut best, mut best_err) = loop {
-            let (curve, errors) = Self::fit_knots(f, &knots)?;
-            let errors = weigh(&knots, errors);
-            let (worst, err) = worst_piece(&errors);
+        // run out; only the two new pieces are fitted at each step.
+        let mut pieces = fit_all(&knots)?;
+        loop {
+            let (worst, err) = worst_piece(pieces.iter().map(|p| p.err));
             if err <= tolerance || knots.len() > MAX_PIECES {
-                break (curve, errors);
+                break;
             }
-            let (a, b) = match (knots.get(worst), knots.get(worst + 1)) {
-                (Some(&a), Some(&b)) => (a, b),
-                _ => break (curve, errors),
+            let (Some(&a), Some(&b)) = (knots.get(worst), knots.get(worst + 1)) else {
+                break;
             };
-            if b - a < 2 || knots.insert(worst + 1, a + (b - a) / 2).is_err() {
-                break (curve, errors);
+            if b - a < 2 {
+                break;
             }
-        };
-        if worst_piece(&best_err).1 <= tolerance {
-            let e = worst_piece(&best_err).1;
-            return Ok((best, e));
+            let mid = a + (b - a) / 2;
+            let left = Fitted::new(f, a, mid, false, weight)?;
+            let right = Fitted::new(f, mid, b, b == end, weight)?;
+            if knots.insert(worst + 1, mid).is_err() {
+                break;
+            }
+            if let Some(slot) = pieces.get_mut(worst) {
+                *slot = left;
+            }
+            if pieces.insert(worst + 1, right).is_err() {
+                break;
+            }
         }
         // Out of pieces: move the free knots so that every piece has about
         // the same error (a cubic's error goes as width⁴·|f⁗|, so the
         // density |f⁗|^¼ ≈ error^¼/width is equidistributed), a few times,
-        // keeping the best curve.
-        for _ in 0..REBALANCE_ROUNDS {
-            let Some(next) = rebalance(initial, &knots, &best_err) else {
-                break;
-            };
-            let (curve, errors) = Self::fit_knots(f, &next)?;
-            let errors = weigh(&next, errors);
-            if worst_piece(&errors).1 < worst_piece(&best_err).1 {
-                best = curve;
-                best_err = errors;
-            }
-            knots = next;
-        }
-        let e = worst_piece(&best_err).1;
-        Ok((best, e))
-    }
-
-    /// One curve on the given knots; the error of each piece.
-    fn fit_knots(
-        f: &dyn Fn(f64) -> f64,
-        knots: &[i32],
-    ) -> Result<(CurveBuf, Vec<f64, MAX_PIECES>), Error> {
-        // Coefficients in output bits (f64) first, then one scale for all.
-        let mut raw: Vec<(i32, u32, u8, [f64; 4]), MAX_PIECES> = Vec::new();
-        let pieces = knots.len().saturating_sub(1);
-        for (k, w) in knots.windows(2).enumerate() {
-            let &[a, b] = w else { continue };
-            let width = (b as i64 - a as i64) as u64;
-            // s = d·inv >> shift in Q31 with inv < 2^32: shift = bits of width.
-            let shift = 64 - width.leading_zeros() as u64;
-            let shift = shift.min(31) as u8;
-            let inv = (((1u128 << (31 + shift as u32)) + width as u128 / 2) / width as u128)
-                .min(u32::MAX as u128) as u32;
-            let s_of = |x: i32| -> f64 {
-                let d = (x as i64 - a as i64) as u64;
-                ((d as u128 * inv as u128) >> shift).min(1 << 31) as f64 / (1u64 << 31) as f64
-            };
-            // The piece's last input: the next piece starts at b (the last
-            // piece ends at b itself). The cubic meets f at a and there, so
-            // a jump of f at a knot stays outside every piece.
-            let last = if k + 1 == pieces { b } else { b - 1 };
-            let ya = finite(f(a as f64))?;
-            if last == a {
-                if raw.push((a, inv, shift, [ya, 0.0, 0.0, 0.0])).is_err() {
-                    return Err(Error::OutOfRange("curve pieces"));
+        // keeping the best.
+        if worst_piece(pieces.iter().map(|p| p.err)).1 > tolerance {
+            for _ in 0..REBALANCE_ROUNDS {
+                let errors: Vec<f64, MAX_PIECES> = pieces.iter().map(|p| p.err).collect();
+                let Some(next) = rebalance(initial, &knots, &errors) else {
+                    break;
+                };
+                let trial = fit_all(&next)?;
+                if worst_piece(trial.iter().map(|p| p.err)).1
+                    < worst_piece(pieces.iter().map(|p| p.err)).1
+                {
+                    pieces = trial;
+                    knots = next;
+                } else {
+                    break;
                 }
-                continue;
             }
+        }
+        quantise(f, &pieces, end, weight)
+    }
+}
+
+/// One piece as fitted in `f64` (hosts).
+#[derive(Clone, Copy, Debug)]
+struct Fitted {
+    a: i32,
+    /// The piece's last input (the next piece starts after it).
+    last: i32,
+    inv: u32,
+    shift: u8,
+    c: [f64; 4],
+    /// Weighted error of the unquantised cubic.
+    err: f64,
+}
+
+impl Fitted {
+    /// The piece `[a, b)` (`[a, b]` for the last one): a cubic in s that
+    /// meets `f` at both ends and fits it between them by least squares.
+    fn new(
+        f: &dyn Fn(f64) -> f64,
+        a: i32,
+        b: i32,
+        last_piece: bool,
+        weight: &dyn Fn(i32, i32) -> f64,
+    ) -> Result<Fitted, Error> {
+        let width = (b as i64 - a as i64) as u64;
+        // s = d·inv >> shift in Q31 with inv < 2^32: shift = bits of width.
+        let shift = (64 - width.leading_zeros()).min(31) as u8;
+        let inv = (((1u128 << (31 + shift as u32)) + width as u128 / 2) / width as u128)
+            .min(u32::MAX as u128) as u32;
+        let s_of = |x: i32| -> f64 {
+            let d = (x as i64 - a as i64) as u64;
+            ((d as u128 * inv as u128) >> shift).min(1 << 31) as f64 / (1u64 << 31) as f64
+        };
+        // The cubic meets f at a and at the piece's last input, so a jump
+        // of f at a knot stays outside every piece.
+        let last = if last_piece { b } else { b - 1 };
+        let ya = finite(f(a as f64))?;
+        let mut c = [ya, 0.0, 0.0, 0.0];
+        if last > a {
             let yb = finite(f(last as f64))?;
             let s_end = s_of(last);
             let span = (last as i64 - a as i64) as u64;
-            // Points inside the piece.
-            let n = span.min(128) as i64;
+            let n = span.min(FIT_POINTS) as i64;
             // y(s) = ya + c1·s + c2·s² + c3·s³ with y(s_end) = yb:
-            // c1 = (yb − ya − c2·s_e² − c3·s_e³)/s_e. Least squares in c2, c3.
+            // c1 = (yb − ya − c2·s_e² − c3·s_e³)/s_e; least squares in c2, c3
+            // on the residual basis g2 = s² − s·s_e, g3 = s³ − s·s_e².
             let (mut a11, mut a12, mut a22, mut b1, mut b2) = (0.0, 0.0, 0.0, 0.0, 0.0);
             for i in 1..n {
                 let x = a + (i as i128 * span as i128 / n as i128) as i32;
                 let s = s_of(x);
                 let y = finite(f(x as f64))?;
-                // Residual basis: g2 = s² − s·s_e, g3 = s³ − s·s_e².
                 let g2 = s * s - s * s_end;
                 let g3 = s * s * s - s * s_end * s_end;
                 let r = y - ya - (yb - ya) * s / s_end;
@@ -332,65 +351,100 @@ impl CurveBuf {
                 (0.0, 0.0)
             };
             let c1 = (yb - ya - c2 * s_end * s_end - c3 * s_end * s_end * s_end) / s_end;
-            if raw.push((a, inv, shift, [ya, c1, c2, c3])).is_err() {
-                return Err(Error::OutOfRange("curve pieces"));
-            }
+            c = [ya, c1, c2, c3];
         }
-        let big = raw
-            .iter()
-            .flat_map(|(_, _, _, c)| c.iter().map(|v| v.abs()))
-            .fold(0.0f64, f64::max);
-        // Coefficients below 2^31 in magnitude (the value itself is one).
-        let room = i32::MAX as f64 * 0.999;
-        let mut extra = MIN_EXTRA;
-        while extra < MAX_EXTRA && big * libm::exp2((extra + 1) as f64) <= room {
-            extra += 1;
-        }
-        if big * libm::exp2(extra as f64) > room {
-            return Err(Error::OutOfRange("curve values (beyond the output format)"));
-        }
-        let scale = libm::exp2(extra as f64);
-        let mut curve = CurveBuf {
-            pieces: Vec::new(),
-            end: knots.last().copied().unwrap_or(0),
-            extra,
+        let mut p = Fitted {
+            a,
+            last,
+            inv,
+            shift,
+            c,
+            err: 0.0,
         };
-        for (x, inv, shift, c) in raw {
-            let c = c.map(|v| libm::round(v * scale) as i32);
-            let _ = curve.pieces.push(Piece {
-                x,
-                inv,
-                shift: shift as u32,
-                c,
-            });
-        }
-        // The error of the quantised curve, piece by piece.
-        let mut errors: Vec<f64, MAX_PIECES> = Vec::new();
-        for (k, w) in knots.windows(2).enumerate() {
-            let &[a, b] = w else { continue };
-            let last = if k + 1 == pieces { b } else { b - 1 };
-            let span = last as i64 - a as i64;
-            let n = span.clamp(1, 256);
-            let mut e = 0.0f64;
-            for i in 0..=n {
-                let x = (a as i64 + i * span / n) as i32;
-                let y = f(x as f64);
-                e = e.max((curve.curve().eval_exact(x) - y).abs());
-            }
-            let _ = errors.push(e);
-        }
-        Ok((curve, errors))
+        let w = weight(a, b);
+        let mut e = 0.0f64;
+        p.points(|x| {
+            let s = s_of(x);
+            let v = c[0] + s * (c[1] + s * (c[2] + s * c[3]));
+            e = e.max((v - f(x as f64)).abs());
+        });
+        p.err = e * w;
+        Ok(p)
     }
+
+    /// Calls `g` on the piece's check points.
+    fn points(&mut self, mut g: impl FnMut(i32)) {
+        let span = self.last as i64 - self.a as i64;
+        let n = span.clamp(1, CHECK_POINTS);
+        for i in 0..=n {
+            g((self.a as i64 + i * span / n) as i32);
+        }
+    }
+}
+
+/// Points of a piece's least-squares fit (at most).
+const FIT_POINTS: u64 = 64;
+/// Points of a piece's error check (at most).
+const CHECK_POINTS: i64 = 128;
+
+/// The curve of fitted pieces, quantised with one scale for all, and the
+/// largest weighted error of the quantised curve.
+fn quantise(
+    f: &dyn Fn(f64) -> f64,
+    pieces: &[Fitted],
+    end: i32,
+    weight: &dyn Fn(i32, i32) -> f64,
+) -> Result<(CurveBuf, f64), Error> {
+    let big = pieces
+        .iter()
+        .flat_map(|p| p.c.iter().map(|v| v.abs()))
+        .fold(0.0f64, f64::max);
+    // Coefficients below 2^31 in magnitude (the value itself is one).
+    let room = i32::MAX as f64 * 0.999;
+    let mut extra = MIN_EXTRA;
+    while extra < MAX_EXTRA && big * libm::exp2((extra + 1) as f64) <= room {
+        extra += 1;
+    }
+    if big * libm::exp2(extra as f64) > room {
+        return Err(Error::OutOfRange("curve values (beyond the output format)"));
+    }
+    let scale = libm::exp2(extra as f64);
+    let mut curve = CurveBuf {
+        pieces: Vec::new(),
+        end,
+        extra,
+    };
+    for p in pieces {
+        let c = p.c.map(|v| libm::round(v * scale) as i32);
+        curve
+            .pieces
+            .push(Piece {
+                x: p.a,
+                inv: p.inv,
+                shift: p.shift as u32,
+                c,
+            })
+            .map_err(|_| Error::OutOfRange("curve pieces"))?;
+    }
+    let view = curve.curve();
+    let mut worst = 0.0f64;
+    for (k, p) in pieces.iter().enumerate() {
+        let b = pieces.get(k + 1).map_or(end, |q| q.a);
+        let w = weight(p.a, b);
+        let mut e = 0.0f64;
+        let mut p = *p;
+        p.points(|x| e = e.max((view.eval_exact(x) - f(x as f64)).abs()));
+        worst = worst.max(e * w);
+    }
+    Ok((curve, worst))
 }
 
 /// Rounds of knot moving once the pieces have run out.
 const REBALANCE_ROUNDS: usize = 8;
 
 /// The index and error of the worst piece.
-fn worst_piece(errors: &[f64]) -> (usize, f64) {
+fn worst_piece(errors: impl Iterator<Item = f64>) -> (usize, f64) {
     errors
-        .iter()
-        .copied()
         .enumerate()
         .fold((0, 0.0f64), |a, (i, e)| if e > a.1 { (i, e) } else { a })
 }

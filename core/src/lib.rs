@@ -56,6 +56,7 @@ pub mod fxmath;
 mod gas;
 pub mod link;
 pub mod model;
+pub mod prepared;
 mod real;
 pub mod sensor;
 mod setup;

@@ -195,6 +195,13 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
         self.solve_pressure(target, t, F::ONE)
     }
 
+    /// The settled pressure (Pa) of a content given as τ = ρv·R·T_ref/M
+    /// (Pa): the settled-pressure solver at the reference temperature
+    /// (what a prepared configuration's settled-pressure curve holds).
+    pub fn settled_pressure_of(&self, tau_pa: F) -> (F, Status) {
+        self.solve_pressure(tau_pa, self.setup.settled_reference_k, F::ONE)
+    }
+
     /// Settled pressure for the content ρv, seeded with Z at the sample.
     fn settle(&self, rho_v: F, z_now: F) -> (F, Status) {
         let target = rho_v * self.target_per_rho_v;

@@ -35,8 +35,8 @@ use crate::{Error, Status};
 /// rounding to whole bits adds 7.6 µK).
 pub const TEMPERATURE_TOLERANCE: f64 = 0.15;
 /// Largest error of a pressure curve against the `f64` channel aimed for,
-/// `fx::Pressure` bits (0.05 × 0.0625 Pa).
-pub const PRESSURE_TOLERANCE: f64 = 0.05;
+/// `fx::Pressure` bits (2 × 0.0625 Pa).
+pub const PRESSURE_TOLERANCE: f64 = 2.0;
 /// Largest error of a bridge's compensation curves aimed for, in their own
 /// bits (the zero at 2^-signal_frac, 1/span at 2^-inv_frac).
 pub const COMPENSATION_TOLERANCE: f64 = 0.05;
