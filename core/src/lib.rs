@@ -57,6 +57,7 @@ mod gas;
 pub mod link;
 pub mod model;
 pub mod prepared;
+pub mod probe;
 mod real;
 pub mod sensor;
 mod setup;

@@ -49,7 +49,12 @@ fn nominal_configurations_prepare_and_validate() {
 
 #[test]
 fn prepared_estimator_matches_the_plain_one() {
-    for (gas, rated) in [(Gas::Nitrogen, 200e5), (Gas::Methane, 200e5), (Gas::Hydrogen, 700e5), (Gas::CarbonDioxide, 20e5)] {
+    for (gas, rated) in [
+        (Gas::Nitrogen, 200e5),
+        (Gas::Methane, 200e5),
+        (Gas::Hydrogen, 700e5),
+        (Gas::CarbonDioxide, 20e5),
+    ] {
         let s = setup(gas, 0.05, rated);
         let cfg = GaugeConfig::nominal(s);
         let (buf, _) = PreparedBuf::build(&cfg).unwrap();
@@ -66,8 +71,13 @@ fn prepared_estimator_matches_the_plain_one() {
                 let t = 273.15 + tc;
                 let a = est_p.estimate(fx::Pressure::from_num(pa), fx::Temperature::from_num(t));
                 let b = est_x.estimate(fx::Pressure::from_num(pa), fx::Temperature::from_num(t));
-                let Ok(c) = est_f.estimate(pa, t) else { continue };
-                assert_eq!(a.mass_kg, b.mass_kg, "{gas} {pa} {t}: the same Z and constants");
+                let Ok(c) = est_f.estimate(pa, t) else {
+                    continue;
+                };
+                assert_eq!(
+                    a.mass_kg, b.mass_kg,
+                    "{gas} {pa} {t}: the same Z and constants"
+                );
                 if !c.status.is_ok() {
                     continue;
                 }
@@ -76,8 +86,69 @@ fn prepared_estimator_matches_the_plain_one() {
                     .max((fx::to_f64(a.settled_pressure_pa) / c.settled_pressure_pa - 1.0).abs());
             }
         }
-        println!("{gas}: mass {worst_mass:.1e}, settled pressure {worst_settle:.1e} (fixed prepared vs f64)");
+        println!(
+            "{gas}: mass {worst_mass:.1e}, settled pressure {worst_settle:.1e} (fixed prepared vs f64)"
+        );
         // Bounds as for the plain fixed path (content_fixed_vs_float: 5e-5).
         assert!(worst_mass < 5e-5 && worst_settle < 5e-5, "{gas}");
+    }
+}
+
+/// The configuration the firmware's budget program and minimal example run
+/// (`firmware/data/nominal.izpc`): the reference board's nominal sensors on
+/// a 50 L nitrogen cylinder rated 200 bar. The committed bytes must be a
+/// valid preparation of exactly that configuration, and read the same as
+/// what the host prepares today (the fit's last bits may differ between
+/// machines' maths libraries, so the comparison is on the readings: the
+/// fixed pipelines of both over a draw-down agree to the last bit of mass,
+/// or within 1e-9 of it). `ISOCHOR_BLESS=1` writes the file afresh.
+#[test]
+fn committed_firmware_configuration_is_current() {
+    use isochor_core::app::{Zero, fixed::Pipeline};
+    use isochor_core::sensor::channel::RawSample;
+    use isochor_core::time::Instant;
+
+    let path =
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../firmware/data/nominal.izpc");
+    let cfg = GaugeConfig::nominal(setup(Gas::Nitrogen, 0.05, 200e5));
+    let (fresh, _) = PreparedBuf::build(&cfg).unwrap();
+    if std::env::var_os("ISOCHOR_BLESS").is_some() {
+        std::fs::write(&path, fresh.bytes()).unwrap();
+    }
+    let committed = std::fs::read(&path).unwrap_or_else(|e| {
+        panic!(
+            "{}: {e} (write it with ISOCHOR_BLESS=1 cargo test -p isochor-tests --test prepared)",
+            path.display()
+        )
+    });
+    let committed = PreparedBuf::from_bytes(&committed).unwrap();
+    let p = committed
+        .prepared()
+        .expect("the committed configuration validates");
+    assert_eq!(
+        p.source_config().unwrap(),
+        cfg,
+        "the committed configuration is not the nominal one: bless it again"
+    );
+    let mut a = Pipeline::new(committed.prepared().unwrap(), Zero::default()).unwrap();
+    let mut b = Pipeline::new(fresh.prepared().unwrap(), Zero::default()).unwrap();
+    for i in 0..3000u32 {
+        // The budget program's draw-down: the 24-bit bridge from 150 bar
+        // down, a Pt1000 near 20 °C.
+        let raw = RawSample {
+            pressure: (2_097_152 - i * 270) & 0x00FF_FFFF,
+            temperature: 4_498_717 + (i % 97) * 17,
+        };
+        let at = Instant(u64::from(i) * 1000);
+        let (x, y) = (a.sample(at, &raw), b.sample(at, &raw));
+        let (mx, my) = (
+            x.content.unwrap().mass_kg.to_num::<f64>(),
+            y.content.unwrap().mass_kg.to_num::<f64>(),
+        );
+        assert!(
+            (mx - my).abs() <= 1e-9 * my.max(1.0),
+            "sample {i}: {mx} vs {my}"
+        );
+        assert_eq!(x.status, y.status, "sample {i}");
     }
 }

@@ -5,8 +5,10 @@
 use super::Zero;
 use crate::content::fixed::Estimator;
 use crate::prepared::{Prepared, PreparedModel};
+use crate::probe::{self, Stage};
 use crate::sensor::channel::RawSample;
 use crate::sensor::channel::fixed::{PressureChannel, PressureValue, TemperatureChannel};
+use crate::sensor::plausibility::PlausibilityState;
 use crate::sensor::{TemperatureReading, VALUE_INVALID};
 use crate::time::Instant;
 use crate::track::fixed::{TrackFx, Tracker};
@@ -37,6 +39,7 @@ pub struct Pipeline<B> {
     temperature: TemperatureChannel,
     pressure: PressureChannel,
     tracker: Tracker<PreparedModel<B>>,
+    plausibility: [PlausibilityState<i64>; 2],
     last_valid: Option<Readings>,
 }
 
@@ -65,6 +68,7 @@ impl<B: AsRef<[u8]> + Clone> Pipeline<B> {
             pressure: PressureChannel::new(zero.pressure),
             tracker: Tracker::new(est, track)?,
             prepared,
+            plausibility: [PlausibilityState::new(); 2],
             last_valid: None,
         });
         Ok(())
@@ -112,16 +116,25 @@ impl<B: AsRef<[u8]>> Pipeline<B> {
         self.last_valid.as_ref()
     }
 
-    /// Steps 1–3: the codes to corrected readings.
+    /// Steps 1–4: the codes to corrected, checked readings.
     pub fn convert(&mut self, at: Instant, raw: &RawSample) -> Readings {
+        probe::enter(Stage::Sensor);
         // 1. temperature
         let temperature = self
             .temperature
             .read(&self.prepared.temperature(), raw.temperature);
         // 2. compensation and 3. pressure
-        let pressure =
+        let mut pressure =
             self.pressure
                 .read(&self.prepared.pressure(), at, raw.pressure, &temperature);
+        // 4. plausibility
+        let mut temperature = temperature;
+        if let Some((pc, tc)) = &self.prepared.scalars().plausibility {
+            probe::enter(Stage::Plausibility);
+            let [ps, ts] = &mut self.plausibility;
+            pressure.status |= pc.check(i64::from(pressure.pressure_pa.to_bits()), at, ps);
+            temperature.status |= tc.check(i64::from(temperature.temperature_k.to_bits()), at, ts);
+        }
         let r = Readings {
             pressure,
             temperature,
@@ -132,7 +145,7 @@ impl<B: AsRef<[u8]>> Pipeline<B> {
         r
     }
 
-    /// One sample: steps 1–4.
+    /// One sample: steps 1–5.
     pub fn sample(&mut self, at: Instant, raw: &RawSample) -> TrackFx {
         let r = self.convert(at, raw);
         self.tracker.update(

@@ -8,6 +8,8 @@ use crate::model::Compressibility;
 use crate::prepared::GaugeConfig;
 use crate::sensor::channel::RawSample;
 use crate::sensor::channel::float::{PressureChannel, TemperatureChannel};
+use crate::sensor::plausibility::PlausibilityState;
+use crate::sensor::plausibility::float::Checker;
 use crate::sensor::{PressureReading, TemperatureReading, VALUE_INVALID};
 use crate::time::Instant;
 use crate::track::float::{Track, Tracker};
@@ -35,6 +37,8 @@ pub struct Pipeline<F: Real, M> {
     temperature: TemperatureChannel<F>,
     pressure: PressureChannel<F>,
     tracker: Tracker<F, M>,
+    plausibility: Option<(Checker<F>, Checker<F>)>,
+    states: [PlausibilityState<F>; 2],
     last_valid: Option<Readings<F>>,
 }
 
@@ -51,10 +55,16 @@ impl<F: Real, M: Compressibility<F>> Pipeline<F, M> {
         temperature.set_offset(F::lit(zt));
         pressure.set_offset(F::lit(zp));
         let est = Estimator::new(config.setup.to_real(), model)?;
+        let plausibility = match &config.plausibility {
+            Some(p) => Some((Checker::new(&p.pressure)?, Checker::new(&p.temperature)?)),
+            None => None,
+        };
         Ok(Pipeline {
             temperature,
             pressure,
             tracker: Tracker::new(est, config.track.to_real())?,
+            plausibility,
+            states: [PlausibilityState::new(), PlausibilityState::new()],
             last_valid: None,
         })
     }
@@ -81,12 +91,19 @@ impl<F: Real, M: Compressibility<F>> Pipeline<F, M> {
         self.pressure.set_offset(F::lit(zp));
     }
 
-    /// Steps 1–3: the codes to corrected readings.
+    /// Steps 1–4: the codes to corrected, checked readings.
     pub fn convert(&mut self, at: Instant, raw: &RawSample) -> Result<Readings<F>, Error> {
         // 1. temperature
         let temperature = self.temperature.read(raw.temperature)?;
         // 2. compensation and 3. pressure
-        let pressure = self.pressure.read(at, raw.pressure, &temperature)?;
+        let mut pressure = self.pressure.read(at, raw.pressure, &temperature)?;
+        // 4. plausibility
+        let mut temperature = temperature;
+        if let Some((pc, tc)) = &self.plausibility {
+            let [ps, ts] = &mut self.states;
+            pressure.status |= pc.check(pressure.pressure_pa, at, ps)?;
+            temperature.status |= tc.check(temperature.temperature_k, at, ts)?;
+        }
         let r = Readings {
             pressure,
             temperature,
@@ -97,7 +114,7 @@ impl<F: Real, M: Compressibility<F>> Pipeline<F, M> {
         Ok(r)
     }
 
-    /// One sample: steps 1–4.
+    /// One sample: steps 1–5.
     pub fn sample(&mut self, at: Instant, raw: &RawSample) -> Result<Track<F>, Error> {
         let r = self.convert(at, raw)?;
         self.tracker.update(

@@ -3,7 +3,7 @@
 use embedded_storage::nor_flash::NorFlash;
 
 use super::fixed::Pipeline;
-use super::service::{LoadStep, Service, refusal};
+use super::service::{LoadStep, Service, config_refusal, refusal};
 use super::{Zero, telemetry};
 use crate::alarm::Events;
 use crate::auth::{Authenticator, NonceSource};
@@ -135,6 +135,51 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         let blob = g.service.config().value.blob;
         let _ = g.rebuild(&blob);
         Ok(g)
+    }
+
+    /// The start-up sequence of every device (the firmware's and the host's
+    /// emulated one): the identity of this application (its version,
+    /// `hardware_rev`, the serial of `provisioning`), the authenticator
+    /// over the provisioned secret — or, for a device never provisioned, a
+    /// random secret nobody knows, so that it answers no signed command
+    /// while telemetry still flows — then [`Gauge::new_in`].
+    #[inline(never)]
+    #[allow(clippy::too_many_arguments)]
+    pub fn start_up<'s>(
+        slot: &'s mut Option<Gauge<F, M>>,
+        provisioning: Option<(u64, crate::auth::Secret)>,
+        rng: &mut dyn NonceSource,
+        hardware_rev: u16,
+        flash: F,
+        layout: Layout,
+        mapper: M,
+        injection: bool,
+        boot: BootReport,
+    ) -> Result<&'s mut Gauge<F, M>, Error> {
+        let (serial, secret) = match provisioning {
+            Some(v) => v,
+            None => {
+                let (mut a, mut b) = ([0u8; NONCE_LEN], [0u8; NONCE_LEN]);
+                rng.fill_nonce(&mut a);
+                rng.fill_nonce(&mut b);
+                let mut key = [0u8; 32];
+                for (k, v) in key.iter_mut().zip(a.iter().chain(b.iter())) {
+                    *k = *v;
+                }
+                (0, crate::auth::Secret::new(key))
+            }
+        };
+        let identity = Identity {
+            serial,
+            hardware_rev,
+            firmware_version: super::VERSION,
+            protocol: 0,
+            max_frame_len: 0,
+            capabilities: 0,
+            config_capacity: 0,
+        };
+        let auth = Authenticator::new(secret, serial, crate::auth::Policy::default());
+        Gauge::new_in(slot, identity, auth, flash, layout, mapper, injection, boot)
     }
 
     /// Prepares the pipeline of the configuration `blob` with the zero
@@ -338,7 +383,7 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
                 .mapper
                 .map(flash, layout, &blob)
                 .ok_or(Refusal::BlobTooLarge)?;
-            Prepared::new(bytes).map_err(refusal)?;
+            Prepared::new(bytes).map_err(config_refusal)?;
         }
         let zero = self.service.zero();
         self.service.commit(blob, zero).map_err(refusal)?;

@@ -34,7 +34,9 @@
 //! 3. `pressure`: the pressure channel converts its code (front-end with
 //!    the site's barometric pressure, NE 43 persistence for a loop,
 //!    correction, zero offset).
-//! 4. `track`: the tracker takes pressure, temperature, both channels'
+//! 4. `plausibility`: where the configuration has them, checks of both
+//!    readings (range, rate of change, stuck value) add their flags.
+//! 5. `track`: the tracker takes pressure, temperature, both channels'
 //!    flags and the sample's time.
 //!
 //! # Zero calibration

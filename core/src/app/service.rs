@@ -202,6 +202,18 @@ impl<F: NorFlash> Service<F> {
     }
 }
 
+/// The refusal of a configuration that does not validate: every reason is
+/// [`Refusal::BadConfig`].
+pub fn config_refusal(e: Error) -> Refusal {
+    match e {
+        Error::OutOfRange(why) | Error::NotFinite(why) => Refusal::bad_config(why),
+        e => match refusal(e) {
+            r @ Refusal::BadConfig { .. } => r,
+            _ => Refusal::bad_config("configuration content"),
+        },
+    }
+}
+
 /// The refusal that tells the host about `e`.
 pub fn refusal(e: Error) -> Refusal {
     match e {
@@ -219,7 +231,7 @@ pub fn refusal(e: Error) -> Refusal {
         Error::Malformed(why) | Error::ModelData(why) | Error::ModelUnusable(why) => {
             Refusal::bad_config(why)
         }
-        Error::ChecksumMismatch => Refusal::BlobCrc,
+        Error::ChecksumMismatch => Refusal::bad_config("configuration checksum"),
         Error::ProtocolVersion(_) => Refusal::bad_config("configuration format version"),
         _ => Refusal::Unsupported,
     }

@@ -15,6 +15,7 @@ use crate::envelope as env;
 use crate::fx::{self, Coef, mul_i32, mul_u32, sat_u32, shr_round, shr_round_i64};
 use crate::fxmath;
 use crate::model::{CompressibilityFx, IsothermFx, ZPointFx};
+use crate::probe::{self, Stage};
 use crate::{Error, SetupFx, Status};
 
 /// One content estimate, fixed-point form (formats in [`crate::fx`]).
@@ -528,9 +529,11 @@ impl<M: CompressibilityFx> Estimator<M> {
 
         // Z alone per sample; its slopes are for the uncertainty, which asks
         // for them when it needs them (`with_slopes`).
+        probe::enter(Stage::Model);
         let (zv, zflags) = self
             .model
             .z_value_fx(fx::Pressure::from_bits(p), fx::Temperature::from_bits(t));
+        probe::enter(Stage::Content);
         let z = ZPointFx {
             z: zv,
             dz_dp_per_mpa: fx::ZSlope::ZERO,
@@ -541,7 +544,9 @@ impl<M: CompressibilityFx> Estimator<M> {
         let (density, sat_density) = self.density(p, t, z.z.to_bits());
         let vessel_factor = self.vessel_factor(p, t);
         let (rho_v, sat_rho_v) = mul_q30(density, vessel_factor);
+        probe::enter(Stage::Settle);
         let (settled, settle_status) = self.settle(rho_v, z.z.to_bits());
+        probe::enter(Stage::Content);
         status |= settle_status;
 
         let mut saturated = sat_density || sat_rho_v;

@@ -18,6 +18,8 @@ use crate::sensor::channel::fixed::{
     PressureFrontBuf, PressureStageBuf, StatusMapBuf, Step, TemperatureStageBuf,
 };
 use crate::sensor::channel::float::{PressureChannel, TemperatureChannel};
+use crate::sensor::plausibility::PlausibilityConfig;
+use crate::sensor::plausibility::fixed::Checker;
 use crate::track::fixed::TrackConfigFx;
 use crate::{Error, SetupFx, fx};
 
@@ -38,6 +40,18 @@ pub struct GaugeConfig {
     /// A gas-model table of the setup's gas built on a host; `None` for the
     /// built-in table.
     pub model: Option<TableBuf>,
+    /// Plausibility checks of the readings (range, rate of change, stuck
+    /// value); `None`: no checks beyond the front-ends' own.
+    pub plausibility: Option<Plausibility>,
+}
+
+/// The plausibility checks of both channels.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct Plausibility {
+    /// The pressure channel (values in Pa).
+    pub pressure: PlausibilityConfig,
+    /// The temperature channel (values in K).
+    pub temperature: PlausibilityConfig,
 }
 
 /// One standard atmosphere, `fx::Pressure` bits (101 325 Pa × 16).
@@ -68,6 +82,7 @@ impl GaugeConfig {
             ),
             barometric_pa: STANDARD_ATMOSPHERE,
             model: None,
+            plausibility: None,
         }
     }
 
@@ -79,6 +94,10 @@ impl GaugeConfig {
         self.track.validate()?;
         if !BARO_BITS.contains(&self.barometric_pa.to_bits()) {
             return Err(Error::OutOfRange("barometric pressure"));
+        }
+        if let Some(p) = &self.plausibility {
+            p.pressure.validate()?;
+            p.temperature.validate()?;
         }
         if let Some(t) = &self.model {
             t.table().validate()?;
@@ -253,9 +272,17 @@ impl PreparedBuf {
         let src = postcard::to_slice(cfg, &mut src).map_err(|_| Error::RecordTooLarge)?;
         let source = arrays.push::<u8>(src)?;
 
+        let plausibility = match &cfg.plausibility {
+            Some(p) => Some((
+                Checker::new(&p.pressure, 4)?,
+                Checker::new(&p.temperature, 16)?,
+            )),
+            None => None,
+        };
         let scalars = Scalars {
             temperature,
             pressure,
+            plausibility,
             barometric: cfg.barometric_pa.to_bits(),
             model,
             estimator: est.parts(),

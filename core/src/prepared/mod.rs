@@ -45,7 +45,7 @@
 mod build;
 mod model;
 
-pub use build::{GaugeConfig, PreparedBuf, Report, STANDARD_ATMOSPHERE};
+pub use build::{GaugeConfig, Plausibility, PreparedBuf, Report, STANDARD_ATMOSPHERE};
 pub use model::PreparedModel;
 
 use serde::{Deserialize, Serialize};
@@ -57,6 +57,7 @@ use crate::curve::{Curve, Piece};
 use crate::sensor::channel::fixed::{
     BridgeStage, LoopStage, PressureFront, PressureStage, StatusMap, Step, TemperatureStage,
 };
+use crate::sensor::plausibility::fixed::Checker;
 use crate::time::Millis;
 use crate::track::fixed::TrackConfigFx;
 use crate::{Error, Gas};
@@ -193,6 +194,9 @@ pub struct Scalars {
     pub temperature: TemperatureScalars,
     /// The pressure channel.
     pub pressure: PressureScalars,
+    /// The plausibility checks of pressure (`fx::Pressure` bits) and
+    /// temperature (`fx::Temperature` bits) readings, if any.
+    pub plausibility: Option<(Checker, Checker)>,
     /// The site's barometric pressure, `fx::Pressure` bits.
     pub barometric: u32,
     /// The gas model.

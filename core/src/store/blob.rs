@@ -93,6 +93,12 @@ impl BlobSlots {
         self.slot_len
     }
 
+    /// Where slot `slot` starts in the flash, bytes (for boards that read a
+    /// blob in place through their memory map).
+    pub fn slot_offset(&self, slot: u8) -> u32 {
+        self.slot_start(slot)
+    }
+
     fn slot_start(&self, slot: u8) -> u32 {
         self.start + u32::from(slot) * self.slot_len
     }

@@ -39,6 +39,7 @@ use crate::alarm::{Alarms, DebounceTable, Events};
 use crate::content::fixed::{Content, Estimator};
 use crate::fx::{self, Coef};
 use crate::model::CompressibilityFx;
+use crate::probe::{self, Stage};
 use crate::time::{Instant, Millis};
 use crate::uncertainty::fixed::{
     EvaluatorFx, QT_MEAN, RateWindowFx, UncertaintyConfigFx, UncertaintyFx, isqrt,
@@ -490,6 +491,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         temperature: fx::Temperature,
         sensor: Status,
     ) -> TrackFx {
+        probe::enter(Stage::Track);
         let sensor = sensor & Status::SENSOR_RANGE;
         let fault = !sensor.is_ok();
         if !fault {
@@ -502,6 +504,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             let content = self
                 .est
                 .estimate(fx::Pressure::from_bits(p), fx::Temperature::from_bits(t));
+            probe::enter(Stage::Track);
             self.content = Some(content);
             self.close_blocks(at, &content);
             if !content.status.intersects(Status::CONTENT_INVALID) {
@@ -513,6 +516,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.last_at = Some(at);
         }
 
+        probe::enter(Stage::Alarms);
         let level = self.content.map(|c| LevelInputs {
             pressure_pa: c.pressure_pa,
             temperature_k: c.temperature_k,
@@ -687,7 +691,9 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.rate_and_time_to_empty(content);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(mean);
+        probe::enter(Stage::Uncertainty);
         self.uncertainty = Some(self.unc.evaluate(&self.est.with_slopes(content)));
+        probe::enter(Stage::Track);
         self.rated_pressure_now_pa = Some(
             self.est
                 .pressure_at(fx::Fraction::ONE, content.temperature_k)

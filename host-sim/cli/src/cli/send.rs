@@ -3,8 +3,12 @@
 use std::time::Duration;
 
 use clap::{Args, Subcommand, ValueEnum};
+use isochor_core::alarm::fixed::LimitsFx;
 use isochor_core::auth::Secret;
-use isochor_core::link::{Command, Origin, SensorChannel};
+use isochor_core::link::{Command, SensorChannel};
+use isochor_core::model::device::TableBuf;
+use isochor_core::prepared::GaugeConfig;
+use isochor_core::store::Origin;
 use isochor_core::{Gas, Setup, SetupFx, Tank, fx};
 use serde_json::json;
 
@@ -69,9 +73,11 @@ pub enum Request {
     Ping,
     /// Show the device's identity and capabilities.
     Identity,
-    /// Show the setup stored in the device.
+    /// Show the configuration in force in the device (setup, zero offsets).
     ReadConfig,
-    /// Store a new setup in the device (signed).
+    /// Store a new setup in the device (signed); its sensors, tracking
+    /// settings and zero offsets are kept, the alarm limits follow the new
+    /// tank.
     WriteConfig(WriteConfigArgs),
     /// Take the present reading of a sensor as its zero (signed).
     ZeroCalibration {
@@ -83,9 +89,11 @@ pub enum Request {
     ClearAlarms,
     /// Restart the device (signed).
     Reboot,
-    /// Load a gas-model blob into the device in chunks (signed).
+    /// Use a gas-model table built on a host (`isochor model build --emit
+    /// blob`) in the device's configuration (signed; the table's gas must
+    /// be the setup's).
     LoadGasModel {
-        /// The blob file.
+        /// The table file.
         #[arg(long)]
         file: std::path::PathBuf,
     },
@@ -160,12 +168,81 @@ pub fn setup(a: &WriteConfigArgs) -> Result<SetupFx, Error> {
     SetupFx::from_f64(&s).map_err(|e| Error::Invalid(format!("setup: {e}")))
 }
 
-fn origin_name(o: Origin) -> &'static str {
-    match o {
-        Origin::Stored => "stored",
-        Origin::Fallback => "fallback",
-        Origin::Default => "default",
+/// The device's configuration with `setup` in place of its own: sensors,
+/// tracking settings, plausibility checks and barometric pressure kept, the
+/// alarm limits those of the new tank, a loaded gas model kept only for the
+/// same gas. A device without a configuration gets the nominal one.
+pub fn with_setup(current: Option<GaugeConfig>, setup: SetupFx) -> GaugeConfig {
+    match current {
+        None => GaugeConfig::nominal(setup),
+        Some(mut c) => {
+            if c.setup.gas != setup.gas {
+                c.model = None;
+            }
+            c.setup = setup;
+            c.track.limits = LimitsFx::for_tank(&setup.tank);
+            c
+        }
     }
+}
+
+/// What the device's configuration reads back as, for text and JSON.
+fn config_view(
+    d: &crate::link::client::DeviceConfig,
+) -> Result<(serde_json::Value, String), Error> {
+    let (zp, zt) = d.zero.to_f64();
+    let head = json!({
+        "origin": d.origin.name(),
+        "config_len": d.blob.len(),
+        "crc32c": format!("{:08x}", d.crc),
+        "zero_pressure_pa": zp,
+        "zero_temperature_k": zt,
+    });
+    let zero_line = format!(
+        "zero offsets: pressure {:+.1} Pa, temperature {:+.3} K\n",
+        zp, zt
+    );
+    let note = match d.origin {
+        Origin::Stored => "",
+        Origin::Fallback => "NOTE: the newest stored copy is damaged; an older copy is in use\n",
+        Origin::Default => "",
+    };
+    let Some(cfg) = d.config()? else {
+        let mut v = head;
+        v["setup"] = serde_json::Value::Null;
+        return Ok((
+            v,
+            format!(
+                "{note}NO CONFIGURATION: the device reports config_unusable and shows no \
+                 content; store one with `isochor send write-config`\n{zero_line}"
+            ),
+        ));
+    };
+    let mut v = setup_json(&cfg.setup);
+    for (k, x) in head.as_object().into_iter().flatten() {
+        v[k] = x.clone();
+    }
+    v["gas_model"] = json!(if cfg.model.is_some() {
+        "loaded"
+    } else {
+        "built-in"
+    });
+    v["barometric_pa"] = json!(fx::to_f64(cfg.barometric_pa));
+    let mut t = format!(
+        "{note}{}gas model {}\nbarometric pressure {:.1} hPa\n{zero_line}configuration {} bytes, CRC-32C {:08x}\n",
+        setup_text(&cfg.setup),
+        if cfg.model.is_some() {
+            "loaded"
+        } else {
+            "built-in"
+        },
+        fx::to_f64(cfg.barometric_pa) / 100.0,
+        d.blob.len(),
+        d.crc
+    );
+    t.push_str(&safety::lines(cfg.setup.gas).join("\n"));
+    t.push('\n');
+    Ok((v, t))
 }
 
 /// The setup as JSON (SI units).
@@ -243,27 +320,12 @@ pub fn execute<T: crate::link::Transport>(
             );
             (v, t)
         }
-        Request::ReadConfig => {
-            let r = client.read_record::<SetupFx>()?;
-            let mut v = setup_json(&r.value);
-            v["origin"] = json!(origin_name(r.origin));
-            let note = match r.origin {
-                Origin::Stored => "",
-                Origin::Fallback => {
-                    "NOTE: the newest stored copy is damaged; an older copy is in use\n"
-                }
-                Origin::Default => {
-                    "NOTE: nothing stored; safe defaults in use - figures mean nothing for a real tank\n"
-                }
-            };
-            let mut t = format!("{note}{}", setup_text(&r.value));
-            t.push_str(&safety::lines(r.value.gas).join("\n"));
-            t.push('\n');
-            (v, t)
-        }
+        Request::ReadConfig => config_view(&client.read_config()?)?,
         Request::WriteConfig(a) => {
             let s = setup(a)?;
-            client.write_record(&s)?;
+            let current = client.read_config()?.config()?;
+            let config = with_setup(current, s);
+            client.configure(&config, &mut |_, _| {})?;
             let mut t = setup_text(&s);
             t.push_str(&text_done("write-config"));
             (json!({ "written": setup_json(&s) }), t)
@@ -288,15 +350,31 @@ pub fn execute<T: crate::link::Transport>(
             (json!({ "done": "reboot" }), text_done("reboot"))
         }
         Request::LoadGasModel { file } => {
-            let blob = std::fs::read(file)
+            let bytes = std::fs::read(file)
                 .map_err(|e| Error::Invalid(format!("--file {}: {e}", file.display())))?;
-            client.load_gas_model(&blob, &mut |_| {})?;
-            let crc = isochor_core::checksum::crc32c(&blob);
+            let table = TableBuf::from_blob(&bytes)
+                .map_err(|e| Error::Invalid(format!("--file {}: {e}", file.display())))?;
+            let Some(mut config) = client.read_config()?.config()? else {
+                return Err(Error::Invalid(
+                    "the device holds no configuration: store one with write-config first".into(),
+                ));
+            };
+            if table.gas != config.setup.gas {
+                return Err(Error::Invalid(format!(
+                    "--file {}: a table of {}, but the device is set up for {}",
+                    file.display(),
+                    table.gas.name(),
+                    config.setup.gas.name()
+                )));
+            }
+            config.model = Some(table);
+            let mut sent = 0;
+            client.configure(&config, &mut |n, _| sent = n)?;
             (
-                json!({ "done": "load-gas-model", "len": blob.len(), "crc32c": format!("{crc:08x}") }),
+                json!({ "done": "load-gas-model", "table_len": bytes.len(), "config_len": sent }),
                 format!(
-                    "gas model loaded: {} bytes, CRC-32C {crc:08x}\n{}",
-                    blob.len(),
+                    "gas model loaded: table {} bytes, configuration {sent} bytes\n{}",
+                    bytes.len(),
                     text_done("load-gas-model")
                 ),
             )
