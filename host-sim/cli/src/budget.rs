@@ -220,37 +220,13 @@ pub fn firmware_stack(board: Board, elf: &Path) -> Result<u64, Error> {
 /// Serial number the firmware is provisioned with for its stack run.
 const STACK_RUN_SERIAL: u64 = 7_000_001;
 
-/// Fails with a clear message when `qemu-system-arm` or a Rust target the
-/// budget needs is missing.
+/// Fails with a clear message, naming the command that fixes it, when
+/// `qemu-system-arm` or a Rust target the budget needs is missing.
 pub fn check_tools() -> Result<(), Error> {
-    if !firmware::qemu_available() {
-        return Err(Error::Tool(
-            "qemu-system-arm not found: install QEMU (Debian: apt-get install qemu-system-arm)"
-                .into(),
-        ));
+    match firmware::missing_tools() {
+        Some(why) => Err(Error::Tool(why)),
+        None => Ok(()),
     }
-    for board in Board::ALL {
-        let target = board.target();
-        if !target_installed(target) {
-            return Err(Error::Tool(format!(
-                "the Rust target {target} is not installed: rustup target add {target}"
-            )));
-        }
-    }
-    Ok(())
-}
-
-/// True when the standard library of `target` is in the sysroot.
-fn target_installed(target: &str) -> bool {
-    let Ok(out) = Command::new("rustc").args(["--print", "sysroot"]).output() else {
-        return false;
-    };
-    let sysroot = String::from_utf8_lossy(&out.stdout).trim().to_string();
-    Path::new(&sysroot)
-        .join("lib/rustlib")
-        .join(target)
-        .join("lib")
-        .is_dir()
 }
 
 /// Builds the budget program for `board`'s target (Cortex-M0 code with the
