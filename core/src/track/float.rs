@@ -912,6 +912,31 @@ mod tests {
         assert!(r.rate.is_none());
     }
 
+    /// A reading outside the envelope (1100 bar) gives no content to show and
+    /// feeds no block, yet the over-pressure alarm still judges it.
+    #[test]
+    fn samples_outside_the_envelope_alarm_but_feed_no_block() {
+        let mut t = tracker_f32();
+        let mut last = None;
+        for i in 0..90u64 {
+            last = Some(
+                t.update(Instant(i * 1000), 1100e5, 288.15, Status::OK)
+                    .unwrap(),
+            );
+        }
+        let r = last.unwrap();
+        assert!(
+            r.content
+                .unwrap()
+                .status
+                .contains(Status::PRESSURE_OUTSIDE_ENVELOPE)
+        );
+        assert!(r.status.intersects(Status::CONTENT_INVALID));
+        assert!(r.status.contains(Status::OVER_PRESSURE), "{:?}", r.status);
+        assert_eq!((t.block_n, t.ring_len, t.prev_block), (0, 0, None));
+        assert!(r.rate.is_none() && r.uncertainty.is_none());
+    }
+
     #[test]
     fn median_of_three() {
         assert_eq!(median3(1.0, 2.0, 3.0), 2.0);
