@@ -143,7 +143,7 @@ impl Status {
     /// envelope (the outputs are then those of the envelope's edge, which is
     /// not where the tank is). The tracker leaves such samples out of its
     /// blocks; its alarms still judge them (a pressure clamped at 1000 bar
-    /// is still far above any rated pressure).
+    /// is above 5/4 of every rated pressure up to 800 bar).
     pub const CONTENT_INVALID: Status = Status(
         Status::TWO_PHASE.0
             | Status::PRESSURE_OUTSIDE_ENVELOPE.0

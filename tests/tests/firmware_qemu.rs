@@ -205,7 +205,7 @@ fn scenario(build: Build) {
     );
     // Bounds: the fixed vs f64 tracker agrees within 1e-6 in F
     // (tests/src/tracking.rs); the sensor conversions in front add their
-    // own (bridge 2.7e-8 of full scale, RTD 1.1e-5 K: README), measured
+    // own (bridge 2.7e-8 of full scale, RTD 1.1e-5 K: docs/measured.md), measured
     // here at 2.3e-6 in F: bound 1e-5.
     assert!(n >= 300);
     assert!(worst_f < 1e-5, "{worst_f}");

@@ -56,7 +56,7 @@ pub struct TrackConfig<F = f64> {
 
 impl TrackConfig<f64> {
     /// Defaults for a tank (common practice where no source is named; each
-    /// value is explained in README "Tracking over time"): smoothing 4 s,
+    /// value is explained in docs/tracking.md): smoothing 4 s,
     /// 60 s blocks, gaps over 5 min restart, reserve 5 %, settling τ = 30 min
     /// with a step of 0.5 % per block (30 %/h) and a tolerance of 0.2 %,
     /// standby leak threshold 0.1 % of the content per day, alarm limits from

@@ -4,7 +4,7 @@
 //! machine, so one tick is 40 instructions. The code is Cortex-M0
 //! (thumbv6m) code; the Cortex-M3 of that machine runs it unchanged.
 //!
-//! Run: see README, "Measured figures".
+//! Run: see docs/measured.md.
 #![no_std]
 #![no_main]
 

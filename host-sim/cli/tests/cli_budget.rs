@@ -1,7 +1,7 @@
 //! `isochor budget` end to end: builds the firmware and the budget program,
 //! runs them in QEMU and checks that every figure of the JSON interface is
 //! present, positive and consistent (no figure is compared with a fixed
-//! value: they are measurements, quoted in README).
+//! value: they are measurements, quoted in docs/budget.md).
 //!
 //! The end-to-end test needs `qemu-system-arm` and the Cortex-M targets
 //! (`tests/setup.sh` installs them). When one is missing it shows as
