@@ -30,7 +30,14 @@ components="$(sed -n 's/^components *= *\[\(.*\)\]/\1/p' rust-toolchain.toml | t
 command -v cargo >/dev/null 2>&1 ||
     fail "cargo is missing: install Rust with rustup (https://rustup.rs), then run this again"
 
-# Asking rustc anything makes rustup install the toolchain of rust-toolchain.toml.
+# rustup installs the toolchain of rust-toolchain.toml the first time rustc
+# runs here; where its automatic install is off, ask for it.
+if ! rustc --version >/dev/null 2>&1; then
+    command -v rustup >/dev/null 2>&1 ||
+        fail "rustc does not run: install Rust with rustup (https://rustup.rs)"
+    say "installing the Rust toolchain named in rust-toolchain.toml"
+    rustup toolchain install # no argument: the active one, from rust-toolchain.toml
+fi
 sysroot="$(rustc --print sysroot)"
 host="$(rustc -vV | sed -n 's/^host: //p')"
 missing_targets=""
