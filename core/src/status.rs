@@ -33,9 +33,14 @@ macro_rules! flags {
 }
 
 flags! {
-    /// Input pressure was outside 0–1000 bar absolute and was clamped to the envelope.
+    /// Input pressure was outside 0–1000 bar absolute: it was clamped to the
+    /// envelope's edge so nothing overflows, and the content outputs (those
+    /// of the edge, not of the sample) are not valid
+    /// ([`Status::CONTENT_INVALID`]).
     PRESSURE_OUTSIDE_ENVELOPE = 0, "pressure_outside_envelope";
-    /// Input temperature was outside −60…+150 °C and was clamped to the envelope.
+    /// Input temperature was outside −60…+150 °C: it was clamped to the
+    /// envelope's edge, and the content outputs are not valid
+    /// ([`Status::CONTENT_INVALID`]).
     TEMPERATURE_OUTSIDE_ENVELOPE = 1, "temperature_outside_envelope";
     /// An output reached the limit of its number format and was clamped there.
     SATURATED = 2, "saturated";
@@ -133,8 +138,17 @@ impl Status {
     pub const DEVICE_RANGE: Status = Status(0xFF00_0000);
 
     /// Flags after which the content outputs (density, mass, amount, standard
-    /// volume, fill fraction) must not be shown as valid numbers.
-    pub const CONTENT_INVALID: Status = Status(Status::TWO_PHASE.0);
+    /// volume, settled pressure, fill fraction) must not be shown as valid
+    /// numbers: the gas is liquid or two-phase, or the sample lay outside the
+    /// envelope (the outputs are then those of the envelope's edge, which is
+    /// not where the tank is). The tracker leaves such samples out of its
+    /// blocks; its alarms still judge them (a pressure clamped at 1000 bar
+    /// is above 5/4 of every rated pressure up to 800 bar).
+    pub const CONTENT_INVALID: Status = Status(
+        Status::TWO_PHASE.0
+            | Status::PRESSURE_OUTSIDE_ENVELOPE.0
+            | Status::TEMPERATURE_OUTSIDE_ENVELOPE.0,
+    );
 
     /// The raw bits, for the wire.
     pub const fn bits(self) -> u32 {

@@ -65,7 +65,7 @@ fn frame_layout_is_as_documented() {
 
 #[test]
 fn max_frame_is_small_and_reached_by_no_message() {
-    // A compile-time figure: print it for the README.
+    // A compile-time figure: print it for docs/measured.md.
     println!(
         "MAX_BODY_LEN = {}, MAX_FRAME_LEN = {MAX_FRAME_LEN}",
         link::MAX_BODY_LEN

@@ -10,7 +10,7 @@ use isochor_core::{Gas, Setup, SetupFx, Status, Tank, fx};
 use isochor_eos::Eos;
 
 /// Bound asserted per gas on the relative density error (fixed and f64),
-/// from the issue's target; measured values are in README ("isochor model
+/// from the issue's target; measured values are in docs/gases.md ("isochor model
 /// check").
 fn bound(_gas: Gas) -> f64 {
     1e-4

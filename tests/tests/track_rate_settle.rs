@@ -1,6 +1,6 @@
 //! Consumption rate, time to empty and thermal settling on synthetic series
 //! with known truth (1 Hz), fixed-point and f64 trackers side by side. Run with
-//! `-- --nocapture` for the figures in README.
+//! `-- --nocapture` for the figures in docs/measured.md.
 
 use isochor_core::alarm::AlarmKind;
 use isochor_core::fx;

@@ -22,7 +22,8 @@ use crate::{Error, SetupFx, Status};
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Content {
-    /// Absolute pressure used, Pa (the sample, clamped to the envelope).
+    /// Absolute pressure used, Pa (the sample, clamped to the envelope; a
+    /// clamped sample's content is not valid, see [`Status::CONTENT_INVALID`]).
     pub pressure_pa: fx::Pressure,
     /// Temperature used, K (the sample, clamped to the envelope).
     pub temperature_k: fx::Temperature,
@@ -520,7 +521,8 @@ impl<M: CompressibilityFx> Estimator<M> {
     }
 
     /// Estimates the content from an absolute pressure and a gas temperature.
-    /// Never fails: samples outside the envelope are clamped and flagged, and
+    /// Never fails: samples outside the envelope are clamped and flagged (their
+    /// content is not valid: [`Status::CONTENT_INVALID`]), and
     /// outputs that do not fit their format saturate with
     /// [`Status::SATURATED`].
     pub fn estimate(&self, pressure: fx::Pressure, temperature: fx::Temperature) -> Content {
@@ -968,11 +970,16 @@ mod tests {
             for p in [0, 1, 1_599_999_999, 1_600_000_000, u32::MAX] {
                 for t in [0, 1, 13_968_997, 27_731_560, u32::MAX] {
                     let c = e.estimate(fx::Pressure::from_bits(p), fx::Temperature::from_bits(t));
+                    let outside = p > 1_600_000_000 || !(13_968_998..=27_731_559).contains(&t);
                     if p > 1_600_000_000 {
                         assert!(c.status.contains(Status::PRESSURE_OUTSIDE_ENVELOPE));
                     }
                     if !(13_968_998..=27_731_559).contains(&t) {
                         assert!(c.status.contains(Status::TEMPERATURE_OUTSIDE_ENVELOPE));
+                    }
+                    // Outside the envelope the content is the edge's: not valid.
+                    if outside {
+                        assert!(c.status.intersects(Status::CONTENT_INVALID));
                     }
                 }
             }

@@ -10,7 +10,8 @@ use crate::{Error, Real, Setup, Status};
 /// One content estimate, float form. Values are SI.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Content<F = f64> {
-    /// Absolute pressure used, Pa (the sample, clamped to the envelope).
+    /// Absolute pressure used, Pa (the sample, clamped to the envelope; a
+    /// clamped sample's content is not valid, see [`Status::CONTENT_INVALID`]).
     pub pressure_pa: F,
     /// Temperature used, K (the sample, clamped to the envelope).
     pub temperature_k: F,
@@ -122,7 +123,8 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
 
     /// Estimates the content from an absolute pressure (Pa) and a gas
     /// temperature (K). Fails only for NaN or infinite inputs; everything else
-    /// is clamped to the envelope and flagged.
+    /// is clamped to the envelope and flagged (the content of a clamped sample
+    /// is not valid: [`Status::CONTENT_INVALID`]).
     pub fn estimate(&self, pressure_pa: F, temperature_k: F) -> Result<Content<F>, Error> {
         if !pressure_pa.is_finite() {
             return Err(Error::NotFinite("pressure"));
@@ -312,6 +314,33 @@ mod tests {
         assert!(c.status.contains(Status::TEMPERATURE_OUTSIDE_ENVELOPE));
         assert_eq!(c.mass_kg, 0.0);
         assert_eq!(c.settled_pressure_pa, 0.0);
+        assert!(c.status.intersects(Status::CONTENT_INVALID));
+    }
+
+    /// 2000 bar is computed at the 1000 bar edge (nothing overflows) and the
+    /// content is marked not valid: the edge is not where the tank is. Inside
+    /// the envelope, the edge itself is valid.
+    #[test]
+    fn outside_envelope_content_is_not_valid() {
+        let e = nitrogen_50l();
+        let edge = e.estimate(env::PRESSURE_MAX_PA, 288.15).unwrap();
+        assert!(!edge.status.intersects(Status::CONTENT_INVALID));
+        let over = e.estimate(2.0 * env::PRESSURE_MAX_PA, 288.15).unwrap();
+        assert_eq!(over.pressure_pa, env::PRESSURE_MAX_PA);
+        assert_eq!(over.mass_kg, edge.mass_kg);
+        assert_eq!(
+            over.status & Status::CONTENT_INVALID,
+            Status::PRESSURE_OUTSIDE_ENVELOPE
+        );
+        for t in [env::TEMPERATURE_MIN_K - 1.0, env::TEMPERATURE_MAX_K + 1.0] {
+            let c = e.estimate(100e5, t).unwrap();
+            assert_eq!(
+                c.status & Status::CONTENT_INVALID,
+                Status::TEMPERATURE_OUTSIDE_ENVELOPE
+            );
+        }
+        // Two-phase stays invalid too.
+        assert!(Status::CONTENT_INVALID.contains(Status::TWO_PHASE));
     }
 
     #[test]

@@ -5,7 +5,8 @@
 //! Both paths follow the same steps, under the same names:
 //!
 //! 1. `clamp_inputs` — limit the sample to the [envelope](crate::envelope),
-//!    flagging what was clamped.
+//!    flagging what was clamped (the outputs are then those of the edge and
+//!    not valid: [`Status::CONTENT_INVALID`](crate::Status::CONTENT_INVALID)).
 //! 2. gas model — Z and its slopes at (p, T).
 //! 3. `density` — ρ = p·M / (Z·R·T).
 //! 4. `vessel_factor` — V/V₀ = 1 + e_p·(p − p_atm) + e_T·(T − T_rated).

@@ -56,7 +56,7 @@ pub struct TrackConfig<F = f64> {
 
 impl TrackConfig<f64> {
     /// Defaults for a tank (common practice where no source is named; each
-    /// value is explained in README "Tracking over time"): smoothing 4 s,
+    /// value is explained in docs/tracking.md): smoothing 4 s,
     /// 60 s blocks, gaps over 5 min restart, reserve 5 %, settling τ = 30 min
     /// with a step of 0.5 % per block (30 %/h) and a tolerance of 0.2 %,
     /// standby leak threshold 0.1 % of the content per day, alarm limits from
@@ -910,6 +910,31 @@ mod tests {
             .update(Instant(1_600_000), 150e5, 288.15, Status::OK)
             .unwrap();
         assert!(r.rate.is_none());
+    }
+
+    /// A reading outside the envelope (1100 bar) gives no content to show and
+    /// feeds no block, yet the over-pressure alarm still judges it.
+    #[test]
+    fn samples_outside_the_envelope_alarm_but_feed_no_block() {
+        let mut t = tracker_f32();
+        let mut last = None;
+        for i in 0..90u64 {
+            last = Some(
+                t.update(Instant(i * 1000), 1100e5, 288.15, Status::OK)
+                    .unwrap(),
+            );
+        }
+        let r = last.unwrap();
+        assert!(
+            r.content
+                .unwrap()
+                .status
+                .contains(Status::PRESSURE_OUTSIDE_ENVELOPE)
+        );
+        assert!(r.status.intersects(Status::CONTENT_INVALID));
+        assert!(r.status.contains(Status::OVER_PRESSURE), "{:?}", r.status);
+        assert_eq!((t.block_n, t.ring_len, t.prev_block), (0, 0, None));
+        assert!(r.rate.is_none() && r.uncertainty.is_none());
     }
 
     #[test]

@@ -1,7 +1,6 @@
 //! Instructions per full estimate — raw converter codes through the sensor
 //! channels, plausibility checks, content estimate (the prepared gas
-//! model), tracking, uncertainty and alarms to the telemetry frame's values
-//! — in fixed point (the firmware's own pipeline over a prepared
+//! model), tracking, uncertainty and alarms — in fixed point (the firmware's own pipeline over a prepared
 //! configuration, `isochor_core::app::fixed::Pipeline`) and for the same
 //! algorithm in `f32` and `f64` (`app::float::Pipeline`), and where the
 //! fixed-point instructions go, stage by stage.
@@ -31,7 +30,7 @@
 //! cost of a mark itself (measured first on marks with nothing between
 //! them). The link stage is the telemetry frame of the sample: its values
 //! and its encoding (postcard, CRC-32C, COBS); it is reported beside the
-//! estimate, not in it.
+//! estimate, not in it (the estimate ends with the tracker's output).
 //!
 //! Stack: the program paints the free stack before each path
 //! (`isochor_firmware::arm::paint_stack`) and prints beside its figures the
@@ -249,12 +248,9 @@ fn run_fixed() -> Option<(u64, u64)> {
         .map_err(|e| hprintln!("fixed pipeline: {:?}", e))
         .ok()?;
     let pipe = slot.as_mut()?;
-    let mut seq = 0u32;
     let r = measure(|at, raw| {
         let out = pipe.sample(at, raw);
-        let tel = telemetry::from_track(seq, &out, Status::OK);
-        seq += 1;
-        tel.status ^ tel.mass_kg as u32
+        out.status.bits() ^ out.content.map_or(0, |c| c.mass_kg.to_bits() as u32)
     });
     Some(r)
 }

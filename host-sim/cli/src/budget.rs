@@ -1,12 +1,14 @@
-//! The firmware's budget: for each firmware build, flash, static RAM and the
-//! measured peak stack; instructions per full estimate on the Cortex-M0 in
-//! fixed point and for the same algorithm in `f32` and `f64` software float.
+//! The firmware's budget: for each firmware build, flash (by module),
+//! static RAM (the largest statics), the measured peak stack and the panic
+//! paths linked; instructions per full estimate on the Cortex-M0 in fixed
+//! point, by stage of the chain, and for the same algorithm in `f32` and
+//! `f64` software float.
 //!
 //! Method:
-//! - **Flash and static RAM**: the section headers of the firmware image
-//!   ([`firmware::image_size`]): flash is everything loaded (vector table,
-//!   code, read-only data, `.data`'s initial values), static RAM `.data`,
-//!   `.bss` and `.uninit`.
+//! - **Flash and static RAM**: the firmware image's sections and symbols
+//!   ([`crate::image`]): flash is everything loaded (vector table, code,
+//!   read-only data, `.data`'s initial values), static RAM `.data`, `.bss`
+//!   and `.uninit`; flash by module from the symbol sizes.
 //! - **Instructions**: the budget program (`firmware/src/bin/budget.rs`),
 //!   built for `thumbv6m-none-eabi` (Cortex-M0 code) with the `mps2` memory
 //!   map (the `f64` run needs more RAM than the `microbit` has), run on QEMU's
@@ -15,12 +17,14 @@
 //!   time by 1 ns and the program reads SysTick around each of 3600 samples
 //!   at 1 Hz after two hours not timed (the tracker's windows full: steady
 //!   state; sixty block closes and one hourly leak step in the hour, each in
-//!   its share). A full
-//!   estimate is raw converter codes to every telemetry value: sensor
-//!   front-ends, corrections, content, tracking, uncertainty and alarms.
+//!   its share). A full estimate is raw converter codes to the tracker's
+//!   output: sensor channels, plausibility, content, tracking, uncertainty
+//!   and alarms. Stages: the same run with the core's stage marks on
+//!   (`isochor_core::probe`); `link` (the telemetry frame's values and
+//!   encoding) is measured there too and reported beside the estimate.
 //! - **Stack** (`stack_bytes`): the firmware image itself runs in QEMU on its
-//!   board, takes its configuration (signed record writes, each rebuilding
-//!   the pipeline) and [`STACK_RUN_SAMPLES`] samples injected over its serial
+//!   board, takes its configuration (a prepared configuration in signed
+//!   pieces) and [`STACK_RUN_SAMPLES`] samples injected over its serial
 //!   link, and reports the deepest stack it used (it paints its stack at
 //!   start) in its diagnostics. Beside it (`estimate_stack_bytes`), the budget
 //!   program paints the free stack before each path and prints over
@@ -192,9 +196,9 @@ pub const STACK_RUN_SAMPLES: u64 = 200;
 
 /// The deepest stack of the firmware image `elf` on `board`: the firmware
 /// runs in QEMU, provisioned with a secret of this run; it answers a ping and
-/// its identity, takes the signed configuration (setup — a gas other than its
-/// default, so the gauge restarts —, calibrations, tracking and alarms: each
-/// write rebuilds the pipeline), then [`STACK_RUN_SAMPLES`] samples injected
+/// its identity, takes the nominal configuration in signed pieces (the last
+/// one validates the whole and prepares the pipeline) and sends it back,
+/// then [`STACK_RUN_SAMPLES`] samples injected
 /// over its link (a slow draw of a 50 L nitrogen cylinder at 20 °C, each
 /// answered with telemetry, block closes included), and reports its stack
 /// peak (stack painting) in its diagnostics.
@@ -247,37 +251,13 @@ pub fn firmware_stack(board: Board, elf: &Path) -> Result<u64, Error> {
 /// Serial number the firmware is provisioned with for its stack run.
 const STACK_RUN_SERIAL: u64 = 7_000_001;
 
-/// Fails with a clear message when `qemu-system-arm` or a Rust target the
-/// budget needs is missing.
+/// Fails with a clear message, naming the command that fixes it, when
+/// `qemu-system-arm` or a Rust target the budget needs is missing.
 pub fn check_tools() -> Result<(), Error> {
-    if !firmware::qemu_available() {
-        return Err(Error::Tool(
-            "qemu-system-arm not found: install QEMU (Debian: apt-get install qemu-system-arm)"
-                .into(),
-        ));
+    match firmware::missing_tools() {
+        Some(why) => Err(Error::Tool(why)),
+        None => Ok(()),
     }
-    for board in Board::ALL {
-        let target = board.target();
-        if !target_installed(target) {
-            return Err(Error::Tool(format!(
-                "the Rust target {target} is not installed: rustup target add {target}"
-            )));
-        }
-    }
-    Ok(())
-}
-
-/// True when the standard library of `target` is in the sysroot.
-fn target_installed(target: &str) -> bool {
-    let Ok(out) = Command::new("rustc").args(["--print", "sysroot"]).output() else {
-        return false;
-    };
-    let sysroot = String::from_utf8_lossy(&out.stdout).trim().to_string();
-    Path::new(&sysroot)
-        .join("lib/rustlib")
-        .join(target)
-        .join("lib")
-        .is_dir()
 }
 
 /// Builds the budget program for `board`'s target (Cortex-M0 code with the
@@ -493,7 +473,7 @@ pub fn render_text(b: &Budget) -> String {
     let _ = writeln!(s);
     let _ = writeln!(
         s,
-        "Instructions per full estimate, Cortex-M0 (raw codes to all outputs; mean of one hour at 1 Hz \
+        "Instructions per full estimate, Cortex-M0 (raw codes to the tracker's output; mean of one hour at 1 Hz \
          after two hours' warm-up, max = one sample)"
     );
     let _ = writeln!(

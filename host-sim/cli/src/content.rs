@@ -6,7 +6,9 @@
 //! keep them stable.
 
 use crate::Error;
+use isochor_core::constants::{BAR_PA, ZERO_CELSIUS_K};
 use isochor_core::content::{fixed, float};
+use isochor_core::envelope as env;
 use isochor_core::model::{Compressibility, CompressibilityFx, DeviceModel, Ideal};
 use isochor_core::{Gas, Setup, SetupFx, StandardCondition, Status, Tank, fx};
 use isochor_eos::reference::ReferenceModel;
@@ -100,7 +102,9 @@ pub struct ReferenceReport {
 }
 
 /// The outputs of one path. Content values are `null` when the status says
-/// they are not valid (liquid or two-phase).
+/// they are not valid ([`Status::CONTENT_INVALID`]: liquid or two-phase, or
+/// a sample outside the operating envelope, whose content would be the
+/// edge's and not the tank's).
 #[derive(Clone, Debug, Serialize, PartialEq)]
 pub struct Outputs {
     /// Density, kg/m³.
@@ -409,6 +413,24 @@ pub fn render_text(r: &ContentReport) -> String {
         Some(status(&x.status)),
         third(&|o| Some(status(&o.status))),
     );
+    let outside = [&r.fixed, &r.float].iter().any(|o| {
+        o.status
+            .iter()
+            .any(|f| f == "pressure_outside_envelope" || f == "temperature_outside_envelope")
+    });
+    if outside {
+        let _ = writeln!(
+            s,
+            "\nnot valid: the sample lies outside the operating envelope ({:.0}–{:.0} bar abs, \
+             {:.0} … {:+.0} °C).\nThe device clamps it to the edge so nothing overflows, and \
+             flags it; the content\ncomputed there is the edge's, not the tank's, so it is not \
+             shown as a number.",
+            env::PRESSURE_MIN_PA / BAR_PA,
+            env::PRESSURE_MAX_PA / BAR_PA,
+            env::TEMPERATURE_MIN_K - ZERO_CELSIUS_K,
+            env::TEMPERATURE_MAX_K - ZERO_CELSIUS_K,
+        );
+    }
     let _ = writeln!(
         s,
         "\nstandard volume at {} and {:.3} kPa ({}); settled pressure at {}; rated content {:.4} kg.",

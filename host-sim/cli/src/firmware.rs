@@ -179,6 +179,46 @@ pub fn qemu_available() -> bool {
         .is_ok_and(|s| s.success())
 }
 
+/// The command that installs QEMU's Arm system emulator on Debian (what
+/// `tests/setup.sh` runs when it is missing).
+pub const QEMU_INSTALL: &str = "sudo apt-get install qemu-system-arm";
+
+/// True when the standard library of the Rust target `target` is in the
+/// sysroot of the `rustc` found from the current folder (rustup's
+/// `rust-toolchain.toml` applies).
+pub fn target_installed(target: &str) -> bool {
+    let Ok(out) = Command::new("rustc").args(["--print", "sysroot"]).output() else {
+        return false;
+    };
+    let sysroot = String::from_utf8_lossy(&out.stdout).trim().to_string();
+    Path::new(&sysroot)
+        .join("lib/rustlib")
+        .join(target)
+        .join("lib")
+        .is_dir()
+}
+
+/// What building the firmware for every board and running it in QEMU needs
+/// that is missing here, with the command that fixes it; `None` when
+/// everything is there.
+pub fn missing_tools() -> Option<String> {
+    if !qemu_available() {
+        return Some(format!(
+            "qemu-system-arm is missing: run `tests/setup.sh` (it installs the Debian package) \
+             or `{QEMU_INSTALL}`"
+        ));
+    }
+    Board::ALL
+        .iter()
+        .map(|b| b.target())
+        .find(|t| !target_installed(t))
+        .map(|t| {
+            format!(
+                "the Rust target {t} is not installed: run `tests/setup.sh` or `rustup target add {t}`"
+            )
+        })
+}
+
 /// A running emulator; killed when dropped.
 pub struct Qemu {
     child: Arc<Mutex<Child>>,

@@ -199,6 +199,85 @@ fn outside_envelope_is_reported_not_refused() {
     }
 }
 
+/// A sample outside the envelope (the 2000 bar, and a temperature
+/// beyond +150 °C) is computed at the edge so nothing overflows, but the
+/// content is withheld everywhere: `null` in JSON on all three sides (the
+/// field names stay), "not valid" in the text with the reason. The sample is
+/// reported as given. Inside the envelope, the edge itself has numbers.
+#[test]
+fn outside_envelope_content_is_withheld_not_clamped_into_a_number() {
+    let content = [
+        "density_kg_m3",
+        "mass_kg",
+        "amount_mol",
+        "standard_volume_m3",
+        "settled_pressure_pa",
+        "fill_fraction",
+    ];
+    for (p, t, flag) in [
+        ("2000bar", "15C", "pressure_outside_envelope"),
+        ("200bar", "170C", "temperature_outside_envelope"),
+    ] {
+        let args = [
+            "content",
+            "--gas",
+            "nitrogen",
+            "--capacity",
+            "50L",
+            "--pressure",
+            p,
+            "--temperature",
+            t,
+            "--rated-pressure",
+            "200bar",
+        ];
+        let j = json(&args);
+        for side in ["fixed", "float", "reference"] {
+            let o = &j[side];
+            for k in content {
+                assert!(o.get(k).is_some(), "{side}.{k} missing: field names stay");
+                assert!(o[k].is_null(), "{p} {t}: {side}.{k} = {}", o[k]);
+            }
+            let flags = o["status"].as_array().unwrap();
+            assert!(flags.iter().any(|f| f == flag), "{side}: {flags:?}");
+        }
+        assert!(j["sample"]["pressure_pa"].as_f64().unwrap() > 0.0);
+
+        let out = isochor(&args);
+        assert!(
+            out.status.success(),
+            "an out-of-envelope reading is reported, not refused"
+        );
+        let text = String::from_utf8(out.stdout).unwrap();
+        let mass = text
+            .lines()
+            .find(|l| l.trim_start().starts_with("mass"))
+            .unwrap();
+        assert_eq!(mass.matches("not valid").count(), 3, "{mass}");
+        assert!(text.contains("outside the operating envelope (0–1000 bar abs, -60 … +150 °C)"));
+        assert!(text.contains("not shown as a number"));
+        assert!(text.contains("CAUTION"));
+    }
+    // The edge itself is inside: numbers, no flag.
+    let j = json(&[
+        "content",
+        "--gas",
+        "nitrogen",
+        "--capacity",
+        "50L",
+        "--pressure",
+        "1000bar",
+        "--temperature",
+        "15C",
+        "--rated-pressure",
+        "200bar",
+    ]);
+    for side in ["fixed", "float"] {
+        assert!(j[side]["mass_kg"].as_f64().unwrap() > 0.0);
+        assert!(j[side]["status"].as_array().unwrap().is_empty(), "{side}");
+    }
+}
+
 #[test]
 fn bad_input_gives_clear_message_and_nonzero_exit() {
     let cases: &[(&[&str], &str)] = &[

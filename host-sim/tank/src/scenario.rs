@@ -1,6 +1,6 @@
 //! Scenario files (TOML, format `isochor-scenario 1`): the tank, its
 //! weather and use, the sensors and their faults, and the gauge under test.
-//! The format is documented in DEVELOPERS.md ("Scenario files"); the
+//! The format is documented in docs/simulator.md ("Scenario files"); the
 //! built-in scenarios are in `host-sim/tank/scenarios/`.
 //!
 //! Quantities carry their units as text (`"200bar"`, `"15C"`, `"50L"`,

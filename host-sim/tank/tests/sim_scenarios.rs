@@ -50,7 +50,7 @@ fn show(s: &Summary) {
 }
 
 /// The demo: the leak (0.5 % of the content per day from day four) is found
-/// within the day (README "Tracking over time" states 24–28 h for
+/// within the day (docs/tracking.md states 24–28 h for
 /// 0.2 %/day and about 11 h for 1 %/day on synthetic series), nothing is
 /// raised before it but the injected sensor fault, and the estimate is
 /// within its uncertainty.
@@ -163,7 +163,7 @@ fn methane_cold_night_no_false_alarm() {
 }
 
 /// The claim "k = 2 holds the truth 95 % of the time" is about instruments
-/// whose errors follow the declaration (README "Uncertainty"): 200
+/// whose errors follow the declaration (docs/uncertainty.md): 200
 /// instruments drawn from it (pressure offset and gain, temperature offset,
 /// water capacity), one day each of the workshop at 10 s samples.
 #[test]
