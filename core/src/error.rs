@@ -73,6 +73,9 @@ pub enum Error {
     /// A device gas-model table or blob is malformed, corrupt or of an
     /// unsupported version; the text says what was wrong.
     ModelData(&'static str),
+    /// A zero calibration was refused: the sensor's reading is too far from
+    /// the zero reference (see [`crate::app::check_zero`]).
+    ZeroNotPlausible(crate::link::ZeroRefusal),
 }
 
 impl fmt::Display for Error {
@@ -104,6 +107,29 @@ impl fmt::Display for Error {
             Error::Malformed(what) => write!(f, "malformed data: {what}"),
             Error::ChecksumMismatch => f.write_str("checksum mismatch (corrupt data)"),
             Error::ModelData(what) => write!(f, "gas-model table refused: {what}"),
+            Error::ZeroNotPlausible(z) => {
+                // Anchors are SI at 2^-24: pressures in whole Pa,
+                // temperatures in mK (integers only).
+                let (unit, scale, what) = match z.channel {
+                    crate::link::SensorChannel::Pressure => {
+                        ("Pa", 1, "vent the pressure transducer to atmosphere")
+                    }
+                    crate::link::SensorChannel::Temperature => {
+                        ("mK", 1000, "put the temperature sensor in an ice bath")
+                    }
+                };
+                let v = |a: i64| a.saturating_mul(scale) >> 24;
+                write!(
+                    f,
+                    "zero refused: the sensor reads {} {unit} ({} {unit} uncorrected), the \
+                     zero reference is {} {unit}, at most {} {unit} apart is accepted; {what} \
+                     first",
+                    v(z.reading),
+                    v(z.uncorrected),
+                    v(z.reference),
+                    v(z.limit)
+                )
+            }
         }
     }
 }

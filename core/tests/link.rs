@@ -6,7 +6,7 @@ use isochor_core::link::{
     self, Accumulator, AlarmEvent, AlarmTransition, Boot, BootReport, Command, Diagnostics, Feed,
     GetChallenge, GetDiagnostics, GetIdentity, Identity, InjectSample, Kind, MAX_FRAME_LEN,
     Message, Origin, Outcome, Ping, RawCode, ReadRecord, Refusal, Reply, ResetReason,
-    SensorChannel, Signed, Telemetry,
+    SensorChannel, Signed, Telemetry, ZeroRefusal,
 };
 use isochor_core::{Error, checksum};
 use proptest::collection::vec;
@@ -336,6 +336,17 @@ fn refusal() -> impl Strategy<Value = Refusal> {
         Just(Refusal::BlobTooLarge),
         Just(Refusal::Storage),
         Just(Refusal::BadGasModel),
+        (channel(), any::<[i64; 4]>()).prop_map(
+            |(channel, [reading, uncorrected, reference, limit])| {
+                Refusal::ZeroNotPlausible(ZeroRefusal {
+                    channel,
+                    reading,
+                    uncorrected,
+                    reference,
+                    limit,
+                })
+            }
+        ),
     ]
 }
 

@@ -65,15 +65,15 @@ fn ev(kind: AlarmKind, raised: bool, s: u64) -> AlarmEvent {
 
 #[test]
 fn over_temperature_with_debounce_and_hysteresis() {
-    // 180 bar; 20 °C, then 70 °C (above the 65 °C limit) from 100 s to 300 s,
-    // then 64 °C (inside the 2 K band) to 400 s, then 60 °C.
+    // 180 bar; 20 °C, then 55 °C (above the 50 °C limit) from 100 s to 300 s,
+    // then 49 °C (inside the 2 K band) to 400 s, then 45 °C.
     let mut s = Vec::new();
     for i in 0..600u64 {
         let c = match i {
             0..100 => 20.0,
-            100..300 => 70.0,
-            300..400 => 64.0,
-            _ => 60.0,
+            100..300 => 55.0,
+            300..400 => 49.0,
+            _ => 45.0,
         };
         // Pressure follows temperature at constant content.
         let t = 273.15 + c;
@@ -81,8 +81,8 @@ fn over_temperature_with_debounce_and_hysteresis() {
     }
     let (events, _, _) = run(&s);
     // Median of three (one sample) and smoothing (τ 4 s, α = 0.2 at 1 Hz)
-    // cross 65 °C about 11 s after the step; raised 10 s later; the clear
-    // condition (< 63 °C) holds from about 403 s, for 30 s.
+    // cross 50 °C about 10 s after the step; raised 10 s later; the clear
+    // condition (< 48 °C) holds from about 403 s, for 30 s.
     assert_eq!(events.len(), 2, "{events:?}");
     let up = events[0];
     assert!(up.kind == AlarmKind::OverTemperature && up.raised);

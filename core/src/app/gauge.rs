@@ -202,20 +202,24 @@ impl DeviceActions for App<'_> {
             .ok_or(Error::OutOfRange("configuration"))?;
         let r = p.last_valid().ok_or(Error::OutOfRange("present reading"))?;
         let baro = p.barometric();
-        match channel {
-            SensorChannel::Pressure => super::rezero(
+        // Anchors (SI at 2^-24) of the reading, the uncorrected reading and
+        // the zero reference; refused unless both readings are near it.
+        let (record, reading, uncorrected, reference) = match channel {
+            SensorChannel::Pressure => (
                 &self.pressure_calibration,
                 i64::from(r.pressure.pressure_pa.to_bits()) << 20,
+                i64::from(r.pressure_uncorrected.to_bits()) << 20,
                 i64::from(baro.to_bits()) << 20,
-                baro,
             ),
-            SensorChannel::Temperature => super::rezero(
+            SensorChannel::Temperature => (
                 &self.temperature_calibration,
                 i64::from(r.temperature.temperature_k.to_bits()) << 8,
+                i64::from(r.temperature_uncorrected.to_bits()) << 8,
                 ICE_POINT,
-                baro,
             ),
-        }
+        };
+        super::check_zero(record, channel, reading, uncorrected, reference)?;
+        super::rezero(record, reading, reference, baro)
     }
 
     fn clear_alarms(&mut self) {

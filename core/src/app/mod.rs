@@ -47,6 +47,15 @@
 //! (`c₀ += δ/(hi − lo)`, an exact shift of every reading); an identity
 //! correction first takes the transducer's range as its interval. The new
 //! record gets the next sequence number and is stored like any record.
+//!
+//! A zero is only taken where the sensor plausibly sits at the reference
+//! ([`check_zero`]): both the corrected reading and the front-end's own
+//! reading must lie within [`zero_limit`] of it — for pressure 2 % of the
+//! transducer's span and at least 10 kPa, for temperature 2 K. Otherwise the
+//! command is refused with [`Error::ZeroNotPlausible`] and nothing changes:
+//! zeroing a transducer under pressure would make a full vessel read nearly
+//! empty and blind the over-pressure alarm. Checking the uncorrected reading
+//! too keeps repeated zeros from walking the correction away step by step.
 
 pub mod fixed;
 pub mod float;
@@ -57,7 +66,7 @@ pub use gauge::{
     stored_gas,
 };
 
-use crate::link::{RawCode, SensorChannel};
+use crate::link::{RawCode, SensorChannel, ZeroRefusal};
 use crate::sensor::PressureKind;
 use crate::sensor::calibration::{CalibrationRecord, Correction, SensorConfig};
 use crate::{Error, fx};
@@ -228,6 +237,77 @@ fn temperature_range(s: &SensorConfig) -> Option<(i64, i64)> {
     Some((i64::from(lo.to_bits()) << 8, i64::from(hi.to_bits()) << 8))
 }
 
+/// The pressure zero bound: 2 % of the transducer's span, as a divisor.
+///
+/// Common practice, no published source: a healthy industrial pressure
+/// transducer's zero offset stays well inside 2 % of its span (the total
+/// error bands of such transducers are about 0.1–1 % of span; from memory),
+/// so a larger apparent offset means gas pressure on the port, not a zero
+/// error. For a 300 bar transducer the bound is 6 bar.
+pub const ZERO_PRESSURE_SPAN_DIVISOR: i64 = 50;
+
+/// The smallest pressure zero bound, Pa: 10 kPa. The zero reference is the
+/// configured barometric pressure, while the weather moves the real one by
+/// about ±5 kPa around its mean (common practice, from memory) and a site's
+/// altitude may differ from the configured value: a vented absolute
+/// transducer must not be refused for that.
+pub const ZERO_PRESSURE_MIN_PA: i64 = 10_000;
+
+/// The temperature zero bound, K: 2 K around the ice point. IEC 60751
+/// class B allows ±0.3 K at 0 °C for a platinum resistance thermometer
+/// (from memory) and interchangeable NTC thermistors are sold to about
+/// ±0.2…1 K (common practice); 2 K leaves room for both and for a poorly
+/// stirred ice bath, while a sensor at room temperature (15 K or more away)
+/// is refused.
+pub const ZERO_TEMPERATURE_MAX_K: i64 = 2;
+
+/// The largest distance between a reading and its zero reference that a
+/// zero calibration accepts, as an anchor (SI at 2^-24): for pressure
+/// 2 % of the front-end's measuring span ([`ZERO_PRESSURE_SPAN_DIVISOR`]),
+/// at least [`ZERO_PRESSURE_MIN_PA`]; for temperature
+/// [`ZERO_TEMPERATURE_MAX_K`]. `None` when the record's sensor is not a
+/// front-end of that channel.
+pub fn zero_limit(record: &CalibrationRecord, channel: SensorChannel) -> Option<i64> {
+    match channel {
+        SensorChannel::Pressure => {
+            // The span does not depend on the barometric pressure.
+            let (lo, hi) = pressure_range(&record.sensor, fx::Pressure::ZERO)?;
+            let span = hi.saturating_sub(lo).max(0);
+            Some((span / ZERO_PRESSURE_SPAN_DIVISOR).max(ZERO_PRESSURE_MIN_PA << 24))
+        }
+        SensorChannel::Temperature => {
+            temperature_range(&record.sensor)?;
+            Some(ZERO_TEMPERATURE_MAX_K << 24)
+        }
+    }
+}
+
+/// Checks that a zero calibration of `channel` is plausible: the present
+/// reading after the correction in use (`reading`) and as the front-end
+/// gives it (`uncorrected`) both lie within [`zero_limit`] of the zero
+/// reference (`reference`); all anchors (SI at 2^-24). Refused with
+/// [`Error::ZeroNotPlausible`], which carries the numbers.
+pub fn check_zero(
+    record: &CalibrationRecord,
+    channel: SensorChannel,
+    reading: i64,
+    uncorrected: i64,
+    reference: i64,
+) -> Result<(), Error> {
+    let limit = zero_limit(record, channel).ok_or(Error::OutOfRange("calibration channel"))?;
+    let far = |v: i64| v.abs_diff(reference) > limit.unsigned_abs();
+    if far(reading) || far(uncorrected) {
+        return Err(Error::ZeroNotPlausible(ZeroRefusal {
+            channel,
+            reading,
+            uncorrected,
+            reference,
+            limit,
+        }));
+    }
+    Ok(())
+}
+
 /// A calibration re-zeroed: the correction shifted by `target − present`
 /// (both anchors: SI at 2^-24; `present` is the corrected reading now), the
 /// sequence number advanced. Integer arithmetic (one 128-bit division).
@@ -288,5 +368,81 @@ mod tests {
         assert_eq!(b, 0x12_3456 >> 10);
         assert_eq!(c, (b << 10) | 512);
         assert_eq!(bucket_code(300, 12), (300, 300));
+    }
+
+    /// Anchor (SI at 2^-24) of a value.
+    fn anchor(v: f64) -> i64 {
+        (v * 16_777_216.0).round() as i64
+    }
+
+    #[test]
+    fn zero_is_refused_away_from_the_reference() {
+        use crate::sensor::PressureKind;
+        use crate::sensor::bridge::BridgeConfig;
+        use crate::sensor::calibration::{Channel, SensorConfig};
+        use crate::sensor::resistive::Circuit;
+        use crate::sensor::rtd::RtdConfig;
+        // A 0–300 bar absolute transducer: bound 2 % of 300 bar = 6 bar.
+        let b = BridgeConfig::new(24, true, 0.0, 0.5, 0.0, 300e5, PressureKind::Absolute).unwrap();
+        let p = CalibrationRecord {
+            sequence: 0,
+            channel: Channel::Pressure,
+            sensor: SensorConfig::Bridge(b),
+            correction: Correction::IDENTITY,
+        };
+        let baro = anchor(101_325.0);
+        assert_eq!(zero_limit(&p, SensorChannel::Pressure), Some(anchor(6e5)));
+        let ch = SensorChannel::Pressure;
+        // Vented, 0.2 bar off: accepted; 5.9 bar off: accepted.
+        assert!(check_zero(&p, ch, anchor(121_325.0), anchor(121_325.0), baro).is_ok());
+        assert!(check_zero(&p, ch, anchor(691_325.0), anchor(691_325.0), baro).is_ok());
+        // Under pressure (a full cylinder, 200 bar): refused, with the numbers.
+        let e = check_zero(&p, ch, anchor(200e5), anchor(200e5), baro).unwrap_err();
+        assert_eq!(
+            e,
+            Error::ZeroNotPlausible(ZeroRefusal {
+                channel: ch,
+                reading: anchor(200e5),
+                uncorrected: anchor(200e5),
+                reference: baro,
+                limit: anchor(6e5),
+            })
+        );
+        // The corrected reading looks vented but the transducer itself reads
+        // 10 bar (an earlier zero taken under pressure): refused too.
+        assert!(check_zero(&p, ch, baro, anchor(10e5), baro).is_err());
+        // A 0–10 bar transducer: 2 % is 0.2 bar, the floor 10 kPa does not bite.
+        let small =
+            BridgeConfig::new(24, true, 0.0, 0.5, 0.0, 10e5, PressureKind::Absolute).unwrap();
+        let q = CalibrationRecord {
+            sensor: SensorConfig::Bridge(small),
+            ..p
+        };
+        assert_eq!(zero_limit(&q, ch), Some(anchor(0.2e5)));
+        // A 0–1 bar gauge transducer: 2 % is 2 kPa, the floor gives 10 kPa.
+        let tiny = BridgeConfig::new(24, true, 0.0, 0.5, 0.0, 1e5, PressureKind::Gauge).unwrap();
+        let q = CalibrationRecord {
+            sensor: SensorConfig::Bridge(tiny),
+            ..p
+        };
+        assert_eq!(zero_limit(&q, ch), Some(anchor(1e4)));
+
+        // Temperature: 2 K around the ice point.
+        let rtd = RtdConfig::new(1000.0, Circuit::Ratiometric, 16, 4000.0).unwrap();
+        let t = CalibrationRecord {
+            sequence: 0,
+            channel: Channel::Temperature,
+            sensor: SensorConfig::Rtd(rtd),
+            correction: Correction::IDENTITY,
+        };
+        let ice = anchor(273.15);
+        let ch = SensorChannel::Temperature;
+        assert!(check_zero(&t, ch, anchor(273.65), anchor(273.65), ice).is_ok());
+        assert!(check_zero(&t, ch, anchor(294.15), anchor(294.15), ice).is_err());
+        // The pressure front-end is no temperature sensor.
+        assert_eq!(
+            check_zero(&p, ch, ice, ice, ice),
+            Err(Error::OutOfRange("calibration channel"))
+        );
     }
 }

@@ -457,6 +457,7 @@ pub fn refusal(e: Error) -> Refusal {
         Error::Flash | Error::SequenceExhausted | Error::StoreLayout => Refusal::Storage,
         Error::MessageBody | Error::UnknownGas => Refusal::BadRecord,
         Error::ModelData(_) => Refusal::BadGasModel,
+        Error::ZeroNotPlausible(z) => Refusal::ZeroNotPlausible(z),
         _ => Refusal::Unsupported,
     }
 }

@@ -318,7 +318,11 @@ pub enum Command {
         /// postcard encoding of the record.
         bytes: Vec<u8, RECORD_MAX_LEN>,
     },
-    /// Take the present reading of a sensor channel as its zero.
+    /// Take the present reading of a sensor channel as its zero reference:
+    /// the barometric pressure for the pressure channel (the transducer
+    /// vented to atmosphere), 0 °C for the temperature channel (an ice
+    /// bath). Refused with [`Refusal::ZeroNotPlausible`] when the reading is
+    /// too far from that reference to be it.
     ZeroCalibration {
         /// Sensor channel.
         channel: SensorChannel,
@@ -356,6 +360,7 @@ impl Command {
 
 /// A sensor input of the device.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum SensorChannel {
     /// The pressure sensor.
     Pressure,
@@ -593,6 +598,30 @@ pub enum Refusal {
     /// The gas-model blob is not a table this device can use (format,
     /// version, checksum or content); nothing was committed.
     BadGasModel,
+    /// A zero calibration was refused: the sensor does not read near the
+    /// zero reference (the transducer is not vented to atmosphere, or the
+    /// temperature sensor is not in an ice bath). Nothing was changed.
+    ZeroNotPlausible(ZeroRefusal),
+}
+
+/// Why a zero calibration was refused: the readings and the bound, as
+/// calibration anchors (SI at 2^-24: Pa for pressure, K for temperature;
+/// `fx::Anchor` bits).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ZeroRefusal {
+    /// The channel.
+    pub channel: SensorChannel,
+    /// The present reading, after the calibration correction in use.
+    pub reading: i64,
+    /// The present reading as the front-end gives it, before any correction.
+    pub uncorrected: i64,
+    /// The zero reference: the barometric pressure, absolute (pressure), or
+    /// 273.15 K (temperature).
+    pub reference: i64,
+    /// The largest distance of either reading from the reference that a zero
+    /// calibration accepts.
+    pub limit: i64,
 }
 
 impl Refusal {

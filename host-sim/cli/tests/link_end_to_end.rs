@@ -94,6 +94,32 @@ fn requests_and_signed_commands_over_memory() {
         }),
         Err(Error::Invalid(_))
     ));
+    // Under pressure (150 bar, a connected vessel): the pressure zero is
+    // refused with the reading and what to do, nothing is stored; at room
+    // temperature the temperature zero is refused likewise.
+    let before = client.read_record::<PressureCalibration>().unwrap();
+    let loaded = bench().sample(150e5, 293.15).unwrap();
+    client.inject(500, &Bench::raw_codes(&loaded)).unwrap();
+    match client.signed(Command::ZeroCalibration {
+        channel: SensorChannel::Pressure,
+    }) {
+        Err(Error::Refused(m)) => {
+            assert!(m.contains("pressure zero refused"), "{m}");
+            assert!(m.contains("reads 150.0"), "{m}");
+            assert!(m.contains("vent the transducer to atmosphere"), "{m}");
+        }
+        other => panic!("{other:?}"),
+    }
+    match client.signed(Command::ZeroCalibration {
+        channel: SensorChannel::Temperature,
+    }) {
+        Err(Error::Refused(m)) => {
+            assert!(m.contains("temperature zero refused"), "{m}");
+            assert!(m.contains("ice bath"), "{m}");
+        }
+        other => panic!("{other:?}"),
+    }
+    assert_eq!(client.read_record::<PressureCalibration>().unwrap(), before);
     // A vented vessel reading 0.2 bar too high: the zero takes it out.
     let vented = bench().sample(101_325.0 + 20_000.0, 293.15).unwrap();
     client.inject(1_000, &Bench::raw_codes(&vented)).unwrap();

@@ -439,7 +439,8 @@ pub struct GaugeSection {
     pub model_uncertainty: Option<f64>,
     /// Declared standard uncertainty of the temperature lag (default 10 min).
     pub temperature_lag: Option<String>,
-    /// `over_temperature` limit (default 65 °C; e.g. `"85C"` for a hydrogen
+    /// `over_temperature` limit (default 50 °C, the storage limit of cylinder
+    /// labels, see `Limits::for_tank`; e.g. `"85C"` for a hydrogen
     /// vehicle tank).
     pub temperature_max: Option<String>,
     /// Stuck check of both channels: a converted value that does not move at

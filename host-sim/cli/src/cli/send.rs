@@ -74,6 +74,18 @@ pub enum Request {
     /// Store a new setup in the device (signed).
     WriteConfig(WriteConfigArgs),
     /// Take the present reading of a sensor as its zero (signed).
+    ///
+    /// Pressure: the transducer must be vented to atmosphere first (vessel
+    /// valve closed, the transducer's port open to air); the device takes
+    /// the reading as the barometric pressure. Never zero a transducer that
+    /// is connected to a pressurised vessel: a full vessel would then read
+    /// nearly empty and the over-pressure alarm would be blinded. The device
+    /// refuses a zero more than 2 % of the transducer's span (at least
+    /// 10 kPa) away from the barometric pressure.
+    ///
+    /// Temperature: put the sensor in an ice bath (crushed ice topped up
+    /// with water, stirred) first; the device takes the reading as 0 °C and
+    /// refuses a zero more than 2 K away from it.
     ZeroCalibration {
         /// The sensor channel.
         #[arg(long, value_enum)]
@@ -274,9 +286,19 @@ pub fn execute<T: crate::link::Transport>(
                 Channel::Temperature => SensorChannel::Temperature,
             };
             client.signed(Command::ZeroCalibration { channel })?;
+            let note = match channel {
+                SensorChannel::Pressure => {
+                    "The transducer's present reading is now the barometric pressure. Reconnect \
+                     it and compare with a calibrated gauge before relying on its readings.\n"
+                }
+                SensorChannel::Temperature => {
+                    "The sensor's present reading is now 0 °C. Refit it to the vessel and let it \
+                     settle before relying on its readings.\n"
+                }
+            };
             (
                 json!({ "done": "zero-calibration" }),
-                text_done("zero-calibration"),
+                format!("{note}{}", text_done("zero-calibration")),
             )
         }
         Request::ClearAlarms => {

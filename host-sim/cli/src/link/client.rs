@@ -3,9 +3,11 @@
 use std::time::{Duration, Instant};
 
 use isochor_core::auth::{self, Secret};
+use isochor_core::constants::ZERO_CELSIUS_K;
 use isochor_core::link::{
     CHUNK_MAX_LEN, Command, Diagnostics, GetChallenge, GetDiagnostics, GetIdentity, Identity,
-    InjectSample, Message, NONCE_LEN, Origin, Outcome, Ping, RawCode, ReadRecord, Refusal, Signed,
+    InjectSample, Message, NONCE_LEN, Origin, Outcome, Ping, RawCode, ReadRecord, Refusal,
+    SensorChannel, Signed, ZeroRefusal,
 };
 use isochor_core::store::{Record, decode_record};
 
@@ -308,6 +310,58 @@ pub fn refusal_text(r: &Refusal) -> String {
         Refusal::Storage => "flash write failed on the device; previous value kept".into(),
         Refusal::BadGasModel => {
             "not a gas-model table this device can use (format, version, checksum or content): nothing committed".into()
+        }
+        Refusal::ZeroNotPlausible(z) => zero_refusal_text(z),
+    }
+}
+
+/// The sentence for a refused zero calibration: what the sensor reads, how
+/// far that is from the zero reference, and what to do.
+pub fn zero_refusal_text(z: &ZeroRefusal) -> String {
+    let a = |v: i64| v as f64 / 16_777_216.0;
+    let (reading, raw, reference, limit) =
+        (a(z.reading), a(z.uncorrected), a(z.reference), a(z.limit));
+    let farther = if (raw - reference).abs() > (reading - reference).abs() {
+        raw
+    } else {
+        reading
+    };
+    match z.channel {
+        SensorChannel::Pressure => {
+            let bar = |pa: f64| format!("{:.3} bar", pa / 1e5);
+            let own = if (raw - reading).abs() > 1.0 {
+                format!(" ({} abs before its calibration correction)", bar(raw))
+            } else {
+                String::new()
+            };
+            format!(
+                "pressure zero refused: the transducer reads {} abs{own}, {} from the \
+                 barometric pressure {} abs; a zero is only taken within {} of it. The port \
+                 is not at atmospheric pressure: close the vessel valve, vent the transducer \
+                 to atmosphere (open its bleed or disconnect it from the vessel), wait for \
+                 the reading to settle, and try again. Nothing was changed.",
+                bar(reading),
+                bar((farther - reference).abs()),
+                bar(reference),
+                bar(limit)
+            )
+        }
+        SensorChannel::Temperature => {
+            let c = |k: f64| format!("{:.2} °C", k - ZERO_CELSIUS_K);
+            let own = if (raw - reading).abs() > 0.01 {
+                format!(" ({} before its calibration correction)", c(raw))
+            } else {
+                String::new()
+            };
+            format!(
+                "temperature zero refused: the sensor reads {}{own}, {:.2} K from the ice \
+                 point (0 °C); a zero is only taken within {:.2} K of it. Put the sensor in \
+                 an ice bath (crushed ice topped up with water, stirred), wait for the \
+                 reading to settle, and try again. Nothing was changed.",
+                c(reading),
+                (farther - reference).abs(),
+                limit
+            )
         }
     }
 }
