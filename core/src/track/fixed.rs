@@ -494,10 +494,8 @@ impl<M: CompressibilityFx> Tracker<M> {
         let fault = !sensor.is_ok();
         if !fault {
             self.check_gap(at);
-            let (p, t) = self.despike(
-                pressure.to_bits().min(RAW_MAX),
-                temperature.to_bits().min(RAW_MAX),
-            );
+            let p_raw = pressure.to_bits().min(RAW_MAX);
+            let (p, t) = self.despike(p_raw, temperature.to_bits().min(RAW_MAX));
             let (p, t) = self.smooth(at, p, t);
             let content = self
                 .est
@@ -509,6 +507,10 @@ impl<M: CompressibilityFx> Tracker<M> {
                 let q = ((bits >> (32 - Q)) + ((bits >> (31 - Q)) & 1)).min(u32::MAX as u64);
                 self.block_sum += q;
                 self.block_n += 1;
+                // Settling from the first sample of a fast change.
+                if let Some(prev) = self.prev_block {
+                    self.fast_sample(at, prev, q as u32, p_raw, p);
+                }
             }
             self.last_at = Some(at);
         }
@@ -649,25 +651,57 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.block_n = 0;
     }
 
+    /// Settling from one sample: the fill fraction the sample's own pressure
+    /// implies, F·p_raw/p (F, Q28, at the smoothed pressure p; the same
+    /// temperature), differs from the previous block mean `prev` (Q28) by
+    /// more than `settle_step`. The raw pressure sees a fast fill or draw
+    /// from its first sample, before despiking and smoothing follow it.
+    /// Without a division: |F·p_raw − prev·p| > step·p.
+    fn fast_sample(&mut self, at: Instant, prev: u32, f: u32, p_raw: u32, p: u32) {
+        let now = fx::mul_u32(f, p_raw);
+        let before = fx::mul_u32(prev, p);
+        // step (Q32) · p → Q28 · p.
+        let limit = fx::mul_u32(self.cfg.settle_step.to_bits(), p) >> (32 - Q);
+        if now.abs_diff(before) > limit {
+            self.unsettled(at, now > before);
+        }
+    }
+
+    /// Settling from a block: its mean `value` (Q28) differs from the
+    /// previous block mean `prev` by more than `settle_step`. Returns whether
+    /// it did.
+    fn fast_change(&mut self, at: Instant, prev: u32, value: u32) -> bool {
+        let step = value as i64 - prev as i64;
+        // |step| in Q28 against the threshold in Q32.
+        if (step.unsigned_abs() << (32 - Q)) <= self.cfg.settle_step.to_bits() as u64 {
+            return false;
+        }
+        self.unsettled(at, step > 0);
+        true
+    }
+
+    /// A fast fill (`rise`) or draw at `at`: not settled from now on, the
+    /// prediction starts afresh; a fill also restarts the rate.
+    fn unsettled(&mut self, at: Instant, rise: bool) {
+        self.settle_active = true;
+        self.settle_blocks = 0;
+        self.settle_since = at;
+        self.predicted = None;
+        if rise {
+            self.ring_len = 0;
+            self.t_len = 0;
+            self.rate = None;
+            self.tte = None;
+        }
+    }
+
     /// Everything that happens once per block.
     fn block(&mut self, end: Instant, mean: u32, content: &Content) {
-        if let Some(prev) = self.prev_block {
-            let step = mean as i64 - prev as i64;
-            // |step| in Q28 against the threshold in Q32.
-            if (step.unsigned_abs() << (32 - Q)) > self.cfg.settle_step.to_bits() as u64 {
-                self.settle_active = true;
-                self.settle_blocks = 0;
-                self.settle_since = end;
-                self.predicted = None;
-                if step > 0 {
-                    self.ring_len = 0;
-                    self.t_len = 0;
-                    self.rate = None;
-                    self.tte = None;
-                }
-            } else if self.settle_active {
-                self.settle_blocks += 1;
-            }
+        if let Some(prev) = self.prev_block
+            && !self.fast_change(end, prev, mean)
+            && self.settle_active
+        {
+            self.settle_blocks += 1;
         }
         self.prev_block = Some(mean);
         self.ring.rotate_left(1);

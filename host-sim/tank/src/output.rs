@@ -220,6 +220,12 @@ pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
     );
     row(
         &mut o,
+        "largest |error| / U(m) (judged)",
+        s.max_error_over_uncertainty
+            .map_or_else(|| "—".to_string(), |v| format!("{v:.2}")),
+    );
+    row(
+        &mut o,
         "leak",
         match (s.leak_started_s, s.leak_detected_after_s) {
             (None, _) => "none simulated".into(),

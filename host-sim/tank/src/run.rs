@@ -14,7 +14,8 @@
 //!   the bias and the rms are over judged samples; `_all` variants over
 //!   every sample with an estimate.
 //! * **Uncertainty coverage**: share of judged samples whose k = 2 interval
-//!   m ± U(m) holds the true mass.
+//!   m ± U(m) holds the true mass; and the largest |error|/U(m) of a judged
+//!   sample (`max_error_over_uncertainty`).
 //! * **Leak detection**: time from the start of the first leak to the first
 //!   `leak` alarm after it.
 //! * **False alarms**: raises the truth does not justify: `leak` before any
@@ -155,6 +156,11 @@ pub struct Summary {
     pub max_abs_error_fraction_all: Option<f64>,
     /// Share of judged samples whose k = 2 interval holds the true mass.
     pub uncertainty_coverage: Option<f64>,
+    /// Largest |content error| / U(m) (k = 2), judged samples: above 1 the
+    /// interval missed the truth; a drawn instrument is beyond 2 (4 standard
+    /// uncertainties) with a probability of about 1e-4 if the declared
+    /// uncertainties hold.
+    pub max_error_over_uncertainty: Option<f64>,
     /// Median U(m)/m, judged samples (once a minute).
     pub median_relative_uncertainty: Option<f64>,
     /// Start of the first leak, s (null: no leak).
@@ -380,6 +386,7 @@ struct Scorer {
     n_judged: u64,
     n_covered: u64,
     max_err: f64,
+    max_err_over_u: f64,
     max_err_all: f64,
     any_all: bool,
     sum_err: f64,
@@ -405,6 +412,7 @@ impl Scorer {
             n_judged: 0,
             n_covered: 0,
             max_err: 0.0,
+            max_err_over_u: 0.0,
             max_err_all: 0.0,
             any_all: false,
             sum_err: 0.0,
@@ -447,6 +455,9 @@ impl Scorer {
                 self.sum_sq += e * e;
                 if (m - truth.mass_kg).abs() <= u {
                     self.n_covered += 1;
+                }
+                if u > 0.0 {
+                    self.max_err_over_u = self.max_err_over_u.max((m - truth.mass_kg).abs() / u);
                 }
                 if minute {
                     self.rel_u.push((u / truth.mass_kg) as f32);
@@ -581,6 +592,7 @@ impl Scorer {
             rms_error_fraction: judged.then(|| (self.sum_sq / n).sqrt()),
             max_abs_error_fraction_all: self.any_all.then_some(self.max_err_all),
             uncertainty_coverage: judged.then(|| self.n_covered as f64 / n),
+            max_error_over_uncertainty: judged.then_some(self.max_err_over_u),
             median_relative_uncertainty: self
                 .rel_u
                 .get(self.rel_u.len() / 2)
