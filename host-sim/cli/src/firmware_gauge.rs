@@ -184,7 +184,7 @@ fn reading(t: &Telemetry, events: Events) -> Reading {
                 t.time_to_empty_latest_s.map(f64::from),
             )
         }),
-        loss_per_day: None,
+        loss_fraction_per_day: None,
         status,
         events,
     }

@@ -370,7 +370,7 @@ fn listen_jsonl_csv_and_text_from_stdin() {
     let out = isochor(&["listen", "--stdin"], &[], Some(&capture()));
     let text = String::from_utf8(out.stdout).unwrap();
     assert!(text.contains("CAUTION"));
-    assert!(text.contains("200.000 bar"));
+    assert!(text.contains("200.000 bar abs"), "{text}");
     assert!(text.contains("ALARM 1 RAISED"));
     assert!(text.contains("! bad frame"));
     assert!(text.contains("3 frames, 1 bad frames"), "{text}");

@@ -99,8 +99,9 @@ pub struct TracePoint {
     pub true_outflow_kg_h: f64,
     /// The gauge's expected time to empty, s.
     pub time_to_empty_s: Option<f64>,
-    /// The gauge's loss per day (leak detector).
-    pub loss_per_day: Option<f64>,
+    /// The gauge's loss per day (leak detector), as a fraction of the
+    /// content per day (0.005: 0.5 % a day).
+    pub loss_fraction_per_day: Option<f64>,
     /// The gauge's status word (bits).
     pub status: u32,
 }
@@ -355,7 +356,7 @@ fn point(t: &Truth, r: &Reading) -> TracePoint {
         rate_kg_h: r.rate_kg_h,
         true_outflow_kg_h: t.outflow_kg_s * 3600.0,
         time_to_empty_s: r.time_to_empty_s.map(|x| x.0),
-        loss_per_day: r.loss_per_day,
+        loss_fraction_per_day: r.loss_fraction_per_day,
         status: r.status.bits(),
     }
 }

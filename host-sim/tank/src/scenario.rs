@@ -269,7 +269,8 @@ pub struct LeakSection {
     pub start: String,
     /// Effective area (`"3e-5mm2"`); or give `loss_per_day`.
     pub area: Option<String>,
-    /// Loss at the start, fraction of the content per day (sets the area).
+    /// Loss at the start, as a fraction of the content per day (0.005: 0.5 %
+    /// a day; sets the area).
     pub loss_per_day: Option<f64>,
 }
 

@@ -16,6 +16,9 @@ pub struct DemoArgs {
     /// Folder for the summary JSON, time series and plots.
     #[arg(long, default_value = "isochor-out")]
     pub out: PathBuf,
+    /// Write no files (summary only).
+    #[arg(long)]
+    pub no_files: bool,
     /// Output format of the summary.
     #[arg(long, value_enum, default_value_t = Format::Text)]
     pub format: Format,
@@ -28,12 +31,12 @@ pub fn run(a: &DemoArgs) -> Result<String, Error> {
         vec![sc],
         BackendKind::Fixed,
         60.0,
-        Some(&a.out),
+        (!a.no_files).then_some(a.out.as_path()),
         true,
         a.format == Format::Text,
     )?;
     let mut s = render(&done, a.format)?;
-    if a.format == Format::Text {
+    if a.format == Format::Text && !a.no_files {
         s += "\nOpen the PNG above to see pressure, temperatures, content with its uncertainty \
 band, the content error and the alarms. More: `isochor sim --list`.\n";
     }

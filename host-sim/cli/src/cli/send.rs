@@ -112,10 +112,13 @@ pub struct WriteConfigArgs {
     /// Water capacity of the tank, with unit (L, mL, m3).
     #[arg(long, allow_hyphen_values = true)]
     pub capacity: String,
-    /// Rated (service) pressure, absolute, with unit.
+    /// Rated (service) pressure, with unit: absolute (bar, bara, psia, ...)
+    /// or gauge (barg, psig: the standard atmosphere, 1.01325 bar, is
+    /// added). The working pressure marked on a cylinder is a gauge pressure.
     #[arg(long, allow_hyphen_values = true)]
     pub rated_pressure: String,
-    /// Temperature the rated pressure refers to.
+    /// Temperature the rated pressure refers to. 15 °C in ISO practice; some
+    /// markings (US practice) refer to 70 °F (21.1 °C): give 70F then.
     #[arg(long, default_value = "15C", allow_hyphen_values = true)]
     pub rated_temperature: String,
     /// Standard condition for standard volume (iso13443, normal, ntp, 60f, or T,P).
@@ -154,7 +157,12 @@ pub fn setup(a: &WriteConfigArgs) -> Result<SetupFx, Error> {
     })?;
     let tank = Tank {
         water_capacity_m3: units::volume_m3(&a.capacity, "--capacity")?,
-        rated_pressure_pa: units::pressure_pa(&a.rated_pressure, "--rated-pressure")?,
+        rated_pressure_pa: units::absolute_pa(
+            &a.rated_pressure,
+            "--rated-pressure",
+            false,
+            isochor_core::constants::STANDARD_ATMOSPHERE_PA,
+        )?,
         rated_temperature_k: units::temperature_k(&a.rated_temperature, "--rated-temperature")?,
         elastic_expansion_per_mpa: units::number(
             &a.elastic_expansion_per_bar,
@@ -221,8 +229,9 @@ pub fn execute<T: crate::link::Transport>(
 ) -> Result<String, Error> {
     let text_done = |what: &str| {
         format!(
-            "{what}: done (confirmed by the device)\n{}\n",
-            safety::GENERAL
+            "{what}: done (confirmed by the device)\n{}\n{}\n",
+            safety::GENERAL,
+            safety::HARDWARE
         )
     };
     let (value, text) = match request {
