@@ -28,12 +28,18 @@ fn crc_check_values() {
 
 #[test]
 fn cobs_examples() {
-    // Cheshire & Baker, "Consistent Overhead Byte Stuffing", IEEE/ACM
-    // Transactions on Networking 7(2), 1999 (examples as tabulated in the
-    // COBS literature).
-    let cases: [(&[u8], &[u8]); 2] = [
+    // Worked by hand from the encoding rule of Cheshire & Baker,
+    // "Consistent Overhead Byte Stuffing", IEEE/ACM Transactions on
+    // Networking 7(2), 1999: the input is cut at every zero into blocks, and
+    // each block is written as one code byte (its length + 1) followed by
+    // its bytes; the zero itself is not written (no trailing delimiter here:
+    // the frame layer adds it). E.g. 0A 0B | 0C → 03 0A 0B, 02 0C; an empty
+    // block is the single code 01.
+    let cases: [(&[u8], &[u8]); 4] = [
         (&[0x0A, 0x0B, 0x00, 0x0C], &[0x03, 0x0A, 0x0B, 0x02, 0x0C]),
         (&[0x00, 0x00, 0x01, 0x00], &[0x01, 0x01, 0x02, 0x01, 0x01]),
+        (&[0x00], &[0x01, 0x01]),
+        (&[0x11, 0x00, 0x00, 0x00], &[0x02, 0x11, 0x01, 0x01, 0x01]),
     ];
     for (raw, encoded) in cases {
         let mut out = [0u8; 16];

@@ -237,8 +237,10 @@ fn microbit_runs_the_scenario() {
 /// same scorer. The firmware runs the same fixed-point chain, so every
 /// reading agrees within the difference of their bridge compensation
 /// policies (the firmware prepares it per block of temperature codes, the
-/// in-process backend per 0.05 K: 2e-6 of the content is the bound, common
-/// practice; measured: identical) and the scores agree to the same order.
+/// in-process backend per 0.05 K: 2e-6 of the content is the bound, a
+/// tolerance of our own at the order of the fixed-point chain's resolution,
+/// not an outside value; measured: identical) and the scores agree to the
+/// same order.
 #[test]
 fn sim_on_the_firmware_scores_like_the_fixed_core() {
     use isochor_sim::firmware_gauge::FirmwareGauge;
