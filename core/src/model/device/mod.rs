@@ -56,10 +56,11 @@
 /// two-phase: 1/8 (12.5 %). A closed vessel holding liquid and vapour sits
 /// at the vapour pressure; a reading above it comes from sensor error
 /// (a few tenths of a per cent of full scale), a temperature reading that
-/// lags the liquid (the vapour pressure of carbon dioxide near 15 °C rises by
-/// about 2.5 % per kelvin; CoolProp 8.0.0), the fitted curve's conservative
+/// lags the liquid (the vapour pressure of carbon dioxide rises by 2.4 % from
+/// 15 °C to 16 °C, 50.87 to 52.11 bar, by the saturation ancillary of its
+/// reference equation as CoolProp 8.0.0 exports it), the fitted curve's conservative
 /// offset, or a vessel with no vapour space left, whose pressure then rises
-/// by several bar per kelvin. 1/8 covers the first three with room
+/// by several bar per kelvin (from memory). 1/8 covers the first three with room
 /// (a 3 K lag on carbon dioxide) and is crossed within a few kelvin of
 /// warming by a liquid-full vessel. A judgement (common practice), not a
 /// published figure.
