@@ -94,18 +94,24 @@ fn requests_and_signed_commands_over_memory() {
         }),
         Err(Error::Invalid(_))
     ));
-    // Under pressure (150 bar, a connected vessel): the pressure zero is
+    // Under pressure (250 bar, a connected 200 bar vessel over-filled by
+    // about a quarter): the telemetry says `over_fill`; the pressure zero is
     // refused with the reading and what to do, nothing is stored; at room
     // temperature the temperature zero is refused likewise.
     let before = client.read_record::<PressureCalibration>().unwrap();
-    let loaded = bench().sample(150e5, 293.15).unwrap();
+    let loaded = bench().sample(250e5, 293.15).unwrap();
+    client.take_unsolicited();
     client.inject(500, &Bench::raw_codes(&loaded)).unwrap();
+    client.collect(Duration::from_millis(200)).unwrap();
+    let t = telemetry(&client.take_unsolicited());
+    let st = Status::from_bits(t.last().unwrap().status);
+    assert!(st.contains(Status::OVER_FILL), "{st}");
     match client.signed(Command::ZeroCalibration {
         channel: SensorChannel::Pressure,
     }) {
         Err(Error::Refused(m)) => {
             assert!(m.contains("pressure zero refused"), "{m}");
-            assert!(m.contains("reads 150.0"), "{m}");
+            assert!(m.contains("reads 250.0"), "{m}");
             assert!(m.contains("vent the transducer to atmosphere"), "{m}");
         }
         other => panic!("{other:?}"),
