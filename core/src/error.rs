@@ -108,17 +108,17 @@ impl fmt::Display for Error {
             Error::ChecksumMismatch => f.write_str("checksum mismatch (corrupt data)"),
             Error::ModelData(what) => write!(f, "gas-model table refused: {what}"),
             Error::ZeroNotPlausible(z) => {
-                // Anchors are SI at 2^-24: pressures in whole Pa,
-                // temperatures in mK (integers only).
-                let (unit, scale, what) = match z.channel {
+                // Pressure bits are Pa × 16, temperature bits K × 65536:
+                // whole Pa and mK (integers only).
+                let (unit, scale, shift, what) = match z.channel {
                     crate::link::SensorChannel::Pressure => {
-                        ("Pa", 1, "vent the pressure transducer to atmosphere")
+                        ("Pa", 1, 4, "vent the pressure transducer to atmosphere")
                     }
                     crate::link::SensorChannel::Temperature => {
-                        ("mK", 1000, "put the temperature sensor in an ice bath")
+                        ("mK", 1000, 16, "put the temperature sensor in an ice bath")
                     }
                 };
-                let v = |a: i64| a.saturating_mul(scale) >> 24;
+                let v = |a: u32| (u64::from(a) * scale) >> shift;
                 write!(
                     f,
                     "zero refused: the sensor reads {} {unit} ({} {unit} uncorrected), the \

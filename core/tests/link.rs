@@ -342,7 +342,7 @@ fn refusal() -> impl Strategy<Value = Refusal> {
         Just(Refusal::BlobTooLarge),
         Just(Refusal::Storage),
         Just(Refusal::BadGasModel),
-        (channel(), any::<[i64; 4]>()).prop_map(
+        (channel(), any::<[u32; 4]>()).prop_map(
             |(channel, [reading, uncorrected, reference, limit])| {
                 Refusal::ZeroNotPlausible(ZeroRefusal {
                     channel,

@@ -297,12 +297,19 @@ pub fn check_zero(
     let limit = zero_limit(record, channel).ok_or(Error::OutOfRange("calibration channel"))?;
     let far = |v: i64| v.abs_diff(reference) > limit.unsigned_abs();
     if far(reading) || far(uncorrected) {
+        // Anchors to the wire's bits of the channel's format (Pressure:
+        // 2^-4 Pa, Temperature: 2^-16 K), clamped to it.
+        let shift = match channel {
+            SensorChannel::Pressure => 20,
+            SensorChannel::Temperature => 8,
+        };
+        let bits = |a: i64| (a >> shift).clamp(0, i64::from(u32::MAX)) as u32;
         return Err(Error::ZeroNotPlausible(ZeroRefusal {
             channel,
-            reading,
-            uncorrected,
-            reference,
-            limit,
+            reading: bits(reading),
+            uncorrected: bits(uncorrected),
+            reference: bits(reference),
+            limit: bits(limit),
         }));
     }
     Ok(())
@@ -398,14 +405,15 @@ mod tests {
         assert!(check_zero(&p, ch, anchor(691_325.0), anchor(691_325.0), baro).is_ok());
         // Under pressure (a full cylinder, 200 bar): refused, with the numbers.
         let e = check_zero(&p, ch, anchor(200e5), anchor(200e5), baro).unwrap_err();
+        // On the wire in Pressure bits (Pa × 16).
         assert_eq!(
             e,
             Error::ZeroNotPlausible(ZeroRefusal {
                 channel: ch,
-                reading: anchor(200e5),
-                uncorrected: anchor(200e5),
-                reference: baro,
-                limit: anchor(6e5),
+                reading: 200e5 as u32 * 16,
+                uncorrected: 200e5 as u32 * 16,
+                reference: 101_325 * 16,
+                limit: 6e5 as u32 * 16,
             })
         );
         // The corrected reading looks vented but the transducer itself reads
@@ -438,7 +446,14 @@ mod tests {
         let ice = anchor(273.15);
         let ch = SensorChannel::Temperature;
         assert!(check_zero(&t, ch, anchor(273.65), anchor(273.65), ice).is_ok());
-        assert!(check_zero(&t, ch, anchor(294.15), anchor(294.15), ice).is_err());
+        match check_zero(&t, ch, anchor(294.15), anchor(294.15), ice) {
+            Err(Error::ZeroNotPlausible(z)) => {
+                assert!((z.si(z.reading) - 294.15).abs() < 1e-4);
+                assert!((z.si(z.reference) - 273.15).abs() < 1e-4);
+                assert_eq!(z.si(z.limit), 2.0);
+            }
+            other => panic!("{other:?}"),
+        }
         // The pressure front-end is no temperature sensor.
         assert_eq!(
             check_zero(&p, ch, ice, ice, ice),

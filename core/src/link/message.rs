@@ -604,24 +604,36 @@ pub enum Refusal {
     ZeroNotPlausible(ZeroRefusal),
 }
 
-/// Why a zero calibration was refused: the readings and the bound, as
-/// calibration anchors (SI at 2^-24: Pa for pressure, K for temperature;
-/// `fx::Anchor` bits).
+/// Why a zero calibration was refused: the readings and the bound, as raw
+/// bits of the channel's format: `fx::Pressure` (`U28F4`, Pa, absolute) for
+/// the pressure channel, `fx::Temperature` (`U16F16`, K) for the
+/// temperature channel.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct ZeroRefusal {
     /// The channel.
     pub channel: SensorChannel,
     /// The present reading, after the calibration correction in use.
-    pub reading: i64,
+    pub reading: u32,
     /// The present reading as the front-end gives it, before any correction.
-    pub uncorrected: i64,
+    pub uncorrected: u32,
     /// The zero reference: the barometric pressure, absolute (pressure), or
     /// 273.15 K (temperature).
-    pub reference: i64,
+    pub reference: u32,
     /// The largest distance of either reading from the reference that a zero
     /// calibration accepts.
-    pub limit: i64,
+    pub limit: u32,
+}
+
+impl ZeroRefusal {
+    /// A value of this refusal in SI units (Pa or K); a host helper (float).
+    pub fn si(&self, bits: u32) -> f64 {
+        let scale = match self.channel {
+            SensorChannel::Pressure => 1.0 / 16.0,
+            SensorChannel::Temperature => 1.0 / 65_536.0,
+        };
+        f64::from(bits) * scale
+    }
 }
 
 impl Refusal {

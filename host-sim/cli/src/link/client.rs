@@ -318,9 +318,12 @@ pub fn refusal_text(r: &Refusal) -> String {
 /// The sentence for a refused zero calibration: what the sensor reads, how
 /// far that is from the zero reference, and what to do.
 pub fn zero_refusal_text(z: &ZeroRefusal) -> String {
-    let a = |v: i64| v as f64 / 16_777_216.0;
-    let (reading, raw, reference, limit) =
-        (a(z.reading), a(z.uncorrected), a(z.reference), a(z.limit));
+    let (reading, raw, reference, limit) = (
+        z.si(z.reading),
+        z.si(z.uncorrected),
+        z.si(z.reference),
+        z.si(z.limit),
+    );
     let farther = if (raw - reference).abs() > (reading - reference).abs() {
         raw
     } else {
