@@ -494,8 +494,11 @@ impl<M: CompressibilityFx> Tracker<M> {
         let fault = !sensor.is_ok();
         if !fault {
             self.check_gap(at);
-            let p_raw = pressure.to_bits().min(RAW_MAX);
-            let (p, t) = self.despike(p_raw, temperature.to_bits().min(RAW_MAX));
+            let raw = (
+                pressure.to_bits().min(RAW_MAX),
+                temperature.to_bits().min(RAW_MAX),
+            );
+            let (p, t) = self.despike(raw.0, raw.1);
             let (p, t) = self.smooth(at, p, t);
             let content = self
                 .est
@@ -509,7 +512,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 self.block_n += 1;
                 // Settling from the first sample of a fast change.
                 if let Some(prev) = self.prev_block {
-                    self.fast_sample(at, prev, q as u32, p_raw, p);
+                    self.fast_sample(at, prev, q as u32, raw, (p, t));
                 }
             }
             self.last_at = Some(at);
@@ -651,17 +654,31 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.block_n = 0;
     }
 
-    /// Settling from one sample: the fill fraction the sample's own pressure
-    /// implies, F·p_raw/p (F, Q28, at the smoothed pressure p; the same
-    /// temperature), differs from the previous block mean `prev` (Q28) by
-    /// more than `settle_step`. The raw pressure sees a fast fill or draw
-    /// from its first sample, before despiking and smoothing follow it.
-    /// Without a division: |F·p_raw − prev·p| > step·p.
-    fn fast_sample(&mut self, at: Instant, prev: u32, f: u32, p_raw: u32, p: u32) {
-        let now = fx::mul_u32(f, p_raw);
-        let before = fx::mul_u32(prev, p);
+    /// Settling from one sample: the fill fraction the sample's own reading
+    /// implies, F·(p_raw/p)·(T/T_raw) (F, Q28, at the smoothed pressure p
+    /// and temperature T; the gas-law scaling from the smoothed to the raw
+    /// reading), differs from the previous block mean `prev` (Q28) by more
+    /// than `settle_step`. The raw reading (`raw`, before despiking and
+    /// smoothing) sees a fast fill or draw from its first sample; a change
+    /// of temperature at constant content moves p and T together and
+    /// cancels. Without a division:
+    /// |F·p_raw·T − prev·p·T_raw| > step·p·T_raw, the pressure products
+    /// brought below 2^32 by one common shift before the temperatures
+    /// multiply them.
+    fn fast_sample(&mut self, at: Instant, prev: u32, f: u32, raw: (u32, u32), smooth: (u32, u32)) {
+        let ((p_raw, t_raw), (p, t)) = (raw, smooth);
+        if p == 0 || t_raw == 0 {
+            return;
+        }
+        let x = fx::mul_u32(f, p_raw);
+        let y = fx::mul_u32(prev, p);
         // step (Q32) · p → Q28 · p.
-        let limit = fx::mul_u32(self.cfg.settle_step.to_bits(), p) >> (32 - Q);
+        let z = fx::mul_u32(self.cfg.settle_step.to_bits(), p) >> (32 - Q);
+        let s = (64 - x.max(y).max(z).leading_zeros()).saturating_sub(32);
+        let low = |v: u64| (v >> s) as u32;
+        let now = fx::mul_u32(low(x), t);
+        let before = fx::mul_u32(low(y), t_raw);
+        let limit = fx::mul_u32(low(z), t_raw);
         if now.abs_diff(before) > limit {
             self.unsettled(at, now > before);
         }

@@ -399,8 +399,8 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 self.block_n += 1;
                 // Settling from the first sample of a fast change.
                 if let Some(prev) = self.prev_block {
-                    let p_raw = pressure_pa.max(F::ZERO);
-                    self.fast_sample(at, prev, content.fill_fraction, p_raw, p);
+                    let raw = (pressure_pa.max(F::ZERO), temperature_k);
+                    self.fast_sample(at, prev, content.fill_fraction, raw, (p, t));
                 }
             }
             self.last_at = Some(at);
@@ -535,16 +535,23 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         self.block_n = 0;
     }
 
-    /// Settling from one sample: the fill fraction the sample's own pressure
-    /// implies, F·p_raw/p (F at the smoothed pressure p; the same
-    /// temperature), differs from the previous block mean `prev` by more
-    /// than `settle_step`. The raw pressure sees a fast fill or draw from its
-    /// first sample, before despiking and smoothing follow it. Without a
-    /// division: |F·p_raw − prev·p| > step·p.
-    fn fast_sample(&mut self, at: Instant, prev: F, f: F, p_raw: F, p: F) {
-        let now = f * p_raw;
-        let before = prev * p;
-        if (now - before).abs() > self.cfg.settle_step * p {
+    /// Settling from one sample: the fill fraction the sample's own reading
+    /// implies, F·(p_raw/p)·(T/T_raw) (F at the smoothed pressure p and
+    /// temperature T; the gas-law scaling from the smoothed to the raw
+    /// reading), differs from the previous block mean `prev` by more than
+    /// `settle_step`. The raw reading (`raw`, before despiking and
+    /// smoothing) sees a fast fill or draw from its first sample; a change
+    /// of temperature at constant content moves p and T together and
+    /// cancels. Without a division:
+    /// |F·p_raw·T − prev·p·T_raw| > step·p·T_raw.
+    fn fast_sample(&mut self, at: Instant, prev: F, f: F, raw: (F, F), smooth: (F, F)) {
+        let ((p_raw, t_raw), (p, t)) = (raw, smooth);
+        if p <= F::ZERO || t_raw <= F::ZERO {
+            return;
+        }
+        let now = f * p_raw * t;
+        let before = prev * p * t_raw;
+        if (now - before).abs() > self.cfg.settle_step * p * t_raw {
             self.unsettled(at, now > before);
         }
     }

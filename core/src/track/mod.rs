@@ -20,8 +20,9 @@
 //! 3. the content estimate on the smoothed pressure and temperature.
 //! 4. `accumulate` — the fill fraction is summed into the current rate
 //!    block. The fill fraction the sample's own (raw, not yet despiked or
-//!    smoothed) pressure implies, F·p_raw/p at the same temperature, is
-//!    compared with the previous block mean: beyond `settle_step` it marks a
+//!    smoothed) reading implies, F·(p_raw/p)·(T/T_raw) (the gas-law scaling
+//!    from the smoothed reading; a temperature change at constant content
+//!    cancels), is compared with the previous block mean: beyond `settle_step` it marks a
 //!    fast fill or draw at once (`fast_sample`, see Settling below), so
 //!    `not_settled` is raised from the first sample of a fast change rather
 //!    than at the end of its block, and before the smoothed reading (which
