@@ -10,7 +10,7 @@
 //! |-------|-----------------------------------------|
 //! | 0–7   | content estimate and gas model           |
 //! | 8–15  | sensors and plausibility                 |
-//! | 16–23 | tracking over time and alarms            |
+//! | 16–23 | tracking over time and alarms (bit 23: the per-estimate over-fill verdict beside the debounced `over_pressure` alarm) |
 //! | 24–31 | device: configuration, storage, link     |
 
 use core::fmt;
@@ -54,6 +54,16 @@ flags! {
     /// At the settled reference temperature the same content would be liquid or
     /// two-phase: the settled pressure is not valid.
     SETTLED_TWO_PHASE = 6, "settled_two_phase";
+    /// The vessel is full of liquid (compressed liquid, no vapour space): the
+    /// pressure lies well above the gas's vapour pressure at this temperature
+    /// (more than 1/8 above the model's saturation curve, beyond what sensor
+    /// and temperature errors explain), below the critical temperature. The
+    /// content outputs are not valid, and the pressure of a liquid-full
+    /// vessel rises by several bar per kelvin: a burst hazard. Set instead of
+    /// [`Status::TWO_PHASE`], which means liquid and vapour together (the
+    /// pressure is at the vapour pressure and says nothing about the
+    /// content). Either way the content must be found by weighing.
+    LIQUID_FULL = 7, "liquid_full";
     /// Alarm: the gas has not settled after a fast fill or draw; pressure and
     /// content still drift towards the predicted settled values.
     NOT_SETTLED = 16, "not_settled";
@@ -74,6 +84,16 @@ flags! {
     /// Alarm: the sensor front end has reported a fault (any flag of
     /// [`Status::SENSOR_RANGE`]) for longer than the debounce time.
     SENSOR_FAULT = 22, "sensor_fault";
+    /// Over-fill, judged on this one estimate (no debounce, no settling
+    /// prediction): the content is above [`OVER_FILL_FRACTION`] of the rated
+    /// content, which is the same as the pressure being above the pressure
+    /// the rated content develops at the present temperature (the rated
+    /// pressure corrected to this temperature) by about that much. Set by
+    /// the content estimate; the debounced alarm is
+    /// [`Status::OVER_PRESSURE`].
+    ///
+    /// [`OVER_FILL_FRACTION`]: crate::content::OVER_FILL_FRACTION
+    OVER_FILL = 23, "over_fill";
     /// A stored record's newest copy is unreadable: an older copy is in use.
     CONFIG_FALLBACK = 24, "config_fallback";
     /// No stored copy of a record is readable: its safe defaults are in use,
@@ -138,14 +158,16 @@ impl Status {
     pub const DEVICE_RANGE: Status = Status(0xFF00_0000);
 
     /// Flags after which the content outputs (density, mass, amount, standard
-    /// volume, settled pressure, fill fraction) must not be shown as valid
-    /// numbers: the gas is liquid or two-phase, or the sample lay outside the
-    /// envelope (the outputs are then those of the envelope's edge, which is
-    /// not where the tank is). The tracker leaves such samples out of its
-    /// blocks; its alarms still judge them (a pressure clamped at 1000 bar
-    /// is above 5/4 of every rated pressure up to 800 bar).
+    /// volume, settled pressure, fill fraction, and Z) must not be shown as
+    /// valid numbers: the vessel holds liquid (two-phase or liquid-full), or
+    /// the sample lay outside the envelope (the outputs are then those of
+    /// the envelope's edge, which is not where the tank is). The tracker
+    /// leaves such samples out of its blocks; its alarms still judge them
+    /// (a pressure clamped at 1000 bar is above 5/4 of every rated pressure
+    /// up to 800 bar).
     pub const CONTENT_INVALID: Status = Status(
         Status::TWO_PHASE.0
+            | Status::LIQUID_FULL.0
             | Status::PRESSURE_OUTSIDE_ENVELOPE.0
             | Status::TEMPERATURE_OUTSIDE_ENVELOPE.0,
     );

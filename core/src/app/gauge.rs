@@ -411,6 +411,7 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
             r.pressure.pressure_pa,
             r.temperature.temperature_k,
             p.barometric(),
+            p.prepared().scalars().zero_pressure_limit,
         )?;
         self.set_zero(z)
     }

@@ -46,10 +46,14 @@
 //! channel's zero offset, added to every later reading: the barometric
 //! pressure for the pressure channel (the transducer vented to the
 //! atmosphere), 0 °C for the temperature channel (an ice bath). It is
-//! refused when the correction it would take exceeds
-//! [`ZERO_PRESSURE_LIMIT`] or [`ZERO_TEMPERATURE_LIMIT`] (the sensor is not
-//! at its zero: a pressurised transducer, a sensor out of the bath), and
-//! when there is no valid reading. Offsets are kept in the store with the
+//! refused when the present reading, as corrected now or as the front-end
+//! gives it, is farther from the reference than the channel's bound (the
+//! sensor is not at its zero: a pressurised transducer, a sensor out of the
+//! bath), and when there is no valid reading. The bounds: 2 % of the
+//! pressure transducer's span, at least 10 kPa ([`zero_pressure_limit`],
+//! prepared with the configuration), and 2 K ([`ZERO_TEMPERATURE_LIMIT`]).
+//! Zeroing a transducer under pressure would make a full vessel read nearly
+//! empty and blind the over-pressure alarm. Offsets are kept in the store with the
 //! configuration reference and survive new configurations.
 
 pub mod fixed;
@@ -83,19 +87,48 @@ pub const VERSION: [u8; 3] = {
     ]
 };
 
-/// The largest zero correction of the pressure channel accepted,
-/// `fx::Pressure` bits: 50 kPa (0.5 bar; common practice: a vented
-/// transducer reads its zero within a fraction of a bar, while a cylinder
-/// holding gas reads bars above it).
-pub const ZERO_PRESSURE_LIMIT: u32 = 800_000;
+/// The pressure zero bound as a share of the transducer's span: 1/50
+/// (2 %). Common practice, no published source: a healthy industrial
+/// pressure transducer's zero offset stays well inside 2 % of its span (the
+/// total error bands of such transducers are about 0.1–1 % of span; from
+/// memory), so a larger apparent offset means gas pressure on the port, not
+/// a zero error. For a 300 bar transducer the bound is 6 bar.
+pub const ZERO_PRESSURE_SPAN_DIVISOR: u32 = 50;
+/// The smallest pressure zero bound, `fx::Pressure` bits: 10 kPa. The zero
+/// reference is the configured barometric pressure, while the weather moves
+/// the real one by about ±5 kPa around its mean (common practice, from
+/// memory) and a site's altitude may differ from the configured value: a
+/// vented absolute transducer must not be refused for that.
+pub const ZERO_PRESSURE_MIN: u32 = 160_000;
 /// The largest zero correction of the temperature channel accepted,
-/// `fx::Temperature` bits: 2 K (common practice: a sensor in an ice bath
-/// reads 0 °C within its tolerance).
+/// `fx::Temperature` bits: 2 K around the ice point. IEC 60751 class B
+/// allows ±0.3 K at 0 °C for a platinum resistance thermometer (from
+/// memory) and interchangeable NTC thermistors are sold to about ±0.2…1 K
+/// (common practice); 2 K leaves room for both and for a poorly stirred ice
+/// bath, while a sensor at room temperature (15 K or more away) is refused.
 pub const ZERO_TEMPERATURE_LIMIT: u32 = 131_072;
 /// 0 °C, `fx::Temperature` bits (273.15 × 65 536, rounded).
 const ICE_POINT: i64 = 17_901_158;
 
-const _: () = assert!(ZERO_PRESSURE_LIMIT <= ZERO_PRESSURE_MAX as u32);
+/// The pressure zero bound of a transducer measuring `span` (`fx::Pressure`
+/// bits, its range's width): [`ZERO_PRESSURE_SPAN_DIVISOR`] of it, at least
+/// [`ZERO_PRESSURE_MIN`], at most what the store keeps
+/// ([`ZERO_PRESSURE_MAX`]). Prepared once per configuration.
+pub const fn zero_pressure_limit(span: u32) -> u32 {
+    let l = span / ZERO_PRESSURE_SPAN_DIVISOR;
+    let l = if l < ZERO_PRESSURE_MIN {
+        ZERO_PRESSURE_MIN
+    } else {
+        l
+    };
+    if l > ZERO_PRESSURE_MAX as u32 {
+        ZERO_PRESSURE_MAX as u32
+    } else {
+        l
+    }
+}
+
+const _: () = assert!(ZERO_PRESSURE_MIN <= ZERO_PRESSURE_MAX as u32);
 const _: () = assert!(ZERO_TEMPERATURE_LIMIT <= ZERO_TEMPERATURE_MAX as u32);
 
 /// The zero offsets of the two channels, format bits: added to every
@@ -120,40 +153,54 @@ impl Zero {
 
     /// The offsets after a zero calibration of `channel` at the present
     /// corrected readings (`present_pa`, `present_k`, format bits, which
-    /// include the offsets in force) and the site's barometric pressure.
-    /// Refused (with the correction it would take and the limit) when the
-    /// correction exceeds the channel's limit.
+    /// include the offsets in force), the site's barometric pressure and
+    /// the pressure channel's bound ([`zero_pressure_limit`]).
+    ///
+    /// Refused (with the correction it would take and the bound) unless the
+    /// present reading is within the bound of the reference both as
+    /// corrected now and as the front-end gives it (without the offset in
+    /// force): the new offset replaces the old one, so it is bounded too and
+    /// repeated zeros cannot walk it away.
     pub fn calibrate(
         self,
         channel: SensorChannel,
         present_pa: fx::Pressure,
         present_k: fx::Temperature,
         barometric: fx::Pressure,
+        pressure_limit: u32,
     ) -> Result<Zero, Refusal> {
-        let (delta, limit) = match channel {
+        let (delta, limit, old) = match channel {
             SensorChannel::Pressure => (
                 i64::from(barometric.to_bits()) - i64::from(present_pa.to_bits()),
-                ZERO_PRESSURE_LIMIT,
+                pressure_limit.min(ZERO_PRESSURE_MAX as u32),
+                self.pressure,
             ),
             SensorChannel::Temperature => (
                 ICE_POINT - i64::from(present_k.to_bits()),
                 ZERO_TEMPERATURE_LIMIT,
+                self.temperature,
             ),
         };
-        if delta.unsigned_abs() > u64::from(limit) {
+        let new = i64::from(old) + delta;
+        let farther = if new.unsigned_abs() > delta.unsigned_abs() {
+            new
+        } else {
+            delta
+        };
+        if farther.unsigned_abs() > u64::from(limit) {
             return Err(Refusal::NotAtZero {
                 channel,
-                offset: delta,
+                offset: farther,
                 limit,
             });
         }
         let mut z = self;
-        let (slot, max) = match channel {
-            SensorChannel::Pressure => (&mut z.pressure, ZERO_PRESSURE_MAX),
-            SensorChannel::Temperature => (&mut z.temperature, ZERO_TEMPERATURE_MAX),
+        // Within the limit, which is within the store's bound.
+        let slot = match channel {
+            SensorChannel::Pressure => &mut z.pressure,
+            SensorChannel::Temperature => &mut z.temperature,
         };
-        let new = (i64::from(*slot) + delta).clamp(-i64::from(max), i64::from(max));
-        *slot = new as i32;
+        *slot = new.clamp(i64::from(i32::MIN), i64::from(i32::MAX)) as i32;
         Ok(z)
     }
 }
@@ -166,27 +213,56 @@ mod tests {
     fn zero_is_taken_near_the_reference_and_refused_far_from_it() {
         let baro = fx::Pressure::from_num(100_000);
         let t = fx::Temperature::from_num(273.4);
-        // A vented transducer reading 0.2 bar high: offset −0.2 bar.
-        let z = Zero::default()
-            .calibrate(
-                SensorChannel::Pressure,
-                fx::Pressure::from_num(120_000),
-                t,
-                baro,
-            )
-            .unwrap();
-        assert_eq!(z.pressure, -20_000 * 16);
-        // A pressurised one (a cylinder at 20 bar): refused, nothing changes.
-        let r = Zero::default().calibrate(
-            SensorChannel::Pressure,
-            fx::Pressure::from_num(2_000_000),
-            t,
-            baro,
+        // A 0–300 bar transducer: bound 2 % of 300 bar = 6 bar.
+        let limit = zero_pressure_limit(300e5 as u32 * 16);
+        assert_eq!(limit, 6e5 as u32 * 16);
+        // A 0–10 bar one: 0.2 bar; a 0–1 bar one: the 10 kPa floor.
+        assert_eq!(zero_pressure_limit(10e5 as u32 * 16), 20_000 * 16);
+        assert_eq!(zero_pressure_limit(1e5 as u32 * 16), ZERO_PRESSURE_MIN);
+        // A 0–1000 bar one: 20 bar, more than the store keeps (10 bar).
+        assert_eq!(
+            zero_pressure_limit(1000e5 as u32 * 16),
+            ZERO_PRESSURE_MAX as u32
         );
-        assert!(matches!(r, Err(Refusal::NotAtZero { offset, .. }) if offset == -1_900_000 * 16));
+        let p = |pa: f64| fx::Pressure::from_num(pa);
+        let zero = |z: Zero, pa: f64| z.calibrate(SensorChannel::Pressure, p(pa), t, baro, limit);
+        // A vented transducer reading 0.2 bar high: offset −0.2 bar; 5.9
+        // bar high: still taken.
+        assert_eq!(
+            zero(Zero::default(), 120_000.0).unwrap().pressure,
+            -20_000 * 16
+        );
+        assert!(zero(Zero::default(), 690_000.0).is_ok());
+        // A pressurised one (a cylinder at 200 bar): refused, nothing
+        // changes, the correction it would take is reported.
+        assert_eq!(
+            zero(Zero::default(), 200e5),
+            Err(Refusal::NotAtZero {
+                channel: SensorChannel::Pressure,
+                offset: -(200e5 as i64 - 100_000) * 16,
+                limit,
+            })
+        );
+        // Repeated zeros cannot walk the offset away: with −5.5 bar in
+        // force, a reading 1 bar high (6.5 bar high uncorrected) is refused.
+        let walked = Zero {
+            pressure: -550_000 * 16,
+            temperature: 0,
+        };
+        assert!(matches!(
+            zero(walked, 200_000.0),
+            Err(Refusal::NotAtZero { offset, .. }) if offset == -650_000 * 16
+        ));
+        // With −0.5 bar in force, a reading 0.3 bar low is taken: the new
+        // offset is −0.2 bar (it replaces, it does not add up).
+        let z = Zero {
+            pressure: -50_000 * 16,
+            temperature: 0,
+        };
+        assert_eq!(zero(z, 70_000.0).unwrap().pressure, -20_000 * 16);
         // An ice bath read 0.25 K high: offset −0.25 K.
         let z = Zero::default()
-            .calibrate(SensorChannel::Temperature, baro, t, baro)
+            .calibrate(SensorChannel::Temperature, baro, t, baro, limit)
             .unwrap();
         assert!((z.temperature as f64 / 65_536.0 + 0.25).abs() < 1e-4);
         // Room temperature is no ice bath.
@@ -196,7 +272,8 @@ mod tests {
                     SensorChannel::Temperature,
                     baro,
                     fx::Temperature::from_num(293.0),
-                    baro
+                    baro,
+                    limit
                 )
                 .is_err()
         );

@@ -9,7 +9,7 @@
 //! Per sample: one 64/32 division for the density, one 64/64 division per
 //! settled-pressure Newton step, a handful of 32×32→64 multiplies; no float.
 
-use super::{SETTLE_ITERATIONS, SETTLE_SLOPE_MIN};
+use super::{OVER_FILL_FRACTION_BITS, SETTLE_ITERATIONS, SETTLE_SLOPE_MIN};
 use crate::constants::MOLAR_GAS_CONSTANT_J_MOL_K;
 use crate::envelope as env;
 use crate::fx::{self, Coef, mul_i32, mul_u32, sat_u32, shr_round, shr_round_i64};
@@ -281,7 +281,7 @@ impl<M: CompressibilityFx> Estimator<M> {
 
         let (p_r, t_r) = (tank.rated_pressure_pa, tank.rated_temperature_k);
         let zr = est.model.z_fx(p_r, t_r);
-        if zr.flags.contains(Status::TWO_PHASE) {
+        if zr.flags.intersects(Status::CONTENT_INVALID) {
             return Err(Error::ModelUnusable("rated condition"));
         }
         let (rho, _) = est.density(p_r.to_bits(), t_r.to_bits(), zr.z.to_bits());
@@ -294,7 +294,7 @@ impl<M: CompressibilityFx> Estimator<M> {
 
         let std = setup.standard;
         let zs = est.model.z_fx(std.pressure_pa, std.temperature_k);
-        if zs.flags.contains(Status::TWO_PHASE) {
+        if zs.flags.intersects(Status::CONTENT_INVALID) {
             return Err(Error::ModelUnusable("standard condition"));
         }
         est.standard_volume = amount
@@ -564,6 +564,7 @@ impl<M: CompressibilityFx> Estimator<M> {
         if saturated {
             status |= Status::SATURATED;
         }
+        status |= over_fill(fill_fraction, status);
 
         Content {
             pressure_pa: fx::Pressure::from_bits(p),
@@ -779,7 +780,7 @@ impl<M: CompressibilityFx> Estimator<M> {
         if p == u32::MAX {
             status |= Status::SATURATED;
         }
-        if flags.contains(Status::TWO_PHASE) {
+        if flags.intersects(Status::CONTENT_INVALID) {
             status |= Status::SETTLED_TWO_PHASE;
         }
         status |= flags & Status::MODEL_OUT_OF_RANGE;
@@ -802,6 +803,18 @@ fn recip(c: Coef) -> Result<Coef, Error> {
 /// `a·b` with `b` in Q30, rounded; the flag is true when it saturated.
 fn mul_q30(a: u32, b: u32) -> (u32, bool) {
     sat_u32((mul_u32(a, b) + (1 << 29)) >> 30)
+}
+
+/// [`Status::OVER_FILL`] when the fill fraction is above
+/// [`super::OVER_FILL_FRACTION`] and the content is valid (`status` so far).
+fn over_fill(fill_fraction: fx::Fraction, status: Status) -> Status {
+    if fill_fraction.to_bits() > OVER_FILL_FRACTION_BITS
+        && !status.intersects(Status::CONTENT_INVALID)
+    {
+        Status::OVER_FILL
+    } else {
+        Status::OK
+    }
 }
 
 /// Limits a sample to the envelope (raw bits) and flags what was clamped.
@@ -952,6 +965,47 @@ mod tests {
             assert!(rel(a.0) < bound, "{g} ρv {rho_v}: {} vs {want_bits}", a.0);
         }
         seeds
+    }
+
+    /// A 50 L oxygen cylinder rated 200 bar at 15 °C read at 250 bar and
+    /// 15 °C holds about 123 % of its rated content: both paths flag it
+    /// over-filled. At the rated pressure, or at the pressure the rated
+    /// content has at 50 °C (the rated pressure corrected to that
+    /// temperature) plus 1 %, it is not; 4 % above that it is. Liquid is
+    /// never flagged over-filled (its content is not valid).
+    #[test]
+    fn over_fill_on_both_paths() {
+        use crate::model::DeviceModel;
+        let setup = Setup::new(Gas::Oxygen, Tank::new(0.05, 200e5));
+        let m = DeviceModel::builtin(Gas::Oxygen).unwrap();
+        let a = Estimator::new(SetupFx::from_f64(&setup).unwrap(), m.clone()).unwrap();
+        let b = super::super::float::Estimator::new(setup, m).unwrap();
+        let hot = 323.15;
+        let (p_hot, st) = b.pressure_at(1.0, hot);
+        assert!(st.is_ok() && p_hot > 220e5 && p_hot < 240e5, "{p_hot}");
+        for (p, t, over) in [
+            (250e5, 288.15, true),
+            (200e5, 288.15, false),
+            (p_hot * 1.01, hot, false),
+            (p_hot * 1.04, hot, true),
+        ] {
+            let x = a.estimate(fx::Pressure::from_num(p), fx::Temperature::from_num(t));
+            let y = b.estimate(p, t).unwrap();
+            assert_eq!(x.status.contains(Status::OVER_FILL), over, "{p} {t}: {x:?}");
+            assert_eq!(y.status.contains(Status::OVER_FILL), over, "{p} {t}: {y:?}");
+            if p == 250e5 {
+                assert!((y.fill_fraction - 1.23).abs() < 0.01, "{}", y.fill_fraction);
+            }
+        }
+        let co2 = Setup::new(Gas::CarbonDioxide, Tank::new(0.01, 20e5));
+        let m = DeviceModel::builtin(Gas::CarbonDioxide).unwrap();
+        let a = Estimator::new(SetupFx::from_f64(&co2).unwrap(), m).unwrap();
+        let c = a.estimate(
+            fx::Pressure::from_num(150e5),
+            fx::Temperature::from_num(288.15),
+        );
+        assert!(c.status.contains(Status::LIQUID_FULL), "{}", c.status);
+        assert!(!c.status.intersects(Status::OVER_FILL | Status::TWO_PHASE));
     }
 
     #[test]

@@ -1,7 +1,7 @@
 //! The content estimate in floating point, generic over [`Real`] (`f64` is the
 //! reference the fixed-point path is tested against).
 
-use super::{SETTLE_ITERATIONS, SETTLE_SLOPE_MIN};
+use super::{OVER_FILL_FRACTION, SETTLE_ITERATIONS, SETTLE_SLOPE_MIN};
 use crate::constants::{MOLAR_GAS_CONSTANT_J_MOL_K, STANDARD_ATMOSPHERE_PA};
 use crate::envelope as env;
 use crate::model::{Compressibility, ZPoint};
@@ -89,7 +89,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
 
         let (p_r, t_r) = (tank.rated_pressure_pa, tank.rated_temperature_k);
         let zr = est.model.z(p_r, t_r);
-        if zr.flags.contains(Status::TWO_PHASE) {
+        if zr.flags.intersects(Status::CONTENT_INVALID) {
             return Err(Error::ModelUnusable("rated condition"));
         }
         est.rho_v_rated = est.density(p_r, t_r, zr.z) * est.vessel_factor(p_r, t_r);
@@ -97,7 +97,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
 
         let std = setup.standard;
         let zs = est.model.z(std.pressure_pa, std.temperature_k);
-        if zs.flags.contains(Status::TWO_PHASE) {
+        if zs.flags.intersects(Status::CONTENT_INVALID) {
             return Err(Error::ModelUnusable("standard condition"));
         }
         est.standard_volume_per_rho_v =
@@ -142,6 +142,8 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
         let rho_v = density * vessel_factor;
         let (settled_pressure_pa, settle_status) = self.settle(rho_v, z.z);
         status |= settle_status;
+        let fill_fraction = rho_v * self.fraction_per_rho_v;
+        status |= over_fill(fill_fraction, status);
 
         Ok(Content {
             pressure_pa: p,
@@ -151,7 +153,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
             amount_mol: rho_v * self.amount_per_rho_v,
             standard_volume_m3: rho_v * self.standard_volume_per_rho_v,
             settled_pressure_pa,
-            fill_fraction: rho_v * self.fraction_per_rho_v,
+            fill_fraction,
             z,
             vessel_factor,
             status,
@@ -238,7 +240,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
         if p >= p_max {
             status |= Status::SATURATED;
         }
-        if flags.contains(Status::TWO_PHASE) {
+        if flags.intersects(Status::CONTENT_INVALID) {
             status |= Status::SETTLED_TWO_PHASE;
         }
         status |= flags & Status::MODEL_OUT_OF_RANGE;
@@ -250,6 +252,16 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
 /// format's maximum; both paths clamp there and flag
 /// [`Status::SATURATED`]).
 pub const SETTLED_PRESSURE_MAX_PA: f64 = 268_435_455.937_5;
+
+/// [`Status::OVER_FILL`] when the fill fraction is above
+/// [`OVER_FILL_FRACTION`] and the content is valid (`status` so far).
+fn over_fill<F: Real>(fill_fraction: F, status: Status) -> Status {
+    if fill_fraction > F::lit(OVER_FILL_FRACTION) && !status.intersects(Status::CONTENT_INVALID) {
+        Status::OVER_FILL
+    } else {
+        Status::OK
+    }
+}
 
 /// Limits a sample to the envelope and flags what was clamped.
 fn clamp_inputs<F: Real>(p: F, t: F) -> (F, F, Status) {

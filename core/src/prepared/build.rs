@@ -57,7 +57,7 @@ pub struct Plausibility {
 /// One standard atmosphere, `fx::Pressure` bits (101 325 Pa × 16).
 pub const STANDARD_ATMOSPHERE: fx::Pressure = fx::Pressure::from_bits(1_621_200);
 /// Barometric range accepted, `fx::Pressure` bits (50 000 … 110 000 Pa).
-const BARO_BITS: core::ops::RangeInclusive<u32> = 800_000..=1_760_000;
+pub(super) const BARO_BITS: core::ops::RangeInclusive<u32> = 800_000..=1_760_000;
 /// Largest error aimed for of the settled-pressure curve, `fx::Pressure`
 /// bits (1 Pa).
 const SETTLE_TOLERANCE: f64 = 16.0;
@@ -116,6 +116,18 @@ impl GaugeConfig {
             None => builtin::table(self.setup.gas).ok_or(Error::ModelUnusable("built-in table")),
         }
     }
+}
+
+/// The width of the pressure transducer's range, `fx::Pressure` bits.
+fn pressure_span(r: &CalibrationRecord) -> u32 {
+    use crate::sensor::calibration::SensorConfig;
+    let (lo, hi) = match &r.sensor {
+        SensorConfig::Bridge(b) => (b.range_lo_pa, b.range_hi_pa),
+        SensorConfig::Loop(l) => (l.range_lo_pa, l.range_hi_pa),
+        _ => (fx::GaugePressure::ZERO, fx::GaugePressure::ZERO),
+    };
+    // Both in 2^-4 Pa, as `fx::Pressure`.
+    (i64::from(hi.to_bits()) - i64::from(lo.to_bits())).clamp(0, i64::from(u32::MAX)) as u32
 }
 
 /// How closely a prepared configuration follows the `f64` reference paths
@@ -284,6 +296,7 @@ impl PreparedBuf {
             pressure,
             plausibility,
             barometric: cfg.barometric_pa.to_bits(),
+            zero_pressure_limit: crate::app::zero_pressure_limit(pressure_span(&cfg.pressure)),
             model,
             estimator: est.parts(),
             track: cfg.track,

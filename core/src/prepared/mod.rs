@@ -199,6 +199,9 @@ pub struct Scalars {
     pub plausibility: Option<(Checker, Checker)>,
     /// The site's barometric pressure, `fx::Pressure` bits.
     pub barometric: u32,
+    /// The largest zero correction of the pressure channel, `fx::Pressure`
+    /// bits (from the transducer's span: [`crate::app::zero_pressure_limit`]).
+    pub zero_pressure_limit: u32,
     /// The gas model.
     pub model: ModelScalars,
     /// The estimator's constants.
@@ -435,6 +438,14 @@ impl<B: AsRef<[u8]>> Prepared<B> {
             self.curve(c).validate()?;
         }
         fits(s.source, 1)?;
+        if !build::BARO_BITS.contains(&s.barometric) {
+            return Err(Error::OutOfRange("barometric pressure"));
+        }
+        if !(crate::app::ZERO_PRESSURE_MIN..=crate::store::ZERO_PRESSURE_MAX as u32)
+            .contains(&s.zero_pressure_limit)
+        {
+            return Err(Error::OutOfRange("zero bound of the pressure channel"));
+        }
         self.temperature().validate()?;
         self.pressure().validate()?;
         model::table(self).validate()?;

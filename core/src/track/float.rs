@@ -397,6 +397,11 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             if !content.status.intersects(Status::CONTENT_INVALID) {
                 self.block_sum += content.fill_fraction;
                 self.block_n += 1;
+                // Settling from the first sample of a fast change.
+                if let Some(prev) = self.prev_block {
+                    let raw = (pressure_pa.max(F::ZERO), temperature_k);
+                    self.fast_sample(at, prev, content.fill_fraction, raw, (p, t));
+                }
             }
             self.last_at = Some(at);
         }
@@ -530,26 +535,62 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         self.block_n = 0;
     }
 
+    /// Settling from one sample: the fill fraction the sample's own reading
+    /// implies, F·(p_raw/p)·(T/T_raw) (F at the smoothed pressure p and
+    /// temperature T; the gas-law scaling from the smoothed to the raw
+    /// reading), differs from the previous block mean `prev` by more than
+    /// `settle_step`. The raw reading (`raw`, before despiking and
+    /// smoothing) sees a fast fill or draw from its first sample; a change
+    /// of temperature at constant content moves p and T together and
+    /// cancels. Without a division:
+    /// |F·p_raw·T − prev·p·T_raw| > step·p·T_raw.
+    fn fast_sample(&mut self, at: Instant, prev: F, f: F, raw: (F, F), smooth: (F, F)) {
+        let ((p_raw, t_raw), (p, t)) = (raw, smooth);
+        if p <= F::ZERO || t_raw <= F::ZERO {
+            return;
+        }
+        let now = f * p_raw * t;
+        let before = prev * p * t_raw;
+        if (now - before).abs() > self.cfg.settle_step * p * t_raw {
+            self.unsettled(at, now > before);
+        }
+    }
+
+    /// Settling from a block: its mean `value` differs from the previous
+    /// block mean `prev` by more than `settle_step`. Returns whether it did.
+    fn fast_change(&mut self, at: Instant, prev: F, value: F) -> bool {
+        let step = value - prev;
+        if step.abs() <= self.cfg.settle_step {
+            return false;
+        }
+        self.unsettled(at, step > F::ZERO);
+        true
+    }
+
+    /// A fast fill (`rise`) or draw at `at`: not settled from now on, the
+    /// prediction starts afresh; a fill also restarts the rate.
+    fn unsettled(&mut self, at: Instant, rise: bool) {
+        self.settle_active = true;
+        self.settle_blocks = 0;
+        self.settle_since = at;
+        self.predicted = None;
+        if rise {
+            // A fill: the rate starts again.
+            self.ring_len = 0;
+            self.t_len = 0;
+            self.rate = None;
+            self.tte = None;
+        }
+    }
+
     /// Everything that happens once per block.
     fn block(&mut self, end: Instant, mean: F, content: &Content<F>) {
         // Settling: a fast change between consecutive blocks.
-        if let Some(prev) = self.prev_block {
-            let step = mean - prev;
-            if step.abs() > self.cfg.settle_step {
-                self.settle_active = true;
-                self.settle_blocks = 0;
-                self.settle_since = end;
-                self.predicted = None;
-                if step > F::ZERO {
-                    // A fill: the rate starts again.
-                    self.ring_len = 0;
-                    self.t_len = 0;
-                    self.rate = None;
-                    self.tte = None;
-                }
-            } else if self.settle_active {
-                self.settle_blocks += 1;
-            }
+        if let Some(prev) = self.prev_block
+            && !self.fast_change(end, prev, mean)
+            && self.settle_active
+        {
+            self.settle_blocks += 1;
         }
         self.prev_block = Some(mean);
         self.ring.rotate_left(1);

@@ -573,5 +573,6 @@ pub fn render_text(b: &Budget) -> String {
     }
     let _ = writeln!(s);
     let _ = writeln!(s, "{}", isochor_eos::safety::GENERAL);
+    let _ = writeln!(s, "{}", isochor_eos::safety::HARDWARE);
     s
 }

@@ -78,6 +78,9 @@ pub struct TankReport {
     pub rated_temperature_k: f64,
     /// Elastic expansion per MPa.
     pub elastic_expansion_per_mpa: f64,
+    /// Elastic expansion per bar (as `--elastic-expansion-per-bar` takes
+    /// it: a tenth of the per-MPa figure).
+    pub elastic_expansion_per_bar: f64,
     /// Thermal expansion per K.
     pub thermal_expansion_per_k: f64,
     /// Rated content (mass at rated pressure and temperature), kg, f64 path.
@@ -101,10 +104,10 @@ pub struct ReferenceReport {
     pub eos: Option<Outputs>,
 }
 
-/// The outputs of one path. Content values are `null` when the status says
-/// they are not valid ([`Status::CONTENT_INVALID`]: liquid or two-phase, or
-/// a sample outside the operating envelope, whose content would be the
-/// edge's and not the tank's).
+/// The outputs of one path. Content values (and Z) are `null` when the
+/// status says they are not valid ([`Status::CONTENT_INVALID`]: liquid,
+/// `two_phase` or `liquid_full`, or a sample outside the operating
+/// envelope, whose content would be the edge's and not the tank's).
 #[derive(Clone, Debug, Serialize, PartialEq)]
 pub struct Outputs {
     /// Density, kg/m³.
@@ -119,8 +122,9 @@ pub struct Outputs {
     pub settled_pressure_pa: Option<f64>,
     /// Fill fraction (1 = rated content).
     pub fill_fraction: Option<f64>,
-    /// Compressibility factor used.
-    pub z: f64,
+    /// Compressibility factor used (`null` where the content is not valid:
+    /// the model's answer there belongs to another state).
+    pub z: Option<f64>,
     /// Status flag names.
     pub status: Vec<String>,
 }
@@ -147,7 +151,7 @@ impl Outputs {
             standard_volume_m3: valid(standard_volume, content_ok),
             settled_pressure_pa: valid(settled, settled_ok),
             fill_fraction: valid(fraction, content_ok),
-            z,
+            z: valid(z, content_ok),
             status: status.names().map(str::to_string).collect(),
         }
     }
@@ -172,6 +176,17 @@ pub struct ContentReport {
     pub fixed: Outputs,
     /// The f64 path.
     pub float: Outputs,
+    /// The pressure, absolute, Pa, the rated content has at the sample's
+    /// temperature (the rated pressure corrected to this temperature; f64
+    /// path): above it, the vessel holds more than its rated content.
+    /// `null` where the gas model has no gas answer there.
+    pub rated_pressure_at_temperature_pa: Option<f64>,
+    /// The absolute pressure limit, Pa: 5/4 of the service (gauge) pressure
+    /// above the standard atmosphere (see the `over_pressure` alarm).
+    pub pressure_limit_pa: f64,
+    /// What the reader must act on: over-fill, over-pressure, liquid in the
+    /// vessel (one sentence each; empty when none applies).
+    pub warnings: Vec<String>,
     /// Safety cautions.
     pub caution: String,
 }
@@ -236,8 +251,14 @@ where
         standard: req.standard.1,
         settled_reference_k: req.settled_reference_k,
     };
+    check_rated_and_standard(req, &float_model)?;
     let float_est = float::Estimator::new(setup, float_model)?;
     let a = float_est.estimate(req.pressure_pa, req.temperature_k)?;
+    let (p_rated_now, p_rated_now_status) = float_est.pressure_at(1.0, a.temperature_k);
+    let rated_pressure_at_temperature_pa = (!p_rated_now_status
+        .intersects(Status::CONTENT_INVALID | Status::MODEL_OUT_OF_RANGE))
+    .then_some(p_rated_now);
+    let limits = isochor_core::alarm::float::Limits::for_tank(&req.tank);
 
     let fixed_est = fixed::Estimator::new(SetupFx::from_f64(&setup)?, fixed_model)?;
     let (p, p_sat) = saturating::<fx::Pressure>(req.pressure_pa);
@@ -262,6 +283,7 @@ where
             rated_pressure_pa: req.tank.rated_pressure_pa,
             rated_temperature_k: req.tank.rated_temperature_k,
             elastic_expansion_per_mpa: req.tank.elastic_expansion_per_mpa,
+            elastic_expansion_per_bar: req.tank.elastic_expansion_per_mpa / 10.0,
             thermal_expansion_per_k: req.tank.thermal_expansion_per_k,
             rated_mass_kg: float_est.rated_mass_kg(),
         },
@@ -292,8 +314,124 @@ where
             a.z.z,
             a.status,
         ),
+        warnings: warnings(
+            req,
+            a.status | b.status,
+            a.fill_fraction,
+            rated_pressure_at_temperature_pa,
+            limits.pressure_max_pa,
+        ),
+        rated_pressure_at_temperature_pa,
+        pressure_limit_pa: limits.pressure_max_pa,
         caution: safety::paragraph(req.gas),
     })
+}
+
+/// Refuses, with the reason and what to do, a rated or standard condition
+/// where the gas model has no gas answer (liquid, or liquid and vapour).
+fn check_rated_and_standard<M: Compressibility<f64>>(
+    req: &ContentRequest,
+    model: &M,
+) -> Result<(), Error> {
+    let t = &req.tank;
+    let rated = model.z(t.rated_pressure_pa, t.rated_temperature_k);
+    if rated.flags.intersects(Status::CONTENT_INVALID) {
+        let vapour = isochor_eos::Eos::of(req.gas)
+            .saturation_pressure_pa(t.rated_temperature_k)
+            .map(|p| {
+                format!(
+                    " (its vapour pressure at {} is about {} abs)",
+                    units::fmt_celsius(t.rated_temperature_k),
+                    units::fmt_bar(p)
+                )
+            })
+            .unwrap_or_default();
+        return Err(Error::Invalid(format!(
+            "no usable answer at the rated condition: {} at {} abs and {} is liquid, or liquid \
+             and vapour{vapour}, not a gas (the gas model refuses liquid states). The content of a cylinder holding liquid cannot be \
+             found from its pressure: weigh the cylinder (gross weight less the tare marked \
+             on it). For a vessel rated for gas only, give its rated pressure and temperature \
+             as marked (--rated-pressure, --rated-temperature).",
+            req.gas.name().replace('_', " "),
+            units::fmt_bar(t.rated_pressure_pa),
+            units::fmt_celsius(t.rated_temperature_k),
+        )));
+    }
+    let std = &req.standard.1;
+    let z = model.z(std.pressure_pa, std.temperature_k);
+    if z.flags.intersects(Status::CONTENT_INVALID) {
+        return Err(Error::Invalid(format!(
+            "no usable answer at the standard condition {} ({} and {:.3} kPa): {} is liquid \
+             there, so a standard volume of gas means nothing; choose another --standard",
+            req.standard.0,
+            units::fmt_celsius(std.temperature_k),
+            std.pressure_pa / 1e3,
+            req.gas.name(),
+        )));
+    }
+    Ok(())
+}
+
+/// The warnings of one sample (see [`ContentReport::warnings`]).
+fn warnings(
+    req: &ContentRequest,
+    status: Status,
+    fill_fraction: f64,
+    rated_now: Option<f64>,
+    pressure_limit: f64,
+) -> Vec<String> {
+    let mut w = Vec::new();
+    let gas = req.gas.name().replace('_', " ");
+    let t = units::fmt_celsius(req.temperature_k);
+    let vapour = isochor_eos::Eos::of(req.gas)
+        .saturation_pressure_pa(req.temperature_k)
+        .map(|p| format!(" ({} abs)", units::fmt_bar(p)))
+        .unwrap_or_default();
+    if status.contains(Status::LIQUID_FULL) {
+        w.push(format!(
+            "LIQUID-FULL: {} abs is far above the vapour pressure of {gas} at {t}{vapour}: the \
+             vessel is full of liquid with no vapour space left, and its pressure rises by \
+             several bar for every kelvin it warms. Danger of bursting: keep it cool and away \
+             from heat, do not fill it, and have it checked. Its content cannot be found from \
+             its pressure: weigh it.",
+            units::fmt_bar(req.pressure_pa)
+        ));
+    } else if status.contains(Status::TWO_PHASE) {
+        w.push(format!(
+            "LIQUID IN THE VESSEL: at {t} the reading is at (or just above) the vapour \
+             pressure of {gas}{vapour}: the vessel holds liquid and vapour, and the pressure \
+             stays the same until the liquid is gone, whatever the content. Weigh the \
+             cylinder (gross weight less the tare marked on it) to know the content."
+        ));
+    }
+    if status.contains(Status::OVER_FILL) {
+        let above = rated_now
+            .map(|p| {
+                format!(
+                    "; the pressure {} abs is above {} abs, the pressure of the rated content at \
+                     {t} (the rated pressure corrected to this temperature)",
+                    units::fmt_bar(req.pressure_pa),
+                    units::fmt_bar(p)
+                )
+            })
+            .unwrap_or_default();
+        w.push(format!(
+            "OVER-FILL: the content is {:.1} % of the rated content{above}. Do not fill \
+             further or heat the vessel; have the excess removed safely as your local codes \
+             require.",
+            fill_fraction * 100.0
+        ));
+    }
+    if req.pressure_pa > pressure_limit {
+        w.push(format!(
+            "OVER-PRESSURE: {} abs is above {} abs, 5/4 of the service pressure (gauge): above \
+             what the vessel may see at any temperature. Move it somewhere cool and safe and \
+             have it checked.",
+            units::fmt_bar(req.pressure_pa),
+            units::fmt_bar(pressure_limit)
+        ));
+    }
+    w
 }
 
 /// Converts to a fixed-point format, clamping; the flag says it clamped.
@@ -392,13 +530,8 @@ pub fn render_text(r: &ContentReport) -> String {
         pct(x.fill_fraction),
         third(&|o| pct(o.fill_fraction)),
     );
-    row(
-        &mut s,
-        "Z (CODATA R)",
-        Some(format!("{:.6}", f.z)),
-        Some(format!("{:.6}", x.z)),
-        third(&|o| Some(format!("{:.6}", o.z))),
-    );
+    let z = |v: Option<f64>| v.map(|z| format!("{z:.6}"));
+    row(&mut s, "Z (CODATA R)", z(f.z), z(x.z), third(&|o| z(o.z)));
     let status = |v: &[String]| {
         if v.is_empty() {
             "ok".to_string()
@@ -440,6 +573,19 @@ pub fn render_text(r: &ContentReport) -> String {
         units::fmt_celsius(r.settled_reference_k),
         r.tank.rated_mass_kg
     );
+    if let Some(p) = r.rated_pressure_at_temperature_pa {
+        let _ = writeln!(
+            s,
+            "rated content at {}: {} abs (over-fill above {:.0} % of it); pressure limit {} abs.",
+            units::fmt_celsius(r.sample.temperature_k),
+            units::fmt_bar(p),
+            isochor_core::content::OVER_FILL_FRACTION * 100.0,
+            units::fmt_bar(r.pressure_limit_pa)
+        );
+    }
+    for w in &r.warnings {
+        let _ = writeln!(s, "\n{w}");
+    }
     if let Ok(g) = Gas::from_name(&r.gas) {
         let _ = writeln!(s);
         for line in safety::lines(g) {

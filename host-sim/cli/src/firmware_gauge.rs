@@ -149,7 +149,7 @@ fn reading(t: &Telemetry, events: Events) -> Reading {
                 t.time_to_empty_latest_s.map(f64::from),
             )
         }),
-        loss_per_day: t.leak_loss_per_day().map(fx::to_f64),
+        loss_fraction_per_day: t.leak_loss_per_day().map(fx::to_f64),
         status,
         events,
     }

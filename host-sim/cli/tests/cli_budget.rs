@@ -124,7 +124,10 @@ fn budget_reports_every_figure_positive_and_consistent() {
         let modules = b["flash_by_module"].as_object().expect("flash_by_module");
         let sum: u64 = modules.values().map(|x| x.as_u64().unwrap()).sum();
         assert_eq!(sum, flash, "{b}");
-        assert!(modules.contains_key("core::app") && modules.contains_key("runtime"), "{b}");
+        assert!(
+            modules.contains_key("core::app") && modules.contains_key("runtime"),
+            "{b}"
+        );
         let statics = b["largest_statics"].as_array().expect("largest_statics");
         assert!(!statics.is_empty(), "{b}");
         assert!(b["panic_symbols"].is_array(), "{b}");
@@ -134,7 +137,9 @@ fn budget_reports_every_figure_positive_and_consistent() {
     // Every stage of the chain has a figure; the estimate's stages add up
     // to the estimate within the cost of the marks (a few tens of
     // instructions each).
-    let stages = v["instructions_by_stage"].as_object().expect("instructions_by_stage");
+    let stages = v["instructions_by_stage"]
+        .as_object()
+        .expect("instructions_by_stage");
     for name in [
         "sensor",
         "plausibility",

@@ -57,8 +57,15 @@ fn demo_writes_summary_series_and_plots() {
     assert_eq!((w, h), (1500, 1700));
     let svg = std::fs::read_to_string(o.join("workshop-leak.svg")).unwrap();
     assert!(svg.contains("Pressure") && svg.contains("bar (absolute)"));
+    assert!(svg.contains("sensor reading (abs)"));
     let csv = std::fs::read_to_string(o.join("workshop-leak.csv")).unwrap();
     assert!(csv.starts_with("t_s,pressure_true_pa,"));
+    assert!(
+        csv.lines()
+            .next()
+            .unwrap()
+            .contains(",loss_fraction_per_day,")
+    );
     assert_eq!(csv.lines().count(), 1 + 7 * 24 * 60 + 1);
     let first: Value = serde_json::from_str(
         std::fs::read_to_string(o.join("workshop-leak.jsonl"))
@@ -70,6 +77,23 @@ fn demo_writes_summary_series_and_plots() {
     .unwrap();
     assert_eq!(first["t_s"], 60.0);
     assert!(first["status"].is_array());
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// `isochor demo --no-files` prints the summary and writes nothing.
+#[test]
+fn demo_without_files() {
+    let dir = temp("demo-no-files");
+    let out = isochor(&dir, &["demo", "--no-files"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(text.contains("workshop-leak") && text.contains("CAUTION"));
+    assert!(!dir.join("isochor-out").exists());
+    assert!(!text.contains("Open the PNG"));
     let _ = std::fs::remove_dir_all(&dir);
 }
 

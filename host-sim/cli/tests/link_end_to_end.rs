@@ -8,6 +8,7 @@ use std::process::{Command as Process, Output, Stdio};
 use std::thread;
 use std::time::Duration;
 
+use isochor_core::app::Zero;
 use isochor_core::auth::{self, Secret};
 use isochor_core::link::{
     self, Command, FromDevice, Outcome, Refusal, ResetReason, SensorChannel, Signed, Telemetry,
@@ -124,12 +125,34 @@ fn requests_and_signed_commands_over_memory() {
     assert_eq!(d.origin, Origin::Stored);
     assert_eq!(d.config().unwrap(), Some(config(Gas::Nitrogen)));
 
-    // A pressurised transducer is not a zero: refused, with the reading.
-    sample_at(&mut client, 1_000, 5e5);
+    // Under pressure (250 bar, a connected 200 bar vessel over-filled by
+    // about a quarter): the telemetry says `over_fill`; the pressure zero is
+    // refused with the reading and what to do, nothing is stored; at room
+    // temperature the temperature zero is refused likewise.
+    let t = sample_at(&mut client, 1_000, 250e5);
+    assert!(t.status().contains(Status::OVER_FILL), "{}", t.status());
     let m = refused(client.signed(Command::ZeroCalibration {
         channel: SensorChannel::Pressure,
     }));
-    assert!(m.contains("+3.987 bar") && m.contains("vent"), "{m}");
+    assert!(m.contains("pressure zero refused"), "{m}");
+    assert!(m.contains("reads +248.987 bar"), "{m}");
+    assert!(m.contains("vent the transducer to atmosphere"), "{m}");
+    let m = refused(client.signed(Command::ZeroCalibration {
+        channel: SensorChannel::Temperature,
+    }));
+    assert!(
+        m.contains("temperature zero refused") && m.contains("+20.00 K"),
+        "{m}"
+    );
+    assert!(m.contains("crushed ice"), "{m}");
+    assert_eq!(client.read_config().unwrap().zero, Zero::default());
+    // Just above the bound (6 bar for this 0–300 bar transducer: 2 % of
+    // its span): refused; just below: it would be taken (not sent here).
+    sample_at(&mut client, 2_000, 101_325.0 + 6.2e5);
+    let m = refused(client.signed(Command::ZeroCalibration {
+        channel: SensorChannel::Pressure,
+    }));
+    assert!(m.contains("within 6.000 bar"), "{m}");
     // A vented transducer reading 0.2 bar too high: the zero takes it out
     // (samples after a gap longer than the tracker's restart it, so the
     // smoothing does not carry the old reading over).

@@ -7,10 +7,12 @@
 //! in f64; the fixed-point form rounds that answer to the device formats (so
 //! the fixed-point estimator's arithmetic can be run with reference Z). States
 //! the equation refuses are answered at the nearest state it accepts, with
-//! [`Status::TWO_PHASE`] (liquid or two-phase) or
-//! [`Status::MODEL_OUT_OF_RANGE`] (outside its declared range).
+//! [`Status::TWO_PHASE`] (liquid and vapour), [`Status::LIQUID_FULL`] (more
+//! than [`LIQUID_FULL_MARGIN`] above the vapour pressure: compressed liquid)
+//! or [`Status::MODEL_OUT_OF_RANGE`] (outside its declared range).
 
 use crate::Eos;
+use isochor_core::model::device::LIQUID_FULL_MARGIN;
 use isochor_core::model::{Compressibility, CompressibilityFx, ModelRange, ZPoint, ZPointFx};
 use isochor_core::{Gas, Status, envelope, fx};
 
@@ -61,7 +63,13 @@ impl ReferenceModel {
         if let Some(ps) = e.saturation_pressure_pa(t)
             && p >= ps
         {
-            flags |= Status::TWO_PHASE;
+            // Far above the vapour pressure: no vapour space left (the same
+            // margin as the device models).
+            flags |= if p > ps * (1.0 + LIQUID_FULL_MARGIN) {
+                Status::LIQUID_FULL
+            } else {
+                Status::TWO_PHASE
+            };
             p = ps * (1.0 - 1e-9);
         }
         // Slopes at p = 0 are the low-pressure limit: take them just above.

@@ -56,8 +56,9 @@ pub struct Reading {
     pub u_rate_kg_h: Option<f64>,
     /// Time to empty (to the reserve), s: expected, earliest, latest.
     pub time_to_empty_s: Option<(f64, f64, Option<f64>)>,
-    /// Loss per day from the leak detector (fraction of content).
-    pub loss_per_day: Option<f64>,
+    /// Loss per day from the leak detector, as a fraction of the content
+    /// per day (0.005: 0.5 % a day).
+    pub loss_fraction_per_day: Option<f64>,
     /// Status word (content, sensors, alarms).
     pub status: Status,
     /// Alarm changes at this sample.
@@ -361,7 +362,7 @@ impl Backend for FixedGauge {
                     t.latest.map(|l| l.0 as f64 / 1e3),
                 )
             }),
-            loss_per_day: r.leak.map(|l| to_f64(l.loss_per_day)),
+            loss_fraction_per_day: r.leak.map(|l| to_f64(l.loss_per_day)),
             status: r.status | sensor,
             events: r.events,
         })
@@ -430,7 +431,7 @@ impl Backend for FloatGauge {
                     t.latest.map(|l| l.0 as f64 / 1e3),
                 )
             }),
-            loss_per_day: r.leak.map(|l| l.loss_per_day),
+            loss_fraction_per_day: r.leak.map(|l| l.loss_per_day),
             status: r.status | sensor,
             events: r.events,
         })

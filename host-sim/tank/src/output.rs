@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 /// The CSV header (SI units in the column names).
 pub const CSV_HEADER: &str = "t_s,pressure_true_pa,pressure_read_pa,gas_temperature_k,\
 wall_temperature_k,ambient_temperature_k,temperature_read_k,mass_true_kg,mass_gauge_kg,\
-u_mass_kg,fill_fraction,rate_kg_h,true_outflow_kg_h,time_to_empty_s,loss_per_day,status";
+u_mass_kg,fill_fraction,rate_kg_h,true_outflow_kg_h,time_to_empty_s,loss_fraction_per_day,status";
 // `status`: the flag names joined by `|` (empty: ok).
 
 fn opt(v: Option<f64>) -> String {
@@ -38,7 +38,7 @@ pub fn csv_row(p: &TracePoint) -> String {
         opt(p.rate_kg_h),
         p.true_outflow_kg_h,
         opt(p.time_to_empty_s),
-        opt(p.loss_per_day),
+        opt(p.loss_fraction_per_day),
         Status::from_bits(p.status)
             .names()
             .collect::<Vec<_>>()
@@ -416,6 +416,12 @@ pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
         pct(s.median_relative_uncertainty, 2),
     );
     note(&mut o, "u");
+    row(
+        &mut o,
+        "largest |error| / U(m) (judged)",
+        s.max_error_over_uncertainty
+            .map_or_else(|| "—".to_string(), |v| format!("{v:.2}")),
+    );
     row(
         &mut o,
         "leak",

@@ -14,7 +14,8 @@
 //!   the bias and the rms are over judged samples; `_all` variants over
 //!   every sample with an estimate.
 //! * **Uncertainty coverage**: share of judged samples whose k = 2 interval
-//!   m ± U(m) holds the true mass.
+//!   m ± U(m) holds the true mass; and the largest |error|/U(m) of a judged
+//!   sample (`max_error_over_uncertainty`).
 //! * **Leak detection**: time from the start of the first leak to the first
 //!   `leak` alarm after it.
 //! * **False alarms**: raises the truth does not justify: `leak` before any
@@ -117,8 +118,9 @@ pub struct TracePoint {
     pub true_outflow_kg_h: f64,
     /// The gauge's expected time to empty, s.
     pub time_to_empty_s: Option<f64>,
-    /// The gauge's loss per day (leak detector).
-    pub loss_per_day: Option<f64>,
+    /// The gauge's loss per day (leak detector), as a fraction of the
+    /// content per day (0.005: 0.5 % a day).
+    pub loss_fraction_per_day: Option<f64>,
     /// The gauge's status word (bits).
     pub status: u32,
 }
@@ -279,6 +281,11 @@ pub struct Summary {
     pub max_abs_error_fraction_all: Option<f64>,
     /// Share of judged samples whose k = 2 interval holds the true mass.
     pub uncertainty_coverage: Option<f64>,
+    /// Largest |content error| / U(m) (k = 2), judged samples: above 1 the
+    /// interval missed the truth; a drawn instrument is beyond 2 (4 standard
+    /// uncertainties) with a probability of about 1e-4 if the declared
+    /// uncertainties hold.
+    pub max_error_over_uncertainty: Option<f64>,
     /// Median U(m)/m, judged samples (once a minute).
     pub median_relative_uncertainty: Option<f64>,
     /// Start of the first leak, s (null: no leak).
@@ -489,7 +496,7 @@ fn point(t: &Truth, r: &Reading) -> TracePoint {
         rate_kg_h: r.rate_kg_h,
         true_outflow_kg_h: t.outflow_kg_s * 3600.0,
         time_to_empty_s: r.time_to_empty_s.map(|x| x.0),
-        loss_per_day: r.loss_per_day,
+        loss_fraction_per_day: r.loss_fraction_per_day,
         status: r.status.bits(),
     }
 }
@@ -522,6 +529,7 @@ struct Scorer {
     n_judged: u64,
     n_covered: u64,
     max_err: f64,
+    max_err_over_u: f64,
     max_err_all: f64,
     any_all: bool,
     sum_err: f64,
@@ -557,6 +565,7 @@ impl Scorer {
             n_judged: 0,
             n_covered: 0,
             max_err: 0.0,
+            max_err_over_u: 0.0,
             max_err_all: 0.0,
             any_all: false,
             sum_err: 0.0,
@@ -604,6 +613,9 @@ impl Scorer {
                 self.sum_sq += e * e;
                 if (m - truth.mass_kg).abs() <= u {
                     self.n_covered += 1;
+                }
+                if u > 0.0 {
+                    self.max_err_over_u = self.max_err_over_u.max((m - truth.mass_kg).abs() / u);
                 }
                 if minute {
                     self.rel_u.push((u / truth.mass_kg) as f32);
@@ -794,6 +806,7 @@ impl Scorer {
             rms_error_fraction: judged.then(|| (self.sum_sq / n).sqrt()),
             max_abs_error_fraction_all: self.any_all.then_some(self.max_err_all),
             uncertainty_coverage: judged.then(|| self.n_covered as f64 / n),
+            max_error_over_uncertainty: judged.then_some(self.max_err_over_u),
             median_relative_uncertainty: self
                 .rel_u
                 .get(self.rel_u.len() / 2)

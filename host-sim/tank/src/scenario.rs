@@ -269,7 +269,8 @@ pub struct LeakSection {
     pub start: String,
     /// Effective area (`"3e-5mm2"`); or give `loss_per_day`.
     pub area: Option<String>,
-    /// Loss at the start, fraction of the content per day (sets the area).
+    /// Loss at the start, as a fraction of the content per day (0.005: 0.5 %
+    /// a day; sets the area).
     pub loss_per_day: Option<f64>,
 }
 
@@ -439,7 +440,8 @@ pub struct GaugeSection {
     pub model_uncertainty: Option<f64>,
     /// Declared standard uncertainty of the temperature lag (default 10 min).
     pub temperature_lag: Option<String>,
-    /// `over_temperature` limit (default 65 °C; e.g. `"85C"` for a hydrogen
+    /// `over_temperature` limit (default 50 °C, the storage limit of cylinder
+    /// labels, see `Limits::for_tank`; e.g. `"85C"` for a hydrogen
     /// vehicle tank).
     pub temperature_max: Option<String>,
     /// Stuck check of both channels: a converted value that does not move at

@@ -341,6 +341,17 @@ fn curve(c: &[u32], row: usize, w: &[u32; 4]) -> u32 {
     acc
 }
 
+/// The flag of a pressure `p` above the saturation pressure `p_sat` (raw
+/// bits): [`Status::LIQUID_FULL`] more than 1/8 above it, else
+/// [`Status::TWO_PHASE`] (see [`super::LIQUID_FULL_MARGIN`]).
+fn liquid_phase(p: u32, p_sat: u32) -> Status {
+    if p > p_sat.saturating_add(p_sat >> 3) {
+        Status::LIQUID_FULL
+    } else {
+        Status::TWO_PHASE
+    }
+}
+
 /// Evaluates a table at raw pressure and temperature bits: Z and its slopes.
 pub fn evaluate(tab: &Table<'_>, m: &Axes, p: u32, t: u32) -> ZPointFx {
     let mut flags = Status::OK;
@@ -359,7 +370,7 @@ pub fn evaluate(tab: &Table<'_>, m: &Axes, p: u32, t: u32) -> ZPointFx {
         let p_sat = curve(b.saturation_pressure, it, &wt);
         let p_lim = curve(b.limit_pressure, it, &wt);
         if t < b.critical_temperature && p > p_sat {
-            flags |= Status::TWO_PHASE;
+            flags |= liquid_phase(p, p_sat);
             p = p_sat;
         } else if p > p_lim {
             out_p = true;
@@ -426,7 +437,7 @@ pub fn evaluate_z(tab: &Table<'_>, m: &Axes, p: u32, t: u32) -> (u32, Status) {
         let p_sat = curve(b.saturation_pressure, it, &wt);
         let p_lim = curve(b.limit_pressure, it, &wt);
         if t < b.critical_temperature && p > p_sat {
-            flags |= Status::TWO_PHASE;
+            flags |= liquid_phase(p, p_sat);
             p = p_sat;
         } else if p > p_lim {
             out_p = true;
@@ -558,7 +569,7 @@ pub fn isotherm_z(tab: &Table<'_>, m: &Axes, iso: &IsothermFx, p: u32) -> ZPoint
     let mut p = p;
     let mut out_p = false;
     if p > iso.saturation {
-        flags |= Status::TWO_PHASE;
+        flags |= liquid_phase(p, iso.saturation);
         p = iso.saturation;
     } else if p > iso.limit {
         out_p = true;

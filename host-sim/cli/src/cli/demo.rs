@@ -17,6 +17,9 @@ pub struct DemoArgs {
     /// Folder for the summary JSON, time series and plots.
     #[arg(long, default_value = "isochor-out")]
     pub out: PathBuf,
+    /// Write no files (summary only).
+    #[arg(long)]
+    pub no_files: bool,
     /// Output format of the summary.
     #[arg(long, value_enum, default_value_t = Format::Text)]
     pub format: Format,
@@ -29,7 +32,7 @@ pub fn run(a: &DemoArgs) -> Result<String, Error> {
         vec![sc],
         BackendKind::Fixed,
         60.0,
-        Some(&a.out),
+        (!a.no_files).then_some(a.out.as_path()),
         true,
         a.format == Format::Text,
     )?;
@@ -43,7 +46,7 @@ the gauge declares); its content, uncertainty and alarms are scored against the 
 each score comes with how to read it.\n\n";
     }
     s += &render(&done, a.format)?;
-    if a.format == Format::Text {
+    if a.format == Format::Text && !a.no_files {
         s += "\nOpen the PNG above to see pressure, temperatures, content with its uncertainty \
 band, the content error and the alarms. More: `isochor sim --list`.\n";
     }

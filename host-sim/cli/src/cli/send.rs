@@ -80,6 +80,18 @@ pub enum Request {
     /// tank.
     WriteConfig(WriteConfigArgs),
     /// Take the present reading of a sensor as its zero (signed).
+    ///
+    /// Pressure: the transducer must be vented to atmosphere first (vessel
+    /// valve closed, the transducer's port open to air); the device takes
+    /// the reading as the barometric pressure. Never zero a transducer that
+    /// is connected to a pressurised vessel: a full vessel would then read
+    /// nearly empty and the over-pressure alarm would be blinded. The device
+    /// refuses a zero more than 2 % of the transducer's span (at least
+    /// 10 kPa) away from the barometric pressure.
+    ///
+    /// Temperature: put the sensor in an ice bath (crushed ice topped up
+    /// with water, stirred) first; the device takes the reading as 0 °C and
+    /// refuses a zero more than 2 K away from it.
     ZeroCalibration {
         /// The sensor channel.
         #[arg(long, value_enum)]
@@ -108,10 +120,13 @@ pub struct WriteConfigArgs {
     /// Water capacity of the tank, with unit (L, mL, m3).
     #[arg(long, allow_hyphen_values = true)]
     pub capacity: String,
-    /// Rated (service) pressure, absolute, with unit.
+    /// Rated (service) pressure, with unit: absolute (bar, bara, psia, ...)
+    /// or gauge (barg, psig: the standard atmosphere, 1.01325 bar, is
+    /// added). The working pressure marked on a cylinder is a gauge pressure.
     #[arg(long, allow_hyphen_values = true)]
     pub rated_pressure: String,
-    /// Temperature the rated pressure refers to.
+    /// Temperature the rated pressure refers to. 15 °C in ISO practice; some
+    /// markings (US practice) refer to 70 °F (21.1 °C): give 70F then.
     #[arg(long, default_value = "15C", allow_hyphen_values = true)]
     pub rated_temperature: String,
     /// Standard condition for standard volume (iso13443, normal, ntp, 60f, or T,P).
@@ -150,7 +165,12 @@ pub fn setup(a: &WriteConfigArgs) -> Result<SetupFx, Error> {
     })?;
     let tank = Tank {
         water_capacity_m3: units::volume_m3(&a.capacity, "--capacity")?,
-        rated_pressure_pa: units::pressure_pa(&a.rated_pressure, "--rated-pressure")?,
+        rated_pressure_pa: units::absolute_pa(
+            &a.rated_pressure,
+            "--rated-pressure",
+            false,
+            isochor_core::constants::STANDARD_ATMOSPHERE_PA,
+        )?,
         rated_temperature_k: units::temperature_k(&a.rated_temperature, "--rated-temperature")?,
         elastic_expansion_per_mpa: units::number(
             &a.elastic_expansion_per_bar,
@@ -286,8 +306,9 @@ pub fn execute<T: crate::link::Transport>(
 ) -> Result<String, Error> {
     let text_done = |what: &str| {
         format!(
-            "{what}: done (confirmed by the device)\n{}\n",
-            safety::GENERAL
+            "{what}: done (confirmed by the device)\n{}\n{}\n",
+            safety::GENERAL,
+            safety::HARDWARE
         )
     };
     let (value, text) = match request {
@@ -336,9 +357,19 @@ pub fn execute<T: crate::link::Transport>(
                 Channel::Temperature => SensorChannel::Temperature,
             };
             client.signed(Command::ZeroCalibration { channel })?;
+            let note = match channel {
+                SensorChannel::Pressure => {
+                    "The transducer's present reading is now the barometric pressure. Reconnect \
+                     it and compare with a calibrated gauge before relying on its readings.\n"
+                }
+                SensorChannel::Temperature => {
+                    "The sensor's present reading is now 0 °C. Refit it to the vessel and let it \
+                     settle before relying on its readings.\n"
+                }
+            };
             (
                 json!({ "done": "zero-calibration" }),
-                text_done("zero-calibration"),
+                format!("{note}{}", text_done("zero-calibration")),
             )
         }
         Request::ClearAlarms => {

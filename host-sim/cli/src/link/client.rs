@@ -376,23 +376,28 @@ pub fn refusal_text(r: &Refusal) -> String {
 /// Why a zero calibration was refused, and what to do.
 fn not_at_zero_text(channel: SensorChannel, offset: i64, limit: u32) -> String {
     match channel {
-        SensorChannel::Pressure if limit == 0 => "zero calibration refused: the device has no \
-             valid pressure reading (no configuration, or the sensor is faulted)"
+        SensorChannel::Pressure if limit == 0 => "pressure zero refused: the device has no \
+             valid pressure reading (no configuration, or the sensor is faulted). Nothing was \
+             changed."
             .into(),
-        SensorChannel::Temperature if limit == 0 => "zero calibration refused: the device has \
-             no valid temperature reading (no configuration, or the sensor is faulted)"
+        SensorChannel::Temperature if limit == 0 => "temperature zero refused: the device has \
+             no valid temperature reading (no configuration, or the sensor is faulted). Nothing \
+             was changed."
             .into(),
         SensorChannel::Pressure => format!(
-            "zero calibration refused: the pressure reading is {:+.3} bar from the \
-             barometric pressure (at most {:.3} bar is taken as a zero). Close the cylinder \
-             valve, vent the transducer to the atmosphere and retry",
+            "pressure zero refused: the transducer reads {:+.3} bar from the barometric \
+             pressure; a zero is only taken within {:.3} bar of it. The port is not at \
+             atmospheric pressure: close the vessel valve, vent the transducer to atmosphere \
+             (open its bleed or disconnect it from the vessel), wait for the reading to \
+             settle, and try again. Nothing was changed.",
             -(offset as f64) / 16.0 / 1e5,
             f64::from(limit) / 16.0 / 1e5
         ),
         SensorChannel::Temperature => format!(
-            "zero calibration refused: the temperature reading is {:+.2} K from 0 °C (at \
-             most {:.2} K is taken as a zero). Put the sensor in a stirred ice bath, wait \
-             until it settles and retry",
+            "temperature zero refused: the sensor reads {:+.2} K from 0 °C; a zero is only \
+             taken within {:.2} K of it. Put the sensor in a stirred bath of crushed ice \
+             topped up with water, wait until the reading settles, and try again. Nothing was \
+             changed.",
             -(offset as f64) / 65_536.0,
             f64::from(limit) / 65_536.0
         ),

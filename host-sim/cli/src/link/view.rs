@@ -199,16 +199,19 @@ pub fn text_telemetry(r: &TelemetryRow) -> String {
         r.status.join(",")
     };
     format!(
-        "#{:<6} {:>10.3} s  p {:>9.3} bar  T {:>7.2} °C  mass {:>12}  Vstd {:>12}  fill {:>8}  \
-         settled {:>11}  rate {:>13}  empty in {:>9}  ±{:>10}  [{status}]",
+        "#{:<6} {:>10.3} s  p {:>9} bar abs  T {:>7} °C  mass {:>12}  Vstd {:>12}  fill {:>8}  \
+         settled {:>15}  rate {:>13}  empty in {:>9}  ±{:>10}  [{status}]",
         r.seq,
         r.uptime_ms as f64 / 1000.0,
-        r.pressure_pa / 1e5,
-        r.temperature_k - isochor_core::constants::ZERO_CELSIUS_K,
+        isochor_eos::units::fmt_decimal(r.pressure_pa / 1e5, 3),
+        isochor_eos::units::fmt_decimal(
+            r.temperature_k - isochor_core::constants::ZERO_CELSIUS_K,
+            2
+        ),
         fmt_opt(r.mass_kg, 1.0, 4, "kg"),
         fmt_opt(r.standard_volume_m3, 1.0, 3, "m³"),
         fmt_opt(r.fill_fraction, 100.0, 1, "%"),
-        fmt_opt(r.settled_pressure_pa, 1e-5, 2, "bar"),
+        fmt_opt(r.settled_pressure_pa, 1e-5, 2, "bar abs"),
         r.rate_kg_h
             .map_or_else(|| "n/a".to_string(), |x| format!("{x:+.4} kg/h")),
         r.time_to_empty_s.map(hms).unwrap_or_else(|| "n/a".into()),
