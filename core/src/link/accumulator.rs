@@ -105,8 +105,8 @@ impl<M: Wire> Accumulator<M> {
                 self.take(rest);
                 return Feed::NeedMore;
             };
-            let (part, after) = rest.split_at(end);
-            let after = after.get(1..).unwrap_or(&[]);
+            let part = rest.get(..end).unwrap_or(&[]);
+            let after = rest.get(end + 1..).unwrap_or(&[]);
             self.take(part);
             rest = after;
             if self.overfull {
@@ -142,7 +142,7 @@ impl<M: Wire> Accumulator<M> {
             return;
         }
         if let Some(dst) = self.buf.get_mut(self.len..self.len + bytes.len()) {
-            dst.copy_from_slice(bytes);
+            crate::encode::copy(dst, bytes);
             self.len += bytes.len();
         }
     }
