@@ -98,6 +98,9 @@ impl<M: Wire> Accumulator<M> {
     }
 
     /// Takes bytes until a frame ends or the input is used up.
+    // Not inlined: the decoder's temporaries stay out of the caller's frame
+    // while the decoded message is handled.
+    #[inline(never)]
     pub fn feed<'a>(&mut self, input: &'a [u8]) -> Feed<'a, M> {
         let mut rest = input;
         loop {
