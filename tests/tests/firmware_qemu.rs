@@ -43,6 +43,10 @@ fn main() -> ExitCode {
             "minimal_integration_matches_the_host",
             minimal_integration_matches_the_host,
         ),
+        needs_qemu(
+            "without_signed_config_signed_commands_are_unsupported",
+            without_signed_config_signed_commands_are_unsupported,
+        ),
     ];
     libtest_mimic::run(&args, trials).exit_code()
 }
@@ -384,5 +388,44 @@ fn minimal_integration_matches_the_host() {
     // the content stage alone stays within.
     assert!(worst_f < 1e-5, "{worst_f}");
     assert!(worst_m < 1e-5, "{worst_m}");
+    assert!(!q.expired(), "the run took longer than its limit");
+}
+
+/// The firmware built without its feature `signed-config` (configuration
+/// written at manufacture): it announces no signed configuration, refuses
+/// a challenge and every signed command as unsupported, and still answers
+/// its other requests.
+fn without_signed_config_signed_commands_are_unsupported() {
+    use isochor_core::link::capability;
+
+    let board = Board::Microbit;
+    let build = Build::with_features(board, "no-signed-config", &[]);
+    let dir = firmware::default_firmware_dir();
+    let elf = firmware::build(&dir, &build, &["isochor-firmware"]).unwrap();
+    let secret = Secret::new([0x5A; 32]);
+    let q = Qemu::start(
+        board,
+        &elf,
+        Some((SERIAL, &secret)),
+        Duration::from_secs(120),
+    )
+    .unwrap();
+    let mut c = Client::new(q.connection().unwrap(), Duration::from_secs(5)).with_secret(secret);
+    assert!(
+        (0..6).any(|i| c.ping(i).is_ok()),
+        "the firmware does not answer"
+    );
+    let id = c.identity().unwrap();
+    assert_eq!(id.serial, SERIAL);
+    assert_eq!(id.capabilities & capability::SIGNED_CONFIG, 0, "{id:?}");
+    assert_ne!(id.capabilities & capability::TELEMETRY, 0, "{id:?}");
+    let setup = SetupFx::from_f64(&Setup::new(Gas::Nitrogen, Tank::new(0.050, 200e5))).unwrap();
+    match c.configure(&GaugeConfig::nominal(setup), &mut |_, _| {}) {
+        Err(Error::Refused(why)) => assert!(why.contains("does not support"), "{why}"),
+        other => panic!("a configuration write was not refused as unsupported: {other:?}"),
+    }
+    // Nothing changed, and the device still answers.
+    assert_eq!(c.read_config().unwrap().origin, Origin::Default);
+    c.ping(9).unwrap();
     assert!(!q.expired(), "the run took longer than its limit");
 }
