@@ -31,8 +31,9 @@
 
 use super::float::TrackConfig;
 use super::{
-    DAY_HOURS, HOUR_MS, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
-    SETTLE_WINDOW, TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LEAK_RING,
+    LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
+    TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -56,6 +57,8 @@ const QF: u32 = 36;
 const SMOOTH_FRAC: u32 = 16;
 /// 1/(24 × 24): from the ×24 daily loss in fraction per day to per hour.
 const PER_576: Coef = Coef::from_f64(1.0 / 576.0);
+/// [`EPISODE_RATE_PER_H`] in Q36 (fraction of the rated content per hour).
+const EPISODE_Q36: i64 = (EPISODE_RATE_PER_H * (1u64 << QF) as f64 + 0.5) as i64;
 /// Largest raw input smoothed (2^31 − 1: far outside the envelope already).
 const RAW_MAX: u32 = i32::MAX as u32;
 
@@ -342,6 +345,13 @@ pub struct Tracker<M> {
     day_ring: [u32; LEAK_RING],
     day_len: usize,
     learned24: Option<i64>,
+    // Draw episodes: one is going on, its blocks, and until when the leak
+    // ring stays empty after the last one.
+    episode: bool,
+    episode_blocks: u32,
+    leak_hold_until: Instant,
+    /// The rate of the last block, fraction of the rated content per hour, Q36.
+    rate_per_h: Option<i64>,
     // Settling.
     settle_active: bool,
     settle_blocks: usize,
@@ -432,6 +442,10 @@ impl<M: CompressibilityFx> Tracker<M> {
             day_ring: [0; LEAK_RING],
             day_len: 0,
             learned24: None,
+            episode: false,
+            episode_blocks: 0,
+            leak_hold_until: Instant(0),
+            rate_per_h: None,
             settle_active: false,
             settle_blocks: 0,
             settle_since: Instant(0),
@@ -522,17 +536,20 @@ impl<M: CompressibilityFx> Tracker<M> {
         }
 
         probe::enter(Stage::Alarms);
-        let level = self.content.map(|c| LevelInputs {
-            pressure_pa: c.pressure_pa,
-            temperature_k: c.temperature_k,
-            fill_fraction: c.fill_fraction,
-            settled_fraction: if self.settle_active {
-                self.predicted.map(|p| p.fill_fraction)
-            } else {
-                Some(c.fill_fraction)
-            },
-            time_to_empty: self.tte_for_alarm(),
-        });
+        let level = self
+            .content
+            .filter(|_| !self.withdrawn(at, fault))
+            .map(|c| LevelInputs {
+                pressure_pa: c.pressure_pa,
+                temperature_k: c.temperature_k,
+                fill_fraction: c.fill_fraction,
+                settled_fraction: if self.settle_active {
+                    self.predicted.map(|p| p.fill_fraction)
+                } else {
+                    Some(c.fill_fraction)
+                },
+                time_to_empty: self.tte_for_alarm(),
+            });
         let (raise, clear) = self.cfg.limits.conditions(&Inputs {
             content: level,
             sensor_fault: fault,
@@ -541,16 +558,17 @@ impl<M: CompressibilityFx> Tracker<M> {
         });
         let events = self.alarms.update(at, raise, clear);
         let content_status = self.content.map_or(Status::OK, |c| c.status);
+        let shown = !self.withdrawn(at, fault);
         TrackFx {
             at,
-            content: self.content,
-            uncertainty: self.uncertainty,
-            rate: self.rate,
-            time_to_empty: self.tte,
+            content: self.content.filter(|_| shown),
+            uncertainty: self.uncertainty.filter(|_| shown),
+            rate: self.rate.filter(|_| shown),
+            time_to_empty: self.tte.filter(|_| shown),
             settling: SettlingFx {
                 not_settled: self.settle_active,
                 predicted: if self.settle_active {
-                    self.predicted
+                    self.predicted.filter(|_| shown)
                 } else {
                     None
                 },
@@ -560,6 +578,12 @@ impl<M: CompressibilityFx> Tracker<M> {
             events,
             status: content_status | sensor | self.alarms.active().status(),
         }
+    }
+
+    /// Whether the outputs are withdrawn at `at`: the sample is flagged and
+    /// the last usable one is older than `max_gap` (see [`super`]).
+    fn withdrawn(&self, at: Instant, fault: bool) -> bool {
+        fault && self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap)
     }
 
     /// The time to empty the low-content alarm may use (confidence ≥ 0.5).
@@ -740,8 +764,9 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
         self.rate_and_time_to_empty(content);
+        self.episodes(end);
         self.settle(end, mean, content.temperature_k);
-        self.leak_block(mean);
+        self.leak_block(end, mean);
         probe::enter(Stage::Uncertainty);
         self.uncertainty = Some(self.unc.evaluate(&self.est.with_slopes(content)));
         probe::enter(Stage::Track);
@@ -757,6 +782,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         let n = self.ring_len.min(RATE_WINDOW);
         if n < RATE_MIN_BLOCKS {
             self.rate = None;
+            self.rate_per_h = None;
             self.tte = None;
             return;
         }
@@ -764,6 +790,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         let temp = self.temperature_fit(n, self.t_len);
         let bph = self.blocks_per_hour as i64;
         let per_h = -fit.slope * bph;
+        self.rate_per_h = Some(per_h);
         // Fitted value at the window's end: mean + slope·(n − 1)/2.
         let end = fit.mean + fx::shr_round_i64(fit.slope * (n as i64 - 1), 1);
         let reserve = (self.cfg.reserve_fraction.to_bits() << (QF - 32)) as i64;
@@ -859,9 +886,59 @@ impl<M: CompressibilityFx> Tracker<M> {
         }
     }
 
+    /// Draw episodes (see [`super`]): the rate above the episode threshold
+    /// starts one, below half of it ends one; the leak ring stays empty until
+    /// [`SETTLE_TIME_CONSTANTS`] settling time constants after its end.
+    fn episodes(&mut self, end: Instant) {
+        let Some(per_h) = self.rate_per_h else {
+            self.episode = false;
+            return;
+        };
+        let mut start = EPISODE_Q36;
+        if let Some(d24) = self.expected24() {
+            // d24: fraction per day × 24, Q28; per hour × factor in Q36:
+            // d24 · 2^8 · factor / 576.
+            let f = EPISODE_EXPECTED_FACTOR as i128;
+            let x = ((d24 as i128) << (QF - Q)) * f / (DAY_HOURS * DAY_HOURS) as i128;
+            start = start.max(x.min(i64::MAX as i128) as i64);
+        }
+        if !self.episode && per_h > start {
+            self.episode = true;
+            self.episode_blocks = 0;
+        }
+        if self.episode {
+            self.episode_blocks = self.episode_blocks.saturating_add(1);
+            if per_h < start / 2 {
+                self.episode = false;
+                let hold = self.cfg.settle_time_constant.0 * SETTLE_TIME_CONSTANTS;
+                self.leak_hold_until = end + Millis(hold);
+            }
+        }
+    }
+
+    /// The expected draw of the in-use leak mode as a day sum (fraction per
+    /// day × 24, Q28; `None`: standby, or not learned yet).
+    fn expected24(&self) -> Option<i64> {
+        match self.cfg.leak_mode {
+            LeakMode::Standby => None,
+            LeakMode::InUse => self.declared24.or(self.learned24),
+        }
+    }
+
+    /// Whether the leak ring is held empty at a block ending at `end` with
+    /// mean `mean` (Q28; see [`super`]).
+    fn leak_held(&self, end: Instant, mean: u32) -> bool {
+        let long = self.cfg.leak_mode == LeakMode::Standby
+            && self.episode_blocks >= EPISODE_MAX_HOURS * self.blocks_per_hour;
+        self.settle_active
+            || (self.episode && !long)
+            || end < self.leak_hold_until
+            || ((mean as u64) << (32 - Q)) <= self.cfg.reserve_fraction.to_bits()
+    }
+
     /// Leak detection: hourly means into the two-day ring.
-    fn leak_block(&mut self, mean: u32) {
-        if self.settle_active {
+    fn leak_block(&mut self, end: Instant, mean: u32) {
+        if self.leak_held(end, mean) {
             self.reset_leak();
             return;
         }

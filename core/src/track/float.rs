@@ -2,8 +2,9 @@
 //! [`super`], mirrored step by step by [`super::fixed`]).
 
 use super::{
-    DAY_HOURS, HOUR_MS, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
-    SETTLE_WINDOW, TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LEAK_RING,
+    LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
+    TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::float::{Inputs, LevelInputs, Limits};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -265,6 +266,13 @@ pub struct Tracker<F: Real, M> {
     day_ring: [F; LEAK_RING],
     day_len: usize,
     learned_draw_per_day: Option<F>,
+    // Draw episodes: one is going on, its blocks, and until when the leak
+    // ring stays empty after the last one.
+    episode: bool,
+    episode_blocks: u32,
+    leak_hold_until: Instant,
+    /// The rate of the last block, fraction of the rated content per hour.
+    rate_per_h: Option<F>,
     // Settling.
     settle_active: bool,
     settle_blocks: usize,
@@ -324,6 +332,10 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             day_ring: [F::ZERO; LEAK_RING],
             day_len: 0,
             learned_draw_per_day: None,
+            episode: false,
+            episode_blocks: 0,
+            leak_hold_until: Instant(0),
+            rate_per_h: None,
             settle_active: false,
             settle_blocks: 0,
             settle_since: Instant(0),
@@ -406,17 +418,20 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.last_at = Some(at);
         }
 
-        let level = self.content.map(|c| LevelInputs {
-            pressure_pa: c.pressure_pa,
-            temperature_k: c.temperature_k,
-            fill_fraction: c.fill_fraction,
-            settled_fraction: if self.settle_active {
-                self.predicted.map(|p| p.fill_fraction)
-            } else {
-                Some(c.fill_fraction)
-            },
-            time_to_empty: self.tte_for_alarm(),
-        });
+        let level = self
+            .content
+            .filter(|_| !self.withdrawn(at, fault))
+            .map(|c| LevelInputs {
+                pressure_pa: c.pressure_pa,
+                temperature_k: c.temperature_k,
+                fill_fraction: c.fill_fraction,
+                settled_fraction: if self.settle_active {
+                    self.predicted.map(|p| p.fill_fraction)
+                } else {
+                    Some(c.fill_fraction)
+                },
+                time_to_empty: self.tte_for_alarm(),
+            });
         let (raise, clear) = self.cfg.limits.conditions(&Inputs {
             content: level,
             sensor_fault: fault,
@@ -425,16 +440,17 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         });
         let events = self.alarms.update(at, raise, clear);
         let content_status = self.content.map_or(Status::OK, |c| c.status);
+        let shown = !self.withdrawn(at, fault);
         Ok(Track {
             at,
-            content: self.content,
-            uncertainty: self.uncertainty,
-            rate: self.rate,
-            time_to_empty: self.tte,
+            content: self.content.filter(|_| shown),
+            uncertainty: self.uncertainty.filter(|_| shown),
+            rate: self.rate.filter(|_| shown),
+            time_to_empty: self.tte.filter(|_| shown),
             settling: Settling {
                 not_settled: self.settle_active,
                 predicted: if self.settle_active {
-                    self.predicted
+                    self.predicted.filter(|_| shown)
                 } else {
                     None
                 },
@@ -444,6 +460,12 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             events,
             status: content_status | sensor | self.alarms.active().status(),
         })
+    }
+
+    /// Whether the outputs are withdrawn at `at`: the sample is flagged and
+    /// the last usable one is older than `max_gap` (see [`super`]).
+    fn withdrawn(&self, at: Instant, fault: bool) -> bool {
+        fault && self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap)
     }
 
     /// The time to empty the low-content alarm may use: a rate known to
@@ -605,8 +627,9 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
         self.rate_and_time_to_empty(content);
+        self.episodes(end);
         self.settle(end, mean, content.temperature_k);
-        self.leak_block(mean);
+        self.leak_block(end, mean);
         self.uncertainty = Some(self.unc.evaluate(content));
         self.rated_pressure_now_pa = Some(self.est.pressure_at(F::ONE, content.temperature_k).0);
     }
@@ -616,6 +639,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         let n = self.ring_len.min(RATE_WINDOW);
         if n < RATE_MIN_BLOCKS {
             self.rate = None;
+            self.rate_per_h = None;
             self.tte = None;
             return;
         }
@@ -623,6 +647,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         let temp = self.temperature_fit(n, self.t_len);
         let bph = F::lit(self.blocks_per_hour as f64);
         let per_h = -fit.slope * bph;
+        self.rate_per_h = Some(per_h);
         let end = fit.mean + fit.slope * F::lit((n - 1) as f64 / 2.0);
         let left = end - self.cfg.reserve_fraction;
         // Standard uncertainties of the rate (the fit's scatter, the
@@ -701,9 +726,58 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         }
     }
 
+    /// Draw episodes (see [`super`]): the rate above the episode threshold
+    /// starts one, below half of it ends one; the leak ring stays empty until
+    /// [`SETTLE_TIME_CONSTANTS`] settling time constants after its end.
+    fn episodes(&mut self, end: Instant) {
+        let Some(per_h) = self.rate_per_h else {
+            self.episode = false;
+            return;
+        };
+        let mut start = F::lit(EPISODE_RATE_PER_H);
+        if let Some(d) = self.expected_per_day() {
+            start = start.max(F::lit(EPISODE_EXPECTED_FACTOR as f64 / DAY_HOURS as f64) * d);
+        }
+        if !self.episode && per_h > start {
+            self.episode = true;
+            self.episode_blocks = 0;
+        }
+        if self.episode {
+            self.episode_blocks = self.episode_blocks.saturating_add(1);
+            if per_h < start / F::lit(2.0) {
+                self.episode = false;
+                let hold = self.cfg.settle_time_constant.0 * SETTLE_TIME_CONSTANTS;
+                self.leak_hold_until = end + Millis(hold);
+            }
+        }
+    }
+
+    /// The expected draw of the in-use leak mode, fraction of the rated
+    /// content per day (`None`: standby, or not learned yet).
+    fn expected_per_day(&self) -> Option<F> {
+        match (self.cfg.leak_mode, self.cfg.declared_draw_kg_h) {
+            (LeakMode::Standby, _) => None,
+            (LeakMode::InUse, Some(kg_h)) => {
+                Some(kg_h * F::lit(DAY_HOURS as f64) / self.rated_mass_kg)
+            }
+            (LeakMode::InUse, None) => self.learned_draw_per_day,
+        }
+    }
+
+    /// Whether the leak ring is held empty at a block ending at `end` with
+    /// mean `mean` (see [`super`]).
+    fn leak_held(&self, end: Instant, mean: F) -> bool {
+        let long = self.cfg.leak_mode == LeakMode::Standby
+            && self.episode_blocks >= EPISODE_MAX_HOURS * self.blocks_per_hour;
+        self.settle_active
+            || (self.episode && !long)
+            || end < self.leak_hold_until
+            || mean <= self.cfg.reserve_fraction
+    }
+
     /// Leak detection: hourly means into the two-day ring.
-    fn leak_block(&mut self, mean: F) {
-        if self.settle_active {
+    fn leak_block(&mut self, end: Instant, mean: F) {
+        if self.leak_held(end, mean) {
             self.reset_leak();
             return;
         }

@@ -86,7 +86,25 @@
 //!
 //! The ring restarts at every fast fill or draw (and stays empty while not
 //! settled) and after a gap in the samples, so a verdict always rests on two
-//! whole settled days.
+//! whole settled days. It also stays empty
+//!
+//! * during a **draw episode** — use, not loss: the block's rate above
+//!   [`EPISODE_RATE_PER_H`] of the rated content per hour (in use also above
+//!   [`EPISODE_EXPECTED_FACTOR`] times the expected draw) starts one, a rate
+//!   below half that ends it — and for [`SETTLE_TIME_CONSTANTS`] settling
+//!   time constants after it (the gas warms back from the draw's cooling, as
+//!   after a fill). In standby an episode longer than
+//!   [`EPISODE_MAX_HOURS`] is no use but a loss and is judged;
+//! * while the content is at or below the reserve fraction (an empty vessel's
+//!   pressure is the regulator's and the day's, not a measure of loss).
+//!
+//! # Withdrawn outputs
+//!
+//! While the front end flags every sample (a dead or disconnected channel),
+//! the last estimate is shown for at most `max_gap`; after that the content,
+//! its uncertainty, rate, time to empty and settled prediction are withdrawn
+//! (`None`: null in telemetry and CLI) until a usable sample comes back,
+//! which restarts the windows. A frozen content is never shown longer.
 
 pub mod fixed;
 pub mod float;
@@ -108,6 +126,16 @@ pub const LEAK_RING: usize = 2 * DAY_HOURS;
 pub const HOUR_MS: u64 = 3_600_000;
 /// After this many settling time constants the gas counts as settled.
 pub const SETTLE_TIME_CONSTANTS: u64 = 3;
+/// A consumption above this share of the rated content per hour is a draw
+/// episode (use, not loss): 2 %/h, five times the largest slow loss the leak
+/// detector is made for (10 % of the content per day; common practice).
+pub const EPISODE_RATE_PER_H: f64 = 0.02;
+/// In use, an episode also needs a rate above this many times the expected
+/// (declared or learned) draw (common practice).
+pub const EPISODE_EXPECTED_FACTOR: u32 = 4;
+/// In standby, an episode longer than this many hours is no use but a loss:
+/// it is judged by the leak detector like any other.
+pub const EPISODE_MAX_HOURS: u32 = 12;
 
 /// How losses are judged.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]

@@ -37,7 +37,7 @@ use serde::Deserialize;
 pub const FORMAT: &str = "isochor-scenario 1";
 
 /// The built-in scenarios: (name, TOML text). The first is the demo.
-pub const BUILTIN: [(&str, &str); 5] = [
+pub const BUILTIN: [(&str, &str); 10] = [
     (
         "workshop-leak",
         include_str!("../scenarios/workshop-leak.toml"),
@@ -57,6 +57,26 @@ pub const BUILTIN: [(&str, &str); 5] = [
     (
         "methane-cold-night",
         include_str!("../scenarios/methane-cold-night.toml"),
+    ),
+    (
+        "contractor-busy-days",
+        include_str!("../scenarios/contractor-busy-days.toml"),
+    ),
+    (
+        "run-to-empty",
+        include_str!("../scenarios/run-to-empty.toml"),
+    ),
+    (
+        "sunny-rack-weather",
+        include_str!("../scenarios/sunny-rack-weather.toml"),
+    ),
+    (
+        "quiet-sensor-leak",
+        include_str!("../scenarios/quiet-sensor-leak.toml"),
+    ),
+    (
+        "dead-sensor-draw",
+        include_str!("../scenarios/dead-sensor-draw.toml"),
     ),
 ];
 
@@ -444,10 +464,18 @@ pub struct GaugeSection {
     /// labels, see `Limits::for_tank`; e.g. `"85C"` for a hydrogen
     /// vehicle tank).
     pub temperature_max: Option<String>,
-    /// Stuck check of both channels: a converted value that does not move at
-    /// all for this long is stuck (default 60 s; `"0s"` turns it off).
+    /// Stuck check of the pressure channel: a converted value that does not
+    /// move at all for this long is stuck (default 60 s; `"0s"` turns it
+    /// off).
     #[serde(default = "default_stuck")]
     pub stuck_after: String,
+    /// Stuck check of the temperature channel (default 6 h; `"0s"` turns it
+    /// off). Much longer than the pressure's: a quiet temperature front end
+    /// (noise at or below the code step, about 0.016 K for 16 bits) repeats
+    /// its code for minutes on a working sensor, while any vessel in a room
+    /// or outdoors moves by more than a code step within hours.
+    #[serde(default = "default_temperature_stuck")]
+    pub temperature_stuck_after: String,
 }
 
 fn default_leak_mode() -> String {
@@ -458,6 +486,9 @@ fn default_instrument() -> String {
 }
 fn default_stuck() -> String {
     "60s".into()
+}
+fn default_temperature_stuck() -> String {
+    "6h".into()
 }
 
 impl Default for GaugeSection {
@@ -475,6 +506,7 @@ impl Default for GaugeSection {
             temperature_lag: None,
             temperature_max: None,
             stuck_after: default_stuck(),
+            temperature_stuck_after: default_temperature_stuck(),
         }
     }
 }
@@ -981,6 +1013,9 @@ impl ScenarioFile {
         }
         track.validate()?;
         let stuck = Millis((duration_s(&g.stuck_after, "gauge.stuck_after")? * 1e3) as u64);
+        let t_stuck = Millis(
+            (duration_s(&g.temperature_stuck_after, "gauge.temperature_stuck_after")? * 1e3) as u64,
+        );
         let gauge = GaugeConfig {
             setup,
             model: g.model,
@@ -1001,7 +1036,7 @@ impl ScenarioFile {
             // −100 … +200 °C, at most 5 K/s plus 1 K between samples (a
             // sensor in the gas of a fast fill sees a few K/s).
             temperature_plausibility: PlausibilityConfig::new(
-                173.15, 473.15, 5.0, 1.0, 0.0, stuck,
+                173.15, 473.15, 5.0, 1.0, 0.0, t_stuck,
             )?,
             track,
         };
