@@ -31,8 +31,8 @@
 
 use super::float::TrackConfig;
 use super::{
-    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LEAK_RING,
-    LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
+    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
+    LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
     TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
@@ -343,6 +343,11 @@ pub struct Tracker<M> {
     hour_sum: u64,
     hour_blocks: u32,
     day_ring: [u32; LEAK_RING],
+    /// The block temperature at each hour's close beside `day_ring`, K in
+    /// Q7 (1/128 K, below 512 K).
+    day_t: [u16; LEAK_RING],
+    /// The temperature lag uncertainty of the leak margin, ms.
+    lag_ms: u64,
     day_len: usize,
     learned24: Option<i64>,
     // Draw episodes: one is going on, its blocks, and until when the leak
@@ -440,6 +445,13 @@ impl<M: CompressibilityFx> Tracker<M> {
             hour_sum: 0,
             hour_blocks: 0,
             day_ring: [0; LEAK_RING],
+            day_t: [0; LEAK_RING],
+            lag_ms: effective_lag(
+                cfg.uncertainty.temperature_lag,
+                cfg.smoothing_pressure,
+                cfg.smoothing_temperature,
+            )
+            .0,
             day_len: 0,
             learned24: None,
             episode: false,
@@ -955,6 +967,12 @@ impl<M: CompressibilityFx> Tracker<M> {
         if let Some(last) = self.day_ring.last_mut() {
             *last = hour;
         }
+        self.day_t.rotate_left(1);
+        if let Some(last) = self.day_t.last_mut() {
+            // Q23 → Q7, rounded.
+            let t = self.t_ring.last().copied().unwrap_or(0);
+            *last = ((t as u64 + (1 << 15)) >> 16).min(u16::MAX as u64) as u16;
+        }
         self.day_len = (self.day_len + 1).min(LEAK_RING);
         if self.day_len < LEAK_RING {
             return;
@@ -1000,6 +1018,16 @@ impl<M: CompressibilityFx> Tracker<M> {
                 0
             }
         };
+        // The weather's margin (see super), on the day sum: older · 3 · u_τ ·
+        // |Δs| / T with Δs in Q7 per 23 h and T in Q7 (< 2^33 · 2^17 · 2^35:
+        // within i128).
+        let t = |i: usize| self.day_t.get(i).copied().unwrap_or(0) as i64;
+        let ds = ((t(LEAK_RING - 1) - t(DAY_HOURS)) - (t(DAY_HOURS - 1) - t(0))).unsigned_abs();
+        let den = HOUR_MS as i128 * (DAY_HOURS - 1) as i128 * t(DAY_HOURS) as i128;
+        let margin24 = (older.max(0) as i128 * ds as i128 * (LAG_MARGIN * self.lag_ms) as i128)
+            .checked_div(den)
+            .unwrap_or(0)
+            .min(i64::MAX as i128) as i64;
         self.leak = Some(LeakFx {
             loss_per_day: fx::FractionRate::from_bits(rel(loss24)),
             excess_per_day: fx::FractionRate::from_bits(rel(excess24)),
@@ -1009,7 +1037,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 Q,
                 32,
             )),
-            leaking: excess24 > limit,
+            leaking: excess24 > limit.saturating_add(margin24),
         });
     }
 

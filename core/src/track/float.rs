@@ -2,8 +2,8 @@
 //! [`super`], mirrored step by step by [`super::fixed`]).
 
 use super::{
-    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LEAK_RING,
-    LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
+    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
+    LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
     TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::float::{Inputs, LevelInputs, Limits};
@@ -264,6 +264,11 @@ pub struct Tracker<F: Real, M> {
     hour_sum: F,
     hour_blocks: u32,
     day_ring: [F; LEAK_RING],
+    /// The block temperature at each hour's close beside `day_ring`, K
+    /// (rounded to 1/128 K as the fixed path keeps it).
+    day_t: [F; LEAK_RING],
+    /// The temperature lag uncertainty of the leak margin, ms.
+    lag_ms: u64,
     day_len: usize,
     learned_draw_per_day: Option<F>,
     // Draw episodes: one is going on, its blocks, and until when the leak
@@ -306,6 +311,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         let rated = est.estimate(tank.rated_pressure_pa, tank.rated_temperature_k)?;
         let rated_mass_kg = est.rated_mass_kg();
         let blocks_per_hour = (HOUR_MS / cfg.block.0) as u32;
+        let lag_ms = unc.config().temperature_lag.0;
         Ok(Tracker {
             unc,
             alarms: Alarms::new(cfg.debounce),
@@ -330,6 +336,8 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             hour_sum: F::ZERO,
             hour_blocks: 0,
             day_ring: [F::ZERO; LEAK_RING],
+            day_t: [F::ZERO; LEAK_RING],
+            lag_ms,
             day_len: 0,
             learned_draw_per_day: None,
             episode: false,
@@ -793,6 +801,10 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         if let Some(last) = self.day_ring.last_mut() {
             *last = hour;
         }
+        self.day_t.rotate_left(1);
+        if let Some(last) = self.day_t.last_mut() {
+            *last = F::lit(libm::round(self.t_smooth.to_f64() * 128.0) / 128.0);
+        }
         self.day_len = (self.day_len + 1).min(LEAK_RING);
         if self.day_len < LEAK_RING {
             return;
@@ -830,11 +842,22 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         } else {
             (F::ZERO, F::ZERO)
         };
+        // The weather's margin (see super): the change of the day's mean
+        // temperature slope, per 23 h between each day's first and last hour.
+        let t = |i: usize| self.day_t.get(i).copied().unwrap_or(F::ZERO);
+        let ds = ((t(LEAK_RING - 1) - t(DAY_HOURS)) - (t(DAY_HOURS - 1) - t(0))).abs();
+        let mid = t(DAY_HOURS);
+        let margin = if mid > F::ZERO {
+            older * ds * F::lit((LAG_MARGIN * self.lag_ms) as f64)
+                / (F::lit(HOUR_MS as f64 * (DAY_HOURS - 1) as f64) * mid * hours)
+        } else {
+            F::ZERO
+        };
         self.leak = Some(Leak {
             loss_per_day: loss_rel,
             excess_per_day: excess_rel,
             expected_draw_kg_h: expected * self.rated_mass_kg / hours,
-            leaking: excess > self.cfg.leak_threshold_per_day * content,
+            leaking: excess > self.cfg.leak_threshold_per_day * content + margin,
         });
     }
 

@@ -98,6 +98,19 @@
 //! * while the content is at or below the reserve fraction (an empty vessel's
 //!   pressure is the regulator's and the day's, not a measure of loss).
 //!
+//! ## Weather
+//!
+//! A sensor on the wall runs ahead of the gas when the weather warms and
+//! behind it when it cools; the content errs by about −F·τ·(dT/dt)/T for a
+//! lag τ. Over one day that leaves −F·τ·s/T with s the day's mean dT/dt, and
+//! in the loss of a pair of days −F·τ·(s_older − s_newer)/T: nothing when
+//! the days warm and cool alike, up to a few tenths of a per cent per day
+//! when a warm spell follows a cold front. The verdict therefore adds a
+//! margin of [`LAG_MARGIN`]·F·u_τ·|s_older − s_newer|/T to the threshold,
+//! u_τ the temperature lag uncertainty the rate budget uses (declared, plus
+//! the difference of the smoothing time constants); s from the block
+//! temperature at each hour's close, kept beside the hourly means (1/128 K).
+//!
 //! # Withdrawn outputs
 //!
 //! While the front end flags every sample (a dead or disconnected channel),
@@ -133,6 +146,10 @@ pub const EPISODE_RATE_PER_H: f64 = 0.02;
 /// In use, an episode also needs a rate above this many times the expected
 /// (declared or learned) draw (common practice).
 pub const EPISODE_EXPECTED_FACTOR: u32 = 4;
+/// The leak verdict's margin for the temperature sensor's lag behind the
+/// gas, in lag uncertainties (see "Weather" below; common practice: about
+/// three standard uncertainties).
+pub const LAG_MARGIN: u64 = 3;
 /// In standby, an episode longer than this many hours is no use but a loss:
 /// it is judged by the leak detector like any other.
 pub const EPISODE_MAX_HOURS: u32 = 12;
