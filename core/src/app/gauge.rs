@@ -243,6 +243,9 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         self.flush(io);
     }
 
+    // Not inlined: the sample chain's locals then live only during a
+    // sample, not in the frame of every message handler that may take one.
+    #[inline(never)]
     fn take(&mut self, at: Instant, raw: &RawSample) {
         self.samples = self.samples.wrapping_add(1);
         self.last_sample_at = at;
