@@ -33,7 +33,7 @@ use super::float::TrackConfig;
 use super::{
     DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
     LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
-    TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -59,6 +59,8 @@ const SMOOTH_FRAC: u32 = 16;
 const PER_576: Coef = Coef::from_f64(1.0 / 576.0);
 /// [`EPISODE_RATE_PER_H`] in Q36 (fraction of the rated content per hour).
 const EPISODE_Q36: i64 = (EPISODE_RATE_PER_H * (1u64 << QF) as f64 + 0.5) as i64;
+/// [`STEADY_FLOOR_PER_H`] in Q36.
+const STEADY_FLOOR_Q36: i64 = (STEADY_FLOOR_PER_H * (1u64 << QF) as f64 + 0.5) as i64;
 /// Largest raw input smoothed (2^31 − 1: far outside the envelope already).
 const RAW_MAX: u32 = i32::MAX as u32;
 
@@ -216,6 +218,8 @@ pub struct RateFx {
     pub confidence: fx::Fraction,
     /// Blocks in the fit.
     pub blocks: u32,
+    /// The window holds a steady draw (false: no time to empty).
+    pub steady: bool,
 }
 
 /// Thermal settling state and prediction, fixed-point form.
@@ -839,14 +843,24 @@ impl<M: CompressibilityFx> Tracker<M> {
             0
         };
         let kg_h = coef_mul(self.rated_mass, per_h, QF, 32);
+        // A steady draw? The newest SETTLE_WINDOW blocks' slope against the
+        // window's (see super), per hour in Q36.
+        let steady = n < 2 * SETTLE_WINDOW || {
+            let short = self.slope(SETTLE_WINDOW);
+            let allowed = (fit.slope.unsigned_abs() * bph as u64 / STEADY_SHARE_DIVISOR as u64)
+                as i64
+                + STEADY_FLOOR_Q36;
+            (short - fit.slope).saturating_mul(bph).saturating_abs() <= allowed
+        };
         self.rate = Some(RateFx {
             kg_h: fx::MassRate::from_bits(kg_h),
             standard_m3_h: fx::VolumeRate::from_bits(coef_mul(self.rated_volume, per_h, QF, 32)),
             u_kg_h: fx::MassRate::from_bits(coef_mul(self.rated_mass, u_per_h, QF, 32)),
             confidence: fx::Fraction::from_bits(confidence),
             blocks: n as u32,
+            steady,
         });
-        self.tte = if per_h > 0 && left > 0 {
+        self.tte = if per_h > 0 && left > 0 && steady {
             // left < 2^41 (Q36, ≤ 16 + margin), × 3.6e6 < 2^63.
             let ms = |rate: i64| {
                 Millis(
@@ -1059,6 +1073,21 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.hour_blocks = 0;
         self.day_len = 0;
         self.leak = None;
+    }
+
+    /// The least-squares slope alone of the last `n` block means (Q36 per
+    /// block; the same value as [`Tracker::fit`]'s).
+    fn slope(&self, n: usize) -> i64 {
+        let ni = n as i64;
+        let sxy2: i64 = self
+            .ring
+            .iter()
+            .skip(RATE_WINDOW - n)
+            .enumerate()
+            .map(|(i, &y)| (2 * i as i64 - (ni - 1)) * y as i64)
+            .sum();
+        let num = (sxy2 as i128) << (QF - Q);
+        div_round_i128(num * 6, (ni * (ni * ni - 1)) as i128) as i64
     }
 
     /// Least-squares line through the last `n` block means (Q28 in, Q36 out).

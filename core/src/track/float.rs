@@ -4,7 +4,7 @@
 use super::{
     DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
     LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
-    TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::float::{Inputs, LevelInputs, Limits};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -132,6 +132,9 @@ pub struct Rate<F = f64> {
     pub confidence: F,
     /// Blocks in the fit.
     pub blocks: u32,
+    /// The window holds a steady draw (false: a draw started, stopped or
+    /// changed within it, and no time to empty is given; see [`super`]).
+    pub steady: bool,
 }
 
 /// Time until the content reaches the reserve at the present rate.
@@ -684,14 +687,23 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             F::ZERO
         };
         let kg_h = per_h * self.rated_mass_kg;
+        // A steady draw? The newest SETTLE_WINDOW blocks' slope against the
+        // window's (see super).
+        let steady = n < 2 * SETTLE_WINDOW || {
+            let short = self.fit(SETTLE_WINDOW).slope;
+            let allowed = F::lit(1.0 / STEADY_SHARE_DIVISOR as f64) * fit.slope.abs() * bph
+                + F::lit(STEADY_FLOOR_PER_H);
+            (short - fit.slope).abs() * bph <= allowed
+        };
         self.rate = Some(Rate {
             kg_h,
             standard_m3_h: kg_h * self.standard_m3_per_kg,
             u_kg_h: u_per_h * self.rated_mass_kg,
             confidence,
             blocks: n as u32,
+            steady,
         });
-        self.tte = if per_h > F::ZERO && left > F::ZERO {
+        self.tte = if per_h > F::ZERO && left > F::ZERO && steady {
             let ms = |rate: F| Millis((left / rate * F::lit(HOUR_MS as f64)).to_f64() as u64);
             // The bounds: left/(rate ± U) with U the rate spread of the
             // time to empty's own budget (k = 2).

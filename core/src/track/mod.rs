@@ -44,6 +44,12 @@
 //!   parabola through the block temperatures, times the declared lag and
 //!   gain uncertainties of the temperature sensor and the sensitivity c_T)
 //!   and the scale errors; and a confidence 1 − U/|rate| (0 … 1).
+//! * **Steady draw**: the slope of the newest [`SETTLE_WINDOW`] blocks
+//!   against the window's; when they differ by more than
+//!   1/[`STEADY_SHARE_DIVISOR`] of the window's slope plus
+//!   [`STEADY_FLOOR_PER_H`] a draw started, stopped or changed within the
+//!   window: the rate is reported with `steady: false` and no time to empty
+//!   is given (the window's mix of draw and idle gives no basis for one).
 //! * **Time to empty** down to the reserve fraction: (F_end − F_reserve)/rate,
 //!   F_end the fitted value at the end of the window; earliest and latest
 //!   from rate ± U_t, U_t the time to empty's own budget written as a rate
@@ -146,6 +152,14 @@ pub const EPISODE_RATE_PER_H: f64 = 0.02;
 /// In use, an episode also needs a rate above this many times the expected
 /// (declared or learned) draw (common practice).
 pub const EPISODE_EXPECTED_FACTOR: u32 = 4;
+/// The rate window holds no steady draw when the slope of its newest
+/// [`SETTLE_WINDOW`] blocks differs from the window's by more than this
+/// share of it (1/8) …
+pub const STEADY_SHARE_DIVISOR: u32 = 8;
+/// … plus this share of the rated content per hour (far above the short
+/// slope's scatter from noise, about 0.01 %/h for a bridge transducer at
+/// 1 Hz; common practice).
+pub const STEADY_FLOOR_PER_H: f64 = 0.002;
 /// The leak verdict's margin for the temperature sensor's lag behind the
 /// gas, in lag uncertainties (see "Weather" below; common practice: about
 /// three standard uncertainties).
