@@ -551,23 +551,22 @@ impl<M: CompressibilityFx> Tracker<M> {
                 }
             }
             self.last_at = Some(at);
+        } else {
+            self.withdraw_if_stale(at);
         }
 
         probe::enter(Stage::Alarms);
-        let level = self
-            .content
-            .filter(|_| !self.withdrawn(at, fault))
-            .map(|c| LevelInputs {
-                pressure_pa: c.pressure_pa,
-                temperature_k: c.temperature_k,
-                fill_fraction: c.fill_fraction,
-                settled_fraction: if self.settle_active {
-                    self.predicted.map(|p| p.fill_fraction)
-                } else {
-                    Some(c.fill_fraction)
-                },
-                time_to_empty: self.tte_for_alarm(),
-            });
+        let level = self.content.map(|c| LevelInputs {
+            pressure_pa: c.pressure_pa,
+            temperature_k: c.temperature_k,
+            fill_fraction: c.fill_fraction,
+            settled_fraction: if self.settle_active {
+                self.predicted.map(|p| p.fill_fraction)
+            } else {
+                Some(c.fill_fraction)
+            },
+            time_to_empty: self.tte_for_alarm(),
+        });
         let (raise, clear) = self.cfg.limits.conditions(&Inputs {
             content: level,
             sensor_fault: fault,
@@ -576,17 +575,16 @@ impl<M: CompressibilityFx> Tracker<M> {
         });
         let events = self.alarms.update(at, raise, clear);
         let content_status = self.content.map_or(Status::OK, |c| c.status);
-        let shown = !self.withdrawn(at, fault);
         TrackFx {
             at,
-            content: self.content.filter(|_| shown),
-            uncertainty: self.uncertainty.filter(|_| shown),
-            rate: self.rate.filter(|_| shown),
-            time_to_empty: self.tte.filter(|_| shown),
+            content: self.content,
+            uncertainty: self.uncertainty,
+            rate: self.rate,
+            time_to_empty: self.tte,
             settling: SettlingFx {
                 not_settled: self.settle_active,
                 predicted: if self.settle_active {
-                    self.predicted.filter(|_| shown)
+                    self.predicted
                 } else {
                     None
                 },
@@ -598,10 +596,18 @@ impl<M: CompressibilityFx> Tracker<M> {
         }
     }
 
-    /// Whether the outputs are withdrawn at `at`: the sample is flagged and
-    /// the last usable one is older than `max_gap` (see [`super`]).
-    fn withdrawn(&self, at: Instant, fault: bool) -> bool {
-        fault && self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap)
+    /// At a flagged sample: once the last usable one is older than
+    /// `max_gap`, the content and what rests on it are withdrawn (see
+    /// [`super`]; a usable sample restarts the windows).
+    fn withdraw_if_stale(&mut self, at: Instant) {
+        if self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap) {
+            self.content = None;
+            self.uncertainty = None;
+            self.rate = None;
+            self.rate_per_h = None;
+            self.tte = None;
+            self.predicted = None;
+        }
     }
 
     /// The time to empty the low-content alarm may use (confidence ≥ 0.5).
@@ -846,11 +852,27 @@ impl<M: CompressibilityFx> Tracker<M> {
         // A steady draw? The newest SETTLE_WINDOW blocks' slope against the
         // window's (see super), per hour in Q36.
         let steady = n < 2 * SETTLE_WINDOW || {
-            let short = self.slope(SETTLE_WINDOW);
-            let allowed = (fit.slope.unsigned_abs() * bph as u64 / STEADY_SHARE_DIVISOR as u64)
-                as i64
-                + STEADY_FLOOR_Q36;
-            (short - fit.slope).saturating_mul(bph).saturating_abs() <= allowed
+            // |short − long|·bph ≤ long·bph/8 + floor with short =
+            // 6·Σ(2i − 7)·y·2^8/504 (the slope of the newest 8 blocks, Q36
+            // per block; see `fit`), multiplied through by 504: no division.
+            // Σ < 2^35, × 6 · 2^8 < 2^46; long·504 < 2^46; × bph < 2^58.
+            let k = SETTLE_WINDOW as i64;
+            let den = k * (k * k - 1);
+            let sxy2: i64 = self
+                .ring
+                .iter()
+                .skip(RATE_WINDOW - SETTLE_WINDOW)
+                .enumerate()
+                .map(|(i, &y)| (2 * i as i64 - (k - 1)) * y as i64)
+                .sum();
+            let short504 = (sxy2 * 6) << (QF - Q);
+            let diff = (short504 - fit.slope * den)
+                .saturating_mul(bph)
+                .saturating_abs();
+            let allowed = (fit.slope.saturating_abs() * bph / STEADY_SHARE_DIVISOR as i64
+                + STEADY_FLOOR_Q36)
+                .saturating_mul(den);
+            diff <= allowed
         };
         self.rate = Some(RateFx {
             kg_h: fx::MassRate::from_bits(kg_h),
@@ -1073,21 +1095,6 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.hour_blocks = 0;
         self.day_len = 0;
         self.leak = None;
-    }
-
-    /// The least-squares slope alone of the last `n` block means (Q36 per
-    /// block; the same value as [`Tracker::fit`]'s).
-    fn slope(&self, n: usize) -> i64 {
-        let ni = n as i64;
-        let sxy2: i64 = self
-            .ring
-            .iter()
-            .skip(RATE_WINDOW - n)
-            .enumerate()
-            .map(|(i, &y)| (2 * i as i64 - (ni - 1)) * y as i64)
-            .sum();
-        let num = (sxy2 as i128) << (QF - Q);
-        div_round_i128(num * 6, (ni * (ni * ni - 1)) as i128) as i64
     }
 
     /// Least-squares line through the last `n` block means (Q28 in, Q36 out).

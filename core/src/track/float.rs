@@ -427,22 +427,21 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 }
             }
             self.last_at = Some(at);
+        } else {
+            self.withdraw_if_stale(at);
         }
 
-        let level = self
-            .content
-            .filter(|_| !self.withdrawn(at, fault))
-            .map(|c| LevelInputs {
-                pressure_pa: c.pressure_pa,
-                temperature_k: c.temperature_k,
-                fill_fraction: c.fill_fraction,
-                settled_fraction: if self.settle_active {
-                    self.predicted.map(|p| p.fill_fraction)
-                } else {
-                    Some(c.fill_fraction)
-                },
-                time_to_empty: self.tte_for_alarm(),
-            });
+        let level = self.content.map(|c| LevelInputs {
+            pressure_pa: c.pressure_pa,
+            temperature_k: c.temperature_k,
+            fill_fraction: c.fill_fraction,
+            settled_fraction: if self.settle_active {
+                self.predicted.map(|p| p.fill_fraction)
+            } else {
+                Some(c.fill_fraction)
+            },
+            time_to_empty: self.tte_for_alarm(),
+        });
         let (raise, clear) = self.cfg.limits.conditions(&Inputs {
             content: level,
             sensor_fault: fault,
@@ -451,17 +450,16 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         });
         let events = self.alarms.update(at, raise, clear);
         let content_status = self.content.map_or(Status::OK, |c| c.status);
-        let shown = !self.withdrawn(at, fault);
         Ok(Track {
             at,
-            content: self.content.filter(|_| shown),
-            uncertainty: self.uncertainty.filter(|_| shown),
-            rate: self.rate.filter(|_| shown),
-            time_to_empty: self.tte.filter(|_| shown),
+            content: self.content,
+            uncertainty: self.uncertainty,
+            rate: self.rate,
+            time_to_empty: self.tte,
             settling: Settling {
                 not_settled: self.settle_active,
                 predicted: if self.settle_active {
-                    self.predicted.filter(|_| shown)
+                    self.predicted
                 } else {
                     None
                 },
@@ -473,10 +471,18 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         })
     }
 
-    /// Whether the outputs are withdrawn at `at`: the sample is flagged and
-    /// the last usable one is older than `max_gap` (see [`super`]).
-    fn withdrawn(&self, at: Instant, fault: bool) -> bool {
-        fault && self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap)
+    /// At a flagged sample: once the last usable one is older than
+    /// `max_gap`, the content and what rests on it are withdrawn (see
+    /// [`super`]; a usable sample restarts the windows).
+    fn withdraw_if_stale(&mut self, at: Instant) {
+        if self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap) {
+            self.content = None;
+            self.uncertainty = None;
+            self.rate = None;
+            self.rate_per_h = None;
+            self.tte = None;
+            self.predicted = None;
+        }
     }
 
     /// The time to empty the low-content alarm may use: a rate known to
