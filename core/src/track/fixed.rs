@@ -350,8 +350,9 @@ pub struct Tracker<M> {
     /// The block temperature at each hour's close beside `day_ring`, K in
     /// Q7 (1/128 K, below 512 K).
     day_t: [u16; LEAK_RING],
-    /// The temperature lag uncertainty of the leak margin, ms.
-    lag_ms: u64,
+    /// The leak margin's lag factor, 3·u_τ/23 h in Q16 (u_τ the temperature
+    /// lag uncertainty; below 2^16 for any accepted one).
+    lag_q16: u64,
     day_len: usize,
     learned24: Option<i64>,
     // Draw episodes: one is going on, its blocks, and until when the leak
@@ -452,12 +453,15 @@ impl<M: CompressibilityFx> Tracker<M> {
             hour_blocks: 0,
             day_ring: [0; LEAK_RING],
             day_t: [0; LEAK_RING],
-            lag_ms: effective_lag(
-                cfg.uncertainty.temperature_lag,
-                cfg.smoothing_pressure,
-                cfg.smoothing_temperature,
-            )
-            .0,
+            lag_q16: ((LAG_MARGIN
+                * effective_lag(
+                    cfg.uncertainty.temperature_lag,
+                    cfg.smoothing_pressure,
+                    cfg.smoothing_temperature,
+                )
+                .0)
+                << 16)
+                / (HOUR_MS * (DAY_HOURS as u64 - 1)),
             day_len: 0,
             learned24: None,
             episode: false,
@@ -953,10 +957,9 @@ impl<M: CompressibilityFx> Tracker<M> {
         let mut start = EPISODE_Q36;
         if let Some(d24) = self.expected24() {
             // d24: fraction per day × 24, Q28; per hour × factor in Q36:
-            // d24 · 2^8 · factor / 576.
-            let f = EPISODE_EXPECTED_FACTOR as i128;
-            let x = ((d24 as i128) << (QF - Q)) * f / (DAY_HOURS * DAY_HOURS) as i128;
-            start = start.max(x.min(i64::MAX as i128) as i64);
+            // d24 · 2^8 · factor / 576 (d24 < 2^40).
+            let f = (EPISODE_EXPECTED_FACTOR as i64) << (QF - Q);
+            start = start.max(d24.saturating_mul(f) / (DAY_HOURS * DAY_HOURS) as i64);
         }
         if !self.episode && per_h > start {
             self.episode = true;
@@ -1066,16 +1069,15 @@ impl<M: CompressibilityFx> Tracker<M> {
                 0
             }
         };
-        // The weather's margin (see super), on the day sum: older · 3 · u_τ ·
-        // |Δs| / T with Δs in Q7 per 23 h and T in Q7 (< 2^33 · 2^17 · 2^35:
-        // within i128).
+        // The weather's margin (see super), on the day sum: older · |Δs|/T ·
+        // 3·u_τ/23 h, Δs and T in Q7: |Δs|/T in Q32 (one 64-bit division,
+        // |Δs| < 2^17), older narrowed by 8 bits before it multiplies (< 2^61),
+        // then the lag factor in Q16 (`lag_q16`).
         let t = |i: usize| self.day_t.get(i).copied().unwrap_or(0) as i64;
         let ds = ((t(LEAK_RING - 1) - t(DAY_HOURS)) - (t(DAY_HOURS - 1) - t(0))).unsigned_abs();
-        let den = HOUR_MS as i128 * (DAY_HOURS - 1) as i128 * t(DAY_HOURS) as i128;
-        let margin24 = (older.max(0) as i128 * ds as i128 * (LAG_MARGIN * self.lag_ms) as i128)
-            .checked_div(den)
-            .unwrap_or(0)
-            .min(i64::MAX as i128) as i64;
+        let ratio = (ds << 32).checked_div(t(DAY_HOURS) as u64).unwrap_or(0);
+        let x = ((older.max(0) as u64 >> 8).saturating_mul(ratio)) >> 24;
+        let margin24 = (x.saturating_mul(self.lag_q16) >> 16).min(i64::MAX as u64) as i64;
         self.leak = Some(LeakFx {
             loss_per_day: fx::FractionRate::from_bits(rel(loss24)),
             excess_per_day: fx::FractionRate::from_bits(rel(excess24)),
