@@ -59,6 +59,7 @@ mod area;
 mod blob;
 mod layout;
 mod records;
+#[cfg(any(test, feature = "sim-flash"))]
 pub mod sim;
 
 pub use area::{Loaded, RecordArea};
