@@ -31,9 +31,10 @@
 
 use super::float::TrackConfig;
 use super::{
-    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
-    LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
-    STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    DAY_HOURS, EARLY_FACTOR_Q8, EARLY_MIN_PAIRS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS,
+    EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW,
+    SETTLE_TIME_CONSTANTS, SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR,
+    TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -1024,23 +1025,32 @@ impl<M: CompressibilityFx> Tracker<M> {
             *last = ((t as u64 + (1 << 15)) >> 16).min(u16::MAX as u64) as u16;
         }
         self.day_len = (self.day_len + 1).min(LEAK_RING);
-        if self.day_len < LEAK_RING {
+        // Pairs of hours one day apart: the older k of the ring against the
+        // k a day later (24 once the ring is full; see super).
+        let k = self.day_len.saturating_sub(DAY_HOURS);
+        if k < EARLY_MIN_PAIRS {
             return;
         }
-        // Day sums (24 × the day means), Q28.
-        let older: i64 = self
-            .day_ring
-            .iter()
-            .take(DAY_HOURS)
-            .map(|&x| x as i64)
-            .sum();
-        let newer: i64 = self
-            .day_ring
-            .iter()
-            .skip(DAY_HOURS)
-            .map(|&x| x as i64)
-            .sum();
-        let loss24 = older - newer;
+        // Sums of the k hours of each side, Q28, as day sums (24 × the
+        // means: exact for k = 24, one 64-bit division each otherwise).
+        let sum = |from: usize| -> i64 {
+            self.day_ring
+                .iter()
+                .skip(from)
+                .take(k)
+                .map(|&x| x as i64)
+                .sum()
+        };
+        let (older_k, newer_k) = (sum(DAY_HOURS - k), sum(LEAK_RING - k));
+        let per_day = |v: i64| {
+            if k == DAY_HOURS {
+                v
+            } else {
+                v * DAY_HOURS as i64 / k as i64
+            }
+        };
+        let older = per_day(older_k);
+        let loss24 = per_day(older_k - newer_k);
         let expected24 = match self.cfg.leak_mode {
             LeakMode::Standby => 0,
             LeakMode::InUse => match self.declared24 {
@@ -1048,16 +1058,23 @@ impl<M: CompressibilityFx> Tracker<M> {
                 None => match self.learned24 {
                     Some(d) => d,
                     None => {
-                        self.learned24 = Some(loss24.max(0));
+                        if k == DAY_HOURS {
+                            self.learned24 = Some(loss24.max(0));
+                        }
                         return;
                     }
                 },
             },
         };
         let excess24 = loss24 - expected24;
-        // θ·older: U0F32 × Q28 sum → Q28.
-        let limit =
+        // θ·older: U0F32 × Q28 sum → Q28; raised by the early factor (1/256)
+        // for fewer than 24 pairs.
+        let mut limit =
             ((self.cfg.leak_threshold_per_day.to_bits() as i128 * older as i128) >> 32) as i64;
+        if k < DAY_HOURS {
+            let f = EARLY_FACTOR_Q8.get(k).copied().unwrap_or(256) as i64;
+            limit = limit.saturating_mul(f) >> 8;
+        }
         let rel = |v: i64| {
             if older > 0 {
                 ((v as i128) << 32)
@@ -1070,11 +1087,17 @@ impl<M: CompressibilityFx> Tracker<M> {
             }
         };
         // The weather's margin (see super), on the day sum: older · |Δs|/T ·
-        // 3·u_τ/23 h, Δs and T in Q7: |Δs|/T in Q32 (one 64-bit division,
-        // |Δs| < 2^17), older narrowed by 8 bits before it multiplies (< 2^61),
-        // then the lag factor in Q16 (`lag_q16`).
+        // 3·u_τ/23 h, Δs and T in Q7 (Δs over the k hours of each side, brought
+        // to 23 h), |Δs|/T in Q32 (one 64-bit division, |Δs| < 2^22), older
+        // narrowed by 8 bits before it multiplies (< 2^61), then the lag
+        // factor in Q16 (`lag_q16`).
         let t = |i: usize| self.day_t.get(i).copied().unwrap_or(0) as i64;
-        let ds = ((t(LEAK_RING - 1) - t(DAY_HOURS)) - (t(DAY_HOURS - 1) - t(0))).unsigned_abs();
+        let mut ds = ((t(LEAK_RING - 1) - t(LEAK_RING - k))
+            - (t(DAY_HOURS - 1) - t(DAY_HOURS - k)))
+        .unsigned_abs();
+        if k < DAY_HOURS {
+            ds = ds * (DAY_HOURS as u64 - 1) / (k as u64 - 1);
+        }
         let ratio = (ds << 32).checked_div(t(DAY_HOURS) as u64).unwrap_or(0);
         let x = ((older.max(0) as u64 >> 8).saturating_mul(ratio)) >> 24;
         let margin24 = (x.saturating_mul(self.lag_q16) >> 16).min(i64::MAX as u64) as i64;

@@ -2,9 +2,10 @@
 //! [`super`], mirrored step by step by [`super::fixed`]).
 
 use super::{
-    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
-    LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
-    STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    DAY_HOURS, EARLY_FACTOR_Q8, EARLY_MIN_PAIRS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS,
+    EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW,
+    SETTLE_TIME_CONSTANTS, SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR,
+    TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::float::{Inputs, LevelInputs, Limits};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -824,22 +825,27 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             *last = F::lit(libm::round(self.t_smooth.to_f64() * 128.0) / 128.0);
         }
         self.day_len = (self.day_len + 1).min(LEAK_RING);
-        if self.day_len < LEAK_RING {
+        // Pairs of hours one day apart: the older k of the ring against the
+        // k a day later (24 once the ring is full; see super).
+        let k = self.day_len.saturating_sub(DAY_HOURS);
+        if k < EARLY_MIN_PAIRS {
             return;
         }
         let older: F = self
             .day_ring
             .iter()
-            .take(DAY_HOURS)
+            .skip(DAY_HOURS - k)
+            .take(k)
             .fold(F::ZERO, |a, &x| a + x);
         let newer: F = self
             .day_ring
             .iter()
-            .skip(DAY_HOURS)
+            .skip(LEAK_RING - k)
             .fold(F::ZERO, |a, &x| a + x);
         let hours = F::lit(DAY_HOURS as f64);
+        let kf = F::lit(k as f64);
         // Loss per day as a fraction of the rated content.
-        let loss = (older - newer) / hours;
+        let loss = (older - newer) / kf;
         let expected = match self.cfg.leak_mode {
             LeakMode::Standby => F::ZERO,
             LeakMode::InUse => match self.cfg.declared_draw_kg_h {
@@ -847,27 +853,31 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 None => match self.learned_draw_per_day {
                     Some(d) => d,
                     None => {
-                        self.learned_draw_per_day = Some(loss.max(F::ZERO));
+                        if k == DAY_HOURS {
+                            self.learned_draw_per_day = Some(loss.max(F::ZERO));
+                        }
                         return;
                     }
                 },
             },
         };
-        let content = older / hours;
+        let content = older / kf;
         let excess = loss - expected;
         let (loss_rel, excess_rel) = if content > F::ZERO {
             (loss / content, excess / content)
         } else {
             (F::ZERO, F::ZERO)
         };
-        // The weather's margin (see super): the change of the day's mean
-        // temperature slope, per 23 h between each day's first and last hour.
+        let factor = F::lit(EARLY_FACTOR_Q8.get(k).copied().unwrap_or(256) as f64 / 256.0);
+        // The weather's margin (see super): the change of the mean
+        // temperature slope over the k hours of each side.
         let t = |i: usize| self.day_t.get(i).copied().unwrap_or(F::ZERO);
-        let ds = ((t(LEAK_RING - 1) - t(DAY_HOURS)) - (t(DAY_HOURS - 1) - t(0))).abs();
+        let ds =
+            ((t(LEAK_RING - 1) - t(LEAK_RING - k)) - (t(DAY_HOURS - 1) - t(DAY_HOURS - k))).abs();
         let mid = t(DAY_HOURS);
         let margin = if mid > F::ZERO {
-            older * ds * F::lit((LAG_MARGIN * self.lag_ms) as f64)
-                / (F::lit(HOUR_MS as f64 * (DAY_HOURS - 1) as f64) * mid * hours)
+            content * ds * F::lit((LAG_MARGIN * self.lag_ms) as f64)
+                / (F::lit(HOUR_MS as f64 * (k - 1) as f64) * mid)
         } else {
             F::ZERO
         };
@@ -875,7 +885,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             loss_per_day: loss_rel,
             excess_per_day: excess_rel,
             expected_draw_kg_h: expected * self.rated_mass_kg / hours,
-            leaking: excess > self.cfg.leak_threshold_per_day * content + margin,
+            leaking: excess > self.cfg.leak_threshold_per_day * factor * content + margin,
         });
     }
 

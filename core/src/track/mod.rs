@@ -104,6 +104,15 @@
 //! * while the content is at or below the reserve fraction (an empty vessel's
 //!   pressure is the regulator's and the day's, not a measure of loss).
 //!
+//! ## Early verdicts
+//!
+//! In the second day after a start (k of the 24 pairs of hours one day
+//! apart in the ring, k ≥ [`EARLY_MIN_PAIRS`]) the loss is judged on those
+//! k pairs, against the threshold raised by [`EARLY_FACTOR_Q8`] (1.3·√(24/k)):
+//! a strong leak is reported before the ring is full. With a learned draw
+//! (in use, nothing declared) the first whole day pair is still needed to
+//! learn it.
+//!
 //! ## Weather
 //!
 //! A sensor on the wall runs ahead of the gas when the weather warms and
@@ -112,7 +121,8 @@
 //! in the loss of a pair of days −F·τ·(s_older − s_newer)/T: nothing when
 //! the days warm and cool alike, up to a few tenths of a per cent per day
 //! when a warm spell follows a cold front. The verdict therefore adds a
-//! margin of [`LAG_MARGIN`]·F·u_τ·|s_older − s_newer|/T to the threshold,
+//! margin of [`LAG_MARGIN`]·F·u_τ·|s_older − s_newer|/T to the threshold
+//! (over the k hours of each side for an early verdict),
 //! u_τ the temperature lag uncertainty the rate budget uses (declared, plus
 //! the difference of the smoothing time constants); s from the block
 //! temperature at each hour's close, kept beside the hourly means (1/128 K).
@@ -160,6 +170,18 @@ pub const STEADY_SHARE_DIVISOR: u32 = 8;
 /// slope's scatter from noise, about 0.01 %/h for a bridge transducer at
 /// 1 Hz; common practice).
 pub const STEADY_FLOOR_PER_H: f64 = 0.002;
+/// Fewest pairs of hours one day apart for an early leak verdict (the
+/// second day after a start; see "Early verdicts").
+pub const EARLY_MIN_PAIRS: usize = 6;
+/// The leak threshold's factor for a verdict on k pairs of hours one day
+/// apart, in 1/256: 1.3·√(24/k) for k < 24 (the scatter of a mean of k
+/// pairs grows as √(24/k); 1.3 more for what the day after a start still
+/// holds; common practice, checked on the weather population), 1 for a
+/// whole day; 0: no verdict.
+pub const EARLY_FACTOR_Q8: [u32; DAY_HOURS + 1] = [
+    0, 0, 0, 0, 0, 0, 666, 616, 576, 543, 516, 492, 471, 452, 436, 421, 408, 395, 384, 374, 365,
+    356, 348, 340, 256,
+];
 /// The leak verdict's margin for the temperature sensor's lag behind the
 /// gas, in lag uncertainties (see "Weather" below; common practice: about
 /// three standard uncertainties).
