@@ -9,7 +9,7 @@
 //! never silently falls back to a default.
 
 use super::gauge::{GaugeConfig, ModelKind};
-use super::physics::{self, Blowdown, Draw, Fill, Leak, LeakSize, Plant, Vessel, Weather};
+use super::physics::{self, Blowdown, Draw, Fill, Front, Leak, LeakSize, Plant, Vessel, Weather};
 use super::sensors::{
     self, Channel, Fault, FaultKind, Mount, PressureFrontEnd, PressureSensor, TemperatureFrontEnd,
     TemperatureSensor,
@@ -102,6 +102,9 @@ pub struct ScenarioFile {
     pub tank: TankSection,
     /// The weather.
     pub ambient: AmbientSection,
+    /// Scripted weather fronts on top of the drawn weather.
+    #[serde(default)]
+    pub front: Vec<FrontSection>,
     /// Regulated draws.
     #[serde(default)]
     pub draw: Vec<DrawSection>,
@@ -252,6 +255,23 @@ fn default_sunset() -> String {
 }
 fn default_clearness() -> f64 {
     0.5
+}
+
+/// `[[front]]`: a scripted weather front.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FrontSection {
+    /// Start (`"5d12h"` is not accepted: `"132h"`).
+    pub start: String,
+    /// Change of the ambient temperature (`"-10K"`: a cold front).
+    pub change: String,
+    /// Time the change takes (default 3 h).
+    #[serde(default = "default_front_over")]
+    pub over: String,
+}
+
+fn default_front_over() -> String {
+    "3h".into()
 }
 
 /// `[[draw]]`: a regulated draw.
@@ -417,8 +437,8 @@ pub struct FaultSection {
     pub kind: FaultKind,
     /// Start.
     pub start: String,
-    /// Duration.
-    pub duration: String,
+    /// Duration (default: to the end of the run, a permanent fault).
+    pub duration: Option<String>,
     /// Spikes per hour (spikes only; default 6).
     #[serde(default = "default_spikes")]
     pub spikes_per_hour: f64,
@@ -763,6 +783,21 @@ impl ScenarioFile {
             sunrise_hour: clock(&a.sunrise, "ambient.sunrise")?,
             sunset_hour: clock(&a.sunset, "ambient.sunset")?,
             clearness_min: a.clearness_min.clamp(0.0, 1.0),
+            fronts: self
+                .front
+                .iter()
+                .map(|f| {
+                    let over_s = duration_s(&f.over, "front.over")?;
+                    if over_s <= 0.0 {
+                        return Err(bad("front.over", "must be longer than 0 s"));
+                    }
+                    Ok(Front {
+                        start_s: duration_s(&f.start, "front.start")?,
+                        change_k: kelvin_diff(&f.change, "front.change")?,
+                        over_s,
+                    })
+                })
+                .collect::<Result<Vec<_>, Error>>()?,
         };
         if weather.sunset_hour <= weather.sunrise_hour {
             return Err(bad("ambient.sunset", "must be after sunrise"));
@@ -984,7 +1019,10 @@ impl ScenarioFile {
                 channel: f.channel,
                 kind: f.kind,
                 start_s: duration_s(&f.start, "fault.start")?,
-                duration_s: duration_s(&f.duration, "fault.duration")?,
+                duration_s: match &f.duration {
+                    Some(d) => duration_s(d, "fault.duration")?,
+                    None => f64::INFINITY,
+                },
                 spikes_per_hour: f.spikes_per_hour.max(0.0),
             });
         }
