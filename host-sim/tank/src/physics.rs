@@ -112,6 +112,20 @@ pub struct Weather {
     /// Lowest daily clearness (the daily factor on the irradiance is drawn
     /// uniformly between this and 1).
     pub clearness_min: f64,
+    /// Scripted weather fronts, on top of the drawn weather.
+    pub fronts: Vec<Front>,
+}
+
+/// A scripted weather front: the ambient temperature moves by `change_k`
+/// from `start_s` on, linearly over `over_s`, and stays moved.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Front {
+    /// Start, s.
+    pub start_s: f64,
+    /// Change of the ambient temperature, K (negative: a cold front).
+    pub change_k: f64,
+    /// Time the change takes, s (> 0).
+    pub over_s: f64,
 }
 
 /// The vessel and how it exchanges heat.
@@ -934,7 +948,12 @@ impl Simulator {
         let (m1, a1, _) = self.day(d + 1);
         let w = &self.plant.weather;
         let phase = 2.0 * std::f64::consts::PI * (x * 24.0 - w.warmest_hour + 6.0) / 24.0;
-        w.mean_k + m0 + (m1 - m0) * x + (a0 + (a1 - a0) * x) * phase.sin()
+        let fronts: f64 = w
+            .fronts
+            .iter()
+            .map(|f| f.change_k * ((t - f.start_s) / f.over_s).clamp(0.0, 1.0))
+            .sum();
+        w.mean_k + m0 + (m1 - m0) * x + (a0 + (a1 - a0) * x) * phase.sin() + fronts
     }
 
     /// Solar irradiance at `t`, W/m².
