@@ -49,6 +49,13 @@ flags! {
     /// At the settled reference temperature the same content would be liquid or
     /// two-phase: the settled pressure is not valid.
     SETTLED_TWO_PHASE = 6, "settled_two_phase";
+    /// A mixture is outside the single-phase range of its gas model: below
+    /// its cricondentherm, at or above the dew pressure where a liquid can
+    /// form (the stability limit found at build time by the tangent-plane
+    /// test on GERG-2008). Liquid may have dropped out: pressure does not tell
+    /// the content, and the content outputs are not valid. (Pure gases raise
+    /// [`Status::TWO_PHASE`] instead.)
+    CONDENSATION_RISK = 7, "condensation_risk";
     /// Alarm: the gas has not settled after a fast fill or draw; pressure and
     /// content still drift towards the predicted settled values.
     NOT_SETTLED = 16, "not_settled";
@@ -134,7 +141,11 @@ impl Status {
 
     /// Flags after which the content outputs (density, mass, amount, standard
     /// volume, fill fraction) must not be shown as valid numbers.
-    pub const CONTENT_INVALID: Status = Status(Status::TWO_PHASE.0);
+    pub const CONTENT_INVALID: Status = Status(Status::TWO_PHASE.0 | Status::CONDENSATION_RISK.0);
+    /// Either flag of a state outside the single-phase gas region: a pure
+    /// gas's [`Status::TWO_PHASE`] or a mixture's
+    /// [`Status::CONDENSATION_RISK`].
+    pub const NOT_SINGLE_PHASE: Status = Status(Status::TWO_PHASE.0 | Status::CONDENSATION_RISK.0);
 
     /// The raw bits, for the wire.
     pub const fn bits(self) -> u32 {

@@ -12,7 +12,7 @@ use isochor_core::store::sim::SimFlash;
 use isochor_core::store::{
     BlobSlots, ChunkOutcome, GasModelRef, Loaded, Record, RecordArea, RecordKind,
 };
-use isochor_core::{Gas, SetupFx, StandardConditionFx, Status, TankFx, envelope as env};
+use isochor_core::{Gas, Mixture, SetupFx, StandardConditionFx, Status, TankFx, envelope as env};
 use postcard::experimental::max_size::MaxSize;
 use proptest::prelude::*;
 
@@ -40,8 +40,16 @@ fn random_setup(rng: &mut Rng) -> SetupFx {
             u64::from(env::TEMPERATURE_MAX.to_bits()),
         ) as u32)
     };
+    // Every pure gas, and now and then a mixture.
+    let pick = rng.range(0, Gas::ALL.len() as u64) as usize;
+    let gas = Gas::ALL.get(pick).copied().unwrap_or_else(|| {
+        Gas::Mixture(Mixture {
+            fingerprint: rng.range(0, u64::from(u32::MAX)) as u32,
+            molar_mass_kg_mol: U0F32::from_bits(rng.range(8_000_000, 600_000_000) as u32),
+        })
+    });
     let s = SetupFx {
-        gas: Gas::ALL[rng.range(0, Gas::ALL.len() as u64 - 1) as usize],
+        gas,
         tank: TankFx {
             water_capacity_m3: U24F40::from_bits(rng.range(109_951_162, 100u64 << 40)),
             rated_pressure_pa: U28F4::from_bits(
@@ -81,11 +89,22 @@ fn setup_max_size_is_a_true_bound() {
     s.standard.temperature_k = U16F16::MAX;
     s.standard.pressure_pa = U28F4::MAX;
     s.settled_reference_k = U16F16::MAX;
-    s.gas = *Gas::ALL.last().unwrap();
+    s.gas = Gas::Mixture(Mixture {
+        fingerprint: u32::MAX,
+        molar_mass_kg_mol: U0F32::MAX,
+    });
     let mut buf = [0u8; 128];
     let n = postcard::to_slice(&s, &mut buf).unwrap().len();
     assert_eq!(n, SetupFx::POSTCARD_MAX_SIZE);
     SetupFx::safe_default().validate().unwrap();
+    // A pure gas still takes one byte: its variant, as before mixtures.
+    s.gas = *Gas::ALL.last().unwrap();
+    let pure = postcard::to_slice(&s, &mut buf).unwrap().len();
+    assert_eq!(pure, SetupFx::POSTCARD_MAX_SIZE - 10);
+    assert_eq!(
+        postcard::to_slice(&Gas::Propane, &mut buf).unwrap(),
+        &[12u8]
+    );
 }
 
 #[test]

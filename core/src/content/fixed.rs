@@ -195,8 +195,8 @@ impl<M: CompressibilityFx> Estimator<M> {
         if model.gas() != setup.gas {
             return Err(Error::ModelUnusable("gas of the setup"));
         }
-        let gas = setup.gas.info();
-        let k = gas.m_over_r;
+        let k = setup.gas.m_over_r();
+        let inv_molar_mass = setup.gas.inv_molar_mass();
         let tank = setup.tank;
 
         // Largest density reachable: p_max·(M/R)/(T_min·Z_floor); it sets the
@@ -216,7 +216,7 @@ impl<M: CompressibilityFx> Estimator<M> {
         let rho_shift = (bound.shift() - 1).clamp(8, 31) as u32;
 
         let mass = Coef::from_raw(tank.water_capacity_m3.to_bits(), EXT_FRAC);
-        let amount = mass.mul(gas.inv_molar_mass);
+        let amount = mass.mul(inv_molar_mass);
         let mut est = Estimator {
             setup,
             model,
@@ -235,7 +235,7 @@ impl<M: CompressibilityFx> Estimator<M> {
                     setup.settled_reference_k.to_bits() as u64,
                     T_FRAC,
                 ))
-                .mul(gas.inv_molar_mass),
+                .mul(inv_molar_mass),
             inv_t_ref: recip(Coef::from_raw(
                 setup.settled_reference_k.to_bits() as u64,
                 T_FRAC,
@@ -246,7 +246,7 @@ impl<M: CompressibilityFx> Estimator<M> {
 
         let (p_r, t_r) = (tank.rated_pressure_pa, tank.rated_temperature_k);
         let zr = est.model.z_fx(p_r, t_r);
-        if zr.flags.contains(Status::TWO_PHASE) {
+        if zr.flags.intersects(Status::NOT_SINGLE_PHASE) {
             return Err(Error::ModelUnusable("rated condition"));
         }
         let (rho, _) = est.density(p_r.to_bits(), t_r.to_bits(), zr.z.to_bits());
@@ -259,7 +259,7 @@ impl<M: CompressibilityFx> Estimator<M> {
 
         let std = setup.standard;
         let zs = est.model.z_fx(std.pressure_pa, std.temperature_k);
-        if zs.flags.contains(Status::TWO_PHASE) {
+        if zs.flags.intersects(Status::NOT_SINGLE_PHASE) {
             return Err(Error::ModelUnusable("standard condition"));
         }
         est.standard_volume = amount
@@ -665,7 +665,7 @@ impl<M: CompressibilityFx> Estimator<M> {
         if p == u32::MAX {
             status |= Status::SATURATED;
         }
-        if flags.contains(Status::TWO_PHASE) {
+        if flags.intersects(Status::NOT_SINGLE_PHASE) {
             status |= Status::SETTLED_TWO_PHASE;
         }
         status |= flags & Status::MODEL_OUT_OF_RANGE;

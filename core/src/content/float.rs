@@ -67,9 +67,8 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
         if model.gas() != setup.gas {
             return Err(Error::ModelUnusable("gas of the setup"));
         }
-        let gas = setup.gas.info();
         let r = F::lit(MOLAR_GAS_CONSTANT_J_MOL_K);
-        let molar_mass = F::lit(gas.molar_mass_kg_mol);
+        let molar_mass = F::lit(setup.gas.molar_mass_kg_mol());
         let k = molar_mass / r;
         let tank = setup.tank;
         let mut est = Estimator {
@@ -88,7 +87,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
 
         let (p_r, t_r) = (tank.rated_pressure_pa, tank.rated_temperature_k);
         let zr = est.model.z(p_r, t_r);
-        if zr.flags.contains(Status::TWO_PHASE) {
+        if zr.flags.intersects(Status::NOT_SINGLE_PHASE) {
             return Err(Error::ModelUnusable("rated condition"));
         }
         est.rho_v_rated = est.density(p_r, t_r, zr.z) * est.vessel_factor(p_r, t_r);
@@ -96,7 +95,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
 
         let std = setup.standard;
         let zs = est.model.z(std.pressure_pa, std.temperature_k);
-        if zs.flags.contains(Status::TWO_PHASE) {
+        if zs.flags.intersects(Status::NOT_SINGLE_PHASE) {
             return Err(Error::ModelUnusable("standard condition"));
         }
         est.standard_volume_per_rho_v =
@@ -229,7 +228,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
         if p >= p_max {
             status |= Status::SATURATED;
         }
-        if flags.contains(Status::TWO_PHASE) {
+        if flags.intersects(Status::NOT_SINGLE_PHASE) {
             status |= Status::SETTLED_TWO_PHASE;
         }
         status |= flags & Status::MODEL_OUT_OF_RANGE;

@@ -10,7 +10,8 @@
 //! * [`CompressibilityFx`] — the fixed-point form for devices.
 //!
 //! A model reports trouble through [`Status`] flags in its answer
-//! ([`Status::MODEL_OUT_OF_RANGE`], [`Status::TWO_PHASE`]); it never fails.
+//! ([`Status::MODEL_OUT_OF_RANGE`], [`Status::TWO_PHASE`], and for mixtures
+//! [`Status::CONDENSATION_RISK`]); it never fails.
 //! Models are per gas: one value answers for one gas.
 
 pub mod device;
@@ -30,7 +31,8 @@ pub struct ZPoint<F = f64> {
     pub dz_dp_per_mpa: F,
     /// ∂Z/∂T at constant p, per K.
     pub dz_dt_per_k: F,
-    /// [`Status::MODEL_OUT_OF_RANGE`] and/or [`Status::TWO_PHASE`] when they apply.
+    /// [`Status::MODEL_OUT_OF_RANGE`] and/or [`Status::TWO_PHASE`] (a mixture:
+    /// [`Status::CONDENSATION_RISK`]) when they apply.
     pub flags: Status,
 }
 

@@ -172,8 +172,10 @@ mod setup_record {
     use postcard::experimental::max_size::MaxSize;
 
     // The fixed-point formats travel as their raw integers (varints):
-    // U24F40 → u64, U28F4/U16F16/U0F32 → u32, I0F32 → i32; a unit enum as
-    // one varint (the gas list has fewer than 128 entries: one byte).
+    // U24F40 → u64, U28F4/U16F16/U0F32 → u32, I0F32 → i32; the gas as one
+    // varint for its variant (fewer than 128: one byte), which a mixture
+    // follows with its fingerprint (u32) and molar mass (U0F32). The pure
+    // gases encode as before the mixture variant existed.
     impl MaxSize for TankFx {
         const POSTCARD_MAX_SIZE: usize =
             u64::POSTCARD_MAX_SIZE + 3 * u32::POSTCARD_MAX_SIZE + i32::POSTCARD_MAX_SIZE;
@@ -183,6 +185,7 @@ mod setup_record {
     }
     impl MaxSize for SetupFx {
         const POSTCARD_MAX_SIZE: usize = 1
+            + 2 * u32::POSTCARD_MAX_SIZE
             + TankFx::POSTCARD_MAX_SIZE
             + StandardConditionFx::POSTCARD_MAX_SIZE
             + u32::POSTCARD_MAX_SIZE;

@@ -292,7 +292,7 @@ pub(super) fn evaluate(m: &DeviceModel<'_>, p: u32, t: u32) -> ZPointFx {
         let p_sat = curve(b.saturation_pressure, it, &wt);
         let p_lim = curve(b.limit_pressure, it, &wt);
         if t < b.critical_temperature && p > p_sat {
-            flags |= Status::TWO_PHASE;
+            flags |= tab.gas.phase_flag();
             p = p_sat;
         } else if p > p_lim {
             out_p = true;
@@ -452,7 +452,7 @@ pub(super) fn isotherm_z(m: &DeviceModel<'_>, iso: &IsothermFx, p: u32) -> ZPoin
     let mut p = p;
     let mut out_p = false;
     if p > iso.saturation {
-        flags |= Status::TWO_PHASE;
+        flags |= tab.gas.phase_flag();
         p = iso.saturation;
     } else if p > iso.limit {
         out_p = true;
