@@ -46,9 +46,12 @@
 //! the critical temperature at or above the saturation pressure given by the
 //! fluid's ancillary equation), are refused with a typed error.
 
+pub mod composition;
 pub mod dual;
 mod error;
+pub mod fluid;
 mod format;
+pub mod gerg;
 pub mod model;
 pub mod reference;
 pub mod safety;
