@@ -482,10 +482,11 @@ mod tests {
     #[test]
     fn parse_rules() {
         let c = Composition::parse("argon=82%, carbon_dioxide=18%").unwrap();
-        assert_eq!(
-            c.parts(),
-            &[(Component::CarbonDioxide, 0.18), (Component::Argon, 0.82)]
-        );
+        let want = [(Component::CarbonDioxide, 0.18), (Component::Argon, 0.82)];
+        for (got, want) in c.parts().iter().zip(want) {
+            assert_eq!(got.0, want.0);
+            assert!((got.1 - want.1).abs() < 1e-15);
+        }
         assert_eq!(c.to_string(), "carbon_dioxide=18%,argon=82%");
         let same = Composition::parse("Ar=0.82,CO2=0.18").unwrap();
         assert_eq!(same.fingerprint(), c.fingerprint());

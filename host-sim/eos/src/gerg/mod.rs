@@ -350,7 +350,10 @@ impl Gerg {
             let s = self.pressure_at(tc, rho);
             let p = rho * rt * s.z;
             let f = p - p_pa;
-            if f.abs() <= 1e-13 * p_pa && s.dp_drho > 0.0 {
+            // Converged: the residual is below 1e-13 of p or below what
+            // rounding of ρ allows.
+            let tol = (1e-13 * p_pa).max(8.0 * f64::EPSILON * rho * s.dp_drho.abs());
+            if f.abs() <= tol && s.dp_drho > 0.0 {
                 return Some(s);
             }
             let below = match branch {
@@ -363,11 +366,18 @@ impl Gerg {
             } else {
                 hi = rho;
             }
-            let newton = if s.dp_drho > 0.0 {
+            let mut newton = if s.dp_drho > 0.0 {
                 rho - f / s.dp_drho
             } else {
                 f64::NAN
             };
+            if branch == Branch::Liquid {
+                // Down the liquid branch by at most 10 % a step, so that the
+                // iteration cannot jump past the liquid root into the loops
+                // of the two-phase region (where a multiparameter equation
+                // has spurious roots with ∂p/∂ρ > 0).
+                newton = newton.max(0.9 * rho);
+            }
             let next = if newton.is_finite() && newton > lo && newton < hi {
                 newton
             } else if hi.is_finite() {
@@ -387,6 +397,14 @@ impl Gerg {
             rho = next;
         }
         None
+    }
+
+    /// True when p(ρ) rises all the way from zero to `rho_mol_m3` (∂p/∂ρ > 0
+    /// at eight densities below it): a root found there is on the gas
+    /// branch, not one of the spurious roots a multiparameter equation has
+    /// inside the two-phase region.
+    pub fn on_gas_branch(&self, tc: &TauCache, rho_mol_m3: f64) -> bool {
+        (1..=8).all(|k| self.pressure_at(tc, rho_mol_m3 * k as f64 / 9.0).dp_drho > 0.0)
     }
 
     /// The α⁰ parts: (α⁰, τα⁰_τ, τ²α⁰_ττ) at (ρ, T) in NIST's form (ln of
@@ -546,7 +564,9 @@ impl Gerg {
     /// mixture's components on a branch (the stability test's trial phases).
     pub fn solve_at(&self, x: &[f64], p_pa: f64, t_k: f64, branch: Branch) -> Option<MixState> {
         let g = Gerg::new(&self.composition.with_fractions(x));
-        g.solve(&g.tau_cache(t_k), p_pa, branch, 0.0)
+        let tc = g.tau_cache(t_k);
+        let s = g.solve(&tc, p_pa, branch, 0.0)?;
+        (branch == Branch::Liquid || g.on_gas_branch(&tc, s.density_mol_m3)).then_some(s)
     }
 
     /// Checks and solves the state at (p, T) on the gas branch: the density,
