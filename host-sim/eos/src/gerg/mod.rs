@@ -60,6 +60,117 @@ struct DepTerm {
     g: f64,
 }
 
+/// A term prepared for the per-density loop: `n τ^t δ^d` (times
+/// `exp(−δ^c)` in the exponential list).
+#[derive(Clone, Copy, Debug)]
+struct FastTerm {
+    n: f64,
+    t: f64,
+    d: f64,
+    di: usize,
+    c: f64,
+    ci: usize,
+    /// Index of τ^t in the distinct exponents.
+    ti: usize,
+}
+
+/// An exponential departure term prepared: `n·e^g τ^t δ^d exp(cδ² + eδ)`,
+/// with exp(cδ² + eδ) shared by the terms of the same (c, e).
+#[derive(Clone, Copy, Debug)]
+struct FastDep {
+    n: f64,
+    t: f64,
+    d: f64,
+    di: usize,
+    c: f64,
+    e: f64,
+    ce: usize,
+    ti: usize,
+}
+
+/// The terms of a composition in the form the density loop evaluates.
+#[derive(Clone, Debug, Default)]
+struct Prepared {
+    /// Distinct exponents of τ.
+    ts: Vec<f64>,
+    /// Polynomial terms (pure fluids and departure functions together).
+    poly: Vec<FastTerm>,
+    /// Pure-fluid terms with exp(−δ^c).
+    expo: Vec<FastTerm>,
+    /// Exponential departure terms.
+    dep: Vec<FastDep>,
+    /// Distinct (c, e) of the departure terms.
+    ce: Vec<(f64, f64)>,
+    /// Largest c of `expo`.
+    max_c: usize,
+}
+
+impl Prepared {
+    fn new(pure: &[PureTerm], dep_poly: &[PureTerm], dep_exp: &[DepTerm]) -> Prepared {
+        let mut p = Prepared::default();
+        let t_index = |ts: &mut Vec<f64>, t: f64| match ts.iter().position(|&x| x == t) {
+            Some(i) => i,
+            None => {
+                ts.push(t);
+                ts.len() - 1
+            }
+        };
+        let mut poly: Vec<PureTerm> = pure
+            .iter()
+            .chain(dep_poly)
+            .filter(|q| q.c == 0)
+            .copied()
+            .collect();
+        merge_pure(&mut poly);
+        for q in poly {
+            let ti = t_index(&mut p.ts, q.t);
+            p.poly.push(FastTerm {
+                n: q.n,
+                t: q.t,
+                d: q.d as f64,
+                di: q.d as usize,
+                c: 0.0,
+                ci: 0,
+                ti,
+            });
+        }
+        for q in pure.iter().filter(|q| q.c != 0) {
+            let ti = t_index(&mut p.ts, q.t);
+            p.max_c = p.max_c.max(q.c as usize);
+            p.expo.push(FastTerm {
+                n: q.n,
+                t: q.t,
+                d: q.d as f64,
+                di: q.d as usize,
+                c: q.c as f64,
+                ci: q.c as usize,
+                ti,
+            });
+        }
+        for q in dep_exp {
+            let ti = t_index(&mut p.ts, q.t);
+            let ce = match p.ce.iter().position(|&(c, e)| c == q.c && e == q.e) {
+                Some(i) => i,
+                None => {
+                    p.ce.push((q.c, q.e));
+                    p.ce.len() - 1
+                }
+            };
+            p.dep.push(FastDep {
+                n: q.n * libm::exp(q.g),
+                t: q.t,
+                d: q.d as f64,
+                di: q.d as usize,
+                c: q.c,
+                e: q.e,
+                ce,
+                ti,
+            });
+        }
+        p
+    }
+}
+
 /// The residual Helmholtz energy and its scaled derivatives `a_ij`.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
 pub struct Residual {
@@ -75,18 +186,33 @@ pub struct Residual {
     pub a11: f64,
     /// τ²·αʳ_ττ.
     pub a20: f64,
+    /// δ³·αʳ_δδδ (the density loop's Halley step; zero from the general
+    /// evaluation).
+    pub a03: f64,
 }
 
 /// The factors of τ of one temperature (computed once per temperature).
 #[derive(Clone, Debug, Default)]
 pub struct TauCache {
     t_k: f64,
-    /// n·τ^t of every pure term, in order.
-    pure: Vec<f64>,
-    /// n·τ^t of every polynomial departure term, then exp(g + t ln τ)·n of
-    /// every exponential departure term.
-    dep_poly: Vec<f64>,
-    dep_exp: Vec<f64>,
+    /// n·τ^t of every term: the polynomial, exponential and departure
+    /// lists one after the other.
+    nt: Vec<f64>,
+    /// Where the exponential and the departure lists start in `nt`.
+    expo_at: usize,
+    dep_at: usize,
+}
+
+impl TauCache {
+    fn poly(&self) -> &[f64] {
+        self.nt.get(..self.expo_at).unwrap_or(&[])
+    }
+    fn expo(&self) -> &[f64] {
+        self.nt.get(self.expo_at..self.dep_at).unwrap_or(&[])
+    }
+    fn dep(&self) -> &[f64] {
+        self.nt.get(self.dep_at..).unwrap_or(&[])
+    }
 }
 
 /// GERG-2008 prepared for one composition.
@@ -103,9 +229,7 @@ pub struct Gerg {
     rho_r: f64,
     /// Molar mass, kg/mol.
     molar_mass: f64,
-    pure: Vec<PureTerm>,
-    dep_poly: Vec<PureTerm>,
-    dep_exp: Vec<DepTerm>,
+    fast: Prepared,
 }
 
 /// A solved state of a mixture.
@@ -167,6 +291,11 @@ impl Gerg {
                 dep_exp.extend(e);
             }
         }
+        // Terms of the same form (pure fluids sharing exponents, binaries
+        // sharing the generalised departure function) are added into one.
+        merge_pure(&mut pure);
+        merge_dep(&mut dep_exp);
+        let fast = Prepared::new(&pure, &dep_poly, &dep_exp);
         Gerg {
             composition: composition.clone(),
             idx,
@@ -174,9 +303,7 @@ impl Gerg {
             t_r,
             rho_r: 1000.0 / v_r,
             molar_mass,
-            pure,
-            dep_poly,
-            dep_exp,
+            fast,
         }
     }
 
@@ -214,68 +341,137 @@ impl Gerg {
 
     /// The τ factors at `t_k`.
     pub fn tau_cache(&self, t_k: f64) -> TauCache {
-        let tau = self.t_r / t_k;
-        let ln_tau = libm::log(tau);
+        let ln_tau = libm::log(self.t_r / t_k);
+        let f = &self.fast;
+        let (expo_at, dep_at) = (f.poly.len(), f.poly.len() + f.expo.len());
+        // τ^t once per distinct exponent (stored where the terms go, then
+        // multiplied by each term's n).
+        let mut powers = vec![0.0f64; f.ts.len()];
+        for (pw, &t) in powers.iter_mut().zip(&f.ts) {
+            *pw = if t == 0.0 { 1.0 } else { libm::exp(t * ln_tau) };
+        }
+        let pw = |ti: usize| powers.get(ti).copied().unwrap_or(1.0);
+        let mut nt = Vec::with_capacity(dep_at + f.dep.len());
+        nt.extend(f.poly.iter().map(|p| p.n * pw(p.ti)));
+        nt.extend(f.expo.iter().map(|p| p.n * pw(p.ti)));
+        nt.extend(f.dep.iter().map(|p| p.n * pw(p.ti)));
         TauCache {
             t_k,
-            pure: self
-                .pure
-                .iter()
-                .map(|p| p.n * libm::exp(p.t * ln_tau))
-                .collect(),
-            dep_poly: self
-                .dep_poly
-                .iter()
-                .map(|p| p.n * libm::exp(p.t * ln_tau))
-                .collect(),
-            dep_exp: self
-                .dep_exp
-                .iter()
-                .map(|p| p.n * libm::exp(p.g + p.t * ln_tau))
-                .collect(),
+            nt,
+            expo_at,
+            dep_at,
         }
     }
 
     /// αʳ and its derivatives at `rho_mol_m3` on the temperature of `tc`.
     pub fn residual(&self, tc: &TauCache, rho_mol_m3: f64) -> Residual {
+        let f = &self.fast;
         let del = rho_mol_m3 / self.rho_r;
-        // δ^k and exp(−δ^k) for k = 0…10.
+        // δ^k for k = 0…10, exp(−δ^k) for the k in use.
         let mut delp = [1.0f64; 11];
         let mut expd = [1.0f64; 8];
         for k in 1..11 {
             delp[k] = delp[k - 1] * del;
         }
-        for k in 1..8 {
+        for k in 1..=f.max_c.min(7) {
             expd[k] = libm::exp(-delp[k]);
         }
         let mut r = Residual::default();
-        for (p, &nt) in self.pure.iter().zip(&tc.pure) {
-            let d = p.d as f64;
-            if p.c == 0 {
-                let v = nt * delp[p.d as usize];
-                add(&mut r, v, p.t, d, d * (d - 1.0));
-            } else {
-                let c = p.c as f64;
-                let v = nt * delp[p.d as usize] * expd[p.c as usize];
-                let ex = c * delp[p.c as usize];
-                let ex2 = d - ex;
-                add(&mut r, v, p.t, ex2, ex2 * (ex2 - 1.0) - c * ex);
+        for (p, &nt) in f.poly.iter().zip(tc.poly()) {
+            let v = nt * delp[p.di];
+            let d = p.d;
+            add3(&mut r, v, p.t, d, d * (d - 1.0), d * (d - 1.0) * (d - 2.0));
+        }
+        for (p, &nt) in f.expo.iter().zip(tc.expo()) {
+            let v = nt * delp[p.di] * expd[p.ci];
+            let (c, d) = (p.c, p.d);
+            let ex = c * delp[p.ci];
+            let ex2 = d - ex;
+            let ex3 = ex2 * (ex2 - 1.0);
+            add3(
+                &mut r,
+                v,
+                p.t,
+                ex2,
+                ex3 - c * ex,
+                ex3 * (ex2 - 2.0) - ex * (3.0 * ex2 - 3.0 + c) * c,
+            );
+        }
+        if !f.dep.is_empty() {
+            // GERG-2008 has 10 distinct (c, e) over all its departure
+            // functions.
+            let mut ce = [0.0f64; 16];
+            for (k, &(c, e)) in f.ce.iter().enumerate().take(16) {
+                ce[k] = libm::exp(c * delp[2] + e * del);
+            }
+            for (p, &nt) in f.dep.iter().zip(tc.dep()) {
+                let v = nt * delp[p.di] * ce.get(p.ce).copied().unwrap_or(0.0);
+                let d = p.d;
+                let c0 = p.c * delp[2];
+                let e0 = p.e * del;
+                let ex = d + 2.0 * c0 + e0;
+                let ex2 = ex * ex - d + 2.0 * c0;
+                add3(
+                    &mut r,
+                    v,
+                    p.t,
+                    ex,
+                    ex2,
+                    ex * (ex2 - 2.0 * (d - 2.0 * c0)) + 2.0 * d,
+                );
             }
         }
-        for (p, &nt) in self.dep_poly.iter().zip(&tc.dep_poly) {
-            let d = p.d as f64;
-            let v = nt * delp[p.d as usize];
-            add(&mut r, v, p.t, d, d * (d - 1.0));
-        }
-        for (p, &ne) in self.dep_exp.iter().zip(&tc.dep_exp) {
-            let d = p.d as f64;
-            let c0 = p.c * delp[2];
-            let e0 = p.e * del;
-            let v = ne * delp[p.d as usize] * libm::exp(c0 + e0);
-            let ex = d + 2.0 * c0 + e0;
-            add(&mut r, v, p.t, ex, ex * ex - d + 2.0 * c0);
-        }
         r
+    }
+
+    /// δαʳ_δ, δ²αʳ_δδ and δ³αʳ_δδδ only (what the density loop needs;
+    /// about half the work of [`Gerg::residual`]).
+    fn residual_delta(&self, tc: &TauCache, rho_mol_m3: f64) -> [f64; 3] {
+        let f = &self.fast;
+        let del = rho_mol_m3 / self.rho_r;
+        let mut delp = [1.0f64; 11];
+        let mut expd = [1.0f64; 8];
+        for k in 1..11 {
+            delp[k] = delp[k - 1] * del;
+        }
+        for k in 1..=f.max_c.min(7) {
+            expd[k] = libm::exp(-delp[k]);
+        }
+        let (mut a1, mut a2, mut a3) = (0.0, 0.0, 0.0);
+        for (p, &nt) in f.poly.iter().zip(tc.poly()) {
+            let v = nt * delp[p.di];
+            let d = p.d;
+            a1 += v * d;
+            a2 += v * d * (d - 1.0);
+            a3 += v * d * (d - 1.0) * (d - 2.0);
+        }
+        for (p, &nt) in f.expo.iter().zip(tc.expo()) {
+            let v = nt * delp[p.di] * expd[p.ci];
+            let (c, d) = (p.c, p.d);
+            let ex = c * delp[p.ci];
+            let ex2 = d - ex;
+            let ex3 = ex2 * (ex2 - 1.0);
+            a1 += v * ex2;
+            a2 += v * (ex3 - c * ex);
+            a3 += v * (ex3 * (ex2 - 2.0) - ex * (3.0 * ex2 - 3.0 + c) * c);
+        }
+        if !f.dep.is_empty() {
+            let mut ce = [0.0f64; 16];
+            for (k, &(c, e)) in f.ce.iter().enumerate().take(16) {
+                ce[k] = libm::exp(c * delp[2] + e * del);
+            }
+            for (p, &nt) in f.dep.iter().zip(tc.dep()) {
+                let v = nt * delp[p.di] * ce.get(p.ce).copied().unwrap_or(0.0);
+                let d = p.d;
+                let c0 = p.c * delp[2];
+                let ex = d + 2.0 * c0 + p.e * del;
+                let ex2 = ex * ex - d + 2.0 * c0;
+                a1 += v * ex;
+                a2 += v * ex2;
+                a3 += v * (ex * (ex2 - 2.0 * (d - 2.0 * c0)) + 2.0 * d);
+            }
+        }
+        [a1, a2, a3]
     }
 
     /// Pressure (Pa), ∂p/∂ρ and ∂p/∂T at a molar density on the temperature
@@ -295,22 +491,21 @@ impl Gerg {
     /// (Z − 1)/ρ.
     pub fn second_virial(&self, tc: &TauCache) -> f64 {
         // a01/ρ as ρ → 0: the terms with d = 1 (and exp → 1).
-        let mut s = 0.0;
-        for (p, &nt) in self.pure.iter().zip(&tc.pure) {
-            if p.d == 1 {
-                s += nt;
-            }
-        }
-        for (p, &nt) in self.dep_poly.iter().zip(&tc.dep_poly) {
-            if p.d == 1 {
-                s += nt;
-            }
-        }
-        for (p, &ne) in self.dep_exp.iter().zip(&tc.dep_exp) {
-            if p.d == 1 {
-                s += ne;
-            }
-        }
+        let f = &self.fast;
+        let s: f64 = f
+            .poly
+            .iter()
+            .zip(tc.poly())
+            .chain(f.expo.iter().zip(tc.expo()))
+            .filter(|(p, _)| p.di == 1)
+            .map(|(_, nt)| nt)
+            .sum::<f64>()
+            + f.dep
+                .iter()
+                .zip(tc.dep())
+                .filter(|(p, _)| p.di == 1)
+                .map(|(_, nt)| nt)
+                .sum::<f64>();
         s / self.rho_r
     }
 
@@ -346,16 +541,37 @@ impl Gerg {
                 }
             }
         };
+        // Close to the root (|p − p_target| < 1e-7 p), the whole residual
+        // is evaluated, so that the last step needs no further evaluation.
+        let mut near = false;
         for _ in 0..200 {
-            let s = self.pressure_at(tc, rho);
+            let (a01, a02, a03, a11) = if near {
+                let r = self.residual(tc, rho);
+                (r.a01, r.a02, r.a03, Some(r.a11))
+            } else {
+                let [a01, a02, a03] = self.residual_delta(tc, rho);
+                (a01, a02, a03, None)
+            };
+            let s = MixState {
+                density_mol_m3: rho,
+                z: 1.0 + a01,
+                dp_drho: rt * (1.0 + 2.0 * a01 + a02),
+                dp_dt: rho * GAS_CONSTANT * (1.0 + a01 - a11.unwrap_or(0.0)),
+            };
             let p = rho * rt * s.z;
             let f = p - p_pa;
             // Converged: the residual is below 1e-13 of p or below what
             // rounding of ρ allows.
             let tol = (1e-13 * p_pa).max(8.0 * f64::EPSILON * rho * s.dp_drho.abs());
             if f.abs() <= tol && s.dp_drho > 0.0 {
-                return Some(s);
+                return Some(if a11.is_some() {
+                    s
+                } else {
+                    self.pressure_at(tc, rho)
+                });
             }
+            let was_near = a11.is_some();
+            near = f.abs() < 1e-7 * p_pa;
             let below = match branch {
                 Branch::Gas => f < 0.0 && s.dp_drho > 0.0,
                 // Below the liquid spinodal (∂p/∂ρ ≤ 0) the root is above.
@@ -366,8 +582,16 @@ impl Gerg {
             } else {
                 hi = rho;
             }
+            // Halley's step (cubic convergence) where it stays close to
+            // Newton's, else Newton's.
+            let d2p = rt * (2.0 * a01 + 4.0 * a02 + a03) / rho;
+            let h = 1.0 - 0.5 * f * d2p / (s.dp_drho * s.dp_drho);
             let mut newton = if s.dp_drho > 0.0 {
-                rho - f / s.dp_drho
+                if (0.5..2.0).contains(&h) {
+                    rho - f / (s.dp_drho * h)
+                } else {
+                    rho - f / s.dp_drho
+                }
             } else {
                 f64::NAN
             };
@@ -385,6 +609,17 @@ impl Gerg {
             } else {
                 2.0 * rho.max(lo)
             };
+            if was_near && s.dp_drho > 0.0 && (next - rho).abs() <= 1e-9 * rho {
+                // Halley from within 1e-7: the step leaves an error far below
+                // rounding. Z at the new density; slopes from this evaluation
+                // (1e-9 away).
+                return Some(MixState {
+                    density_mol_m3: next,
+                    z: p_pa / (next * rt),
+                    dp_drho: s.dp_drho,
+                    dp_dt: s.dp_dt * next / rho,
+                });
+            }
             if (next - rho).abs() <= 4.0 * f64::EPSILON * rho.max(1e-300) || hi - lo < 1e-14 * hi {
                 let s = self.pressure_at(tc, next);
                 let p = next * rt * s.z;
@@ -621,6 +856,41 @@ impl Gerg {
         }
         Ok(())
     }
+}
+
+/// Adds terms of the same (t, d, c) into one (first occurrence's place).
+fn merge_pure(terms: &mut Vec<PureTerm>) {
+    let mut out: Vec<PureTerm> = Vec::with_capacity(terms.len());
+    for t in terms.iter() {
+        match out
+            .iter_mut()
+            .find(|o| o.t == t.t && o.d == t.d && o.c == t.c)
+        {
+            Some(o) => o.n += t.n,
+            None => out.push(*t),
+        }
+    }
+    *terms = out;
+}
+
+/// Adds exponential departure terms of the same form into one.
+fn merge_dep(terms: &mut Vec<DepTerm>) {
+    let mut out: Vec<DepTerm> = Vec::with_capacity(terms.len());
+    for t in terms.iter() {
+        match out
+            .iter_mut()
+            .find(|o| o.t == t.t && o.d == t.d && o.c == t.c && o.e == t.e && o.g == t.g)
+        {
+            Some(o) => o.n += t.n,
+            None => out.push(*t),
+        }
+    }
+    *terms = out;
+}
+
+fn add3(r: &mut Residual, v: f64, t: f64, dd: f64, dd2: f64, dd3: f64) {
+    add(r, v, t, dd, dd2);
+    r.a03 += v * dd3;
 }
 
 fn add(r: &mut Residual, v: f64, t: f64, dd: f64, dd2: f64) {
