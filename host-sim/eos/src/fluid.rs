@@ -53,9 +53,10 @@ impl DewLine {
     }
 
     /// The lowest pressure at which a liquid can form at `t_k`, Pa (linear
-    /// interpolation in ln p; conservative: the lower neighbour where only
-    /// one side has a dew pressure, and zero up to one grid step above the
-    /// cricondentherm estimate). `None`: one phase at every pressure.
+    /// interpolation in ln p; where only one neighbour has a dew pressure —
+    /// the grid step above the cricondentherm estimate — that one's, so the
+    /// true cricondentherm, inside that step, stays covered). `None`: one
+    /// phase at every pressure.
     pub fn dew_pressure_pa(&self, t_k: f64) -> Option<f64> {
         let n = self.temperatures_k.len();
         if n == 0 {
@@ -101,12 +102,41 @@ impl MixtureEos {
             let temperatures_k: Vec<f64> = (0..=n)
                 .map(|i| ENVELOPE_T_MIN_K + ENVELOPE_STEP_K * i as f64)
                 .collect();
-            let pressures_pa = temperatures_k
-                .iter()
-                .map(|&t| {
-                    gerg::stability::dew_pressure(&self.gerg, t, gerg::PRESSURE_MAX_PA, 28, 2e-4)
-                })
-                .collect();
+            // From the coldest temperature up: each dew pressure starts from
+            // the last one; three temperatures in a row without one end the
+            // search (the temperatures with a dew point form one interval,
+            // up to the cricondentherm).
+            let mut pressures_pa = Vec::with_capacity(temperatures_k.len());
+            let (mut last, mut without) = (None, 0);
+            for &t in &temperatures_k {
+                let p = if without >= 3 {
+                    None
+                } else {
+                    match last {
+                        Some(hint) => gerg::stability::dew_pressure_near(
+                            &self.gerg,
+                            t,
+                            gerg::PRESSURE_MAX_PA,
+                            hint,
+                            2e-4,
+                        ),
+                        None => gerg::stability::dew_pressure(
+                            &self.gerg,
+                            t,
+                            gerg::PRESSURE_MAX_PA,
+                            28,
+                            2e-4,
+                        ),
+                    }
+                };
+                if p.is_some() {
+                    last = p;
+                    without = 0;
+                } else {
+                    without += 1;
+                }
+                pressures_pa.push(p);
+            }
             DewLine {
                 temperatures_k,
                 pressures_pa,

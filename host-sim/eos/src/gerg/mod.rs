@@ -796,11 +796,19 @@ impl Gerg {
     }
 
     /// Solves the density at (p, T) for mole fractions `x` of this
-    /// mixture's components on a branch (the stability test's trial phases).
-    pub fn solve_at(&self, x: &[f64], p_pa: f64, t_k: f64, branch: Branch) -> Option<MixState> {
+    /// mixture's components on a branch (the stability test's trial phases),
+    /// from `guess` (0: none).
+    pub fn solve_at(
+        &self,
+        x: &[f64],
+        p_pa: f64,
+        t_k: f64,
+        branch: Branch,
+        guess: f64,
+    ) -> Option<MixState> {
         let g = Gerg::new(&self.composition.with_fractions(x));
         let tc = g.tau_cache(t_k);
-        let s = g.solve(&tc, p_pa, branch, 0.0)?;
+        let s = g.solve(&tc, p_pa, branch, guess)?;
         (branch == Branch::Liquid || g.on_gas_branch(&tc, s.density_mol_m3)).then_some(s)
     }
 

@@ -52,10 +52,20 @@ fn wilson_constants(c: Component) -> (f64, f64) {
 
 /// One phase at (p, T): its density root of lower Gibbs energy and the
 /// logarithms of its fugacity coefficients.
-fn phase(g: &Gerg, x: &[f64], p: f64, t: f64) -> Option<(MixState, Vec<f64>)> {
+/// `guesses` holds the densities of the previous call (gas, liquid) and
+/// receives this call's: successive trial compositions differ little.
+fn phase(
+    g: &Gerg,
+    x: &[f64],
+    p: f64,
+    t: f64,
+    guesses: &mut [f64; 2],
+) -> Option<(MixState, Vec<f64>)> {
     let mut best: Option<(MixState, Vec<f64>, f64)> = None;
-    for branch in [Branch::Gas, Branch::Liquid] {
-        let Some(s) = g.solve_at(x, p, t, branch) else {
+    for (k, branch) in [Branch::Gas, Branch::Liquid].into_iter().enumerate() {
+        let found = g.solve_at(x, p, t, branch, guesses[k]);
+        guesses[k] = found.map_or(0.0, |s| s.density_mol_m3);
+        let Some(s) = found else {
             continue;
         };
         if best
@@ -97,7 +107,7 @@ pub fn test(g: &Gerg, p_pa: f64, t_k: f64) -> Option<Stability> {
             trial: z,
         });
     }
-    let (_, lnphi_z) = phase(g, &z, p_pa, t_k)?;
+    let (_, lnphi_z) = phase(g, &z, p_pa, t_k, &mut [0.0; 2])?;
     let d: Vec<f64> = z.iter().zip(&lnphi_z).map(|(zi, f)| zi.ln() + f).collect();
     let k: Vec<f64> = g
         .composition()
@@ -120,13 +130,14 @@ pub fn test(g: &Gerg, p_pa: f64, t_k: f64) -> Option<Stability> {
             .zip(&k)
             .map(|(zi, ki)| if liquid_like { zi / ki } else { zi * ki })
             .collect();
+        let mut guesses = [0.0f64; 2];
         for it in 0..120 {
             let sum: f64 = w_big.iter().sum();
             if !(sum.is_finite() && sum > 0.0) {
                 break;
             }
             let w: Vec<f64> = w_big.iter().map(|v| (v / sum).max(1e-300)).collect();
-            let Some((_, lnphi_w)) = phase(g, &w, p_pa, t_k) else {
+            let Some((_, lnphi_w)) = phase(g, &w, p_pa, t_k, &mut guesses) else {
                 break;
             };
             // tm of the current W (any W with tm < 0 proves instability).
@@ -186,16 +197,52 @@ pub fn dew_pressure(g: &Gerg, t_k: f64, p_max: f64, steps: usize, rel_tol: f64) 
             last_stable = p;
             continue;
         }
-        let (mut lo, mut hi) = (last_stable, p);
-        while hi - lo > rel_tol * hi {
-            let mid = if lo > 0.0 { (lo * hi).sqrt() } else { 0.5 * hi };
-            if is_stable(g, mid, t_k) {
-                lo = mid;
-            } else {
-                hi = mid;
-            }
-        }
-        return Some(lo);
+        return Some(bisect(g, t_k, last_stable, p, rel_tol));
     }
     None
+}
+
+/// [`dew_pressure`] starting from `hint`, the dew pressure at a nearby
+/// temperature: the bracket is widened from there by 10 % steps (then by
+/// the scan of [`dew_pressure`] when that fails).
+pub fn dew_pressure_near(g: &Gerg, t_k: f64, p_max: f64, hint: f64, rel_tol: f64) -> Option<f64> {
+    if is_stable(g, hint, t_k) {
+        let mut lo = hint;
+        for _ in 0..12 {
+            let hi = (lo * 1.1).min(p_max);
+            if !is_stable(g, hi, t_k) {
+                // The lowest unstable pressure lies in (lo, hi] unless the
+                // line has another branch below: checked at the half.
+                return Some(bisect(g, t_k, lo, hi, rel_tol));
+            }
+            if hi >= p_max {
+                return None;
+            }
+            lo = hi;
+        }
+    } else {
+        let mut hi = hint;
+        for _ in 0..12 {
+            let lo = hi / 1.1;
+            if is_stable(g, lo, t_k) {
+                return Some(bisect(g, t_k, lo, hi, rel_tol));
+            }
+            hi = lo;
+        }
+    }
+    dew_pressure(g, t_k, p_max, 28, rel_tol)
+}
+
+/// Bisection (in ln p) between a stable `lo` (0: none found) and an
+/// unstable `hi`; returns the stable end.
+fn bisect(g: &Gerg, t_k: f64, mut lo: f64, mut hi: f64, rel_tol: f64) -> f64 {
+    while hi - lo > rel_tol * hi {
+        let mid = if lo > 0.0 { (lo * hi).sqrt() } else { 0.5 * hi };
+        if is_stable(g, mid, t_k) {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    lo
 }
