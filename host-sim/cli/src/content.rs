@@ -8,10 +8,13 @@
 use crate::Error;
 use isochor_core::content::{fixed, float};
 use isochor_core::model::{Compressibility, CompressibilityFx, DeviceModel, Ideal};
-use isochor_core::{Gas, Setup, SetupFx, StandardCondition, Status, Tank, fx};
+use isochor_core::{Setup, SetupFx, StandardCondition, Status, Tank, fx};
+use isochor_eos::composition::GasSpec;
+use isochor_eos::fluid::Fluid;
 use isochor_eos::reference::ReferenceModel;
 use isochor_eos::{safety, units};
 use serde::Serialize;
+use std::collections::BTreeMap;
 
 /// Which gas model to use.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, clap::ValueEnum)]
@@ -40,8 +43,8 @@ impl ModelChoice {
 /// What to estimate.
 #[derive(Clone, Debug)]
 pub struct ContentRequest {
-    /// The gas.
-    pub gas: Gas,
+    /// The gas or mixture.
+    pub gas: GasSpec,
     /// The gas model.
     pub model: ModelChoice,
     /// The tank.
@@ -152,10 +155,16 @@ impl Outputs {
 /// The full report of `isochor content`.
 #[derive(Clone, Debug, Serialize)]
 pub struct ContentReport {
-    /// Gas name.
+    /// Gas name (a mixture: its composition in the `--gas` form).
     pub gas: String,
+    /// Mole fractions by component (a pure gas: itself, 1).
+    pub composition: BTreeMap<String, f64>,
     /// Model name.
     pub model: String,
+    /// The device table built (or reused) for a mixture; absent for a pure
+    /// gas's built-in table and for the other models.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub device_table: Option<crate::model_cache::TableNote>,
     /// The sample.
     pub sample: SampleReport,
     /// The tank.
@@ -174,16 +183,26 @@ pub struct ContentReport {
 
 /// Runs one sample through both paths, and through the reference equation.
 pub fn report(req: &ContentRequest) -> Result<ContentReport, Error> {
+    let gas = req.gas.gas();
     let mut r = match req.model {
-        ModelChoice::Ideal => run(req, Ideal::new(req.gas), Ideal::new(req.gas))?,
+        ModelChoice::Ideal => run(req, Ideal::new(gas), Ideal::new(gas))?,
         ModelChoice::Reference => {
-            let m = ReferenceModel::new(req.gas);
+            let m = ReferenceModel::of(Fluid::of(&req.gas));
             run(req, m.clone(), m)?
         }
-        ModelChoice::Device => {
-            let m = DeviceModel::builtin(req.gas)?;
-            run(req, m.clone(), m)?
-        }
+        ModelChoice::Device => match &req.gas {
+            GasSpec::Pure(g) => {
+                let m = DeviceModel::builtin(*g)?;
+                run(req, m.clone(), m)?
+            }
+            GasSpec::Mixture(_) => {
+                let (table, note) = crate::model_cache::table_for(&Fluid::of(&req.gas))?;
+                let m = DeviceModel::new(table.table())?;
+                let mut r = run(req, m.clone(), m)?;
+                r.device_table = Some(note);
+                r
+            }
+        },
     };
     r.reference.eos = reference_outputs(req);
     Ok(r)
@@ -192,12 +211,12 @@ pub fn report(req: &ContentRequest) -> Result<ContentReport, Error> {
 /// The f64 estimate with the reference equation of state.
 fn reference_outputs(req: &ContentRequest) -> Option<Outputs> {
     let setup = Setup {
-        gas: req.gas,
+        gas: req.gas.gas(),
         tank: req.tank,
         standard: req.standard.1,
         settled_reference_k: req.settled_reference_k,
     };
-    let est = float::Estimator::new(setup, ReferenceModel::new(req.gas)).ok()?;
+    let est = float::Estimator::new(setup, ReferenceModel::of(Fluid::of(&req.gas))).ok()?;
     let a = est.estimate(req.pressure_pa, req.temperature_k).ok()?;
     Some(Outputs::new(
         a.density_kg_m3,
@@ -227,7 +246,7 @@ where
         )));
     }
     let setup = Setup {
-        gas: req.gas,
+        gas: req.gas.gas(),
         tank: req.tank,
         standard: req.standard.1,
         settled_reference_k: req.settled_reference_k,
@@ -247,8 +266,10 @@ where
     }
 
     Ok(ContentReport {
-        gas: req.gas.name().to_string(),
+        gas: crate::cli::gas::gas_field(&req.gas),
+        composition: crate::cli::gas::composition_map(&req.gas),
         model: float_est.model().kind().to_string(),
+        device_table: None,
         sample: SampleReport {
             pressure_pa: req.pressure_pa,
             temperature_k: req.temperature_k,
@@ -288,7 +309,7 @@ where
             a.z.z,
             a.status,
         ),
-        caution: safety::paragraph(req.gas),
+        caution: safety::paragraph_for(&req.gas),
     })
 }
 
@@ -317,6 +338,9 @@ pub fn render_text(r: &ContentReport) -> String {
         units::fmt_bar(r.sample.pressure_pa),
         units::fmt_celsius(r.sample.temperature_k)
     );
+    if let Some(t) = &r.device_table {
+        let _ = writeln!(s, "{}\n", t.describe());
+    }
     let eos = r.reference.eos.as_ref();
     let _ = writeln!(
         s,
@@ -418,9 +442,21 @@ pub fn render_text(r: &ContentReport) -> String {
         units::fmt_celsius(r.settled_reference_k),
         r.tank.rated_mass_kg
     );
-    if let Ok(g) = Gas::from_name(&r.gas) {
+    if let Ok(g) = GasSpec::parse(&r.gas) {
+        if r.fixed
+            .status
+            .iter()
+            .chain(&r.float.status)
+            .any(|f| f == "condensation_risk")
+        {
+            let _ = writeln!(
+                s,
+                "\ncondensation_risk: below the mixture's dew line a liquid can form; the content \
+                 figures are not valid (warm the cylinder to room temperature before use)."
+            );
+        }
         let _ = writeln!(s);
-        for line in safety::lines(g) {
+        for line in safety::lines_for(&g) {
             let _ = writeln!(s, "{line}");
         }
     }

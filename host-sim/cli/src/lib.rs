@@ -28,6 +28,7 @@ mod error;
 pub mod firmware;
 pub mod firmware_gauge;
 pub mod link;
+pub mod model_cache;
 pub mod sensor;
 
 pub use error::Error;

@@ -35,7 +35,7 @@ pub fn rust_module(models: &[Built]) -> String {
         let _ = writeln!(
             out,
             "//! | {} | {} × {} | {} | {:.1e} | {:.1e} |",
-            b.spec.gas,
+            b.spec.gas(),
             t.temperature_knots.len(),
             t.pressure_knots.len(),
             super::blob_len(&b.table).unwrap_or(0),
@@ -46,7 +46,7 @@ pub fn rust_module(models: &[Built]) -> String {
     out.push_str("\n#![allow(clippy::unreadable_literal)]\n\nuse super::{Boundary, Table};\nuse crate::Gas;\n");
     for b in models {
         let t = b.table.table();
-        let n = const_name(b.spec.gas);
+        let n = const_name(b.spec.gas());
         let _ = writeln!(out);
         array(&mut out, &format!("{n}_T"), "u32", t.temperature_knots);
         array(&mut out, &format!("{n}_P"), "u32", t.pressure_knots);
@@ -66,12 +66,12 @@ pub fn rust_module(models: &[Built]) -> String {
             out,
             "/// {}: {:.2}…{:.2} K, 0…{} bar; max density error {:.1e}.\n\
              pub const {n}: Table<'static> = Table {{\n    gas: Gas::{:?},\n    temperature_knots: &{n}_T,\n    pressure_knots: &{n}_P,\n    z_offset: {},\n    z_step_exp: {},\n    z_floor: {},\n    coefs: &{n}_Z,\n    boundary: {boundary},\n}};",
-            b.spec.gas,
+            b.spec.gas(),
             t.range().temperature_min_k,
             t.range().temperature_max_k,
             (t.range().pressure_max_pa / 1e5 * 100.0).round() / 100.0,
             b.check.max_rel_error,
-            b.spec.gas,
+            b.spec.gas(),
             t.z_offset,
             t.z_step_exp,
             t.z_floor,
@@ -82,8 +82,8 @@ pub fn rust_module(models: &[Built]) -> String {
         let _ = writeln!(
             out,
             "        Gas::{:?} => Some({}),",
-            b.spec.gas,
-            const_name(b.spec.gas)
+            b.spec.gas(),
+            const_name(b.spec.gas())
         );
     }
     if models.len() < Gas::ALL.len() {
