@@ -78,13 +78,21 @@ impl DewLine {
     }
 }
 
+/// The mixtures met in this process, by fingerprint.
+fn cache() -> std::sync::MutexGuard<'static, HashMap<u32, Arc<MixtureEos>>> {
+    static CACHE: OnceLock<Mutex<HashMap<u32, Arc<MixtureEos>>>> = OnceLock::new();
+    CACHE
+        .get_or_init(|| Mutex::new(HashMap::new()))
+        .lock()
+        .unwrap_or_else(|e| e.into_inner())
+}
+
 impl MixtureEos {
-    /// The mixture of `composition` (cached by fingerprint).
+    /// The mixture of `composition` (cached by fingerprint: later
+    /// [`Fluid::for_gas`] finds it from the core's [`Gas::Mixture`]).
     pub fn of(composition: &Composition) -> Arc<MixtureEos> {
-        static CACHE: OnceLock<Mutex<HashMap<u32, Arc<MixtureEos>>>> = OnceLock::new();
-        let cache = CACHE.get_or_init(|| Mutex::new(HashMap::new()));
         let key = composition.fingerprint();
-        let mut map = cache.lock().unwrap_or_else(|e| e.into_inner());
+        let mut map = cache();
         map.entry(key)
             .or_insert_with(|| {
                 Arc::new(MixtureEos {
@@ -160,6 +168,25 @@ impl Fluid {
         match spec {
             GasSpec::Pure(g) => Fluid::Pure(Eos::of(*g)),
             GasSpec::Mixture(c) => Fluid::Mixture(MixtureEos::of(c)),
+        }
+    }
+
+    /// The fluid of a core gas value: a pure gas, or a mixture whose
+    /// composition this process has met ([`MixtureEos::of`]; the core knows
+    /// a mixture only by fingerprint and molar mass).
+    pub fn for_gas(gas: Gas) -> Result<Fluid, Error> {
+        match gas.mixture() {
+            None => Ok(Fluid::pure(gas)),
+            Some(m) => cache()
+                .get(&m.fingerprint)
+                .filter(|e| e.gerg.composition().mixture() == m)
+                .map(|e| Fluid::Mixture(e.clone()))
+                .ok_or_else(|| {
+                    Error::Invalid(format!(
+                        "mixture {:08x}: its composition is not known here (give the composition)",
+                        m.fingerprint
+                    ))
+                }),
         }
     }
 

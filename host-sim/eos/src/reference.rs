@@ -27,9 +27,10 @@ pub struct ReferenceModel {
 }
 
 impl ReferenceModel {
-    /// The model of a pure gas (a mixture: [`ReferenceModel::of`]).
-    pub fn new(gas: Gas) -> ReferenceModel {
-        ReferenceModel::of(Fluid::pure(gas))
+    /// The model of a pure gas, or of a mixture this process has met (see
+    /// [`Fluid::for_gas`]; else [`ReferenceModel::of`] with its fluid).
+    pub fn new(gas: Gas) -> Result<ReferenceModel, crate::Error> {
+        Ok(ReferenceModel::of(Fluid::for_gas(gas)?))
     }
 
     /// The model of a pure gas or a mixture.

@@ -21,6 +21,7 @@ use super::sensors::{Codes, PressureCode, PressureFrontEnd, TemperatureFrontEnd}
 use crate::Error;
 use isochor_core::alarm::Events;
 use isochor_core::content::{fixed as cfixed, float as cfloat};
+use isochor_core::model::device::TableBuf;
 use isochor_core::model::{
     Compressibility, CompressibilityFx, DeviceModel, Ideal, IsothermFx, ModelRange, ZPoint,
     ZPointFx,
@@ -92,7 +93,8 @@ pub enum ModelKind {
 /// A gas model chosen at run time (both seams, by delegation).
 #[derive(Clone, Debug)]
 pub enum GaugeModel {
-    /// Built-in device table (boxed: a prepared table is 2.7 kB).
+    /// Built-in device table, or a mixture's table built for its
+    /// composition (boxed: a prepared table is 2.7 kB).
     Device(Box<DeviceModel<'static>>),
     /// Ideal gas.
     Ideal(Ideal),
@@ -104,11 +106,36 @@ impl GaugeModel {
     /// The model of `kind` for `gas`.
     pub fn new(kind: ModelKind, gas: Gas) -> Result<GaugeModel, Error> {
         Ok(match kind {
+            ModelKind::Device if gas.mixture().is_some() => {
+                GaugeModel::Device(Box::new(DeviceModel::new(mixture_table(gas)?.table())?))
+            }
             ModelKind::Device => GaugeModel::Device(Box::new(DeviceModel::builtin(gas)?)),
             ModelKind::Ideal => GaugeModel::Ideal(Ideal::new(gas)),
-            ModelKind::Reference => GaugeModel::Reference(Box::new(ReferenceModel::new(gas))),
+            ModelKind::Reference => GaugeModel::Reference(Box::new(ReferenceModel::new(gas)?)),
         })
     }
+}
+
+/// The device table of a mixture (whose composition this process has met),
+/// built once per process with the built-in envelope and kept for the
+/// process (`isochor_eos::model::BuildSpec::for_fluid`; a few seconds).
+pub fn mixture_table(gas: Gas) -> Result<&'static TableBuf, Error> {
+    use std::collections::HashMap;
+    use std::sync::{Mutex, OnceLock};
+    static TABLES: OnceLock<Mutex<HashMap<Gas, &'static TableBuf>>> = OnceLock::new();
+    let tables = TABLES.get_or_init(|| Mutex::new(HashMap::new()));
+    if let Some(t) = tables.lock().unwrap_or_else(|e| e.into_inner()).get(&gas) {
+        return Ok(t);
+    }
+    let fluid = isochor_eos::fluid::Fluid::for_gas(gas)?;
+    let built = isochor_eos::model::build(&isochor_eos::model::BuildSpec::for_fluid(fluid))?;
+    // Kept for the rest of the process: one small table per composition.
+    let table: &'static TableBuf = Box::leak(Box::new(built.table));
+    tables
+        .lock()
+        .unwrap_or_else(|e| e.into_inner())
+        .insert(gas, table);
+    Ok(table)
 }
 
 impl CompressibilityFx for GaugeModel {
