@@ -49,9 +49,11 @@ pub struct BuildArgs {
     /// A composition file (TOML: a [composition] table of name = fraction).
     #[arg(long, conflicts_with = "gas")]
     pub gas_file: Option<String>,
-    /// Temperature range, e.g. -40C..85C.
-    #[arg(long, default_value = "-40C..85C", allow_hyphen_values = true)]
-    pub temperature: String,
+    /// Temperature range, e.g. -40C..85C (default: -40C..85C for a pure gas,
+    /// -60C..85C for a mixture, so that its condensation guard covers the
+    /// whole envelope).
+    #[arg(long, allow_hyphen_values = true)]
+    pub temperature: Option<String>,
     /// Pressure range from 0, e.g. 0..875bar (capped at the equation's limit).
     #[arg(long, default_value = "0..1000bar")]
     pub pressure: String,
@@ -122,7 +124,14 @@ fn gas_spec(gas: &Option<String>, file: &Option<String>) -> Result<GasSpec, Erro
 }
 
 fn specs(a: &BuildArgs) -> Result<Vec<BuildSpec>, Error> {
-    let (t_lo, t_hi) = range(&a.temperature, "--temperature", units::temperature_k)?;
+    let t_range = |mixture: bool| -> Result<(f64, f64), Error> {
+        let default = if mixture { "-60C..85C" } else { "-40C..85C" };
+        range(
+            a.temperature.as_deref().unwrap_or(default),
+            "--temperature",
+            units::temperature_k,
+        )
+    };
     let (p_lo, p_hi) = range(&a.pressure, "--pressure", units::pressure_pa)?;
     if p_lo != 0.0 {
         return Err(Error::Invalid("--pressure: tables start at 0".into()));
@@ -146,18 +155,21 @@ fn specs(a: &BuildArgs) -> Result<Vec<BuildSpec>, Error> {
     } else {
         vec![Fluid::of(&gas_spec(&a.gas, &a.gas_file)?)]
     };
-    Ok(fluids
+    fluids
         .into_iter()
-        .map(|fluid| BuildSpec {
-            fluid,
-            t_min_k: t_lo,
-            t_max_k: t_hi,
-            p_max_pa: p_hi,
-            density_max_kg_m3: density,
-            target: a.target,
-            max_bytes: a.max_bytes,
+        .map(|fluid| {
+            let (t_lo, t_hi) = t_range(matches!(fluid, Fluid::Mixture(_)))?;
+            Ok(BuildSpec {
+                fluid,
+                t_min_k: t_lo,
+                t_max_k: t_hi,
+                p_max_pa: p_hi,
+                density_max_kg_m3: density,
+                target: a.target,
+                max_bytes: a.max_bytes,
+            })
         })
-        .collect())
+        .collect()
 }
 
 /// Builds several models, two at a time.
