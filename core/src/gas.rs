@@ -284,7 +284,7 @@ impl Gas {
     /// computed (preparation time) from a mixture's molar mass.
     pub(crate) fn m_over_r(self) -> Coef {
         match self {
-            Gas::Mixture(m) => molar_mass_coef(m).mul(INV_R),
+            Gas::Mixture(m) => mixture_coefs(m).0,
             g => g.info().m_over_r,
         }
     }
@@ -292,7 +292,7 @@ impl Gas {
     /// 1/M in mol/kg as a fixed-point constant (like [`Gas::m_over_r`]).
     pub(crate) fn inv_molar_mass(self) -> Coef {
         match self {
-            Gas::Mixture(m) => molar_mass_coef(m).recip().unwrap_or(Coef::ZERO),
+            Gas::Mixture(m) => mixture_coefs(m).1,
             g => g.info().inv_molar_mass,
         }
     }
@@ -341,10 +341,14 @@ impl Gas {
     }
 }
 
-/// A mixture's molar mass as a prepared constant (U0F32 bits: 32 fraction
-/// bits).
-fn molar_mass_coef(m: Mixture) -> Coef {
-    Coef::from_raw(m.molar_mass_kg_mol.to_bits() as u64, 32)
+/// A mixture's M/R and 1/M as prepared constants (preparation time; kept
+/// out of line so that pure-gas builds pay one call for it).
+#[cold]
+#[inline(never)]
+fn mixture_coefs(m: Mixture) -> (Coef, Coef) {
+    // U0F32 bits: 32 fraction bits.
+    let mm = Coef::from_raw(m.molar_mass_kg_mol.to_bits() as u64, 32);
+    (mm.mul(INV_R), mm.recip().unwrap_or(Coef::ZERO))
 }
 
 fn same_name(ours: &str, theirs: &str) -> bool {

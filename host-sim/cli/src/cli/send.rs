@@ -5,7 +5,7 @@ use std::time::Duration;
 use clap::{Args, Subcommand, ValueEnum};
 use isochor_core::auth::Secret;
 use isochor_core::link::{Command, Origin, SensorChannel};
-use isochor_core::{Gas, Setup, SetupFx, Tank, fx};
+use isochor_core::{Setup, SetupFx, Tank, fx};
 use serde_json::json;
 
 use super::{Format, to_json};
@@ -94,7 +94,8 @@ pub enum Request {
 /// The setup to write.
 #[derive(Debug, Args)]
 pub struct WriteConfigArgs {
-    /// Gas name or formula.
+    /// Gas name or formula, or a mixture as mole fractions
+    /// (argon=82%,carbon_dioxide=18%: load its table with load-gas-model).
     #[arg(long)]
     pub gas: String,
     /// Water capacity of the tank, with unit (L, mL, m3).
@@ -135,11 +136,7 @@ pub fn secret(file: Option<&std::path::Path>) -> Result<Option<Secret>, Error> {
 
 /// Builds the fixed-point setup from the arguments (validated).
 pub fn setup(a: &WriteConfigArgs) -> Result<SetupFx, Error> {
-    let gas = Gas::from_name(&a.gas).map_err(|_| Error::Quantity {
-        what: "--gas",
-        input: a.gas.clone(),
-        reason: "unknown gas".into(),
-    })?;
+    let gas = super::gas::parse(&a.gas)?.gas();
     let tank = Tank {
         water_capacity_m3: units::volume_m3(&a.capacity, "--capacity")?,
         rated_pressure_pa: units::pressure_pa(&a.rated_pressure, "--rated-pressure")?,
