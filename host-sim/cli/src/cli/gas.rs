@@ -29,7 +29,7 @@ pub struct GasArgs {
     /// docs/mixtures.md).
     #[arg(long, required_unless_present = "gas_file", allow_hyphen_values = true)]
     pub gas: Option<String>,
-    /// A composition file (TOML: a [composition] table of name = fraction).
+    /// A composition file (TOML: a `[composition]` table of name = fraction).
     #[arg(long, conflicts_with = "gas")]
     pub gas_file: Option<String>,
 }

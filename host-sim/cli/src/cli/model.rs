@@ -46,7 +46,7 @@ pub struct BuildArgs {
     /// fractions: argon=82%,carbon_dioxide=18%.
     #[arg(long, required_unless_present = "gas_file")]
     pub gas: Option<String>,
-    /// A composition file (TOML: a [composition] table of name = fraction).
+    /// A composition file (TOML: a `[composition]` table of name = fraction).
     #[arg(long, conflicts_with = "gas")]
     pub gas_file: Option<String>,
     /// Temperature range, e.g. -40C..85C (default: -40C..85C for a pure gas,
@@ -83,7 +83,7 @@ pub struct CheckArgs {
     /// the composition the blob is checked against).
     #[arg(long, required_unless_present = "gas_file")]
     pub gas: Option<String>,
-    /// A composition file (TOML: a [composition] table of name = fraction).
+    /// A composition file (TOML: a `[composition]` table of name = fraction).
     #[arg(long, conflicts_with = "gas")]
     pub gas_file: Option<String>,
     /// A blob file to check instead of the built-in table.

@@ -14,7 +14,7 @@
 //! by its composition factor once, and the terms that depend on τ only are
 //! computed once per temperature, so a density solve evaluates only the δ
 //! parts (a handful of exponentials) per Newton step. The general evaluation
-//! at any composition of the same components ([`Gerg::fugacity`]) serves the
+//! at any composition of the same components ([`Gerg::ln_fugacity_coefficients`]) serves the
 //! phase-stability test ([`stability`]).
 //!
 //! Derivatives follow the usual notation `a_ij = τ^i δ^j ∂^(i+j)αʳ/∂τ^i∂δ^j`:
