@@ -273,8 +273,14 @@ impl Fluid {
     /// needs (CODATA R and, for a mixture, the molar mass the core carries:
     /// `Z_eff = p·M_core/(ρ_mass·R·T)`).
     pub fn z_eff_factor(&self) -> f64 {
-        let m_core = self.gas().molar_mass_kg_mol();
-        self.gas_constant() / MOLAR_GAS_CONSTANT_J_MOL_K * m_core / self.molar_mass_kg_mol()
+        match self {
+            Fluid::Pure(e) => e.gas_constant / MOLAR_GAS_CONSTANT_J_MOL_K,
+            Fluid::Mixture(m) => {
+                let m_core = self.gas().molar_mass_kg_mol();
+                gerg::GAS_CONSTANT / MOLAR_GAS_CONSTANT_J_MOL_K * m_core
+                    / m.gerg.molar_mass_kg_mol()
+            }
+        }
     }
 
     /// Temperature below which a liquid can form (a pure gas: the top of its
