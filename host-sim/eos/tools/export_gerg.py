@@ -14,6 +14,8 @@ Writes (committed; neither CI nor a build needs Python):
       methane + propane from teqp's isotherm traces of the binary VLE
   tests/data/coolprop_mixture_points.csv  densities of shielding and breathing
       gases from CoolProp's mixture model (loose check only)
+  tests/data/coolprop_mixture_dew.csv     dew pressures of the same two binaries
+      from CoolProp's mixture model (loose check only)
 
 Usage: pip install teqp==0.23.1 CoolProp==8.0.0 numpy; python3 host-sim/eos/tools/export_gerg.py
 """
@@ -152,6 +154,26 @@ def coolprop_points():
     return rows
 
 
+def coolprop_dew():
+    """CoolProp's dew pressures of the two binaries (loose check only)."""
+    rows = []
+    for first, second, cp1, cp2, cases in [
+        ("argon", "carbon_dioxide", "Argon", "CarbonDioxide",
+         [(220.0, 0.3), (235.0, 0.5), (250.0, 0.3), (270.0, 0.2)]),
+        ("methane", "propane", "Methane", "Propane",
+         [(250.0, 0.5), (280.0, 0.7), (300.0, 0.4), (320.0, 0.3)]),
+    ]:
+        for T, y in cases:
+            mix = f"{cp1}[{y}]&{cp2}[{1 - y}]"
+            try:
+                p = CP.PropsSI("P", "T", T, "Q", 1, mix)
+            except ValueError:
+                continue
+            rows.append({"first": first, "second": second, "temperature_k": repr(T),
+                         "y_first": repr(y), "dew_pressure_pa": repr(p)})
+    return rows
+
+
 def write(name, rows):
     path = os.path.join(DATA, name)
     with open(path, "w", newline="") as f:
@@ -170,6 +192,7 @@ def main():
                 [0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9])
     write("teqp_gerg_dew.csv", rows)
     write("coolprop_mixture_points.csv", coolprop_points())
+    write("coolprop_mixture_dew.csv", coolprop_dew())
 
 
 main()
