@@ -3,7 +3,10 @@
 //!
 //! Samples outside the envelope are clamped to its edge and flagged
 //! ([`Status::PRESSURE_OUTSIDE_ENVELOPE`](crate::Status::PRESSURE_OUTSIDE_ENVELOPE),
-//! [`Status::TEMPERATURE_OUTSIDE_ENVELOPE`](crate::Status::TEMPERATURE_OUTSIDE_ENVELOPE)).
+//! [`Status::TEMPERATURE_OUTSIDE_ENVELOPE`](crate::Status::TEMPERATURE_OUTSIDE_ENVELOPE)),
+//! so the arithmetic never leaves its proven range; both flags are in
+//! [`Status::CONTENT_INVALID`](crate::Status::CONTENT_INVALID): the content
+//! computed at the edge is not the tank's and is never shown as a number.
 //! Configuration outside its limits is refused with
 //! [`Error::OutOfRange`](crate::Error::OutOfRange).
 //!

@@ -92,7 +92,7 @@ pub type MolarMass = U0F32;
 /// while a setup is prepared ([`Coef::from_raw`], [`Coef::mul`],
 /// [`Coef::recip`]); per sample they are only applied ([`Coef::scale`]): one
 /// 32×32→64 multiply and a shift. Relative precision of a constant: 2^-32.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Coef {
     mantissa: u32,

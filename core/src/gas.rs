@@ -56,11 +56,69 @@ pub enum Gas {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Mixture {
-    /// CRC-32C of the composition's canonical form (computed by the host:
-    /// `isochor_eos::composition::Composition::fingerprint`).
+    /// CRC-32C of the composition's canonical form ([`Composition::fingerprint`];
+    /// hosts: `isochor_eos::composition::Composition::fingerprint`).
     pub fingerprint: u32,
     /// Molar mass Σ xᵢMᵢ, kg/mol.
     pub molar_mass_kg_mol: fx::MolarMass,
+}
+
+/// Most components of a [`Composition`] (GERG-2008 has 21).
+pub const MAX_COMPONENTS: usize = 21;
+
+/// One part in a billion: the unit of a [`Composition`]'s mole fractions.
+pub const FRACTION_ONE: u32 = 1_000_000_000;
+
+/// A mixture's composition as a host writes it into a configuration (the
+/// canonical form [`Mixture::fingerprint`] is taken of): per component its
+/// GERG-2008 number (1…21, the order of Kunz & Wagner's component table)
+/// and its mole fraction in units of 1e-9, in increasing component order.
+/// Hosts name the components (`isochor_eos::composition`); a device never
+/// reads it.
+#[derive(Clone, Debug, Default, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub struct Composition {
+    /// (component number, mole fraction × 1e9), component numbers strictly
+    /// increasing.
+    pub parts: heapless::Vec<(u8, u32), MAX_COMPONENTS>,
+}
+
+impl Composition {
+    /// CRC-32C of the canonical form: per part its component number (one
+    /// byte) and fraction (u32, little-endian).
+    pub fn fingerprint(&self) -> u32 {
+        let mut c = crate::checksum::Crc32c::new();
+        for &(i, f) in &self.parts {
+            c.update(&[i]);
+            c.update(&f.to_le_bytes());
+        }
+        c.finish()
+    }
+
+    /// Checks the form: at least one part, component numbers 1…21 strictly
+    /// increasing, positive fractions summing to one within 1e-6 (the rule
+    /// of `--gas`).
+    pub fn validate(&self) -> Result<(), Error> {
+        let bad = Error::OutOfRange("composition");
+        let mut last = 0u8;
+        let mut sum = 0u64;
+        for &(i, f) in &self.parts {
+            if i <= last || usize::from(i) > MAX_COMPONENTS || f == 0 {
+                return Err(bad);
+            }
+            last = i;
+            sum += u64::from(f);
+        }
+        if self.parts.is_empty() || sum.abs_diff(u64::from(FRACTION_ONE)) > 1_000 {
+            return Err(bad);
+        }
+        Ok(())
+    }
+
+    /// True when this is the composition `m` was made from (same
+    /// fingerprint).
+    pub fn is_of(&self, m: &Mixture) -> bool {
+        self.fingerprint() == m.fingerprint
+    }
 }
 
 /// 1/R in mol·K/J (CODATA 2018), for a mixture's M/R.
@@ -432,6 +490,26 @@ mod tests {
             molar_mass_kg_mol: fx::MolarMass::from_num(m),
         });
         assert_ne!(g, other);
+    }
+
+    #[test]
+    fn pure_gases_encode_as_before_mixtures_and_a_mixture_round_trips() {
+        // Postcard (the prepared configuration and its source): a pure gas is
+        // one byte, its variant; a mixture is its variant (13), then its
+        // fingerprint and molar mass bits as varints.
+        let mut buf = [0u8; 16];
+        assert_eq!(
+            postcard::to_slice(&Gas::Propane, &mut buf).unwrap(),
+            &[12u8]
+        );
+        let g = Gas::Mixture(Mixture {
+            fingerprint: u32::MAX,
+            molar_mass_kg_mol: fx::MolarMass::MAX,
+        });
+        let enc = postcard::to_slice(&g, &mut buf).unwrap();
+        assert_eq!(enc.len(), 11);
+        assert_eq!(enc[0], 13);
+        assert_eq!(postcard::from_bytes::<Gas>(enc).unwrap(), g);
     }
 
     #[test]

@@ -48,6 +48,7 @@ pub mod auth;
 pub mod checksum;
 pub mod constants;
 pub mod content;
+pub mod curve;
 pub mod envelope;
 mod error;
 pub mod fx;
@@ -55,6 +56,8 @@ pub mod fxmath;
 mod gas;
 pub mod link;
 pub mod model;
+pub mod prepared;
+pub mod probe;
 mod real;
 pub mod sensor;
 mod setup;
@@ -68,7 +71,7 @@ pub use error::Error;
 /// The fixed-point crate the device formats come from (re-exported so users
 /// name the same types).
 pub use fixed;
-pub use gas::{Gas, GasInfo, Mixture};
+pub use gas::{Composition, Gas, GasInfo, Mixture};
 pub use real::Real;
 pub use setup::{Setup, SetupFx, StandardCondition, StandardConditionFx, Tank, TankFx};
 pub use status::Status;

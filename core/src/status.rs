@@ -10,8 +10,13 @@
 //! |-------|-----------------------------------------|
 //! | 0–7   | content estimate and gas model           |
 //! | 8–15  | sensors and plausibility                 |
-//! | 16–23 | tracking over time and alarms            |
-//! | 24–31 | device: configuration, storage, link     |
+//! | 16–23 | tracking over time and alarms (bit 23: the per-estimate over-fill verdict beside the debounced `over_pressure` alarm) |
+//! | 24–30 | device: configuration, storage, link     |
+//! | 31    | content: a mixture's `condensation_risk` (the content range was full) |
+//!
+//! Every bit is named: bit 31 was the last free one. Content flags are those
+//! of [`Status::CONTENT_RANGE`] and bit 31; [`Status::DEVICE_RANGE`] is bits
+//! 24–30.
 
 use core::fmt;
 use core::ops::{BitAnd, BitOr, BitOrAssign};
@@ -33,9 +38,14 @@ macro_rules! flags {
 }
 
 flags! {
-    /// Input pressure was outside 0–1000 bar absolute and was clamped to the envelope.
+    /// Input pressure was outside 0–1000 bar absolute: it was clamped to the
+    /// envelope's edge so nothing overflows, and the content outputs (those
+    /// of the edge, not of the sample) are not valid
+    /// ([`Status::CONTENT_INVALID`]).
     PRESSURE_OUTSIDE_ENVELOPE = 0, "pressure_outside_envelope";
-    /// Input temperature was outside −60…+150 °C and was clamped to the envelope.
+    /// Input temperature was outside −60…+150 °C: it was clamped to the
+    /// envelope's edge, and the content outputs are not valid
+    /// ([`Status::CONTENT_INVALID`]).
     TEMPERATURE_OUTSIDE_ENVELOPE = 1, "temperature_outside_envelope";
     /// An output reached the limit of its number format and was clamped there.
     SATURATED = 2, "saturated";
@@ -49,13 +59,16 @@ flags! {
     /// At the settled reference temperature the same content would be liquid or
     /// two-phase: the settled pressure is not valid.
     SETTLED_TWO_PHASE = 6, "settled_two_phase";
-    /// A mixture is outside the single-phase range of its gas model: below
-    /// its cricondentherm, at or above the dew pressure where a liquid can
-    /// form (the stability limit found at build time by the tangent-plane
-    /// test on GERG-2008). Liquid may have dropped out: pressure does not tell
-    /// the content, and the content outputs are not valid. (Pure gases raise
-    /// [`Status::TWO_PHASE`] instead.)
-    CONDENSATION_RISK = 7, "condensation_risk";
+    /// The vessel is full of liquid (compressed liquid, no vapour space): the
+    /// pressure lies well above the gas's vapour pressure at this temperature
+    /// (more than 1/8 above the model's saturation curve, beyond what sensor
+    /// and temperature errors explain), below the critical temperature. The
+    /// content outputs are not valid, and the pressure of a liquid-full
+    /// vessel rises by several bar per kelvin: a burst hazard. Set instead of
+    /// [`Status::TWO_PHASE`], which means liquid and vapour together (the
+    /// pressure is at the vapour pressure and says nothing about the
+    /// content). Either way the content must be found by weighing.
+    LIQUID_FULL = 7, "liquid_full";
     /// Alarm: the gas has not settled after a fast fill or draw; pressure and
     /// content still drift towards the predicted settled values.
     NOT_SETTLED = 16, "not_settled";
@@ -76,6 +89,16 @@ flags! {
     /// Alarm: the sensor front end has reported a fault (any flag of
     /// [`Status::SENSOR_RANGE`]) for longer than the debounce time.
     SENSOR_FAULT = 22, "sensor_fault";
+    /// Over-fill, judged on this one estimate (no debounce, no settling
+    /// prediction): the content is above [`OVER_FILL_FRACTION`] of the rated
+    /// content, which is the same as the pressure being above the pressure
+    /// the rated content develops at the present temperature (the rated
+    /// pressure corrected to this temperature) by about that much. Set by
+    /// the content estimate; the debounced alarm is
+    /// [`Status::OVER_PRESSURE`].
+    ///
+    /// [`OVER_FILL_FRACTION`]: crate::content::OVER_FILL_FRACTION
+    OVER_FILL = 23, "over_fill";
     /// A stored record's newest copy is unreadable: an older copy is in use.
     CONFIG_FALLBACK = 24, "config_fallback";
     /// No stored copy of a record is readable: its safe defaults are in use,
@@ -97,6 +120,14 @@ flags! {
     /// reported in its boot message. Latched until alarms are cleared by a
     /// signed command.
     RESTARTED_AFTER_FAULT = 30, "restarted_after_fault";
+    /// A mixture is outside the single-phase range of its gas model: below
+    /// its cricondentherm, at or above the dew pressure where a liquid can
+    /// form (the stability limit found at build time by the tangent-plane
+    /// test on GERG-2008). Liquid may have dropped out: pressure does not tell
+    /// the content, and the content outputs are not valid. (Pure gases raise
+    /// [`Status::TWO_PHASE`] instead.) A content flag in the device range:
+    /// bit 31 was the last free bit (see the module documentation).
+    CONDENSATION_RISK = 31, "condensation_risk";
     /// A resistive sensor or its wiring is open (resistance above the open
     /// threshold, or the converter driven to its upper rail by an open input).
     SENSOR_OPEN_CIRCUIT = 8, "sensor_open_circuit";
@@ -136,12 +167,26 @@ impl Status {
     pub const SENSOR_RANGE: Status = Status(0x0000_FF00);
     /// Every bit of the tracking-and-alarm range (bits 16–23).
     pub const TRACKING_RANGE: Status = Status(0x00FF_0000);
-    /// Every bit of the device range (bits 24–31).
-    pub const DEVICE_RANGE: Status = Status(0xFF00_0000);
+    /// Every bit of the device range (bits 24–30; bit 31 is the content flag
+    /// [`Status::CONDENSATION_RISK`]).
+    pub const DEVICE_RANGE: Status = Status(0x7F00_0000);
 
     /// Flags after which the content outputs (density, mass, amount, standard
-    /// volume, fill fraction) must not be shown as valid numbers.
-    pub const CONTENT_INVALID: Status = Status(Status::TWO_PHASE.0 | Status::CONDENSATION_RISK.0);
+    /// volume, settled pressure, fill fraction, and Z) must not be shown as
+    /// valid numbers: the vessel holds liquid (two-phase or liquid-full), a
+    /// mixture may have condensed ([`Status::CONDENSATION_RISK`]), or
+    /// the sample lay outside the envelope (the outputs are then those of
+    /// the envelope's edge, which is not where the tank is). The tracker
+    /// leaves such samples out of its blocks; its alarms still judge them
+    /// (a pressure clamped at 1000 bar is above 5/4 of every rated pressure
+    /// up to 800 bar).
+    pub const CONTENT_INVALID: Status = Status(
+        Status::TWO_PHASE.0
+            | Status::LIQUID_FULL.0
+            | Status::PRESSURE_OUTSIDE_ENVELOPE.0
+            | Status::TEMPERATURE_OUTSIDE_ENVELOPE.0
+            | Status::CONDENSATION_RISK.0,
+    );
     /// Either flag of a state outside the single-phase gas region: a pure
     /// gas's [`Status::TWO_PHASE`] or a mixture's
     /// [`Status::CONDENSATION_RISK`].
@@ -278,6 +323,29 @@ mod tests {
         let s = Status::SATURATED | Status::TWO_PHASE;
         assert_eq!(s.to_string(), "saturated,two_phase");
         assert_eq!(Status::OK.to_string(), "ok");
-        assert_eq!(Status::from_bits(1 << 31).to_string(), "bits_0x80000000");
+        assert_eq!(
+            (Status::CONDENSATION_RISK | Status::TWO_PHASE).to_string(),
+            "two_phase,condensation_risk"
+        );
+    }
+
+    #[test]
+    fn every_bit_is_named_and_the_ranges_split_the_word() {
+        // Bit 31 was the last free bit: no bit is left without a name.
+        assert_eq!(Status::from_bits(u32::MAX).unnamed_bits(), 0);
+        let ranges = [
+            Status::CONTENT_RANGE,
+            Status::SENSOR_RANGE,
+            Status::TRACKING_RANGE,
+            Status::DEVICE_RANGE,
+            Status::CONDENSATION_RISK,
+        ];
+        assert_eq!(ranges.iter().fold(0, |a, r| a | r.bits()), u32::MAX);
+        assert_eq!(
+            ranges.iter().map(|r| r.bits().count_ones()).sum::<u32>(),
+            32
+        );
+        assert!(!Status::DEVICE_RANGE.intersects(Status::CONDENSATION_RISK));
+        assert!(Status::CONTENT_INVALID.contains(Status::NOT_SINGLE_PHASE));
     }
 }

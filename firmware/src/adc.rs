@@ -13,7 +13,7 @@
 //! significant byte first.
 
 use embedded_hal::spi::{Operation, SpiDevice};
-use isochor_core::app::RawSample;
+use isochor_core::sensor::channel::RawSample;
 use isochor_core::time::{Instant, Millis};
 
 use crate::board::SampleSource;

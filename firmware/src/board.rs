@@ -3,9 +3,9 @@
 //!
 //! | trait | what | reference boards |
 //! |---|---|---|
-//! | [`Board`] | bundles the parts below, the storage layout and the built-in gas models | `microbit`, `mps2-an386` |
+//! | [`Board`] | bundles the parts below, the storage layout and the memory map of the store | `microbit`, `mps2-an386` |
 //! | serial: `embedded_io::{Read, ReadReady, Write}` | the host link, 8N1 | UART0 of each board |
-//! | flash: `embedded_storage::nor_flash::NorFlash` | records and gas-model blobs | nRF51 NVMC; RAM-backed NOR on `mps2-an386` |
+//! | flash: `embedded_storage::nor_flash::NorFlash` | the configuration record and the prepared-configuration slots | nRF51 NVMC; RAM-backed NOR on `mps2-an386` |
 //! | [`SampleSource`] | raw converter codes (or none: injected samples) | [`crate::adc::AdcSampler`] over an `embedded_hal::spi::SpiDevice`; in emulation none |
 //! | [`Clock`] | monotonic milliseconds since start | SysTick |
 //! | [`Watchdog`] | started once, fed every loop | nRF51 WDT; CMSDK watchdog |
@@ -14,13 +14,12 @@
 
 use embedded_io::{Read, ReadReady, Write};
 use embedded_storage::nor_flash::NorFlash;
-use isochor_core::app::RawSample;
+use isochor_core::Error;
 use isochor_core::auth::{NonceSource, Secret};
 use isochor_core::link::{BootReport, ResetReason};
-use isochor_core::model::device::Table;
+use isochor_core::sensor::channel::RawSample;
 use isochor_core::store::Layout;
 use isochor_core::time::Instant;
-use isochor_core::{Error, Gas};
 
 /// Where raw converter codes come from.
 pub trait SampleSource {
@@ -75,11 +74,12 @@ pub trait System {
     fn stack_usage(&self) -> (u32, u32);
 }
 
-/// A board: its parts, its storage layout and its gas models.
+/// A board: its parts, its storage layout and the memory map of its store.
 pub trait Board {
     /// The host link.
     type Serial: Read + ReadReady + Write;
-    /// The flash that keeps records and gas-model blobs (offsets from 0).
+    /// The flash that keeps the configuration record and the prepared
+    /// configurations (offsets from 0).
     type Flash: NorFlash;
     /// The converters.
     type Sensors: SampleSource;
@@ -98,19 +98,24 @@ pub trait Board {
     /// Takes the board apart.
     fn split(self) -> Parts<Self>;
 
-    /// Where records and gas-model blobs live in [`Board::Flash`].
+    /// Where the record and the configuration slots live in
+    /// [`Board::Flash`].
     fn layout(flash: &Self::Flash) -> Result<Layout, Error>;
 
-    /// The built-in gas-model table of `gas` in this build (`None` for
-    /// gases the build leaves out).
-    fn builtin(gas: Gas) -> Option<Table<'static>>;
+    /// The `len` bytes of the store at `offset` as read through the memory
+    /// map (the gauge reads its prepared configuration in place: no RAM is
+    /// spent on it). `None` when the range is not in the store. Contract:
+    /// the application only maps a blob slot it does not write while the
+    /// mapping is in use (a configuration load writes the other slot, and
+    /// the previous mapping is dropped before its slot is next erased).
+    fn map(offset: u32, len: u32) -> Option<&'static [u8]>;
 }
 
 /// The parts of a board.
 pub struct Parts<B: Board + ?Sized> {
     /// The host link.
     pub serial: B::Serial,
-    /// Records and gas-model blobs.
+    /// The configuration store.
     pub flash: B::Flash,
     /// The converters.
     pub sensors: B::Sensors,

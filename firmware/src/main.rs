@@ -14,10 +14,8 @@
 use core::mem::MaybeUninit;
 use cortex_m_rt::{ExceptionFrame, entry, exception};
 use isochor_core::link::ResetReason;
-
-use isochor_core::model::DeviceModel;
-use isochor_core::model::device::TableBuf;
 use isochor_firmware::arm;
+use isochor_firmware::run::BoardGauge;
 
 #[cfg(not(target_abi = "eabihf"))]
 use isochor_firmware::arm::microbit as board;
@@ -27,63 +25,25 @@ use isochor_firmware::arm::mps2 as board;
 #[cfg(feature = "defmt")]
 use defmt_rtt as _;
 
-/// Room for one decoded gas-model table (builds with `model-load`).
-#[cfg(feature = "model-load")]
-static mut MODEL: TableBuf = TableBuf {
-    gas: isochor_core::Gas::Nitrogen,
-    temperature_knots: heapless::Vec::new(),
-    pressure_knots: heapless::Vec::new(),
-    z_offset: 0,
-    z_step_exp: 0,
-    z_floor: 0,
-    coefs: heapless::Vec::new(),
-    boundary: None,
-};
-
-fn model_buffer() -> Option<&'static mut TableBuf> {
-    #[cfg(feature = "model-load")]
-    {
-        // SAFETY: taken once, here, before anything else can reach it.
-        Some(unsafe { &mut *core::ptr::addr_of_mut!(MODEL) })
-    }
-    #[cfg(not(feature = "model-load"))]
-    {
-        None
-    }
-}
-
-/// The prepared gas model of this start.
-static mut PREPARED: MaybeUninit<DeviceModel<'static>> = MaybeUninit::uninit();
-
-/// The board's flash driver.
 #[cfg(target_abi = "eabihf")]
-type Flash = <board::Mps2 as isochor_firmware::board::Board>::Flash;
+type Board = board::Mps2;
 #[cfg(not(target_abi = "eabihf"))]
-type Flash = <board::Microbit as isochor_firmware::board::Board>::Flash;
+type Board = board::Microbit;
 
 /// The gauge of this start (a static, so that it counts as static RAM and
 /// is never copied on the stack). In `.uninit`: an initialised static would
-/// keep a 4.4 KiB image of `None` in flash; `main` writes `None` first.
+/// keep an image of `None` in flash; `main` writes `None` first.
 #[unsafe(link_section = ".uninit.isochor_gauge")]
-static mut GAUGE: MaybeUninit<Option<isochor_core::app::Gauge<'static, Flash>>> =
-    MaybeUninit::uninit();
+static mut GAUGE: MaybeUninit<Option<BoardGauge<Board>>> = MaybeUninit::uninit();
 
 #[entry]
 fn main() -> ! {
     arm::paint_stack();
-    #[cfg(target_abi = "eabihf")]
-    let b = board::Mps2::take();
-    #[cfg(not(target_abi = "eabihf"))]
-    let b = board::Microbit::take();
-    match b {
+    match Board::take() {
         // SAFETY: taken once, here.
-        // SAFETY: taken once, here.
-        Some(b) => isochor_firmware::run::run(
-            b,
-            model_buffer(),
-            unsafe { &mut *core::ptr::addr_of_mut!(PREPARED) },
-            unsafe { (*core::ptr::addr_of_mut!(GAUGE)).write(None) },
-        ),
+        Some(b) => {
+            isochor_firmware::run::run(b, unsafe { (*core::ptr::addr_of_mut!(GAUGE)).write(None) })
+        }
         None => arm::record_and_reset(ResetReason::HardFault, None),
     }
 }

@@ -29,15 +29,49 @@ impl NorFlashError for RamNorError {
     }
 }
 
-/// NOR flash over a byte region.
+/// NOR flash over a byte region (through its address, so that the board
+/// may also read the region through its memory map: see
+/// [`RamNor::from_raw`]).
 pub struct RamNor<'a> {
-    mem: &'a mut [u8],
+    base: *mut u8,
+    len: usize,
+    region: core::marker::PhantomData<&'a mut [u8]>,
 }
 
 impl<'a> RamNor<'a> {
     /// Emulated flash over `mem` (its length a whole number of sectors).
     pub fn new(mem: &'a mut [u8]) -> RamNor<'a> {
-        RamNor { mem }
+        RamNor {
+            base: mem.as_mut_ptr(),
+            len: mem.len(),
+            region: core::marker::PhantomData,
+        }
+    }
+
+    /// Emulated flash over the `len` bytes at `base`, a region of RAM that
+    /// nothing else writes.
+    ///
+    /// # Safety
+    ///
+    /// The region must be valid, writable memory for the program's whole
+    /// life, written by nothing but this driver; it may be read through
+    /// other pointers (the board's memory map of the store) as long as the
+    /// bytes read are not being written at the same time.
+    pub unsafe fn from_raw(base: *mut u8, len: usize) -> RamNor<'static> {
+        RamNor {
+            base,
+            len,
+            region: core::marker::PhantomData,
+        }
+    }
+
+    fn bytes(&self, offset: u32, n: usize) -> Option<*mut u8> {
+        let end = (offset as usize).checked_add(n)?;
+        if end > self.len {
+            return None;
+        }
+        // In bounds: `offset + n ≤ len`.
+        Some(self.base.wrapping_add(offset as usize))
     }
 }
 
@@ -50,14 +84,14 @@ impl ReadNorFlash for RamNor<'_> {
     fn read(&mut self, offset: u32, bytes: &mut [u8]) -> Result<(), RamNorError> {
         check_read(self, offset, bytes.len()).map_err(RamNorError)?;
         let src = self
-            .mem
-            .get(offset as usize..offset as usize + bytes.len())
+            .bytes(offset, bytes.len())
             .ok_or(RamNorError(NorFlashErrorKind::OutOfBounds))?;
-        bytes.copy_from_slice(src);
+        // SAFETY: in bounds of the region (checked), which this driver owns.
+        unsafe { core::ptr::copy_nonoverlapping(src, bytes.as_mut_ptr(), bytes.len()) };
         Ok(())
     }
     fn capacity(&self) -> usize {
-        self.mem.len()
+        self.len
     }
 }
 
@@ -66,20 +100,25 @@ impl NorFlash for RamNor<'_> {
     const ERASE_SIZE: usize = SECTOR;
     fn erase(&mut self, from: u32, to: u32) -> Result<(), RamNorError> {
         check_erase(self, from, to).map_err(RamNorError)?;
-        self.mem
-            .get_mut(from as usize..to as usize)
-            .ok_or(RamNorError(NorFlashErrorKind::OutOfBounds))?
-            .fill(0xFF);
+        let n = (to - from) as usize;
+        let dst = self
+            .bytes(from, n)
+            .ok_or(RamNorError(NorFlashErrorKind::OutOfBounds))?;
+        // SAFETY: in bounds of the region (checked), which this driver owns.
+        unsafe { core::ptr::write_bytes(dst, 0xFF, n) };
         Ok(())
     }
     fn write(&mut self, offset: u32, bytes: &[u8]) -> Result<(), RamNorError> {
         check_write(self, offset, bytes.len()).map_err(RamNorError)?;
         let dst = self
-            .mem
-            .get_mut(offset as usize..offset as usize + bytes.len())
+            .bytes(offset, bytes.len())
             .ok_or(RamNorError(NorFlashErrorKind::OutOfBounds))?;
-        for (d, s) in dst.iter_mut().zip(bytes) {
-            *d &= *s;
+        for (i, s) in bytes.iter().enumerate() {
+            // SAFETY: in bounds of the region (checked), which this driver owns.
+            unsafe {
+                let d = dst.add(i);
+                *d &= *s;
+            }
         }
         Ok(())
     }

@@ -2,29 +2,46 @@
 //! command handling → sleep, over any [`Board`].
 //!
 //! At start: the boot report (why the board started), provisioning, the
-//! storage layout, the committed gas-model blob decoded into the model
-//! buffer, then the [`Gauge`] with every record loaded from flash; a boot
-//! message goes out. Then, for ever: feed the watchdog, take the bytes the
-//! serial link has, take a sample when one is due, restart when the gauge
-//! asks for it (after the last frame left), and sleep until an interrupt
-//! when nothing happened.
+//! storage layout, then the [`Gauge`] with the configuration reference
+//! loaded from flash and the prepared configuration in force read in place
+//! through the board's memory map; a boot message goes out. Then, for ever:
+//! feed the watchdog, take the bytes the serial link has, take a sample when
+//! one is due, restart when the gauge asks for it (after the last frame
+//! left), and sleep until an interrupt when nothing happened.
 
-use core::mem::MaybeUninit;
+use core::marker::PhantomData;
 use embedded_io::{Read, ReadReady, Write};
 
-use isochor_core::app::{Gauge, GaugeIo, Models, decode_loaded_model, model_for_in, stored_gas};
-use isochor_core::auth::{Authenticator, NonceSource, Policy, Secret};
-use isochor_core::link::{Identity, NONCE_LEN, ResetReason};
-use isochor_core::model::DeviceModel;
-use isochor_core::model::device::TableBuf;
-
-use isochor_core::link::BootReport;
-use isochor_core::store::Layout;
+use isochor_core::app::{Gauge, GaugeIo, Mapper};
+use isochor_core::auth::NonceSource;
+use isochor_core::link::{BootReport, NONCE_LEN, ResetReason};
+use isochor_core::store::{BlobRef, Layout};
 
 use crate::board::{Board, Clock, Parts, SampleSource, System, Watchdog};
 
-/// Firmware version reported in the identity and the boot message.
-pub const FIRMWARE_VERSION: [u8; 3] = [0, 2, 0];
+/// Version reported in the identity and the boot message: the application's
+/// (`isochor-core`'s package version; the host's emulated device reports
+/// the same).
+pub const FIRMWARE_VERSION: [u8; 3] = isochor_core::app::VERSION;
+
+/// The gauge of a board: its flash, and its store read in place.
+pub type BoardGauge<B> = Gauge<<B as Board>::Flash, BoardMap<B>>;
+
+/// Reads a prepared configuration in place through the board's memory map
+/// ([`Board::map`]).
+pub struct BoardMap<B>(PhantomData<fn() -> B>);
+
+impl<B: Board> Mapper<B::Flash> for BoardMap<B> {
+    type Bytes = &'static [u8];
+    fn map(
+        &mut self,
+        _flash: &mut B::Flash,
+        layout: &Layout,
+        blob: &BlobRef,
+    ) -> Option<&'static [u8]> {
+        B::map(layout.blobs.slot_offset(blob.slot), blob.len)
+    }
+}
 
 /// The gauge's outputs onto the board.
 struct Io<'a, S, R, Y> {
@@ -47,22 +64,9 @@ impl<S: Write, R: NonceSource, Y: System> GaugeIo for Io<'_, S, R, Y> {
     }
 }
 
-/// Runs the gauge on `board` for ever. `model_buffer` holds the decoded
-/// gas-model blob (builds without room for one pass `None` and refuse
-/// blobs); `model` holds the prepared gas model (statics, so that they
-/// count as static RAM and not as stack).
-///
-/// The start is split in steps that each return before the next begins
-/// (preparing the model needs about 10 KiB of stack on a Cortex-M0, the
-/// running gauge keeps about 5 KiB on it): the deepest stack is the larger
-/// of the two, not their sum — which is what lets the gauge run in the
-/// 16 KiB of a `microbit`.
-pub fn run<B: Board>(
-    board: B,
-    model_buffer: Option<&'static mut TableBuf>,
-    model: &'static mut MaybeUninit<DeviceModel<'static>>,
-    gauge: &'static mut Option<Gauge<'static, B::Flash>>,
-) -> ! {
+/// Runs the gauge on `board` for ever; `gauge` is its place (a static, so
+/// that it counts as static RAM and is never copied on the stack).
+pub fn run<B: Board>(board: B, gauge: &'static mut Option<BoardGauge<B>>) -> ! {
     let mut p = board.split();
     let boot = p.system.boot_report();
     let layout = match B::layout(&p.flash) {
@@ -70,8 +74,6 @@ pub fn run<B: Board>(
         // A layout that does not fit is a fault of the board definition.
         Err(_) => p.system.restart(ResetReason::HardFault),
     };
-    let loadable = model_buffer.is_some();
-    let model = prepare::<B>(&mut p.flash, &layout, model_buffer, model);
     let Parts {
         mut serial,
         flash,
@@ -81,15 +83,7 @@ pub fn run<B: Board>(
         mut rng,
         mut system,
     } = p;
-    let gauge = start::<B>(
-        gauge,
-        flash,
-        &mut rng,
-        &mut system,
-        layout,
-        boot,
-        Models { model, loadable },
-    );
+    let gauge = start::<B>(gauge, flash, &mut rng, &mut system, layout, boot);
     watchdog.start();
     {
         let mut io = Io {
@@ -135,73 +129,27 @@ pub fn run<B: Board>(
     }
 }
 
-/// Decodes the committed gas-model blob (when the build can) and prepares
-/// the model of the stored setup's gas.
-#[inline(never)]
-fn prepare<B: Board>(
-    flash: &mut B::Flash,
-    layout: &Layout,
-    buffer: Option<&'static mut TableBuf>,
-    slot: &'static mut MaybeUninit<DeviceModel<'static>>,
-) -> Option<&'static DeviceModel<'static>> {
-    let table: Option<&'static TableBuf> = match buffer {
-        Some(buf) => match decode_loaded_model(flash, layout) {
-            Some(t) => {
-                *buf = t;
-                Some(buf)
-            }
-            None => None,
-        },
-        None => None,
-    };
-    let gas = stored_gas(flash, layout);
-    model_for_in(slot, gas, table, B::builtin)
-}
-
-/// Builds the gauge into its static slot (loading every record): its own
-/// step, so the gauge is never on the stack and the copies made while it is
-/// built are gone before the loop runs.
+/// Builds the gauge into its static slot (the core's start-up sequence):
+/// its own step, so the gauge is never on the stack and the copies made
+/// while it is built are gone before the loop runs.
 #[inline(never)]
 fn start<B: Board>(
-    slot: &'static mut Option<Gauge<'static, B::Flash>>,
+    slot: &'static mut Option<BoardGauge<B>>,
     flash: B::Flash,
     rng: &mut B::Rng,
     system: &mut B::System,
     layout: Layout,
     boot: BootReport,
-    models: Models<'static>,
-) -> &'static mut Gauge<'static, B::Flash> {
-    let (serial, secret) = match system.provisioning() {
-        Some(v) => v,
-        None => {
-            // Not provisioned: a secret nobody knows, so nothing can be
-            // signed; telemetry still flows.
-            let (mut a, mut b) = ([0u8; NONCE_LEN], [0u8; NONCE_LEN]);
-            rng.fill_nonce(&mut a);
-            rng.fill_nonce(&mut b);
-            let mut key = [0u8; 32];
-            for (k, v) in key.iter_mut().zip(a.iter().chain(b.iter())) {
-                *k = *v;
-            }
-            (0, Secret::new(key))
-        }
-    };
-    let identity = Identity {
-        serial,
-        hardware_rev: B::HARDWARE_REV,
-        firmware_version: FIRMWARE_VERSION,
-        protocol: 0,
-        max_frame_len: 0,
-        capabilities: 0,
-    };
-    let auth = Authenticator::new(secret, serial, Policy::default());
-    match Gauge::new_in(
+) -> &'static mut BoardGauge<B> {
+    let provisioning = system.provisioning();
+    match Gauge::start_up(
         slot,
-        identity,
-        auth,
+        provisioning,
+        rng,
+        B::HARDWARE_REV,
         flash,
         layout,
-        models,
+        BoardMap::<B>(PhantomData),
         B::Sensors::INJECTED,
         boot,
     ) {

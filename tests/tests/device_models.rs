@@ -10,7 +10,7 @@ use isochor_core::{Gas, Setup, SetupFx, Status, Tank, fx};
 use isochor_eos::Eos;
 
 /// Bound asserted per gas on the relative density error (fixed and f64),
-/// from the issue's target; measured values are in README ("isochor model
+/// from the issue's target; measured values are in docs/gases.md ("isochor model
 /// check").
 fn bound(_gas: Gas) -> f64 {
     1e-4
@@ -109,7 +109,9 @@ fn density_rises_with_pressure_and_falls_with_temperature() {
 #[test]
 fn sae_j2601_hydrogen_rated_state() {
     // SAE J2601: 40.2 g/L at 70 MPa and 15 °C is the full (100 % state of
-    // charge) condition; 24.0 g/L at 35 MPa. A tank rated 70 MPa at 15 °C
+    // charge) condition; 24.0 g/L at 35 MPa (the 100 % state-of-charge
+    // densities of its H70 and H35 fuelling; edition not checked, from
+    // memory). A tank rated 70 MPa at 15 °C
     // read at 70 MPa and 15 °C is exactly full, in both paths, with the device
     // model; the densities match J2601 to its 0.1 g/L.
     let setup = Setup::new(Gas::Hydrogen, Tank::new(0.1, 700e5));
@@ -139,19 +141,45 @@ fn sae_j2601_hydrogen_rated_state() {
 }
 
 #[test]
-fn liquefiable_gases_flag_two_phase() {
+fn liquefiable_gases_flag_two_phase_and_liquid_full() {
     // Carbon dioxide at 15 °C saturates at 50.9 bar (CoolProp 8.0.0:
     // PropsSI("P","T",288.15,"Q",1,"CO2") = 5.0851e6 Pa); propane at 15 °C at
-    // 7.3 bar (7.3e5 Pa, same source).
+    // 7.3 bar (7.3e5 Pa, same source). Just above the vapour pressure:
+    // two-phase; 1.5 times it (no vapour space left): liquid-full, a flag of
+    // its own (the margin between them is 1/8 of the vapour pressure, see
+    // LIQUID_FULL_MARGIN). The device model in both arithmetics and the
+    // reference equation agree.
+    let reference = |gas| isochor_eos::reference::ReferenceModel::new(gas).unwrap();
     for (gas, p_sat) in [(Gas::CarbonDioxide, 50.85e5), (Gas::Propane, 7.3e5)] {
         let m = DeviceModel::builtin(gas).unwrap();
+        let r = reference(gas);
         let t = fx::Temperature::from_num(288.15);
-        let above = m.z_fx(fx::Pressure::from_num(p_sat * 1.01), t);
-        assert!(above.flags.contains(Status::TWO_PHASE), "{gas}");
-        let below = m.z_fx(fx::Pressure::from_num(p_sat * 0.5), t);
-        assert!(!below.flags.contains(Status::TWO_PHASE), "{gas}");
-        // The estimators refuse a two-phase rated condition.
-        let setup = Setup::new(gas, Tank::new(0.01, p_sat * 1.2));
-        assert!(float::Estimator::new(setup, m.clone()).is_err());
+        let flags = |p: f64| {
+            [
+                m.z_fx(fx::Pressure::from_num(p), t).flags,
+                Compressibility::<f64>::z(&m, p, 288.15).flags,
+                Compressibility::<f64>::z(&r, p, 288.15).flags,
+            ]
+        };
+        for f in flags(p_sat * 1.01) {
+            assert!(f.contains(Status::TWO_PHASE), "{gas}: {f}");
+            assert!(!f.contains(Status::LIQUID_FULL), "{gas}: {f}");
+        }
+        for f in flags(p_sat * 1.5) {
+            assert!(f.contains(Status::LIQUID_FULL), "{gas}: {f}");
+            assert!(!f.contains(Status::TWO_PHASE), "{gas}: {f}");
+            assert!(f.intersects(Status::CONTENT_INVALID));
+        }
+        for f in flags(p_sat * 0.5) {
+            assert!(!f.intersects(Status::CONTENT_INVALID), "{gas}: {f}");
+        }
+        // The estimators refuse a rated condition that is liquid (two-phase
+        // or liquid-full).
+        for k in [1.05, 1.5] {
+            let setup = Setup::new(gas, Tank::new(0.01, p_sat * k));
+            assert!(float::Estimator::new(setup, m.clone()).is_err());
+            let fx_setup = SetupFx::from_f64(&setup).unwrap();
+            assert!(fixed::Estimator::new(fx_setup, m.clone()).is_err());
+        }
     }
 }

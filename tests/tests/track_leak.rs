@@ -7,7 +7,7 @@
 //! Truth: `isochor_tests::synth` (ideal gas, rigid 50 L nitrogen cylinder
 //! rated 200 bar at 15 °C, ±15 K day/night swing with day-to-day weather,
 //! a temperature sensor lagging the wall by 10 min, sensor offsets, gain
-//! error and noise). Run with `-- --nocapture` for the figures in README.
+//! error and noise). Run with `-- --nocapture` for the figures in docs/measured.md.
 
 use isochor_core::alarm::AlarmKind;
 use isochor_core::fx;

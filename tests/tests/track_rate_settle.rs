@@ -1,12 +1,12 @@
 //! Consumption rate, time to empty and thermal settling on synthetic series
 //! with known truth (1 Hz), fixed-point and f64 trackers side by side. Run with
-//! `-- --nocapture` for the figures in README.
+//! `-- --nocapture` for the figures in docs/measured.md.
 
 use isochor_core::alarm::AlarmKind;
-use isochor_core::fx;
 use isochor_core::model::Ideal;
 use isochor_core::track::float::TrackConfig;
 use isochor_core::uncertainty::float::UncertaintyConfig;
+use isochor_core::{Status, fx};
 use isochor_tests::synth::{Fill, HOUR_MS, Scenario, rated_mass};
 use isochor_tests::tracking::{RateScore, run, tank_of};
 
@@ -122,7 +122,17 @@ fn settling_after_a_fast_fill_is_flagged_and_predicted() {
     let mut worst_pred_p = 0.0f64;
     let mut worst_raw = 0.0f64;
     let mut first_pred = None;
+    // Largest content error of a sample that does not say `not_settled`,
+    // from the fill's start to 20 min after its end.
+    let mut worst_unflagged = 0.0f64;
     let agree = run(&sc, &cfg, |s, a, _| {
+        if (fill_at..fill_end + 20 * 60_000).contains(&s.t_ms)
+            && !a.status.contains(Status::NOT_SETTLED)
+            && let Some(c) = a.content
+        {
+            let e = (fx::to_f64(c.fill_fraction) - s.mass_kg / m_rated).abs();
+            worst_unflagged = worst_unflagged.max(e);
+        }
         if s.t_ms < fill_end || s.t_ms % 60_000 != 0 {
             return;
         }
@@ -155,16 +165,22 @@ fn settling_after_a_fast_fill_is_flagged_and_predicted() {
         .map(|e| e.at.0)
         .expect("not_settled cleared");
     println!(
-        "fast fill 10→100 % in 5 min, +30 K, τ 30 min: not_settled raised {:.0} min after the fill started, cleared {:.0} min after it ended; first prediction {:.0} min after; apparent content error up to {:.2} % of rated in the first 20 min, predicted settled content error up to {:.2} %, predicted settled pressure error up to {:.2} %; {}",
-        (raised - fill_at) as f64 / 60_000.0,
+        "fast fill 10→100 % in 5 min, +30 K, τ 30 min: not_settled raised {:.0} s after the fill started, cleared {:.0} min after it ended; first prediction {:.0} min after; apparent content error up to {:.2} % of rated in the first 20 min ({:.3} % while not flagged), predicted settled content error up to {:.2} %, predicted settled pressure error up to {:.2} %; {}",
+        (raised - fill_at) as f64 / 1000.0,
         (cleared - fill_end) as f64 / 60_000.0,
         (first_pred.unwrap_or(0).saturating_sub(fill_end)) as f64 / 60_000.0,
         worst_raw * 100.0,
+        worst_unflagged * 100.0,
         worst_pred * 100.0,
         worst_pred_p * 100.0,
         agree.summary()
     );
-    assert!(raised <= fill_at + 2 * 60_000, "raised late");
+    // From the first samples of the fill (the smoothed fill fraction passes
+    // the 0.5 % settle step within a few seconds at 0.3 %/s), not at the end
+    // of its block; no sample that is not flagged is off by more than the
+    // settle step and the noise.
+    assert!(raised <= fill_at + 10_000, "raised late: {raised}");
+    assert!(worst_unflagged < 0.01, "unflagged error {worst_unflagged}");
     // 3τ after the last fast block, at a block boundary.
     assert!(
         cleared <= fill_end + 3 * 1800 * 1000 + 2 * 60_000,

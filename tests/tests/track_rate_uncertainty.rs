@@ -20,7 +20,7 @@
 //!   (smoothing longer than a block), where the uncorrected least-squares
 //!   standard error is shown to fall short.
 //!
-//! Run with `-- --nocapture` for the figures in README.
+//! Run with `-- --nocapture` for the figures in docs/measured.md.
 
 use isochor_core::Tank;
 use isochor_core::fx;

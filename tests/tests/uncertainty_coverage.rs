@@ -59,7 +59,7 @@ fn k2_intervals_cover_at_least_95_percent_of_readings() {
             let cf = est_f.estimate(fx::to_f64(pf), fx::to_f64(tf)).unwrap();
             let u = ev_f.evaluate(&cf);
             let cx = est_fx.estimate(pf, tf);
-            let ux = ev_fx.evaluate(&cx);
+            let ux = ev_fx.evaluate(&est_fx.with_slopes(&cx));
             n += 1;
             let f_true = m_true / m_rated_true;
             in_m += ((cf.mass_kg - m_true).abs() <= u.mass_kg) as u64;
@@ -186,7 +186,7 @@ fn sensitivities_match_finite_differences_and_fixed_matches_f64() {
             // and e·T are below 5e-3 here).
             worst_c = worst_c.max((u.c_p - cp).abs()).max((u.c_t - ct).abs());
             let cx = est_fx.estimate(fx::Pressure::from_num(p), fx::Temperature::from_num(t));
-            let ux = ev_fx.evaluate(&cx);
+            let ux = ev_fx.evaluate(&est_fx.with_slopes(&cx));
             worst_fx = worst_fx
                 .max((fx::to_f64(ux.mass_kg) / u.mass_kg - 1.0).abs())
                 .max((fx::to_f64(ux.fill_fraction) / u.fill_fraction - 1.0).abs())

@@ -55,17 +55,17 @@ impl LimitsFx {
     /// device, from the stored tank): low content 10 % or 1 h, hysteresis
     /// 1 %, over-fill 1.02 × rated content, pressure at most
     /// p_atm + 1.25·(p_rated − p_atm) with a 1 % band, temperature −40 …
-    /// +65 °C with 2 K. Equal to the float limits converted, within one unit
+    /// +50 °C with 2 K. Equal to the float limits converted, within one unit
     /// of the last place.
     pub fn for_tank(tank: &TankFx) -> LimitsFx {
         // Fraction (U32F32) bits: 0.10, 0.01, 1.02 rounded to nearest.
         const LOW: u64 = 429_496_730;
         const HYST: u64 = 42_949_673;
-        const OVER: u64 = 4_380_866_642;
+        const OVER: u64 = crate::content::OVER_FILL_FRACTION_BITS;
         // 101 325 Pa in Pressure (U28F4) bits.
         const P_ATM: u64 = 1_621_200;
-        // 338.15 K and 233.15 K in Temperature (U16F16) bits, 2 K.
-        const T_MAX: u32 = 22_160_998;
+        // 323.15 K and 233.15 K in Temperature (U16F16) bits, 2 K.
+        const T_MAX: u32 = 21_177_958;
         const T_MIN: u32 = 15_279_718;
         const T_HYST: u32 = 2 << 16;
         let rated = u64::from(tank.rated_pressure_pa.to_bits());

@@ -54,9 +54,20 @@ impl Limits<f64> {
     ///   the marked service pressure (49 CFR 173.301a(c); from memory). The
     ///   service pressure is a gauge pressure, so the limit is
     ///   p_atm + 1.25·(p_rated − p_atm) in absolute terms;
-    /// * temperature between −40 °C and +65 °C: common practice for
-    ///   transportable gas cylinders (design temperature range of ISO 9809
-    ///   steel cylinders from −50 °C, storage below 65 °C; from memory);
+    /// * temperature between −40 °C and +50 °C. The upper limit is the
+    ///   storage limit printed on cylinder labels and in section 7 of gas
+    ///   safety data sheets: 50 °C in European wording ("do not expose to
+    ///   temperatures exceeding 50 °C"; from memory) and 52 °C (125 °F) in US
+    ///   practice ("Cylinder temperatures should not exceed 125 degrees F",
+    ///   University of New England EHS, compressed gas cylinders,
+    ///   <https://www.une.edu/campus/ehs/laboratory-safety/compressed-gas-cylinders>);
+    ///   the lower of the two is taken. Gases under pressure carry H280
+    ///   ("may explode if heated") and P410 + P403 ("protect from sunlight,
+    ///   store in a well-ventilated place"; Regulation (EC) No 1272/2008,
+    ///   Annex I, table 2.5.2). The lower limit is common practice (design
+    ///   temperature range of ISO 9809 steel cylinders from −50 °C; from
+    ///   memory). Vessels rated for more (vehicle hydrogen tanks: 85 °C)
+    ///   set their own limit;
     /// * low content below 10 % or 1 h to the reserve (common practice).
     pub fn for_tank(tank: &Tank<f64>) -> Limits<f64> {
         let p_atm = STANDARD_ATMOSPHERE_PA;
@@ -64,10 +75,10 @@ impl Limits<f64> {
             low_fraction: 0.10,
             low_time_to_empty: Millis::from_secs(3600),
             fraction_hysteresis: 0.01,
-            over_fill_fraction: 1.02,
+            over_fill_fraction: crate::content::OVER_FILL_FRACTION,
             pressure_max_pa: p_atm + 1.25 * (tank.rated_pressure_pa - p_atm).max(0.0),
             pressure_hysteresis_pa: 0.01 * tank.rated_pressure_pa,
-            temperature_max_k: ZERO_CELSIUS_K + 65.0,
+            temperature_max_k: ZERO_CELSIUS_K + 50.0,
             temperature_min_k: ZERO_CELSIUS_K - 40.0,
             temperature_hysteresis_k: 2.0,
         }

@@ -73,6 +73,21 @@ impl AlarmKind {
         }
     }
 
+    /// The alarm of a wire code (its bit), `None` for codes this version
+    /// does not know.
+    pub const fn from_code(code: u16) -> Option<AlarmKind> {
+        Some(match code {
+            0 => AlarmKind::NotSettled,
+            1 => AlarmKind::Leak,
+            2 => AlarmKind::LowContent,
+            3 => AlarmKind::OverPressure,
+            4 => AlarmKind::OverTemperature,
+            5 => AlarmKind::UnderTemperature,
+            6 => AlarmKind::SensorFault,
+            _ => return None,
+        })
+    }
+
     /// The status flag that mirrors this alarm's active state.
     pub const fn status(self) -> Status {
         Status::from_bits(1 << (16 + self as u32))
@@ -316,7 +331,9 @@ mod tests {
 
     #[test]
     fn kinds_match_status_flags() {
+        assert_eq!(AlarmKind::from_code(AlarmKind::ALL.len() as u16), None);
         for k in AlarmKind::ALL {
+            assert_eq!(AlarmKind::from_code(k as u16), Some(k));
             assert_eq!(Status::from_name(k.name()), Some(k.status()), "{k:?}");
             assert!(Status::TRACKING_RANGE.contains(k.status()));
             assert_eq!(k.set().status(), k.status());

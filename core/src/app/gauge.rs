@@ -1,39 +1,30 @@
-//! The gauge: records, link, pipeline and outputs around one flash.
+//! The gauge: the service, the pipeline and the link around one flash.
 
 use embedded_storage::nor_flash::NorFlash;
 
-use super::RawSample;
 use super::fixed::Pipeline;
+use super::service::{LoadStep, Service, config_refusal, refusal};
+use super::{Zero, telemetry};
 use crate::alarm::Events;
 use crate::auth::{Authenticator, NonceSource};
-use crate::link::device::{DeviceActions, Records, Responder};
 use crate::link::{
-    self, Accumulator, AlarmEvent, Boot, BootReport, Diagnostics, Feed, Identity, InjectSample,
-    Kind, MAX_FRAME_LEN, Message, NONCE_LEN, Outcome, Reply, SensorChannel, Telemetry, capability,
+    self, Accumulator, Boot, BootReport, Command, Diagnostics, Feed, FromDevice, Identity,
+    InjectSample, MAX_FRAME_LEN, NONCE_LEN, Outcome, Refusal, Reply, SensorChannel, Signed,
+    ToDevice, capability,
 };
-use crate::model::CompressibilityFx;
-use crate::model::device::{DeviceModel, Table, TableBuf};
-use crate::sensor::calibration::CalibrationRecord;
-use crate::store::{
-    AlarmThresholds, Layout, PressureCalibration, RecordKind, TrackingSettings, track_config,
-};
+use crate::prepared::Prepared;
+use crate::sensor::channel::RawSample;
+use crate::store::{BlobRef, Layout};
 use crate::time::Instant;
 use crate::track::fixed::TrackFx;
-use crate::{Error, Gas, Status, fx};
-
-/// The firmware version the application reports when the firmware gives
-/// none of its own (major, minor, patch of `isochor-core`).
-pub const FIRMWARE_VERSION: [u8; 3] = [0, 1, 0];
-
-/// 273.15 K (0 °C, the ice point) as a calibration anchor (K at 2^-24).
-const ICE_POINT: i64 = 4_582_696_550;
+use crate::{Error, Status, fx};
 
 /// What the gauge needs from the board while it works.
 pub trait GaugeIo {
     /// Sends one frame (returns once it is queued or sent).
     fn send(&mut self, frame: &[u8]);
-    /// Fills a nonce from the board's random source (see
-    /// [`NonceSource`] for the contract).
+    /// Fills a nonce from the board's random source (see [`NonceSource`]
+    /// for the contract).
     fn fill_nonce(&mut self, out: &mut [u8; NONCE_LEN]);
     /// Deepest stack use so far and the stack size, bytes (0, 0 when the
     /// board does not measure it).
@@ -50,297 +41,171 @@ impl NonceSource for IoNonces<'_> {
     }
 }
 
-/// The gas model a gauge uses, prepared by the firmware at start for the
-/// stored setup's gas ([`model_for`]); a change of gas or of gas model
-/// restarts the gauge so that the next start prepares the new one. Kept
-/// outside the gauge (by reference), which keeps the gauge small: a
-/// prepared model takes 2.7 KiB.
-#[derive(Clone, Copy)]
-pub struct Models<'m> {
-    /// The prepared model, `None` when the build has none for the gas.
-    pub model: Option<&'m DeviceModel<'m>>,
-    /// Gas-model blobs are accepted (the build has room to decode one).
-    pub loadable: bool,
+/// How the gauge reaches the bytes of a stored configuration: a board whose
+/// flash is mapped into memory hands out the slot in place (no RAM), others
+/// copy the blob into RAM.
+pub trait Mapper<F> {
+    /// The bytes handle (a `&'static [u8]` on a device; shared and cheap to
+    /// clone).
+    type Bytes: AsRef<[u8]> + Clone;
+    /// The bytes of the (checked) blob `blob` of `layout` in `flash`;
+    /// `None` when they cannot be had (a blob larger than the RAM kept for
+    /// it).
+    fn map(&mut self, flash: &mut F, layout: &Layout, blob: &BlobRef) -> Option<Self::Bytes>;
 }
 
-/// The model for `gas`: the loaded table when it is of that gas, else the
-/// build's built-in table (`builtin` gives `None` for gases left out).
-#[inline(never)]
-pub fn model_for<'m>(
-    gas: Gas,
-    loaded: Option<&'m TableBuf>,
-    builtin: fn(Gas) -> Option<Table<'static>>,
-) -> Option<DeviceModel<'m>> {
-    if let Some(t) = loaded.filter(|t| t.gas == gas) {
-        return DeviceModel::new(t.table()).ok();
-    }
-    builtin(gas).and_then(|t| DeviceModel::new(t).ok())
-}
-
-/// [`model_for`] straight into `slot`: the prepared model (2.6 KiB on a
-/// Cortex-M0) is not copied through the stack on its way there.
-#[inline(never)]
-pub fn model_for_in<'m>(
-    slot: &'m mut core::mem::MaybeUninit<DeviceModel<'m>>,
-    gas: Gas,
-    loaded: Option<&'m TableBuf>,
-    builtin: fn(Gas) -> Option<Table<'static>>,
-) -> Option<&'m DeviceModel<'m>> {
-    let table = match loaded.filter(|t| t.gas == gas) {
-        Some(t) => t.table(),
-        None => builtin(gas)?,
-    };
-    match DeviceModel::new(table) {
-        Ok(m) => Some(&*slot.write(m)),
-        Err(_) => None,
-    }
-}
-
-/// The stored setup's gas (read before the gauge starts, to prepare its
-/// model).
-pub fn stored_gas<F: NorFlash>(flash: &mut F, layout: &Layout) -> Gas {
-    let s: crate::store::Loaded<crate::SetupFx> = layout.setup.load(flash);
-    s.value.gas
-}
-
-/// The table of the committed gas-model blob, if there is one and it
-/// decodes (a blob that no longer decodes is ignored: the built-in model is
-/// used, and the reference says where it came from).
-#[inline(never)]
-pub fn decode_loaded_model<F: NorFlash>(flash: &mut F, layout: &Layout) -> Option<TableBuf> {
-    let r: crate::store::Loaded<crate::store::GasModelRef> = layout.gas_model_ref.load(flash);
-    if r.value.len == 0 {
-        return None;
-    }
-    layout.blobs.decode_table(flash, &r.value).ok()
-}
-
-/// What the application does between the responder's calls.
-struct App<'m> {
-    models: Models<'m>,
-    injection: bool,
-    pipeline: Option<Pipeline<&'m DeviceModel<'m>>>,
-    pressure_calibration: CalibrationRecord,
-    temperature_calibration: CalibrationRecord,
-    dirty: bool,
-    restart: bool,
-    fault_latched: bool,
-    last_sample_at: Instant,
-    samples: u32,
+/// What the last samples and commands left to send.
+#[derive(Default)]
+struct Pending {
     track: Option<TrackFx>,
     unusable_at: Option<Instant>,
     cleared: Option<Events>,
 }
 
-impl<'m> App<'m> {
-    /// True when the setup's gas needs another model than the one prepared.
-    /// (A gauge that started without a model — its build has none for the
-    /// stored gas — restarts too: the new gas may be one the build has.)
-    fn needs_other_model(&self, r: &Records) -> bool {
-        self.models
-            .model
-            .is_none_or(|m| CompressibilityFx::gas(m) != r.setup.value.gas)
-    }
-
-    /// Prepares the pipeline from the records in use (a new tracker: a
-    /// changed configuration starts the tracking afresh).
-    #[inline(never)]
-    fn rebuild(&mut self, r: &Records) {
-        self.pressure_calibration = r.pressure_calibration.value.0;
-        self.temperature_calibration = r.temperature_calibration.value.0;
-        let setup = r.setup.value;
-        let tracking = if r.tracking.seq.is_some() {
-            r.tracking.value
-        } else {
-            TrackingSettings::for_tank(&setup, r.pressure_calibration.value.full_scale())
-        };
-        let alarms = if r.alarm_thresholds.seq.is_some() {
-            r.alarm_thresholds.value
-        } else {
-            AlarmThresholds::for_tank(&setup)
-        };
-        self.pipeline = None;
-        if let Some(m) = self.models.model {
-            // An unusable configuration leaves `None` (`config_unusable`).
-            let _ = Pipeline::new_in(
-                &mut self.pipeline,
-                setup,
-                m,
-                &self.pressure_calibration,
-                &self.temperature_calibration,
-                track_config(&tracking, &alarms),
-                tracking.barometric_pa,
-            );
-        }
-    }
-
-    #[inline(never)]
-    fn take(&mut self, at: Instant, raw: &RawSample) {
-        self.samples = self.samples.wrapping_add(1);
-        self.last_sample_at = at;
-        match &mut self.pipeline {
-            Some(p) => self.track = Some(p.sample(at, raw)),
-            None => self.unusable_at = Some(at),
-        }
-    }
-}
-
-impl DeviceActions for App<'_> {
-    fn record_changed(&mut self, kind: RecordKind) {
-        if kind == RecordKind::GAS_MODEL_REF {
-            // The new table is decoded at the next start.
-            self.restart = true;
-        } else {
-            self.dirty = true;
-        }
-    }
-
-    fn zero_calibration(&mut self, channel: SensorChannel) -> Result<CalibrationRecord, Error> {
-        let p = self
-            .pipeline
-            .as_ref()
-            .ok_or(Error::OutOfRange("configuration"))?;
-        let r = p.last_valid().ok_or(Error::OutOfRange("present reading"))?;
-        let baro = p.barometric();
-        match channel {
-            SensorChannel::Pressure => super::rezero(
-                &self.pressure_calibration,
-                i64::from(r.pressure.pressure_pa.to_bits()) << 20,
-                i64::from(baro.to_bits()) << 20,
-                baro,
-            ),
-            SensorChannel::Temperature => super::rezero(
-                &self.temperature_calibration,
-                i64::from(r.temperature.temperature_k.to_bits()) << 8,
-                ICE_POINT,
-                baro,
-            ),
-        }
-    }
-
-    fn clear_alarms(&mut self) {
-        self.fault_latched = false;
-        let at = self.last_sample_at;
-        if let Some(p) = &mut self.pipeline {
-            self.cleared = Some(p.tracker_mut().clear_alarms(at));
-        }
-    }
-
-    fn reboot_after_reply(&mut self) {
-        self.restart = true;
-    }
-
-    fn inject(&mut self, sample: &InjectSample) -> Result<(), Error> {
-        if !self.injection {
-            return Err(Error::UnknownKind(Kind::InjectSample.code()));
-        }
-        let raw = RawSample::from_codes(&sample.codes)?;
-        self.take(Instant(sample.at_ms), &raw);
-        Ok(())
-    }
-}
-
 /// The gauge application over one flash (see the [module](super)
 /// documentation).
-pub struct Gauge<'m, F> {
-    responder: Responder<F>,
-    app: App<'m>,
-    acc: Accumulator,
+pub struct Gauge<F, M: Mapper<F>> {
+    service: Service<F>,
+    mapper: M,
+    pipeline: Option<Pipeline<M::Bytes>>,
+    acc: Accumulator<ToDevice>,
+    injection: bool,
     now: Instant,
     boot: BootReport,
+    restart: bool,
+    fault_latched: bool,
+    last_sample_at: Instant,
     frames: u32,
     bad_frames: u32,
+    samples: u32,
     telemetry_seq: u32,
     event_seq: u32,
+    pending: Pending,
 }
 
-impl<'m, F: NorFlash> Gauge<'m, F> {
-    /// Starts the application: loads the records from `flash` (see
-    /// [`Responder::new`]) and prepares the pipeline. `identity` gets the
-    /// capabilities of this application; `injection` makes the gauge take
-    /// its samples from [`InjectSample`] messages (emulation, bench rigs).
-    #[inline(never)]
-    pub fn new(
-        identity: Identity,
-        auth: Authenticator,
-        flash: F,
-        layout: Layout,
-        models: Models<'m>,
-        injection: bool,
-        boot: BootReport,
-    ) -> Result<Gauge<'m, F>, Error> {
-        let mut slot = None;
-        Gauge::new_in(
-            &mut slot, identity, auth, flash, layout, models, injection, boot,
-        )?;
-        slot.ok_or(Error::OutOfRange("gauge"))
-    }
-
-    /// [`Gauge::new`] straight into `slot` (a static on a device): the
-    /// gauge (4.4 KiB on a Cortex-M0) is not copied through the stack.
+impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
+    /// Starts the application straight into `slot` (a static on a device:
+    /// the gauge is never on the stack): loads the configuration reference
+    /// from `flash` and prepares the pipeline of the configuration in
+    /// force. `identity` gets the capabilities of this build; `injection`
+    /// makes the gauge take its samples from [`InjectSample`] messages
+    /// (emulation, bench rigs).
     #[inline(never)]
     #[allow(clippy::too_many_arguments)]
-    pub fn new_in<'s>(
-        slot: &'s mut Option<Gauge<'m, F>>,
+    pub fn new_in(
+        slot: &mut Option<Gauge<F, M>>,
         mut identity: Identity,
         auth: Authenticator,
         flash: F,
         layout: Layout,
-        models: Models<'m>,
+        mapper: M,
         injection: bool,
         boot: BootReport,
-    ) -> Result<&'s mut Gauge<'m, F>, Error> {
+    ) -> Result<&mut Gauge<F, M>, Error> {
         identity.capabilities = capability::TELEMETRY
             | capability::SIGNED_CONFIG
             | capability::ALARMS
             | capability::DIAGNOSTICS
-            | if models.loadable {
-                capability::GAS_MODEL_LOAD
-            } else {
-                0
-            }
+            | capability::TRACKING
+            | capability::UNCERTAINTY
             | if injection {
                 capability::SAMPLE_INJECTION
             } else {
                 0
             };
-        let mut responder = Responder::new(identity, auth, flash, layout)?;
-        responder.set_model_loading(models.loadable);
-        let app = App {
-            models,
-            injection,
+        let service = Service::new(identity, auth, flash, layout)?;
+        let g = slot.insert(Gauge {
+            service,
+            mapper,
             pipeline: None,
-            pressure_calibration: PressureCalibration::nominal().0,
-            temperature_calibration: crate::store::TemperatureCalibration::nominal().0,
-            dirty: false,
-            restart: false,
-            fault_latched: boot.reason.is_fault(),
-            last_sample_at: Instant(0),
-            samples: 0,
-            track: None,
-            unusable_at: None,
-            cleared: None,
-        };
-        Ok(slot.insert(Gauge {
-            responder,
-            app,
             acc: Accumulator::new(),
+            injection,
             now: Instant(0),
+            fault_latched: boot.reason.is_fault(),
             boot,
+            restart: false,
+            last_sample_at: Instant(0),
             frames: 0,
             bad_frames: 0,
+            samples: 0,
             telemetry_seq: 0,
             event_seq: 0,
-        }))
+            pending: Pending::default(),
+        });
+        let blob = g.service.config().value.blob;
+        let _ = g.rebuild(&blob);
+        Ok(g)
     }
 
-    /// Prepares the pipeline from the stored records and announces the
-    /// start: one [`Boot`] message.
+    /// The start-up sequence of every device (the firmware's and the host's
+    /// emulated one): the identity of this application (its version,
+    /// `hardware_rev`, the serial of `provisioning`), the authenticator
+    /// over the provisioned secret — or, for a device never provisioned, a
+    /// random secret nobody knows, so that it answers no signed command
+    /// while telemetry still flows — then [`Gauge::new_in`].
+    #[inline(never)]
+    #[allow(clippy::too_many_arguments)]
+    pub fn start_up<'s>(
+        slot: &'s mut Option<Gauge<F, M>>,
+        provisioning: Option<(u64, crate::auth::Secret)>,
+        rng: &mut dyn NonceSource,
+        hardware_rev: u16,
+        flash: F,
+        layout: Layout,
+        mapper: M,
+        injection: bool,
+        boot: BootReport,
+    ) -> Result<&'s mut Gauge<F, M>, Error> {
+        let (serial, secret) = match provisioning {
+            Some(v) => v,
+            None => {
+                let (mut a, mut b) = ([0u8; NONCE_LEN], [0u8; NONCE_LEN]);
+                rng.fill_nonce(&mut a);
+                rng.fill_nonce(&mut b);
+                let mut key = [0u8; 32];
+                for (k, v) in key.iter_mut().zip(a.iter().chain(b.iter())) {
+                    *k = *v;
+                }
+                (0, crate::auth::Secret::new(key))
+            }
+        };
+        let identity = Identity {
+            serial,
+            hardware_rev,
+            firmware_version: super::VERSION,
+            protocol: 0,
+            max_frame_len: 0,
+            capabilities: 0,
+            config_capacity: 0,
+        };
+        let auth = Authenticator::new(secret, serial, crate::auth::Policy::default());
+        Gauge::new_in(slot, identity, auth, flash, layout, mapper, injection, boot)
+    }
+
+    /// Prepares the pipeline of the configuration `blob` with the zero
+    /// offsets in force (none on failure: the gauge then reports
+    /// `config_unusable`).
+    #[inline(never)]
+    fn rebuild(&mut self, blob: &BlobRef) -> Result<(), Error> {
+        self.pipeline = None;
+        if blob.len == 0 {
+            return Ok(());
+        }
+        let zero = self.service.zero();
+        let (flash, layout) = self.service.flash_and_layout();
+        let bytes = self
+            .mapper
+            .map(flash, layout, blob)
+            .ok_or(Error::RecordTooLarge)?;
+        let prepared = Prepared::new(bytes)?;
+        Pipeline::new_in(&mut self.pipeline, prepared, zero)
+    }
+
+    /// Announces the start: one [`Boot`] message.
     #[inline(never)]
     pub fn start(&mut self, io: &mut dyn GaugeIo) {
-        self.app.rebuild(self.responder.records());
-        let id = self.responder.identity();
-        let msg = Message::Boot(Boot {
+        let id = self.service.identity();
+        let msg = FromDevice::Boot(Boot {
             serial: id.serial,
             firmware_version: id.firmware_version,
             report: self.boot.clone(),
@@ -350,55 +215,22 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
 
     /// Takes bytes from the link at the board's time `now`: every complete
     /// frame is answered (and injected samples are taken and reported).
-    ///
-    /// A changed configuration is applied after the frame that changed it
-    /// and before the next one, at this level: the decoding frames are gone
-    /// from the stack while the pipeline is prepared (what lets the gauge
-    /// run in the 16 KiB of RAM of a Cortex-M0 board).
     #[inline(never)]
     pub fn receive(&mut self, now: Instant, bytes: &[u8], io: &mut dyn GaugeIo) {
         self.now = now;
         let mut rest = bytes;
-        while !rest.is_empty() {
-            let (taken, r) = self.next_frame(rest, io);
-            rest = r;
-            self.apply_changes();
-            if !taken || self.app.restart {
-                // Nothing more is taken once a restart is due.
-                break;
-            }
-        }
-    }
-
-    /// Takes the next frame (if `bytes` complete one) and answers it;
-    /// returns whether a frame or a damaged one was taken and the bytes
-    /// after it.
-    #[inline(never)]
-    fn next_frame<'b>(&mut self, bytes: &'b [u8], io: &mut dyn GaugeIo) -> (bool, &'b [u8]) {
-        match self.acc.feed(bytes) {
-            Feed::NeedMore => (false, &[]),
-            Feed::Frame { message, rest } => {
-                self.frames = self.frames.wrapping_add(1);
-                self.on_message(&message, io);
-                (true, rest)
-            }
-            Feed::BadFrame { rest, .. } | Feed::Overfull { rest } => {
-                self.bad_frames = self.bad_frames.wrapping_add(1);
-                (true, rest)
-            }
-        }
-    }
-
-    /// Applies a changed configuration: a new pipeline, or a restart when
-    /// the gas needs another model.
-    fn apply_changes(&mut self) {
-        if self.app.dirty {
-            self.app.dirty = false;
-            if self.app.needs_other_model(self.responder.records()) {
-                // Another gas: the next start prepares its model.
-                self.app.restart = true;
-            } else {
-                self.app.rebuild(self.responder.records());
+        while !rest.is_empty() && !self.restart {
+            match self.acc.feed(rest) {
+                Feed::NeedMore => break,
+                Feed::Frame { message, rest: r } => {
+                    self.frames = self.frames.wrapping_add(1);
+                    rest = r;
+                    self.on_message(&message, io);
+                }
+                Feed::BadFrame { rest: r, .. } | Feed::Overfull { rest: r } => {
+                    self.bad_frames = self.bad_frames.wrapping_add(1);
+                    rest = r;
+                }
             }
         }
     }
@@ -407,48 +239,199 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
     /// sends its telemetry and alarm frames.
     #[inline(never)]
     pub fn sample(&mut self, at: Instant, raw: &RawSample, io: &mut dyn GaugeIo) {
-        self.app.take(at, raw);
+        self.take(at, raw);
         self.flush(io);
     }
 
+    fn take(&mut self, at: Instant, raw: &RawSample) {
+        self.samples = self.samples.wrapping_add(1);
+        self.last_sample_at = at;
+        match &mut self.pipeline {
+            Some(p) => self.pending.track = Some(p.sample(at, raw)),
+            None => self.pending.unusable_at = Some(at),
+        }
+    }
+
     #[inline(never)]
-    fn on_message(&mut self, msg: &Message, io: &mut dyn GaugeIo) {
-        if let Message::GetDiagnostics(g) = msg {
-            let (peak, size) = io.stack_usage();
-            let d = Diagnostics {
-                uptime_ms: self.now.as_millis(),
-                boot: self.boot.clone(),
-                stack_peak_bytes: peak,
-                stack_size_bytes: size,
-                frames: self.frames,
-                bad_frames: self.bad_frames,
-                samples: self.app.samples,
-            };
-            let reply = Message::Reply(Reply {
-                tag: g.tag,
-                outcome: Outcome::Diagnostics(d),
-            });
-            send(io, &reply);
-            return;
-        }
-        let reply = {
-            let mut nonces = IoNonces(io);
-            self.responder
-                .handle(self.now, msg, &mut nonces, &mut self.app)
+    fn on_message(&mut self, msg: &ToDevice, io: &mut dyn GaugeIo) {
+        let (tag, outcome) = match msg {
+            ToDevice::Ping(p) => (p.tag, Outcome::Pong { token: p.token }),
+            ToDevice::GetIdentity(g) => (g.tag, Outcome::Identity(self.service.identity().clone())),
+            ToDevice::GetChallenge(g) => {
+                let now = self.now;
+                let r = self.service.challenge(now, &mut IoNonces(io));
+                let valid_ms = self.service.auth_mut().policy().session_ms;
+                (
+                    g.tag,
+                    match r {
+                        Ok(nonce) => Outcome::Challenge { nonce, valid_ms },
+                        Err(e) => Outcome::Refused(refusal(e)),
+                    },
+                )
+            }
+            ToDevice::ReadConfig(r) => (
+                r.tag,
+                match self.service.read_config(r.offset) {
+                    Ok(part) => Outcome::ConfigPart(part),
+                    Err(e) => Outcome::Refused(refusal(e)),
+                },
+            ),
+            ToDevice::Signed(s) => (s.tag, self.signed(s)),
+            ToDevice::InjectSample(i) => (i.tag, self.inject(i)),
+            ToDevice::GetDiagnostics(g) => {
+                let (peak, size) = io.stack_usage();
+                (
+                    g.tag,
+                    Outcome::Diagnostics(Diagnostics {
+                        uptime_ms: self.now.as_millis(),
+                        boot: self.boot.clone(),
+                        stack_peak_bytes: peak,
+                        stack_size_bytes: size,
+                        frames: self.frames,
+                        bad_frames: self.bad_frames,
+                        samples: self.samples,
+                    }),
+                )
+            }
         };
-        if let Some(r) = reply {
-            send(io, &r);
-        }
+        send(io, &FromDevice::Reply(Reply { tag, outcome }));
         self.flush(io);
+    }
+
+    fn inject(&mut self, i: &InjectSample) -> Outcome {
+        if !self.injection {
+            return Outcome::Refused(Refusal::Unsupported);
+        }
+        let raw = RawSample {
+            pressure: i.pressure,
+            temperature: i.temperature,
+        };
+        self.take(Instant(i.at_ms), &raw);
+        Outcome::Taken
+    }
+
+    #[inline(never)]
+    fn signed(&mut self, s: &Signed) -> Outcome {
+        let now = self.now;
+        let verified = match self
+            .service
+            .auth_mut()
+            .verify(now, s.counter, &s.mac, &s.command)
+        {
+            Ok(v) => v,
+            Err(e) => return Outcome::Refused(refusal(e)),
+        };
+        let result = match s.decode_command() {
+            Ok(c) => self.command(&c),
+            Err(e) => Err(refusal(e)),
+        };
+        match result {
+            Ok(()) => Outcome::Done {
+                counter: verified.counter,
+                mac: verified.done_mac,
+            },
+            Err(r) => Outcome::Refused(r),
+        }
+    }
+
+    fn command(&mut self, c: &Command) -> Result<(), Refusal> {
+        match c {
+            Command::ConfigChunk {
+                offset,
+                total_len,
+                blob_crc,
+                bytes,
+            } => self.config_chunk(*offset, *total_len, *blob_crc, bytes),
+            Command::ZeroCalibration { channel } => self.zero(*channel),
+            Command::ClearZero => self.set_zero(Zero::default()),
+            Command::ClearAlarms => {
+                self.fault_latched = false;
+                let at = self.last_sample_at;
+                if let Some(p) = &mut self.pipeline {
+                    self.pending.cleared = Some(p.tracker_mut().clear_alarms(at));
+                }
+                Ok(())
+            }
+            Command::Reboot => {
+                self.service.auth_mut().close_session();
+                self.restart = true;
+                Ok(())
+            }
+        }
+    }
+
+    #[inline(never)]
+    fn config_chunk(
+        &mut self,
+        offset: u32,
+        total_len: u32,
+        blob_crc: u32,
+        bytes: &[u8],
+    ) -> Result<(), Refusal> {
+        let step = self
+            .service
+            .chunk(offset, total_len, blob_crc, bytes)
+            .map_err(refusal)?;
+        let LoadStep::Complete(blob) = step else {
+            return Ok(());
+        };
+        // The blob must be a configuration this gauge can run before it is
+        // committed: format, version, checksum, every array and stage.
+        {
+            let (flash, layout) = self.service.flash_and_layout();
+            let bytes = self
+                .mapper
+                .map(flash, layout, &blob)
+                .ok_or(Refusal::BlobTooLarge)?;
+            Prepared::new(bytes).map_err(config_refusal)?;
+        }
+        let zero = self.service.zero();
+        self.service.commit(blob, zero).map_err(refusal)?;
+        // A new configuration starts its tracking afresh.
+        self.rebuild(&blob).map_err(refusal)
+    }
+
+    fn zero(&mut self, channel: SensorChannel) -> Result<(), Refusal> {
+        let Some(p) = &self.pipeline else {
+            return Err(Refusal::NotAtZero {
+                channel,
+                offset: 0,
+                limit: 0,
+            });
+        };
+        let Some(r) = p.last_valid() else {
+            return Err(Refusal::NotAtZero {
+                channel,
+                offset: 0,
+                limit: 0,
+            });
+        };
+        let z = p.zero().calibrate(
+            channel,
+            r.pressure.pressure_pa,
+            r.temperature.temperature_k,
+            p.barometric(),
+            p.prepared().scalars().zero_pressure_limit,
+        )?;
+        self.set_zero(z)
+    }
+
+    fn set_zero(&mut self, z: Zero) -> Result<(), Refusal> {
+        let blob = self.service.config().value.blob;
+        self.service.commit(blob, z).map_err(refusal)?;
+        if let Some(p) = &mut self.pipeline {
+            p.set_zero(z);
+        }
+        Ok(())
     }
 
     /// Device flags of every telemetry frame.
     fn device_status(&self) -> Status {
-        let mut s = self.responder.status(self.now);
-        if self.app.fault_latched {
+        let mut s = self.service.status(self.now);
+        if self.fault_latched {
             s |= Status::RESTARTED_AFTER_FAULT;
         }
-        if self.app.pipeline.is_none() {
+        if self.pipeline.is_none() {
             s |= Status::CONFIG_UNUSABLE;
         }
         s
@@ -458,25 +441,19 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
     #[inline(never)]
     fn flush(&mut self, io: &mut dyn GaugeIo) {
         let device = self.device_status();
-        if let Some(t) = self.app.track.take() {
-            let tel = Telemetry::from_track(self.telemetry_seq, &t, device);
+        if let Some(t) = self.pending.track.take() {
+            let tel = telemetry::from_track(self.telemetry_seq, &t, device);
             self.telemetry_seq = self.telemetry_seq.wrapping_add(1);
-            send(io, &Message::Telemetry(tel));
-            self.send_events(&t.events, Status::from_bits(tel.status), tel.mass(), io);
+            send(io, &FromDevice::Telemetry(tel));
+            self.send_events(&t.events, tel.status(), tel.mass(), io);
         }
-        if let Some(at) = self.app.unusable_at.take() {
-            let tel = Telemetry {
-                seq: self.telemetry_seq,
-                uptime_ms: at.as_millis(),
-                status: device.bits(),
-                ..Telemetry::default()
-            };
+        if let Some(at) = self.pending.unusable_at.take() {
+            let tel = telemetry::status_only(self.telemetry_seq, at.as_millis(), device);
             self.telemetry_seq = self.telemetry_seq.wrapping_add(1);
-            send(io, &Message::Telemetry(tel));
+            send(io, &FromDevice::Telemetry(tel));
         }
-        if let Some(e) = self.app.cleared.take() {
+        if let Some(e) = self.pending.cleared.take() {
             let mass = self
-                .app
                 .pipeline
                 .as_ref()
                 .and_then(|p| p.tracker().latest_content())
@@ -487,31 +464,26 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
 
     fn send_events(&mut self, e: &Events, status: Status, mass: fx::Mass, io: &mut dyn GaugeIo) {
         for ev in e.iter() {
-            let frame = AlarmEvent::from_event(self.event_seq, &ev, status, mass);
+            let frame = telemetry::alarm_event(self.event_seq, &ev, status, mass);
             self.event_seq = self.event_seq.wrapping_add(1);
-            send(io, &Message::Alarm(frame));
+            send(io, &FromDevice::Alarm(frame));
         }
     }
 
-    /// True once a restart is due (a reboot command, or a new gas model to
-    /// decode): the firmware lets the last frames leave and restarts.
+    /// True once a restart is due (a reboot command): the firmware lets the
+    /// last frames leave and restarts.
     pub fn restart_requested(&self) -> bool {
-        self.app.restart
+        self.restart
     }
 
-    /// Every record in use.
-    pub fn records(&self) -> &Records {
-        self.responder.records()
-    }
-
-    /// The responder (identity, layout, flash).
-    pub fn responder(&self) -> &Responder<F> {
-        &self.responder
+    /// The service (identity, configuration reference, flash).
+    pub fn service(&self) -> &Service<F> {
+        &self.service
     }
 
     /// The pipeline, when the configuration is usable.
-    pub fn pipeline(&self) -> Option<&Pipeline<&'m DeviceModel<'m>>> {
-        self.app.pipeline.as_ref()
+    pub fn pipeline(&self) -> Option<&Pipeline<M::Bytes>> {
+        self.pipeline.as_ref()
     }
 
     /// The device status flags telemetry carries now.
@@ -526,14 +498,14 @@ impl<'m, F: NorFlash> Gauge<'m, F> {
 
     /// Gives the flash back (a restart builds a new gauge from it).
     pub fn into_flash(self) -> F {
-        self.responder.into_flash()
+        self.service.into_flash()
     }
 }
 
 /// Encodes and sends one message (a message that does not encode is a bug
 /// of this crate's size bounds and is dropped).
 #[inline(never)]
-fn send(io: &mut dyn GaugeIo, msg: &Message) {
+fn send(io: &mut dyn GaugeIo, msg: &FromDevice) {
     let mut buf = [0u8; MAX_FRAME_LEN];
     if let Ok(n) = link::encode(msg, &mut buf)
         && let Some(frame) = buf.get(..n)

@@ -1,276 +1,208 @@
 //! The gauge application, without hardware: what the reference firmware
-//! runs, and what the host's emulated device runs too.
+//! runs, and what the host's emulated device and the simulator run too.
 //!
-//! One sample's way: raw converter codes → sensor front-ends and their
-//! calibration corrections ([`fixed::Pipeline::convert`]) → the tracker
-//! (content, rate, time to empty, leak, settling, uncertainty, alarms) →
-//! telemetry and alarm frames ([`Gauge`]). Between samples the gauge answers
-//! the host (records, signed commands, gas-model loads, diagnostics) through
-//! the core's [`Responder`](crate::link::device::Responder).
+//! One sample's way: raw converter codes → the sensor channels of a
+//! prepared configuration (curves and status maps, see
+//! [`crate::sensor::channel`]) → the tracker (content from the prepared
+//! gas model, rate, time to empty, leak, settling, uncertainty, alarms) →
+//! telemetry and alarm frames ([`telemetry`], [`Gauge`]). Between samples
+//! the gauge answers the host ([`service`]: identity, configuration read
+//! back, signed commands: a new prepared configuration, zero calibration,
+//! clearing alarms, restarting).
 //!
 //! Hardware stays outside: the firmware owns the converters, the UART, the
 //! flash driver (any `NorFlash`), the clock, the random source and the
 //! watchdog, and drives the [`Gauge`] with bytes, samples and times. The
-//! host's `EmulatedDevice` drives the same [`Gauge`] over a simulated flash,
-//! so host tests and emulator tests run the same application code.
+//! host's emulated device drives the same [`Gauge`] over a simulated flash,
+//! and the simulator the same [`fixed::Pipeline`]: every path runs the code
+//! that ships.
 //!
-//! The pipeline exists twice with the same steps and names, as every
-//! computation of the crate: [`fixed::Pipeline`] (the device) and
-//! [`float::Pipeline`] (generic over [`Real`](crate::Real); `f64` is the
-//! reference the end-to-end tests compare telemetry with, `f32` and `f64`
-//! are what the firmware budget measures the same algorithm in).
+//! The pipeline exists twice with the same steps and names:
+//! [`fixed::Pipeline`] (the device: a prepared configuration) and
+//! [`float::Pipeline`] (the physical configuration evaluated as written,
+//! generic over [`Real`](crate::Real); `f64` is the reference the tests
+//! compare the device with, `f32` and `f64` are what the firmware budget
+//! measures the same chain in).
 //!
 //! # Steps per sample
 //!
-//! 1. `temperature`: the temperature front-end (RTD or NTC) converts its
-//!    code; the calibration correction follows.
-//! 2. `compensation`: a bridge transducer is compensated at the gas
-//!    temperature (the transducer sits on the vessel); the compensation is
-//!    prepared once per bucket of temperature codes ([`COMPENSATION_BUCKETS`]
-//!    over the converter range, about 0.07 K for the reference board's
-//!    Pt1000) from the bucket's central code, so both paths take the same
-//!    decision from the same integer code; the latest few buckets' are kept
-//!    ([`CompensationCache`]).
-//! 3. `pressure`: the pressure front-end (bridge or 4–20 mA with NAMUR NE 43
-//!    persistence) converts its code with the site's barometric pressure;
-//!    the calibration correction follows.
-//! 4. `track`: the tracker takes pressure, temperature, both channels' flags
-//!    and the sample's time.
+//! 1. `temperature`: the temperature channel converts its code (front-end,
+//!    correction, zero offset).
+//! 2. `compensation`: a bridge transducer is compensated at the sample's
+//!    temperature (the transducer sits on the vessel), or at its reference
+//!    temperature when that reading is not a value.
+//! 3. `pressure`: the pressure channel converts its code (front-end with
+//!    the site's barometric pressure, NE 43 persistence for a loop,
+//!    correction, zero offset).
+//! 4. `plausibility`: where the configuration has them, checks of both
+//!    readings (range, rate of change, stuck value) add their flags.
+//! 5. `track`: the tracker takes pressure, temperature, both channels'
+//!    flags and the sample's time.
 //!
 //! # Zero calibration
 //!
-//! `zero` shifts a channel's correction so that the present reading (the
-//! last valid one, before correction) reads as the reference: the
-//! barometric pressure for the pressure channel (a vented vessel holds gas
-//! at the ambient pressure), 0 °C for the temperature channel (an ice
-//! bath). The correction's constant coefficient absorbs the offset
-//! (`c₀ += δ/(hi − lo)`, an exact shift of every reading); an identity
-//! correction first takes the transducer's range as its interval. The new
-//! record gets the next sequence number and is stored like any record.
+//! A zero calibration takes the present reading (the last valid one) as
+//! the reference value of its channel and keeps the difference as the
+//! channel's zero offset, added to every later reading: the barometric
+//! pressure for the pressure channel (the transducer vented to the
+//! atmosphere), 0 °C for the temperature channel (an ice bath). It is
+//! refused when the present reading, as corrected now or as the front-end
+//! gives it, is farther from the reference than the channel's bound (the
+//! sensor is not at its zero: a pressurised transducer, a sensor out of the
+//! bath), and when there is no valid reading. The bounds: 2 % of the
+//! pressure transducer's span, at least 10 kPa ([`zero_pressure_limit`],
+//! prepared with the configuration), and 2 K ([`ZERO_TEMPERATURE_LIMIT`]).
+//! Zeroing a transducer under pressure would make a full vessel read nearly
+//! empty and blind the over-pressure alarm. Offsets are kept in the store with the
+//! configuration reference and survive new configurations.
 
 pub mod fixed;
 pub mod float;
 mod gauge;
+pub mod service;
+pub mod telemetry;
 
-pub use gauge::{
-    FIRMWARE_VERSION, Gauge, GaugeIo, Models, decode_loaded_model, model_for, model_for_in,
-    stored_gas,
+pub use gauge::{Gauge, GaugeIo, Mapper};
+
+use crate::fx;
+use crate::link::{Refusal, SensorChannel};
+use crate::store::{ZERO_PRESSURE_MAX, ZERO_TEMPERATURE_MAX};
+
+/// The version of this application (its package version), reported by
+/// devices that give none of their own.
+pub const VERSION: [u8; 3] = {
+    const fn num(s: &str) -> u8 {
+        let mut b = s.as_bytes();
+        let mut v = 0u32;
+        while let [d, rest @ ..] = b {
+            v = v * 10 + (*d - b'0') as u32;
+            b = rest;
+        }
+        v as u8
+    }
+    [
+        num(env!("CARGO_PKG_VERSION_MAJOR")),
+        num(env!("CARGO_PKG_VERSION_MINOR")),
+        num(env!("CARGO_PKG_VERSION_PATCH")),
+    ]
 };
 
-use crate::link::{RawCode, SensorChannel};
-use crate::sensor::PressureKind;
-use crate::sensor::calibration::{CalibrationRecord, Correction, SensorConfig};
-use crate::{Error, fx};
+/// The pressure zero bound as a share of the transducer's span: 1/50
+/// (2 %). Common practice, no published source: a healthy industrial
+/// pressure transducer's zero offset stays well inside 2 % of its span (the
+/// total error bands of such transducers are about 0.1–1 % of span; from
+/// memory), so a larger apparent offset means gas pressure on the port, not
+/// a zero error. For a 300 bar transducer the bound is 6 bar.
+pub const ZERO_PRESSURE_SPAN_DIVISOR: u32 = 50;
+/// The smallest pressure zero bound, `fx::Pressure` bits: 10 kPa. The zero
+/// reference is the configured barometric pressure, while the weather moves
+/// the real one by about ±5 kPa around its mean (common practice, from
+/// memory) and a site's altitude may differ from the configured value: a
+/// vented absolute transducer must not be refused for that.
+pub const ZERO_PRESSURE_MIN: u32 = 160_000;
+/// The largest zero correction of the temperature channel accepted,
+/// `fx::Temperature` bits: 2 K around the ice point. IEC 60751 class B
+/// allows ±0.3 K at 0 °C for a platinum resistance thermometer (from
+/// memory) and interchangeable NTC thermistors are sold to about ±0.2…1 K
+/// (common practice); 2 K leaves room for both and for a poorly stirred ice
+/// bath, while a sensor at room temperature (15 K or more away) is refused.
+pub const ZERO_TEMPERATURE_LIMIT: u32 = 131_072;
+/// 0 °C, `fx::Temperature` bits (273.15 × 65 536, rounded).
+const ICE_POINT: i64 = 17_901_158;
 
-/// Buckets of the temperature converter's range in which a bridge
-/// transducer's compensation is prepared once.
-pub const COMPENSATION_BUCKETS: u32 = 1 << 14;
+/// The pressure zero bound of a transducer measuring `span` (`fx::Pressure`
+/// bits, its range's width): [`ZERO_PRESSURE_SPAN_DIVISOR`] of it, at least
+/// [`ZERO_PRESSURE_MIN`], at most what the store keeps
+/// ([`ZERO_PRESSURE_MAX`]). Prepared once per configuration.
+pub const fn zero_pressure_limit(span: u32) -> u32 {
+    let l = span / ZERO_PRESSURE_SPAN_DIVISOR;
+    let l = if l < ZERO_PRESSURE_MIN {
+        ZERO_PRESSURE_MIN
+    } else {
+        l
+    };
+    if l > ZERO_PRESSURE_MAX as u32 {
+        ZERO_PRESSURE_MAX as u32
+    } else {
+        l
+    }
+}
 
-/// One raw sample: the codes as the converters deliver them.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+const _: () = assert!(ZERO_PRESSURE_MIN <= ZERO_PRESSURE_MAX as u32);
+const _: () = assert!(ZERO_TEMPERATURE_LIMIT <= ZERO_TEMPERATURE_MAX as u32);
+
+/// The zero offsets of the two channels, format bits: added to every
+/// corrected reading.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct RawSample {
-    /// Pressure converter code (a bipolar converter's two's-complement code
-    /// in its low `adc_bits` bits).
-    pub pressure: u32,
-    /// Temperature converter code.
-    pub temperature: u32,
+pub struct Zero {
+    /// Pressure, `fx::Pressure` bits.
+    pub pressure: i32,
+    /// Temperature, `fx::Temperature` bits.
+    pub temperature: i32,
 }
 
-impl RawSample {
-    /// The sample of an injected message: exactly one code per channel.
-    pub fn from_codes(codes: &[RawCode]) -> Result<RawSample, Error> {
-        let mut p = None;
-        let mut t = None;
-        for c in codes {
-            let slot = match c.channel {
-                SensorChannel::Pressure => &mut p,
-                SensorChannel::Temperature => &mut t,
-            };
-            if slot.replace(c.code).is_some() {
-                return Err(Error::OutOfRange("sample codes"));
-            }
+impl Zero {
+    /// Both offsets in SI units (Pa, K).
+    pub fn to_f64(self) -> (f64, f64) {
+        (
+            self.pressure as f64 / 16.0,
+            self.temperature as f64 / 65_536.0,
+        )
+    }
+
+    /// The offsets after a zero calibration of `channel` at the present
+    /// corrected readings (`present_pa`, `present_k`, format bits, which
+    /// include the offsets in force), the site's barometric pressure and
+    /// the pressure channel's bound ([`zero_pressure_limit`]).
+    ///
+    /// Refused (with the correction it would take and the bound) unless the
+    /// present reading is within the bound of the reference both as
+    /// corrected now and as the front-end gives it (without the offset in
+    /// force): the new offset replaces the old one, so it is bounded too and
+    /// repeated zeros cannot walk it away.
+    pub fn calibrate(
+        self,
+        channel: SensorChannel,
+        present_pa: fx::Pressure,
+        present_k: fx::Temperature,
+        barometric: fx::Pressure,
+        pressure_limit: u32,
+    ) -> Result<Zero, Refusal> {
+        let (delta, limit, old) = match channel {
+            SensorChannel::Pressure => (
+                i64::from(barometric.to_bits()) - i64::from(present_pa.to_bits()),
+                pressure_limit.min(ZERO_PRESSURE_MAX as u32),
+                self.pressure,
+            ),
+            SensorChannel::Temperature => (
+                ICE_POINT - i64::from(present_k.to_bits()),
+                ZERO_TEMPERATURE_LIMIT,
+                self.temperature,
+            ),
+        };
+        let new = i64::from(old) + delta;
+        let farther = if new.unsigned_abs() > delta.unsigned_abs() {
+            new
+        } else {
+            delta
+        };
+        if farther.unsigned_abs() > u64::from(limit) {
+            return Err(Refusal::NotAtZero {
+                channel,
+                offset: farther,
+                limit,
+            });
         }
-        match (p, t) {
-            (Some(pressure), Some(temperature)) => Ok(RawSample {
-                pressure,
-                temperature,
-            }),
-            _ => Err(Error::OutOfRange("sample codes")),
-        }
+        let mut z = self;
+        // Within the limit, which is within the store's bound.
+        let slot = match channel {
+            SensorChannel::Pressure => &mut z.pressure,
+            SensorChannel::Temperature => &mut z.temperature,
+        };
+        *slot = new.clamp(i64::from(i32::MIN), i64::from(i32::MAX)) as i32;
+        Ok(z)
     }
-}
-
-/// A bipolar converter's code as a signed value (sign taken from bit
-/// `bits − 1`; higher bits ignored); a unipolar code as it is.
-pub fn signed_code(code: u32, bits: u8, bipolar: bool) -> i32 {
-    let bits = u32::from(bits.clamp(8, 24));
-    if bipolar {
-        let shift = 32 - bits;
-        ((code << shift) as i32) >> shift
-    } else {
-        (code & ((1 << bits) - 1)) as i32
-    }
-}
-
-/// Compensations of the latest temperature buckets kept by a pipeline.
-pub const COMPENSATION_CACHE: usize = 4;
-
-/// The bridge compensations of the latest [`COMPENSATION_CACHE`] temperature
-/// buckets, each with its bucket (both paths; no arithmetic). A temperature
-/// whose converter noise dithers across a bucket boundary, or wanders over a
-/// few neighbouring buckets, finds its compensation prepared: the value is
-/// the one [`bucket_code`]'s central code gives, whichever sample prepared
-/// it, so keeping more buckets changes no reading, only how often the
-/// compensation is computed.
-#[derive(Clone, Copy, Debug)]
-pub struct CompensationCache<C> {
-    entries: [Option<(u32, C)>; COMPENSATION_CACHE],
-    /// The entry the next miss replaces (the oldest).
-    next: usize,
-}
-
-impl<C: Copy> CompensationCache<C> {
-    /// An empty cache.
-    pub const fn new() -> Self {
-        CompensationCache {
-            entries: [None; COMPENSATION_CACHE],
-            next: 0,
-        }
-    }
-
-    /// The compensation of `bucket`: kept, or prepared by `make` and kept in
-    /// place of the oldest. An error of `make` is returned and nothing kept.
-    pub fn get_or_try<E>(
-        &mut self,
-        bucket: u32,
-        make: impl FnOnce() -> Result<C, E>,
-    ) -> Result<C, E> {
-        if let Some((_, c)) = self.entries.iter().flatten().find(|(b, _)| *b == bucket) {
-            return Ok(*c);
-        }
-        let c = make()?;
-        if let Some(e) = self.entries.get_mut(self.next) {
-            *e = Some((bucket, c));
-        }
-        self.next = (self.next + 1) % COMPENSATION_CACHE;
-        Ok(c)
-    }
-}
-
-impl<C: Copy> CompensationCache<C> {
-    /// The compensation of `bucket`: kept, or prepared by `make` and kept in
-    /// place of the oldest.
-    pub fn get_or_insert_with(&mut self, bucket: u32, make: impl FnOnce() -> C) -> C {
-        match self.get_or_try(bucket, || Ok::<C, core::convert::Infallible>(make())) {
-            Ok(c) => c,
-            Err(never) => match never {},
-        }
-    }
-}
-
-impl<C: Copy> Default for CompensationCache<C> {
-    fn default() -> Self {
-        Self::new()
-    }
-}
-
-/// The central code of the compensation bucket of a temperature code.
-pub fn bucket_code(code: u32, adc_bits: u8) -> (u32, u32) {
-    let bits = u32::from(adc_bits.clamp(8, 24));
-    let shift = bits.saturating_sub(COMPENSATION_BUCKETS.trailing_zeros());
-    let bucket = code >> shift;
-    let centre = if shift == 0 {
-        code
-    } else {
-        (bucket << shift) | (1 << (shift - 1))
-    };
-    (bucket, centre)
-}
-
-/// Converter bits of a temperature front-end.
-pub(crate) fn temperature_bits(s: &SensorConfig) -> u8 {
-    match s {
-        SensorConfig::Rtd(c) => c.front_end.adc_bits,
-        SensorConfig::Ntc(c) => c.front_end.adc_bits,
-        SensorConfig::Bridge(c) => c.adc_bits,
-        SensorConfig::Loop(c) => c.adc_bits,
-    }
-}
-
-/// The absolute measuring range of a pressure front-end, as calibration
-/// anchors (`Anchor` bits: Pa at 2^-24), with the barometric pressure for
-/// gauge transducers.
-fn pressure_range(s: &SensorConfig, barometric: fx::Pressure) -> Option<(i64, i64)> {
-    let (lo, hi, kind) = match s {
-        SensorConfig::Bridge(b) => (b.range_lo_pa, b.range_hi_pa, b.kind),
-        SensorConfig::Loop(l) => (l.range_lo_pa, l.range_hi_pa, l.kind),
-        _ => return None,
-    };
-    let base = match kind {
-        PressureKind::Absolute => 0,
-        PressureKind::Gauge => i64::from(barometric.to_bits()),
-    };
-    // Pa at 2^-4 → 2^-24.
-    Some((
-        (i64::from(lo.to_bits()) + base) << 20,
-        (i64::from(hi.to_bits()) + base) << 20,
-    ))
-}
-
-/// The measuring range of a temperature front-end, as anchors (K at 2^-24).
-fn temperature_range(s: &SensorConfig) -> Option<(i64, i64)> {
-    let (lo, hi) = match s {
-        SensorConfig::Rtd(c) => (c.range_min_k, c.range_max_k),
-        SensorConfig::Ntc(c) => (c.range_min_k, c.range_max_k),
-        _ => return None,
-    };
-    Some((i64::from(lo.to_bits()) << 8, i64::from(hi.to_bits()) << 8))
-}
-
-/// A calibration re-zeroed: the correction shifted by `target − present`
-/// (both anchors: SI at 2^-24; `present` is the corrected reading now), the
-/// sequence number advanced. Integer arithmetic (one 128-bit division).
-pub fn rezero(
-    record: &CalibrationRecord,
-    present: i64,
-    target: i64,
-    barometric: fx::Pressure,
-) -> Result<CalibrationRecord, Error> {
-    let mut c = record.correction;
-    if c == Correction::IDENTITY {
-        let (lo, hi) = match record.channel {
-            crate::sensor::calibration::Channel::Pressure => {
-                pressure_range(&record.sensor, barometric)
-            }
-            _ => temperature_range(&record.sensor),
-        }
-        .ok_or(Error::OutOfRange("calibration channel"))?;
-        c.lo = fx::Anchor::from_bits(lo);
-        c.hi = fx::Anchor::from_bits(hi);
-    }
-    let span = i128::from(c.hi.to_bits()) - i128::from(c.lo.to_bits());
-    if span <= 0 {
-        return Err(Error::OutOfRange("calibrated interval"));
-    }
-    // δ/(hi − lo) at 2^-48, rounded to nearest.
-    let delta = (i128::from(target) - i128::from(present)) << 48;
-    let half = span / 2;
-    let step = if delta < 0 {
-        (delta - half) / span
-    } else {
-        (delta + half) / span
-    };
-    let [c0, c1, c2, c3] = c.coefficients;
-    let c0 = i128::from(c0.to_bits()) + step;
-    let c0 = i64::try_from(c0).map_err(|_| Error::OutOfRange("correction coefficient"))?;
-    c.coefficients = [fx::Coefficient::from_bits(c0), c1, c2, c3];
-    c.validate()?;
-    Ok(CalibrationRecord {
-        sequence: record.sequence.wrapping_add(1),
-        correction: c,
-        ..*record
-    })
 }
 
 #[cfg(test)]
@@ -278,15 +210,72 @@ mod tests {
     use super::*;
 
     #[test]
-    fn codes_are_signed_and_bucketed() {
-        assert_eq!(signed_code(0x00FF_FFFF, 24, true), -1);
-        assert_eq!(signed_code(0x007F_FFFF, 24, true), 0x7F_FFFF);
-        assert_eq!(signed_code(0xFF80_0000, 24, true), -0x80_0000);
-        assert_eq!(signed_code(0x1234, 16, false), 0x1234);
-        assert_eq!(signed_code(0x1_1234, 16, false), 0x1234);
-        let (b, c) = bucket_code(0x12_3456, 24);
-        assert_eq!(b, 0x12_3456 >> 10);
-        assert_eq!(c, (b << 10) | 512);
-        assert_eq!(bucket_code(300, 12), (300, 300));
+    fn zero_is_taken_near_the_reference_and_refused_far_from_it() {
+        let baro = fx::Pressure::from_num(100_000);
+        let t = fx::Temperature::from_num(273.4);
+        // A 0–300 bar transducer: bound 2 % of 300 bar = 6 bar.
+        let limit = zero_pressure_limit(300e5 as u32 * 16);
+        assert_eq!(limit, 6e5 as u32 * 16);
+        // A 0–10 bar one: 0.2 bar; a 0–1 bar one: the 10 kPa floor.
+        assert_eq!(zero_pressure_limit(10e5 as u32 * 16), 20_000 * 16);
+        assert_eq!(zero_pressure_limit(1e5 as u32 * 16), ZERO_PRESSURE_MIN);
+        // A 0–1000 bar one: 20 bar, more than the store keeps (10 bar).
+        assert_eq!(
+            zero_pressure_limit(1000e5 as u32 * 16),
+            ZERO_PRESSURE_MAX as u32
+        );
+        let p = |pa: f64| fx::Pressure::from_num(pa);
+        let zero = |z: Zero, pa: f64| z.calibrate(SensorChannel::Pressure, p(pa), t, baro, limit);
+        // A vented transducer reading 0.2 bar high: offset −0.2 bar; 5.9
+        // bar high: still taken.
+        assert_eq!(
+            zero(Zero::default(), 120_000.0).unwrap().pressure,
+            -20_000 * 16
+        );
+        assert!(zero(Zero::default(), 690_000.0).is_ok());
+        // A pressurised one (a cylinder at 200 bar): refused, nothing
+        // changes, the correction it would take is reported.
+        assert_eq!(
+            zero(Zero::default(), 200e5),
+            Err(Refusal::NotAtZero {
+                channel: SensorChannel::Pressure,
+                offset: -(200e5 as i64 - 100_000) * 16,
+                limit,
+            })
+        );
+        // Repeated zeros cannot walk the offset away: with −5.5 bar in
+        // force, a reading 1 bar high (6.5 bar high uncorrected) is refused.
+        let walked = Zero {
+            pressure: -550_000 * 16,
+            temperature: 0,
+        };
+        assert!(matches!(
+            zero(walked, 200_000.0),
+            Err(Refusal::NotAtZero { offset, .. }) if offset == -650_000 * 16
+        ));
+        // With −0.5 bar in force, a reading 0.3 bar low is taken: the new
+        // offset is −0.2 bar (it replaces, it does not add up).
+        let z = Zero {
+            pressure: -50_000 * 16,
+            temperature: 0,
+        };
+        assert_eq!(zero(z, 70_000.0).unwrap().pressure, -20_000 * 16);
+        // An ice bath read 0.25 K high: offset −0.25 K.
+        let z = Zero::default()
+            .calibrate(SensorChannel::Temperature, baro, t, baro, limit)
+            .unwrap();
+        assert!((z.temperature as f64 / 65_536.0 + 0.25).abs() < 1e-4);
+        // Room temperature is no ice bath.
+        assert!(
+            Zero::default()
+                .calibrate(
+                    SensorChannel::Temperature,
+                    baro,
+                    fx::Temperature::from_num(293.0),
+                    baro,
+                    limit
+                )
+                .is_err()
+        );
     }
 }

@@ -31,7 +31,11 @@ use hmac::{Hmac, KeyInit, Mac};
 use sha2::Sha256;
 
 use crate::Error;
-use crate::link::{Command, MAC_LEN, NONCE_LEN, Signed};
+/// Length of a device nonce, bytes.
+pub const NONCE_LEN: usize = 16;
+/// Length of an HMAC-SHA-256 tag, bytes.
+pub const MAC_LEN: usize = 32;
+
 use crate::time::{Instant, Millis};
 
 /// Length of the device secret, bytes.
@@ -173,35 +177,22 @@ fn hex_digit(c: Option<u8>) -> Result<u8, Error> {
     }
 }
 
-/// Feeds postcard's serializer straight into a byte sink (no buffer).
-struct SinkFlavor<'a>(&'a mut dyn FnMut(&[u8]));
-
-impl postcard::ser_flavors::Flavor for SinkFlavor<'_> {
-    type Output = ();
-    fn try_push(&mut self, data: u8) -> postcard::Result<()> {
-        (self.0)(core::slice::from_ref(&data));
-        Ok(())
-    }
-    fn finalize(self) -> postcard::Result<()> {
-        Ok(())
-    }
-}
-
 /// The bytes a command signature covers, fed to `sink` piece by piece:
 /// `COMMAND_DOMAIN ‖ serial (u64 LE) ‖ nonce (16) ‖ counter (u32 LE) ‖
-/// postcard(command)`.
+/// command`, where `command` is the command's encoding as it travels (the
+/// link's postcard bytes).
 pub fn command_signing_input(
     serial: u64,
     nonce: &[u8; NONCE_LEN],
     counter: u32,
-    command: &Command,
+    command: &[u8],
     sink: &mut dyn FnMut(&[u8]),
-) -> Result<(), Error> {
+) {
     sink(COMMAND_DOMAIN);
     sink(&serial.to_le_bytes());
     sink(nonce);
     sink(&counter.to_le_bytes());
-    postcard::serialize_with_flavor(command, SinkFlavor(sink)).map_err(|_| Error::MessageBody)
+    sink(command);
 }
 
 fn command_mac(
@@ -209,11 +200,11 @@ fn command_mac(
     serial: u64,
     nonce: &[u8; NONCE_LEN],
     counter: u32,
-    command: &Command,
-) -> Result<HmacSha256, Error> {
+    command: &[u8],
+) -> HmacSha256 {
     let mut mac = secret.mac();
-    command_signing_input(serial, nonce, counter, command, &mut |b| mac.update(b))?;
-    Ok(mac)
+    command_signing_input(serial, nonce, counter, command, &mut |b| mac.update(b));
+    mac
 }
 
 /// The bytes a confirmation signature covers:
@@ -230,18 +221,18 @@ pub fn done_signing_input(
     sink(&counter.to_le_bytes());
 }
 
-/// Signs a command (host side, and the device when it checks).
+/// Signs a command's bytes (host side).
 pub fn sign_command(
     secret: &Secret,
     serial: u64,
     nonce: &[u8; NONCE_LEN],
     counter: u32,
-    command: &Command,
-) -> Result<[u8; MAC_LEN], Error> {
-    Ok(command_mac(secret, serial, nonce, counter, command)?
+    command: &[u8],
+) -> [u8; MAC_LEN] {
+    command_mac(secret, serial, nonce, counter, command)
         .finalize()
         .into_bytes()
-        .into())
+        .into()
 }
 
 /// Signs a confirmation (device side).
@@ -379,9 +370,16 @@ impl Authenticator {
         Ok(nonce)
     }
 
-    /// Checks a signed command at `now`. On success the session moves to the
-    /// next counter; on any failure the session is closed.
-    pub fn verify(&mut self, now: Instant, signed: &Signed) -> Result<Verified, Error> {
+    /// Checks a signed command at `now`: its counter, tag and bytes (as
+    /// they travelled). On success the session moves to the next counter;
+    /// on any failure the session is closed.
+    pub fn verify(
+        &mut self,
+        now: Instant,
+        counter: u32,
+        tag: &[u8; MAC_LEN],
+        command: &[u8],
+    ) -> Result<Verified, Error> {
         if let Some(left) = self.locked_for(now) {
             return Err(Error::LockedOut(left.as_millis()));
         }
@@ -389,18 +387,13 @@ impl Authenticator {
             self.session = None;
             return Err(Error::NoSession);
         };
-        let good = command_mac(
-            &self.secret,
-            self.serial,
-            &session.nonce,
-            signed.counter,
-            &signed.command,
-        )
-        .is_ok_and(|mac| mac.verify_slice(&signed.mac).is_ok());
+        let good = command_mac(&self.secret, self.serial, &session.nonce, counter, command)
+            .verify_slice(tag)
+            .is_ok();
         if !good {
             return Err(self.fail(now, Error::BadSignature));
         }
-        if signed.counter != session.next_counter {
+        if counter != session.next_counter {
             return Err(self.fail(now, Error::Replay));
         }
         self.failures = 0;
@@ -409,8 +402,8 @@ impl Authenticator {
             ..session
         });
         Ok(Verified {
-            counter: signed.counter,
-            done_mac: sign_done(&self.secret, self.serial, &session.nonce, signed.counter),
+            counter,
+            done_mac: sign_done(&self.secret, self.serial, &session.nonce, counter),
         })
     }
 

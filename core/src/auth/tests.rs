@@ -1,5 +1,5 @@
 use super::*;
-use crate::link::{Command, SensorChannel};
+use crate::link::{Command, SensorChannel, Signed};
 
 /// A deterministic nonce source for tests (xorshift64*; not for devices).
 struct TestNonces(u64);
@@ -23,12 +23,19 @@ fn secret() -> Secret {
 }
 
 fn signed(secret: &Secret, nonce: &[u8; NONCE_LEN], counter: u32, command: Command) -> Signed {
+    let bytes = Signed::encode_command(&command).unwrap();
     Signed {
         tag: 1,
         counter,
-        mac: sign_command(secret, SERIAL, nonce, counter, &command).unwrap(),
-        command,
+        mac: sign_command(secret, SERIAL, nonce, counter, &bytes),
+        command: bytes,
     }
+}
+
+/// What a device does with a signed message: its counter, tag and command
+/// bytes to the authenticator.
+fn check(auth: &mut Authenticator, now: Instant, s: &Signed) -> Result<Verified, Error> {
+    auth.verify(now, s.counter, &s.mac, &s.command)
 }
 
 #[test]
@@ -73,23 +80,23 @@ fn good_session_then_replay_and_reorder_rejected() {
     let t0 = Instant(1_000);
     let nonce = auth.challenge(t0, &mut rng).unwrap();
     let first = signed(&secret(), &nonce, 1, Command::ClearAlarms);
-    let v = auth.verify(t0, &first).unwrap();
+    let v = check(&mut auth, t0, &first).unwrap();
     assert_eq!(v.counter, 1);
     assert!(verify_done(&secret(), SERIAL, &nonce, 1, &v.done_mac));
     assert!(!verify_done(&secret(), SERIAL, &nonce, 2, &v.done_mac));
     // Same frame again: the counter is no longer the next one.
-    assert_eq!(auth.verify(t0, &first), Err(Error::Replay));
+    assert_eq!(check(&mut auth, t0, &first), Err(Error::Replay));
     // The session is closed after a failure.
     let second = signed(&secret(), &nonce, 2, Command::Reboot);
-    assert_eq!(auth.verify(t0, &second), Err(Error::NoSession));
+    assert_eq!(check(&mut auth, t0, &second), Err(Error::NoSession));
     // In a new session the old frames carry the wrong nonce.
     let nonce2 = auth.challenge(t0, &mut rng).unwrap();
     assert_ne!(nonce, nonce2);
-    assert_eq!(auth.verify(t0, &first), Err(Error::BadSignature));
+    assert_eq!(check(&mut auth, t0, &first), Err(Error::BadSignature));
     // Skipping ahead is refused too.
     let nonce3 = auth.challenge(t0, &mut rng).unwrap();
     let skip = signed(&secret(), &nonce3, 2, Command::ClearAlarms);
-    assert_eq!(auth.verify(t0, &skip), Err(Error::Replay));
+    assert_eq!(check(&mut auth, t0, &skip), Err(Error::Replay));
 }
 
 #[test]
@@ -101,14 +108,18 @@ fn session_counts_up_and_expires() {
         let cmd = Command::ZeroCalibration {
             channel: SensorChannel::Pressure,
         };
-        auth.verify(
+        check(
+            &mut auth,
             Instant(10 * u64::from(counter)),
             &signed(&secret(), &nonce, counter, cmd),
         )
         .unwrap();
     }
     let late = signed(&secret(), &nonce, 6, Command::ClearAlarms);
-    assert_eq!(auth.verify(Instant(60_000), &late), Err(Error::NoSession));
+    assert_eq!(
+        check(&mut auth, Instant(60_000), &late),
+        Err(Error::NoSession)
+    );
 }
 
 #[test]
@@ -117,23 +128,23 @@ fn altered_command_wrong_secret_or_device_rejected() {
     let mut rng = TestNonces(3);
     let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
     let mut s = signed(&secret(), &nonce, 1, Command::ClearAlarms);
-    s.command = Command::Reboot;
-    assert_eq!(auth.verify(Instant(0), &s), Err(Error::BadSignature));
+    s.command = Signed::encode_command(&Command::Reboot).unwrap();
+    assert_eq!(check(&mut auth, Instant(0), &s), Err(Error::BadSignature));
 
     let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
     let other = Secret::new([8u8; SECRET_LEN]);
     let s = signed(&other, &nonce, 1, Command::ClearAlarms);
-    assert_eq!(auth.verify(Instant(0), &s), Err(Error::BadSignature));
+    assert_eq!(check(&mut auth, Instant(0), &s), Err(Error::BadSignature));
 
     let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
-    let cmd = Command::ClearAlarms;
+    let cmd = Signed::encode_command(&Command::ClearAlarms).unwrap();
     let s = Signed {
         tag: 1,
         counter: 1,
-        mac: sign_command(&secret(), SERIAL + 1, &nonce, 1, &cmd).unwrap(),
+        mac: sign_command(&secret(), SERIAL + 1, &nonce, 1, &cmd),
         command: cmd,
     };
-    assert_eq!(auth.verify(Instant(0), &s), Err(Error::BadSignature));
+    assert_eq!(check(&mut auth, Instant(0), &s), Err(Error::BadSignature));
 }
 
 #[test]
@@ -144,7 +155,7 @@ fn every_single_bit_of_a_signature_matters() {
         let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
         let mut s = signed(&secret(), &nonce, 1, Command::ClearAlarms);
         s.mac[bit / 8] ^= 1 << (bit % 8);
-        assert_eq!(auth.verify(Instant(0), &s), Err(Error::BadSignature));
+        assert_eq!(check(&mut auth, Instant(0), &s), Err(Error::BadSignature));
     }
 }
 
@@ -159,7 +170,7 @@ fn failures_back_off_and_success_resets() {
     for _ in 0..8 {
         let nonce = auth.challenge(now, &mut rng).unwrap();
         let s = signed(&bad_secret, &nonce, 1, Command::ClearAlarms);
-        assert_eq!(auth.verify(now, &s), Err(Error::BadSignature));
+        assert_eq!(check(&mut auth, now, &s), Err(Error::BadSignature));
         match auth.locked_for(now) {
             None => lockouts.push(0),
             Some(left) => {
@@ -176,8 +187,12 @@ fn failures_back_off_and_success_resets() {
     assert_eq!(lockouts, [0, 0, 0, 1_000, 2_000, 4_000, 8_000, 16_000]);
     assert_eq!(auth.failures(), 8);
     let nonce = auth.challenge(now, &mut rng).unwrap();
-    auth.verify(now, &signed(&secret(), &nonce, 1, Command::ClearAlarms))
-        .unwrap();
+    check(
+        &mut auth,
+        now,
+        &signed(&secret(), &nonce, 1, Command::ClearAlarms),
+    )
+    .unwrap();
     assert_eq!(auth.failures(), 0);
     // The back-off is capped.
     let mut auth = Authenticator::new(secret(), SERIAL, policy);
@@ -187,7 +202,11 @@ fn failures_back_off_and_success_resets() {
             now = now + left;
         }
         let nonce = auth.challenge(now, &mut rng).unwrap();
-        let _ = auth.verify(now, &signed(&bad_secret, &nonce, 1, Command::Reboot));
+        let _ = check(
+            &mut auth,
+            now,
+            &signed(&bad_secret, &nonce, 1, Command::Reboot),
+        );
     }
     assert_eq!(
         auth.locked_for(now).map(|m| m.as_millis()),
@@ -200,7 +219,7 @@ fn no_session_costs_nothing() {
     let mut auth = Authenticator::new(secret(), SERIAL, Policy::default());
     let s = signed(&secret(), &[0; NONCE_LEN], 1, Command::Reboot);
     for _ in 0..10 {
-        assert_eq!(auth.verify(Instant(0), &s), Err(Error::NoSession));
+        assert_eq!(check(&mut auth, Instant(0), &s), Err(Error::NoSession));
     }
     assert_eq!(auth.failures(), 0);
 }

@@ -9,19 +9,21 @@
 //! Per sample: one 64/32 division for the density, one 64/64 division per
 //! settled-pressure Newton step, a handful of 32×32→64 multiplies; no float.
 
-use super::{SETTLE_ITERATIONS, SETTLE_SLOPE_MIN};
+use super::{OVER_FILL_FRACTION_BITS, SETTLE_ITERATIONS, SETTLE_SLOPE_MIN};
 use crate::constants::MOLAR_GAS_CONSTANT_J_MOL_K;
 use crate::envelope as env;
 use crate::fx::{self, Coef, mul_i32, mul_u32, sat_u32, shr_round, shr_round_i64};
 use crate::fxmath;
 use crate::model::{CompressibilityFx, IsothermFx, ZPointFx};
+use crate::probe::{self, Stage};
 use crate::{Error, SetupFx, Status};
 
 /// One content estimate, fixed-point form (formats in [`crate::fx`]).
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Content {
-    /// Absolute pressure used, Pa (the sample, clamped to the envelope).
+    /// Absolute pressure used, Pa (the sample, clamped to the envelope; a
+    /// clamped sample's content is not valid, see [`Status::CONTENT_INVALID`]).
     pub pressure_pa: fx::Pressure,
     /// Temperature used, K (the sample, clamped to the envelope).
     pub temperature_k: fx::Temperature,
@@ -38,12 +40,45 @@ pub struct Content {
     pub settled_pressure_pa: fx::Pressure,
     /// Content as a fraction of the rated content (1 = full).
     pub fill_fraction: fx::Fraction,
-    /// The gas model's answer at (p, T): Z and its slopes.
+    /// The gas model's answer at (p, T): Z, and its slopes once
+    /// [`Estimator::with_slopes`] added them (the per-sample estimate leaves
+    /// them zero).
     pub z: ZPointFx,
     /// Vessel volume over water capacity, V/V₀.
     pub vessel_factor: fx::Compressibility,
     /// What the reader must know about these numbers.
     pub status: Status,
+}
+
+/// The prepared constants of an [`Estimator`] (see [`Estimator::parts`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub struct EstimatorParts {
+    /// The setup.
+    pub setup: SetupFx,
+    /// M/R, kg·K/J.
+    pub k: Coef,
+    /// Internal density scale: ρ_int = ρ·2^rho_shift.
+    pub rho_shift: u32,
+    /// Right shift from the density quotient to ρ_int.
+    pub rho_q_shift: i32,
+    /// Elastic expansion per Pa.
+    pub elastic: Coef,
+    /// ρv at the rated condition, internal density scale.
+    pub rho_v_rated: u32,
+    /// Mass per unit ρv.
+    pub mass: Coef,
+    /// Fill fraction per unit ρv.
+    pub fraction: Coef,
+    /// Amount per unit ρv.
+    pub amount: Coef,
+    /// Standard volume per unit ρv.
+    pub standard_volume: Coef,
+    /// τ per unit ρv: R·T_ref/M.
+    pub target: Coef,
+    /// 1/T_ref.
+    pub inv_t_ref: Coef,
+    /// Flags raised while preparing (bits).
+    pub setup_status: u32,
 }
 
 /// Fraction bits of the raw formats used below.
@@ -246,7 +281,7 @@ impl<M: CompressibilityFx> Estimator<M> {
 
         let (p_r, t_r) = (tank.rated_pressure_pa, tank.rated_temperature_k);
         let zr = est.model.z_fx(p_r, t_r);
-        if zr.flags.intersects(Status::NOT_SINGLE_PHASE) {
+        if zr.flags.intersects(Status::CONTENT_INVALID) {
             return Err(Error::ModelUnusable("rated condition"));
         }
         let (rho, _) = est.density(p_r.to_bits(), t_r.to_bits(), zr.z.to_bits());
@@ -259,7 +294,7 @@ impl<M: CompressibilityFx> Estimator<M> {
 
         let std = setup.standard;
         let zs = est.model.z_fx(std.pressure_pa, std.temperature_k);
-        if zs.flags.intersects(Status::NOT_SINGLE_PHASE) {
+        if zs.flags.intersects(Status::CONTENT_INVALID) {
             return Err(Error::ModelUnusable("standard condition"));
         }
         est.standard_volume = amount
@@ -410,6 +445,65 @@ impl<M: CompressibilityFx> Estimator<M> {
         Some((p, tau, m))
     }
 
+    /// `c` with the model's slopes at its pressure and temperature (the
+    /// per-sample estimate carries Z alone).
+    pub fn with_slopes(&self, c: &Content) -> Content {
+        let mut out = *c;
+        out.z = self.model.z_fx(c.pressure_pa, c.temperature_k);
+        out
+    }
+
+    /// The constants this estimator prepared (what a prepared
+    /// configuration carries to a device, see [`Estimator::from_parts`]).
+    pub fn parts(&self) -> EstimatorParts {
+        EstimatorParts {
+            setup: self.setup,
+            k: self.k,
+            rho_shift: self.rho_shift,
+            rho_q_shift: self.rho_q_shift,
+            elastic: self.elastic,
+            rho_v_rated: self.rho_v_rated,
+            mass: self.mass,
+            fraction: self.fraction,
+            amount: self.amount,
+            standard_volume: self.standard_volume,
+            target: self.target,
+            inv_t_ref: self.inv_t_ref,
+            setup_status: self.setup_status.bits(),
+        }
+    }
+
+    /// An estimator from prepared constants and a model (a device's: the
+    /// divisions happened where the constants were prepared). The model
+    /// must be of the setup's gas and should carry the settled-pressure
+    /// curve of this setup ([`CompressibilityFx::settle_fx`]); without it
+    /// the settled pressure is solved at each sample.
+    pub fn from_parts(parts: EstimatorParts, model: M) -> Result<Self, Error> {
+        if model.gas() != parts.setup.gas {
+            return Err(Error::ModelUnusable("gas of the setup"));
+        }
+        if !(8..=31).contains(&parts.rho_shift) || parts.rho_v_rated == 0 {
+            return Err(Error::Malformed("estimator constants"));
+        }
+        Ok(Estimator {
+            setup: parts.setup,
+            model,
+            k: parts.k,
+            rho_shift: parts.rho_shift,
+            rho_q_shift: parts.rho_q_shift,
+            elastic: parts.elastic,
+            rho_v_rated: parts.rho_v_rated,
+            mass: parts.mass,
+            fraction: parts.fraction,
+            amount: parts.amount,
+            standard_volume: parts.standard_volume,
+            target: parts.target,
+            inv_t_ref: parts.inv_t_ref,
+            settle_table: SettleTable::default(),
+            setup_status: Status::from_bits(parts.setup_status),
+        })
+    }
+
     /// The setup this estimator was prepared for.
     pub fn setup(&self) -> &SetupFx {
         &self.setup
@@ -427,21 +521,34 @@ impl<M: CompressibilityFx> Estimator<M> {
     }
 
     /// Estimates the content from an absolute pressure and a gas temperature.
-    /// Never fails: samples outside the envelope are clamped and flagged, and
+    /// Never fails: samples outside the envelope are clamped and flagged (their
+    /// content is not valid: [`Status::CONTENT_INVALID`]), and
     /// outputs that do not fit their format saturate with
     /// [`Status::SATURATED`].
     pub fn estimate(&self, pressure: fx::Pressure, temperature: fx::Temperature) -> Content {
         let (p, t, mut status) = clamp_inputs(pressure, temperature);
         status |= self.setup_status;
 
-        let z = self
+        // Z alone per sample; its slopes are for the uncertainty, which asks
+        // for them when it needs them (`with_slopes`).
+        probe::enter(Stage::Model);
+        let (zv, zflags) = self
             .model
-            .z_fx(fx::Pressure::from_bits(p), fx::Temperature::from_bits(t));
+            .z_value_fx(fx::Pressure::from_bits(p), fx::Temperature::from_bits(t));
+        probe::enter(Stage::Content);
+        let z = ZPointFx {
+            z: zv,
+            dz_dp_per_mpa: fx::ZSlope::ZERO,
+            dz_dt_per_k: fx::ZSlope::ZERO,
+            flags: zflags,
+        };
         status |= z.flags;
         let (density, sat_density) = self.density(p, t, z.z.to_bits());
         let vessel_factor = self.vessel_factor(p, t);
         let (rho_v, sat_rho_v) = mul_q30(density, vessel_factor);
+        probe::enter(Stage::Settle);
         let (settled, settle_status) = self.settle(rho_v, z.z.to_bits());
+        probe::enter(Stage::Content);
         status |= settle_status;
 
         let mut saturated = sat_density || sat_rho_v;
@@ -457,6 +564,7 @@ impl<M: CompressibilityFx> Estimator<M> {
         if saturated {
             status |= Status::SATURATED;
         }
+        status |= over_fill(fill_fraction, status);
 
         Content {
             pressure_pa: fx::Pressure::from_bits(p),
@@ -565,6 +673,13 @@ impl<M: CompressibilityFx> Estimator<M> {
     fn settle(&self, rho_v: u32, z_now: u32) -> (u32, Status) {
         let t_ref = self.setup.settled_reference_k;
         let (tau, over) = self.target.scale(rho_v, self.rho_shift, P_FRAC);
+        // A model prepared with a settled-pressure curve answers at once.
+        if !over
+            && let Ok(tau) = u32::try_from(tau)
+            && let Some(p) = self.model.settle_fx(tau)
+        {
+            return (p, Status::OK);
+        }
         if !over
             && let Ok(tau) = u32::try_from(tau)
             && let Some(p0) = self.settle_table.seed(tau)
@@ -665,7 +780,7 @@ impl<M: CompressibilityFx> Estimator<M> {
         if p == u32::MAX {
             status |= Status::SATURATED;
         }
-        if flags.intersects(Status::NOT_SINGLE_PHASE) {
+        if flags.intersects(Status::CONTENT_INVALID) {
             status |= Status::SETTLED_TWO_PHASE;
         }
         status |= flags & Status::MODEL_OUT_OF_RANGE;
@@ -688,6 +803,18 @@ fn recip(c: Coef) -> Result<Coef, Error> {
 /// `a·b` with `b` in Q30, rounded; the flag is true when it saturated.
 fn mul_q30(a: u32, b: u32) -> (u32, bool) {
     sat_u32((mul_u32(a, b) + (1 << 29)) >> 30)
+}
+
+/// [`Status::OVER_FILL`] when the fill fraction is above
+/// [`super::OVER_FILL_FRACTION`] and the content is valid (`status` so far).
+fn over_fill(fill_fraction: fx::Fraction, status: Status) -> Status {
+    if fill_fraction.to_bits() > OVER_FILL_FRACTION_BITS
+        && !status.intersects(Status::CONTENT_INVALID)
+    {
+        Status::OVER_FILL
+    } else {
+        Status::OK
+    }
 }
 
 /// Limits a sample to the envelope (raw bits) and flags what was clamped.
@@ -840,6 +967,47 @@ mod tests {
         seeds
     }
 
+    /// A 50 L oxygen cylinder rated 200 bar at 15 °C read at 250 bar and
+    /// 15 °C holds about 123 % of its rated content: both paths flag it
+    /// over-filled. At the rated pressure, or at the pressure the rated
+    /// content has at 50 °C (the rated pressure corrected to that
+    /// temperature) plus 1 %, it is not; 4 % above that it is. Liquid is
+    /// never flagged over-filled (its content is not valid).
+    #[test]
+    fn over_fill_on_both_paths() {
+        use crate::model::DeviceModel;
+        let setup = Setup::new(Gas::Oxygen, Tank::new(0.05, 200e5));
+        let m = DeviceModel::builtin(Gas::Oxygen).unwrap();
+        let a = Estimator::new(SetupFx::from_f64(&setup).unwrap(), m.clone()).unwrap();
+        let b = super::super::float::Estimator::new(setup, m).unwrap();
+        let hot = 323.15;
+        let (p_hot, st) = b.pressure_at(1.0, hot);
+        assert!(st.is_ok() && p_hot > 220e5 && p_hot < 240e5, "{p_hot}");
+        for (p, t, over) in [
+            (250e5, 288.15, true),
+            (200e5, 288.15, false),
+            (p_hot * 1.01, hot, false),
+            (p_hot * 1.04, hot, true),
+        ] {
+            let x = a.estimate(fx::Pressure::from_num(p), fx::Temperature::from_num(t));
+            let y = b.estimate(p, t).unwrap();
+            assert_eq!(x.status.contains(Status::OVER_FILL), over, "{p} {t}: {x:?}");
+            assert_eq!(y.status.contains(Status::OVER_FILL), over, "{p} {t}: {y:?}");
+            if p == 250e5 {
+                assert!((y.fill_fraction - 1.23).abs() < 0.01, "{}", y.fill_fraction);
+            }
+        }
+        let co2 = Setup::new(Gas::CarbonDioxide, Tank::new(0.01, 20e5));
+        let m = DeviceModel::builtin(Gas::CarbonDioxide).unwrap();
+        let a = Estimator::new(SetupFx::from_f64(&co2).unwrap(), m).unwrap();
+        let c = a.estimate(
+            fx::Pressure::from_num(150e5),
+            fx::Temperature::from_num(288.15),
+        );
+        assert!(c.status.contains(Status::LIQUID_FULL), "{}", c.status);
+        assert!(!c.status.intersects(Status::OVER_FILL | Status::TWO_PHASE));
+    }
+
     #[test]
     fn zero_pressure_gives_zero_content() {
         let e = est(Gas::Hydrogen);
@@ -856,11 +1024,16 @@ mod tests {
             for p in [0, 1, 1_599_999_999, 1_600_000_000, u32::MAX] {
                 for t in [0, 1, 13_968_997, 27_731_560, u32::MAX] {
                     let c = e.estimate(fx::Pressure::from_bits(p), fx::Temperature::from_bits(t));
+                    let outside = p > 1_600_000_000 || !(13_968_998..=27_731_559).contains(&t);
                     if p > 1_600_000_000 {
                         assert!(c.status.contains(Status::PRESSURE_OUTSIDE_ENVELOPE));
                     }
                     if !(13_968_998..=27_731_559).contains(&t) {
                         assert!(c.status.contains(Status::TEMPERATURE_OUTSIDE_ENVELOPE));
+                    }
+                    // Outside the envelope the content is the edge's: not valid.
+                    if outside {
+                        assert!(c.status.intersects(Status::CONTENT_INVALID));
                     }
                 }
             }

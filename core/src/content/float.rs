@@ -1,7 +1,7 @@
 //! The content estimate in floating point, generic over [`Real`] (`f64` is the
 //! reference the fixed-point path is tested against).
 
-use super::{SETTLE_ITERATIONS, SETTLE_SLOPE_MIN};
+use super::{OVER_FILL_FRACTION, SETTLE_ITERATIONS, SETTLE_SLOPE_MIN};
 use crate::constants::{MOLAR_GAS_CONSTANT_J_MOL_K, STANDARD_ATMOSPHERE_PA};
 use crate::envelope as env;
 use crate::model::{Compressibility, ZPoint};
@@ -10,7 +10,8 @@ use crate::{Error, Real, Setup, Status};
 /// One content estimate, float form. Values are SI.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Content<F = f64> {
-    /// Absolute pressure used, Pa (the sample, clamped to the envelope).
+    /// Absolute pressure used, Pa (the sample, clamped to the envelope; a
+    /// clamped sample's content is not valid, see [`Status::CONTENT_INVALID`]).
     pub pressure_pa: F,
     /// Temperature used, K (the sample, clamped to the envelope).
     pub temperature_k: F,
@@ -87,7 +88,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
 
         let (p_r, t_r) = (tank.rated_pressure_pa, tank.rated_temperature_k);
         let zr = est.model.z(p_r, t_r);
-        if zr.flags.intersects(Status::NOT_SINGLE_PHASE) {
+        if zr.flags.intersects(Status::CONTENT_INVALID) {
             return Err(Error::ModelUnusable("rated condition"));
         }
         est.rho_v_rated = est.density(p_r, t_r, zr.z) * est.vessel_factor(p_r, t_r);
@@ -95,7 +96,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
 
         let std = setup.standard;
         let zs = est.model.z(std.pressure_pa, std.temperature_k);
-        if zs.flags.intersects(Status::NOT_SINGLE_PHASE) {
+        if zs.flags.intersects(Status::CONTENT_INVALID) {
             return Err(Error::ModelUnusable("standard condition"));
         }
         est.standard_volume_per_rho_v =
@@ -121,7 +122,8 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
 
     /// Estimates the content from an absolute pressure (Pa) and a gas
     /// temperature (K). Fails only for NaN or infinite inputs; everything else
-    /// is clamped to the envelope and flagged.
+    /// is clamped to the envelope and flagged (the content of a clamped sample
+    /// is not valid: [`Status::CONTENT_INVALID`]).
     pub fn estimate(&self, pressure_pa: F, temperature_k: F) -> Result<Content<F>, Error> {
         if !pressure_pa.is_finite() {
             return Err(Error::NotFinite("pressure"));
@@ -139,6 +141,8 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
         let rho_v = density * vessel_factor;
         let (settled_pressure_pa, settle_status) = self.settle(rho_v, z.z);
         status |= settle_status;
+        let fill_fraction = rho_v * self.fraction_per_rho_v;
+        status |= over_fill(fill_fraction, status);
 
         Ok(Content {
             pressure_pa: p,
@@ -148,7 +152,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
             amount_mol: rho_v * self.amount_per_rho_v,
             standard_volume_m3: rho_v * self.standard_volume_per_rho_v,
             settled_pressure_pa,
-            fill_fraction: rho_v * self.fraction_per_rho_v,
+            fill_fraction,
             z,
             vessel_factor,
             status,
@@ -194,6 +198,13 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
         self.solve_pressure(target, t, F::ONE)
     }
 
+    /// The settled pressure (Pa) of a content given as τ = ρv·R·T_ref/M
+    /// (Pa): the settled-pressure solver at the reference temperature
+    /// (what a prepared configuration's settled-pressure curve holds).
+    pub fn settled_pressure_of(&self, tau_pa: F) -> (F, Status) {
+        self.solve_pressure(tau_pa, self.setup.settled_reference_k, F::ONE)
+    }
+
     /// Settled pressure for the content ρv, seeded with Z at the sample.
     fn settle(&self, rho_v: F, z_now: F) -> (F, Status) {
         let target = rho_v * self.target_per_rho_v;
@@ -228,7 +239,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
         if p >= p_max {
             status |= Status::SATURATED;
         }
-        if flags.intersects(Status::NOT_SINGLE_PHASE) {
+        if flags.intersects(Status::CONTENT_INVALID) {
             status |= Status::SETTLED_TWO_PHASE;
         }
         status |= flags & Status::MODEL_OUT_OF_RANGE;
@@ -240,6 +251,16 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
 /// format's maximum; both paths clamp there and flag
 /// [`Status::SATURATED`]).
 pub const SETTLED_PRESSURE_MAX_PA: f64 = 268_435_455.937_5;
+
+/// [`Status::OVER_FILL`] when the fill fraction is above
+/// [`OVER_FILL_FRACTION`] and the content is valid (`status` so far).
+fn over_fill<F: Real>(fill_fraction: F, status: Status) -> Status {
+    if fill_fraction > F::lit(OVER_FILL_FRACTION) && !status.intersects(Status::CONTENT_INVALID) {
+        Status::OVER_FILL
+    } else {
+        Status::OK
+    }
+}
 
 /// Limits a sample to the envelope and flags what was clamped.
 fn clamp_inputs<F: Real>(p: F, t: F) -> (F, F, Status) {
@@ -304,6 +325,33 @@ mod tests {
         assert!(c.status.contains(Status::TEMPERATURE_OUTSIDE_ENVELOPE));
         assert_eq!(c.mass_kg, 0.0);
         assert_eq!(c.settled_pressure_pa, 0.0);
+        assert!(c.status.intersects(Status::CONTENT_INVALID));
+    }
+
+    /// 2000 bar is computed at the 1000 bar edge (nothing overflows) and the
+    /// content is marked not valid: the edge is not where the tank is. Inside
+    /// the envelope, the edge itself is valid.
+    #[test]
+    fn outside_envelope_content_is_not_valid() {
+        let e = nitrogen_50l();
+        let edge = e.estimate(env::PRESSURE_MAX_PA, 288.15).unwrap();
+        assert!(!edge.status.intersects(Status::CONTENT_INVALID));
+        let over = e.estimate(2.0 * env::PRESSURE_MAX_PA, 288.15).unwrap();
+        assert_eq!(over.pressure_pa, env::PRESSURE_MAX_PA);
+        assert_eq!(over.mass_kg, edge.mass_kg);
+        assert_eq!(
+            over.status & Status::CONTENT_INVALID,
+            Status::PRESSURE_OUTSIDE_ENVELOPE
+        );
+        for t in [env::TEMPERATURE_MIN_K - 1.0, env::TEMPERATURE_MAX_K + 1.0] {
+            let c = e.estimate(100e5, t).unwrap();
+            assert_eq!(
+                c.status & Status::CONTENT_INVALID,
+                Status::TEMPERATURE_OUTSIDE_ENVELOPE
+            );
+        }
+        // Two-phase stays invalid too.
+        assert!(Status::CONTENT_INVALID.contains(Status::TWO_PHASE));
     }
 
     #[test]

@@ -1,6 +1,8 @@
 //! Receiving frames from a byte stream delivered in pieces of any size.
 
-use super::{MAX_FRAME_LEN, Message, decode_in_place};
+use core::marker::PhantomData;
+
+use super::{MAX_FRAME_LEN, Wire, decode_in_place};
 use crate::Error;
 
 /// Collects bytes until a 0x00 delimiter and decodes the frame it ends.
@@ -9,17 +11,17 @@ use crate::Error;
 /// and the bytes it has not looked at yet, to be fed again:
 ///
 /// ```
-/// use isochor_core::link::{self, Accumulator, Feed, Message, Ping};
+/// use isochor_core::link::{self, Accumulator, Feed, Ping, ToDevice};
 ///
 /// let mut frame = [0u8; link::MAX_FRAME_LEN];
-/// let n = link::encode(&Message::Ping(Ping { tag: 7, token: 42 }), &mut frame).unwrap();
+/// let n = link::encode(&ToDevice::Ping(Ping { tag: 7, token: 42 }), &mut frame).unwrap();
 ///
-/// let mut acc = Accumulator::new();
+/// let mut acc = Accumulator::<ToDevice>::new();
 /// let (first, second) = frame[..n].split_at(3);
 /// assert!(matches!(acc.feed(first), Feed::NeedMore));
 /// match acc.feed(second) {
 ///     Feed::Frame { message, rest } => {
-///         assert_eq!(message, Message::Ping(Ping { tag: 7, token: 42 }));
+///         assert_eq!(message, ToDevice::Ping(Ping { tag: 7, token: 42 }));
 ///         assert!(rest.is_empty());
 ///     }
 ///     other => panic!("{other:?}"),
@@ -29,23 +31,26 @@ use crate::Error;
 /// A frame longer than [`MAX_FRAME_LEN`] cannot be valid: its bytes are
 /// dropped up to its delimiter and reported once as [`Feed::Overfull`]. Empty
 /// frames (0x00 0x00, used to resynchronise a line) are skipped silently.
+/// `M` is the family of messages this end receives ([`super::ToDevice`] on
+/// a device, [`super::FromDevice`] on a host).
 #[derive(Clone, Debug)]
-pub struct Accumulator {
+pub struct Accumulator<M> {
     buf: [u8; MAX_FRAME_LEN],
     len: usize,
     overfull: bool,
+    family: PhantomData<fn() -> M>,
 }
 
 /// The outcome of one [`Accumulator::feed`].
 #[derive(Debug, PartialEq, Eq)]
 #[allow(clippy::large_enum_variant)] // returned by value once per frame, never stored
-pub enum Feed<'a> {
+pub enum Feed<'a, M> {
     /// All input was taken; no frame is complete yet.
     NeedMore,
     /// A frame arrived and decoded.
     Frame {
         /// The message.
-        message: Message,
+        message: M,
         /// Input after the frame's delimiter, not yet looked at.
         rest: &'a [u8],
     },
@@ -64,19 +69,20 @@ pub enum Feed<'a> {
     },
 }
 
-impl Default for Accumulator {
+impl<M: Wire> Default for Accumulator<M> {
     fn default() -> Self {
         Accumulator::new()
     }
 }
 
-impl Accumulator {
+impl<M: Wire> Accumulator<M> {
     /// An empty accumulator.
-    pub const fn new() -> Accumulator {
+    pub const fn new() -> Accumulator<M> {
         Accumulator {
             buf: [0; MAX_FRAME_LEN],
             len: 0,
             overfull: false,
+            family: PhantomData,
         }
     }
 
@@ -92,7 +98,7 @@ impl Accumulator {
     }
 
     /// Takes bytes until a frame ends or the input is used up.
-    pub fn feed<'a>(&mut self, input: &'a [u8]) -> Feed<'a> {
+    pub fn feed<'a>(&mut self, input: &'a [u8]) -> Feed<'a, M> {
         let mut rest = input;
         loop {
             let Some(end) = rest.iter().position(|&b| b == 0) else {

@@ -2,38 +2,36 @@
 //!
 //! Every number is an integer with its unit in the field name; fixed-point
 //! quantities travel as the raw bits of the format named in their doc line
-//! (see [`crate::fx`]), so a reader rebuilds them exactly with
-//! `fx::Mass::from_bits(t.mass_kg)` and friends. postcard encodes integers as
-//! varints, so small values cost few bytes.
+//! (see [`crate::fx`]), and each message has typed accessors that rebuild
+//! them (`t.mass()`, `t.status()`, …): hosts decode a reading in one place.
+//! postcard encodes integers as varints, so small values cost few bytes.
 //!
-//! Direction: [`Identity`], [`Telemetry`], [`AlarmEvent`] and [`Reply`] go from
-//! the device to the host; [`Ping`], [`GetIdentity`], [`GetChallenge`],
-//! [`ReadRecord`], [`Signed`] and [`InjectSample`] from the host to the device.
+//! Direction: [`FromDevice`] messages ([`Boot`], [`Telemetry`],
+//! [`AlarmEvent`], [`Reply`]) go from the device to the host;
+//! [`ToDevice`] messages ([`Ping`], [`GetIdentity`], [`GetChallenge`],
+//! [`ReadConfig`], [`Signed`], [`InjectSample`], [`GetDiagnostics`]) from
+//! the host to the device. A device decodes only the second kind and
+//! encodes only the first.
+//!
+//! This module is a leaf: it depends on the crate's formats and status word
+//! only. The device builds these messages from its pipeline's outputs
+//! ([`crate::app`]).
 
 use heapless::{String, Vec};
 use postcard::experimental::max_size::MaxSize;
 use serde::{Deserialize, Serialize};
 
-use crate::content::fixed::Content;
-use crate::track::fixed::TrackFx;
 use crate::{Status, fx};
 
-/// Largest record body carried by [`ReadRecord`] replies and
-/// [`Command::WriteRecord`], bytes (postcard-encoded record). Set by the
-/// largest record, a sensor calibration with a bridge transducer (195 bytes
-/// with every integer at its longest varint); frames stay within 256 bytes.
-pub const RECORD_MAX_LEN: usize = 196;
-/// Largest piece of a gas-model blob carried by one
-/// [`Command::GasModelChunk`], bytes.
+/// Largest piece of a configuration carried by one [`Command::ConfigChunk`]
+/// or [`ConfigPart`], bytes.
 pub const CHUNK_MAX_LEN: usize = 128;
-/// Longest field name a refusal carries, bytes (longer names are cut).
+/// Longest field name or reason a refusal carries, bytes (longer ones are
+/// cut).
 pub const FIELD_NAME_MAX_LEN: usize = 32;
-/// Length of a device nonce, bytes.
-pub const NONCE_LEN: usize = 16;
-/// Length of an HMAC-SHA-256 tag, bytes.
-pub const MAC_LEN: usize = 32;
-/// Most raw sensor codes in one [`InjectSample`].
-pub const INJECT_MAX_CODES: usize = 4;
+pub use crate::auth::{MAC_LEN, NONCE_LEN};
+/// Longest encoding of a [`Command`], bytes.
+pub const COMMAND_MAX_LEN: usize = <Command as MaxSize>::POSTCARD_MAX_SIZE;
 /// Longest source-file name a fault report carries, bytes (longer names keep
 /// their end).
 pub const FAULT_FILE_MAX_LEN: usize = 48;
@@ -42,10 +40,8 @@ pub const FAULT_FILE_MAX_LEN: usize = 48;
 pub mod capability {
     /// The device sends [`Telemetry`](super::Telemetry) frames.
     pub const TELEMETRY: u32 = 1 << 0;
-    /// The device stores configuration and accepts signed writes.
+    /// The device stores configurations and accepts signed commands.
     pub const SIGNED_CONFIG: u32 = 1 << 1;
-    /// The device accepts gas-model blobs in chunks.
-    pub const GAS_MODEL_LOAD: u32 = 1 << 2;
     /// The device takes its samples from [`InjectSample`](super::InjectSample)
     /// frames (emulated firmware and bench rigs), not from its sensors.
     pub const SAMPLE_INJECTION: u32 = 1 << 3;
@@ -53,6 +49,10 @@ pub mod capability {
     pub const ALARMS: u32 = 1 << 4;
     /// The device answers [`GetDiagnostics`](super::GetDiagnostics).
     pub const DIAGNOSTICS: u32 = 1 << 5;
+    /// The device tracks content over time (rate, time to empty, leak).
+    pub const TRACKING: u32 = 1 << 6;
+    /// The device reports the uncertainty of its content.
+    pub const UNCERTAINTY: u32 = 1 << 7;
 }
 
 /// Who the device is and what it can do (reply to [`GetIdentity`]).
@@ -71,16 +71,16 @@ pub struct Identity {
     pub max_frame_len: u16,
     /// [`capability`] bits.
     pub capabilities: u32,
+    /// Largest prepared configuration the device stores, bytes.
+    pub config_capacity: u32,
 }
 
 /// One estimate, as the device reports it after each sample.
 ///
-/// Content fields come from [`crate::content::fixed::Content`]; rate, time to
-/// empty and uncertainties from the tracking stage
-/// ([`crate::track::fixed::TrackFx`], see [`Telemetry::from_track`]). Values
-/// whose status says they are not valid (see
-/// [`crate::Status::CONTENT_INVALID`]) must not be shown as numbers; `None`
-/// means not known yet (the rate needs a few blocks, the uncertainty one).
+/// Values whose status says they are not valid (see
+/// [`Status::CONTENT_INVALID`]) must not be shown as numbers; `None` means
+/// not known (yet): the rate needs a few blocks, the uncertainty one, and a
+/// device built without tracking or uncertainty never sends them.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct Telemetry {
     /// Estimate counter, +1 per estimate, wraps at 2³².
@@ -103,8 +103,7 @@ pub struct Telemetry {
     /// Fill fraction (1 = rated content): raw bits of `U32F32` ([`fx::Fraction`]).
     pub fill_fraction: u64,
     /// Rate of change of the mass, kg/h, negative while the tank empties:
-    /// raw bits of `I32F32` ([`fx::MassRate`]); `None` until the rate window
-    /// has enough blocks.
+    /// raw bits of `I32F32` ([`fx::MassRate`]).
     pub rate_kg_h: Option<i64>,
     /// Expanded uncertainty (k = 2) of the rate, kg/h: raw bits of `I32F32`
     /// ([`fx::MassRate`], never negative).
@@ -123,74 +122,73 @@ pub struct Telemetry {
     /// Expanded uncertainty of the fill fraction (k = 2): raw bits of
     /// `U32F32` ([`fx::Fraction`]).
     pub fill_fraction_uncertainty: Option<u64>,
-    /// Status word bits ([`crate::Status::bits`]).
+    /// The leak detector's latest loss of content, fraction of the rated
+    /// content per day (positive: content lost): raw bits of `I32F32`
+    /// ([`fx::FractionRate`]); `None` until it has a verdict.
+    pub leak_loss_per_day: Option<i64>,
+    /// Status word bits ([`Status::bits`]): bits 0–7 content and gas
+    /// model, 8–15 sensors, 16–23 tracking and alarms, 24–30 device, 31
+    /// the content flag `condensation_risk` (all content flags that void
+    /// the figures: [`Status::CONTENT_INVALID`]).
     pub status: u32,
 }
 
-/// Whole seconds of a span, saturating at `u32::MAX`.
-fn seconds(ms: crate::time::Millis) -> u32 {
-    u32::try_from(ms.0 / 1000).unwrap_or(u32::MAX)
-}
-
 impl Telemetry {
-    /// A telemetry frame carrying a content estimate alone: rate, time to
-    /// empty and uncertainties unknown.
-    pub fn from_content(seq: u32, uptime_ms: u64, c: &Content) -> Telemetry {
-        Telemetry {
-            seq,
-            uptime_ms,
-            pressure_pa: c.pressure_pa.to_bits(),
-            temperature_k: c.temperature_k.to_bits(),
-            density_kg_m3: c.density_kg_m3.to_bits(),
-            mass_kg: c.mass_kg.to_bits(),
-            standard_volume_m3: c.standard_volume_m3.to_bits(),
-            settled_pressure_pa: c.settled_pressure_pa.to_bits(),
-            fill_fraction: c.fill_fraction.to_bits(),
-            rate_kg_h: None,
-            rate_uncertainty_kg_h: None,
-            time_to_empty_s: None,
-            time_to_empty_earliest_s: None,
-            time_to_empty_latest_s: None,
-            mass_uncertainty_kg: None,
-            fill_fraction_uncertainty: None,
-            status: c.status.bits(),
-        }
+    /// The status word.
+    pub fn status(&self) -> Status {
+        Status::from_bits(self.status)
     }
-
-    /// The telemetry of one tracker output: content, rate (as a change of
-    /// the mass: negative while emptying), time to empty with its bounds,
-    /// uncertainties and the status, with `device` (configuration, storage,
-    /// link flags) added. Before the first usable sample the content fields
-    /// are zero and only the status speaks.
-    pub fn from_track(seq: u32, t: &TrackFx, device: Status) -> Telemetry {
-        let mut out = match &t.content {
-            Some(c) => Telemetry::from_content(seq, t.at.as_millis(), c),
-            None => Telemetry {
-                seq,
-                uptime_ms: t.at.as_millis(),
-                ..Telemetry::default()
-            },
-        };
-        if let Some(r) = &t.rate {
-            out.rate_kg_h = Some(r.kg_h.to_bits().saturating_neg());
-            out.rate_uncertainty_kg_h = Some(r.u_kg_h.to_bits());
-        }
-        if let Some(tte) = &t.time_to_empty {
-            out.time_to_empty_s = Some(seconds(tte.expected));
-            out.time_to_empty_earliest_s = Some(seconds(tte.earliest));
-            out.time_to_empty_latest_s = tte.latest.map(seconds);
-        }
-        if let Some(u) = &t.uncertainty {
-            out.mass_uncertainty_kg = Some(u.mass_kg.to_bits());
-            out.fill_fraction_uncertainty = Some(u.fill_fraction.to_bits());
-        }
-        out.status = (t.status | device).bits();
-        out
+    /// True when the content values may be shown as numbers.
+    pub fn content_valid(&self) -> bool {
+        !self.status().intersects(Status::CONTENT_INVALID)
     }
-
-    /// The mass as its fixed-point type.
+    /// Absolute pressure.
+    pub fn pressure(&self) -> fx::Pressure {
+        fx::Pressure::from_bits(self.pressure_pa)
+    }
+    /// Gas temperature.
+    pub fn temperature(&self) -> fx::Temperature {
+        fx::Temperature::from_bits(self.temperature_k)
+    }
+    /// Density.
+    pub fn density(&self) -> fx::Density {
+        fx::Density::from_bits(self.density_kg_m3)
+    }
+    /// Mass.
     pub fn mass(&self) -> fx::Mass {
         fx::Mass::from_bits(self.mass_kg)
+    }
+    /// Standard volume.
+    pub fn standard_volume(&self) -> fx::Volume {
+        fx::Volume::from_bits(self.standard_volume_m3)
+    }
+    /// Settled pressure.
+    pub fn settled_pressure(&self) -> fx::Pressure {
+        fx::Pressure::from_bits(self.settled_pressure_pa)
+    }
+    /// Fill fraction.
+    pub fn fill_fraction(&self) -> fx::Fraction {
+        fx::Fraction::from_bits(self.fill_fraction)
+    }
+    /// Rate of change of the mass (negative while emptying).
+    pub fn rate(&self) -> Option<fx::MassRate> {
+        self.rate_kg_h.map(fx::MassRate::from_bits)
+    }
+    /// Expanded uncertainty of the rate.
+    pub fn rate_uncertainty(&self) -> Option<fx::MassRate> {
+        self.rate_uncertainty_kg_h.map(fx::MassRate::from_bits)
+    }
+    /// Expanded uncertainty of the mass.
+    pub fn mass_uncertainty(&self) -> Option<fx::Mass> {
+        self.mass_uncertainty_kg.map(fx::Mass::from_bits)
+    }
+    /// Expanded uncertainty of the fill fraction.
+    pub fn fill_fraction_uncertainty(&self) -> Option<fx::Fraction> {
+        self.fill_fraction_uncertainty.map(fx::Fraction::from_bits)
+    }
+    /// The leak detector's loss per day.
+    pub fn leak_loss_per_day(&self) -> Option<fx::FractionRate> {
+        self.leak_loss_per_day.map(fx::FractionRate::from_bits)
     }
 }
 
@@ -201,10 +199,10 @@ pub struct AlarmEvent {
     pub seq: u32,
     /// Time since the device started, ms.
     pub uptime_ms: u64,
-    /// Which alarm: the [`crate::alarm::AlarmKind`] code (its bit in the
-    /// alarm set: 0 `not_settled`, 1 `leak`, 2 `low_content`,
-    /// 3 `over_pressure`, 4 `over_temperature`, 5 `under_temperature`,
-    /// 6 `sensor_fault`).
+    /// Which alarm: its code (the alarm's bit in the alarm set, see
+    /// `crate::alarm::AlarmKind`: 0 `not_settled`, 1 `leak`,
+    /// 2 `low_content`, 3 `over_pressure`, 4 `over_temperature`,
+    /// 5 `under_temperature`, 6 `sensor_fault`).
     pub alarm: u16,
     /// Raised or cleared.
     pub transition: AlarmTransition,
@@ -215,146 +213,148 @@ pub struct AlarmEvent {
 }
 
 impl AlarmEvent {
-    /// The frame of one tracker event, with the status and mass at it.
-    pub fn from_event(
-        seq: u32,
-        e: &crate::alarm::AlarmEvent,
-        status: Status,
-        mass: fx::Mass,
-    ) -> AlarmEvent {
-        AlarmEvent {
-            seq,
-            uptime_ms: e.at.as_millis(),
-            alarm: e.kind as u16,
-            transition: if e.raised {
-                AlarmTransition::Raised
-            } else {
-                AlarmTransition::Cleared
-            },
-            status: status.bits(),
-            mass_kg: mass.to_bits(),
-        }
+    /// The status word at the event.
+    pub fn status(&self) -> Status {
+        Status::from_bits(self.status)
     }
-
-    /// The alarm kind of the code, `None` for codes this version does not know.
-    pub fn kind(&self) -> Option<crate::alarm::AlarmKind> {
-        crate::alarm::AlarmKind::ALL
-            .into_iter()
-            .find(|k| *k as u16 == self.alarm)
+    /// The mass at the event.
+    pub fn mass(&self) -> fx::Mass {
+        fx::Mass::from_bits(self.mass_kg)
     }
 }
 
-/// How an alarm changed.
+/// Whether an alarm was raised or cleared.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub enum AlarmTransition {
-    /// The alarm condition started.
+    /// The alarm is now active.
     Raised,
-    /// The alarm condition ended (or was cleared by a signed command).
+    /// The alarm is no longer active.
     Cleared,
 }
 
-/// Are you there? Answered by [`Outcome::Pong`] with the same token.
+/// Host → device: are you there? Answered with [`Outcome::Pong`].
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct Ping {
     /// Request tag, echoed in the reply.
     pub tag: u16,
-    /// Any value, echoed in the reply.
+    /// Echoed in the reply.
     pub token: u32,
 }
 
-/// Asks for the device's [`Identity`].
+/// Host → device: send your identity ([`Outcome::Identity`]).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct GetIdentity {
-    /// Request tag, echoed in the reply.
+    /// Request tag.
     pub tag: u16,
 }
 
-/// Opens a signing session: the device answers with a fresh nonce
-/// ([`Outcome::Challenge`]) that the next [`Signed`] commands must be bound to.
+/// Host → device: open a signing session ([`Outcome::Challenge`]).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct GetChallenge {
-    /// Request tag, echoed in the reply.
+    /// Request tag.
     pub tag: u16,
 }
 
-/// Reads one stored record (no authentication needed: records hold no secret).
+/// Host → device: send a piece of the configuration in force
+/// ([`Outcome::ConfigPart`]). Reading needs no secret.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
-pub struct ReadRecord {
-    /// Request tag, echoed in the reply.
+pub struct ReadConfig {
+    /// Request tag.
     pub tag: u16,
-    /// Record kind code (see [`crate::store::RecordKind`]).
-    pub kind: u16,
+    /// Offset of the piece in the stored prepared configuration, bytes.
+    pub offset: u32,
 }
 
-/// A command that changes the device, signed with the device secret.
-///
-/// `mac` = HMAC-SHA-256(secret, signing input) where the signing input is
-/// built by [`crate::auth::command_signing_input`]: a domain string, the
-/// device serial, the session nonce, `counter` and the postcard encoding of
-/// `command`. `counter` starts at 1 after each challenge and must go up by one
-/// with each command of the session.
+/// A piece of the configuration in force, and what the device knows of it.
+#[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
+pub struct ConfigPart {
+    /// Length of the stored prepared configuration, bytes; 0 when none is
+    /// stored (the device then runs without a configuration).
+    pub total_len: u32,
+    /// Its CRC-32C.
+    pub crc: u32,
+    /// Where the device took it from: the store's origin code
+    /// (`crate::store::Origin`: 0 stored, 1 an older copy after damage,
+    /// 2 nothing usable).
+    pub origin: u8,
+    /// The zero offset of the pressure channel, `fx::Pressure` bits.
+    pub zero_pressure: i32,
+    /// The zero offset of the temperature channel, `fx::Temperature` bits.
+    pub zero_temperature: i32,
+    /// Offset of `bytes` in the configuration.
+    pub offset: u32,
+    /// The piece (at most [`CHUNK_MAX_LEN`] bytes; empty at the end).
+    pub bytes: Vec<u8, CHUNK_MAX_LEN>,
+}
+
+/// Host → device: a signed command. The command travels as its postcard
+/// encoding, and the tag covers `counter` and exactly these bytes (see
+/// [`crate::auth`]): the device checks what it received, then decodes it.
 #[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct Signed {
-    /// Request tag, echoed in the reply (not signed: it only pairs replies).
+    /// Request tag.
     pub tag: u16,
-    /// Position of this command in its signing session (1, 2, …).
+    /// The session's command counter (from 1).
     pub counter: u32,
     /// HMAC-SHA-256 tag.
     pub mac: [u8; MAC_LEN],
-    /// The command.
-    pub command: Command,
+    /// The command's encoding.
+    pub command: Vec<u8, COMMAND_MAX_LEN>,
 }
 
-/// The commands that need a signature.
+impl Signed {
+    /// The encoding of `command` as a signed message carries it.
+    pub fn encode_command(command: &Command) -> Result<Vec<u8, COMMAND_MAX_LEN>, crate::Error> {
+        let mut buf = [0u8; COMMAND_MAX_LEN];
+        let used =
+            postcard::to_slice(command, &mut buf).map_err(|_| crate::Error::BufferTooSmall)?;
+        Vec::from_slice(used).map_err(|_| crate::Error::BufferTooSmall)
+    }
+
+    /// The command (whole encoding, nothing left over).
+    pub fn decode_command(&self) -> Result<Command, crate::Error> {
+        match postcard::take_from_bytes::<Command>(&self.command) {
+            Ok((c, [])) => Ok(c),
+            _ => Err(crate::Error::MessageBody),
+        }
+    }
+}
+
+/// The commands that change a device (always signed).
 #[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub enum Command {
-    /// Replace a stored record (configuration, calibration, alarm thresholds).
-    /// The device decodes and validates it before anything is stored.
-    WriteRecord {
-        /// Record kind code.
-        kind: u16,
-        /// Record format version.
-        version: u16,
-        /// postcard encoding of the record.
-        bytes: Vec<u8, RECORD_MAX_LEN>,
-    },
-    /// Take the present reading of a sensor channel as its zero.
-    ZeroCalibration {
-        /// Sensor channel.
-        channel: SensorChannel,
-    },
-    /// Clear latched alarms.
-    ClearAlarms,
-    /// Restart the device.
-    Reboot,
-    /// One piece of a gas-model blob. Pieces are sent in order from offset 0;
-    /// the device commits the blob when the last piece arrives and the CRC-32C
-    /// of the whole blob matches.
-    GasModelChunk {
-        /// Position of `bytes` in the blob.
+    /// One piece of a new prepared configuration (see [`crate::prepared`]).
+    /// A piece at offset 0 starts a new load into the storage slot not in
+    /// use; the last piece completes it: the device reads it back, checks
+    /// its CRC-32C and validates it, then commits it (power-safe) and runs
+    /// it. The zero offsets are kept.
+    ConfigChunk {
+        /// Offset of this piece, bytes.
         offset: u32,
-        /// Length of the whole blob, bytes.
+        /// Length of the whole configuration, bytes.
         total_len: u32,
-        /// CRC-32C of the whole blob.
+        /// CRC-32C of the whole configuration.
         blob_crc: u32,
         /// The piece.
         bytes: Vec<u8, CHUNK_MAX_LEN>,
     },
+    /// Take the present reading of a channel as its zero: the barometric
+    /// pressure for the pressure channel (the transducer vented to the
+    /// atmosphere), 0 °C for the temperature channel (an ice bath).
+    /// Refused when the present reading is not near that zero.
+    ZeroCalibration {
+        /// The channel.
+        channel: SensorChannel,
+    },
+    /// Clear both channels' zero offsets.
+    ClearZero,
+    /// Clear latched alarms.
+    ClearAlarms,
+    /// Restart after the reply.
+    Reboot,
 }
 
-impl Command {
-    /// The command that writes `value` (validated and encoded here; the device
-    /// validates again before storing).
-    pub fn write_record<R: crate::store::Record>(value: &R) -> Result<Command, crate::Error> {
-        Ok(Command::WriteRecord {
-            kind: R::KIND.0,
-            version: R::VERSION,
-            bytes: crate::store::encode_record(value)?,
-        })
-    }
-}
-
-/// A sensor input of the device.
+/// A sensor channel.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub enum SensorChannel {
     /// The pressure sensor.
@@ -363,49 +363,40 @@ pub enum SensorChannel {
     Temperature,
 }
 
-/// One raw converter reading.
+/// Host → device: raw converter codes to take as a sample (devices with
+/// [`capability::SAMPLE_INJECTION`]).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
-pub struct RawCode {
-    /// The channel it was read on.
-    pub channel: SensorChannel,
-    /// The converter code, as the ADC delivers it.
-    pub code: u32,
-}
-
-/// Raw sensor codes fed to a device that runs on injected samples (emulated
-/// firmware, bench rigs: see [`capability::SAMPLE_INJECTION`]). The device
-/// treats them exactly as codes read from its own converters.
-#[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct InjectSample {
-    /// Request tag, echoed in the reply.
+    /// Request tag.
     pub tag: u16,
-    /// Time of the sample on the device's clock, ms.
+    /// The sample's time on the device's clock, ms.
     pub at_ms: u64,
-    /// The codes (one per channel).
-    pub codes: Vec<RawCode, INJECT_MAX_CODES>,
+    /// Pressure converter code.
+    pub pressure: u32,
+    /// Temperature converter code.
+    pub temperature: u32,
 }
 
-/// Why the device started (kept across the restart in memory a reset does
-/// not clear, so the next boot can tell).
+/// Why the device last started.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum ResetReason {
-    /// Power was applied (nothing was kept from before).
+    /// Power on (or a reset the board cannot tell apart).
     PowerOn,
-    /// A signed reboot command, or a restart to use a new gas model.
+    /// A requested restart ([`Command::Reboot`], a new gas model).
     Requested,
-    /// The firmware panicked; the report names where.
+    /// A panic (the location is in the report).
     Panic,
-    /// The watchdog was not fed in time.
+    /// The watchdog expired.
     Watchdog,
-    /// A processor fault (hard fault) stopped the firmware.
+    /// A hard fault.
     HardFault,
-    /// A reset whose cause the firmware cannot tell (reset pin, debugger).
+    /// The board's reset cause reads as nothing known.
     Unknown,
 }
 
 impl ResetReason {
-    /// True for restarts caused by a fault of the firmware.
+    /// True for the restarts that follow a fault.
     pub const fn is_fault(self) -> bool {
         matches!(
             self,
@@ -414,22 +405,21 @@ impl ResetReason {
     }
 }
 
-/// What the device knows about its latest start.
+/// How and how often the device started.
 #[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct BootReport {
-    /// Why it started.
+    /// Why the device last started.
     pub reason: ResetReason,
-    /// Starts since power was applied (1 after power-on).
+    /// Starts since the boot record was created.
     pub boots: u32,
-    /// For a panic: the source line, else 0.
+    /// Line of the panic that caused the start (0: none).
     pub fault_line: u32,
-    /// For a panic: the source file (its last [`FAULT_FILE_MAX_LEN`] bytes),
-    /// else empty.
+    /// Source file of that panic (its end).
     pub fault_file: String<FAULT_FILE_MAX_LEN>,
 }
 
 impl BootReport {
-    /// A report of a start with no fault.
+    /// A report without a fault location.
     pub fn new(reason: ResetReason, boots: u32) -> BootReport {
         BootReport {
             reason,
@@ -439,7 +429,7 @@ impl BootReport {
         }
     }
 
-    /// Sets the fault location, keeping the end of a long file name.
+    /// With the location of a panic (the file name keeps its end).
     pub fn with_location(mut self, file: &str, line: u32) -> BootReport {
         let mut start = file.len().saturating_sub(FAULT_FILE_MAX_LEN);
         while !file.is_char_boundary(start) {
@@ -452,159 +442,161 @@ impl BootReport {
     }
 }
 
-/// Device → host, once after every start: who started and why.
+/// Device → host, once after every start.
 #[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct Boot {
-    /// Serial number of the device.
+    /// Serial number.
     pub serial: u64,
-    /// Firmware version, major.minor.patch.
+    /// Firmware version.
     pub firmware_version: [u8; 3],
-    /// The start.
+    /// How it started.
     pub report: BootReport,
 }
 
-/// Asks for the device's [`Diagnostics`].
+/// Host → device: send your diagnostics ([`Outcome::Diagnostics`]).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct GetDiagnostics {
-    /// Request tag, echoed in the reply.
+    /// Request tag.
     pub tag: u16,
 }
 
-/// The device's health: its latest start, stack use and link counters.
+/// What the device knows of itself.
 #[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct Diagnostics {
-    /// Time since the device started, ms (its own clock).
+    /// Time since the start, ms.
     pub uptime_ms: u64,
-    /// The latest start.
+    /// How it started.
     pub boot: BootReport,
-    /// Deepest stack use measured since the start (stack painting), bytes.
+    /// Deepest stack use since the start, bytes (0: not measured).
     pub stack_peak_bytes: u32,
     /// Stack size, bytes.
     pub stack_size_bytes: u32,
     /// Frames received and decoded.
     pub frames: u32,
-    /// Frames received that did not decode (COBS, length, CRC, version, kind,
-    /// body) or were too long.
+    /// Damaged frames received.
     pub bad_frames: u32,
-    /// Samples taken (converted and tracked).
+    /// Samples taken.
     pub samples: u32,
 }
 
-/// The device's answer to one request.
+/// Device → host: the answer to a request.
 #[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub struct Reply {
-    /// The tag of the request.
+    /// The request's tag.
     pub tag: u16,
-    /// What happened.
+    /// The answer.
     pub outcome: Outcome,
 }
 
-/// What became of a request.
+/// The answer to a request.
 #[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub enum Outcome {
     /// Answer to [`Ping`].
     Pong {
-        /// The token of the ping.
+        /// The ping's token.
         token: u32,
     },
     /// Answer to [`GetIdentity`].
     Identity(Identity),
-    /// Answer to [`GetChallenge`]: a fresh nonce.
+    /// Answer to [`GetChallenge`]: a fresh nonce for the next signed
+    /// commands.
     Challenge {
-        /// The nonce the next signed commands are bound to.
+        /// The nonce.
         nonce: [u8; NONCE_LEN],
         /// How long the session stays open, ms.
         valid_ms: u32,
     },
-    /// Answer to [`ReadRecord`].
-    Record {
-        /// Record kind code.
-        kind: u16,
-        /// Record format version.
-        version: u16,
-        /// Where the value came from.
-        origin: Origin,
-        /// postcard encoding of the record.
-        bytes: Vec<u8, RECORD_MAX_LEN>,
-    },
-    /// A signed command was verified and carried out. `mac` proves it to the
-    /// host: HMAC-SHA-256(secret, [`crate::auth::done_signing_input`]).
+    /// Answer to [`ReadConfig`].
+    ConfigPart(ConfigPart),
+    /// A signed command was carried out; the device's own signature over
+    /// its serial, the session nonce and the counter proves it.
     Done {
-        /// The counter of the command.
+        /// The command's counter.
         counter: u32,
-        /// The device's signature over the session nonce and counter.
+        /// The device's confirmation tag.
         mac: [u8; MAC_LEN],
     },
-    /// An injected sample was taken.
+    /// Answer to [`InjectSample`]: taken (its telemetry follows).
     Taken,
     /// Answer to [`GetDiagnostics`].
     Diagnostics(Diagnostics),
-    /// The request was refused; nothing was changed.
+    /// The request was refused; nothing changed.
     Refused(Refusal),
-}
-
-/// Where a record value came from.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
-pub enum Origin {
-    /// The latest stored copy.
-    Stored,
-    /// The newest readable copy, which may not be the newest written: a newer
-    /// copy is damaged, or unreadable bytes in the area may have held one.
-    Fallback,
-    /// Safe defaults: no stored copy is readable.
-    Default,
 }
 
 /// Why a request was refused.
 #[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 pub enum Refusal {
-    /// No signing session is open (ask for a challenge first), or it expired.
+    /// No signing session is open (ask for a challenge first).
     NoSession,
-    /// The signature does not match: wrong secret or altered command.
+    /// The signature does not match.
     BadSignature,
-    /// The counter is not the next one of the session (a replayed or
-    /// reordered command).
+    /// The counter was used before.
     Replay,
-    /// Too many failed signatures: try again after this long, ms.
+    /// Too many failed signatures: signed commands are refused for a while.
     LockedOut {
-        /// Time until the next attempt is accepted, ms.
+        /// Time until they are taken again, ms.
         retry_after_ms: u32,
     },
-    /// A value is outside its accepted range; the field is named.
+    /// A value is out of its range.
     OutOfRange {
-        /// The field, as the validation names it.
+        /// Which one.
         field: String<FIELD_NAME_MAX_LEN>,
     },
-    /// The record could not be decoded or has an unknown kind or version.
-    BadRecord,
-    /// The device does not support this request.
+    /// The configuration does not validate; nothing was committed.
+    BadConfig {
+        /// Why.
+        reason: String<FIELD_NAME_MAX_LEN>,
+    },
+    /// The device cannot do this (a capability it lacks).
     Unsupported,
-    /// A gas-model piece arrived out of order; the device expects this offset.
+    /// A configuration piece arrived out of order.
     ChunkOrder {
-        /// The offset the device expects next.
+        /// The offset the device expects.
         expected: u32,
     },
-    /// The whole gas-model blob does not match its CRC-32C (nothing stored).
+    /// The configuration's CRC-32C does not match.
     BlobCrc,
-    /// The gas-model blob is larger than its flash slot.
+    /// The configuration is larger than the device can store.
     BlobTooLarge,
-    /// The flash refused the write; the previous value is kept.
+    /// The storage failed; nothing was committed.
     Storage,
-    /// The gas-model blob is not a table this device can use (format,
-    /// version, checksum or content); nothing was committed.
-    BadGasModel,
+    /// A zero calibration was refused: the present reading is too far from
+    /// the zero it would be taken as (the pressure transducer is not vented
+    /// to the atmosphere, or the temperature sensor is not at 0 °C), or
+    /// there is no present reading.
+    NotAtZero {
+        /// The channel.
+        channel: SensorChannel,
+        /// The correction it would have taken, format bits
+        /// (`fx::Pressure` or `fx::Temperature`); 0 when there is no
+        /// reading.
+        offset: i64,
+        /// The largest correction accepted, the same bits.
+        limit: u32,
+    },
 }
 
 impl Refusal {
-    /// An [`Refusal::OutOfRange`] naming `field` (cut to
-    /// [`FIELD_NAME_MAX_LEN`] bytes at a character boundary).
+    /// An out-of-range refusal naming `field` (cut to fit).
     pub fn out_of_range(field: &str) -> Refusal {
-        let mut s = String::new();
-        for ch in field.chars() {
-            if s.push(ch).is_err() {
-                break;
-            }
-        }
-        Refusal::OutOfRange { field: s }
+        Refusal::OutOfRange { field: cut(field) }
     }
+
+    /// A configuration refusal saying why (cut to fit).
+    pub fn bad_config(reason: &str) -> Refusal {
+        Refusal::BadConfig {
+            reason: cut(reason),
+        }
+    }
+}
+
+fn cut(s: &str) -> String<FIELD_NAME_MAX_LEN> {
+    let mut out = String::new();
+    for ch in s.chars() {
+        if out.push(ch).is_err() {
+            break;
+        }
+    }
+    out
 }

@@ -16,6 +16,9 @@
 //! * The protocol version travels in every frame ([`PROTOCOL_VERSION`]).
 //! * The message kind is one byte ([`Kind`]); a frame of a kind this version
 //!   does not know decodes to [`Error::UnknownKind`] with the raw code kept.
+//!   Messages are of two families, one per direction ([`ToDevice`],
+//!   [`FromDevice`]): a receiver decodes only its own family (a device's
+//!   image holds no decoder of what it sends).
 //! * postcard bounds every body at compile time (`MaxSize`), which bounds every
 //!   frame: [`MAX_FRAME_LEN`] bytes including the delimiter. Receive buffers of
 //!   that size never overflow on valid traffic.
@@ -25,7 +28,6 @@
 //! delivers, in pieces of any size.
 
 mod accumulator;
-pub mod device;
 mod message;
 
 pub use accumulator::{Accumulator, Feed};
@@ -36,23 +38,71 @@ use postcard::experimental::max_size::MaxSize;
 use crate::Error;
 use crate::checksum::crc32c;
 
-/// The protocol version this crate speaks; every frame carries it.
-pub const PROTOCOL_VERSION: u8 = 1;
+/// The protocol version this crate speaks; every frame carries it. Version 2:
+/// prepared configurations, message families per direction.
+pub const PROTOCOL_VERSION: u8 = 2;
 
 /// Bytes before the body: version and kind.
 pub const HEADER_LEN: usize = 2;
 /// Bytes of the CRC-32C after the body.
 pub const CRC_LEN: usize = 4;
 
-macro_rules! messages {
-    ($( $(#[doc = $doc:literal])* $variant:ident($ty:ty) = $code:literal, $name:literal; )*) => {
-        /// Every message of the protocol.
+/// A family of messages: what [`encode`] writes and [`decode`] reads.
+pub trait Wire: Sized {
+    /// The largest body of the family, bytes (postcard `MaxSize`).
+    const MAX_BODY_LEN: usize;
+    /// The kind of this message.
+    fn kind(&self) -> Kind;
+    /// Writes the body; returns its length.
+    fn encode_body(&self, out: &mut [u8]) -> Result<usize, Error>;
+    /// Reads a body of `kind` (kinds of the other family are unknown here).
+    fn decode_body(kind: Kind, body: &[u8]) -> Result<Self, Error>;
+}
+
+macro_rules! family {
+    ($(#[doc = $fdoc:literal])* $family:ident {
+        $( $(#[doc = $doc:literal])* $variant:ident($ty:ty) = $code:literal, $name:literal; )*
+    }) => {
+        $(#[doc = $fdoc])*
         #[derive(Clone, Debug, PartialEq, Eq)]
         #[allow(clippy::large_enum_variant)]
-        pub enum Message {
+        pub enum $family {
             $( $(#[doc = $doc])* $variant($ty), )*
         }
 
+        impl Wire for $family {
+            const MAX_BODY_LEN: usize = {
+                let mut max = 0;
+                $( if <$ty as MaxSize>::POSTCARD_MAX_SIZE > max { max = <$ty as MaxSize>::POSTCARD_MAX_SIZE; } )*
+                max
+            };
+
+            fn kind(&self) -> Kind {
+                match self {
+                    $( $family::$variant(_) => Kind::$variant, )*
+                }
+            }
+
+            fn encode_body(&self, out: &mut [u8]) -> Result<usize, Error> {
+                let used = match self {
+                    $( $family::$variant(m) => postcard::to_slice(m, out).map(|s| s.len()), )*
+                };
+                used.map_err(|_| Error::BufferTooSmall)
+            }
+
+            fn decode_body(kind: Kind, body: &[u8]) -> Result<Self, Error> {
+                match kind {
+                    $( Kind::$variant => whole::<$ty>(body).map($family::$variant), )*
+                    #[allow(unreachable_patterns)]
+                    other => Err(Error::UnknownKind(other.code())),
+                }
+            }
+        }
+    };
+}
+
+macro_rules! kinds {
+    ($( $(#[doc = $doc:literal])* $variant:ident = $code:literal, $name:literal; )*) => {
         /// The kind of a message: its one-byte code on the wire.
         #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
         #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -85,63 +135,66 @@ macro_rules! messages {
                 }
             }
         }
-
-        impl Message {
-            /// The kind of this message.
-            pub const fn kind(&self) -> Kind {
-                match self {
-                    $( Message::$variant(_) => Kind::$variant, )*
-                }
-            }
-
-            fn encode_body(&self, out: &mut [u8]) -> Result<usize, Error> {
-                let used = match self {
-                    $( Message::$variant(m) => postcard::to_slice(m, out).map(|s| s.len()), )*
-                };
-                used.map_err(|_| Error::BufferTooSmall)
-            }
-
-            fn decode_body(kind: Kind, body: &[u8]) -> Result<Message, Error> {
-                match kind {
-                    $( Kind::$variant => whole::<$ty>(body).map(Message::$variant), )*
-                }
-            }
-        }
-
-        /// The largest body of any message, bytes (postcard `MaxSize`).
-        pub const MAX_BODY_LEN: usize = {
-            let mut max = 0;
-            $( if <$ty as MaxSize>::POSTCARD_MAX_SIZE > max { max = <$ty as MaxSize>::POSTCARD_MAX_SIZE; } )*
-            max
-        };
     };
 }
 
-messages! {
-    /// Device → host: who the device is.
-    Identity(Identity) = 0x01, "identity";
+kinds! {
     /// Device → host: one estimate.
-    Telemetry(Telemetry) = 0x02, "telemetry";
+    Telemetry = 0x02, "telemetry";
     /// Device → host: an alarm was raised or cleared.
-    Alarm(AlarmEvent) = 0x03, "alarm";
+    Alarm = 0x03, "alarm";
     /// Device → host: the answer to a request.
-    Reply(Reply) = 0x04, "reply";
+    Reply = 0x04, "reply";
     /// Device → host: the device started (once after every start).
-    Boot(Boot) = 0x05, "boot";
+    Boot = 0x05, "boot";
     /// Host → device: are you there?
-    Ping(Ping) = 0x10, "ping";
+    Ping = 0x10, "ping";
     /// Host → device: send your identity.
-    GetIdentity(GetIdentity) = 0x11, "get_identity";
+    GetIdentity = 0x11, "get_identity";
     /// Host → device: open a signing session.
-    GetChallenge(GetChallenge) = 0x12, "get_challenge";
-    /// Host → device: read a stored record.
-    ReadRecord(ReadRecord) = 0x13, "read_record";
+    GetChallenge = 0x12, "get_challenge";
+    /// Host → device: send a piece of the configuration in force.
+    ReadConfig = 0x13, "read_config";
     /// Host → device: a signed command.
-    Signed(Signed) = 0x14, "signed";
+    Signed = 0x14, "signed";
     /// Host → device: raw sensor codes to take as a sample.
-    InjectSample(InjectSample) = 0x15, "inject_sample";
+    InjectSample = 0x15, "inject_sample";
     /// Host → device: send your diagnostics.
-    GetDiagnostics(GetDiagnostics) = 0x16, "get_diagnostics";
+    GetDiagnostics = 0x16, "get_diagnostics";
+}
+
+family! {
+    /// Every message a device sends.
+    FromDevice {
+        /// One estimate.
+        Telemetry(Telemetry) = 0x02, "telemetry";
+        /// An alarm was raised or cleared.
+        Alarm(AlarmEvent) = 0x03, "alarm";
+        /// The answer to a request.
+        Reply(Reply) = 0x04, "reply";
+        /// The device started.
+        Boot(Boot) = 0x05, "boot";
+    }
+}
+
+family! {
+    /// Every message a host sends.
+    ToDevice {
+        /// Are you there?
+        Ping(Ping) = 0x10, "ping";
+        /// Send your identity.
+        GetIdentity(GetIdentity) = 0x11, "get_identity";
+        /// Open a signing session.
+        GetChallenge(GetChallenge) = 0x12, "get_challenge";
+        /// Send a piece of the configuration in force.
+        ReadConfig(ReadConfig) = 0x13, "read_config";
+        /// A signed command.
+        Signed(Signed) = 0x14, "signed";
+        /// Raw sensor codes to take as a sample.
+        InjectSample(InjectSample) = 0x15, "inject_sample";
+        /// Send your diagnostics.
+        GetDiagnostics(GetDiagnostics) = 0x16, "get_diagnostics";
+    }
 }
 
 /// Decodes a whole body: bytes left over are an error.
@@ -152,6 +205,13 @@ fn whole<T: serde::de::DeserializeOwned>(body: &[u8]) -> Result<T, Error> {
     }
 }
 
+/// The largest body of either family, bytes.
+pub const MAX_BODY_LEN: usize = if FromDevice::MAX_BODY_LEN > ToDevice::MAX_BODY_LEN {
+    FromDevice::MAX_BODY_LEN
+} else {
+    ToDevice::MAX_BODY_LEN
+};
+
 /// The largest payload (header, body, CRC), bytes.
 pub const MAX_PAYLOAD_LEN: usize = HEADER_LEN + MAX_BODY_LEN + CRC_LEN;
 
@@ -161,7 +221,7 @@ pub const MAX_FRAME_LEN: usize = cobs::max_encoding_length(MAX_PAYLOAD_LEN) + 1;
 
 /// Writes the payload of `msg` (header, body, CRC) into `out`; returns its
 /// length.
-pub fn encode_payload(msg: &Message, out: &mut [u8]) -> Result<usize, Error> {
+pub fn encode_payload<M: Wire>(msg: &M, out: &mut [u8]) -> Result<usize, Error> {
     let (header, rest) = out
         .split_first_chunk_mut::<HEADER_LEN>()
         .ok_or(Error::BufferTooSmall)?;
@@ -177,7 +237,7 @@ pub fn encode_payload(msg: &Message, out: &mut [u8]) -> Result<usize, Error> {
 
 /// Encodes `msg` as a complete frame (COBS payload and the 0x00 delimiter)
 /// into `out`; returns the frame length (at most [`MAX_FRAME_LEN`]).
-pub fn encode(msg: &Message, out: &mut [u8]) -> Result<usize, Error> {
+pub fn encode<M: Wire>(msg: &M, out: &mut [u8]) -> Result<usize, Error> {
     let mut payload = [0u8; MAX_PAYLOAD_LEN];
     let n = encode_payload(msg, &mut payload)?;
     let src = payload.get(..n).ok_or(Error::BufferTooSmall)?;
@@ -188,7 +248,7 @@ pub fn encode(msg: &Message, out: &mut [u8]) -> Result<usize, Error> {
 
 /// Decodes a payload (COBS already removed): checks length, CRC, version and
 /// kind, then the body.
-pub fn decode_payload(payload: &[u8]) -> Result<Message, Error> {
+pub fn decode_payload<M: Wire>(payload: &[u8]) -> Result<M, Error> {
     if payload.len() < HEADER_LEN + CRC_LEN || payload.len() > MAX_PAYLOAD_LEN {
         return Err(Error::FrameLength);
     }
@@ -205,13 +265,13 @@ pub fn decode_payload(payload: &[u8]) -> Result<Message, Error> {
         return Err(Error::ProtocolVersion(*version));
     }
     let kind = Kind::from_code(*code).ok_or(Error::UnknownKind(*code))?;
-    Message::decode_body(kind, body)
+    M::decode_body(kind, body)
 }
 
 /// Decodes one frame held whole in `frame`, with or without its trailing
 /// 0x00 delimiter. `frame` must not contain any other 0x00. The bytes are
 /// decoded in place (COBS decoding shortens them), so they are left changed.
-pub fn decode_in_place(frame: &mut [u8]) -> Result<Message, Error> {
+pub fn decode_in_place<M: Wire>(frame: &mut [u8]) -> Result<M, Error> {
     let body = match frame.split_last_mut() {
         Some((0, body)) => body,
         _ => frame,
@@ -227,7 +287,7 @@ pub fn decode_in_place(frame: &mut [u8]) -> Result<Message, Error> {
 }
 
 /// Decodes one frame (copied first; see [`decode_in_place`]).
-pub fn decode(frame: &[u8]) -> Result<Message, Error> {
+pub fn decode<M: Wire>(frame: &[u8]) -> Result<M, Error> {
     let mut buf = [0u8; MAX_FRAME_LEN];
     let dst = buf.get_mut(..frame.len()).ok_or(Error::FrameLength)?;
     dst.copy_from_slice(frame);

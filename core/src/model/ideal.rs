@@ -2,7 +2,7 @@
 //!
 //! Exact in the limit p → 0 and the model every real-gas model must reduce to
 //! there. At high pressure it is wrong by several to tens of per cent (see
-//! README); it is the baseline, not a recommendation.
+//! docs/gases.md); it is the baseline, not a recommendation.
 
 use super::{Compressibility, CompressibilityFx, ModelRange, ZPoint, ZPointFx};
 use crate::{Gas, Real, Status, envelope, fx};

@@ -10,8 +10,8 @@
 //! * [`CompressibilityFx`] — the fixed-point form for devices.
 //!
 //! A model reports trouble through [`Status`] flags in its answer
-//! ([`Status::MODEL_OUT_OF_RANGE`], [`Status::TWO_PHASE`], and for mixtures
-//! [`Status::CONDENSATION_RISK`]); it never fails.
+//! ([`Status::MODEL_OUT_OF_RANGE`], [`Status::TWO_PHASE`], [`Status::LIQUID_FULL`],
+//! and for mixtures [`Status::CONDENSATION_RISK`]); it never fails.
 //! Models are per gas: one value answers for one gas.
 
 pub mod device;
@@ -31,8 +31,9 @@ pub struct ZPoint<F = f64> {
     pub dz_dp_per_mpa: F,
     /// ∂Z/∂T at constant p, per K.
     pub dz_dt_per_k: F,
-    /// [`Status::MODEL_OUT_OF_RANGE`] and/or [`Status::TWO_PHASE`] (a mixture:
-    /// [`Status::CONDENSATION_RISK`]) when they apply.
+    /// [`Status::MODEL_OUT_OF_RANGE`] and/or [`Status::TWO_PHASE`] or
+    /// [`Status::LIQUID_FULL`] (a mixture: [`Status::CONDENSATION_RISK`])
+    /// when they apply.
     pub flags: Status,
 }
 
@@ -46,7 +47,8 @@ pub struct ZPointFx {
     pub dz_dp_per_mpa: fx::ZSlope,
     /// ∂Z/∂T at constant p, per K.
     pub dz_dt_per_k: fx::ZSlope,
-    /// [`Status::MODEL_OUT_OF_RANGE`] and/or [`Status::TWO_PHASE`] when they apply.
+    /// [`Status::MODEL_OUT_OF_RANGE`] and/or [`Status::TWO_PHASE`] or
+    /// [`Status::LIQUID_FULL`] when they apply.
     pub flags: Status,
 }
 
@@ -128,6 +130,19 @@ pub trait CompressibilityFx {
     fn gas(&self) -> Gas;
     /// Z and its slopes at absolute pressure `p` and temperature `t`.
     fn z_fx(&self, p: fx::Pressure, t: fx::Temperature) -> ZPointFx;
+    /// Z alone and the flags (the per-sample call; models whose slopes cost
+    /// extra work skip them here).
+    fn z_value_fx(&self, p: fx::Pressure, t: fx::Temperature) -> (fx::Compressibility, Status) {
+        let z = self.z_fx(p, t);
+        (z.z, z.flags)
+    }
+    /// The settled pressure of a content τ = ρv·R·T_ref/M (raw `Pressure`
+    /// bits), where the model carries a settled-pressure table prepared for
+    /// the estimator's setup (a prepared configuration's model does); `None`
+    /// otherwise or beyond the table.
+    fn settle_fx(&self, _tau: u32) -> Option<u32> {
+        None
+    }
     /// The smallest Z the model returns. The estimator sizes its internal
     /// density scale from it (a smaller floor costs density resolution).
     fn z_floor(&self) -> fx::Compressibility;
@@ -173,6 +188,12 @@ impl<M: CompressibilityFx> CompressibilityFx for &M {
     }
     fn z_fx(&self, p: fx::Pressure, t: fx::Temperature) -> ZPointFx {
         (**self).z_fx(p, t)
+    }
+    fn z_value_fx(&self, p: fx::Pressure, t: fx::Temperature) -> (fx::Compressibility, Status) {
+        (**self).z_value_fx(p, t)
+    }
+    fn settle_fx(&self, tau: u32) -> Option<u32> {
+        (**self).settle_fx(tau)
     }
     fn z_floor(&self) -> fx::Compressibility {
         (**self).z_floor()

@@ -30,6 +30,7 @@
 
 pub mod bridge;
 pub mod calibration;
+pub mod channel;
 pub mod current_loop;
 pub mod gauge;
 pub mod ntc;

@@ -2,10 +2,10 @@
 
 use embedded_storage::nor_flash::{NorFlash, ReadNorFlash};
 
+use super::Origin;
 use super::{MAX_RECORD_LEN, Record, RecordKind};
 use crate::Error;
 use crate::checksum::crc32c;
-use crate::link::Origin;
 
 const MAGIC: u16 = 0x5AC3;
 /// Header bytes before padding: magic, kind, version, len, seq, hcrc.

@@ -1,54 +1,40 @@
-//! Gas-model blobs: two flash slots, loaded in chunks, committed by a record.
+//! Blobs (prepared configurations): two flash slots, loaded in chunks,
+//! committed by a record.
 //!
-//! A load writes into the slot the current model does not use, so the model
-//! in use stays intact until the new one is complete. When the last chunk
-//! arrives the whole blob is read back and its CRC-32C compared with the one
-//! announced; only then may the caller store the [`GasModelRef`] record that
-//! points at it (a record write, power-safe like every record). A power cut at
-//! any point leaves the previous reference, and the previous blob, in force.
+//! A load writes into the slot the blob in force does not use, so that blob
+//! stays intact until the new one is complete. When the last chunk arrives
+//! the whole blob is read back and its CRC-32C compared with the one
+//! announced; only then may the caller store the record that points at it
+//! ([`ConfigRef`](super::ConfigRef): a record write, power-safe like every
+//! record). A power cut at any point leaves the previous reference, and the
+//! previous blob, in force.
 
 use embedded_storage::nor_flash::NorFlash;
 use postcard::experimental::max_size::MaxSize;
 use serde::{Deserialize, Serialize};
 
-use super::{Record, RecordKind};
 use crate::Error;
 use crate::checksum::Crc32c;
-use crate::model::device::{BLOB_MAGIC, BLOB_VERSION, TableBuf};
 
-/// Which gas-model blob is in use (the record that commits a load).
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
+/// A blob in a slot.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct GasModelRef {
+pub struct BlobRef {
     /// Slot index, 0 or 1.
     pub slot: u8,
-    /// Blob length, bytes; 0 = no blob loaded (the built-in model is used).
+    /// Blob length, bytes; 0 = no blob.
     pub len: u32,
     /// CRC-32C of the blob.
     pub crc: u32,
 }
 
-impl GasModelRef {
-    /// No blob loaded.
-    pub const NONE: GasModelRef = GasModelRef {
+impl BlobRef {
+    /// No blob.
+    pub const NONE: BlobRef = BlobRef {
         slot: 0,
         len: 0,
         crc: 0,
     };
-}
-
-impl Record for GasModelRef {
-    const KIND: RecordKind = RecordKind::GAS_MODEL_REF;
-    const VERSION: u16 = 1;
-    fn validate(&self) -> Result<(), Error> {
-        if self.slot > 1 {
-            return Err(Error::OutOfRange("gas model slot"));
-        }
-        Ok(())
-    }
-    fn safe_default() -> GasModelRef {
-        GasModelRef::NONE
-    }
 }
 
 /// Largest write unit the loader buffers (bytes).
@@ -71,8 +57,8 @@ struct Load {
 pub enum ChunkOutcome {
     /// Taken; the next chunk starts at this offset.
     Next(u32),
-    /// The blob is complete and checked: store this reference to use it.
-    Complete(GasModelRef),
+    /// The blob is complete and checked: commit this reference to use it.
+    Complete(BlobRef),
 }
 
 /// Two slots of `slot_len` bytes each from `start`.
@@ -107,6 +93,12 @@ impl BlobSlots {
         self.slot_len
     }
 
+    /// Where slot `slot` starts in the flash, bytes (for boards that read a
+    /// blob in place through their memory map).
+    pub fn slot_offset(&self, slot: u8) -> u32 {
+        self.slot_start(slot)
+    }
+
     fn slot_start(&self, slot: u8) -> u32 {
         self.start + u32::from(slot) * self.slot_len
     }
@@ -117,7 +109,7 @@ impl BlobSlots {
     pub fn chunk<F: NorFlash>(
         &mut self,
         flash: &mut F,
-        current: &GasModelRef,
+        current: &BlobRef,
         offset: u32,
         total_len: u32,
         blob_crc: u32,
@@ -189,7 +181,7 @@ impl BlobSlots {
                 return Err(Error::Flash);
             }
         }
-        let done = GasModelRef {
+        let done = BlobRef {
             slot: load.slot,
             len: load.total_len,
             crc: load.blob_crc,
@@ -203,7 +195,7 @@ impl BlobSlots {
     }
 
     /// True when the blob `r` points at is intact (read back, CRC-32C).
-    pub fn check<F: NorFlash>(&self, flash: &mut F, r: &GasModelRef) -> bool {
+    pub fn check<F: NorFlash>(&self, flash: &mut F, r: &BlobRef) -> bool {
         if r.len == 0 || r.slot > 1 || r.len > self.slot_len {
             return false;
         }
@@ -224,62 +216,11 @@ impl BlobSlots {
         crc.finish() == r.crc
     }
 
-    /// Decodes and checks the gas-model table a committed (or just
-    /// completed) blob holds, reading it straight from flash (a few dozen
-    /// bytes of buffer; the table itself is the result). Checks the blob
-    /// format of [`TableBuf::to_blob`]: the `IZTB` magic, the format version,
-    /// the postcard body with nothing left over, its own CRC-32C, and the
-    /// table's invariants ([`Table::validate`](crate::model::device::Table::validate)).
-    pub fn decode_table<F: NorFlash>(
-        &self,
-        flash: &mut F,
-        r: &GasModelRef,
-    ) -> Result<TableBuf, Error> {
-        let corrupt = Error::ModelData;
-        if r.slot > 1 || r.len > self.slot_len || r.len < 9 {
-            return Err(corrupt("blob too short"));
-        }
-        let mut head = [0u8; 5];
-        self.read(flash, r, 0, &mut head)?;
-        if head.get(..4) != Some(&BLOB_MAGIC[..]) {
-            return Err(corrupt("not a table blob"));
-        }
-        if head.get(4) != Some(&BLOB_VERSION) {
-            return Err(corrupt("unsupported blob version"));
-        }
-        let body_end = r.len - 4;
-        let mut reader = FlashReader {
-            flash,
-            base: self.slot_start(r.slot),
-            at: 5,
-            end: body_end,
-            buf: [0; READ_CHUNK],
-            buf_at: u32::MAX,
-            crc: Crc32c::new(),
-        };
-        reader.crc.update(&head);
-        let mut de = postcard::Deserializer::from_flavor(reader);
-        let table: TableBuf =
-            serde::Deserialize::deserialize(&mut de).map_err(|_| corrupt("undecodable blob"))?;
-        let (at, crc) = de.finalize().map_err(|_| corrupt("undecodable blob"))?;
-        if at != body_end {
-            return Err(corrupt("trailing bytes in blob"));
-        }
-        let crc = crc.finish();
-        let mut stored = [0u8; 4];
-        self.read(flash, r, body_end, &mut stored)?;
-        if crc != u32::from_le_bytes(stored) {
-            return Err(corrupt("checksum"));
-        }
-        table.table().validate()?;
-        Ok(table)
-    }
-
-    /// Reads blob bytes at `offset` (for the model loader).
+    /// Reads blob bytes at `offset`.
     pub fn read<F: NorFlash>(
         &self,
         flash: &mut F,
-        r: &GasModelRef,
+        r: &BlobRef,
         offset: u32,
         out: &mut [u8],
     ) -> Result<(), Error> {
@@ -290,55 +231,5 @@ impl BlobSlots {
         flash
             .read(self.slot_start(r.slot) + offset, out)
             .map_err(|_| Error::Flash)
-    }
-}
-
-/// Bytes read from flash at a time by [`FlashReader`].
-const READ_CHUNK: usize = 32;
-
-/// A postcard input that reads a blob from flash byte by byte (through a
-/// small aligned buffer) and checksums what it consumes.
-struct FlashReader<'a, F> {
-    flash: &'a mut F,
-    base: u32,
-    at: u32,
-    end: u32,
-    buf: [u8; READ_CHUNK],
-    buf_at: u32,
-    crc: Crc32c,
-}
-
-impl<'de, 'a: 'de, F: NorFlash + 'de> postcard::de_flavors::Flavor<'de> for FlashReader<'a, F> {
-    /// Where reading stopped and the checksum of everything read.
-    type Remainder = (u32, Crc32c);
-    type Source = ();
-
-    fn pop(&mut self) -> postcard::Result<u8> {
-        if self.at >= self.end {
-            return Err(postcard::Error::DeserializeUnexpectedEnd);
-        }
-        let chunk = self.at - self.at % READ_CHUNK as u32;
-        if chunk != self.buf_at {
-            self.flash
-                .read(self.base + chunk, &mut self.buf)
-                .map_err(|_| postcard::Error::DeserializeUnexpectedEnd)?;
-            self.buf_at = chunk;
-        }
-        let b = *self
-            .buf
-            .get((self.at - chunk) as usize)
-            .ok_or(postcard::Error::DeserializeUnexpectedEnd)?;
-        self.crc.update(&[b]);
-        self.at += 1;
-        Ok(b)
-    }
-
-    fn try_take_n(&mut self, _ct: usize) -> postcard::Result<&'de [u8]> {
-        // A table has no byte strings: a blob that asks for one is corrupt.
-        Err(postcard::Error::DeserializeBadEncoding)
-    }
-
-    fn finalize(self) -> postcard::Result<(u32, Crc32c)> {
-        Ok((self.at, self.crc))
     }
 }

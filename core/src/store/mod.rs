@@ -1,11 +1,13 @@
 //! Power-safe configuration storage on NOR flash.
 //!
-//! Configuration, calibration, alarm thresholds and the gas-model reference
-//! are **records**: serde values with a kind, a format version, a validation
-//! rule, safe defaults and a bound on their encoded size ([`Record`]). Each
-//! record kind owns a [`RecordArea`] of two banks of whole erase sectors,
-//! behind the `embedded-storage` [`NorFlash`](embedded_storage::nor_flash::NorFlash)
-//! traits. Gas-model blobs live in [`BlobSlots`].
+//! A device keeps its prepared configuration (see [`crate::prepared`]) as a
+//! **blob** in one of two [`BlobSlots`], and a **record** that says which
+//! blob is in force and holds the zero offsets ([`ConfigRef`]). A record is
+//! a serde value with a kind, a format version, a validation rule, a safe
+//! default and a bound on its encoded size ([`Record`]); each record kind
+//! owns a [`RecordArea`] of two banks of whole erase sectors, behind the
+//! `embedded-storage` [`NorFlash`](embedded_storage::nor_flash::NorFlash)
+//! traits.
 //!
 //! # On flash
 //!
@@ -60,21 +62,58 @@ mod records;
 pub mod sim;
 
 pub use area::{Loaded, RecordArea};
-pub use blob::{BlobSlots, ChunkOutcome, GasModelRef};
+pub use blob::{BlobRef, BlobSlots, ChunkOutcome};
 pub use layout::Layout;
-pub use records::{
-    AlarmThresholds, PressureCalibration, STANDARD_ATMOSPHERE, TemperatureCalibration,
-    TrackingSettings, split_track_config, track_config,
-};
+pub use records::{ConfigRef, ZERO_PRESSURE_MAX, ZERO_TEMPERATURE_MAX};
 
 use postcard::experimental::max_size::MaxSize;
-use serde::{Serialize, de::DeserializeOwned};
+use serde::{Deserialize, Serialize, de::DeserializeOwned};
 
-use crate::link::Origin;
 use crate::{Error, Status};
 
-/// Largest encoded record, bytes: every record fits one link frame.
-pub const MAX_RECORD_LEN: usize = crate::link::RECORD_MAX_LEN;
+/// Where a loaded value came from.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Origin {
+    /// The newest stored copy.
+    Stored,
+    /// An older copy: the newest is damaged.
+    Fallback,
+    /// No readable copy: the safe default.
+    Default,
+}
+
+impl Origin {
+    /// Its code on the wire ([`crate::link::ConfigPart::origin`]).
+    pub const fn code(self) -> u8 {
+        match self {
+            Origin::Stored => 0,
+            Origin::Fallback => 1,
+            Origin::Default => 2,
+        }
+    }
+
+    /// The origin of a wire code (unknown codes read as the default).
+    pub const fn from_code(code: u8) -> Origin {
+        match code {
+            0 => Origin::Stored,
+            1 => Origin::Fallback,
+            _ => Origin::Default,
+        }
+    }
+
+    /// Stable snake_case name.
+    pub const fn name(self) -> &'static str {
+        match self {
+            Origin::Stored => "stored",
+            Origin::Fallback => "fallback",
+            Origin::Default => "default",
+        }
+    }
+}
+
+/// Largest encoded record, bytes.
+pub const MAX_RECORD_LEN: usize = 64;
 
 /// The kind of a record: its code on flash and on the wire.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
@@ -82,37 +121,17 @@ pub const MAX_RECORD_LEN: usize = crate::link::RECORD_MAX_LEN;
 pub struct RecordKind(pub u16);
 
 impl RecordKind {
-    /// The estimate's setup ([`SetupFx`](crate::SetupFx)).
-    pub const SETUP: RecordKind = RecordKind(1);
-    /// Calibration of the pressure channel ([`PressureCalibration`]).
-    pub const PRESSURE_CALIBRATION: RecordKind = RecordKind(2);
-    /// Alarm thresholds ([`AlarmThresholds`]).
-    pub const ALARM_THRESHOLDS: RecordKind = RecordKind(3);
-    /// Which gas-model blob is in use ([`GasModelRef`]).
-    pub const GAS_MODEL_REF: RecordKind = RecordKind(4);
-    /// Calibration of the temperature channel ([`TemperatureCalibration`]).
-    pub const TEMPERATURE_CALIBRATION: RecordKind = RecordKind(5);
-    /// Tracking settings ([`TrackingSettings`]).
-    pub const TRACKING: RecordKind = RecordKind(6);
+    /// The configuration in force and the zero offsets ([`ConfigRef`]).
+    /// (Kinds 1 to 6 were the separate records of protocol version 1; a
+    /// device that finds only those runs unconfigured.)
+    pub const CONFIG: RecordKind = RecordKind(8);
     /// Every kind, in code order.
-    pub const ALL: [RecordKind; 6] = [
-        RecordKind::SETUP,
-        RecordKind::PRESSURE_CALIBRATION,
-        RecordKind::ALARM_THRESHOLDS,
-        RecordKind::GAS_MODEL_REF,
-        RecordKind::TEMPERATURE_CALIBRATION,
-        RecordKind::TRACKING,
-    ];
+    pub const ALL: [RecordKind; 1] = [RecordKind::CONFIG];
 
     /// Stable snake_case name (host output).
     pub const fn name(self) -> &'static str {
         match self.0 {
-            1 => "setup",
-            2 => "pressure_calibration",
-            3 => "alarm_thresholds",
-            4 => "gas_model_ref",
-            5 => "temperature_calibration",
-            6 => "tracking",
+            8 => "config",
             _ => "unknown",
         }
     }
@@ -130,8 +149,7 @@ pub trait Record: Serialize + DeserializeOwned + MaxSize + Sized {
     fn safe_default() -> Self;
 }
 
-/// The postcard encoding of a record, after validating it (what
-/// [`Command::WriteRecord`](crate::link::Command::WriteRecord) carries).
+/// The postcard encoding of a record, after validating it.
 pub fn encode_record<R: Record>(value: &R) -> Result<heapless::Vec<u8, MAX_RECORD_LEN>, Error> {
     value.validate()?;
     let mut buf = [0u8; MAX_RECORD_LEN];
@@ -162,65 +180,5 @@ pub const fn origin_status(origin: Origin, damaged: bool) -> Status {
         Status::from_bits(s.bits() | Status::STORAGE_DAMAGED.bits())
     } else {
         s
-    }
-}
-
-mod setup_record {
-    use super::{Record, RecordKind};
-    use crate::fx::{ElasticExpansion, Pressure, Temperature, ThermalExpansion, Volume};
-    use crate::{Error, Gas, SetupFx, StandardConditionFx, TankFx};
-    use postcard::experimental::max_size::MaxSize;
-
-    // The fixed-point formats travel as their raw integers (varints):
-    // U24F40 → u64, U28F4/U16F16/U0F32 → u32, I0F32 → i32; the gas as one
-    // varint for its variant (fewer than 128: one byte), which a mixture
-    // follows with its fingerprint (u32) and molar mass (U0F32). The pure
-    // gases encode as before the mixture variant existed.
-    impl MaxSize for TankFx {
-        const POSTCARD_MAX_SIZE: usize =
-            u64::POSTCARD_MAX_SIZE + 3 * u32::POSTCARD_MAX_SIZE + i32::POSTCARD_MAX_SIZE;
-    }
-    impl MaxSize for StandardConditionFx {
-        const POSTCARD_MAX_SIZE: usize = 2 * u32::POSTCARD_MAX_SIZE;
-    }
-    impl MaxSize for SetupFx {
-        const POSTCARD_MAX_SIZE: usize = 1
-            + 2 * u32::POSTCARD_MAX_SIZE
-            + TankFx::POSTCARD_MAX_SIZE
-            + StandardConditionFx::POSTCARD_MAX_SIZE
-            + u32::POSTCARD_MAX_SIZE;
-    }
-
-    impl Record for SetupFx {
-        const KIND: RecordKind = RecordKind::SETUP;
-        const VERSION: u16 = 1;
-        fn validate(&self) -> Result<(), Error> {
-            SetupFx::validate(self)
-        }
-        /// Air in a 1 L tank rated 200 bar (absolute) at 15 °C; ISO 13443
-        /// standard condition; settled pressure at 15 °C. Content figures from
-        /// it are flagged `config_default` and mean nothing for a real tank.
-        fn safe_default() -> SetupFx {
-            // 15 °C = 288.15 K in U16F16 bits: 288.15 × 65536 = 18 884 198.4.
-            let t15 = Temperature::from_bits(18_884_198);
-            SetupFx {
-                gas: Gas::Air,
-                tank: TankFx {
-                    // 1 L = 0.001 m³ in U24F40 bits: 0.001 × 2⁴⁰ = 1 099 511 627.8.
-                    water_capacity_m3: Volume::from_bits(1_099_511_628),
-                    // 200 bar = 20 MPa in U28F4 bits: 2e7 × 16.
-                    rated_pressure_pa: Pressure::from_bits(320_000_000),
-                    rated_temperature_k: t15,
-                    elastic_expansion_per_mpa: ElasticExpansion::ZERO,
-                    thermal_expansion_per_k: ThermalExpansion::ZERO,
-                },
-                standard: StandardConditionFx {
-                    temperature_k: t15,
-                    // 101 325 Pa in U28F4 bits.
-                    pressure_pa: Pressure::from_bits(1_621_200),
-                },
-                settled_reference_k: t15,
-            }
-        }
     }
 }

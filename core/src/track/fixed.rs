@@ -39,6 +39,7 @@ use crate::alarm::{Alarms, DebounceTable, Events};
 use crate::content::fixed::{Content, Estimator};
 use crate::fx::{self, Coef};
 use crate::model::CompressibilityFx;
+use crate::probe::{self, Stage};
 use crate::time::{Instant, Millis};
 use crate::uncertainty::fixed::{
     EvaluatorFx, QT_MEAN, RateWindowFx, UncertaintyConfigFx, UncertaintyFx, isqrt,
@@ -490,18 +491,21 @@ impl<M: CompressibilityFx> Tracker<M> {
         temperature: fx::Temperature,
         sensor: Status,
     ) -> TrackFx {
+        probe::enter(Stage::Track);
         let sensor = sensor & Status::SENSOR_RANGE;
         let fault = !sensor.is_ok();
         if !fault {
             self.check_gap(at);
-            let (p, t) = self.despike(
+            let raw = (
                 pressure.to_bits().min(RAW_MAX),
                 temperature.to_bits().min(RAW_MAX),
             );
+            let (p, t) = self.despike(raw.0, raw.1);
             let (p, t) = self.smooth(at, p, t);
             let content = self
                 .est
                 .estimate(fx::Pressure::from_bits(p), fx::Temperature::from_bits(t));
+            probe::enter(Stage::Track);
             self.content = Some(content);
             self.close_blocks(at, &content);
             if !content.status.intersects(Status::CONTENT_INVALID) {
@@ -509,10 +513,15 @@ impl<M: CompressibilityFx> Tracker<M> {
                 let q = ((bits >> (32 - Q)) + ((bits >> (31 - Q)) & 1)).min(u32::MAX as u64);
                 self.block_sum += q;
                 self.block_n += 1;
+                // Settling from the first sample of a fast change.
+                if let Some(prev) = self.prev_block {
+                    self.fast_sample(at, prev, q as u32, raw, (p, t));
+                }
             }
             self.last_at = Some(at);
         }
 
+        probe::enter(Stage::Alarms);
         let level = self.content.map(|c| LevelInputs {
             pressure_pa: c.pressure_pa,
             temperature_k: c.temperature_k,
@@ -649,25 +658,71 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.block_n = 0;
     }
 
+    /// Settling from one sample: the fill fraction the sample's own reading
+    /// implies, F·(p_raw/p)·(T/T_raw) (F, Q28, at the smoothed pressure p
+    /// and temperature T; the gas-law scaling from the smoothed to the raw
+    /// reading), differs from the previous block mean `prev` (Q28) by more
+    /// than `settle_step`. The raw reading (`raw`, before despiking and
+    /// smoothing) sees a fast fill or draw from its first sample; a change
+    /// of temperature at constant content moves p and T together and
+    /// cancels. Without a division:
+    /// |F·p_raw·T − prev·p·T_raw| > step·p·T_raw, the pressure products
+    /// brought below 2^32 by one common shift before the temperatures
+    /// multiply them.
+    fn fast_sample(&mut self, at: Instant, prev: u32, f: u32, raw: (u32, u32), smooth: (u32, u32)) {
+        let ((p_raw, t_raw), (p, t)) = (raw, smooth);
+        if p == 0 || t_raw == 0 {
+            return;
+        }
+        let x = fx::mul_u32(f, p_raw);
+        let y = fx::mul_u32(prev, p);
+        // step (Q32) · p → Q28 · p.
+        let z = fx::mul_u32(self.cfg.settle_step.to_bits(), p) >> (32 - Q);
+        let s = (64 - x.max(y).max(z).leading_zeros()).saturating_sub(32);
+        let low = |v: u64| (v >> s) as u32;
+        let now = fx::mul_u32(low(x), t);
+        let before = fx::mul_u32(low(y), t_raw);
+        let limit = fx::mul_u32(low(z), t_raw);
+        if now.abs_diff(before) > limit {
+            self.unsettled(at, now > before);
+        }
+    }
+
+    /// Settling from a block: its mean `value` (Q28) differs from the
+    /// previous block mean `prev` by more than `settle_step`. Returns whether
+    /// it did.
+    fn fast_change(&mut self, at: Instant, prev: u32, value: u32) -> bool {
+        let step = value as i64 - prev as i64;
+        // |step| in Q28 against the threshold in Q32.
+        if (step.unsigned_abs() << (32 - Q)) <= self.cfg.settle_step.to_bits() as u64 {
+            return false;
+        }
+        self.unsettled(at, step > 0);
+        true
+    }
+
+    /// A fast fill (`rise`) or draw at `at`: not settled from now on, the
+    /// prediction starts afresh; a fill also restarts the rate.
+    fn unsettled(&mut self, at: Instant, rise: bool) {
+        self.settle_active = true;
+        self.settle_blocks = 0;
+        self.settle_since = at;
+        self.predicted = None;
+        if rise {
+            self.ring_len = 0;
+            self.t_len = 0;
+            self.rate = None;
+            self.tte = None;
+        }
+    }
+
     /// Everything that happens once per block.
     fn block(&mut self, end: Instant, mean: u32, content: &Content) {
-        if let Some(prev) = self.prev_block {
-            let step = mean as i64 - prev as i64;
-            // |step| in Q28 against the threshold in Q32.
-            if (step.unsigned_abs() << (32 - Q)) > self.cfg.settle_step.to_bits() as u64 {
-                self.settle_active = true;
-                self.settle_blocks = 0;
-                self.settle_since = end;
-                self.predicted = None;
-                if step > 0 {
-                    self.ring_len = 0;
-                    self.t_len = 0;
-                    self.rate = None;
-                    self.tte = None;
-                }
-            } else if self.settle_active {
-                self.settle_blocks += 1;
-            }
+        if let Some(prev) = self.prev_block
+            && !self.fast_change(end, prev, mean)
+            && self.settle_active
+        {
+            self.settle_blocks += 1;
         }
         self.prev_block = Some(mean);
         self.ring.rotate_left(1);
@@ -687,7 +742,9 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.rate_and_time_to_empty(content);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(mean);
-        self.uncertainty = Some(self.unc.evaluate(content));
+        probe::enter(Stage::Uncertainty);
+        self.uncertainty = Some(self.unc.evaluate(&self.est.with_slopes(content)));
+        probe::enter(Stage::Track);
         self.rated_pressure_now_pa = Some(
             self.est
                 .pressure_at(fx::Fraction::ONE, content.temperature_k)

@@ -56,7 +56,7 @@ pub struct TrackConfig<F = f64> {
 
 impl TrackConfig<f64> {
     /// Defaults for a tank (common practice where no source is named; each
-    /// value is explained in README "Tracking over time"): smoothing 4 s,
+    /// value is explained in docs/tracking.md): smoothing 4 s,
     /// 60 s blocks, gaps over 5 min restart, reserve 5 %, settling τ = 30 min
     /// with a step of 0.5 % per block (30 %/h) and a tolerance of 0.2 %,
     /// standby leak threshold 0.1 % of the content per day, alarm limits from
@@ -397,6 +397,11 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             if !content.status.intersects(Status::CONTENT_INVALID) {
                 self.block_sum += content.fill_fraction;
                 self.block_n += 1;
+                // Settling from the first sample of a fast change.
+                if let Some(prev) = self.prev_block {
+                    let raw = (pressure_pa.max(F::ZERO), temperature_k);
+                    self.fast_sample(at, prev, content.fill_fraction, raw, (p, t));
+                }
             }
             self.last_at = Some(at);
         }
@@ -530,26 +535,62 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         self.block_n = 0;
     }
 
+    /// Settling from one sample: the fill fraction the sample's own reading
+    /// implies, F·(p_raw/p)·(T/T_raw) (F at the smoothed pressure p and
+    /// temperature T; the gas-law scaling from the smoothed to the raw
+    /// reading), differs from the previous block mean `prev` by more than
+    /// `settle_step`. The raw reading (`raw`, before despiking and
+    /// smoothing) sees a fast fill or draw from its first sample; a change
+    /// of temperature at constant content moves p and T together and
+    /// cancels. Without a division:
+    /// |F·p_raw·T − prev·p·T_raw| > step·p·T_raw.
+    fn fast_sample(&mut self, at: Instant, prev: F, f: F, raw: (F, F), smooth: (F, F)) {
+        let ((p_raw, t_raw), (p, t)) = (raw, smooth);
+        if p <= F::ZERO || t_raw <= F::ZERO {
+            return;
+        }
+        let now = f * p_raw * t;
+        let before = prev * p * t_raw;
+        if (now - before).abs() > self.cfg.settle_step * p * t_raw {
+            self.unsettled(at, now > before);
+        }
+    }
+
+    /// Settling from a block: its mean `value` differs from the previous
+    /// block mean `prev` by more than `settle_step`. Returns whether it did.
+    fn fast_change(&mut self, at: Instant, prev: F, value: F) -> bool {
+        let step = value - prev;
+        if step.abs() <= self.cfg.settle_step {
+            return false;
+        }
+        self.unsettled(at, step > F::ZERO);
+        true
+    }
+
+    /// A fast fill (`rise`) or draw at `at`: not settled from now on, the
+    /// prediction starts afresh; a fill also restarts the rate.
+    fn unsettled(&mut self, at: Instant, rise: bool) {
+        self.settle_active = true;
+        self.settle_blocks = 0;
+        self.settle_since = at;
+        self.predicted = None;
+        if rise {
+            // A fill: the rate starts again.
+            self.ring_len = 0;
+            self.t_len = 0;
+            self.rate = None;
+            self.tte = None;
+        }
+    }
+
     /// Everything that happens once per block.
     fn block(&mut self, end: Instant, mean: F, content: &Content<F>) {
         // Settling: a fast change between consecutive blocks.
-        if let Some(prev) = self.prev_block {
-            let step = mean - prev;
-            if step.abs() > self.cfg.settle_step {
-                self.settle_active = true;
-                self.settle_blocks = 0;
-                self.settle_since = end;
-                self.predicted = None;
-                if step > F::ZERO {
-                    // A fill: the rate starts again.
-                    self.ring_len = 0;
-                    self.t_len = 0;
-                    self.rate = None;
-                    self.tte = None;
-                }
-            } else if self.settle_active {
-                self.settle_blocks += 1;
-            }
+        if let Some(prev) = self.prev_block
+            && !self.fast_change(end, prev, mean)
+            && self.settle_active
+        {
+            self.settle_blocks += 1;
         }
         self.prev_block = Some(mean);
         self.ring.rotate_left(1);
@@ -910,6 +951,31 @@ mod tests {
             .update(Instant(1_600_000), 150e5, 288.15, Status::OK)
             .unwrap();
         assert!(r.rate.is_none());
+    }
+
+    /// A reading outside the envelope (1100 bar) gives no content to show and
+    /// feeds no block, yet the over-pressure alarm still judges it.
+    #[test]
+    fn samples_outside_the_envelope_alarm_but_feed_no_block() {
+        let mut t = tracker_f32();
+        let mut last = None;
+        for i in 0..90u64 {
+            last = Some(
+                t.update(Instant(i * 1000), 1100e5, 288.15, Status::OK)
+                    .unwrap(),
+            );
+        }
+        let r = last.unwrap();
+        assert!(
+            r.content
+                .unwrap()
+                .status
+                .contains(Status::PRESSURE_OUTSIDE_ENVELOPE)
+        );
+        assert!(r.status.intersects(Status::CONTENT_INVALID));
+        assert!(r.status.contains(Status::OVER_PRESSURE), "{:?}", r.status);
+        assert_eq!((t.block_n, t.ring_len, t.prev_block), (0, 0, None));
+        assert!(r.rate.is_none() && r.uncertainty.is_none());
     }
 
     #[test]

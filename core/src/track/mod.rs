@@ -19,7 +19,15 @@
 //!    fixed path recomputes α only when Δt changes).
 //! 3. the content estimate on the smoothed pressure and temperature.
 //! 4. `accumulate` — the fill fraction is summed into the current rate
-//!    block.
+//!    block. The fill fraction the sample's own (raw, not yet despiked or
+//!    smoothed) reading implies, F·(p_raw/p)·(T/T_raw) (the gas-law scaling
+//!    from the smoothed reading; a temperature change at constant content
+//!    cancels), is compared with the previous block mean: beyond `settle_step` it marks a
+//!    fast fill or draw at once (`fast_sample`, see Settling below), so
+//!    `not_settled` is raised from the first sample of a fast change rather
+//!    than at the end of its block, and before the smoothed reading (which
+//!    lags a fast fill by a few samples) can be off unflagged. A single
+//!    spike that passes the sensor's plausibility check can mark one too.
 //! 5. alarm conditions and debounce ([`crate::alarm`]).
 //!
 //! # Per block (every `block`, default 60 s; the block divides one hour)
@@ -40,9 +48,12 @@
 //!   F_end the fitted value at the end of the window; earliest and latest
 //!   from rate ± U_t, U_t the time to empty's own budget written as a rate
 //!   spread (each input moves level and rate together).
-//! * **Settling**: a block mean that differs from the previous one by more than
-//!   `settle_step` marks a fast fill or draw; from then on the estimate is
-//!   `not_settled`. The gas relaxes to the sensor's temperature as a first
+//! * **Settling**: a block mean that differs from the previous one by more
+//!   than `settle_step` (`fast_change`) — or, already during the block, a
+//!   single sample (`fast_sample`, step 4) — marks a fast fill or draw; from
+//!   then on the estimate is `not_settled`. (Judged only per block a fast
+//!   fill could run unflagged for up to a whole block while the gas heats
+//!   and the reading runs ahead of or behind the truth.) The gas relaxes to the sensor's temperature as a first
 //!   order system, so the apparent content follows
 //!   F(t) = F∞ + (F₀ − F∞)·e^(−t/τ) and F∞ = F + τ·dF/dt. From
 //!   [`SETTLE_WINDOW`] blocks after the event on, the slope and mean of the

@@ -318,7 +318,9 @@ impl EvaluatorFx {
         }
     }
 
-    /// Expanded uncertainties (k = 2) of the mass and fill fraction of `c`.
+    /// Expanded uncertainties (k = 2) of the mass and fill fraction of `c`,
+    /// which must carry the model's slopes
+    /// ([`Estimator::with_slopes`](crate::content::fixed::Estimator::with_slopes)).
     pub fn evaluate(&self, c: &Content) -> UncertaintyFx {
         let k = self.terms(c);
         let sq = |v: u64| v * v;

@@ -6,8 +6,9 @@
 //! part, but QEMU 7.2 does not emulate them (its accesses are ignored and
 //! read as zero), so they are untested there.
 //!
-//! Flash map: code from 0; the store (6 record kinds × 2 banks of 1 KiB,
-//! two 4 KiB gas-model slots: 20 KiB) at [`STORE_START`]; the provisioning
+//! Flash map: code from 0; the store (the configuration record's two banks
+//! of 1 KiB, two 8 KiB prepared-configuration slots: 18 KiB) at
+//! [`STORE_START`], read in place through the memory map; the provisioning
 //! block in the last page ([`PROVISIONING`]).
 //!
 //! Samples are injected over the link: the emulated machine has no
@@ -19,11 +20,10 @@ use embedded_storage::nor_flash::{
     ErrorType as FlashErrorType, NorFlash, NorFlashError, NorFlashErrorKind, ReadNorFlash,
     check_erase, check_read, check_write,
 };
+use isochor_core::Error;
 use isochor_core::auth::{NonceSource, Provisioning, Secret};
 use isochor_core::link::{BootReport, NONCE_LEN, ResetReason};
-use isochor_core::model::device::Table;
 use isochor_core::store::Layout;
-use isochor_core::{Error, Gas};
 
 use super::{RxRing, SysTickClock};
 use crate::board::{Board, Injected, Parts, System, Watchdog};
@@ -32,13 +32,13 @@ use crate::retained;
 /// Core clock, Hz.
 pub const CORE_HZ: u32 = 16_000_000;
 /// Start of the store in flash.
-pub const STORE_START: u32 = 0x3_AC00;
-/// Size of the store: six record kinds of two 1 KiB banks, two 4 KiB slots.
+pub const STORE_START: u32 = PROVISIONING - STORE_LEN;
+/// Size of the store: the record's two 1 KiB banks, two configuration slots.
 pub const STORE_LEN: u32 = Layout::size(BANK_LEN, SLOT_LEN);
 /// Record bank length (one flash page).
 pub const BANK_LEN: u32 = 1024;
-/// Gas-model slot length.
-pub const SLOT_LEN: u32 = 4096;
+/// Prepared-configuration slot length (the largest configuration).
+pub const SLOT_LEN: u32 = 8192;
 /// Address of the provisioning block (the last flash page).
 pub const PROVISIONING: u32 = 0x3_FC00;
 /// UART0 interrupt number.
@@ -296,15 +296,6 @@ impl Microbit {
     }
 }
 
-/// The built-in gas models of this build: every gas, or only
-/// `ISOCHOR_GAS` when the firmware was built with it.
-pub fn builtin(gas: Gas) -> Option<Table<'static>> {
-    match crate::arm::ONLY_GAS {
-        Some(g) if g != gas => None,
-        _ => isochor_core::model::device::builtin::table(gas),
-    }
-}
-
 impl Board for Microbit {
     type Serial = Uart;
     type Flash = Nvmc;
@@ -338,7 +329,16 @@ impl Board for Microbit {
         Layout::contiguous(flash, 0, BANK_LEN, SLOT_LEN)
     }
 
-    fn builtin(gas: Gas) -> Option<Table<'static>> {
-        builtin(gas)
+    fn map(offset: u32, len: u32) -> Option<&'static [u8]> {
+        let end = offset.checked_add(len)?;
+        if end > STORE_LEN {
+            return None;
+        }
+        // SAFETY: inside the store's window of memory-mapped flash, which
+        // stays mapped for ever; the contract of `Board::map` keeps the
+        // range unwritten while the slice is in use.
+        Some(unsafe {
+            core::slice::from_raw_parts((STORE_START + offset) as *const u8, len as usize)
+        })
     }
 }

@@ -23,10 +23,6 @@ use isochor_core::time::Instant;
 use crate::board::Clock;
 use crate::retained::{Retained, WORDS};
 
-// The gas of a single-gas build (`ISOCHOR_GAS` at build time), or `None`
-// for every built-in table: `pub const ONLY_GAS: Option<Gas>`.
-include!(concat!(env!("OUT_DIR"), "/only_gas.rs"));
-
 // ---- clock ----
 
 static TICKS: AtomicU32 = AtomicU32::new(0);

@@ -21,11 +21,10 @@
 
 use embedded_io::{ErrorType, Read, ReadReady, Write};
 use hmac::{Hmac, KeyInit, Mac};
+use isochor_core::Error;
 use isochor_core::auth::{NonceSource, Provisioning, Secret};
 use isochor_core::link::{BootReport, NONCE_LEN, ResetReason};
-use isochor_core::model::device::Table;
 use isochor_core::store::Layout;
-use isochor_core::{Error, Gas};
 use sha2::Sha256;
 
 use super::{RxRing, SysTickClock};
@@ -40,7 +39,7 @@ pub const STORE_START: u32 = 0x2100_0000;
 /// Record bank length.
 pub const BANK_LEN: u32 = 1024;
 /// Gas-model slot length.
-pub const SLOT_LEN: u32 = 4096;
+pub const SLOT_LEN: u32 = 16384;
 /// Size of the store.
 pub const STORE_LEN: u32 = Layout::size(BANK_LEN, SLOT_LEN);
 /// Address of the provisioning block (the last KiB of PSRAM).
@@ -237,11 +236,10 @@ impl Board for Mps2 {
     const HARDWARE_REV: u16 = 2;
 
     fn split(self) -> Parts<Self> {
-        // SAFETY: the PSRAM window belongs to this driver alone (nothing
-        // else in the image refers to it) and `split` runs once.
-        let mem =
-            unsafe { core::slice::from_raw_parts_mut(STORE_START as *mut u8, STORE_LEN as usize) };
-        let mut flash = RamNor::new(mem);
+        // SAFETY: the PSRAM window is written by this driver alone (nothing
+        // else in the image writes it; `Board::map` reads it) and `split`
+        // runs once.
+        let mut flash = unsafe { RamNor::from_raw(STORE_START as *mut u8, STORE_LEN as usize) };
         let _ = format_if_blank(&mut flash);
         let key = provisioning().map_or([0; 32], |p| p.secret.derive(b"isochor/1/nonce-key"));
         Parts {
@@ -263,10 +261,16 @@ impl Board for Mps2 {
         Layout::contiguous(flash, 0, BANK_LEN, SLOT_LEN)
     }
 
-    fn builtin(gas: Gas) -> Option<Table<'static>> {
-        match crate::arm::ONLY_GAS {
-            Some(g) if g != gas => None,
-            _ => isochor_core::model::device::builtin::table(gas),
+    fn map(offset: u32, len: u32) -> Option<&'static [u8]> {
+        let end = offset.checked_add(len)?;
+        if end > STORE_LEN {
+            return None;
         }
+        // SAFETY: inside the PSRAM window of the store, mapped RAM for the
+        // program's life; the contract of `Board::map` keeps the range
+        // unwritten while the slice is in use.
+        Some(unsafe {
+            core::slice::from_raw_parts((STORE_START + offset) as *const u8, len as usize)
+        })
     }
 }

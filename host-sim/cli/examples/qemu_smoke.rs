@@ -12,7 +12,7 @@ fn main() {
     let dir = firmware::default_firmware_dir();
     let b = Build::standard(board);
     let elf = firmware::build(&dir, &b, &["isochor-firmware"]).unwrap();
-    println!("{:?}", firmware::image_size(&elf).unwrap());
+    println!("{:?}", isochor_sim::image::image_size(&elf).unwrap());
     let secret = Secret::new([3; 32]);
     let q = Qemu::start(board, &elf, Some((42, &secret)), Duration::from_secs(30)).unwrap();
     let mut c = Client::new(q.connection().unwrap(), Duration::from_secs(3)).with_secret(secret);

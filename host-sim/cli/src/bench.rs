@@ -8,9 +8,8 @@
 //! for, within one converter step. Lead resistance is added to resistive
 //! sensors; self-heating is not modelled.
 
-use isochor_core::app::RawSample;
-use isochor_core::link::{RawCode, SensorChannel};
 use isochor_core::sensor::calibration::{CalibrationRecord, SensorConfig};
+use isochor_core::sensor::channel::RawSample;
 use isochor_core::sensor::resistive::{Circuit, FrontEnd};
 use isochor_core::{fx, sensor};
 
@@ -109,19 +108,5 @@ impl Bench {
             pressure: self.pressure_code(p_pa, t_k)?,
             temperature: self.temperature_code(t_k)?,
         })
-    }
-
-    /// The codes of a sample as an injection message carries them.
-    pub fn raw_codes(s: &RawSample) -> [RawCode; 2] {
-        [
-            RawCode {
-                channel: SensorChannel::Pressure,
-                code: s.pressure,
-            },
-            RawCode {
-                channel: SensorChannel::Temperature,
-                code: s.temperature,
-            },
-        ]
     }
 }

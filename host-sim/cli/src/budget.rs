@@ -1,12 +1,14 @@
-//! The firmware's budget: for each firmware build, flash, static RAM and the
-//! measured peak stack; instructions per full estimate on the Cortex-M0 in
-//! fixed point and for the same algorithm in `f32` and `f64` software float.
+//! The firmware's budget: for each firmware build, flash (by module),
+//! static RAM (the largest statics), the measured peak stack and the panic
+//! paths linked; instructions per full estimate on the Cortex-M0 in fixed
+//! point, by stage of the chain, and for the same algorithm in `f32` and
+//! `f64` software float.
 //!
 //! Method:
-//! - **Flash and static RAM**: the section headers of the firmware image
-//!   ([`firmware::image_size`]): flash is everything loaded (vector table,
-//!   code, read-only data, `.data`'s initial values), static RAM `.data`,
-//!   `.bss` and `.uninit`.
+//! - **Flash and static RAM**: the firmware image's sections and symbols
+//!   ([`crate::image`]): flash is everything loaded (vector table, code,
+//!   read-only data, `.data`'s initial values), static RAM `.data`, `.bss`
+//!   and `.uninit`; flash by module from the symbol sizes.
 //! - **Instructions**: the budget program (`firmware/src/bin/budget.rs`),
 //!   built for `thumbv6m-none-eabi` (Cortex-M0 code) with the `mps2` memory
 //!   map (the `f64` run needs more RAM than the `microbit` has), run on QEMU's
@@ -15,18 +17,21 @@
 //!   time by 1 ns and the program reads SysTick around each of 3600 samples
 //!   at 1 Hz after two hours not timed (the tracker's windows full: steady
 //!   state; sixty block closes and one hourly leak step in the hour, each in
-//!   its share). A full
-//!   estimate is raw converter codes to every telemetry value: sensor
-//!   front-ends, corrections, content, tracking, uncertainty and alarms.
+//!   its share). A full estimate is raw converter codes to the tracker's
+//!   output: sensor channels, plausibility, content, tracking, uncertainty
+//!   and alarms. Stages: the same run with the core's stage marks on
+//!   (`isochor_core::probe`); `link` (the telemetry frame's values and
+//!   encoding) is measured there too and reported beside the estimate.
 //! - **Stack** (`stack_bytes`): the firmware image itself runs in QEMU on its
-//!   board, takes its configuration (signed record writes, each rebuilding
-//!   the pipeline) and [`STACK_RUN_SAMPLES`] samples injected over its serial
+//!   board, takes its configuration (a prepared configuration in signed
+//!   pieces) and [`STACK_RUN_SAMPLES`] samples injected over its serial
 //!   link, and reports the deepest stack it used (it paints its stack at
 //!   start) in its diagnostics. Beside it (`estimate_stack_bytes`), the budget
 //!   program paints the free stack before each path and prints over
 //!   semihosting the deepest stack that preparing the pipeline and running its
 //!   samples took there.
 
+use std::collections::BTreeMap;
 use std::io::Read as _;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
@@ -36,6 +41,7 @@ use serde::Serialize;
 
 use crate::Error;
 use crate::firmware::{self, Board, Build};
+use crate::image::{self, Symbol};
 
 /// Goal: instructions per full estimate in fixed point on the Cortex-M0.
 pub const GOAL_INSTRUCTIONS_FIXED: f64 = 2000.0;
@@ -49,7 +55,8 @@ pub const GOAL_FLASH_BYTES: u64 = 32 * 1024;
 /// bytes.
 pub const GOAL_RAM_BYTES: u64 = 6 * 1024;
 
-/// The gas of the single-gas Cortex-M0 build.
+/// The gas of the configuration the budget is measured with (the firmware
+/// holds no gas of its own: the gas comes with its configuration).
 pub const ONE_GAS: &str = "nitrogen";
 
 /// Longest a QEMU run of the budget program may take.
@@ -64,7 +71,7 @@ pub struct BuildBudget {
     pub board: String,
     /// The Rust target.
     pub target: String,
-    /// The only built-in gas (`None`: every built-in table).
+    /// The gas of the configuration measured.
     pub gas: Option<String>,
     /// Flash: vector table, code, read-only data, initial values of `.data`.
     pub flash_bytes: u64,
@@ -81,7 +88,17 @@ pub struct BuildBudget {
     /// painting, below the program's own frames; the pipeline's values pass
     /// through the stack there, so this is above what the firmware needs).
     pub estimate_stack_bytes: u64,
+    /// Flash by module, bytes (see [`crate::image`]; adds up to
+    /// `flash_bytes`).
+    pub flash_by_module: BTreeMap<String, u64>,
+    /// The largest statics, largest first (at most [`STATICS_SHOWN`]).
+    pub largest_statics: Vec<Symbol>,
+    /// Functions of the panic machinery the image links (none wanted).
+    pub panic_symbols: Vec<String>,
 }
+
+/// How many statics a build lists.
+pub const STATICS_SHOWN: usize = 10;
 
 /// The whole budget.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -108,6 +125,15 @@ pub struct Budget {
     pub stack_bytes_f32: u64,
     /// Deepest stack of the `f64` path on the Cortex-M0, bytes.
     pub stack_bytes_f64: u64,
+    /// Flash by module of the Cortex-M0 build, bytes.
+    pub flash_by_module: BTreeMap<String, u64>,
+    /// Instructions per sample by stage of the chain, fixed point,
+    /// Cortex-M0 (mean; `link` is the telemetry frame, outside the
+    /// estimate).
+    pub instructions_by_stage: BTreeMap<String, f64>,
+    /// The same stages in the largest sample (the one with the most
+    /// instructions in the estimate's stages).
+    pub instructions_by_stage_largest_sample: BTreeMap<String, u64>,
 }
 
 /// What the budget program printed.
@@ -123,6 +149,8 @@ pub struct ProgramOutput {
     pub stack: [Option<u64>; 3],
     /// The scale check (instructions of a 2-instruction loop iteration).
     pub scale_check: Option<f64>,
+    /// `(mean, in the largest sample)` instructions by stage, fixed point.
+    pub stages: BTreeMap<String, (f64, u64)>,
 }
 
 /// Reads the lines of the budget program (`name=value [max=value]`).
@@ -133,11 +161,21 @@ pub fn parse_program_output(text: &str) -> ProgramOutput {
         let Some((key, value)) = words.next().and_then(|w| w.split_once('=')) else {
             continue;
         };
-        let max = words
-            .find_map(|w| w.strip_prefix("max="))
-            .and_then(|m| m.parse::<u64>().ok());
+        let rest: Vec<&str> = words.collect();
+        let field = |name: &str| {
+            rest.iter()
+                .find_map(|w| w.strip_prefix(name))
+                .and_then(|m| m.parse::<u64>().ok())
+        };
+        let max = field("max=");
         let mean = value.parse::<f64>().ok();
         let pair = mean.zip(max);
+        if let Some(stage) = key.strip_prefix("stage_") {
+            if let Some(v) = mean.zip(field("worst=")) {
+                out.stages.insert(stage.to_string(), v);
+            }
+            continue;
+        }
         match key {
             "instructions_fixed" => out.fixed = pair,
             "instructions_f32" => out.f32 = pair,
@@ -158,17 +196,15 @@ pub const STACK_RUN_SAMPLES: u64 = 200;
 
 /// The deepest stack of the firmware image `elf` on `board`: the firmware
 /// runs in QEMU, provisioned with a secret of this run; it answers a ping and
-/// its identity, takes the signed configuration (setup — a gas other than its
-/// default, so the gauge restarts —, calibrations, tracking and alarms: each
-/// write rebuilds the pipeline), then [`STACK_RUN_SAMPLES`] samples injected
+/// its identity, takes the nominal configuration in signed pieces (the last
+/// one validates the whole and prepares the pipeline) and sends it back,
+/// then [`STACK_RUN_SAMPLES`] samples injected
 /// over its link (a slow draw of a 50 L nitrogen cylinder at 20 °C, each
 /// answered with telemetry, block closes included), and reports its stack
 /// peak (stack painting) in its diagnostics.
 pub fn firmware_stack(board: Board, elf: &Path) -> Result<u64, Error> {
     use isochor_core::auth::Secret;
-    use isochor_core::store::{
-        AlarmThresholds, PressureCalibration, TemperatureCalibration, TrackingSettings,
-    };
+    use isochor_core::prepared::GaugeConfig;
     use isochor_core::{Gas, Setup, SetupFx, Tank};
     let mut key = [0u8; 32];
     getrandom::fill(&mut key).map_err(|e| Error::Tool(format!("random secret: {e}")))?;
@@ -196,22 +232,17 @@ pub fn firmware_stack(board: Board, elf: &Path) -> Result<u64, Error> {
     }
     c.identity()?;
     let setup = SetupFx::from_f64(&Setup::new(Gas::Nitrogen, Tank::new(0.050, 200e5)))?;
-    c.write_record(&setup)?;
-    std::thread::sleep(Duration::from_millis(300));
-    let p_cal = PressureCalibration::nominal();
-    let t_cal = TemperatureCalibration::nominal();
-    c.write_record(&p_cal)?;
-    c.write_record(&t_cal)?;
-    c.write_record(&TrackingSettings::for_tank(&setup, p_cal.full_scale()))?;
-    c.write_record(&AlarmThresholds::for_tank(&setup))?;
-    let bench = crate::bench::Bench::new(p_cal.0, t_cal.0, 101_325.0);
+    let config = GaugeConfig::nominal(setup);
+    c.configure(&config, &mut |_, _| {})?;
+    c.read_config()?;
+    let bench = crate::bench::Bench::new(config.pressure, config.temperature, 101_325.0);
     for i in 0..STACK_RUN_SAMPLES {
         if q.expired() {
             return Err(Error::Tool("the firmware run took too long".into()));
         }
         let p = 150e5 - 2e3 * i as f64;
         let raw = bench.sample(p, 293.15)?;
-        c.inject(i * 1000, &crate::bench::Bench::raw_codes(&raw))?;
+        c.inject(i * 1000, raw.pressure, raw.temperature)?;
         c.take_unsolicited();
     }
     Ok(c.diagnostics()?.stack_peak_bytes.into())
@@ -220,37 +251,13 @@ pub fn firmware_stack(board: Board, elf: &Path) -> Result<u64, Error> {
 /// Serial number the firmware is provisioned with for its stack run.
 const STACK_RUN_SERIAL: u64 = 7_000_001;
 
-/// Fails with a clear message when `qemu-system-arm` or a Rust target the
-/// budget needs is missing.
+/// Fails with a clear message, naming the command that fixes it, when
+/// `qemu-system-arm` or a Rust target the budget needs is missing.
 pub fn check_tools() -> Result<(), Error> {
-    if !firmware::qemu_available() {
-        return Err(Error::Tool(
-            "qemu-system-arm not found: install QEMU (Debian: apt-get install qemu-system-arm)"
-                .into(),
-        ));
+    match firmware::missing_tools() {
+        Some(why) => Err(Error::Tool(why)),
+        None => Ok(()),
     }
-    for board in Board::ALL {
-        let target = board.target();
-        if !target_installed(target) {
-            return Err(Error::Tool(format!(
-                "the Rust target {target} is not installed: rustup target add {target}"
-            )));
-        }
-    }
-    Ok(())
-}
-
-/// True when the standard library of `target` is in the sysroot.
-fn target_installed(target: &str) -> bool {
-    let Ok(out) = Command::new("rustc").args(["--print", "sysroot"]).output() else {
-        return false;
-    };
-    let sysroot = String::from_utf8_lossy(&out.stdout).trim().to_string();
-    Path::new(&sysroot)
-        .join("lib/rustlib")
-        .join(target)
-        .join("lib")
-        .is_dir()
 }
 
 /// Builds the budget program for `board`'s target (Cortex-M0 code with the
@@ -262,14 +269,21 @@ pub fn build_program(firmware_dir: &Path, board: Board) -> Result<PathBuf, Error
     });
     let mut cmd = Command::new(std::env::var("CARGO").unwrap_or_else(|_| "cargo".into()));
     cmd.current_dir(firmware_dir)
-        .args(["build", "--release", "--bin", "budget", "--target"])
+        .args([
+            "build",
+            "--release",
+            "--features",
+            "budget",
+            "--bin",
+            "budget",
+        ])
+        .arg("--target")
         .arg(board.target())
         .arg("--target-dir")
         .arg(&dir)
         .env_remove("RUSTFLAGS")
         .env_remove("CARGO_ENCODED_RUSTFLAGS")
         .env_remove("CARGO_TARGET_DIR")
-        .env_remove("ISOCHOR_GAS")
         .env("ISOCHOR_MEMORY", "mps2");
     let out = cmd
         .output()
@@ -344,14 +358,15 @@ fn missing(what: &str) -> Error {
 pub fn measure(firmware_dir: &Path) -> Result<Budget, Error> {
     check_tools()?;
     let builds = [
-        Build::one_gas(Board::Microbit, ONE_GAS),
+        Build::standard(Board::Microbit),
         Build::standard(Board::Mps2An386),
     ];
     let mut m0 = None;
     let mut rows = Vec::new();
     for b in &builds {
         let elf = firmware::build(firmware_dir, b, &["isochor-firmware"])?;
-        let size = firmware::image_size(&elf)?;
+        let img = image::read(&elf)?;
+        let size = img.size;
         let program = build_program(firmware_dir, b.board)?;
         let out = run_program(&program, b.board)?;
         let estimate_stack_bytes = out.stack[0].ok_or_else(|| missing("stack_fixed"))?;
@@ -360,12 +375,15 @@ pub fn measure(firmware_dir: &Path) -> Result<Budget, Error> {
             name: b.name.clone(),
             board: b.board.name().into(),
             target: b.board.target().into(),
-            gas: b.only_gas.clone(),
+            gas: Some(ONE_GAS.into()),
             flash_bytes: size.flash_bytes,
             static_ram_bytes: size.static_ram_bytes,
             stack_bytes: stack,
             ram_bytes: size.static_ram_bytes + stack,
             estimate_stack_bytes,
+            flash_by_module: img.flash_by_module,
+            largest_statics: img.statics.into_iter().take(STATICS_SHOWN).collect(),
+            panic_symbols: img.panic_symbols,
         });
         if b.board == Board::Microbit {
             m0 = Some(out);
@@ -378,6 +396,14 @@ pub fn measure(firmware_dir: &Path) -> Result<Budget, Error> {
     if fixed <= 0.0 {
         return Err(missing("positive fixed-point figure"));
     }
+    if m0.stages.is_empty() {
+        return Err(missing("stage figures"));
+    }
+    let flash_by_module = rows
+        .iter()
+        .find(|r| r.board == Board::Microbit.name())
+        .map(|r| r.flash_by_module.clone())
+        .unwrap_or_default();
     Ok(Budget {
         builds: rows,
         instructions_fixed: fixed,
@@ -390,7 +416,25 @@ pub fn measure(firmware_dir: &Path) -> Result<Budget, Error> {
         ratio_f32: f32_ / fixed,
         stack_bytes_f32: m0.stack[1].ok_or_else(|| missing("stack_f32"))?,
         stack_bytes_f64: m0.stack[2].ok_or_else(|| missing("stack_f64"))?,
+        flash_by_module,
+        instructions_by_stage: m0.stages.iter().map(|(k, v)| (k.clone(), v.0)).collect(),
+        instructions_by_stage_largest_sample: m0
+            .stages
+            .iter()
+            .map(|(k, v)| (k.clone(), v.1))
+            .collect(),
     })
+}
+
+/// `text` cut to `n` characters (an ellipsis at the end when cut).
+fn cut(text: &str, n: usize) -> String {
+    if text.chars().count() <= n {
+        text.to_string()
+    } else {
+        let mut t: String = text.chars().take(n.saturating_sub(1)).collect();
+        t.push('…');
+        t
+    }
 }
 
 /// `met` or `NOT met`.
@@ -429,7 +473,7 @@ pub fn render_text(b: &Budget) -> String {
     let _ = writeln!(s);
     let _ = writeln!(
         s,
-        "Instructions per full estimate, Cortex-M0 (raw codes to all outputs; mean of one hour at 1 Hz \
+        "Instructions per full estimate, Cortex-M0 (raw codes to the tracker's output; mean of one hour at 1 Hz \
          after two hours' warm-up, max = one sample)"
     );
     let _ = writeln!(
@@ -467,6 +511,52 @@ pub fn render_text(b: &Budget) -> String {
         GOAL_RATIO_F64,
         verdict(b.ratio_f64 >= GOAL_RATIO_F64)
     );
+    let _ = writeln!(s);
+    let _ = writeln!(
+        s,
+        "Where the fixed-point instructions go, Cortex-M0 (mean per sample; largest sample)"
+    );
+    let mut estimate = 0.0;
+    for stage in isochor_core::probe::Stage::ALL {
+        let name = stage.name();
+        let Some(mean) = b.instructions_by_stage.get(name) else {
+            continue;
+        };
+        let worst = b
+            .instructions_by_stage_largest_sample
+            .get(name)
+            .copied()
+            .unwrap_or(0);
+        if stage != isochor_core::probe::Stage::Link {
+            estimate += mean;
+        }
+        let _ = writeln!(s, "  {name:<14} {mean:>10.0} {worst:>10}");
+    }
+    let _ = writeln!(
+        s,
+        "  (stages of the estimate add up to {estimate:.0}; link, the telemetry frame's values and encoding, comes on top)"
+    );
+    for r in &b.builds {
+        let _ = writeln!(s);
+        let _ = writeln!(s, "Flash by module, {} ({} B)", r.name, r.flash_bytes);
+        let mut mods: Vec<(&String, &u64)> = r.flash_by_module.iter().collect();
+        mods.sort_by(|a, b| b.1.cmp(a.1).then(a.0.cmp(b.0)));
+        for (m, bytes) in mods {
+            let _ = writeln!(s, "  {m:<28} {bytes:>8}");
+        }
+        let _ = writeln!(s, "Largest statics, {}", r.name);
+        for st in &r.largest_statics {
+            let _ = writeln!(s, "  {:<60} {:>8}", cut(&st.name, 60), st.bytes);
+        }
+        if r.panic_symbols.is_empty() {
+            let _ = writeln!(s, "Panic paths linked: none");
+        } else {
+            let _ = writeln!(s, "Panic paths linked ({}):", r.panic_symbols.len());
+            for p in &r.panic_symbols {
+                let _ = writeln!(s, "  {}", cut(p, 100));
+            }
+        }
+    }
     if let Some(m0) = b.builds.iter().find(|r| r.board == Board::Microbit.name()) {
         let _ = writeln!(s);
         let _ = writeln!(
@@ -483,5 +573,6 @@ pub fn render_text(b: &Budget) -> String {
     }
     let _ = writeln!(s);
     let _ = writeln!(s, "{}", isochor_eos::safety::GENERAL);
+    let _ = writeln!(s, "{}", isochor_eos::safety::HARDWARE);
     s
 }

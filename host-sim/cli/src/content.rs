@@ -6,7 +6,9 @@
 //! keep them stable.
 
 use crate::Error;
+use isochor_core::constants::{BAR_PA, ZERO_CELSIUS_K};
 use isochor_core::content::{fixed, float};
+use isochor_core::envelope as env;
 use isochor_core::model::{Compressibility, CompressibilityFx, DeviceModel, Ideal};
 use isochor_core::{Setup, SetupFx, StandardCondition, Status, Tank, fx};
 use isochor_eos::composition::GasSpec;
@@ -79,6 +81,9 @@ pub struct TankReport {
     pub rated_temperature_k: f64,
     /// Elastic expansion per MPa.
     pub elastic_expansion_per_mpa: f64,
+    /// Elastic expansion per bar (as `--elastic-expansion-per-bar` takes
+    /// it: a tenth of the per-MPa figure).
+    pub elastic_expansion_per_bar: f64,
     /// Thermal expansion per K.
     pub thermal_expansion_per_k: f64,
     /// Rated content (mass at rated pressure and temperature), kg, f64 path.
@@ -102,8 +107,10 @@ pub struct ReferenceReport {
     pub eos: Option<Outputs>,
 }
 
-/// The outputs of one path. Content values are `null` when the status says
-/// they are not valid (liquid or two-phase).
+/// The outputs of one path. Content values (and Z) are `null` when the
+/// status says they are not valid ([`Status::CONTENT_INVALID`]: liquid,
+/// `two_phase` or `liquid_full`, or a sample outside the operating
+/// envelope, whose content would be the edge's and not the tank's).
 #[derive(Clone, Debug, Serialize, PartialEq)]
 pub struct Outputs {
     /// Density, kg/m³.
@@ -118,8 +125,9 @@ pub struct Outputs {
     pub settled_pressure_pa: Option<f64>,
     /// Fill fraction (1 = rated content).
     pub fill_fraction: Option<f64>,
-    /// Compressibility factor used.
-    pub z: f64,
+    /// Compressibility factor used (`null` where the content is not valid:
+    /// the model's answer there belongs to another state).
+    pub z: Option<f64>,
     /// Status flag names.
     pub status: Vec<String>,
 }
@@ -146,7 +154,7 @@ impl Outputs {
             standard_volume_m3: valid(standard_volume, content_ok),
             settled_pressure_pa: valid(settled, settled_ok),
             fill_fraction: valid(fraction, content_ok),
-            z,
+            z: valid(z, content_ok),
             status: status.names().map(str::to_string).collect(),
         }
     }
@@ -177,6 +185,17 @@ pub struct ContentReport {
     pub fixed: Outputs,
     /// The f64 path.
     pub float: Outputs,
+    /// The pressure, absolute, Pa, the rated content has at the sample's
+    /// temperature (the rated pressure corrected to this temperature; f64
+    /// path): above it, the vessel holds more than its rated content.
+    /// `null` where the gas model has no gas answer there.
+    pub rated_pressure_at_temperature_pa: Option<f64>,
+    /// The absolute pressure limit, Pa: 5/4 of the service (gauge) pressure
+    /// above the standard atmosphere (see the `over_pressure` alarm).
+    pub pressure_limit_pa: f64,
+    /// What the reader must act on: over-fill, over-pressure, liquid in the
+    /// vessel (one sentence each; empty when none applies).
+    pub warnings: Vec<String>,
     /// Safety cautions.
     pub caution: String,
 }
@@ -251,8 +270,14 @@ where
         standard: req.standard.1,
         settled_reference_k: req.settled_reference_k,
     };
+    check_rated_and_standard(req, &float_model)?;
     let float_est = float::Estimator::new(setup, float_model)?;
     let a = float_est.estimate(req.pressure_pa, req.temperature_k)?;
+    let (p_rated_now, p_rated_now_status) = float_est.pressure_at(1.0, a.temperature_k);
+    let rated_pressure_at_temperature_pa = (!p_rated_now_status
+        .intersects(Status::CONTENT_INVALID | Status::MODEL_OUT_OF_RANGE))
+    .then_some(p_rated_now);
+    let limits = isochor_core::alarm::float::Limits::for_tank(&req.tank);
 
     let fixed_est = fixed::Estimator::new(SetupFx::from_f64(&setup)?, fixed_model)?;
     let (p, p_sat) = saturating::<fx::Pressure>(req.pressure_pa);
@@ -279,6 +304,7 @@ where
             rated_pressure_pa: req.tank.rated_pressure_pa,
             rated_temperature_k: req.tank.rated_temperature_k,
             elastic_expansion_per_mpa: req.tank.elastic_expansion_per_mpa,
+            elastic_expansion_per_bar: req.tank.elastic_expansion_per_mpa / 10.0,
             thermal_expansion_per_k: req.tank.thermal_expansion_per_k,
             rated_mass_kg: float_est.rated_mass_kg(),
         },
@@ -309,8 +335,148 @@ where
             a.z.z,
             a.status,
         ),
+        warnings: warnings(
+            req,
+            a.status | b.status,
+            a.fill_fraction,
+            rated_pressure_at_temperature_pa,
+            limits.pressure_max_pa,
+        ),
+        rated_pressure_at_temperature_pa,
+        pressure_limit_pa: limits.pressure_max_pa,
         caution: safety::paragraph_for(&req.gas),
     })
+}
+
+/// Refuses, with the reason and what to do, a rated or standard condition
+/// where the gas model has no gas answer (liquid, or liquid and vapour).
+fn check_rated_and_standard<M: Compressibility<f64>>(
+    req: &ContentRequest,
+    model: &M,
+) -> Result<(), Error> {
+    let t = &req.tank;
+    let rated = model.z(t.rated_pressure_pa, t.rated_temperature_k);
+    if rated.flags.intersects(Status::CONTENT_INVALID) {
+        let vapour = match &req.gas {
+            GasSpec::Pure(g) => isochor_eos::Eos::of(*g)
+                .saturation_pressure_pa(t.rated_temperature_k)
+                .map(|p| {
+                    format!(
+                        " (its vapour pressure at {} is about {} abs)",
+                        units::fmt_celsius(t.rated_temperature_k),
+                        units::fmt_bar(p)
+                    )
+                })
+                .unwrap_or_default(),
+            GasSpec::Mixture(_) => " (at or above the mixture's dew line)".to_string(),
+        };
+        return Err(Error::Invalid(format!(
+            "no usable answer at the rated condition: {} at {} abs and {} is liquid, or liquid \
+             and vapour{vapour}, not a gas (the gas model refuses liquid states). The content of a cylinder holding liquid cannot be \
+             found from its pressure: weigh the cylinder (gross weight less the tare marked \
+             on it). For a vessel rated for gas only, give its rated pressure and temperature \
+             as marked (--rated-pressure, --rated-temperature).",
+            gas_words(&req.gas),
+            units::fmt_bar(t.rated_pressure_pa),
+            units::fmt_celsius(t.rated_temperature_k),
+        )));
+    }
+    let std = &req.standard.1;
+    let z = model.z(std.pressure_pa, std.temperature_k);
+    if z.flags.intersects(Status::CONTENT_INVALID) {
+        return Err(Error::Invalid(format!(
+            "no usable answer at the standard condition {} ({} and {:.3} kPa): {} is liquid \
+             there, so a standard volume of gas means nothing; choose another --standard",
+            req.standard.0,
+            units::fmt_celsius(std.temperature_k),
+            std.pressure_pa / 1e3,
+            gas_words(&req.gas),
+        )));
+    }
+    Ok(())
+}
+
+/// A gas in a sentence: a pure gas's name in words, a mixture's composition.
+fn gas_words(spec: &GasSpec) -> String {
+    match spec {
+        GasSpec::Pure(g) => g.name().replace('_', " "),
+        GasSpec::Mixture(c) => format!("the mixture {c}"),
+    }
+}
+
+/// The warnings of one sample (see [`ContentReport::warnings`]).
+fn warnings(
+    req: &ContentRequest,
+    status: Status,
+    fill_fraction: f64,
+    rated_now: Option<f64>,
+    pressure_limit: f64,
+) -> Vec<String> {
+    let mut w = Vec::new();
+    let t = units::fmt_celsius(req.temperature_k);
+    let (gas, vapour) = match &req.gas {
+        GasSpec::Pure(g) => (
+            g.name().replace('_', " "),
+            isochor_eos::Eos::of(*g)
+                .saturation_pressure_pa(req.temperature_k)
+                .map(|p| format!(" ({} abs)", units::fmt_bar(p)))
+                .unwrap_or_default(),
+        ),
+        GasSpec::Mixture(_) => (gas_words(&req.gas), String::new()),
+    };
+    if status.contains(Status::CONDENSATION_RISK) {
+        w.push(format!(
+            "CONDENSATION RISK: at {t} and {} abs {gas} is at or above its dew \
+             line, where a liquid can form; the content figures are not valid. Warm the cylinder to \
+             room temperature before use.",
+            units::fmt_bar(req.pressure_pa)
+        ));
+    }
+    if status.contains(Status::LIQUID_FULL) {
+        w.push(format!(
+            "LIQUID-FULL: {} abs is far above the vapour pressure of {gas} at {t}{vapour}: the \
+             vessel is full of liquid with no vapour space left, and its pressure rises by \
+             several bar for every kelvin it warms. Danger of bursting: keep it cool and away \
+             from heat, do not fill it, and have it checked. Its content cannot be found from \
+             its pressure: weigh it.",
+            units::fmt_bar(req.pressure_pa)
+        ));
+    } else if status.contains(Status::TWO_PHASE) {
+        w.push(format!(
+            "LIQUID IN THE VESSEL: at {t} the reading is at (or just above) the vapour \
+             pressure of {gas}{vapour}: the vessel holds liquid and vapour, and the pressure \
+             stays the same until the liquid is gone, whatever the content. Weigh the \
+             cylinder (gross weight less the tare marked on it) to know the content."
+        ));
+    }
+    if status.contains(Status::OVER_FILL) {
+        let above = rated_now
+            .map(|p| {
+                format!(
+                    "; the pressure {} abs is above {} abs, the pressure of the rated content at \
+                     {t} (the rated pressure corrected to this temperature)",
+                    units::fmt_bar(req.pressure_pa),
+                    units::fmt_bar(p)
+                )
+            })
+            .unwrap_or_default();
+        w.push(format!(
+            "OVER-FILL: the content is {:.1} % of the rated content{above}. Do not fill \
+             further or heat the vessel; have the excess removed safely as your local codes \
+             require.",
+            fill_fraction * 100.0
+        ));
+    }
+    if req.pressure_pa > pressure_limit {
+        w.push(format!(
+            "OVER-PRESSURE: {} abs is above {} abs, 5/4 of the service pressure (gauge): above \
+             what the vessel may see at any temperature. Move it somewhere cool and safe and \
+             have it checked.",
+            units::fmt_bar(req.pressure_pa),
+            units::fmt_bar(pressure_limit)
+        ));
+    }
+    w
 }
 
 /// Converts to a fixed-point format, clamping; the flag says it clamped.
@@ -412,13 +578,8 @@ pub fn render_text(r: &ContentReport) -> String {
         pct(x.fill_fraction),
         third(&|o| pct(o.fill_fraction)),
     );
-    row(
-        &mut s,
-        "Z (CODATA R)",
-        Some(format!("{:.6}", f.z)),
-        Some(format!("{:.6}", x.z)),
-        third(&|o| Some(format!("{:.6}", o.z))),
-    );
+    let z = |v: Option<f64>| v.map(|z| format!("{z:.6}"));
+    row(&mut s, "Z (CODATA R)", z(f.z), z(x.z), third(&|o| z(o.z)));
     let status = |v: &[String]| {
         if v.is_empty() {
             "ok".to_string()
@@ -433,6 +594,24 @@ pub fn render_text(r: &ContentReport) -> String {
         Some(status(&x.status)),
         third(&|o| Some(status(&o.status))),
     );
+    let outside = [&r.fixed, &r.float].iter().any(|o| {
+        o.status
+            .iter()
+            .any(|f| f == "pressure_outside_envelope" || f == "temperature_outside_envelope")
+    });
+    if outside {
+        let _ = writeln!(
+            s,
+            "\nnot valid: the sample lies outside the operating envelope ({:.0}–{:.0} bar abs, \
+             {:.0} … {:+.0} °C).\nThe device clamps it to the edge so nothing overflows, and \
+             flags it; the content\ncomputed there is the edge's, not the tank's, so it is not \
+             shown as a number.",
+            env::PRESSURE_MIN_PA / BAR_PA,
+            env::PRESSURE_MAX_PA / BAR_PA,
+            env::TEMPERATURE_MIN_K - ZERO_CELSIUS_K,
+            env::TEMPERATURE_MAX_K - ZERO_CELSIUS_K,
+        );
+    }
     let _ = writeln!(
         s,
         "\nstandard volume at {} and {:.3} kPa ({}); settled pressure at {}; rated content {:.4} kg.",
@@ -442,19 +621,20 @@ pub fn render_text(r: &ContentReport) -> String {
         units::fmt_celsius(r.settled_reference_k),
         r.tank.rated_mass_kg
     );
+    if let Some(p) = r.rated_pressure_at_temperature_pa {
+        let _ = writeln!(
+            s,
+            "rated content at {}: {} abs (over-fill above {:.0} % of it); pressure limit {} abs.",
+            units::fmt_celsius(r.sample.temperature_k),
+            units::fmt_bar(p),
+            isochor_core::content::OVER_FILL_FRACTION * 100.0,
+            units::fmt_bar(r.pressure_limit_pa)
+        );
+    }
+    for w in &r.warnings {
+        let _ = writeln!(s, "\n{w}");
+    }
     if let Ok(g) = GasSpec::parse(&r.gas) {
-        if r.fixed
-            .status
-            .iter()
-            .chain(&r.float.status)
-            .any(|f| f == "condensation_risk")
-        {
-            let _ = writeln!(
-                s,
-                "\ncondensation_risk: below the mixture's dew line a liquid can form; the content \
-                 figures are not valid (warm the cylinder to room temperature before use)."
-            );
-        }
         let _ = writeln!(s);
         for line in safety::lines_for(&g) {
             let _ = writeln!(s, "{line}");

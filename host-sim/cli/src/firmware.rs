@@ -73,46 +73,47 @@ pub fn default_firmware_dir() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("../../firmware")
 }
 
-/// One firmware build: board, features and the gas of a single-gas build.
+/// One firmware build: board and features.
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub struct Build {
     /// Name in reports.
     pub name: String,
     /// The board.
     pub board: Board,
-    /// `--no-default-features` (no gas-model loading).
+    /// `--no-default-features`.
     pub no_default_features: bool,
-    /// `ISOCHOR_GAS` (single built-in gas), if any.
-    pub only_gas: Option<String>,
+    /// Features to turn on (`--features`).
+    pub features: Vec<String>,
 }
 
 impl Build {
-    /// The default build of a board (every built-in gas, gas-model loading).
+    /// The default build of a board (the firmware's default features).
     pub fn standard(board: Board) -> Build {
         Build {
             name: board.name().into(),
             board,
             no_default_features: false,
-            only_gas: None,
+            features: Vec::new(),
         }
     }
 
-    /// The Cortex-M0 build with one built-in gas and no gas-model loading.
-    pub fn one_gas(board: Board, gas: &str) -> Build {
+    /// A build of `board` named `name` with only `features`.
+    pub fn with_features(board: Board, name: &str, features: &[&str]) -> Build {
         Build {
-            name: format!("{}-{}", board.name(), gas.replace(' ', "-")),
+            name: format!("{}-{name}", board.name()),
             board,
             no_default_features: true,
-            only_gas: Some(gas.into()),
+            features: features.iter().map(|f| f.to_string()).collect(),
         }
     }
 
-    /// The target folder of this build (single-gas builds get their own, so
-    /// the builds do not rebuild each other).
+    /// The target folder of this build (builds other than the standard one
+    /// get their own, so the builds do not rebuild each other).
     pub fn target_dir(&self, firmware: &Path) -> PathBuf {
-        match &self.only_gas {
-            None => firmware.join("target"),
-            Some(_) => firmware.join("target").join(&self.name),
+        if *self == Build::standard(self.board) {
+            firmware.join("target")
+        } else {
+            firmware.join("target").join(&self.name)
         }
     }
 
@@ -158,10 +159,9 @@ pub fn build(firmware: &Path, b: &Build, bins: &[&str]) -> Result<PathBuf, Error
     if b.no_default_features {
         cmd.arg("--no-default-features");
     }
-    match &b.only_gas {
-        Some(g) => cmd.env("ISOCHOR_GAS", g),
-        None => cmd.env_remove("ISOCHOR_GAS"),
-    };
+    if !b.features.is_empty() {
+        cmd.arg("--features").arg(b.features.join(","));
+    }
     run_checked(cmd, &format!("building the firmware ({})", b.name))?;
     Ok(b.elf(
         firmware,
@@ -177,6 +177,46 @@ pub fn qemu_available() -> bool {
         .stderr(Stdio::null())
         .status()
         .is_ok_and(|s| s.success())
+}
+
+/// The command that installs QEMU's Arm system emulator on Debian (what
+/// `tests/setup.sh` runs when it is missing).
+pub const QEMU_INSTALL: &str = "sudo apt-get install qemu-system-arm";
+
+/// True when the standard library of the Rust target `target` is in the
+/// sysroot of the `rustc` found from the current folder (rustup's
+/// `rust-toolchain.toml` applies).
+pub fn target_installed(target: &str) -> bool {
+    let Ok(out) = Command::new("rustc").args(["--print", "sysroot"]).output() else {
+        return false;
+    };
+    let sysroot = String::from_utf8_lossy(&out.stdout).trim().to_string();
+    Path::new(&sysroot)
+        .join("lib/rustlib")
+        .join(target)
+        .join("lib")
+        .is_dir()
+}
+
+/// What building the firmware for every board and running it in QEMU needs
+/// that is missing here, with the command that fixes it; `None` when
+/// everything is there.
+pub fn missing_tools() -> Option<String> {
+    if !qemu_available() {
+        return Some(format!(
+            "qemu-system-arm is missing: run `tests/setup.sh` (it installs the Debian package) \
+             or `{QEMU_INSTALL}`"
+        ));
+    }
+    Board::ALL
+        .iter()
+        .map(|b| b.target())
+        .find(|t| !target_installed(t))
+        .map(|t| {
+            format!(
+                "the Rust target {t} is not installed: run `tests/setup.sh` or `rustup target add {t}`"
+            )
+        })
 }
 
 /// A running emulator; killed when dropped.
@@ -387,84 +427,4 @@ impl From<Error> for Started {
     fn from(e: Error) -> Started {
         Started::Failed(e)
     }
-}
-
-/// Sizes of an image, from its ELF section headers: what goes into flash
-/// (vector table, code, read-only data, the initial values of `.data`) and
-/// what takes RAM statically (`.data`, `.bss`, `.uninit`).
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, serde::Serialize)]
-pub struct ImageSize {
-    /// Bytes of flash.
-    pub flash_bytes: u64,
-    /// Bytes of RAM taken by statics.
-    pub static_ram_bytes: u64,
-}
-
-/// Reads the sizes of a 32-bit little-endian ELF image.
-pub fn image_size(elf: &Path) -> Result<ImageSize, Error> {
-    let b = std::fs::read(elf).map_err(|e| Error::File {
-        path: elf.display().to_string(),
-        reason: e.to_string(),
-    })?;
-    let bad = || Error::File {
-        path: elf.display().to_string(),
-        reason: "not a 32-bit little-endian ELF image".into(),
-    };
-    if b.get(..6) != Some(&[0x7F, b'E', b'L', b'F', 1, 1][..]) {
-        return Err(bad());
-    }
-    let u16_at = |o: usize| -> Result<u64, Error> {
-        Ok(u16::from_le_bytes(
-            b.get(o..o + 2)
-                .ok_or_else(bad)?
-                .try_into()
-                .map_err(|_| bad())?,
-        )
-        .into())
-    };
-    let u32_at = |o: usize| -> Result<u64, Error> {
-        Ok(u32::from_le_bytes(
-            b.get(o..o + 4)
-                .ok_or_else(bad)?
-                .try_into()
-                .map_err(|_| bad())?,
-        )
-        .into())
-    };
-    let shoff = u32_at(0x20)? as usize;
-    let shentsize = u16_at(0x2E)? as usize;
-    let shnum = u16_at(0x30)? as usize;
-    let shstrndx = u16_at(0x32)? as usize;
-    let sec = |i: usize| shoff + i * shentsize;
-    let strtab = u32_at(sec(shstrndx) + 0x10)? as usize;
-    let mut size = ImageSize::default();
-    for i in 0..shnum {
-        let h = sec(i);
-        let name_off = u32_at(h)? as usize;
-        let name: String = b
-            .get(strtab + name_off..)
-            .ok_or_else(bad)?
-            .iter()
-            .take_while(|&&c| c != 0)
-            .map(|&c| c as char)
-            .collect();
-        let kind = u32_at(h + 4)?;
-        let flags = u32_at(h + 8)?;
-        let sz = u32_at(h + 0x14)?;
-        const ALLOC: u64 = 2;
-        const NOBITS: u64 = 8;
-        if flags & ALLOC == 0 || sz == 0 {
-            continue;
-        }
-        match name.as_str() {
-            ".data" => {
-                size.flash_bytes += sz;
-                size.static_ram_bytes += sz;
-            }
-            ".bss" | ".uninit" => size.static_ram_bytes += sz,
-            _ if kind != NOBITS => size.flash_bytes += sz,
-            _ => size.static_ram_bytes += sz,
-        }
-    }
-    Ok(size)
 }

@@ -1,7 +1,8 @@
 //! The gauge under test as emulated firmware: the reference firmware built
 //! for a board, started in QEMU ([`crate::firmware::Qemu`]), configured over
-//! its serial link with signed record writes, and fed the simulator's raw
-//! codes as sample-injection messages. Its telemetry and alarm frames
+//! its serial link with the prepared configuration the in-process device
+//! backend runs (signed), and fed the simulator's raw codes as
+//! sample-injection messages. Its telemetry and alarm frames
 //! become the same [`Reading`]s the in-process backends give, so a run is
 //! scored the same way.
 //!
@@ -9,33 +10,27 @@
 //! between): the firmware answers in order, so once the pong is in, the
 //! sample's telemetry and alarm frames are in too.
 //!
-//! What the firmware does not carry over the link is absent from its
-//! readings: the leak detector's loss per day (the `leak` alarm and status
-//! flag are there), and the plausibility checks the in-process backends
-//! add (range, rate, stuck: the firmware's pipeline has the front-ends'
-//! own fault detection only). Pressure and temperature are the tracker's
-//! smoothed values telemetry carries, times to empty whole seconds.
+//! The readings differ from the in-process device backend's only in what
+//! telemetry carries: pressure and temperature are the tracker's smoothed
+//! values, times to empty whole seconds.
 
 use std::time::Duration;
 
 use isochor_core::alarm::{AlarmKind, AlarmSet, Events};
-use isochor_core::app::RawSample;
 use isochor_core::auth::Secret;
 use isochor_core::link::{
-    AlarmTransition, InjectSample, Message, Outcome, Ping, RawCode, SensorChannel, Telemetry,
+    AlarmTransition, FromDevice, InjectSample, Outcome, Ping, Telemetry, ToDevice,
 };
-use isochor_core::sensor::calibration::{CalibrationRecord, Channel, Correction, SensorConfig};
-use isochor_core::store::{PressureCalibration, TemperatureCalibration, split_track_config};
+use isochor_core::prepared::PreparedBuf;
 use isochor_core::time::Instant;
-use isochor_core::track::fixed::TrackConfigFx;
-use isochor_core::{SetupFx, Status, fx};
+use isochor_core::{Status, fx};
 
 use crate::Error;
 use crate::firmware::{self, Board, Build, Qemu};
 use crate::link::transport::Tcp;
 use crate::link::{Client, Link, LinkEvent};
-use isochor_tank::gauge::{Backend, GaugeConfig, ModelKind, Reading};
-use isochor_tank::sensors::{Codes, PressureCode, PressureFrontEnd, TemperatureFrontEnd};
+use isochor_tank::gauge::{Backend, FixedGauge, GaugeConfig, Reading};
+use isochor_tank::sensors::{Codes, PressureCode, PressureFrontEnd};
 
 /// Serial number the emulated gauge is provisioned with.
 const SERIAL: u64 = 20_261_202;
@@ -52,14 +47,10 @@ pub struct FirmwareGauge {
     _qemu: Qemu,
 }
 
-/// The firmware build that runs `config` on `board`: the Cortex-M0 board
-/// gets the single-gas build of the scenario's gas (what fits its RAM), the
-/// Cortex-M4F board the build with every built-in gas.
-pub fn build_for(board: Board, config: &GaugeConfig) -> Build {
-    match board {
-        Board::Microbit => Build::one_gas(board, config.setup.gas.name()),
-        Board::Mps2An386 => Build::standard(board),
-    }
+/// The firmware build that runs a gauge on `board` (the standard build:
+/// the gas and everything else come with the configuration).
+pub fn build_for(board: Board) -> Build {
+    Build::standard(board)
 }
 
 impl FirmwareGauge {
@@ -67,20 +58,17 @@ impl FirmwareGauge {
     /// QEMU, provisions and configures it for `config`. The emulator is
     /// killed after `limit` (and when the gauge is dropped).
     pub fn start(board: Board, config: &GaugeConfig, limit: Duration) -> Result<Self, Error> {
-        if config.model != ModelKind::Device {
-            return Err(Error::Invalid(
-                "--firmware runs the firmware's built-in device models only \
-                 (model = \"device\" in the scenario's [gauge])"
-                    .into(),
-            ));
-        }
+        // Refuses what a device cannot run before anything is built.
+        config
+            .device()
+            .map_err(|e| Error::Invalid(format!("--firmware: {e}")))?;
         if !firmware::qemu_available() {
             return Err(Error::Invalid(
                 "--firmware needs qemu-system-arm (Debian package qemu-system-arm)".into(),
             ));
         }
         let dir = firmware::default_firmware_dir();
-        let elf = firmware::build(&dir, &build_for(board, config), &["isochor-firmware"])?;
+        let elf = firmware::build(&dir, &build_for(board), &["isochor-firmware"])?;
         Self::start_elf(board, &elf, config, limit)
     }
 
@@ -91,26 +79,16 @@ impl FirmwareGauge {
         config: &GaugeConfig,
         limit: Duration,
     ) -> Result<Self, Error> {
-        let setup = SetupFx::from_f64(&config.setup)?;
-        let track = TrackConfigFx::from_f64(&config.track)?;
-        let baro: fx::Pressure = fx::from_f64(config.barometric_pa, "barometric pressure")?;
-        let (tracking, alarms) = split_track_config(&track, baro);
-        let (p_sensor, pressure_bits) = match config.pressure {
-            PressureFrontEnd::Bridge(b) => (SensorConfig::Bridge(b), b.adc_bits),
-            PressureFrontEnd::Loop(l) => (SensorConfig::Loop(l), 32),
+        let device = config
+            .device()
+            .map_err(|e| Error::Invalid(format!("--firmware: {e}")))?;
+        let (blob, _) = PreparedBuf::build(&device)?;
+        // The rated content as the device computes it.
+        let rated_kg = FixedGauge::from_prepared(&blob, config.pressure)?.rated_mass_kg();
+        let pressure_bits = match config.pressure {
+            PressureFrontEnd::Bridge(b) => b.adc_bits,
+            PressureFrontEnd::Loop(_) => 32,
         };
-        let t_sensor = match config.temperature {
-            TemperatureFrontEnd::Rtd(r) => SensorConfig::Rtd(r),
-            TemperatureFrontEnd::Ntc(n) => SensorConfig::Ntc(n),
-        };
-        let record = |channel, sensor| CalibrationRecord {
-            sequence: 1,
-            channel,
-            sensor,
-            correction: Correction::IDENTITY,
-        };
-        let p_cal = PressureCalibration(record(Channel::Pressure, p_sensor));
-        let t_cal = TemperatureCalibration(record(Channel::Temperature, t_sensor));
 
         let mut key = [0u8; 32];
         getrandom::fill(&mut key).map_err(|e| Error::Link(format!("random secret: {e}")))?;
@@ -125,20 +103,7 @@ impl FirmwareGauge {
                 qemu.messages()
             )));
         }
-        c.write_record(&setup)?;
-        // Another gas than the stored one restarts the firmware.
-        std::thread::sleep(Duration::from_millis(300));
-        c.write_record(&p_cal)?;
-        c.write_record(&t_cal)?;
-        c.write_record(&tracking)?;
-        c.write_record(&alarms)?;
-        let rated_kg = fx::to_f64(
-            isochor_core::content::fixed::Estimator::new(
-                setup,
-                isochor_core::model::DeviceModel::builtin(config.setup.gas)?,
-            )?
-            .rated_mass_kg(),
-        );
+        c.load_config(blob.bytes(), &mut |_, _| {})?;
         drop(c);
         Ok(FirmwareGauge {
             board,
@@ -184,7 +149,7 @@ fn reading(t: &Telemetry, events: Events) -> Reading {
                 t.time_to_empty_latest_s.map(f64::from),
             )
         }),
-        loss_per_day: None,
+        loss_fraction_per_day: t.leak_loss_per_day().map(fx::to_f64),
         status,
         events,
     }
@@ -223,31 +188,18 @@ impl FirmwareGauge {
             }
             PressureCode::Loop(c) => c,
         };
-        let raw = RawSample {
-            pressure,
-            temperature: codes.temperature,
-        };
         let inject_tag = self.tag();
         let ping_tag = self.tag();
         let token = at.as_millis() as u32;
         let mut out = Vec::new();
         for m in [
-            Message::InjectSample(InjectSample {
+            ToDevice::InjectSample(InjectSample {
                 tag: inject_tag,
                 at_ms: at.as_millis(),
-                codes: heapless::Vec::from_slice(&[
-                    RawCode {
-                        channel: SensorChannel::Pressure,
-                        code: raw.pressure,
-                    },
-                    RawCode {
-                        channel: SensorChannel::Temperature,
-                        code: raw.temperature,
-                    },
-                ])
-                .map_err(|_| Error::Invalid("sample codes".into()))?,
+                pressure,
+                temperature: codes.temperature,
             }),
-            Message::Ping(Ping {
+            ToDevice::Ping(Ping {
                 tag: ping_tag,
                 token,
             }),
@@ -269,7 +221,7 @@ impl FirmwareGauge {
         loop {
             let left = deadline.saturating_duration_since(std::time::Instant::now());
             match self.link.next_event(left)? {
-                Some(LinkEvent::Message(Message::Reply(r))) if r.tag == inject_tag => {
+                Some(LinkEvent::Message(FromDevice::Reply(r))) if r.tag == inject_tag => {
                     match r.outcome {
                         Outcome::Taken => taken = true,
                         other => {
@@ -280,21 +232,19 @@ impl FirmwareGauge {
                         }
                     }
                 }
-                Some(LinkEvent::Message(Message::Reply(r))) if r.tag == ping_tag => {
+                Some(LinkEvent::Message(FromDevice::Reply(r))) if r.tag == ping_tag => {
                     if !matches!(r.outcome, Outcome::Pong { token: t } if t == token) {
                         return Err(Error::Link("unexpected answer to a ping".into()));
                     }
                     break;
                 }
-                Some(LinkEvent::Message(Message::Telemetry(t)))
+                Some(LinkEvent::Message(FromDevice::Telemetry(t)))
                     if t.uptime_ms == at.as_millis() =>
                 {
                     telemetry = Some(t);
                 }
-                Some(LinkEvent::Message(Message::Alarm(a))) if a.uptime_ms == at.as_millis() => {
-                    let kind = AlarmKind::ALL
-                        .get(usize::from(a.alarm))
-                        .copied()
+                Some(LinkEvent::Message(FromDevice::Alarm(a))) if a.uptime_ms == at.as_millis() => {
+                    let kind = AlarmKind::from_code(a.alarm)
                         .ok_or_else(|| Error::Link(format!("unknown alarm {}", a.alarm)))?;
                     match a.transition {
                         AlarmTransition::Raised => {

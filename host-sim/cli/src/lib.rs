@@ -13,7 +13,8 @@
 //! * this crate:
 //!   * [`content`] — the content report of `isochor content` (both core paths);
 //!   * [`link`] — the serial link: transports, client, emulated device, views;
-//!   * [`firmware`] — the reference firmware in QEMU: builds, provisioning, the emulator, image sizes;
+//!   * [`firmware`] — the reference firmware in QEMU: builds, provisioning, the emulator;
+//!   * [`image`] — what a firmware image holds: flash and RAM, flash by module, statics, panic paths;
 //!   * [`firmware_gauge`] — the simulator's gauge over the emulated firmware;
 //!   * [`budget`] — the firmware's flash, RAM, stack and instructions per estimate, measured in QEMU;
 //!   * [`mod@bench`] — converter codes for given readings (drives devices that take injected samples);
@@ -27,6 +28,7 @@ pub mod content;
 mod error;
 pub mod firmware;
 pub mod firmware_gauge;
+pub mod image;
 pub mod link;
 pub mod model_cache;
 pub mod sensor;

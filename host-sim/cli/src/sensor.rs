@@ -261,6 +261,101 @@ fn least_squares(a: &mut [Vec<f64>], b: &mut [f64], n: usize) -> Result<Vec<f64>
     Ok(c)
 }
 
+/// A sensor configuration in SI units with snake_case names (the `settings`
+/// object of `isochor sensor ... --format json`), for people and other
+/// programs; the exact stored form (raw fixed-point bits) is its `config`
+/// object. Resistances in Ω, temperatures in K, pressures in Pa (of the
+/// transducer's `kind`: `absolute` or `gauge`), times in s; coefficients as
+/// numbers.
+pub fn settings(c: &isochor_core::sensor::calibration::SensorConfig) -> serde_json::Value {
+    use isochor_core::fx::to_f64;
+    use isochor_core::sensor::PressureKind;
+    use isochor_core::sensor::calibration::SensorConfig;
+    use isochor_core::sensor::ntc::NtcModel;
+    use isochor_core::sensor::resistive::{Circuit, FrontEnd};
+    use serde_json::json;
+    let front_end = |f: &FrontEnd| {
+        json!({
+            "circuit": match f.circuit {
+                Circuit::Ratiometric => "ratiometric",
+                Circuit::DividerLow => "divider_low",
+                Circuit::DividerHigh => "divider_high",
+            },
+            "adc_bits": f.adc_bits,
+            "reference_ohms": to_f64(f.reference_ohms),
+            "lead_ohms": to_f64(f.lead_ohms),
+            "short_ohms": to_f64(f.short_ohms),
+            "open_ohms": to_f64(f.open_ohms),
+            "excitation": to_f64(f.excitation),
+            "self_heating_k_per_mw": to_f64(f.self_heating_k_per_mw),
+        })
+    };
+    let kind = |k: PressureKind| match k {
+        PressureKind::Absolute => "absolute",
+        PressureKind::Gauge => "gauge",
+    };
+    match c {
+        SensorConfig::Rtd(r) => json!({
+            "kind": "rtd",
+            "r0_ohms": to_f64(r.r0_ohms),
+            "front_end": front_end(&r.front_end),
+            "range_min_k": to_f64(r.range_min_k),
+            "range_max_k": to_f64(r.range_max_k),
+        }),
+        SensorConfig::Ntc(n) => {
+            let model = match n.model {
+                NtcModel::Beta {
+                    r0_ohms,
+                    t0_k,
+                    beta_k,
+                } => json!({
+                    "model": "beta",
+                    "r0_ohms": to_f64(r0_ohms),
+                    "t0_k": to_f64(t0_k),
+                    "beta_k": to_f64(beta_k),
+                }),
+                NtcModel::SteinhartHart { a, b, c } => json!({
+                    "model": "steinhart_hart",
+                    "a_per_k": to_f64(a),
+                    "b_per_k": to_f64(b),
+                    "c_per_k": to_f64(c),
+                }),
+            };
+            json!({
+                "kind": "ntc",
+                "model": model,
+                "front_end": front_end(&n.front_end),
+                "range_min_k": to_f64(n.range_min_k),
+                "range_max_k": to_f64(n.range_max_k),
+            })
+        }
+        SensorConfig::Loop(l) => json!({
+            "kind": "loop",
+            "adc_bits": l.adc_bits,
+            "adc_reference_v": to_f64(l.adc_reference_v),
+            "shunt_ohms": to_f64(l.shunt_ohms),
+            "range_lo_pa": to_f64(l.range_lo_pa),
+            "range_hi_pa": to_f64(l.range_hi_pa),
+            "pressure_kind": kind(l.kind),
+            "persistence_s": l.persistence.0 as f64 / 1e3,
+        }),
+        SensorConfig::Bridge(b) => json!({
+            "kind": "bridge",
+            "adc_bits": b.adc_bits,
+            "bipolar": b.bipolar,
+            "zero": b.zero.map(to_f64),
+            "span": to_f64(b.span),
+            "span_tc": b.span_tc.map(to_f64),
+            "reference_k": to_f64(b.reference_k),
+            "linearity": b.linearity.map(to_f64),
+            "range_lo_pa": to_f64(b.range_lo_pa),
+            "range_hi_pa": to_f64(b.range_hi_pa),
+            "pressure_kind": kind(b.kind),
+            "range_margin": to_f64(b.range_margin),
+        }),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -91,12 +91,16 @@ fn json_matches_independent_ideal_gas_computation() {
 
 #[test]
 fn gauge_standard_and_reference_options() {
-    // Gauge: 200 bar gauge + 1.01325 bar barometric (both pressures).
+    // Gauge: 200 bar gauge + 1.01325 bar barometric (both pressures; the
+    // standard atmosphere, 101 325 Pa exactly by definition, is the default
+    // barometric pressure).
     let j = json(&base(&["--gauge"]));
     let expected_p = 200e5 + 101_325.0;
     assert!(close(&j["sample"]["pressure_pa"], expected_p, 1e-15));
     assert!(close(&j["tank"]["rated_pressure_pa"], expected_p, 1e-15));
-    // Normal conditions (0 °C): standard volume scales by 273.15/288.15.
+    // Normal conditions (0 °C): standard volume scales by 273.15/288.15
+    // (0 °C and 15 °C in kelvin, exact by the definition of the Celsius
+    // scale).
     let a = json(&base(&[]));
     let b = json(&base(&["--standard", "normal"]));
     let ratio = b["float"]["standard_volume_m3"].as_f64().unwrap()
@@ -116,7 +120,11 @@ fn gauge_standard_and_reference_options() {
         200e5 * 293.15 / 308.15,
         1e-12
     ));
-    // psi and Fahrenheit.
+    // psi and Fahrenheit: 1 psi = 0.453 592 37 kg × 9.806 65 m/s² /
+    // (0.0254 m)² = 6894.757 293 168 Pa, exact by the definitions of the
+    // pound, standard gravity and the inch (NIST SP 811); 70 °F =
+    // (70 − 32)·5/9 + 273.15 K = 294.261 111 K, exact by the definitions of
+    // the scales.
     let d = json(&[
         "content",
         "--gas",
@@ -138,6 +146,148 @@ fn gauge_standard_and_reference_options() {
         1e-12
     ));
     assert!(close(&d["sample"]["temperature_k"], 294.261_111_1, 1e-9));
+}
+
+#[test]
+fn pressure_units_say_absolute_or_gauge() {
+    let atm = 101_325.0; // standard atmosphere, exact by definition
+    // barg adds the barometric pressure, bara does not, even with --gauge.
+    let mut a = base(&[]);
+    a[6] = "200barg";
+    a[10] = "200bara";
+    let j = json(&a);
+    assert!(close(&j["sample"]["pressure_pa"], 200e5 + atm, 1e-15));
+    assert!(close(&j["tank"]["rated_pressure_pa"], 200e5, 1e-15));
+    let mut b = base(&["--gauge", "--barometric", "95kPa"]);
+    b[6] = "200bara";
+    let j = json(&b);
+    assert!(close(&j["sample"]["pressure_pa"], 200e5, 1e-15));
+    assert!(close(&j["tank"]["rated_pressure_pa"], 200e5 + 95e3, 1e-15));
+    // psig (1 psi = 6894.757 293 168 Pa, exact; see above).
+    let mut c = base(&[]);
+    c[10] = "2900psig";
+    let j = json(&c);
+    assert!(close(
+        &j["tank"]["rated_pressure_pa"],
+        2900.0 * 6_894.757_293_168 + atm,
+        1e-12
+    ));
+    // The elastic expansion is reported per bar as given and per MPa.
+    let j = json(&base(&["--elastic-expansion-per-bar", "1.2e-5"]));
+    assert!(close(
+        &j["tank"]["elastic_expansion_per_bar"],
+        1.2e-5,
+        1e-15
+    ));
+    assert!(close(
+        &j["tank"]["elastic_expansion_per_mpa"],
+        1.2e-4,
+        1e-15
+    ));
+}
+
+/// A 50 L oxygen cylinder rated 200 bar at 15 °C read at 250 bar and 15 °C
+/// holds about 123 % of its rated content: flagged `over_fill` on every
+/// path, with a line that says so; at its rated pressure it is not.
+#[test]
+fn over_fill_is_flagged_and_explained() {
+    let args = |p: &'static str| {
+        vec![
+            "content",
+            "--gas",
+            "oxygen",
+            "--capacity",
+            "50L",
+            "--pressure",
+            p,
+            "--temperature",
+            "15C",
+            "--rated-pressure",
+            "200bar",
+        ]
+    };
+    let j = json(&args("250bar"));
+    for side in ["fixed", "float", "reference"] {
+        let o = if side == "reference" {
+            &j["reference"]
+        } else {
+            &j[side]
+        };
+        let flags = o["status"].as_array().unwrap();
+        assert!(flags.iter().any(|f| f == "over_fill"), "{side}: {flags:?}");
+        assert!(close(&o["fill_fraction"], 1.23, 0.01), "{side}");
+    }
+    // The rated pressure corrected to 15 °C is the rated pressure itself.
+    assert!(close(&j["rated_pressure_at_temperature_pa"], 200e5, 1e-9));
+    let w = j["warnings"].as_array().unwrap();
+    assert!(w[0].as_str().unwrap().starts_with("OVER-FILL"), "{w:?}");
+    let out = isochor(&args("250bar"));
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(
+        text.contains("over_fill") && text.contains("OVER-FILL"),
+        "{text}"
+    );
+    let j = json(&args("200bar"));
+    assert_eq!(j["float"]["status"], serde_json::json!([]));
+    assert_eq!(j["warnings"], serde_json::json!([]));
+}
+
+/// Carbon dioxide at 15 °C: its vapour pressure is 50.9 bar (CoolProp 8.0.0,
+/// see tests/tests/device_models.rs). Just above it the vessel holds liquid
+/// and vapour (`two_phase`); at 150 bar it is full of liquid
+/// (`liquid_full`, not `two_phase`); neither shows a content or a Z, both
+/// say to weigh the cylinder. A rated condition in the liquid is refused
+/// with the reason and what to do.
+#[test]
+fn liquefied_gas_states_are_told_apart_and_explained() {
+    let args = |p: &'static str, rated: &'static str| {
+        vec![
+            "content",
+            "--gas",
+            "carbon_dioxide",
+            "--capacity",
+            "10L",
+            "--pressure",
+            p,
+            "--temperature",
+            "15C",
+            "--rated-pressure",
+            rated,
+        ]
+    };
+    let full = json(&args("150bar", "40bar"));
+    let two = json(&args("51.5bar", "40bar"));
+    for side in ["fixed", "float"] {
+        let f = full[side]["status"].as_array().unwrap();
+        assert!(f.iter().any(|x| x == "liquid_full"), "{f:?}");
+        assert!(!f.iter().any(|x| x == "two_phase"), "{f:?}");
+        let t = two[side]["status"].as_array().unwrap();
+        assert!(t.iter().any(|x| x == "two_phase"), "{t:?}");
+        assert!(!t.iter().any(|x| x == "liquid_full"), "{t:?}");
+        for j in [&full, &two] {
+            assert!(j[side]["z"].is_null());
+            assert!(j[side]["mass_kg"].is_null());
+        }
+    }
+    let w = full["warnings"][0].as_str().unwrap();
+    assert!(w.starts_with("LIQUID-FULL") && w.contains("weigh"), "{w}");
+    let w = two["warnings"][0].as_str().unwrap();
+    assert!(
+        w.starts_with("LIQUID IN THE VESSEL") && w.contains("Weigh"),
+        "{w}"
+    );
+    assert!(full["caution"].as_str().unwrap().contains("Liquefied gas"));
+    let out = isochor(&args("50bar", "60bar"));
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8(out.stderr).unwrap();
+    for needle in [
+        "rated condition",
+        "liquid",
+        "vapour pressure",
+        "weigh the cylinder",
+    ] {
+        assert!(err.contains(needle), "missing {needle}: {err}");
+    }
 }
 
 #[test]
@@ -195,6 +345,90 @@ fn outside_envelope_is_reported_not_refused() {
         assert!(
             flags.iter().any(|f| f == "pressure_outside_envelope"),
             "{side}: {flags:?}"
+        );
+    }
+}
+
+/// A sample outside the envelope (the 2000 bar, and a temperature
+/// beyond +150 °C) is computed at the edge so nothing overflows, but the
+/// content is withheld everywhere: `null` in JSON on all three sides (the
+/// field names stay), "not valid" in the text with the reason. The sample is
+/// reported as given. Inside the envelope, the edge itself has numbers.
+#[test]
+fn outside_envelope_content_is_withheld_not_clamped_into_a_number() {
+    let content = [
+        "density_kg_m3",
+        "mass_kg",
+        "amount_mol",
+        "standard_volume_m3",
+        "settled_pressure_pa",
+        "fill_fraction",
+    ];
+    for (p, t, flag) in [
+        ("2000bar", "15C", "pressure_outside_envelope"),
+        ("200bar", "170C", "temperature_outside_envelope"),
+    ] {
+        let args = [
+            "content",
+            "--gas",
+            "nitrogen",
+            "--capacity",
+            "50L",
+            "--pressure",
+            p,
+            "--temperature",
+            t,
+            "--rated-pressure",
+            "200bar",
+        ];
+        let j = json(&args);
+        for side in ["fixed", "float", "reference"] {
+            let o = &j[side];
+            for k in content {
+                assert!(o.get(k).is_some(), "{side}.{k} missing: field names stay");
+                assert!(o[k].is_null(), "{p} {t}: {side}.{k} = {}", o[k]);
+            }
+            let flags = o["status"].as_array().unwrap();
+            assert!(flags.iter().any(|f| f == flag), "{side}: {flags:?}");
+        }
+        assert!(j["sample"]["pressure_pa"].as_f64().unwrap() > 0.0);
+
+        let out = isochor(&args);
+        assert!(
+            out.status.success(),
+            "an out-of-envelope reading is reported, not refused"
+        );
+        let text = String::from_utf8(out.stdout).unwrap();
+        let mass = text
+            .lines()
+            .find(|l| l.trim_start().starts_with("mass"))
+            .unwrap();
+        assert_eq!(mass.matches("not valid").count(), 3, "{mass}");
+        assert!(text.contains("outside the operating envelope (0–1000 bar abs, -60 … +150 °C)"));
+        assert!(text.contains("not shown as a number"));
+        assert!(text.contains("CAUTION"));
+    }
+    // The edge itself is inside: numbers, no envelope flag (five times the
+    // rated pressure is an over-fill, said so).
+    let j = json(&[
+        "content",
+        "--gas",
+        "nitrogen",
+        "--capacity",
+        "50L",
+        "--pressure",
+        "1000bar",
+        "--temperature",
+        "15C",
+        "--rated-pressure",
+        "200bar",
+    ]);
+    for side in ["fixed", "float"] {
+        assert!(j[side]["mass_kg"].as_f64().unwrap() > 0.0);
+        assert_eq!(
+            j[side]["status"],
+            serde_json::json!(["over_fill"]),
+            "{side}"
         );
     }
 }

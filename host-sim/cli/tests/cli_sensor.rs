@@ -44,6 +44,20 @@ fn rtd_examples() {
     assert!(out.status.success());
     let text = String::from_utf8_lossy(&out.stdout);
     assert!(text.contains("100.0000 °C") && text.contains("CAUTION"));
+    // The conversion's settings in SI with snake_case names beside the
+    // stored form (raw bits): 4·R0 reference resistor by default.
+    let j = json(&["sensor", "rtd", "--r0", "100", "--ohms", "100"]);
+    let s = &j["settings"];
+    assert_eq!(s["kind"], "rtd");
+    assert_eq!(num(s, "r0_ohms"), 100.0);
+    assert_eq!(s["front_end"]["circuit"], "ratiometric");
+    assert_eq!(num(&s["front_end"], "reference_ohms"), 400.0);
+    assert!(j["config"]["Rtd"]["r0_ohms"]["bits"].is_u64());
+    // 0 °C never prints as −0.0000 °C (the fixed path rounds a hair below).
+    let out = isochor(&["sensor", "rtd", "--r0", "100", "--ohms", "100"]);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(!text.contains("-0.0000"), "{text}");
+    assert!(text.contains("FOR HARDWARE TEAMS"));
 }
 
 #[test]
@@ -147,6 +161,18 @@ fn bridge_and_gauge() {
     ]);
     assert_eq!(num(&j, "pressure_pa"), 0.0);
     assert_eq!(j["status"], serde_json::json!(["sensor_under_range"]));
+    // barg on the gauge side, bara on the absolute side; the other way
+    // round is refused.
+    let j = json(&["sensor", "gauge", "--gauge", "2barg"]);
+    assert!((num(&j, "pressure_pa") - 2e5 - 101_325.0).abs() < 1e-6);
+    let j = json(&["sensor", "gauge", "--absolute", "3.01325bara"]);
+    assert!((num(&j, "gauge_pressure_pa") - 2e5).abs() < 1e-6);
+    assert_eq!(
+        isochor(&["sensor", "gauge", "--gauge", "2bara"])
+            .status
+            .code(),
+        Some(2)
+    );
 }
 
 #[test]

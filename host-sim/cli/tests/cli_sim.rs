@@ -57,8 +57,15 @@ fn demo_writes_summary_series_and_plots() {
     assert_eq!((w, h), (1500, 1700));
     let svg = std::fs::read_to_string(o.join("workshop-leak.svg")).unwrap();
     assert!(svg.contains("Pressure") && svg.contains("bar (absolute)"));
+    assert!(svg.contains("sensor reading (abs)"));
     let csv = std::fs::read_to_string(o.join("workshop-leak.csv")).unwrap();
     assert!(csv.starts_with("t_s,pressure_true_pa,"));
+    assert!(
+        csv.lines()
+            .next()
+            .unwrap()
+            .contains(",loss_fraction_per_day,")
+    );
     assert_eq!(csv.lines().count(), 1 + 7 * 24 * 60 + 1);
     let first: Value = serde_json::from_str(
         std::fs::read_to_string(o.join("workshop-leak.jsonl"))
@@ -70,6 +77,159 @@ fn demo_writes_summary_series_and_plots() {
     .unwrap();
     assert_eq!(first["t_s"], 60.0);
     assert!(first["status"].is_array());
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// `isochor demo --no-files` prints the summary and writes nothing.
+#[test]
+fn demo_without_files() {
+    let dir = temp("demo-no-files");
+    let out = isochor(&dir, &["demo", "--no-files"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(text.contains("workshop-leak") && text.contains("CAUTION"));
+    assert!(!dir.join("isochor-out").exists());
+    assert!(!text.contains("Open the PNG"));
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// The demo explains itself: it prints the simulated instrument's errors
+/// and a reading of each headline score, and what it prints agrees with
+/// the summary JSON it wrote. The bias the instrument's errors explain
+/// (first order, through the true gas's sensitivities) accounts for the
+/// measured bias: the gauge itself is not biased beyond its instrument.
+#[test]
+fn demo_explains_its_instrument_and_scores() {
+    let dir = temp("demo-explains");
+    let out = isochor(&dir, &["demo"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8(out.stdout).unwrap();
+    let j: Value = serde_json::from_str(
+        &std::fs::read_to_string(dir.join("isochor-out/workshop-leak.summary.json")).unwrap(),
+    )
+    .unwrap();
+    let num = |v: &Value, k: &str| {
+        v[k].as_f64()
+            .unwrap_or_else(|| panic!("{k} missing or not a number"))
+    };
+    let has = |needle: String| assert!(text.contains(&needle), "{needle:?} missing in:\n{text}");
+
+    // The instrument: drawn (the scenario says so), seed 4, and its errors
+    // as the JSON holds them.
+    let i = &j["instrument"];
+    assert_eq!(i["drawn"], true);
+    assert_eq!(i["seed"], 4);
+    has("drawn from the gauge's declared uncertainties (seed 4".into());
+    has(format!(
+        "pressure sensor: offset {:+.3} bar, span error {:+.3} %",
+        num(i, "pressure_offset_pa") / 1e5,
+        num(i, "pressure_span_error") * 100.0
+    ));
+    has(format!(
+        "temperature sensor: offset {:+.3} K, gain error {:+.3} %",
+        num(i, "temperature_offset_k"),
+        num(i, "temperature_gain_error") * 100.0
+    ));
+    has(format!(
+        "on the wall, own time constant {:.0} s (the gauge declares a lag of {:.0} min)",
+        num(i, "temperature_time_constant_s"),
+        num(i, "temperature_lag_declared_s") / 60.0
+    ));
+    let (told, truth) = (num(i, "capacity_told_m3"), num(i, "capacity_true_m3"));
+    assert_eq!(truth, 0.050);
+    assert!((num(i, "capacity_error_fraction") - (told / truth - 1.0)).abs() < 1e-15);
+    has(format!(
+        "water capacity told to the gauge: {:.3} L for a true 50.000 L ({:+.3} %)",
+        told * 1e3,
+        num(i, "capacity_error_fraction") * 100.0
+    ));
+    // The drawn errors are those of a real instrument: within the
+    // declaration's bounds (uniform ±√3·u for pressure offset and gain,
+    // UncertaintyConfig::example: 0.144 % of 300 bar and 0.058 %).
+    assert!(num(i, "pressure_offset_pa").abs() <= 3f64.sqrt() * 0.00144 * 300e5);
+    assert!(num(i, "pressure_span_error").abs() <= 3f64.sqrt() * 0.00058);
+
+    // One reading under every headline score.
+    let rows = [
+        "content error, max |e| (judged)",
+        "content error, mean (bias)",
+        "content error, rms",
+        "content error, max |e| (every sample)",
+        "uncertainty (k = 2) holds the truth",
+        "uncertainty (k = 2), median U(m)/m",
+        "leak ",
+        "false alarms",
+        "time to empty, median / max error",
+    ];
+    let lines: Vec<&str> = text.lines().collect();
+    for row in rows {
+        let at = lines
+            .iter()
+            .position(|l| l.trim_start().starts_with(row))
+            .unwrap_or_else(|| panic!("row {row:?} missing"));
+        assert!(
+            lines[at + 1].trim_start().starts_with("reading: "),
+            "no reading under {row:?}: {}",
+            lines[at + 1]
+        );
+    }
+    assert_eq!(text.matches("reading: ").count(), rows.len());
+
+    // The bias: the parts sum to the total, the text quotes them, and the
+    // instrument explains the measured bias (the rest, the gauge's own part,
+    // is a small share of its stated uncertainty).
+    let b = &j["expected_bias"];
+    let (c, p, t, total) = (
+        num(b, "capacity_fraction"),
+        num(b, "pressure_fraction"),
+        num(b, "temperature_fraction"),
+        num(b, "total_fraction"),
+    );
+    assert!((c + p + t - total).abs() < 1e-15);
+    assert!((c - num(i, "capacity_error_fraction")).abs() < 1e-12);
+    let mean = num(&j, "mean_error_fraction");
+    has(format!(
+        "this instrument's errors explain {:+.2} % (capacity {:+.2} %, pressure {:+.2} %, \
+         temperature {:+.2} %); the gauge's own part is {:+.3} %",
+        total * 100.0,
+        c * 100.0,
+        p * 100.0,
+        t * 100.0,
+        (mean - total) * 100.0
+    ));
+    let u = num(&j, "median_relative_uncertainty");
+    assert!(
+        (mean - total).abs() < 0.1 * u,
+        "bias {mean} not explained by the instrument ({total}); U {u}"
+    );
+    has(format!("the bias is {:.0} % of it", 100.0 * mean.abs() / u));
+
+    // The leak and the time to empty: what the scenario and the judged
+    // minutes were.
+    assert_eq!(j["leak_loss_per_day"], 0.005);
+    assert_eq!(j["draws"], 0);
+    has("a leak of 0.50 % of the content per day from 3.00 d".into());
+    let q = num(&j, "time_to_empty_outflow_kg_h");
+    let ru = num(&j, "time_to_empty_rate_uncertainty");
+    has(format!(
+        "median {q:.4} kg/h, {:.2} d to the reserve (the leak alone: no draw in this scenario); \
+         the gauge stated its rate to ±{:.0} % (k = 2)",
+        num(&j, "time_to_empty_true_median_s") / 86_400.0,
+        ru * 100.0
+    ));
+    // 0.5 %/day of about 11 kg is about 0.0023 kg/h; the gauge knows such a
+    // small rate only to tens of per cent, and the error is of that order.
+    assert!((0.001..0.005).contains(&q), "{q}");
+    assert!(ru > 0.1 && ru <= 0.5, "{ru}");
+    assert!(num(&j, "time_to_empty_median_error") < ru, "{j}");
     let _ = std::fs::remove_dir_all(&dir);
 }
 

@@ -8,18 +8,19 @@ use std::process::{Command as Process, Output, Stdio};
 use std::thread;
 use std::time::Duration;
 
+use isochor_core::app::Zero;
 use isochor_core::auth::{self, Secret};
-use isochor_core::fixed::types::U28F4;
 use isochor_core::link::{
-    self, Command, Message, Origin, Outcome, Refusal, ResetReason, SensorChannel, Signed,
-    Telemetry, capability,
+    self, Command, FromDevice, Outcome, Refusal, ResetReason, SensorChannel, Signed, Telemetry,
+    ToDevice, capability,
 };
 use isochor_core::model::device::{TableBuf, builtin};
-use isochor_core::store::{GasModelRef, PressureCalibration, Record, TemperatureCalibration};
+use isochor_core::prepared::{GaugeConfig, PreparedBuf};
+use isochor_core::store::Origin;
 use isochor_core::{Gas, Setup, SetupFx, Status, Tank, fx};
 use isochor_sim::Error;
 use isochor_sim::bench::Bench;
-use isochor_sim::link::emulated::EmulatedDevice;
+use isochor_sim::link::emulated::{EmulatedDevice, SLOT_LEN};
 use isochor_sim::link::transport::{MemoryEnd, Tcp};
 use isochor_sim::link::{Client, memory_pair};
 
@@ -42,26 +43,47 @@ fn start() -> (Client<MemoryEnd>, thread::JoinHandle<EmulatedDevice>) {
     (Client::new(host, Duration::from_secs(5)), handle)
 }
 
-fn n2_setup() -> SetupFx {
-    SetupFx::from_f64(&Setup::new(Gas::Nitrogen, Tank::new(0.050, 200e5))).unwrap()
+fn setup(gas: Gas) -> SetupFx {
+    SetupFx::from_f64(&Setup::new(gas, Tank::new(0.050, 200e5))).unwrap()
+}
+
+/// The reference board's nominal configuration for a 50 L, 200 bar
+/// cylinder of `gas`.
+fn config(gas: Gas) -> GaugeConfig {
+    GaugeConfig::nominal(setup(gas))
 }
 
 /// The nominal sensors of the reference board, on a bench.
 fn bench() -> Bench {
-    Bench::new(
-        PressureCalibration::nominal().0,
-        TemperatureCalibration::nominal().0,
-        101_325.0,
-    )
+    let c = config(Gas::Nitrogen);
+    Bench::new(c.pressure, c.temperature, 101_325.0)
 }
 
-fn telemetry(msgs: &[Message]) -> Vec<Telemetry> {
+fn telemetry(msgs: &[FromDevice]) -> Vec<Telemetry> {
     msgs.iter()
         .filter_map(|m| match m {
-            Message::Telemetry(t) => Some(*t),
+            FromDevice::Telemetry(t) => Some(*t),
             _ => None,
         })
         .collect()
+}
+
+/// Injects a sample of `p_pa` at 20 °C and returns its telemetry.
+fn sample_at(client: &mut Client<MemoryEnd>, at_ms: u64, p_pa: f64) -> Telemetry {
+    let s = bench().sample(p_pa, 293.15).unwrap();
+    client.take_unsolicited();
+    client.inject(at_ms, s.pressure, s.temperature).unwrap();
+    client.collect(Duration::from_millis(200)).unwrap();
+    let t = telemetry(&client.take_unsolicited());
+    assert_eq!(t.len(), 1, "one telemetry frame per sample");
+    t[0]
+}
+
+fn refused(r: Result<(), Error>) -> String {
+    match r {
+        Err(Error::Refused(m)) => m,
+        other => panic!("expected a refusal, got {other:?}"),
+    }
 }
 
 #[test]
@@ -73,137 +95,174 @@ fn requests_and_signed_commands_over_memory() {
     assert_eq!(id.serial, SERIAL);
     assert_eq!(id.protocol, link::PROTOCOL_VERSION);
     assert_eq!(usize::from(id.max_frame_len), link::MAX_FRAME_LEN);
+    assert_eq!(id.config_capacity, SLOT_LEN);
     assert_ne!(id.capabilities & capability::SAMPLE_INJECTION, 0);
 
-    // Nothing stored yet: safe defaults, said so.
-    let r = client.read_record::<SetupFx>().unwrap();
-    assert_eq!(
-        (r.value, r.origin),
-        (SetupFx::safe_default(), Origin::Default)
+    // Nothing stored yet: no configuration, said so; samples give status
+    // only.
+    let d = client.read_config().unwrap();
+    assert_eq!((d.blob.len(), d.origin), (0, Origin::Default));
+    assert_eq!(d.config().unwrap(), None);
+    let t = sample_at(&mut client, 500, 150e5);
+    assert!(t.status().contains(Status::CONFIG_UNUSABLE));
+    assert!(!t.content_valid() || t.mass_kg == 0);
+
+    // Zeroing needs a present reading: refused before any configuration.
+    let m = refused(client.signed(Command::ZeroCalibration {
+        channel: SensorChannel::Pressure,
+    }));
+    assert!(m.contains("no valid pressure reading"), "{m}");
+
+    // A configuration, prepared here, loaded in pieces and read back whole.
+    let (blob, _) = PreparedBuf::build(&config(Gas::Nitrogen)).unwrap();
+    let mut sent = 0;
+    client
+        .load_config(blob.bytes(), &mut |n, _| sent = n)
+        .unwrap();
+    assert_eq!(sent, blob.bytes().len());
+    let d = client.read_config().unwrap();
+    assert_eq!(d.blob, blob.bytes());
+    assert_eq!(d.origin, Origin::Stored);
+    assert_eq!(d.config().unwrap(), Some(config(Gas::Nitrogen)));
+
+    // Under pressure (250 bar, a connected 200 bar vessel over-filled by
+    // about a quarter): the telemetry says `over_fill`; the pressure zero is
+    // refused with the reading and what to do, nothing is stored; at room
+    // temperature the temperature zero is refused likewise.
+    let t = sample_at(&mut client, 1_000, 250e5);
+    assert!(t.status().contains(Status::OVER_FILL), "{}", t.status());
+    let m = refused(client.signed(Command::ZeroCalibration {
+        channel: SensorChannel::Pressure,
+    }));
+    assert!(m.contains("pressure zero refused"), "{m}");
+    assert!(m.contains("reads +248.987 bar"), "{m}");
+    assert!(m.contains("vent the transducer to atmosphere"), "{m}");
+    let m = refused(client.signed(Command::ZeroCalibration {
+        channel: SensorChannel::Temperature,
+    }));
+    assert!(
+        m.contains("temperature zero refused") && m.contains("+20.00 K"),
+        "{m}"
     );
-
-    // A signed write, read back.
-    client.write_record(&n2_setup()).unwrap();
-    let r = client.read_record::<SetupFx>().unwrap();
-    assert_eq!((r.value, r.origin), (n2_setup(), Origin::Stored));
-
-    // Zeroing needs a present reading: refused before any sample.
-    assert!(matches!(
-        client.signed(Command::ZeroCalibration {
-            channel: SensorChannel::Pressure,
-        }),
-        Err(Error::Invalid(_))
-    ));
-    // A vented vessel reading 0.2 bar too high: the zero takes it out.
-    let vented = bench().sample(101_325.0 + 20_000.0, 293.15).unwrap();
-    client.inject(1_000, &Bench::raw_codes(&vented)).unwrap();
+    assert!(m.contains("crushed ice"), "{m}");
+    assert_eq!(client.read_config().unwrap().zero, Zero::default());
+    // Just above the bound (6 bar for this 0–300 bar transducer: 2 % of
+    // its span): refused; just below: it would be taken (not sent here).
+    sample_at(&mut client, 2_000, 101_325.0 + 6.2e5);
+    let m = refused(client.signed(Command::ZeroCalibration {
+        channel: SensorChannel::Pressure,
+    }));
+    assert!(m.contains("within 6.000 bar"), "{m}");
+    // A vented transducer reading 0.2 bar too high: the zero takes it out
+    // (samples after a gap longer than the tracker's restart it, so the
+    // smoothing does not carry the old reading over).
+    sample_at(&mut client, 400_000, 101_325.0 + 20_000.0);
     client
         .signed(Command::ZeroCalibration {
             channel: SensorChannel::Pressure,
         })
         .unwrap();
-    let cal = client.read_record::<PressureCalibration>().unwrap();
-    assert_eq!(cal.origin, Origin::Stored);
-    assert_eq!(cal.value.0.sequence, 1);
-    // The same code now reads the barometric pressure (within 0.01 Pa).
-    client.take_unsolicited();
-    client.inject(2_000, &Bench::raw_codes(&vented)).unwrap();
-    client.collect(Duration::from_millis(200)).unwrap();
-    let t = telemetry(&client.take_unsolicited());
-    let p = fx::to_f64(fx::Pressure::from_bits(t.last().unwrap().pressure_pa));
+    let zero = client.read_config().unwrap().zero;
+    // Within one converter step (2^22 codes per 150 bar: 3.6 Pa).
+    assert!((zero.to_f64().0 + 20_000.0).abs() < 3.6, "{zero:?}");
+    let t = sample_at(&mut client, 800_000, 101_325.0 + 20_000.0);
+    let p = fx::to_f64(t.pressure());
     assert!((p - 101_325.0).abs() < 0.01, "{p}");
 
     // Several commands in one session, then a reboot (new session after it).
     client.signed(Command::ClearAlarms).unwrap();
     client.signed(Command::Reboot).unwrap();
     client.signed(Command::ClearAlarms).unwrap();
-    // The setup and the calibration survived the restart (they are in flash).
-    let r = client.read_record::<SetupFx>().unwrap();
-    assert_eq!((r.value, r.origin), (n2_setup(), Origin::Stored));
-    assert_eq!(client.read_record::<PressureCalibration>().unwrap(), cal);
+    // The configuration and the zero survived the restart (they are in
+    // flash).
+    let d = client.read_config().unwrap();
+    assert_eq!((d.blob.as_slice(), d.zero), (blob.bytes(), zero));
     let boots: Vec<_> = client
         .take_unsolicited()
         .into_iter()
         .filter_map(|m| match m {
-            Message::Boot(b) => Some(b.report.reason),
+            FromDevice::Boot(b) => Some(b.report.reason),
             _ => None,
         })
         .collect();
     assert_eq!(boots, vec![ResetReason::Requested]);
 
-    // A gas-model blob that is not a table: refused, nothing committed.
+    // Bytes that are not a prepared configuration: refused whole, nothing
+    // committed.
     let junk: Vec<u8> = (0..5000u32).map(|i| (i % 251) as u8).collect();
-    match client.load_gas_model(&junk, &mut |_| {}) {
-        Err(Error::Refused(m)) => assert!(m.contains("gas-model table"), "{m}"),
-        other => panic!("{other:?}"),
-    }
-    assert_eq!(
-        client.read_record::<GasModelRef>().unwrap().value,
-        GasModelRef::NONE
-    );
-    // A real table in chunks: committed, and used after the restart it
-    // causes.
-    let table = TableBuf::from_table(&builtin::table(Gas::Nitrogen).unwrap()).unwrap();
-    let mut blob = vec![0u8; 4096];
-    let n = table.to_blob(&mut blob).unwrap();
-    blob.truncate(n);
-    let mut sent = 0;
-    client.load_gas_model(&blob, &mut |n| sent = n).unwrap();
-    assert_eq!(sent, blob.len());
-    let g = client.read_record::<GasModelRef>().unwrap();
-    assert_eq!(g.value.len as usize, blob.len());
-    assert_eq!(g.value.crc, isochor_core::checksum::crc32c(&blob));
+    let m = refused(client.load_config(&junk, &mut |_, _| {}));
+    assert!(m.contains("does not validate"), "{m}");
+    // A configuration damaged after it was prepared (its own CRC-32C no
+    // longer matches): refused too.
+    let mut damaged = blob.bytes().to_vec();
+    let mid = damaged.len() / 2;
+    damaged[mid] ^= 0x10;
+    let m = refused(client.load_config(&damaged, &mut |_, _| {}));
+    assert!(m.contains("does not validate"), "{m}");
+    // Pieces whose CRC-32C over the whole is not the one announced.
+    let m = refused(client.signed(Command::ConfigChunk {
+        offset: 0,
+        total_len: 4,
+        blob_crc: 0xDEAD_BEEF,
+        bytes: heapless::Vec::from_slice(&[1, 2, 3, 4]).unwrap(),
+    }));
+    assert!(m.contains("CRC-32C"), "{m}");
+    // A piece out of order.
+    let m = refused(client.signed(Command::ConfigChunk {
+        offset: 128,
+        total_len: 400,
+        blob_crc: 0,
+        bytes: heapless::Vec::from_slice(&[0; 128]).unwrap(),
+    }));
+    assert!(m.contains("out of order"), "{m}");
+    assert_eq!(client.read_config().unwrap().blob, blob.bytes());
 
+    // Another gas: taken at once (no restart), the zero kept.
+    client
+        .configure(&config(Gas::Methane), &mut |_, _| {})
+        .unwrap();
+    let d = client.read_config().unwrap();
+    assert_eq!(d.config().unwrap().unwrap().setup.gas, Gas::Methane);
+    assert_eq!(d.zero, zero);
     // Sample injection (no signature: the emulated device takes samples
-    // this way) gives telemetry from the whole chain.
-    let s = bench().sample(150e5, 293.15).unwrap();
-    client.take_unsolicited();
-    client.inject(10_000, &Bench::raw_codes(&s)).unwrap();
-    client.collect(Duration::from_millis(200)).unwrap();
-    let t = telemetry(&client.take_unsolicited());
-    assert_eq!(t.len(), 1);
-    assert!(fx::to_f64(t[0].mass()) > 8.0);
+    // this way) gives telemetry from the whole chain: 150 bar of methane
+    // at 20 °C in 50 L is about 6 kg (Z ≈ 0.83, from memory; the content
+    // tests check the figure itself, here only its order).
+    let t = sample_at(&mut client, 2_000_000, 150e5 + 20_000.0);
+    assert!(t.content_valid());
+    let mass = fx::to_f64(t.mass());
+    assert!((4.5..7.0).contains(&mass), "{mass}");
     let d = client.diagnostics().unwrap();
     assert_eq!(d.boot.reason, ResetReason::Requested);
-    // Starts: power-on, the setup's new gas, the reboot, the new gas model.
-    assert_eq!(d.boot.boots, 4);
+    // Starts: power-on and the reboot.
+    assert_eq!(d.boot.boots, 2);
 
     drop(client);
     let device = handle.join().unwrap();
-    assert_eq!(device.boots(), 4);
+    assert_eq!(device.boots(), 2);
 }
 
 #[test]
 fn out_of_range_and_unsigned_changes_are_refused() {
     let (client, handle) = start();
     let mut client = client.with_secret(secret());
-    client.write_record(&n2_setup()).unwrap();
+    client
+        .configure(&config(Gas::Nitrogen), &mut |_, _| {})
+        .unwrap();
 
-    // An out-of-range value that bypasses the host's own validation.
-    let mut bad = n2_setup();
-    bad.standard.pressure_pa = U28F4::from_num(10_000);
-    let cmd = Command::WriteRecord {
-        kind: SetupFx::KIND.0,
-        version: SetupFx::VERSION,
-        bytes: heapless::Vec::from_slice(postcard::to_slice(&bad, &mut [0u8; 128]).unwrap())
-            .unwrap(),
-    };
-    match client.signed(cmd) {
-        Err(Error::Invalid(m)) => assert!(m.contains("standard pressure"), "{m}"),
-        other => panic!("{other:?}"),
-    }
-    assert_eq!(client.read_record::<SetupFx>().unwrap().value, n2_setup());
-
-    // The host refuses to sign an invalid record at all.
-    assert!(matches!(client.write_record(&bad), Err(Error::Core(_))));
+    // The host refuses to prepare an invalid configuration at all.
+    let mut bad = config(Gas::Nitrogen);
+    bad.barometric_pa = fx::Pressure::from_num(10_000);
+    assert!(matches!(
+        client.configure(&bad, &mut |_, _| {}),
+        Err(Error::Core(_))
+    ));
 
     // Wrong secret: refused, nothing changed.
     let (other, handle2) = start();
     let mut other = other.with_secret(Secret::new([1; 32]));
-    match other.signed(Command::ClearAlarms) {
-        Err(Error::Refused(m)) => assert!(m.contains("wrong secret"), "{m}"),
-        r => panic!("{r:?}"),
-    }
+    let m = refused(other.signed(Command::ClearAlarms));
+    assert!(m.contains("wrong secret"), "{m}");
     // No secret at all.
     let (plain, handle3) = start();
     let mut plain = plain;
@@ -214,16 +273,16 @@ fn out_of_range_and_unsigned_changes_are_refused() {
 
     // A replayed frame: same counter and signature again.
     let nonce = match client
-        .request(|tag| Message::GetChallenge(link::GetChallenge { tag }))
+        .request(|tag| ToDevice::GetChallenge(link::GetChallenge { tag }))
         .unwrap()
     {
         Outcome::Challenge { nonce, .. } => nonce,
         o => panic!("{o:?}"),
     };
-    let command = Command::ClearAlarms;
-    let mac = auth::sign_command(&secret(), SERIAL, &nonce, 1, &command).unwrap();
+    let command = Signed::encode_command(&Command::ClearAlarms).unwrap();
+    let mac = auth::sign_command(&secret(), SERIAL, &nonce, 1, &command);
     let frame = |tag| {
-        Message::Signed(Signed {
+        ToDevice::Signed(Signed {
             tag,
             counter: 1,
             mac,
@@ -238,10 +297,33 @@ fn out_of_range_and_unsigned_changes_are_refused() {
         client.request(frame).unwrap(),
         Outcome::Refused(Refusal::Replay)
     );
+    // A signature over other bytes than those sent (in a new session):
+    // refused.
+    let nonce = match client
+        .request(|tag| ToDevice::GetChallenge(link::GetChallenge { tag }))
+        .unwrap()
+    {
+        Outcome::Challenge { nonce, .. } => nonce,
+        o => panic!("{o:?}"),
+    };
+    let mac = auth::sign_command(&secret(), SERIAL, &nonce, 1, &command);
+    let other_cmd = Signed::encode_command(&Command::Reboot).unwrap();
+    let forged = |tag| {
+        ToDevice::Signed(Signed {
+            tag,
+            counter: 1,
+            mac,
+            command: other_cmd.clone(),
+        })
+    };
+    assert_eq!(
+        client.request(forged).unwrap(),
+        Outcome::Refused(Refusal::BadSignature)
+    );
 
     drop((client, other, plain));
-    // Writing a setup of another gas than the default restarts the gauge.
-    assert_eq!(handle.join().unwrap().boots(), 2);
+    // A new configuration needs no restart.
+    assert_eq!(handle.join().unwrap().boots(), 1);
     assert_eq!(handle2.join().unwrap().boots(), 1);
     assert_eq!(handle3.join().unwrap().boots(), 1);
 }
@@ -265,7 +347,7 @@ fn isochor(args: &[&str], env: &[(&str, &str)], stdin: Option<&[u8]>) -> Output 
     child.wait_with_output().unwrap()
 }
 
-fn frame(m: &Message) -> Vec<u8> {
+fn frame(m: &FromDevice) -> Vec<u8> {
     let mut out = [0u8; link::MAX_FRAME_LEN];
     let n = link::encode(m, &mut out).unwrap();
     out[..n].to_vec()
@@ -284,12 +366,12 @@ fn capture() -> Vec<u8> {
         time_to_empty_s: Some(3600 * 21),
         ..Telemetry::default()
     };
-    let mut bytes = frame(&Message::Telemetry(t));
+    let mut bytes = frame(&FromDevice::Telemetry(t));
     bytes.extend_from_slice(&[0x31, 0x99, 0x42, 0x00]); // noise, ends as a bad frame
     t.seq = 42;
     t.status = Status::TWO_PHASE.bits();
-    bytes.extend(frame(&Message::Telemetry(t)));
-    bytes.extend(frame(&Message::Alarm(link::AlarmEvent {
+    bytes.extend(frame(&FromDevice::Telemetry(t)));
+    bytes.extend(frame(&FromDevice::Alarm(link::AlarmEvent {
         seq: 1,
         uptime_ms: 12_400,
         alarm: 3,
@@ -375,7 +457,7 @@ fn tcp_device(connections: usize) -> (String, thread::JoinHandle<Vec<EmulatedDev
 
 #[test]
 fn send_over_tcp() {
-    let (addr, handle) = tcp_device(4);
+    let (addr, handle) = tcp_device(7);
     let out = isochor(&["send", "--tcp", &addr, "ping"], &[], None);
     assert!(
         out.status.success(),
@@ -427,6 +509,63 @@ fn send_over_tcp() {
     assert_eq!(v["origin"], "stored");
     assert!((v["water_capacity_m3"].as_f64().unwrap() - 0.05).abs() < 1e-9);
 
+    assert_eq!(v["gas_model"], "built-in");
+    assert_eq!(v["zero_pressure_pa"], 0.0);
+
+    // A gas-model table built on the host, used in the configuration.
+    let table = TableBuf::from_table(&builtin::table(Gas::Nitrogen).unwrap()).unwrap();
+    let mut bytes = vec![0u8; 8192];
+    let n = table.to_blob(&mut bytes).unwrap();
+    let file = std::env::temp_dir().join(format!("isochor-table-{}", std::process::id()));
+    std::fs::write(&file, &bytes[..n]).unwrap();
+    let out = isochor(
+        &[
+            "send",
+            "--tcp",
+            &addr,
+            "load-gas-model",
+            "--file",
+            file.to_str().unwrap(),
+        ],
+        &[("ISOCHOR_SECRET", SECRET_HEX)],
+        None,
+    );
+    let _ = std::fs::remove_file(&file);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let out = isochor(
+        &["send", "--tcp", &addr, "--format", "json", "read-config"],
+        &[],
+        None,
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["gas_model"], "loaded");
+    assert_eq!(v["gas"], "nitrogen");
+
+    // A zero calibration without a present reading: refused by the
+    // device, with what to do.
+    let out = isochor(
+        &[
+            "send",
+            "--tcp",
+            &addr,
+            "zero-calibration",
+            "--channel",
+            "temperature",
+        ],
+        &[("ISOCHOR_SECRET", SECRET_HEX)],
+        None,
+    );
+    assert_eq!(out.status.code(), Some(1));
+    assert!(
+        String::from_utf8_lossy(&out.stderr).contains("no valid temperature reading"),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+
     // Bad input: exit 2 without connecting.
     let out = isochor(
         &[
@@ -467,5 +606,5 @@ fn send_over_tcp() {
 
     // Each connection started the device afresh from its flash.
     let devices = handle.join().unwrap();
-    assert_eq!(devices[0].boots(), 5);
+    assert_eq!(devices[0].boots(), 7);
 }

@@ -333,6 +333,37 @@ impl Composition {
         isochor_core::checksum::crc32c(&bytes)
     }
 
+    /// The canonical form the fingerprint is taken of, as a configuration
+    /// holds it ([`isochor_core::Composition`]; the same fingerprint).
+    pub fn to_core(&self) -> isochor_core::Composition {
+        let mut c = isochor_core::Composition::default();
+        for &(comp, f) in &self.parts {
+            // At most 21 parts: one per component.
+            let _ = c
+                .parts
+                .push((comp.gerg_index() as u8, (f * 1e9).round() as u32));
+        }
+        c
+    }
+
+    /// A composition read back from a configuration: the fractions as
+    /// stored (not normalised again, so the fingerprint is the stored one).
+    pub fn from_core(c: &isochor_core::Composition) -> Result<Composition, Error> {
+        c.validate()
+            .map_err(|_| Error::Invalid("the stored composition is not valid".into()))?;
+        let parts = c
+            .parts
+            .iter()
+            .map(|&(i, f)| {
+                Component::ALL
+                    .get(usize::from(i).wrapping_sub(1))
+                    .map(|&comp| (comp, f64::from(f) / 1e9))
+                    .ok_or_else(|| Error::Invalid(format!("unknown GERG-2008 component {i}")))
+            })
+            .collect::<Result<Vec<_>, _>>()?;
+        Ok(Composition { parts })
+    }
+
     /// The mixture as the core knows it (fingerprint and molar mass).
     pub fn mixture(&self) -> Mixture {
         Mixture {
@@ -457,6 +488,14 @@ impl GasSpec {
         }
     }
 
+    /// The composition a configuration carries (`None` for a pure gas).
+    pub fn core_composition(&self) -> Option<isochor_core::Composition> {
+        match self {
+            GasSpec::Pure(_) => None,
+            GasSpec::Mixture(c) => Some(c.to_core()),
+        }
+    }
+
     /// Name → mole fraction (a pure gas: itself, 1).
     pub fn composition_map(&self) -> Vec<(&'static str, f64)> {
         match self {
@@ -478,6 +517,38 @@ impl fmt::Display for GasSpec {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_configuration_form_keeps_the_fingerprint() {
+        for c in Component::ALL {
+            assert_eq!(Component::ALL[c.gerg_index() - 1], c);
+        }
+        for text in [
+            "argon=82%,carbon_dioxide=18%",
+            "oxygen=21%,helium=79%",
+            "methane=0.3333333,ethane=0.3333333,propane=0.3333334",
+            "methane=90%,ethane=5%,propane=2%,nitrogen=2%,carbon_dioxide=1%",
+        ] {
+            let c = Composition::parse(text).unwrap();
+            let core = c.to_core();
+            core.validate().unwrap();
+            // The core computes the fingerprint the host does.
+            assert_eq!(core.fingerprint(), c.fingerprint(), "{text}");
+            assert!(core.is_of(&c.mixture()));
+            let back = Composition::from_core(&core).unwrap();
+            assert_eq!(back.fingerprint(), c.fingerprint(), "{text}");
+            assert_eq!(back.to_core(), core);
+            assert_eq!(back.to_string(), c.to_string());
+        }
+        // A damaged form is refused.
+        let mut core = Composition::parse("argon=82%,carbon_dioxide=18%")
+            .unwrap()
+            .to_core();
+        core.parts[0].1 += 10_000;
+        assert!(Composition::from_core(&core).is_err());
+        core.parts[0] = (22, 180_000_000);
+        assert!(Composition::from_core(&core).is_err());
+    }
 
     #[test]
     fn parse_rules() {

@@ -7,14 +7,17 @@
 //! in f64; the fixed-point form rounds that answer to the device formats (so
 //! the fixed-point estimator's arithmetic can be run with reference Z). States
 //! the equation refuses are answered at the nearest state it accepts, with
-//! [`Status::TWO_PHASE`] (liquid or two-phase) or
-//! [`Status::MODEL_OUT_OF_RANGE`] (outside its declared range).
+//! [`Status::TWO_PHASE`] (liquid and vapour), [`Status::LIQUID_FULL`] (more
+//! than [`LIQUID_FULL_MARGIN`] above the vapour pressure: compressed liquid)
+//! or [`Status::MODEL_OUT_OF_RANGE`] (outside its declared range).
 //!
 //! A mixture ([`Fluid::Mixture`]) is answered by GERG-2008; at or above its
 //! dew line (the tangent-plane test's single-phase limit) the answer is
-//! flagged [`Status::CONDENSATION_RISK`] and taken just below the line.
+//! flagged [`Status::CONDENSATION_RISK`] (never `liquid_full`: the dew line
+//! is not a vapour pressure) and taken just below the line.
 
 use crate::fluid::Fluid;
+use isochor_core::model::device::LIQUID_FULL_MARGIN;
 use isochor_core::model::{Compressibility, CompressibilityFx, ModelRange, ZPoint, ZPointFx};
 use isochor_core::{Gas, Status, envelope, fx};
 
@@ -79,7 +82,15 @@ impl ReferenceModel {
         if let Some(ps) = e.condensation_pressure_pa(t)
             && p >= ps
         {
-            flags |= self.gas.phase_flag();
+            // A pure gas far above its vapour pressure: no vapour space
+            // left (the same margin as the device models).
+            flags |= if self.gas.mixture().is_some() {
+                self.gas.phase_flag()
+            } else if p > ps * (1.0 + LIQUID_FULL_MARGIN) {
+                Status::LIQUID_FULL
+            } else {
+                Status::TWO_PHASE
+            };
             p = ps * (1.0 - 1e-9);
         }
         // Slopes at p = 0 are the low-pressure limit: take them just above.

@@ -6,12 +6,31 @@
 //!
 //! | quantity | accepted units |
 //! |---|---|
-//! | pressure | `Pa`, `kPa`, `MPa`, `bar`, `mbar`, `psi` |
+//! | pressure | `Pa`, `kPa`, `MPa`, `bar`, `mbar`, `psi`; `bara`, `psia` (absolute), `barg`, `psig` (gauge) |
 //! | temperature | `K`, `C` (also `°C`, `degC`), `F` (also `°F`, `degF`) |
 //! | volume | `L` (also `l`), `mL`, `m3` (also `m³`) |
 
+//!
+//! Pressure references: `bara`/`psia` say "absolute", `barg`/`psig` say
+//! "gauge" (above the surrounding atmosphere); the other units leave it to
+//! the option (absolute unless the command says otherwise). Working
+//! pressures marked on cylinders are gauge pressures. A gauge pressure
+//! becomes absolute by adding a barometric pressure ([`absolute_pa`]); where
+//! a command has none, a gauge unit is refused ([`pressure_pa`]).
+
 use crate::Error;
 use isochor_core::constants::{BAR_PA, PSI_PA, ZERO_CELSIUS_K, fahrenheit_to_kelvin};
+
+/// What a pressure's unit says about its reference.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Reference {
+    /// A plain unit (`bar`, `psi`, `Pa`, …): the option decides.
+    Unstated,
+    /// `bara`, `psia`: absolute.
+    Absolute,
+    /// `barg`, `psig`: gauge, above the surrounding atmosphere.
+    Gauge,
+}
 
 /// Splits `"200bar"` into `(200.0, "bar")` using the longest prefix that reads
 /// as a finite number.
@@ -42,27 +61,67 @@ pub fn split(input: &str, what: &'static str) -> Result<(f64, String), Error> {
     Ok((value, unit))
 }
 
-/// Parses a pressure to Pa (sign kept: gauge pressures may be negative).
-pub fn pressure_pa(input: &str, what: &'static str) -> Result<f64, Error> {
+/// Parses a pressure to Pa as written (sign kept: gauge pressures may be
+/// negative) and what its unit says about the reference.
+pub fn pressure(input: &str, what: &'static str) -> Result<(f64, Reference), Error> {
     let (v, unit) = split(input, what)?;
-    let factor = match unit.as_str() {
-        "Pa" => 1.0,
-        "kPa" => 1e3,
-        "MPa" => 1e6,
-        "bar" => BAR_PA,
-        "mbar" => BAR_PA / 1000.0,
-        "psi" => PSI_PA,
+    let (factor, reference) = match unit.as_str() {
+        "Pa" => (1.0, Reference::Unstated),
+        "kPa" => (1e3, Reference::Unstated),
+        "MPa" => (1e6, Reference::Unstated),
+        "bar" => (BAR_PA, Reference::Unstated),
+        "mbar" => (BAR_PA / 1000.0, Reference::Unstated),
+        "psi" => (PSI_PA, Reference::Unstated),
+        "bara" => (BAR_PA, Reference::Absolute),
+        "psia" => (PSI_PA, Reference::Absolute),
+        "barg" => (BAR_PA, Reference::Gauge),
+        "psig" => (PSI_PA, Reference::Gauge),
         _ => {
             return Err(Error::Quantity {
                 what,
                 input: input.to_string(),
                 reason: format!(
-                    "unknown pressure unit '{unit}' (use Pa, kPa, MPa, bar, mbar or psi)"
+                    "unknown pressure unit '{unit}' (use Pa, kPa, MPa, bar, mbar or psi; \
+                     bara, psia for absolute, barg, psig for gauge pressures)"
                 ),
             });
         }
     };
-    Ok(v * factor)
+    Ok((v * factor, reference))
+}
+
+/// Parses a pressure to Pa where the command takes it as it is (absolute,
+/// or a difference): plain and absolute units (`bara`, `psia`); a gauge unit
+/// (`barg`, `psig`) is refused, as there is no barometric pressure to add.
+pub fn pressure_pa(input: &str, what: &'static str) -> Result<f64, Error> {
+    match pressure(input, what)? {
+        (_, Reference::Gauge) => Err(Error::Quantity {
+            what,
+            input: input.to_string(),
+            reason: "a gauge pressure (barg, psig) is not accepted here: give the absolute \
+                     pressure (bar, bara, psia, ...)"
+                .to_string(),
+        }),
+        (v, _) => Ok(v),
+    }
+}
+
+/// Parses a pressure to absolute Pa: a gauge unit (`barg`, `psig`), or a
+/// plain unit when `gauge_by_default` (a command's `--gauge`), adds
+/// `barometric_pa`; an absolute unit (`bara`, `psia`) is taken as it is.
+pub fn absolute_pa(
+    input: &str,
+    what: &'static str,
+    gauge_by_default: bool,
+    barometric_pa: f64,
+) -> Result<f64, Error> {
+    let (v, reference) = pressure(input, what)?;
+    Ok(match reference {
+        Reference::Gauge => v + barometric_pa,
+        Reference::Absolute => v,
+        Reference::Unstated if gauge_by_default => v + barometric_pa,
+        Reference::Unstated => v,
+    })
 }
 
 /// Parses a temperature to K; refuses temperatures below absolute zero.
@@ -132,14 +191,24 @@ pub fn number(input: &str, what: &'static str) -> Result<f64, Error> {
     Ok(v)
 }
 
+/// Formats a number with `digits` decimals, never as a negative zero
+/// (`-0.0000` becomes `0.0000`).
+pub fn fmt_decimal(v: f64, digits: usize) -> String {
+    let s = format!("{v:.digits$}");
+    match s.strip_prefix('-') {
+        Some(rest) if rest.bytes().all(|b| b == b'0' || b == b'.') => rest.to_string(),
+        _ => s,
+    }
+}
+
 /// Formats a pressure in bar with a sensible number of decimals.
 pub fn fmt_bar(pa: f64) -> String {
-    format!("{:.3} bar", pa / BAR_PA)
+    format!("{} bar", fmt_decimal(pa / BAR_PA, 3))
 }
 
 /// Formats a temperature in °C.
 pub fn fmt_celsius(k: f64) -> String {
-    format!("{:.2} °C", k - ZERO_CELSIUS_K)
+    format!("{} °C", fmt_decimal(k - ZERO_CELSIUS_K, 2))
 }
 
 #[cfg(test)]
@@ -152,6 +221,9 @@ mod tests {
         assert_eq!(pressure_pa(" 1.5 MPa ", "p").unwrap(), 1.5e6);
         assert_eq!(pressure_pa("1e5Pa", "p").unwrap(), 1e5);
         assert_eq!(pressure_pa("-0.5bar", "p").unwrap(), -0.5e5);
+        // 1 psi = 0.453 592 37 kg × 9.806 65 m/s² / (0.0254 m)², exact by
+        // the definitions of the pound, standard gravity and the inch (NIST
+        // SP 811); 3000 psi is 206.842 718 8 bar by that product.
         assert!((pressure_pa("3000psi", "p").unwrap() - 206.842_718_8e5).abs() < 1.0);
         assert!(
             pressure_pa("200", "p")
@@ -172,7 +244,51 @@ mod tests {
     }
 
     #[test]
+    fn pressure_references() {
+        let atm = 101_325.0;
+        assert_eq!(
+            pressure("200bara", "p").unwrap(),
+            (200e5, Reference::Absolute)
+        );
+        assert_eq!(pressure("200barg", "p").unwrap(), (200e5, Reference::Gauge));
+        assert_eq!(
+            pressure("200bar", "p").unwrap(),
+            (200e5, Reference::Unstated)
+        );
+        assert_eq!(pressure_pa("200bara", "p").unwrap(), 200e5);
+        let e = pressure_pa("200barg", "p").unwrap_err().to_string();
+        assert!(e.contains("gauge pressure"), "{e}");
+        // Gauge units add the barometric pressure; absolute units do not,
+        // whatever the default; plain units follow it.
+        assert_eq!(
+            absolute_pa("200barg", "p", false, atm).unwrap(),
+            200e5 + atm
+        );
+        assert_eq!(absolute_pa("200bara", "p", true, atm).unwrap(), 200e5);
+        assert_eq!(absolute_pa("200bar", "p", true, atm).unwrap(), 200e5 + atm);
+        assert_eq!(absolute_pa("200bar", "p", false, atm).unwrap(), 200e5);
+        let psig = absolute_pa("2015psig", "p", false, atm).unwrap();
+        assert!((psig - (2015.0 * PSI_PA + atm)).abs() < 1e-6);
+        assert_eq!(
+            absolute_pa("14.7psia", "p", true, atm).unwrap(),
+            14.7 * PSI_PA
+        );
+        assert!(pressure("200 BARG", "p").is_err());
+    }
+
+    #[test]
+    fn no_negative_zero() {
+        assert_eq!(fmt_decimal(-0.00001, 4), "0.0000");
+        assert_eq!(fmt_decimal(-0.0001, 4), "-0.0001");
+        assert_eq!(fmt_decimal(0.0, 2), "0.00");
+        assert_eq!(fmt_celsius(273.149_999), "0.00 °C");
+        assert_eq!(fmt_bar(-1e-4), "0.000 bar");
+    }
+
+    #[test]
     fn temperatures() {
+        // 0 °C = 273.15 K and °F = 9/5 K from 32 °F at the ice point: both
+        // exact by the definitions of the scales (−40 °F is −40 °C).
         assert_eq!(temperature_k("35C", "t").unwrap(), 308.15);
         assert_eq!(temperature_k("300K", "t").unwrap(), 300.0);
         assert!((temperature_k("-40F", "t").unwrap() - 233.15).abs() < 1e-9);
@@ -189,6 +305,7 @@ mod tests {
 
     #[test]
     fn volumes() {
+        // 1 L = 1e-3 m³ exactly (CGPM 1964).
         assert_eq!(volume_m3("50L", "v").unwrap(), 0.05);
         assert_eq!(volume_m3("2m3", "v").unwrap(), 2.0);
         assert_eq!(volume_m3("250mL", "v").unwrap(), 250e-6);

@@ -23,7 +23,8 @@ fn nist_hydrogen_density_correlation_check_values() {
 fn sae_j2601_hydrogen_densities_at_15c() {
     // SAE J2601 (fuelling protocols for light-duty gaseous hydrogen vehicles):
     // density of hydrogen at 15 °C is 24.0 g/L at 35 MPa and 40.2 g/L at
-    // 70 MPa (values given to 0.1 g/L).
+    // 70 MPa (values given to 0.1 g/L; the 100 % state-of-charge densities,
+    // edition not checked, from memory).
     let h2 = Eos::of(Gas::Hydrogen);
     for (p, rho) in [(35e6, 24.0), (70e6, 40.2)] {
         let s = h2.state(p, 288.15).unwrap();

@@ -2,41 +2,38 @@
 //! trait so that several implementations can be scored the same way.
 //!
 //! [`Backend`] is the seam. Two implementations run the core in-process,
-//! exactly the chain a device runs — sensor front-ends (with the NE 43
-//! persistence of a loop and the plausibility checks), content estimate,
-//! tracker with uncertainty and alarms:
+//! each a thin adapter over the core's one assembly of the chain
+//! (`isochor_core::app`):
 //!
-//! * [`FixedGauge`]: the fixed-point path (what a device computes);
-//! * [`FloatGauge`]: the `f64` path (the reference mirror).
+//! * [`FixedGauge`]: the device's pipeline (`app::fixed::Pipeline`) over
+//!   the configuration prepared exactly as the host prepares it for a
+//!   device — the code that ships;
+//! * [`FloatGauge`]: the `f64` pipeline (`app::float::Pipeline`), the
+//!   physical configuration evaluated as written (the reference mirror).
 //!
-//! `isochor_sim::firmware_gauge::FirmwareGauge` implements the same trait over the
-//! reference firmware running in QEMU, driven over its serial link.
-//!
-//! Like a board, both prepare the bridge's temperature compensation (the
-//! one reciprocal of the bridge path) again only when the temperature
-//! reading has moved by more than [`COMPENSATION_STEP_K`] since it was last
-//! prepared.
+//! `isochor_sim::firmware_gauge::FirmwareGauge` implements the same trait
+//! over the reference firmware running in QEMU, driven over its serial
+//! link, with the same prepared configuration: it differs from
+//! [`FixedGauge`] only in transport.
+
+use std::sync::Arc;
 
 use super::sensors::{Codes, PressureCode, PressureFrontEnd, TemperatureFrontEnd};
 use crate::Error;
 use isochor_core::alarm::Events;
-use isochor_core::content::{fixed as cfixed, float as cfloat};
-use isochor_core::model::device::TableBuf;
-use isochor_core::model::{
-    Compressibility, CompressibilityFx, DeviceModel, Ideal, IsothermFx, ModelRange, ZPoint,
-    ZPointFx,
-};
-use isochor_core::sensor::plausibility::{PlausibilityConfig, PlausibilityState};
-use isochor_core::sensor::{TemperatureReading, bridge, current_loop, ntc, plausibility, rtd};
+use isochor_core::app::{Zero, fixed, float};
+use isochor_core::model::device::{DeviceModel, Table, TableBuf};
+use isochor_core::model::{Compressibility, Ideal, ModelRange, ZPoint};
+use isochor_core::prepared::{self, Plausibility, Prepared, PreparedBuf};
+use isochor_core::sensor::calibration::{CalibrationRecord, Channel, Correction, SensorConfig};
+use isochor_core::sensor::channel::RawSample;
+use isochor_core::sensor::plausibility::PlausibilityConfig;
 use isochor_core::time::Instant;
-use isochor_core::track::fixed::{TrackConfigFx, Tracker as TrackerFx};
-use isochor_core::track::float::{TrackConfig, Tracker};
+use isochor_core::track::fixed::TrackConfigFx;
+use isochor_core::track::float::TrackConfig;
 use isochor_core::{Gas, Setup, SetupFx, Status, fx, fx::to_f64};
 use isochor_eos::reference::ReferenceModel;
-
-/// Temperature change after which the bridge compensation is prepared
-/// again, K.
-pub const COMPENSATION_STEP_K: f64 = 0.05;
+use zerocopy::IntoBytes;
 
 /// What the gauge reports for one sample, in SI units whatever the backend.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
@@ -59,8 +56,9 @@ pub struct Reading {
     pub u_rate_kg_h: Option<f64>,
     /// Time to empty (to the reserve), s: expected, earliest, latest.
     pub time_to_empty_s: Option<(f64, f64, Option<f64>)>,
-    /// Loss per day from the leak detector (fraction of content).
-    pub loss_per_day: Option<f64>,
+    /// Loss per day from the leak detector, as a fraction of the content
+    /// per day (0.005: 0.5 % a day).
+    pub loss_fraction_per_day: Option<f64>,
     /// Status word (content, sensors, alarms).
     pub status: Status,
     /// Alarm changes at this sample.
@@ -90,11 +88,11 @@ pub enum ModelKind {
     Reference,
 }
 
-/// A gas model chosen at run time (both seams, by delegation).
+/// A gas model chosen at run time, for the `f64` pipeline.
 #[derive(Clone, Debug)]
 pub enum GaugeModel {
     /// Built-in device table, or a mixture's table built for its
-    /// composition (boxed: a prepared table is 2.7 kB).
+    /// composition, evaluated in `f64`.
     Device(Box<DeviceModel<'static>>),
     /// Ideal gas.
     Ideal(Ideal),
@@ -138,57 +136,13 @@ pub fn mixture_table(gas: Gas) -> Result<&'static TableBuf, Error> {
     Ok(table)
 }
 
-impl CompressibilityFx for GaugeModel {
-    fn gas(&self) -> Gas {
-        match self {
-            GaugeModel::Device(m) => CompressibilityFx::gas(m.as_ref()),
-            GaugeModel::Ideal(m) => CompressibilityFx::gas(m),
-            GaugeModel::Reference(m) => CompressibilityFx::gas(m.as_ref()),
-        }
-    }
-    fn z_fx(&self, p: fx::Pressure, t: fx::Temperature) -> ZPointFx {
-        match self {
-            GaugeModel::Device(m) => m.z_fx(p, t),
-            GaugeModel::Ideal(m) => m.z_fx(p, t),
-            GaugeModel::Reference(m) => m.z_fx(p, t),
-        }
-    }
-    fn z_floor(&self) -> fx::Compressibility {
-        match self {
-            GaugeModel::Device(m) => m.z_floor(),
-            GaugeModel::Ideal(m) => m.z_floor(),
-            GaugeModel::Reference(m) => m.z_floor(),
-        }
-    }
-    // The prepared-isotherm seam too, so the estimator runs the same path as
-    // on a device (settled-pressure table at the model's pressure knots, Z at
-    // the reference temperature on the prepared isotherm).
-    fn pressure_knots_fx(&self) -> &[u32] {
-        match self {
-            GaugeModel::Device(m) => m.pressure_knots_fx(),
-            GaugeModel::Ideal(m) => m.pressure_knots_fx(),
-            GaugeModel::Reference(m) => m.pressure_knots_fx(),
-        }
-    }
-    fn isotherm_fx(&self, t: fx::Temperature) -> IsothermFx {
-        match self {
-            GaugeModel::Device(m) => m.isotherm_fx(t),
-            GaugeModel::Ideal(m) => m.isotherm_fx(t),
-            GaugeModel::Reference(m) => m.isotherm_fx(t),
-        }
-    }
-    fn isotherm_z_fx(&self, iso: &IsothermFx, p: fx::Pressure) -> ZPointFx {
-        match self {
-            GaugeModel::Device(m) => m.isotherm_z_fx(iso, p),
-            GaugeModel::Ideal(m) => m.isotherm_z_fx(iso, p),
-            GaugeModel::Reference(m) => m.isotherm_z_fx(iso, p),
-        }
-    }
-}
-
 impl Compressibility<f64> for GaugeModel {
     fn gas(&self) -> Gas {
-        CompressibilityFx::gas(self)
+        match self {
+            GaugeModel::Device(m) => Compressibility::<f64>::gas(m.as_ref()),
+            GaugeModel::Ideal(m) => Compressibility::<f64>::gas(m),
+            GaugeModel::Reference(m) => Compressibility::<f64>::gas(m.as_ref()),
+        }
     }
     fn kind(&self) -> &'static str {
         match self {
@@ -234,78 +188,173 @@ pub struct GaugeConfig {
     pub track: TrackConfig,
 }
 
-/// The gauge's fixed-point configuration, converted once (the float
-/// backend runs its exact equivalent, so both see the same numbers).
-fn fixed_parts(c: &GaugeConfig) -> Result<(SetupFx, TrackConfigFx), Error> {
-    Ok((
-        SetupFx::from_f64(&c.setup)?,
-        TrackConfigFx::from_f64(&c.track)?,
-    ))
+impl GaugeConfig {
+    /// The device's physical configuration (the core's form: what a host
+    /// prepares and sends to a device). The front-ends carry no correction
+    /// (the simulated instruments' errors are the truth's, not the gauge's).
+    pub fn core(&self) -> Result<prepared::GaugeConfig, Error> {
+        let record = |channel, sensor| CalibrationRecord {
+            sequence: 1,
+            channel,
+            sensor,
+            correction: Correction::IDENTITY,
+        };
+        Ok(prepared::GaugeConfig {
+            setup: SetupFx::from_f64(&self.setup)?,
+            pressure: record(
+                Channel::Pressure,
+                match self.pressure {
+                    PressureFrontEnd::Bridge(b) => SensorConfig::Bridge(b),
+                    PressureFrontEnd::Loop(l) => SensorConfig::Loop(l),
+                },
+            ),
+            temperature: record(
+                Channel::Temperature,
+                match self.temperature {
+                    TemperatureFrontEnd::Rtd(r) => SensorConfig::Rtd(r),
+                    TemperatureFrontEnd::Ntc(n) => SensorConfig::Ntc(n),
+                },
+            ),
+            track: TrackConfigFx::from_f64(&self.track)?,
+            barometric_pa: fx::from_f64(self.barometric_pa, "barometric pressure")?,
+            // A mixture's table, built for its composition (no built-in
+            // table names it).
+            model: match self.setup.gas.mixture() {
+                Some(_) => Some(mixture_table(self.setup.gas)?.clone()),
+                None => None,
+            },
+            plausibility: Some(Plausibility {
+                pressure: self.pressure_plausibility,
+                temperature: self.temperature_plausibility,
+            }),
+            composition: crate::run::spec_of(self.setup.gas).core_composition(),
+        })
+    }
 }
 
-/// The in-process fixed-point core.
+impl GaugeConfig {
+    /// The configuration a device is given for this gauge ([`Self::core`]
+    /// with the gauge model as a device table): a device runs table models
+    /// only, so an `ideal` gauge model becomes a table of Z = 1, and
+    /// `reference` is refused (the `f64` backend runs it).
+    pub fn device(&self) -> Result<prepared::GaugeConfig, Error> {
+        let mut cfg = self.core()?;
+        match self.model {
+            ModelKind::Device => {}
+            ModelKind::Ideal => cfg.model = Some(ideal_table(self.setup.gas)?),
+            ModelKind::Reference => {
+                return Err(Error::Invalid(
+                    "a device runs gas-model tables; use the float backend for the reference model"
+                        .into(),
+                ));
+            }
+        }
+        Ok(cfg)
+    }
+}
+
+/// A prepared configuration's bytes shared by a pipeline and its model
+/// (kept in 32-bit words: the blob starts at a multiple of 4).
+#[derive(Clone, Debug)]
+pub struct SharedBlob {
+    words: Arc<[u32]>,
+    len: usize,
+}
+
+impl SharedBlob {
+    /// The bytes of `buf`.
+    pub fn new(buf: &PreparedBuf) -> SharedBlob {
+        SharedBlob::from_bytes(buf.bytes())
+    }
+
+    /// A copy of `bytes`.
+    pub fn from_bytes(bytes: &[u8]) -> SharedBlob {
+        let words: Vec<u32> = bytes
+            .chunks(4)
+            .map(|c| {
+                let mut w = [0u8; 4];
+                w[..c.len()].copy_from_slice(c);
+                u32::from_le_bytes(w)
+            })
+            .collect();
+        SharedBlob {
+            words: words.into(),
+            len: bytes.len(),
+        }
+    }
+}
+
+impl AsRef<[u8]> for SharedBlob {
+    fn as_ref(&self) -> &[u8] {
+        &self.words.as_bytes()[..self.len]
+    }
+}
+
+/// The codes of a sample as the converters deliver them (a bipolar code in
+/// the converter's low bits).
+fn raw(codes: &Codes, pressure: &PressureFrontEnd) -> Result<RawSample, Error> {
+    let p = match (codes.pressure, pressure) {
+        (PressureCode::Bridge(c), PressureFrontEnd::Bridge(b)) => {
+            let bits = u32::from(b.adc_bits.clamp(8, 24));
+            (c as u32) & ((1u32 << bits) - 1)
+        }
+        (PressureCode::Loop(c), PressureFrontEnd::Loop(_)) => c,
+        _ => return Err(Error::Invalid("pressure code of another front-end".into())),
+    };
+    Ok(RawSample {
+        pressure: p,
+        temperature: codes.temperature,
+    })
+}
+
+/// The in-process device pipeline (fixed point, prepared configuration).
 pub struct FixedGauge {
-    pressure: PressureFx,
-    temperature: TemperatureFx,
-    barometric: fx::Pressure,
-    p_check: plausibility::fixed::Checker,
-    t_check: plausibility::fixed::Checker,
-    p_state: PlausibilityState<i64>,
-    t_state: PlausibilityState<i64>,
-    tracker: TrackerFx<GaugeModel>,
+    pipeline: fixed::Pipeline<SharedBlob>,
+    pressure: PressureFrontEnd,
     rated_kg: f64,
-    /// The last temperature code and its reading: the conversion is a pure
-    /// function of the code, and a slowly changing temperature repeats it.
-    last_temperature: Option<(u32, TemperatureReading<fx::Temperature>)>,
-}
-
-enum PressureFx {
-    Bridge(
-        bridge::fixed::Bridge,
-        Option<(u32, bridge::fixed::Compensation)>,
-    ),
-    Loop(
-        current_loop::fixed::Loop,
-        current_loop::LoopState<current_loop::fixed::Reading>,
-    ),
-}
-
-enum TemperatureFx {
-    Rtd(rtd::fixed::Rtd),
-    Ntc(ntc::fixed::Ntc),
 }
 
 impl FixedGauge {
-    /// Prepares the fixed-point chain.
+    /// Prepares the configuration as a host does for a device
+    /// ([`GaugeConfig::device`]) and starts the device's pipeline on it.
     pub fn new(c: &GaugeConfig) -> Result<FixedGauge, Error> {
-        let (setup, track) = fixed_parts(c)?;
-        let model = GaugeModel::new(c.model, c.setup.gas)?;
-        let est = cfixed::Estimator::new(setup, model)?;
-        let rated_kg = to_f64(est.rated_mass_kg());
+        let (buf, _) = PreparedBuf::build(&c.device()?)?;
+        FixedGauge::from_prepared(&buf, c.pressure)
+    }
+
+    /// The device pipeline over a prepared configuration.
+    pub fn from_prepared(
+        buf: &PreparedBuf,
+        pressure: PressureFrontEnd,
+    ) -> Result<FixedGauge, Error> {
+        let prepared = Prepared::new(SharedBlob::new(buf))?;
+        let pipeline = fixed::Pipeline::new(prepared, Zero::default())?;
+        let rated_kg = to_f64(pipeline.tracker().estimator().rated_mass_kg());
         Ok(FixedGauge {
-            pressure: match c.pressure {
-                PressureFrontEnd::Bridge(b) => {
-                    PressureFx::Bridge(bridge::fixed::Bridge::new(&b)?, None)
-                }
-                PressureFrontEnd::Loop(l) => PressureFx::Loop(
-                    current_loop::fixed::Loop::new(&l)?,
-                    current_loop::LoopState::new(),
-                ),
-            },
-            temperature: match c.temperature {
-                TemperatureFrontEnd::Rtd(r) => TemperatureFx::Rtd(rtd::fixed::Rtd::new(&r)?),
-                TemperatureFrontEnd::Ntc(n) => TemperatureFx::Ntc(ntc::fixed::Ntc::new(&n)?),
-            },
-            barometric: fx::from_f64(c.barometric_pa, "barometric pressure")?,
-            p_check: plausibility::fixed::Checker::new(&c.pressure_plausibility, 4)?,
-            t_check: plausibility::fixed::Checker::new(&c.temperature_plausibility, 16)?,
-            p_state: PlausibilityState::new(),
-            t_state: PlausibilityState::new(),
-            tracker: TrackerFx::new(est, track)?,
+            pipeline,
+            pressure,
             rated_kg,
-            last_temperature: None,
         })
     }
+}
+
+/// A device table of Z = 1 (the ideal gas) for `gas`, over the envelope.
+fn ideal_table(gas: Gas) -> Result<isochor_core::model::device::TableBuf, Error> {
+    let t = match gas.mixture() {
+        Some(_) => mixture_table(gas)?.table(),
+        None => isochor_core::model::device::builtin::table(gas)
+            .ok_or_else(|| Error::Invalid(format!("no table of {gas}")))?,
+    };
+    let cols = t.columns();
+    let rows = t.rows();
+    let ideal = Table {
+        z_offset: 1 << 30,
+        z_floor: 1 << 29,
+        coefs: &vec![0u16; rows * cols],
+        boundary: None,
+        ..t
+    };
+    Ok(isochor_core::model::device::TableBuf::from_table(&ideal)?)
 }
 
 impl Backend for FixedGauge {
@@ -318,53 +367,24 @@ impl Backend for FixedGauge {
     }
 
     fn sample(&mut self, at: Instant, codes: &Codes) -> Result<Reading, Error> {
-        let t = match self.last_temperature {
-            Some((code, reading)) if code == codes.temperature => reading,
-            _ => {
-                let reading = match &self.temperature {
-                    TemperatureFx::Rtd(r) => r.read(codes.temperature),
-                    TemperatureFx::Ntc(n) => n.read(codes.temperature),
-                };
-                self.last_temperature = Some((codes.temperature, reading));
-                reading
-            }
-        };
-        let p = match (&mut self.pressure, codes.pressure) {
-            (PressureFx::Bridge(b, comp), PressureCode::Bridge(code)) => {
-                let bits = t.temperature_k.to_bits();
-                let step = (COMPENSATION_STEP_K * 65_536.0) as u32;
-                let c = match comp {
-                    Some((at, c)) if at.abs_diff(bits) <= step => *c,
-                    _ => {
-                        let c = b.compensation(t.temperature_k);
-                        *comp = Some((bits, c));
-                        c
-                    }
-                };
-                b.read_compensated(code, &c, self.barometric)
-            }
-            (PressureFx::Loop(l, state), PressureCode::Loop(code)) => {
-                l.read(code, self.barometric, at, state).pressure
-            }
-            _ => return Err(Error::Invalid("pressure code of another front-end".into())),
-        };
-        let mut sensor = p.status | t.status;
-        sensor |= self
-            .p_check
-            .check(i64::from(p.pressure_pa.to_bits()), at, &mut self.p_state);
-        sensor |= self
-            .t_check
-            .check(i64::from(t.temperature_k.to_bits()), at, &mut self.t_state);
-        let r = self
-            .tracker
-            .update(at, p.pressure_pa, t.temperature_k, sensor);
+        let raw = raw(codes, &self.pressure)?;
+        let readings = self.pipeline.convert(at, &raw);
+        let sensor = readings.status();
+        let r = self.pipeline.tracker_mut().update(
+            at,
+            readings.pressure.pressure_pa,
+            readings.temperature.temperature_k,
+            sensor,
+        );
         let valid = |s: Status| !s.intersects(isochor_core::sensor::VALUE_INVALID);
         let content = r
             .content
             .filter(|c| !c.status.intersects(Status::CONTENT_INVALID));
         Ok(Reading {
-            pressure_pa: valid(p.status).then(|| to_f64(p.pressure_pa)),
-            temperature_k: valid(t.status).then(|| to_f64(t.temperature_k)),
+            pressure_pa: valid(readings.pressure.status)
+                .then(|| to_f64(readings.pressure.pressure_pa)),
+            temperature_k: valid(readings.temperature.status)
+                .then(|| to_f64(readings.temperature.temperature_k)),
             mass_kg: content.map(|c| to_f64(c.mass_kg)),
             fill_fraction: content.map(|c| to_f64(c.fill_fraction)),
             u_mass_kg: r.uncertainty.map(|u| to_f64(u.mass_kg)),
@@ -377,71 +397,31 @@ impl Backend for FixedGauge {
                     t.latest.map(|l| l.0 as f64 / 1e3),
                 )
             }),
-            loss_per_day: r.leak.map(|l| to_f64(l.loss_per_day)),
+            loss_fraction_per_day: r.leak.map(|l| to_f64(l.loss_per_day)),
             status: r.status | sensor,
             events: r.events,
         })
     }
 }
 
-/// The in-process `f64` core.
+/// The in-process `f64` pipeline.
 pub struct FloatGauge {
-    pressure: PressureF,
-    temperature: TemperatureF,
-    barometric: f64,
-    p_check: plausibility::float::Checker<f64>,
-    t_check: plausibility::float::Checker<f64>,
-    p_state: PlausibilityState<f64>,
-    t_state: PlausibilityState<f64>,
-    tracker: Tracker<f64, GaugeModel>,
+    pipeline: float::Pipeline<f64, GaugeModel>,
+    pressure: PressureFrontEnd,
     rated_kg: f64,
 }
 
-enum PressureF {
-    Bridge(
-        bridge::float::Bridge<f64>,
-        Option<(f64, bridge::float::Compensation<f64>)>,
-    ),
-    Loop(
-        current_loop::float::Loop<f64>,
-        current_loop::LoopState<current_loop::float::Reading<f64>>,
-    ),
-}
-
-enum TemperatureF {
-    Rtd(rtd::float::Rtd<f64>),
-    Ntc(ntc::float::Ntc<f64>),
-}
-
 impl FloatGauge {
-    /// Prepares the `f64` chain on the exact equivalent of the fixed-point
-    /// configuration.
+    /// The `f64` pipeline of the same physical configuration as the fixed
+    /// gauge's.
     pub fn new(c: &GaugeConfig) -> Result<FloatGauge, Error> {
-        let (setup, track) = fixed_parts(c)?;
+        let cfg = c.core()?;
         let model = GaugeModel::new(c.model, c.setup.gas)?;
-        let est = cfloat::Estimator::new(setup.to_real(), model)?;
-        let rated_kg = est.rated_mass_kg();
-        let baro: fx::Pressure = fx::from_f64(c.barometric_pa, "barometric pressure")?;
+        let pipeline = float::Pipeline::new(&cfg, model, Zero::default())?;
+        let rated_kg = pipeline.tracker().estimator().rated_mass_kg();
         Ok(FloatGauge {
-            pressure: match c.pressure {
-                PressureFrontEnd::Bridge(b) => {
-                    PressureF::Bridge(bridge::float::Bridge::new(&b)?, None)
-                }
-                PressureFrontEnd::Loop(l) => PressureF::Loop(
-                    current_loop::float::Loop::new(&l)?,
-                    current_loop::LoopState::new(),
-                ),
-            },
-            temperature: match c.temperature {
-                TemperatureFrontEnd::Rtd(r) => TemperatureF::Rtd(rtd::float::Rtd::new(&r)?),
-                TemperatureFrontEnd::Ntc(n) => TemperatureF::Ntc(ntc::float::Ntc::new(&n)?),
-            },
-            barometric: to_f64(baro),
-            p_check: plausibility::float::Checker::new(&c.pressure_plausibility)?,
-            t_check: plausibility::float::Checker::new(&c.temperature_plausibility)?,
-            p_state: PlausibilityState::new(),
-            t_state: PlausibilityState::new(),
-            tracker: Tracker::new(est, track.to_real())?,
+            pipeline,
+            pressure: c.pressure,
             rated_kg,
         })
     }
@@ -457,43 +437,23 @@ impl Backend for FloatGauge {
     }
 
     fn sample(&mut self, at: Instant, codes: &Codes) -> Result<Reading, Error> {
-        let t = match &self.temperature {
-            TemperatureF::Rtd(r) => r.read(codes.temperature),
-            TemperatureF::Ntc(n) => n.read(codes.temperature),
-        };
-        let p = match (&mut self.pressure, codes.pressure) {
-            (PressureF::Bridge(b, comp), PressureCode::Bridge(code)) => {
-                // The same decision as the fixed path, on the same bits.
-                let bits = (t.temperature_k * 65_536.0).round() as u32;
-                let step = (COMPENSATION_STEP_K * 65_536.0) as u32;
-                let c = match comp {
-                    Some((at, c)) if (*at as u32).abs_diff(bits) <= step => *c,
-                    _ => {
-                        let c = b.compensation(t.temperature_k)?;
-                        *comp = Some((f64::from(bits), c));
-                        c
-                    }
-                };
-                b.read_compensated(code, &c, self.barometric)?
-            }
-            (PressureF::Loop(l, state), PressureCode::Loop(code)) => {
-                l.read(code, self.barometric, at, state)?.pressure
-            }
-            _ => return Err(Error::Invalid("pressure code of another front-end".into())),
-        };
-        let mut sensor = p.status | t.status;
-        sensor |= self.p_check.check(p.pressure_pa, at, &mut self.p_state)?;
-        sensor |= self.t_check.check(t.temperature_k, at, &mut self.t_state)?;
-        let r = self
-            .tracker
-            .update(at, p.pressure_pa, t.temperature_k, sensor)?;
+        let raw = raw(codes, &self.pressure)?;
+        let readings = self.pipeline.convert(at, &raw)?;
+        let sensor = readings.status();
+        let r = self.pipeline.tracker_mut().update(
+            at,
+            readings.pressure.pressure_pa,
+            readings.temperature.temperature_k,
+            sensor,
+        )?;
         let valid = |s: Status| !s.intersects(isochor_core::sensor::VALUE_INVALID);
         let content = r
             .content
             .filter(|c| !c.status.intersects(Status::CONTENT_INVALID));
         Ok(Reading {
-            pressure_pa: valid(p.status).then_some(p.pressure_pa),
-            temperature_k: valid(t.status).then_some(t.temperature_k),
+            pressure_pa: valid(readings.pressure.status).then_some(readings.pressure.pressure_pa),
+            temperature_k: valid(readings.temperature.status)
+                .then_some(readings.temperature.temperature_k),
             mass_kg: content.map(|c| c.mass_kg),
             fill_fraction: content.map(|c| c.fill_fraction),
             u_mass_kg: r.uncertainty.map(|u| u.mass_kg),
@@ -506,7 +466,7 @@ impl Backend for FloatGauge {
                     t.latest.map(|l| l.0 as f64 / 1e3),
                 )
             }),
-            loss_per_day: r.leak.map(|l| l.loss_per_day),
+            loss_fraction_per_day: r.leak.map(|l| l.loss_per_day),
             status: r.status | sensor,
             events: r.events,
         })

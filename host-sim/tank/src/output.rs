@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 /// The CSV header (SI units in the column names).
 pub const CSV_HEADER: &str = "t_s,pressure_true_pa,pressure_read_pa,gas_temperature_k,\
 wall_temperature_k,ambient_temperature_k,temperature_read_k,mass_true_kg,mass_gauge_kg,\
-u_mass_kg,fill_fraction,rate_kg_h,true_outflow_kg_h,time_to_empty_s,loss_per_day,status";
+u_mass_kg,fill_fraction,rate_kg_h,true_outflow_kg_h,time_to_empty_s,loss_fraction_per_day,status";
 // `status`: the flag names joined by `|` (empty: ok).
 
 fn opt(v: Option<f64>) -> String {
@@ -38,7 +38,7 @@ pub fn csv_row(p: &TracePoint) -> String {
         opt(p.rate_kg_h),
         p.true_outflow_kg_h,
         opt(p.time_to_empty_s),
-        opt(p.loss_per_day),
+        opt(p.loss_fraction_per_day),
         Status::from_bits(p.status)
             .names()
             .collect::<Vec<_>>()
@@ -144,6 +144,188 @@ fn fmt_duration(s: f64) -> String {
     }
 }
 
+/// A signed percentage (`+0.123 %`).
+fn spct(x: f64, digits: usize) -> String {
+    format!("{:+.digits$} %", x * 100.0)
+}
+
+/// The instrument under test, as lines for people.
+pub fn instrument_lines(s: &Summary) -> Vec<String> {
+    let i = &s.instrument;
+    let mut v = vec![if i.drawn {
+        format!(
+            "the instrument: drawn from the gauge's declared uncertainties (seed {}; another \
+             seed, another instrument), plus the scenario's stated errors",
+            i.seed
+        )
+    } else {
+        "the instrument: nominal (only the scenario's stated errors)".to_string()
+    }];
+    let p_drift =
+        if i.pressure_offset_drift_pa_per_year != 0.0 || i.pressure_span_drift_per_year != 0.0 {
+            format!(
+                ", drift {:+.3} bar/yr and {}/yr",
+                i.pressure_offset_drift_pa_per_year / BAR_PA,
+                spct(i.pressure_span_drift_per_year, 3)
+            )
+        } else {
+            String::new()
+        };
+    v.push(format!(
+        "  pressure sensor: offset {:+.3} bar, span error {}{p_drift}, noise {:.3} bar",
+        i.pressure_offset_pa / BAR_PA,
+        spct(i.pressure_span_error, 3),
+        i.pressure_noise_pa / BAR_PA
+    ));
+    let t_drift = if i.temperature_drift_k_per_year != 0.0 {
+        format!(", drift {:+.3} K/yr", i.temperature_drift_k_per_year)
+    } else {
+        String::new()
+    };
+    v.push(format!(
+        "  temperature sensor: offset {:+.3} K, gain error {}{t_drift}, noise {:.3} K; on the {}, \
+         own time constant {:.0} s (the gauge declares a lag of {:.0} min)",
+        i.temperature_offset_k,
+        spct(i.temperature_gain_error, 3),
+        i.temperature_noise_k,
+        i.temperature_mount,
+        i.temperature_time_constant_s,
+        i.temperature_lag_declared_s / 60.0
+    ));
+    v.push(format!(
+        "  water capacity told to the gauge: {:.3} L for a true {:.3} L ({})",
+        i.capacity_told_m3 * 1e3,
+        i.capacity_true_m3 * 1e3,
+        spct(i.capacity_error_fraction, 3)
+    ));
+    v
+}
+
+/// One line per headline score saying how to read it: what is good, what
+/// is expected of this instrument and scenario. Keys are the score rows of
+/// [`render_text`].
+pub fn readings(s: &Summary) -> Vec<(&'static str, String)> {
+    let mut v = Vec::new();
+    let u = s.median_relative_uncertainty;
+    if let (Some(max), Some(u)) = (s.max_abs_error_fraction, u) {
+        v.push((
+            "max",
+            format!(
+                "the largest error of a sample the gauge vouched for; {} its median k = 2 band \
+                 U(m)/m of {}",
+                if max <= u { "inside" } else { "beyond" },
+                pct(Some(u), 2)
+            ),
+        ));
+    }
+    if let (Some(mean), Some(b)) = (s.mean_error_fraction, s.expected_bias) {
+        v.push((
+            "mean",
+            format!(
+                "this instrument's errors explain {} (capacity {}, pressure {}, temperature {}); \
+                 the gauge's own part is {} (sensor lag, gas model, arithmetic)",
+                spct(b.total_fraction, 2),
+                spct(b.capacity_fraction, 2),
+                spct(b.pressure_fraction, 2),
+                spct(b.temperature_fraction, 2),
+                spct(mean - b.total_fraction, 3)
+            ),
+        ));
+    }
+    if let (Some(rms), Some(mean)) = (s.rms_error_fraction, s.mean_error_fraction) {
+        let scatter = (rms * rms - mean * mean).max(0.0).sqrt();
+        v.push((
+            "rms",
+            format!(
+                "the scatter around the bias is {}: {}",
+                pct(Some(scatter), 3),
+                if scatter < mean.abs() {
+                    "the bias dominates, a constant offset of this instrument"
+                } else {
+                    "noise, lag and the day/night swing dominate"
+                }
+            ),
+        ));
+    }
+    if s.max_abs_error_fraction_all.is_some() {
+        v.push((
+            "all",
+            "over every sample with an estimate, also those the gauge flags and is not judged on \
+             (settling after a fast fill or draw, sensor faults, below the reserve): never below \
+             the judged maximum, far above it during a fast fill"
+                .into(),
+        ));
+    }
+    if let Some(c) = s.uncertainty_coverage {
+        v.push((
+            "coverage",
+            format!(
+                "k = 2 promises 95 % over many instruments; {}",
+                if c >= 0.95 {
+                    "this one's errors sit inside its band"
+                } else {
+                    "this one's errors add up beyond its band for part of the run (one draw \
+                     from the declaration; a population of them is what the 95 % is about)"
+                }
+            ),
+        ));
+    }
+    if let (Some(u), Some(mean)) = (u, s.mean_error_fraction) {
+        v.push((
+            "u",
+            format!(
+                "the gauge's own claim from its declared uncertainties; the bias is {:.0} % of it",
+                100.0 * mean.abs() / u.max(1e-12)
+            ),
+        ));
+    }
+    if let Some(start) = s.leak_started_s {
+        let rate = s
+            .leak_loss_per_day
+            .map(|r| format!("a leak of {} of the content per day", pct(Some(r), 2)))
+            .unwrap_or_else(|| "a leak".into());
+        v.push((
+            "leak",
+            format!(
+                "{rate} from {}: the detector compares the last two days' means of the \
+                 temperature-compensated content, hourly; stated: 1 %/day within 24 h, \
+                 0.2 %/day within 48 h, below 0.1 %/day not flagged",
+                fmt_duration(start)
+            ),
+        ));
+    }
+    v.push((
+        "false",
+        if s.false_alarms == 0 {
+            "every raise was checked against the truth; 0 is the goal".into()
+        } else {
+            "raises the truth does not justify, marked FALSE ALARM in the timeline below".into()
+        },
+    ));
+    if let (Some(q), Some(t), Some(ru)) = (
+        s.time_to_empty_outflow_kg_h,
+        s.time_to_empty_true_median_s,
+        s.time_to_empty_rate_uncertainty,
+    ) {
+        v.push((
+            "tte",
+            format!(
+                "judged where the true outflow was steady: median {q:.4} kg/h, {} to the \
+                 reserve{}; the gauge stated its rate to ±{} (k = 2) there, and a time to \
+                 empty is no better than its rate",
+                fmt_duration(t),
+                if s.leak_started_s.is_some() && s.time_to_empty_minutes > 0 && s.draws == 0 {
+                    " (the leak alone: no draw in this scenario)"
+                } else {
+                    ""
+                },
+                pct(Some(ru), 0)
+            ),
+        ));
+    }
+    v
+}
+
 /// The human-readable summary, with the cautions.
 pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
     let mut o = String::new();
@@ -165,6 +347,16 @@ pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
     let row = |o: &mut String, k: &str, v: String| {
         let _ = writeln!(o, "  {k:<44} {v}");
     };
+    let reads = readings(s);
+    let note = |o: &mut String, key: &str| {
+        for (_, r) in reads.iter().filter(|(k, _)| *k == key) {
+            let _ = writeln!(o, "      reading: {r}");
+        }
+    };
+    for line in instrument_lines(s) {
+        let _ = writeln!(o, "  {line}");
+    }
+    let _ = writeln!(o);
     row(
         &mut o,
         "true content, start → end",
@@ -197,26 +389,38 @@ pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
         "content error, max |e| (judged)",
         pct(s.max_abs_error_fraction, 3),
     );
+    note(&mut o, "max");
     row(
         &mut o,
         "content error, mean (bias)",
         pct(s.mean_error_fraction, 3),
     );
+    note(&mut o, "mean");
     row(&mut o, "content error, rms", pct(s.rms_error_fraction, 3));
+    note(&mut o, "rms");
     row(
         &mut o,
         "content error, max |e| (every sample)",
         pct(s.max_abs_error_fraction_all, 3),
     );
+    note(&mut o, "all");
     row(
         &mut o,
         "uncertainty (k = 2) holds the truth",
         pct(s.uncertainty_coverage, 1),
     );
+    note(&mut o, "coverage");
     row(
         &mut o,
         "uncertainty (k = 2), median U(m)/m",
         pct(s.median_relative_uncertainty, 2),
+    );
+    note(&mut o, "u");
+    row(
+        &mut o,
+        "largest |error| / U(m) (judged)",
+        s.max_error_over_uncertainty
+            .map_or_else(|| "—".to_string(), |v| format!("{v:.2}")),
     );
     row(
         &mut o,
@@ -231,7 +435,9 @@ pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
             (Some(st), None) => format!("began at {}, NOT detected", fmt_duration(st)),
         },
     );
+    note(&mut o, "leak");
     row(&mut o, "false alarms", format!("{}", s.false_alarms));
+    note(&mut o, "false");
     row(
         &mut o,
         "time to empty, median / max error",
@@ -247,6 +453,7 @@ pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
             "not judged (no steady draw in the run)".into()
         },
     );
+    note(&mut o, "tte");
     let _ = writeln!(o, "\n  alarm timeline:");
     if s.alarms.is_empty() {
         let _ = writeln!(o, "    (no alarm)");

@@ -184,7 +184,7 @@ where
             ORANGE.stroke_width(1),
         ))
         .map_err(out)?
-        .label("gauge reading")
+        .label("sensor reading (abs)")
         .legend(line(ORANGE));
         c.draw_series(LineSeries::new(
             pts.iter().map(|p| (x(p.t_s), p.pressure_true_pa / BAR_PA)),
@@ -230,7 +230,7 @@ where
             ),
             ("wall", MAGENTA, 2, Box::new(|p| Some(p.wall_temperature_k))),
             (
-                "gauge reading",
+                "sensor reading",
                 ORANGE,
                 1,
                 Box::new(|p| p.temperature_read_k),

@@ -14,7 +14,8 @@
 //!   the bias and the rms are over judged samples; `_all` variants over
 //!   every sample with an estimate.
 //! * **Uncertainty coverage**: share of judged samples whose k = 2 interval
-//!   m ± U(m) holds the true mass.
+//!   m ± U(m) holds the true mass; and the largest |error|/U(m) of a judged
+//!   sample (`max_error_over_uncertainty`).
 //! * **Leak detection**: time from the start of the first leak to the first
 //!   `leak` alarm after it.
 //! * **False alarms**: raises the truth does not justify: `leak` before any
@@ -33,15 +34,34 @@
 //!   to ±50 % (U(rate) ≤ |rate|/2, the condition under which the gauge itself
 //!   uses its time to empty): the relative error of the expected time and
 //!   whether earliest … latest holds the truth.
+//!
+//! # How to read them
+//!
+//! * **The instrument** ([`InstrumentErrors`]): the errors the readings
+//!   carry — the pressure sensor's offset and span error, the temperature
+//!   sensor's offset, gain error, place and lag, and the water capacity the
+//!   gauge is told — drawn from the gauge's declared uncertainties (a new
+//!   seed is another instrument) plus the errors the scenario states.
+//! * **Expected bias** ([`ExpectedBias`]): the mean content error those
+//!   static errors explain, to first order through the true gas's
+//!   sensitivities (c_p = ∂ln ρ/∂ln p, c_T = ∂ln ρ/∂ln T from the reference
+//!   equation of state, evaluated again when p has moved by 1 % or T by
+//!   0.5 K), over the judged samples once a minute. The
+//!   difference from the measured bias is the gauge's own part (sensor lag
+//!   and the gas–wall temperature difference, gas model, arithmetic).
+//! * **Time to empty**: beside the errors, what the judged minutes were —
+//!   the median true outflow and time to the reserve, and the median
+//!   U(rate)/|rate| the gauge stated there: a time to empty is no better
+//!   than the rate it divides by.
 
 use super::gauge::{Backend, FixedGauge, FloatGauge, Reading};
 use super::physics::{Simulator, Truth};
 use super::scenario::Scenario;
-use super::sensors::SensorPair;
+use super::sensors::{Mount, SensorPair};
 use crate::Error;
 use isochor_core::Status;
 use isochor_core::alarm::{AlarmEvent, AlarmKind};
-use isochor_core::constants::STANDARD_ATMOSPHERE_PA;
+use isochor_core::constants::{STANDARD_ATMOSPHERE_PA, ZERO_CELSIUS_K};
 use isochor_core::time::Instant;
 use isochor_eos::composition::GasSpec;
 use isochor_eos::fluid::Fluid;
@@ -99,8 +119,9 @@ pub struct TracePoint {
     pub true_outflow_kg_h: f64,
     /// The gauge's expected time to empty, s.
     pub time_to_empty_s: Option<f64>,
-    /// The gauge's loss per day (leak detector).
-    pub loss_per_day: Option<f64>,
+    /// The gauge's loss per day (leak detector), as a fraction of the
+    /// content per day (0.005: 0.5 % a day).
+    pub loss_fraction_per_day: Option<f64>,
     /// The gauge's status word (bits).
     pub status: u32,
 }
@@ -116,6 +137,111 @@ pub struct TimelineEvent {
     pub change: &'static str,
     /// For raises: whether the truth justified it.
     pub justified: Option<bool>,
+}
+
+/// The instrument under test: the errors its readings carry (JSON
+/// `instrument`). With `instrument = "drawn"` they are drawn from the
+/// gauge's declared uncertainties (plus the errors the scenario states);
+/// with `"nominal"` only the stated ones.
+#[derive(Clone, Debug, Serialize)]
+pub struct InstrumentErrors {
+    /// Drawn from the declaration (`true`) or nominal (`false`).
+    pub drawn: bool,
+    /// The scenario's seed (another seed draws another instrument).
+    pub seed: u64,
+    /// Pressure offset, Pa.
+    pub pressure_offset_pa: f64,
+    /// Pressure span (gain) error, relative.
+    pub pressure_span_error: f64,
+    /// Pressure offset drift, Pa per year.
+    pub pressure_offset_drift_pa_per_year: f64,
+    /// Pressure span drift, relative per year.
+    pub pressure_span_drift_per_year: f64,
+    /// Pressure noise, standard deviation, Pa.
+    pub pressure_noise_pa: f64,
+    /// Temperature offset, K.
+    pub temperature_offset_k: f64,
+    /// Temperature gain error about 0 °C, relative.
+    pub temperature_gain_error: f64,
+    /// Temperature offset drift, K per year.
+    pub temperature_drift_k_per_year: f64,
+    /// Temperature noise, standard deviation, K.
+    pub temperature_noise_k: f64,
+    /// Where the temperature sensor sits: `wall` or `gas`.
+    pub temperature_mount: &'static str,
+    /// The temperature sensor's own time constant, s.
+    pub temperature_time_constant_s: f64,
+    /// The lag the gauge declares for its temperature reading, u(τ), s.
+    pub temperature_lag_declared_s: f64,
+    /// The true water capacity, m³.
+    pub capacity_true_m3: f64,
+    /// The water capacity the gauge is told, m³.
+    pub capacity_told_m3: f64,
+    /// capacity_told / capacity_true − 1.
+    pub capacity_error_fraction: f64,
+}
+
+impl InstrumentErrors {
+    /// The instrument of a scenario.
+    pub fn of(sc: &Scenario) -> InstrumentErrors {
+        let (p, t) = (&sc.pressure, &sc.temperature);
+        let told = sc.gauge.setup.tank.water_capacity_m3;
+        let truth = sc.tank.water_capacity_m3;
+        InstrumentErrors {
+            drawn: sc.source.gauge.instrument == "drawn",
+            seed: sc.source.seed,
+            pressure_offset_pa: p.offset_pa,
+            pressure_span_error: p.span_error,
+            pressure_offset_drift_pa_per_year: p.offset_drift_pa_per_year,
+            pressure_span_drift_per_year: p.span_drift_per_year,
+            pressure_noise_pa: p.noise_pa,
+            temperature_offset_k: t.offset_k,
+            temperature_gain_error: t.gain_error,
+            temperature_drift_k_per_year: t.drift_k_per_year,
+            temperature_noise_k: t.noise_k,
+            temperature_mount: match t.mount {
+                Mount::Wall => "wall",
+                Mount::Gas => "gas",
+            },
+            temperature_time_constant_s: t.time_constant_s,
+            temperature_lag_declared_s: sc.gauge.track.uncertainty.temperature_lag.0 as f64 / 1e3,
+            capacity_true_m3: truth,
+            capacity_told_m3: told,
+            capacity_error_fraction: told / truth - 1.0,
+        }
+    }
+
+    /// The relative content error the static errors give at a true state
+    /// (first order): capacity, pressure and temperature parts. `c_p`,
+    /// `c_t`: ∂ln ρ/∂ln p and ∂ln ρ/∂ln T of the gas there; `years` since
+    /// the start (drifts).
+    fn content_error(&self, p_pa: f64, t_k: f64, c_p: f64, c_t: f64, years: f64) -> [f64; 3] {
+        let dp = p_pa * (self.pressure_span_error + self.pressure_span_drift_per_year * years)
+            + self.pressure_offset_pa
+            + self.pressure_offset_drift_pa_per_year * years;
+        let dt = self.temperature_offset_k
+            + self.temperature_drift_k_per_year * years
+            + self.temperature_gain_error * (t_k - ZERO_CELSIUS_K);
+        [
+            self.capacity_error_fraction,
+            c_p * dp / p_pa,
+            c_t * dt / t_k,
+        ]
+    }
+}
+
+/// The mean content error the instrument's static errors explain (JSON
+/// `expected_bias`): see the module documentation.
+#[derive(Clone, Copy, Debug, Serialize)]
+pub struct ExpectedBias {
+    /// From the water capacity the gauge is told.
+    pub capacity_fraction: f64,
+    /// From the pressure offset and span error (and their drifts).
+    pub pressure_fraction: f64,
+    /// From the temperature offset and gain error (and drift).
+    pub temperature_fraction: f64,
+    /// The sum: what the instrument explains of `mean_error_fraction`.
+    pub total_fraction: f64,
 }
 
 /// The scores of a run (the JSON summary).
@@ -158,6 +284,11 @@ pub struct Summary {
     pub max_abs_error_fraction_all: Option<f64>,
     /// Share of judged samples whose k = 2 interval holds the true mass.
     pub uncertainty_coverage: Option<f64>,
+    /// Largest |content error| / U(m) (k = 2), judged samples: above 1 the
+    /// interval missed the truth; a drawn instrument is beyond 2 (4 standard
+    /// uncertainties) with a probability of about 1e-4 if the declared
+    /// uncertainties hold.
+    pub max_error_over_uncertainty: Option<f64>,
     /// Median U(m)/m, judged samples (once a minute).
     pub median_relative_uncertainty: Option<f64>,
     /// Start of the first leak, s (null: no leak).
@@ -175,6 +306,22 @@ pub struct Summary {
     pub time_to_empty_max_error: Option<f64>,
     /// Share of judged minutes whose earliest … latest holds the truth.
     pub time_to_empty_coverage: Option<f64>,
+    /// Median true outflow over the judged minutes, kg/h.
+    pub time_to_empty_outflow_kg_h: Option<f64>,
+    /// Median true time to the reserve over the judged minutes, s.
+    pub time_to_empty_true_median_s: Option<f64>,
+    /// Median U(rate)/|rate| (k = 2) the gauge stated in the judged minutes.
+    pub time_to_empty_rate_uncertainty: Option<f64>,
+    /// The instrument under test.
+    pub instrument: InstrumentErrors,
+    /// The mean content error the instrument's static errors explain
+    /// (`null`: no judged sample).
+    pub expected_bias: Option<ExpectedBias>,
+    /// The first leak's loss per day at its start, as the scenario states it
+    /// (`null`: no leak, or a leak given by its area).
+    pub leak_loss_per_day: Option<f64>,
+    /// Regulated draws (`[[draw]]`) in the scenario.
+    pub draws: usize,
     /// True mass at the start and the end, kg.
     pub mass_start_kg: f64,
     /// True mass at the end, kg.
@@ -352,7 +499,7 @@ fn point(t: &Truth, r: &Reading) -> TracePoint {
         rate_kg_h: r.rate_kg_h,
         true_outflow_kg_h: t.outflow_kg_s * 3600.0,
         time_to_empty_s: r.time_to_empty_s.map(|x| x.0),
-        loss_per_day: r.loss_per_day,
+        loss_fraction_per_day: r.loss_fraction_per_day,
         status: r.status.bits(),
     }
 }
@@ -380,6 +527,8 @@ struct Minute {
     mass_kg: f64,
     outflow_kg_s: f64,
     tte: Option<(f64, f64, Option<f64>)>,
+    /// U(rate)/|rate| where the gauge states a time to empty.
+    rate_u: Option<f64>,
 }
 
 struct Scorer {
@@ -389,6 +538,7 @@ struct Scorer {
     n_judged: u64,
     n_covered: u64,
     max_err: f64,
+    max_err_over_u: f64,
     max_err_all: f64,
     any_all: bool,
     sum_err: f64,
@@ -403,6 +553,18 @@ struct Scorer {
     t_gas: (f64, f64),
     p_max: f64,
     interval_ms: u64,
+    instrument: InstrumentErrors,
+    /// The reference equation of the gas or mixture (`None`: a mixture
+    /// this process has not met; no expected bias then).
+    eos: Option<Fluid>,
+    /// Sums of the expected content error (capacity, pressure, temperature)
+    /// over judged minutes, and their count.
+    bias_sum: [f64; 3],
+    bias_n: u64,
+    /// The last sensitivities (c_p, c_T) and the true (p, T) they were
+    /// evaluated at: the reference equation costs ~2e5 instructions a call,
+    /// and c_p, c_T change little until p moves by 1 % or T by 0.5 K.
+    sensitivities: Option<(f64, f64, f64, f64)>,
 }
 
 impl Scorer {
@@ -414,6 +576,7 @@ impl Scorer {
             n_judged: 0,
             n_covered: 0,
             max_err: 0.0,
+            max_err_over_u: 0.0,
             max_err_all: 0.0,
             any_all: false,
             sum_err: 0.0,
@@ -428,6 +591,11 @@ impl Scorer {
             t_gas: (f64::INFINITY, f64::NEG_INFINITY),
             p_max: 0.0,
             interval_ms: sc.interval_ms,
+            instrument: InstrumentErrors::of(sc),
+            eos: Fluid::for_gas(sc.gas).ok(),
+            bias_sum: [0.0; 3],
+            bias_n: 0,
+            sensitivities: None,
         }
     }
 
@@ -457,25 +625,63 @@ impl Scorer {
                 if (m - truth.mass_kg).abs() <= u {
                     self.n_covered += 1;
                 }
+                if u > 0.0 {
+                    self.max_err_over_u = self.max_err_over_u.max((m - truth.mass_kg).abs() / u);
+                }
                 if minute {
                     self.rel_u.push((u / truth.mass_kg) as f32);
+                    self.expect(truth);
                 }
             }
         }
         if minute {
-            let confident = r
+            let rate_u = r
                 .rate_kg_h
                 .zip(r.u_rate_kg_h)
-                .is_some_and(|(x, u)| u <= 0.5 * x.abs());
+                .filter(|(x, _)| *x != 0.0)
+                .map(|(x, u)| u / x.abs());
+            let confident = rate_u.is_some_and(|u| u <= 0.5);
             self.minutes.push(Minute {
                 mass_kg: truth.mass_kg,
                 outflow_kg_s: truth.outflow_kg_s,
                 tte: r.time_to_empty_s.filter(|_| confident),
+                rate_u: rate_u.filter(|_| confident),
             });
         }
         for ev in r.events.iter() {
             self.judge(&ev, truth);
         }
+    }
+
+    /// Adds the content error the instrument's static errors give at this
+    /// true state (a judged minute).
+    fn expect(&mut self, truth: &Truth) {
+        let (p, t) = (truth.pressure_pa, truth.gas_k);
+        let (c_p, c_t) = match self.sensitivities {
+            Some((p0, t0, c_p, c_t)) if (p - p0).abs() <= 0.01 * p0 && (t - t0).abs() <= 0.5 => {
+                (c_p, c_t)
+            }
+            _ => {
+                let Some(Ok(s)) = self.eos.as_ref().map(|e| e.state(p, t)) else {
+                    return;
+                };
+                if s.density_mol_m3 <= 0.0 {
+                    return;
+                }
+                let c_p = p / s.density_mol_m3 * s.drho_dp_mol_m3_pa;
+                let c_t = t / s.density_mol_m3 * s.drho_dt_mol_m3_k;
+                self.sensitivities = Some((p, t, c_p, c_t));
+                (c_p, c_t)
+            }
+        };
+        let years = truth.t_s / (365.25 * 86_400.0);
+        let e = self
+            .instrument
+            .content_error(truth.pressure_pa, truth.gas_k, c_p, c_t, years);
+        for (sum, x) in self.bias_sum.iter_mut().zip(e) {
+            *sum += x;
+        }
+        self.bias_n += 1;
     }
 
     fn judge(&mut self, ev: &AlarmEvent, truth: &Truth) {
@@ -545,6 +751,9 @@ impl Scorer {
         let reserve = self.reserve_fraction * self.rated_true;
         let mut tte_err = Vec::new();
         let mut tte_cov = 0u64;
+        let mut tte_outflow = Vec::new();
+        let mut tte_true = Vec::new();
+        let mut tte_rate_u = Vec::new();
         const WINDOW: usize = 32;
         for (i, m) in self.minutes.iter().enumerate().skip(WINDOW) {
             let Some((e, lo, hi)) = m.tte else { continue };
@@ -561,12 +770,30 @@ impl Scorer {
             let truth = (m.mass_kg - reserve) / mean;
             if truth > 3600.0 {
                 tte_err.push((e - truth).abs() / truth);
+                tte_outflow.push(mean * 3600.0);
+                tte_true.push(truth);
+                tte_rate_u.extend(m.rate_u);
                 if lo <= truth && hi.is_none_or(|h| truth <= h) {
                     tte_cov += 1;
                 }
             }
         }
         tte_err.sort_by(f64::total_cmp);
+        let median = |mut v: Vec<f64>| {
+            v.sort_by(f64::total_cmp);
+            v.get(v.len() / 2).copied()
+        };
+        let expected_bias = (self.bias_n > 0).then(|| {
+            let k = self.bias_n as f64;
+            let [c, p, t] = self.bias_sum.map(|x| x / k);
+            ExpectedBias {
+                capacity_fraction: c,
+                pressure_fraction: p,
+                temperature_fraction: t,
+                total_fraction: c + p + t,
+            }
+        });
+        let leak_loss_per_day = sc.source.leak.first().and_then(|l| l.loss_per_day);
         let gauge_model = match sc.gauge.model {
             super::gauge::ModelKind::Device => "device",
             super::gauge::ModelKind::Ideal => "ideal",
@@ -595,6 +822,7 @@ impl Scorer {
             rms_error_fraction: judged.then(|| (self.sum_sq / n).sqrt()),
             max_abs_error_fraction_all: self.any_all.then_some(self.max_err_all),
             uncertainty_coverage: judged.then(|| self.n_covered as f64 / n),
+            max_error_over_uncertainty: judged.then_some(self.max_err_over_u),
             median_relative_uncertainty: self
                 .rel_u
                 .get(self.rel_u.len() / 2)
@@ -607,6 +835,13 @@ impl Scorer {
             time_to_empty_max_error: tte_err.last().copied(),
             time_to_empty_coverage: (!tte_err.is_empty())
                 .then(|| tte_cov as f64 / tte_err.len() as f64),
+            time_to_empty_outflow_kg_h: median(tte_outflow),
+            time_to_empty_true_median_s: median(tte_true),
+            time_to_empty_rate_uncertainty: median(tte_rate_u),
+            instrument: self.instrument,
+            expected_bias,
+            leak_loss_per_day,
+            draws: sc.source.draw.len(),
             mass_start_kg: mass.0,
             mass_end_kg: mass.1,
             rated_mass_true_kg: self.rated_true,

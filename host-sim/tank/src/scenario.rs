@@ -1,6 +1,6 @@
 //! Scenario files (TOML, format `isochor-scenario 1`): the tank, its
 //! weather and use, the sensors and their faults, and the gauge under test.
-//! The format is documented in DEVELOPERS.md ("Scenario files"); the
+//! The format is documented in docs/simulator.md ("Scenario files"); the
 //! built-in scenarios are in `host-sim/tank/scenarios/`.
 //!
 //! Quantities carry their units as text (`"200bar"`, `"15C"`, `"50L"`,
@@ -279,7 +279,8 @@ pub struct LeakSection {
     pub start: String,
     /// Effective area (`"3e-5mm2"`); or give `loss_per_day`.
     pub area: Option<String>,
-    /// Loss at the start, fraction of the content per day (sets the area).
+    /// Loss at the start, as a fraction of the content per day (0.005: 0.5 %
+    /// a day; sets the area).
     pub loss_per_day: Option<f64>,
 }
 
@@ -449,7 +450,8 @@ pub struct GaugeSection {
     pub model_uncertainty: Option<f64>,
     /// Declared standard uncertainty of the temperature lag (default 10 min).
     pub temperature_lag: Option<String>,
-    /// `over_temperature` limit (default 65 °C; e.g. `"85C"` for a hydrogen
+    /// `over_temperature` limit (default 50 °C, the storage limit of cylinder
+    /// labels, see `Limits::for_tank`; e.g. `"85C"` for a hydrogen
     /// vehicle tank).
     pub temperature_max: Option<String>,
     /// Stuck check of both channels: a converted value that does not move at

@@ -63,7 +63,7 @@ fn plant(gas: Gas, vessel: Vessel, p0: f64, t0: f64) -> Plant {
 /// empty vessel T = γ·T_in (uniform-flow analysis of the first law, e.g.
 /// Çengel & Boles, "Thermodynamics: An Engineering Approach", ch. 5; from
 /// memory). Argon (γ = 5/3 exactly for its ideal-gas part) and nitrogen
-/// (γ ≈ 1.40 at room temperature) from a 1.6 bar supply, where the real
+/// (γ ≈ 1.40 at room temperature; from memory) from a 1.6 bar supply, where the real
 /// gas's enthalpy differs from the ideal gas's by about (B − T·dB/dT)·p:
 /// 0.15 % for argon, 0.05 % for nitrogen (second virial coefficients of
 /// handbook tables; from memory) — the tolerances allow for that.
@@ -206,10 +206,15 @@ fn mass_and_energy_are_conserved() {
     let e1 = sim.energy_j().unwrap();
     let mass_err = (y[ix::MASS] - y0[ix::MASS] - y[ix::MASS_IN] + y[ix::MASS_OUT]).abs();
     let flows = y[ix::FLOW_ENERGY] + y[ix::AMBIENT_ENERGY] - y[ix::EXPANSION_WORK];
-    // The enthalpy carried in and out, c_p·T per kilogram (nitrogen,
-    // 1.04 kJ/(kg·K) at 300 K), plus the heat exchanged: the size of what
-    // the balance adds up.
-    let scale = (y[ix::MASS_IN] + y[ix::MASS_OUT]) * 1040.0 * 300.0 + y[ix::AMBIENT_ENERGY].abs();
+    // The enthalpy carried in and out, c_p·T per kilogram (nitrogen at
+    // 300 K and 1 bar, c_p by its reference equation, about 1.04 kJ/(kg·K);
+    // the equation's c_p is checked against CoolProp 8.0.0 in
+    // host-sim/eos/tests/eos_caloric.rs), plus the heat exchanged: the size
+    // of what the balance adds up.
+    let n2 = Eos::of(Gas::Nitrogen);
+    let low = n2.state(1e5, 300.0).unwrap();
+    let cp = n2.caloric(low.density_mol_m3, 300.0).cp_j_mol_k / n2.molar_mass_kg_mol;
+    let scale = (y[ix::MASS_IN] + y[ix::MASS_OUT]) * cp * 300.0 + y[ix::AMBIENT_ENERGY].abs();
     let energy_err = (e1 - e0 - flows).abs();
     eprintln!(
         "mass in {:.4} kg, out {:.4} kg, balance off by {mass_err:.1e} kg; energy: ΔU {:.4e} J vs flows {:.4e} J (off by {:.1e} of the exchanges); {} steps",

@@ -30,12 +30,13 @@ fn raised<'a>(s: &'a Summary, alarm: &str) -> impl Iterator<Item = f64> + 'a {
 
 fn show(s: &Summary) {
     eprintln!(
-        "{}: {} samples, max |e| {:.3} %, bias {:.3} %, coverage {:.1} %, leak after {:?} s, false alarms {}, time to empty median {:?} over {} min (bounds {:?}), alarms {:?}",
+        "{}: {} samples, max |e| {:.3} %, bias {:.3} %, coverage {:.1} %, max |e|/U {:.2}, leak after {:?} s, false alarms {}, time to empty median {:?} over {} min (bounds {:?}), alarms {:?}",
         s.scenario,
         s.samples,
         s.max_abs_error_fraction.unwrap_or(f64::NAN) * 100.0,
         s.mean_error_fraction.unwrap_or(f64::NAN) * 100.0,
         s.uncertainty_coverage.unwrap_or(f64::NAN) * 100.0,
+        s.max_error_over_uncertainty.unwrap_or(f64::NAN),
         s.leak_detected_after_s,
         s.false_alarms,
         s.time_to_empty_median_error,
@@ -50,7 +51,7 @@ fn show(s: &Summary) {
 }
 
 /// The demo: the leak (0.5 % of the content per day from day four) is found
-/// within the day (README "Tracking over time" states 24–28 h for
+/// within the day (docs/tracking.md states 24–28 h for
 /// 0.2 %/day and about 11 h for 1 %/day on synthetic series), nothing is
 /// raised before it but the injected sensor fault, and the estimate is
 /// within its uncertainty.
@@ -76,9 +77,12 @@ fn workshop_leak_is_detected_without_false_alarms() {
 
 /// A fast fill with pre-cooled hydrogen: the gas heats (compression) but
 /// stays below 85 °C (the limit of the fuelling protocols for vehicle
-/// tanks, SAE J2601; from memory), the gauge says `not_settled` while the
-/// gas cools, the time to empty during the drives is right to a few per
-/// cent, and no false alarm.
+/// tanks, SAE J2601; from memory), the gauge says `not_settled` from the
+/// fill's first sample (the fill adds about 0.5 % of the rated content per
+/// second: the smoothed reading lags the truth by several per cent within
+/// seconds, so a verdict per block would leave it unflagged) while the gas
+/// cools, every sample it vouches for is within its uncertainty, the time to
+/// empty during the drives is right to a few per cent, and no false alarm.
 #[test]
 fn hydrogen_fast_fill_heats_settles_and_is_tracked() {
     let r = run_builtin("hydrogen-fast-fill");
@@ -88,11 +92,17 @@ fn hydrogen_fast_fill_heats_settles_and_is_tracked() {
     assert!((40.0..85.0).contains(&t_max_c), "{t_max_c} °C");
     assert!(s.pressure_max_pa > 690e5 && s.pressure_max_pa < 705e5);
     let fill = 6.0 * 3600.0;
-    assert!(raised(s, "not_settled").any(|t| (fill..fill + 900.0).contains(&t)));
+    // The first sample after the fill opens (1 s samples).
+    assert!(
+        raised(s, "not_settled").any(|t| t == fill + 1.0),
+        "{:?}",
+        s.alarms
+    );
     assert_eq!(s.false_alarms, 0);
     assert!(s.time_to_empty_minutes >= 30);
     assert!(s.time_to_empty_median_error.unwrap() < 0.05);
-    assert!(s.uncertainty_coverage.unwrap() >= 0.9);
+    assert!(s.uncertainty_coverage.unwrap() >= 0.95);
+    assert!(s.max_error_over_uncertainty.unwrap() <= 1.0);
 }
 
 /// Balloons filled in bursts: single-sample spikes of a loose pressure
@@ -123,6 +133,15 @@ fn helium_party_spikes_are_caught() {
 /// as a sensor fault after its persistence time, the time to empty of the
 /// daytime draw is right to a few per cent with bounds that hold the truth
 /// most of the time, no false alarm.
+///
+/// The scenario's one instrument, drawn from the declared errors, is an
+/// unlucky one: its pressure offset and gain put it beyond its U most of the
+/// time (coverage about 20 %). The claim "k = 2 holds the truth 95 % of the
+/// time" is about the population of instruments and is checked on this
+/// scenario below; for the one instrument the test asserts what the
+/// declaration promises for any single instrument: its error stays within
+/// 2 U (four standard uncertainties; beyond that with a probability of about
+/// 1e-4 if the declared uncertainties hold).
 #[test]
 fn oxygen_clinic_failure_current_and_time_to_empty() {
     let r = run_builtin("oxygen-clinic");
@@ -135,10 +154,47 @@ fn oxygen_clinic_failure_current_and_time_to_empty() {
     assert!(s.time_to_empty_median_error.unwrap() < 0.05);
     assert!(s.time_to_empty_coverage.unwrap() > 0.85);
     assert!(s.gas_temperature_max_k - 273.15 > 35.0);
-    // One instrument drawn from the declared errors: this one is off by
-    // more than its U at times (the 95 % is a population figure, tested
-    // below); its error stays within 2.5 × U's typical size.
-    assert!(s.max_abs_error_fraction.unwrap() < 0.06);
+    assert!(s.max_error_over_uncertainty.unwrap() <= 2.0);
+}
+
+/// The oxygen clinic's hot afternoons, sun and 4–20 mA transmitter over a
+/// population: 100 instruments drawn from the declaration, one week each at
+/// 10 s samples; the pooled coverage of the k = 2 interval is near 95 %
+/// (the same window as the workshop's population below).
+#[test]
+fn oxygen_clinic_population_coverage_is_near_95_percent() {
+    let coverage = population("oxygen-clinic", 100, 7.0 * 86_400.0, 5000);
+    assert!((0.92..=0.985).contains(&coverage), "{coverage}");
+}
+
+/// Pooled coverage of `n` instruments of a built-in scenario (seeds from
+/// `seed0`), each run for `duration_s` at 10 s samples.
+fn population(name: &str, n: u64, duration_s: f64, seed0: u64) -> f64 {
+    let base = Scenario::builtin(name).unwrap();
+    let opts = RunOptions {
+        backend: BackendKind::Fixed,
+        trace_every_s: 0.0,
+        progress: false,
+    };
+    let results: Vec<(u64, f64)> = (0..n)
+        .into_par_iter()
+        .map(|seed| {
+            let mut sc = base.clone().with(Some(duration_s), Some(seed0 + seed));
+            sc.interval_ms = 10_000;
+            let s = run(&sc, &opts).unwrap().summary;
+            (s.judged_samples, s.uncertainty_coverage.unwrap())
+        })
+        .collect();
+    let (samples, covered) = results.iter().fold((0.0, 0.0), |(n, c), &(k, f)| {
+        (n + k as f64, c + f * k as f64)
+    });
+    let coverage = covered / samples;
+    let below_90 = results.iter().filter(|r| r.1 < 0.9).count();
+    eprintln!(
+        "{name}, {n} instruments: pooled coverage {:.1} % of {samples} samples; {below_90} instruments below 90 %",
+        coverage * 100.0
+    );
+    coverage
 }
 
 /// Two cold nights on methane: real-gas content at −25 °C, a draw that
@@ -290,35 +346,12 @@ fn ngv_fast_fill_settles_and_is_tracked() {
 }
 
 /// The claim "k = 2 holds the truth 95 % of the time" is about instruments
-/// whose errors follow the declaration (README "Uncertainty"): 200
+/// whose errors follow the declaration (docs/uncertainty.md): 200
 /// instruments drawn from it (pressure offset and gain, temperature offset,
 /// water capacity), one day each of the workshop at 10 s samples.
 #[test]
 fn population_coverage_is_near_95_percent() {
-    let base = Scenario::builtin("workshop-leak").unwrap();
-    let opts = RunOptions {
-        backend: BackendKind::Fixed,
-        trace_every_s: 0.0,
-        progress: false,
-    };
-    let results: Vec<(u64, f64)> = (0..200u64)
-        .into_par_iter()
-        .map(|seed| {
-            let mut sc = base.clone().with(Some(86_400.0), Some(1000 + seed));
-            sc.interval_ms = 10_000;
-            let s = run(&sc, &opts).unwrap().summary;
-            (s.judged_samples, s.uncertainty_coverage.unwrap())
-        })
-        .collect();
-    let (n, covered) = results.iter().fold((0.0, 0.0), |(n, c), &(k, f)| {
-        (n + k as f64, c + f * k as f64)
-    });
-    let coverage = covered / n;
-    let below_90 = results.iter().filter(|r| r.1 < 0.9).count();
-    eprintln!(
-        "200 instruments: pooled coverage {:.1} % of {n} samples; {below_90} instruments below 90 %",
-        coverage * 100.0
-    );
+    let coverage = population("workshop-leak", 200, 86_400.0, 1000);
     assert!((0.92..=0.985).contains(&coverage), "{coverage}");
 }
 

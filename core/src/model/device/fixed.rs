@@ -10,9 +10,9 @@
 //! Weights are Q16 (`u32`, sum exactly 2^16); slopes of the weights Q13.
 //! Bounds are given beside each step; tests run with overflow checks.
 
-use super::{DeviceModel, MAX_SPANS, Table};
+use super::{MAX_SPANS, Table};
 use crate::model::{IsothermFx, ZPointFx};
-use crate::{Error, Status, fx};
+use crate::{Error, Gas, Status, fx};
 
 /// Raw temperature bits per kelvin.
 pub const T_RAW_PER_UNIT: u64 = 65_536;
@@ -63,10 +63,16 @@ impl Frac {
     }
 }
 
-/// The prepared spans of one axis.
+/// One axis of a model: the span its latest value fell in, prepared (a
+/// value in the same span again costs two comparisons; another span costs
+/// its preparation, a few divisions). Keeping one span per axis instead of
+/// all of them keeps a prepared model within a few dozen bytes of RAM.
 #[derive(Clone, Debug, Default)]
 pub struct Axis {
-    spans: heapless::Vec<Span, MAX_SPANS>,
+    /// Raw bits per unit of the slopes (K or MPa).
+    raw_per_unit: u64,
+    /// The span in use: its index and constants.
+    cached: core::cell::Cell<Option<(u8, Span)>>,
 }
 
 /// Q16 of `num/den` (both positive, num ≤ den), rounded, at most one.
@@ -78,68 +84,78 @@ fn q16(num: u64, den: u64) -> u32 {
     v.min(ONE as u64) as u32
 }
 
+/// Prepares span `k` of strictly increasing `knots` (clamped cubic
+/// B-spline: the end knots count three times). `raw_per_unit` converts raw
+/// bits to the unit of the slopes (K or MPa).
+fn prepare_span(knots: &[u32], k: usize, raw_per_unit: u64) -> Result<Span, Error> {
+    let n = knots.len().saturating_sub(1);
+    if k >= n {
+        return Err(Error::ModelData("knots"));
+    }
+    let ext = |i: isize| -> u64 {
+        let j = i.clamp(0, n as isize) as usize;
+        knots.get(j).copied().unwrap_or(0) as u64
+    };
+    let k = k as isize;
+    let (tk, h) = (ext(k), ext(k + 1).saturating_sub(ext(k)));
+    if h == 0 {
+        return Err(Error::ModelData("knots"));
+    }
+    let mut shift = 0u32;
+    while (h >> shift) >= 1 << 16 {
+        shift += 1;
+    }
+    let hs = h >> shift;
+    // Rounded: hs·inv ≤ 2^31 + hs/2, so d·inv below still fits 32 bits.
+    let inv = (((1u64 << 31) + hs / 2) / hs) as u32;
+    let frac = |j: isize, d: isize| {
+        let den = ext(j + d).saturating_sub(ext(j));
+        Frac::new(q16(tk.saturating_sub(ext(j)), den), q16(h, den))
+    };
+    // u = Δraw·inv·2^-(31+shift): du/dunit = inv·raw_per_unit·2^-(31+shift),
+    // normalised to a 16-bit mantissa (integers only). inv < 2^32 and
+    // raw_per_unit < 2^24: the product fits.
+    let mut m = inv as u64 * raw_per_unit;
+    let mut du_exp = 31 + shift as i32;
+    if m == 0 {
+        return Err(Error::ModelData("knots"));
+    }
+    while m >= 1 << 16 {
+        m = (m + 1) >> 1;
+        du_exp -= 1;
+    }
+    while m < 1 << 15 {
+        m <<= 1;
+        du_exp += 1;
+    }
+    let du_exp = i8::try_from(du_exp).map_err(|_| Error::ModelData("knots"))?;
+    Ok(Span {
+        start: tk as u32,
+        shift: shift as u8,
+        inv,
+        level2: [frac(k - 1, 2), frac(k, 2)],
+        level3: [frac(k - 2, 3), frac(k - 1, 3), frac(k, 3)],
+        du_mantissa: m.min(ONE as u64 - 1) as u16,
+        du_exp,
+    })
+}
+
 impl Axis {
-    /// Prepares the spans of strictly increasing `knots` (clamped cubic
-    /// B-spline: the end knots count three times). `raw_per_unit` converts
-    /// raw bits to the unit of the slopes (K or MPa). All divisions happen
-    /// here.
+    /// An axis over strictly increasing `knots`; `raw_per_unit` converts raw
+    /// bits to the unit of the slopes (K or MPa). Checks that every span
+    /// prepares (on a device this runs once per configuration).
     pub fn prepare(knots: &[u32], raw_per_unit: u64) -> Result<Axis, Error> {
         let n = knots.len().saturating_sub(1);
-        let ext = |i: isize| -> u64 {
-            let j = i.clamp(0, n as isize) as usize;
-            knots.get(j).copied().unwrap_or(0) as u64
-        };
-        let mut spans = heapless::Vec::new();
-        for k in 0..n as isize {
-            let (tk, h) = (ext(k), ext(k + 1) - ext(k));
-            if h == 0 {
-                return Err(Error::ModelData("knots"));
-            }
-            let mut shift = 0u32;
-            while (h >> shift) >= 1 << 16 {
-                shift += 1;
-            }
-            let hs = h >> shift;
-            // Rounded: hs·inv ≤ 2^31 + hs/2, so d·inv below still fits 32 bits.
-            let inv = (((1u64 << 31) + hs / 2) / hs) as u32;
-            let frac = |j: isize, d: isize| {
-                let den = ext(j + d) - ext(j);
-                Frac::new(q16(tk - ext(j), den), q16(h, den))
-            };
-            // u = Δraw·inv·2^-(31+shift): du/dunit = inv·raw_per_unit·2^-(31+shift),
-            // normalised to a 16-bit mantissa (integers only: this runs on the
-            // device). inv < 2^32 and raw_per_unit < 2^24: the product fits.
-            let mut m = inv as u64 * raw_per_unit;
-            let mut du_exp = 31 + shift as i32;
-            if m == 0 {
-                return Err(Error::ModelData("knots"));
-            }
-            while m >= 1 << 16 {
-                m = (m + 1) >> 1;
-                du_exp -= 1;
-            }
-            while m < 1 << 15 {
-                m <<= 1;
-                du_exp += 1;
-            }
-            let du_exp = i8::try_from(du_exp).map_err(|_| Error::ModelData("knots"))?;
-            let span = Span {
-                start: tk as u32,
-                shift: shift as u8,
-                inv,
-                level2: [frac(k - 1, 2), frac(k, 2)],
-                level3: [frac(k - 2, 3), frac(k - 1, 3), frac(k, 3)],
-                du_mantissa: m.min(ONE as u64 - 1) as u16,
-                du_exp,
-            };
-            spans
-                .push(span)
-                .map_err(|_| Error::ModelData("too many knots"))?;
-        }
-        if spans.is_empty() {
+        if n == 0 || n > MAX_SPANS {
             return Err(Error::ModelData("knots"));
         }
-        Ok(Axis { spans })
+        for k in 0..n {
+            prepare_span(knots, k, raw_per_unit)?;
+        }
+        Ok(Axis {
+            raw_per_unit,
+            cached: core::cell::Cell::new(None),
+        })
     }
 
     /// The span holding `x` (clamped to the axis) and its index, with u in
@@ -147,14 +163,29 @@ impl Axis {
     // Inlined into its callers on hosts (the simulator); device builds keep
     // their own choice (code size and stack).
     #[cfg_attr(not(target_arch = "arm"), inline(always))]
-    fn locate(&self, knots: &[u32], x: u32) -> (usize, &Span, u32) {
-        let last = self.spans.len().saturating_sub(1);
-        let k = knots
-            .partition_point(|&t| t <= x)
-            .saturating_sub(1)
-            .min(last);
-        let Some(span) = self.spans.get(k) else {
-            return (0, &DEFAULT_SPAN, 0);
+    fn locate(&self, knots: &[u32], x: u32) -> (usize, Span, u32) {
+        let last = knots.len().saturating_sub(2);
+        let (k, span) = match self.cached.get() {
+            Some((k, s))
+                if x >= s.start
+                    && (k as usize >= last
+                        || knots.get(k as usize + 1).is_some_and(|&e| x < e)) =>
+            {
+                (k as usize, s)
+            }
+            _ => {
+                let k = knots
+                    .partition_point(|&t| t <= x)
+                    .saturating_sub(1)
+                    .min(last);
+                match prepare_span(knots, k, self.raw_per_unit) {
+                    Ok(s) => {
+                        self.cached.set(Some((k as u8, s)));
+                        (k, s)
+                    }
+                    Err(_) => return (0, DEFAULT_SPAN, 0),
+                }
+            }
         };
         let h = knots.get(k + 1).copied().unwrap_or(span.start) - span.start;
         let hs = h >> span.shift;
@@ -162,6 +193,25 @@ impl Axis {
         let d = (x.saturating_sub(span.start).saturating_add(half) >> span.shift).min(hs);
         // d ≤ hs and hs·inv ≤ 2^31: the product fits, u ≤ 2^16.
         (k, span, ((d * span.inv + (1 << 14)) >> 15).min(ONE))
+    }
+}
+
+/// Both axes of a model (see [`Axis`]).
+#[derive(Clone, Debug, Default)]
+pub struct Axes {
+    /// Temperature.
+    pub t: Axis,
+    /// Pressure.
+    pub p: Axis,
+}
+
+impl Axes {
+    /// The axes of a (validated) table.
+    pub fn prepare(table: &Table<'_>) -> Result<Axes, Error> {
+        Ok(Axes {
+            t: Axis::prepare(table.temperature_knots, T_RAW_PER_UNIT)?,
+            p: Axis::prepare(table.pressure_knots, P_RAW_PER_UNIT)?,
+        })
     }
 }
 
@@ -196,6 +246,24 @@ fn mul16(a: u32, b: u32) -> u32 {
 }
 
 impl Span {
+    /// The four weights (Q16, summing to exactly 2^16) of the basis functions
+    /// k−3 … k at position u (the first half of [`Span::basis`]).
+    #[cfg_attr(not(target_arch = "arm"), inline(always))]
+    fn weights(&self, u: u32) -> [u32; 4] {
+        let v = ONE - u;
+        let fa = fraction(self.level2[0], u);
+        let fb = fraction(self.level2[1], u);
+        let (va, ub) = (mul16(v, fa), mul16(u, fb));
+        let n2 = [v - va, va + (u - ub), ub];
+        let g = [
+            fraction(self.level3[0], u),
+            fraction(self.level3[1], u),
+            fraction(self.level3[2], u),
+        ];
+        let p = [mul16(n2[0], g[0]), mul16(n2[1], g[1]), mul16(n2[2], g[2])];
+        [n2[0] - p[0], p[0] + n2[1] - p[1], p[1] + n2[2] - p[2], p[2]]
+    }
+
     /// The four weights (Q16, summing to exactly 2^16) of the basis functions
     /// k−3 … k at position u, and their slopes per unit u (Q13).
     // Inlined into its callers on hosts (the simulator); device builds keep
@@ -273,16 +341,30 @@ fn curve(c: &[u32], row: usize, w: &[u32; 4]) -> u32 {
     acc
 }
 
-/// Evaluates a prepared model at raw pressure and temperature bits.
-pub(super) fn evaluate(m: &DeviceModel<'_>, p: u32, t: u32) -> ZPointFx {
-    let tab: &Table<'_> = &m.table;
+/// The flag of a pressure `p` above the saturation pressure `p_sat` (raw
+/// bits): [`Status::LIQUID_FULL`] more than 1/8 above it, else
+/// [`Status::TWO_PHASE`] (see [`super::LIQUID_FULL_MARGIN`]); a mixture's
+/// table (whose curve is the dew line, not a vapour pressure) raises
+/// [`Status::CONDENSATION_RISK`] alone ([`Gas::phase_flag`]).
+fn liquid_phase(gas: Gas, p: u32, p_sat: u32) -> Status {
+    if gas.mixture().is_some() {
+        gas.phase_flag()
+    } else if p > p_sat.saturating_add(p_sat >> 3) {
+        Status::LIQUID_FULL
+    } else {
+        Status::TWO_PHASE
+    }
+}
+
+/// Evaluates a table at raw pressure and temperature bits: Z and its slopes.
+pub fn evaluate(tab: &Table<'_>, m: &Axes, p: u32, t: u32) -> ZPointFx {
     let mut flags = Status::OK;
     let (tk, pk) = (tab.temperature_knots, tab.pressure_knots);
 
     // Temperature axis.
     let t_hi = tk.last().copied().unwrap_or(0);
     let (t, out_t) = clamp_axis(t, tk.first().copied().unwrap_or(0), t_hi);
-    let (it, st, ut) = m.t_axis.locate(tk, t);
+    let (it, st, ut) = m.t.locate(tk, t);
     let (wt, dwt) = st.basis(ut);
 
     // Boundary of liquefiable gases, then the table's pressure range.
@@ -292,7 +374,7 @@ pub(super) fn evaluate(m: &DeviceModel<'_>, p: u32, t: u32) -> ZPointFx {
         let p_sat = curve(b.saturation_pressure, it, &wt);
         let p_lim = curve(b.limit_pressure, it, &wt);
         if t < b.critical_temperature && p > p_sat {
-            flags |= tab.gas.phase_flag();
+            flags |= liquid_phase(tab.gas, p, p_sat);
             p = p_sat;
         } else if p > p_lim {
             out_p = true;
@@ -303,7 +385,7 @@ pub(super) fn evaluate(m: &DeviceModel<'_>, p: u32, t: u32) -> ZPointFx {
     if out_t || out_p || clamped {
         flags |= Status::MODEL_OUT_OF_RANGE;
     }
-    let (ip, sp, up) = m.p_axis.locate(pk, p);
+    let (ip, sp, up) = m.p.locate(pk, p);
     let (wp, dwp) = sp.basis(up);
 
     // Rows: along pressure, for the four temperature basis functions.
@@ -341,13 +423,54 @@ pub(super) fn evaluate(m: &DeviceModel<'_>, p: u32, t: u32) -> ZPointFx {
         .map(|(&ra, w)| mul_i32_sq16((ra >> 2) as i32 - r0, w))
         .sum();
 
-    outputs(m, tab, z_acc, zp_acc, zt_acc, sp, st, flags)
+    outputs(tab, z_acc, zp_acc, zt_acc, &sp, &st, flags)
+}
+
+/// Z alone (the per-sample call: no slopes), raw `Compressibility` bits, and
+/// the flags. The same steps as [`evaluate`] without the slopes.
+pub fn evaluate_z(tab: &Table<'_>, m: &Axes, p: u32, t: u32) -> (u32, Status) {
+    let mut flags = Status::OK;
+    let (tk, pk) = (tab.temperature_knots, tab.pressure_knots);
+    let t_hi = tk.last().copied().unwrap_or(0);
+    let (t, out_t) = clamp_axis(t, tk.first().copied().unwrap_or(0), t_hi);
+    let (it, st, ut) = m.t.locate(tk, t);
+    let wt = st.weights(ut);
+    let mut p = p;
+    let mut out_p = false;
+    if let Some(b) = &tab.boundary {
+        let p_sat = curve(b.saturation_pressure, it, &wt);
+        let p_lim = curve(b.limit_pressure, it, &wt);
+        if t < b.critical_temperature && p > p_sat {
+            flags |= liquid_phase(tab.gas, p, p_sat);
+            p = p_sat;
+        } else if p > p_lim {
+            out_p = true;
+            p = p_lim;
+        }
+    }
+    let (p, clamped) = clamp_axis(p, 0, pk.last().copied().unwrap_or(0));
+    if out_t || out_p || clamped {
+        flags |= Status::MODEL_OUT_OF_RANGE;
+    }
+    let (ip, sp, up) = m.p.locate(pk, p);
+    let wp = sp.weights(up);
+    let cols = tab.columns();
+    let mut z_acc = 0u32;
+    for (a, w) in wt.iter().enumerate() {
+        let start = (it + a) * cols + ip;
+        if let Some([q0, q1, q2, q3]) = tab.coefs.get(start..start + 4) {
+            // Σw = 2^16 and q < 2^16: r < 2^32.
+            let r =
+                wp[0] * *q0 as u32 + wp[1] * *q1 as u32 + wp[2] * *q2 as u32 + wp[3] * *q3 as u32;
+            z_acc += mul_u32_q16(r, *w);
+        }
+    }
+    (z_value(tab, z_acc), flags)
 }
 
 /// Converts the accumulators to the model answer.
 #[allow(clippy::too_many_arguments)]
 fn outputs(
-    m: &DeviceModel<'_>,
     tab: &Table<'_>,
     z_acc: u32,
     zp_acc: i32,
@@ -358,7 +481,7 @@ fn outputs(
 ) -> ZPointFx {
     let e = tab.z_step_exp as i32;
     ZPointFx {
-        z: fx::Compressibility::from_bits(z_value(m, tab, z_acc)),
+        z: fx::Compressibility::from_bits(z_value(tab, z_acc)),
         dz_dp_per_mpa: slope(zp_acc, sp, e),
         dz_dt_per_k: slope(zt_acc, st, e),
         flags,
@@ -366,7 +489,7 @@ fn outputs(
 }
 
 /// Z in Q30 from the accumulator (coefficient steps·2^16), at least the floor.
-fn z_value(m: &DeviceModel<'_>, tab: &Table<'_>, z_acc: u32) -> u32 {
+fn z_value(tab: &Table<'_>, z_acc: u32) -> u32 {
     let e = tab.z_step_exp as i32;
     // z_acc is in steps·2^16; Z in Q30 adds z_acc·2^(14 − e).
     let z_rel = if e >= 14 {
@@ -374,7 +497,7 @@ fn z_value(m: &DeviceModel<'_>, tab: &Table<'_>, z_acc: u32) -> u32 {
     } else {
         z_acc << (14 - e)
     };
-    tab.z_offset.saturating_add(z_rel).max(m.z_floor)
+    tab.z_offset.saturating_add(z_rel).max(tab.z_floor)
 }
 
 /// A slope of Z from its accumulator: steps·2^11 per unit u; ×du/dunit, Z per
@@ -399,8 +522,7 @@ fn slope(acc: i32, s: &Span, e: i32) -> fx::ZSlope {
 /// weights contracted into one coefficient per pressure basis function
 /// (exact: Σw = 2^16 and q < 2^16, so each sum is below 2^32), and the
 /// boundary pressures at `t`.
-pub(super) fn isotherm(m: &DeviceModel<'_>, t: u32) -> IsothermFx {
-    let tab: &Table<'_> = &m.table;
+pub fn isotherm(tab: &Table<'_>, m: &Axes, t: u32) -> IsothermFx {
     let tk = tab.temperature_knots;
     let mut iso = IsothermFx::plain(fx::Temperature::from_bits(t));
     let (t, out_t) = clamp_axis(
@@ -411,7 +533,7 @@ pub(super) fn isotherm(m: &DeviceModel<'_>, t: u32) -> IsothermFx {
     if out_t {
         iso.flags = Status::MODEL_OUT_OF_RANGE;
     }
-    let (it, st, ut) = m.t_axis.locate(tk, t);
+    let (it, st, ut) = m.t.locate(tk, t);
     let (wt, _) = st.basis(ut);
     iso.saturation = u32::MAX;
     iso.limit = u32::MAX;
@@ -441,18 +563,17 @@ pub(super) fn isotherm(m: &DeviceModel<'_>, t: u32) -> IsothermFx {
 /// not part of an isotherm: returned as zero). The same steps as
 /// [`evaluate`] along pressure; the contraction along temperature happened
 /// in [`isotherm`].
-pub(super) fn isotherm_z(m: &DeviceModel<'_>, iso: &IsothermFx, p: u32) -> ZPointFx {
-    let tab: &Table<'_> = &m.table;
+pub fn isotherm_z(tab: &Table<'_>, m: &Axes, iso: &IsothermFx, p: u32) -> ZPointFx {
     let cols = tab.columns();
     if iso.coefs.len() != cols {
-        return evaluate(m, p, iso.temperature.to_bits());
+        return evaluate(tab, m, p, iso.temperature.to_bits());
     }
     let pk = tab.pressure_knots;
     let mut flags = iso.flags;
     let mut p = p;
     let mut out_p = false;
     if p > iso.saturation {
-        flags |= tab.gas.phase_flag();
+        flags |= liquid_phase(tab.gas, p, iso.saturation);
         p = iso.saturation;
     } else if p > iso.limit {
         out_p = true;
@@ -462,7 +583,7 @@ pub(super) fn isotherm_z(m: &DeviceModel<'_>, iso: &IsothermFx, p: u32) -> ZPoin
     if out_p || clamped {
         flags |= Status::MODEL_OUT_OF_RANGE;
     }
-    let (ip, sp, up) = m.p_axis.locate(pk, p);
+    let (ip, sp, up) = m.p.locate(pk, p);
     let (wp, dwp) = sp.basis(up);
     let mut z_acc = 0u32;
     let mut zp_acc = 0i32;
@@ -480,8 +601,8 @@ pub(super) fn isotherm_z(m: &DeviceModel<'_>, iso: &IsothermFx, p: u32) -> ZPoin
             + mul_i32_sq16(d(c[3]), dwp[3]);
     }
     ZPointFx {
-        z: fx::Compressibility::from_bits(z_value(m, tab, z_acc)),
-        dz_dp_per_mpa: slope(zp_acc, sp, tab.z_step_exp as i32),
+        z: fx::Compressibility::from_bits(z_value(tab, z_acc)),
+        dz_dp_per_mpa: slope(zp_acc, &sp, tab.z_step_exp as i32),
         dz_dt_per_k: fx::ZSlope::ZERO,
         flags,
     }

@@ -28,7 +28,10 @@
 //! pressure p_sat(T) below the critical temperature and the highest pressure
 //! p_lim(T) the table covers (the isochore of its declared density limit), both
 //! as cubic B-splines on the temperature knots. Above p_sat the answer is
-//! flagged [`Status::TWO_PHASE`](crate::Status::TWO_PHASE), above p_lim
+//! flagged [`Status::TWO_PHASE`](crate::Status::TWO_PHASE) (liquid and
+//! vapour: a closed vessel holding both sits at p_sat), or, more than
+//! [`LIQUID_FULL_MARGIN`] above p_sat, [`Status::LIQUID_FULL`](crate::Status::LIQUID_FULL)
+//! (no vapour left: compressed liquid); above p_lim
 //! [`Status::MODEL_OUT_OF_RANGE`](crate::Status::MODEL_OUT_OF_RANGE); the
 //! builder fits both curves conservatively (never above the true curve).
 //!
@@ -57,6 +60,21 @@
 //! loaded tables live in a [`TableBuf`] decoded from a versioned, CRC-32C
 //! protected postcard blob ([`TableBuf::from_blob`]).
 
+/// How far above the saturation pressure, as a fraction of it, a pressure
+/// below the critical temperature is called liquid-full rather than
+/// two-phase: 1/8 (12.5 %). A closed vessel holding liquid and vapour sits
+/// at the vapour pressure; a reading above it comes from sensor error
+/// (a few tenths of a per cent of full scale), a temperature reading that
+/// lags the liquid (the vapour pressure of carbon dioxide rises by 2.4 % from
+/// 15 °C to 16 °C, 50.87 to 52.11 bar, by the saturation ancillary of its
+/// reference equation as CoolProp 8.0.0 exports it), the fitted curve's conservative
+/// offset, or a vessel with no vapour space left, whose pressure then rises
+/// by several bar per kelvin (from memory). 1/8 covers the first three with room
+/// (a 3 K lag on carbon dioxide) and is crossed within a few kelvin of
+/// warming by a liquid-full vessel. A judgement (common practice), not a
+/// published figure.
+pub const LIQUID_FULL_MARGIN: f64 = 0.125;
+
 mod blob;
 pub mod builtin;
 pub mod fixed;
@@ -65,7 +83,7 @@ pub mod float;
 pub use blob::{BLOB_MAGIC, BLOB_VERSION, BoundaryBuf, TableBuf};
 
 use super::{Compressibility, CompressibilityFx, IsothermFx, ModelRange, ZPoint, ZPointFx};
-use crate::{Error, Gas, Real, fx};
+use crate::{Error, Gas, Real, Status, fx};
 
 /// Most spans per axis (knots − 1). A prepared model keeps 32 bytes per span
 /// in RAM.
@@ -206,9 +224,7 @@ impl<'a> Table<'a> {
 #[derive(Clone, Debug)]
 pub struct DeviceModel<'a> {
     table: Table<'a>,
-    t_axis: fixed::Axis,
-    p_axis: fixed::Axis,
-    z_floor: u32,
+    axes: fixed::Axes,
 }
 
 impl<'a> DeviceModel<'a> {
@@ -216,9 +232,7 @@ impl<'a> DeviceModel<'a> {
     pub fn new(table: Table<'a>) -> Result<DeviceModel<'a>, Error> {
         table.validate()?;
         Ok(DeviceModel {
-            t_axis: fixed::Axis::prepare(table.temperature_knots, fixed::T_RAW_PER_UNIT)?,
-            p_axis: fixed::Axis::prepare(table.pressure_knots, fixed::P_RAW_PER_UNIT)?,
-            z_floor: table.z_floor_bits(),
+            axes: fixed::Axes::prepare(&table)?,
             table,
         })
     }
@@ -241,19 +255,23 @@ impl CompressibilityFx for DeviceModel<'_> {
         self.table.gas
     }
     fn z_fx(&self, p: fx::Pressure, t: fx::Temperature) -> ZPointFx {
-        fixed::evaluate(self, p.to_bits(), t.to_bits())
+        fixed::evaluate(&self.table, &self.axes, p.to_bits(), t.to_bits())
+    }
+    fn z_value_fx(&self, p: fx::Pressure, t: fx::Temperature) -> (fx::Compressibility, Status) {
+        let (z, flags) = fixed::evaluate_z(&self.table, &self.axes, p.to_bits(), t.to_bits());
+        (fx::Compressibility::from_bits(z), flags)
     }
     fn z_floor(&self) -> fx::Compressibility {
-        fx::Compressibility::from_bits(self.z_floor)
+        fx::Compressibility::from_bits(self.table.z_floor)
     }
     fn pressure_knots_fx(&self) -> &[u32] {
         self.table.pressure_knots
     }
     fn isotherm_fx(&self, t: fx::Temperature) -> IsothermFx {
-        fixed::isotherm(self, t.to_bits())
+        fixed::isotherm(&self.table, &self.axes, t.to_bits())
     }
     fn isotherm_z_fx(&self, iso: &IsothermFx, p: fx::Pressure) -> ZPointFx {
-        fixed::isotherm_z(self, iso, p.to_bits())
+        fixed::isotherm_z(&self.table, &self.axes, iso, p.to_bits())
     }
 }
 

@@ -125,6 +125,34 @@ impl<F: Real> Bridge<F> {
     }
 
     /// `s = code/2^(bits−1)` (bipolar) or `code/2^bits`; a code at a rail saturates.
+    /// The configuration.
+    pub fn config(&self) -> &BridgeConfig {
+        &self.config
+    }
+
+    /// The signal per converter code (2^-signal bits).
+    pub fn per_code(&self) -> F {
+        self.per_code
+    }
+
+    /// Zero and span at a transducer temperature (K), as
+    /// [`Bridge::compensation`] computes them.
+    pub fn zero_and_span(&self, temperature_k: F) -> (F, F) {
+        self.compensate(temperature_k)
+    }
+
+    /// The reading of a normalised signal `u` (already limited to
+    /// ±[`U_LIMIT`]): linearity, scale, range check, gauge and absolute
+    /// pressure (the steps after `normalize`).
+    pub fn from_normalized(&self, u: F, barometric_pa: F) -> PressureReading<F, F> {
+        let q = self.linearize(u);
+        let p = self.scale(q);
+        let status = self.check_range(q);
+        let mut r = gauge::float::reading(self.config.kind, p, barometric_pa);
+        r.status |= status;
+        r
+    }
+
     fn signal(&self, code: i32) -> (F, Status) {
         let (lo, hi) = self.config.rails();
         let c = code.clamp(lo, hi);

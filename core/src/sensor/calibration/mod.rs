@@ -27,9 +27,11 @@ pub mod fixed;
 pub mod float;
 
 use crate::checksum::crc32c;
+use crate::sensor::PressureKind;
 use crate::sensor::bridge::BridgeConfig;
 use crate::sensor::current_loop::LoopConfig;
 use crate::sensor::ntc::NtcConfig;
+use crate::sensor::resistive::{Circuit, FrontEnd};
 use crate::sensor::rtd::RtdConfig;
 use crate::{Error, fx};
 
@@ -309,6 +311,103 @@ impl CalibrationRecord {
         }
         rec.validate()?;
         Ok(rec)
+    }
+}
+
+impl CalibrationRecord {
+    /// The nominal pressure channel of the reference board: a 0–300 bar
+    /// gauge bridge on a bipolar 24-bit converter (span half the converter
+    /// range), no temperature coefficients, linear, no correction.
+    pub fn nominal_pressure() -> CalibrationRecord {
+        let zero = fx::Coefficient::ZERO;
+        CalibrationRecord {
+            sequence: 0,
+            channel: Channel::Pressure,
+            sensor: SensorConfig::Bridge(BridgeConfig {
+                adc_bits: 24,
+                bipolar: true,
+                zero: [zero; 3],
+                span: fx::Coefficient::from_bits(1 << 47),
+                span_tc: [zero; 2],
+                // 25 °C = 298.15 K in U16F16 bits.
+                reference_k: fx::Temperature::from_bits(19_539_558),
+                linearity: [zero, fx::Coefficient::ONE, zero, zero],
+                range_lo_pa: fx::GaugePressure::ZERO,
+                // 300 bar = 3e7 Pa in I28F4 bits.
+                range_hi_pa: fx::GaugePressure::from_bits(480_000_000),
+                kind: PressureKind::Gauge,
+                range_margin: zero,
+            }),
+            correction: Correction::IDENTITY,
+        }
+    }
+
+    /// The nominal temperature channel of the reference board: a Pt1000 RTD
+    /// in series with a 4.02 kΩ reference resistor, read ratiometrically by
+    /// a 24-bit converter, −50 … +150 °C, short below 90 Ω, open above
+    /// 3.95 kΩ, no correction.
+    pub fn nominal_temperature() -> CalibrationRecord {
+        let ohms = |r: u64| fx::Resistance::from_bits(r << 32);
+        CalibrationRecord {
+            sequence: 0,
+            channel: Channel::Temperature,
+            sensor: SensorConfig::Rtd(RtdConfig {
+                r0_ohms: ohms(1000),
+                front_end: FrontEnd {
+                    circuit: Circuit::Ratiometric,
+                    adc_bits: 24,
+                    reference_ohms: ohms(4020),
+                    lead_ohms: fx::Resistance::ZERO,
+                    short_ohms: ohms(90),
+                    open_ohms: ohms(3950),
+                    excitation: fx::Coefficient::ZERO,
+                    self_heating_k_per_mw: fx::Coefficient::ZERO,
+                },
+                // 223.15 K and 423.15 K in U16F16 bits.
+                range_min_k: fx::Temperature::from_bits(14_624_358),
+                range_max_k: fx::Temperature::from_bits(27_731_558),
+            }),
+            correction: Correction::IDENTITY,
+        }
+    }
+
+    /// The full scale of a pressure transducer, absolute Pa (the high end of
+    /// its range; for gauge transducers plus one standard atmosphere); zero
+    /// for a temperature sensor.
+    pub fn full_scale(&self) -> fx::Pressure {
+        let (hi, kind) = match &self.sensor {
+            SensorConfig::Bridge(b) => (b.range_hi_pa, b.kind),
+            SensorConfig::Loop(l) => (l.range_hi_pa, l.kind),
+            _ => (fx::GaugePressure::ZERO, PressureKind::Absolute),
+        };
+        let abs = match kind {
+            PressureKind::Absolute => i64::from(hi.to_bits()),
+            // 101 325 Pa in Pressure bits.
+            PressureKind::Gauge => i64::from(hi.to_bits()) + 1_621_200,
+        };
+        fx::Pressure::from_bits(abs.clamp(0, i64::from(u32::MAX)) as u32)
+    }
+
+    /// Checks that the record is of `channel` and its sensor can measure it
+    /// (a bridge or a loop for pressure, an RTD or an NTC for temperature),
+    /// then the record itself.
+    pub fn validate_for(&self, channel: Channel) -> Result<(), Error> {
+        if self.channel != channel {
+            return Err(Error::OutOfRange("calibration channel"));
+        }
+        let fits = match channel {
+            Channel::Pressure => {
+                matches!(self.sensor, SensorConfig::Bridge(_) | SensorConfig::Loop(_))
+            }
+            Channel::Temperature => {
+                matches!(self.sensor, SensorConfig::Rtd(_) | SensorConfig::Ntc(_))
+            }
+            _ => false,
+        };
+        if !fits {
+            return Err(Error::OutOfRange("sensor kind of the channel"));
+        }
+        self.validate()
     }
 }
 

@@ -57,6 +57,16 @@ impl<F: Real> Loop<F> {
         })
     }
 
+    /// The highest code the converter gives (codes at or above saturate).
+    pub fn top_code(&self) -> u32 {
+        self.top
+    }
+
+    /// How long a failure current must last before it is declared.
+    pub fn persistence(&self) -> Millis {
+        self.persistence
+    }
+
     /// The loop current of a code, mA; a code at the converter's top (or
     /// beyond) saturates.
     pub fn current(&self, code: u32) -> (F, Status) {

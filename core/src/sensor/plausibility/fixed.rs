@@ -7,7 +7,7 @@ use crate::time::{Instant, Millis};
 use crate::{Error, Status};
 
 /// A prepared plausibility check, fixed point.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Checker {
     min: i64,

@@ -89,6 +89,11 @@ impl<F: Real> Rtd<F> {
         })
     }
 
+    /// The front-end's valid codes (codes outside read as open or short).
+    pub fn valid_codes(&self) -> (u32, u32) {
+        self.config.front_end.valid_codes()
+    }
+
     /// Converts one converter code.
     pub fn read(&self, code: u32) -> TemperatureReading<F> {
         self.convert(self.input.sample(code))

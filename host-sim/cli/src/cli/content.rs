@@ -18,22 +18,29 @@ pub struct ContentArgs {
     #[arg(long, allow_hyphen_values = true)]
     pub capacity: String,
     /// Measured pressure, with unit (Pa, kPa, MPa, bar, mbar, psi); absolute
-    /// unless --gauge.
+    /// unless --gauge. bara/psia mark an absolute, barg/psig a gauge pressure
+    /// (the barometric pressure is added), whatever --gauge says.
     #[arg(long, allow_hyphen_values = true)]
     pub pressure: String,
     /// Gas temperature, with unit (K, C, F).
     #[arg(long, allow_hyphen_values = true)]
     pub temperature: String,
-    /// Rated (service) pressure of the tank, with unit; absolute unless --gauge.
+    /// Rated (service) pressure of the tank, with unit; absolute unless
+    /// --gauge or a barg/psig unit. The working pressure marked on a cylinder
+    /// is a gauge pressure: give it as e.g. 200barg or 2015psig (or use
+    /// --gauge), so the barometric pressure is added.
     #[arg(long, allow_hyphen_values = true)]
     pub rated_pressure: String,
-    /// Temperature the rated pressure refers to.
+    /// Temperature the rated pressure refers to. 15 °C in ISO practice; some
+    /// markings (US practice) refer to 70 °F (21.1 °C): give 70F then, or the
+    /// rated content comes out about 2 % too high.
     #[arg(long, default_value = "15C", allow_hyphen_values = true)]
     pub rated_temperature: String,
-    /// Pressures are gauge readings (barometric pressure is added).
+    /// Pressures with a plain unit (bar, psi, ...) are gauge readings (the
+    /// barometric pressure is added).
     #[arg(long)]
     pub gauge: bool,
-    /// Barometric pressure added to gauge readings.
+    /// Barometric pressure added to gauge readings (--gauge, barg, psig).
     #[arg(long, default_value = "101.325kPa", allow_hyphen_values = true)]
     pub barometric: String,
     /// Temperature the settled pressure refers to.
@@ -49,7 +56,9 @@ pub struct ContentArgs {
     /// equation of state; GERG-2008 for a mixture) or ideal.
     #[arg(long, value_enum, default_value_t = ModelChoice::Device)]
     pub model: ModelChoice,
-    /// Elastic volume expansion of the vessel per bar of pressure (e.g. 1.2e-5).
+    /// Elastic volume expansion of the vessel per bar of pressure (e.g.
+    /// 1.2e-5); reported in JSON both per bar (`elastic_expansion_per_bar`)
+    /// and per MPa (`elastic_expansion_per_mpa`, ten times larger).
     #[arg(long, default_value = "0", allow_hyphen_values = true)]
     pub elastic_expansion_per_bar: String,
     /// Volumetric thermal expansion of the vessel per kelvin (e.g. 3.6e-5).
@@ -88,19 +97,20 @@ pub fn parse_standard(s: &str) -> Result<(String, StandardCondition), Error> {
 /// Turns the arguments into a request (all validation of units and signs).
 pub fn request(a: &ContentArgs) -> Result<ContentRequest, Error> {
     let gas = a.gas.spec()?;
-    let barometric = if a.gauge {
-        let b = units::pressure_pa(&a.barometric, "--barometric")?;
-        if !(50e3..=110e3).contains(&b) {
-            return Err(Error::Invalid(format!(
-                "--barometric {}: outside 50-110 kPa, not a barometric pressure",
-                a.barometric
-            )));
-        }
-        b
-    } else {
-        0.0
+    let barometric = units::pressure_pa(&a.barometric, "--barometric")?;
+    let gauge_unit = |v: &str| {
+        units::pressure(v, "")
+            .map(|(_, r)| r == units::Reference::Gauge)
+            .unwrap_or(false)
     };
-    let pressure = units::pressure_pa(&a.pressure, "--pressure")? + barometric;
+    let uses_barometric = a.gauge || gauge_unit(&a.pressure) || gauge_unit(&a.rated_pressure);
+    if uses_barometric && !(50e3..=110e3).contains(&barometric) {
+        return Err(Error::Invalid(format!(
+            "--barometric {}: outside 50-110 kPa, not a barometric pressure",
+            a.barometric
+        )));
+    }
+    let pressure = units::absolute_pa(&a.pressure, "--pressure", a.gauge, barometric)?;
     if pressure < 0.0 {
         return Err(Error::Invalid(format!(
             "--pressure {}: absolute pressure would be negative ({})",
@@ -108,7 +118,7 @@ pub fn request(a: &ContentArgs) -> Result<ContentRequest, Error> {
             units::fmt_bar(pressure)
         )));
     }
-    let rated = units::pressure_pa(&a.rated_pressure, "--rated-pressure")? + barometric;
+    let rated = units::absolute_pa(&a.rated_pressure, "--rated-pressure", a.gauge, barometric)?;
     let tank = Tank {
         water_capacity_m3: units::volume_m3(&a.capacity, "--capacity")?,
         rated_pressure_pa: rated,

@@ -1,5 +1,6 @@
 //! `isochor demo`: the built-in workshop scenario (a 50 L nitrogen cylinder
-//! over a week, a valve leak from day four) on defaults: the summary and
+//! over a week, a valve leak from day four) on defaults: what is simulated,
+//! the instrument under test, the scores each with how to read it, and
 //! where the plots are.
 
 use super::Format;
@@ -16,6 +17,9 @@ pub struct DemoArgs {
     /// Folder for the summary JSON, time series and plots.
     #[arg(long, default_value = "isochor-out")]
     pub out: PathBuf,
+    /// Write no files (summary only).
+    #[arg(long)]
+    pub no_files: bool,
     /// Output format of the summary.
     #[arg(long, value_enum, default_value_t = Format::Text)]
     pub format: Format,
@@ -28,12 +32,21 @@ pub fn run(a: &DemoArgs) -> Result<String, Error> {
         vec![sc],
         BackendKind::Fixed,
         60.0,
-        Some(&a.out),
+        (!a.no_files).then_some(a.out.as_path()),
         true,
         a.format == Format::Text,
     )?;
-    let mut s = render(&done, a.format)?;
+    let mut s = String::new();
     if a.format == Format::Text {
+        s += "A simulated week of a 50 L nitrogen cylinder in an unheated workshop: real physics,\n\
+the day/night swing, a temperature sensor that opens for ten minutes on day two and a valve\n\
+that starts leaking on day four. The gauge is the device's fixed-point core, reading the raw\n\
+codes of simulated sensors that carry one instrument's errors (listed below, drawn from what\n\
+the gauge declares); its content, uncertainty and alarms are scored against the truth, and\n\
+each score comes with how to read it.\n\n";
+    }
+    s += &render(&done, a.format)?;
+    if a.format == Format::Text && !a.no_files {
         s += "\nOpen the PNG above to see pressure, temperatures, content with its uncertainty \
 band, the content error and the alarms. More: `isochor sim --list`.\n";
     }

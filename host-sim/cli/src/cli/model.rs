@@ -8,7 +8,7 @@ use isochor_core::model::device::{TableBuf, builtin};
 use isochor_eos::composition::GasSpec;
 use isochor_eos::fluid::Fluid;
 use isochor_eos::model::{self, BuildSpec, Built, CheckReport};
-use isochor_eos::units;
+use isochor_eos::{safety, units};
 use serde::Serialize;
 use std::collections::BTreeMap;
 
@@ -287,6 +287,8 @@ pub struct CheckOutput {
     /// The measured errors.
     #[serde(flatten)]
     pub check: CheckReport,
+    /// Safety cautions of the gas (and of building a gauge with the table).
+    pub caution: String,
 }
 
 /// Checks one table against the reference equation of `fluid`.
@@ -304,6 +306,7 @@ pub fn check_one(table: &TableBuf, name: &str, fluid: &Fluid) -> Result<CheckOut
         pressure_max_pa: r.pressure_max_pa,
         knots: [t.temperature_knots.len(), t.pressure_knots.len()],
         check: model::check_fluid(&t, fluid)?,
+        caution: safety::device_lines_for(&spec).join(" "),
     })
 }
 
@@ -387,6 +390,25 @@ fn run_check(a: &CheckArgs) -> Result<String, Error> {
             }
             s += "errors: relative density error of the fixed-point evaluation against the \
                   reference equation of state, on a 0.5 K grid off the build nodes.\n";
+            s += "Tables cover the gas only: where a liquefiable gas is liquid the device \
+                  flags two_phase or liquid_full and shows no content.\n\n";
+            // The general and hardware cautions once, each gas's own after.
+            s += safety::GENERAL;
+            s.push('\n');
+            let mut seen = Vec::new();
+            for o in &outs {
+                if let Ok(g) = Gas::from_name(&o.gas) {
+                    for line in safety::lines(g).into_iter().skip(1) {
+                        if !seen.contains(&line) {
+                            seen.push(line);
+                            s += line;
+                            s.push('\n');
+                        }
+                    }
+                }
+            }
+            s += safety::HARDWARE;
+            s.push('\n');
             Ok(s)
         }
     }

@@ -3,9 +3,15 @@
 use std::time::Duration;
 
 use clap::{Args, Subcommand, ValueEnum};
+use isochor_core::alarm::fixed::LimitsFx;
 use isochor_core::auth::Secret;
-use isochor_core::link::{Command, Origin, SensorChannel};
-use isochor_core::{Setup, SetupFx, Tank, fx};
+use isochor_core::link::{Command, SensorChannel};
+use isochor_core::model::device::TableBuf;
+use isochor_core::prepared::GaugeConfig;
+use isochor_core::store::Origin;
+use isochor_core::{Gas, Setup, SetupFx, Tank, fx};
+use isochor_eos::composition::{Composition, GasSpec};
+use isochor_eos::fluid::Fluid;
 use serde_json::json;
 
 use super::{Format, to_json};
@@ -69,11 +75,25 @@ pub enum Request {
     Ping,
     /// Show the device's identity and capabilities.
     Identity,
-    /// Show the setup stored in the device.
+    /// Show the configuration in force in the device (setup, zero offsets).
     ReadConfig,
-    /// Store a new setup in the device (signed).
+    /// Store a new setup in the device (signed); its sensors, tracking
+    /// settings and zero offsets are kept, the alarm limits follow the new
+    /// tank.
     WriteConfig(WriteConfigArgs),
     /// Take the present reading of a sensor as its zero (signed).
+    ///
+    /// Pressure: the transducer must be vented to atmosphere first (vessel
+    /// valve closed, the transducer's port open to air); the device takes
+    /// the reading as the barometric pressure. Never zero a transducer that
+    /// is connected to a pressurised vessel: a full vessel would then read
+    /// nearly empty and the over-pressure alarm would be blinded. The device
+    /// refuses a zero more than 2 % of the transducer's span (at least
+    /// 10 kPa) away from the barometric pressure.
+    ///
+    /// Temperature: put the sensor in an ice bath (crushed ice topped up
+    /// with water, stirred) first; the device takes the reading as 0 °C and
+    /// refuses a zero more than 2 K away from it.
     ZeroCalibration {
         /// The sensor channel.
         #[arg(long, value_enum)]
@@ -83,9 +103,11 @@ pub enum Request {
     ClearAlarms,
     /// Restart the device (signed).
     Reboot,
-    /// Load a gas-model blob into the device in chunks (signed).
+    /// Use a gas-model table built on a host (`isochor model build --emit
+    /// blob`) in the device's configuration (signed; the table's gas must
+    /// be the setup's).
     LoadGasModel {
-        /// The blob file.
+        /// The table file.
         #[arg(long)]
         file: std::path::PathBuf,
     },
@@ -101,10 +123,13 @@ pub struct WriteConfigArgs {
     /// Water capacity of the tank, with unit (L, mL, m3).
     #[arg(long, allow_hyphen_values = true)]
     pub capacity: String,
-    /// Rated (service) pressure, absolute, with unit.
+    /// Rated (service) pressure, with unit: absolute (bar, bara, psia, ...)
+    /// or gauge (barg, psig: the standard atmosphere, 1.01325 bar, is
+    /// added). The working pressure marked on a cylinder is a gauge pressure.
     #[arg(long, allow_hyphen_values = true)]
     pub rated_pressure: String,
-    /// Temperature the rated pressure refers to.
+    /// Temperature the rated pressure refers to. 15 °C in ISO practice; some
+    /// markings (US practice) refer to 70 °F (21.1 °C): give 70F then.
     #[arg(long, default_value = "15C", allow_hyphen_values = true)]
     pub rated_temperature: String,
     /// Standard condition for standard volume (iso13443, normal, ntp, 60f, or T,P).
@@ -139,7 +164,12 @@ pub fn setup(a: &WriteConfigArgs) -> Result<SetupFx, Error> {
     let gas = super::gas::parse(&a.gas)?.gas();
     let tank = Tank {
         water_capacity_m3: units::volume_m3(&a.capacity, "--capacity")?,
-        rated_pressure_pa: units::pressure_pa(&a.rated_pressure, "--rated-pressure")?,
+        rated_pressure_pa: units::absolute_pa(
+            &a.rated_pressure,
+            "--rated-pressure",
+            false,
+            isochor_core::constants::STANDARD_ATMOSPHERE_PA,
+        )?,
         rated_temperature_k: units::temperature_k(&a.rated_temperature, "--rated-temperature")?,
         elastic_expansion_per_mpa: units::number(
             &a.elastic_expansion_per_bar,
@@ -157,19 +187,113 @@ pub fn setup(a: &WriteConfigArgs) -> Result<SetupFx, Error> {
     SetupFx::from_f64(&s).map_err(|e| Error::Invalid(format!("setup: {e}")))
 }
 
-fn origin_name(o: Origin) -> &'static str {
-    match o {
-        Origin::Stored => "stored",
-        Origin::Fallback => "fallback",
-        Origin::Default => "default",
+/// The device's configuration with `setup` in place of its own: sensors,
+/// tracking settings, plausibility checks and barometric pressure kept, the
+/// alarm limits those of the new tank, a loaded gas model kept only for the
+/// same gas. A device without a configuration gets the nominal one.
+pub fn with_setup(current: Option<GaugeConfig>, setup: SetupFx) -> GaugeConfig {
+    match current {
+        None => GaugeConfig::nominal(setup),
+        Some(mut c) => {
+            if c.setup.gas != setup.gas {
+                c.model = None;
+            }
+            c.setup = setup;
+            c.track.limits = LimitsFx::for_tank(&setup.tank);
+            c
+        }
     }
 }
 
+/// A configuration of a mixture carries its composition and a table built
+/// for it (kept from the configuration when it is of the same mixture, else
+/// from the table cache or built: `isochor content --model device` shares
+/// it); a pure gas carries no composition.
+pub fn with_mixture(mut c: GaugeConfig, spec: &GasSpec) -> Result<GaugeConfig, Error> {
+    c.composition = spec.core_composition();
+    if let GasSpec::Mixture(_) = spec
+        && c.model.as_ref().map(|t| t.gas) != Some(c.setup.gas)
+    {
+        c.model = Some(crate::model_cache::table_for(&Fluid::of(spec))?.0);
+    }
+    Ok(c)
+}
+
+/// The gas of a configuration read back: a mixture's composition when it
+/// carries one, else the setup's gas.
+pub fn config_gas(c: &GaugeConfig) -> GasSpec {
+    c.composition
+        .as_ref()
+        .and_then(|k| Composition::from_core(k).ok())
+        .map_or(GasSpec::Pure(c.setup.gas), GasSpec::from_composition)
+}
+
+/// What the device's configuration reads back as, for text and JSON.
+fn config_view(
+    d: &crate::link::client::DeviceConfig,
+) -> Result<(serde_json::Value, String), Error> {
+    let (zp, zt) = d.zero.to_f64();
+    let head = json!({
+        "origin": d.origin.name(),
+        "config_len": d.blob.len(),
+        "crc32c": format!("{:08x}", d.crc),
+        "zero_pressure_pa": zp,
+        "zero_temperature_k": zt,
+    });
+    let zero_line = format!(
+        "zero offsets: pressure {:+.1} Pa, temperature {:+.3} K\n",
+        zp, zt
+    );
+    let note = match d.origin {
+        Origin::Stored => "",
+        Origin::Fallback => "NOTE: the newest stored copy is damaged; an older copy is in use\n",
+        Origin::Default => "",
+    };
+    let Some(cfg) = d.config()? else {
+        let mut v = head;
+        v["setup"] = serde_json::Value::Null;
+        return Ok((
+            v,
+            format!(
+                "{note}NO CONFIGURATION: the device reports config_unusable and shows no \
+                 content; store one with `isochor send write-config`\n{zero_line}"
+            ),
+        ));
+    };
+    let spec = config_gas(&cfg);
+    let mut v = setup_json(&cfg.setup, &spec);
+    for (k, x) in head.as_object().into_iter().flatten() {
+        v[k] = x.clone();
+    }
+    v["gas_model"] = json!(if cfg.model.is_some() {
+        "loaded"
+    } else {
+        "built-in"
+    });
+    v["barometric_pa"] = json!(fx::to_f64(cfg.barometric_pa));
+    let mut t = format!(
+        "{note}{}gas model {}\nbarometric pressure {:.1} hPa\n{zero_line}configuration {} bytes, CRC-32C {:08x}\n",
+        setup_text(&cfg.setup, &spec),
+        if cfg.model.is_some() {
+            "loaded"
+        } else {
+            "built-in"
+        },
+        fx::to_f64(cfg.barometric_pa) / 100.0,
+        d.blob.len(),
+        d.crc
+    );
+    t.push_str(&safety::lines_for(&spec).join("\n"));
+    t.push('\n');
+    Ok((v, t))
+}
+
 /// The setup as JSON (SI units).
-pub fn setup_json(s: &SetupFx) -> serde_json::Value {
+pub fn setup_json(s: &SetupFx, spec: &GasSpec) -> serde_json::Value {
     let f: Setup<f64> = s.to_real();
     json!({
-        "gas": f.gas.name(),
+        "gas": super::gas::gas_field(spec),
+        "composition": super::gas::composition_map(spec),
         "water_capacity_m3": f.tank.water_capacity_m3,
         "rated_pressure_pa": f.tank.rated_pressure_pa,
         "rated_temperature_k": f.tank.rated_temperature_k,
@@ -180,13 +304,13 @@ pub fn setup_json(s: &SetupFx) -> serde_json::Value {
     })
 }
 
-fn setup_text(s: &SetupFx) -> String {
+fn setup_text(s: &SetupFx, spec: &GasSpec) -> String {
     let c = |k: fx::Temperature| fx::to_f64(k) - isochor_core::constants::ZERO_CELSIUS_K;
     format!(
         "gas {}\nwater capacity {:.4} L\nrated pressure {:.3} bar (absolute) at {:.2} °C\n\
          elastic expansion {:.3e} per MPa, thermal expansion {:.3e} per K\n\
          standard condition {:.2} °C, {:.3} kPa\nsettled pressure at {:.2} °C\n",
-        s.gas.name(),
+        spec,
         fx::to_f64(s.tank.water_capacity_m3) * 1000.0,
         fx::to_f64(s.tank.rated_pressure_pa) / 1e5,
         c(s.tank.rated_temperature_k),
@@ -206,8 +330,9 @@ pub fn execute<T: crate::link::Transport>(
 ) -> Result<String, Error> {
     let text_done = |what: &str| {
         format!(
-            "{what}: done (confirmed by the device)\n{}\n",
-            safety::GENERAL
+            "{what}: done (confirmed by the device)\n{}\n{}\n",
+            safety::GENERAL,
+            safety::HARDWARE
         )
     };
     let (value, text) = match request {
@@ -240,30 +365,16 @@ pub fn execute<T: crate::link::Transport>(
             );
             (v, t)
         }
-        Request::ReadConfig => {
-            let r = client.read_record::<SetupFx>()?;
-            let mut v = setup_json(&r.value);
-            v["origin"] = json!(origin_name(r.origin));
-            let note = match r.origin {
-                Origin::Stored => "",
-                Origin::Fallback => {
-                    "NOTE: the newest stored copy is damaged; an older copy is in use\n"
-                }
-                Origin::Default => {
-                    "NOTE: nothing stored; safe defaults in use - figures mean nothing for a real tank\n"
-                }
-            };
-            let mut t = format!("{note}{}", setup_text(&r.value));
-            t.push_str(&safety::lines(r.value.gas).join("\n"));
-            t.push('\n');
-            (v, t)
-        }
+        Request::ReadConfig => config_view(&client.read_config()?)?,
         Request::WriteConfig(a) => {
+            let spec = super::gas::parse(&a.gas)?;
             let s = setup(a)?;
-            client.write_record(&s)?;
-            let mut t = setup_text(&s);
+            let current = client.read_config()?.config()?;
+            let config = with_mixture(with_setup(current, s), &spec)?;
+            client.configure(&config, &mut |_, _| {})?;
+            let mut t = setup_text(&s, &spec);
             t.push_str(&text_done("write-config"));
-            (json!({ "written": setup_json(&s) }), t)
+            (json!({ "written": setup_json(&s, &spec) }), t)
         }
         Request::ZeroCalibration { channel } => {
             let channel = match channel {
@@ -271,9 +382,19 @@ pub fn execute<T: crate::link::Transport>(
                 Channel::Temperature => SensorChannel::Temperature,
             };
             client.signed(Command::ZeroCalibration { channel })?;
+            let note = match channel {
+                SensorChannel::Pressure => {
+                    "The transducer's present reading is now the barometric pressure. Reconnect \
+                     it and compare with a calibrated gauge before relying on its readings.\n"
+                }
+                SensorChannel::Temperature => {
+                    "The sensor's present reading is now 0 °C. Refit it to the vessel and let it \
+                     settle before relying on its readings.\n"
+                }
+            };
             (
                 json!({ "done": "zero-calibration" }),
-                text_done("zero-calibration"),
+                format!("{note}{}", text_done("zero-calibration")),
             )
         }
         Request::ClearAlarms => {
@@ -285,15 +406,31 @@ pub fn execute<T: crate::link::Transport>(
             (json!({ "done": "reboot" }), text_done("reboot"))
         }
         Request::LoadGasModel { file } => {
-            let blob = std::fs::read(file)
+            let bytes = std::fs::read(file)
                 .map_err(|e| Error::Invalid(format!("--file {}: {e}", file.display())))?;
-            client.load_gas_model(&blob, &mut |_| {})?;
-            let crc = isochor_core::checksum::crc32c(&blob);
+            let table = TableBuf::from_blob(&bytes)
+                .map_err(|e| Error::Invalid(format!("--file {}: {e}", file.display())))?;
+            let Some(mut config) = client.read_config()?.config()? else {
+                return Err(Error::Invalid(
+                    "the device holds no configuration: store one with write-config first".into(),
+                ));
+            };
+            if table.gas != config.setup.gas {
+                return Err(Error::Invalid(format!(
+                    "--file {}: a table of {}, but the device is set up for {}",
+                    file.display(),
+                    describe_gas(table.gas),
+                    config_gas(&config)
+                )));
+            }
+            config.model = Some(table);
+            let mut sent = 0;
+            client.configure(&config, &mut |n, _| sent = n)?;
             (
-                json!({ "done": "load-gas-model", "len": blob.len(), "crc32c": format!("{crc:08x}") }),
+                json!({ "done": "load-gas-model", "table_len": bytes.len(), "config_len": sent }),
                 format!(
-                    "gas model loaded: {} bytes, CRC-32C {crc:08x}\n{}",
-                    blob.len(),
+                    "gas model loaded: table {} bytes, configuration {sent} bytes\n{}",
+                    bytes.len(),
                     text_done("load-gas-model")
                 ),
             )
@@ -339,4 +476,13 @@ pub fn run(a: &SendArgs) -> Result<String, Error> {
         client = client.with_secret(s);
     }
     execute(&mut client, &a.request, a.format)
+}
+
+/// A table's gas in a message: a pure gas's name, or a mixture's
+/// fingerprint (a table does not carry the composition).
+fn describe_gas(g: Gas) -> String {
+    match g.mixture() {
+        Some(m) => format!("a mixture (fingerprint {:08x})", m.fingerprint),
+        None => g.name().to_string(),
+    }
 }

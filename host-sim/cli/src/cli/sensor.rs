@@ -3,13 +3,15 @@
 //!
 //! JSON fields are SI and stable: `pressure_pa` (absolute), `gauge_pressure_pa`,
 //! `temperature_k`, `ohms`, `milliamps`, `code`, `band`, `status` (flag names),
-//! a `fixed` object with the device path's answer where there is one, and the
-//! `config` the conversion used (exact fixed-point bits, the stored form).
+//! a `fixed` object with the device path's answer where there is one, the
+//! `settings` the conversion used in SI units with snake_case names, and the
+//! same as `config`: the stored form (raw fixed-point bits under the core's
+//! type names), exact, which `sensor fit --sensor-config` reads back.
 //! A value is `null` when the status says it is not a measurement.
 
 use super::{Format, to_json};
 use crate::Error;
-use crate::sensor::{Quantity, fit, ohms, parse_points, pressure_range};
+use crate::sensor::{Quantity, fit, ohms, parse_points, pressure_range, settings};
 use clap::{ArgGroup, Args, Subcommand, ValueEnum};
 use isochor_core::constants::ZERO_CELSIUS_K;
 use isochor_core::sensor::calibration::{CalibrationRecord, Channel, SensorConfig};
@@ -260,10 +262,10 @@ pub struct BridgeArgs {
 #[derive(Debug, Args)]
 #[command(group(ArgGroup::new("input").required(true).args(["gauge", "absolute"])))]
 pub struct GaugeArgs {
-    /// Gauge pressure (with unit) → absolute.
+    /// Gauge pressure (with unit; bar, barg, psi, psig, …) → absolute.
     #[arg(long, allow_hyphen_values = true)]
     pub gauge: Option<String>,
-    /// Absolute pressure (with unit) → gauge.
+    /// Absolute pressure (with unit; bar, bara, psi, psia, …) → gauge.
     #[arg(long, allow_hyphen_values = true)]
     pub absolute: Option<String>,
     /// Barometric pressure.
@@ -388,6 +390,8 @@ fn output(
             s.push('\n');
             s.push_str(safety::GENERAL);
             s.push('\n');
+            s.push_str(safety::HARDWARE);
+            s.push('\n');
             Ok(s)
         }
     }
@@ -402,9 +406,14 @@ fn fmt_status(s: Status) -> String {
 }
 
 fn fmt_t(k: Option<f64>) -> String {
-    // + 0.0 turns a rounded −0 into 0.
-    k.map(|k| format!("{:.4} °C ({k:.4} K)", (k - ZERO_CELSIUS_K) * 1.0 + 0.0))
-        .unwrap_or_else(|| "not valid".to_string())
+    k.map(|k| {
+        format!(
+            "{} °C ({} K)",
+            units::fmt_decimal(k - ZERO_CELSIUS_K, 4),
+            units::fmt_decimal(k, 4)
+        )
+    })
+    .unwrap_or_else(|| "not valid".to_string())
 }
 
 fn opt(v: &Value) -> Option<f64> {
@@ -482,6 +491,7 @@ fn run_rtd(a: &RtdArgs) -> Result<String, Error> {
         lines.push(format!("status      {}", fmt_status(xf.status)));
     }
     m.insert("config".into(), config_json(&SensorConfig::Rtd(cfg))?);
+    m.insert("settings".into(), settings(&SensorConfig::Rtd(cfg)));
     output(a.format, "rtd", m, &lines)
 }
 
@@ -579,6 +589,7 @@ fn run_ntc(a: &NtcArgs) -> Result<String, Error> {
         lines.push(format!("status      {}", fmt_status(xf.status)));
     }
     m.insert("config".into(), config_json(&SensorConfig::Ntc(cfg))?);
+    m.insert("settings".into(), settings(&SensorConfig::Ntc(cfg)));
     output(a.format, "ntc", m, &lines)
 }
 
@@ -701,6 +712,7 @@ fn run_loop(a: &LoopArgs) -> Result<String, Error> {
         pressure_lines(&mut lines, &p, &g, &pq, r.status);
     }
     m.insert("config".into(), config_json(&SensorConfig::Loop(cfg))?);
+    m.insert("settings".into(), settings(&SensorConfig::Loop(cfg)));
     output(a.format, "loop", m, &lines)
 }
 
@@ -763,6 +775,7 @@ fn run_bridge(a: &BridgeArgs) -> Result<String, Error> {
         pressure_lines(&mut lines, &p, &g, &pq, r.status);
     }
     m.insert("config".into(), config_json(&SensorConfig::Bridge(cfg))?);
+    m.insert("settings".into(), settings(&SensorConfig::Bridge(cfg)));
     output(a.format, "bridge", m, &lines)
 }
 
@@ -770,7 +783,14 @@ fn run_gauge(a: &GaugeArgs) -> Result<String, Error> {
     let b = barometric(&a.barometric)?;
     let bq: fx::Pressure = fx_value(b, "--barometric")?;
     let (r, rq) = if let Some(g) = &a.gauge {
-        let g = units::pressure_pa(g, "--gauge")?;
+        let g = match units::pressure(g, "--gauge")? {
+            (_, units::Reference::Absolute) => {
+                return Err(Error::Invalid(format!(
+                    "--gauge {g}: an absolute pressure (bara, psia); give it with --absolute"
+                )));
+            }
+            (v, _) => v,
+        };
         (
             gauge::float::absolute(g, b)?,
             gauge::fixed::absolute(fx_value(g, "--gauge")?, bq),
@@ -898,6 +918,7 @@ fn run_record(a: &RecordArgs) -> Result<String, Error> {
     m.insert("bytes".into(), json!(bytes.len()));
     m.insert("checksum".into(), json!("ok"));
     m.insert("config".into(), config_json(&rec.sensor)?);
+    m.insert("settings".into(), settings(&rec.sensor));
     let lines = vec![
         format!("{}: {} bytes, CRC-32C ok", a.file, bytes.len()),
         format!("sequence    {}", rec.sequence),

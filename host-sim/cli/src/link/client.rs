@@ -2,23 +2,41 @@
 
 use std::time::{Duration, Instant};
 
+use isochor_core::app::Zero;
 use isochor_core::auth::{self, Secret};
 use isochor_core::link::{
-    CHUNK_MAX_LEN, Command, Diagnostics, GetChallenge, GetDiagnostics, GetIdentity, Identity,
-    InjectSample, Message, NONCE_LEN, Origin, Outcome, Ping, RawCode, ReadRecord, Refusal, Signed,
+    CHUNK_MAX_LEN, Command, ConfigPart, Diagnostics, FromDevice, GetChallenge, GetDiagnostics,
+    GetIdentity, Identity, InjectSample, NONCE_LEN, Outcome, Ping, ReadConfig, Refusal,
+    SensorChannel, Signed, ToDevice, Wire,
 };
-use isochor_core::store::{Record, decode_record};
+use isochor_core::prepared::{GaugeConfig, Prepared, PreparedBuf, Report};
+use isochor_core::store::Origin;
 
 use super::transport::{Link, LinkEvent, Transport};
 use crate::Error;
 
-/// A record as read from the device.
+/// The configuration in force on a device, as read back.
 #[derive(Clone, Debug, PartialEq)]
-pub struct RecordRead<R> {
-    /// The value.
-    pub value: R,
-    /// Where the device got it.
+pub struct DeviceConfig {
+    /// The prepared configuration (empty when the device holds none).
+    pub blob: Vec<u8>,
+    /// Its CRC-32C as the device states it.
+    pub crc: u32,
+    /// Where the device took it from.
     pub origin: Origin,
+    /// The zero offsets of the two channels.
+    pub zero: Zero,
+}
+
+impl DeviceConfig {
+    /// The physical configuration it was prepared from (`None` when the
+    /// device holds none).
+    pub fn config(&self) -> Result<Option<GaugeConfig>, Error> {
+        if self.blob.is_empty() {
+            return Ok(None);
+        }
+        Ok(Some(Prepared::new(&self.blob[..])?.source_config()?))
+    }
 }
 
 /// Talks to one device: pairs requests with replies by tag, opens signing
@@ -31,7 +49,7 @@ pub struct Client<T> {
     serial: Option<u64>,
     session: Option<([u8; NONCE_LEN], u32)>,
     /// Messages that arrived while waiting for replies (telemetry, alarms).
-    pub unsolicited: Vec<Message>,
+    pub unsolicited: Vec<FromDevice>,
 }
 
 impl<T: Transport> Client<T> {
@@ -60,7 +78,7 @@ impl<T: Transport> Client<T> {
     }
 
     /// Sends a request and waits for the reply with its tag.
-    pub fn request(&mut self, build: impl FnOnce(u16) -> Message) -> Result<Outcome, Error> {
+    pub fn request(&mut self, build: impl FnOnce(u16) -> ToDevice) -> Result<Outcome, Error> {
         let tag = self.next_tag;
         self.next_tag = self.next_tag.wrapping_add(1).max(1);
         let msg = build(tag);
@@ -69,7 +87,7 @@ impl<T: Transport> Client<T> {
         loop {
             let left = deadline.saturating_duration_since(Instant::now());
             match self.link.next_event(left)? {
-                Some(LinkEvent::Message(Message::Reply(r))) if r.tag == tag => {
+                Some(LinkEvent::Message(FromDevice::Reply(r))) if r.tag == tag => {
                     return Ok(r.outcome);
                 }
                 Some(LinkEvent::Message(other)) => self.unsolicited.push(other),
@@ -91,7 +109,7 @@ impl<T: Transport> Client<T> {
     /// Ping: returns the round-trip time.
     pub fn ping(&mut self, token: u32) -> Result<Duration, Error> {
         let t0 = Instant::now();
-        match self.request(|tag| Message::Ping(Ping { tag, token }))? {
+        match self.request(|tag| ToDevice::Ping(Ping { tag, token }))? {
             Outcome::Pong { token: t } if t == token => Ok(t0.elapsed()),
             other => Err(unexpected(other)),
         }
@@ -99,7 +117,7 @@ impl<T: Transport> Client<T> {
 
     /// The device's identity.
     pub fn identity(&mut self) -> Result<Identity, Error> {
-        match self.request(|tag| Message::GetIdentity(GetIdentity { tag }))? {
+        match self.request(|tag| ToDevice::GetIdentity(GetIdentity { tag }))? {
             Outcome::Identity(id) => {
                 self.serial = Some(id.serial);
                 Ok(id)
@@ -110,22 +128,22 @@ impl<T: Transport> Client<T> {
 
     /// The device's diagnostics (its latest start, stack use, link counters).
     pub fn diagnostics(&mut self) -> Result<Diagnostics, Error> {
-        match self.request(|tag| Message::GetDiagnostics(GetDiagnostics { tag }))? {
+        match self.request(|tag| ToDevice::GetDiagnostics(GetDiagnostics { tag }))? {
             Outcome::Diagnostics(d) => Ok(d),
             other => Err(unexpected(other)),
         }
     }
 
-    /// Sends raw codes as one sample taken at `at_ms` on the device's clock
-    /// (devices with sample injection); returns once the device took it.
-    pub fn inject(&mut self, at_ms: u64, codes: &[RawCode]) -> Result<(), Error> {
-        let codes = heapless::Vec::from_slice(codes)
-            .map_err(|_| Error::Invalid("too many codes in one sample".into()))?;
+    /// Sends converter codes as one sample taken at `at_ms` on the device's
+    /// clock (devices with sample injection); returns once the device took
+    /// it.
+    pub fn inject(&mut self, at_ms: u64, pressure: u32, temperature: u32) -> Result<(), Error> {
         match self.request(|tag| {
-            Message::InjectSample(InjectSample {
+            ToDevice::InjectSample(InjectSample {
                 tag,
                 at_ms,
-                codes: codes.clone(),
+                pressure,
+                temperature,
             })
         })? {
             Outcome::Taken => Ok(()),
@@ -134,7 +152,7 @@ impl<T: Transport> Client<T> {
     }
 
     /// Takes the messages that arrived unasked (telemetry, alarms, boot).
-    pub fn take_unsolicited(&mut self) -> Vec<Message> {
+    pub fn take_unsolicited(&mut self) -> Vec<FromDevice> {
         std::mem::take(&mut self.unsolicited)
     }
 
@@ -169,21 +187,48 @@ impl<T: Transport> Client<T> {
         self.session = None;
     }
 
-    /// Reads a record of type `R`.
-    pub fn read_record<R: Record>(&mut self) -> Result<RecordRead<R>, Error> {
-        let kind = R::KIND.0;
-        match self.request(|tag| Message::ReadRecord(ReadRecord { tag, kind }))? {
-            Outcome::Record {
-                kind: k,
-                version,
-                origin,
-                bytes,
-            } if k == kind => {
-                let value: R = decode_record(version, &bytes)?;
-                Ok(RecordRead { value, origin })
+    /// Reads the configuration in force, piece by piece: the prepared
+    /// blob, where the device took it from and the zero offsets.
+    pub fn read_config(&mut self) -> Result<DeviceConfig, Error> {
+        let mut blob = Vec::new();
+        let mut first: Option<ConfigPart> = None;
+        loop {
+            let offset = blob.len() as u32;
+            let part = match self.request(|tag| ToDevice::ReadConfig(ReadConfig { tag, offset }))? {
+                Outcome::ConfigPart(p) if p.offset == offset => p,
+                other => return Err(unexpected(other)),
+            };
+            if let Some(f) = &first
+                && (f.total_len, f.crc) != (part.total_len, part.crc)
+            {
+                return Err(Error::Link(
+                    "the configuration changed on the device while it was read".into(),
+                ));
             }
-            other => Err(unexpected(other)),
+            blob.extend_from_slice(&part.bytes);
+            let done = part.bytes.is_empty() || blob.len() >= part.total_len as usize;
+            first.get_or_insert(part);
+            if done {
+                break;
+            }
         }
+        let head = first.ok_or_else(|| Error::Link("no configuration piece".into()))?;
+        if blob.len() != head.total_len as usize
+            || (head.total_len > 0 && isochor_core::checksum::crc32c(&blob) != head.crc)
+        {
+            return Err(Error::Link(
+                "the configuration read back does not match its length or CRC-32C".into(),
+            ));
+        }
+        Ok(DeviceConfig {
+            blob,
+            crc: head.crc,
+            origin: Origin::from_code(head.origin),
+            zero: Zero {
+                pressure: head.zero_pressure,
+                temperature: head.zero_temperature,
+            },
+        })
     }
 
     /// Sends a signed command; returns once the device has confirmed it with
@@ -198,18 +243,19 @@ impl<T: Transport> Client<T> {
             Some(s) => s,
             None => self.identity()?.serial,
         };
+        let bytes = Signed::encode_command(&command)?;
         for attempt in 0..2 {
             let (nonce, counter) = match self.session {
                 Some(s) => s,
                 None => self.open_session()?,
             };
-            let mac = auth::sign_command(&secret, serial, &nonce, counter, &command)?;
+            let mac = auth::sign_command(&secret, serial, &nonce, counter, &bytes);
             let outcome = self.request(|tag| {
-                Message::Signed(Signed {
+                ToDevice::Signed(Signed {
                     tag,
                     counter,
                     mac,
-                    command: command.clone(),
+                    command: bytes.clone(),
                 })
             })?;
             match outcome {
@@ -237,7 +283,7 @@ impl<T: Transport> Client<T> {
     }
 
     fn open_session(&mut self) -> Result<([u8; NONCE_LEN], u32), Error> {
-        match self.request(|tag| Message::GetChallenge(GetChallenge { tag }))? {
+        match self.request(|tag| ToDevice::GetChallenge(GetChallenge { tag }))? {
             Outcome::Challenge { nonce, .. } => {
                 self.session = Some((nonce, 1));
                 Ok((nonce, 1))
@@ -246,32 +292,43 @@ impl<T: Transport> Client<T> {
         }
     }
 
-    /// Writes a record (validated here first, and again on the device).
-    pub fn write_record<R: Record>(&mut self, value: &R) -> Result<(), Error> {
-        self.signed(Command::write_record(value)?)
+    /// Prepares `config` and loads it into the device (signed, in pieces);
+    /// the device checks it whole before it commits it and runs it, and
+    /// keeps its zero offsets. `progress` sees the bytes sent so far.
+    /// Returns how closely the prepared configuration follows the `f64`
+    /// paths.
+    pub fn configure(
+        &mut self,
+        config: &GaugeConfig,
+        progress: &mut dyn FnMut(usize, usize),
+    ) -> Result<Report, Error> {
+        let (blob, report) = PreparedBuf::build(config)?;
+        self.load_config(blob.bytes(), progress)?;
+        Ok(report)
     }
 
-    /// Loads a gas-model blob in chunks; `progress` sees bytes sent so far.
-    pub fn load_gas_model(
+    /// Loads a prepared configuration blob in pieces (signed); `progress`
+    /// sees the bytes sent so far and the total.
+    pub fn load_config(
         &mut self,
         blob: &[u8],
-        progress: &mut dyn FnMut(usize),
+        progress: &mut dyn FnMut(usize, usize),
     ) -> Result<(), Error> {
         let total_len = u32::try_from(blob.len())
             .ok()
             .filter(|&n| n > 0)
-            .ok_or_else(|| Error::Invalid("gas-model blob is empty or too large".into()))?;
+            .ok_or_else(|| Error::Invalid("the configuration is empty or too large".into()))?;
         let blob_crc = isochor_core::checksum::crc32c(blob);
         for (i, piece) in blob.chunks(CHUNK_MAX_LEN).enumerate() {
             let offset = (i * CHUNK_MAX_LEN) as u32;
-            self.signed(Command::GasModelChunk {
+            self.signed(Command::ConfigChunk {
                 offset,
                 total_len,
                 blob_crc,
                 bytes: heapless::Vec::from_slice(piece)
-                    .map_err(|_| Error::Invalid("chunk too large".into()))?,
+                    .map_err(|_| Error::Invalid("piece too large".into()))?,
             })?;
-            progress(offset as usize + piece.len());
+            progress(offset as usize + piece.len(), blob.len());
         }
         Ok(())
     }
@@ -298,16 +355,51 @@ pub fn refusal_text(r: &Refusal) -> String {
             *retry_after_ms as f64 / 1000.0
         ),
         Refusal::OutOfRange { field } => format!("{field} is outside its accepted range"),
-        Refusal::BadRecord => "record not understood by the device (kind or version)".into(),
+        Refusal::BadConfig { reason } => format!(
+            "the configuration does not validate on the device ({reason}): nothing committed"
+        ),
         Refusal::Unsupported => "the device does not support this request".into(),
         Refusal::ChunkOrder { expected } => {
-            format!("gas-model piece out of order (device expects offset {expected})")
+            format!("configuration piece out of order (the device expects offset {expected})")
         }
-        Refusal::BlobCrc => "gas-model blob CRC mismatch: nothing stored".into(),
-        Refusal::BlobTooLarge => "gas-model blob larger than the device's slot".into(),
-        Refusal::Storage => "flash write failed on the device; previous value kept".into(),
-        Refusal::BadGasModel => {
-            "not a gas-model table this device can use (format, version, checksum or content): nothing committed".into()
-        }
+        Refusal::BlobCrc => "configuration CRC-32C mismatch: nothing stored".into(),
+        Refusal::BlobTooLarge => "the configuration is larger than the device can store".into(),
+        Refusal::Storage => "flash write failed on the device; the previous value is kept".into(),
+        Refusal::NotAtZero {
+            channel,
+            offset,
+            limit,
+        } => not_at_zero_text(*channel, *offset, *limit),
+    }
+}
+
+/// Why a zero calibration was refused, and what to do.
+fn not_at_zero_text(channel: SensorChannel, offset: i64, limit: u32) -> String {
+    match channel {
+        SensorChannel::Pressure if limit == 0 => "pressure zero refused: the device has no \
+             valid pressure reading (no configuration, or the sensor is faulted). Nothing was \
+             changed."
+            .into(),
+        SensorChannel::Temperature if limit == 0 => "temperature zero refused: the device has \
+             no valid temperature reading (no configuration, or the sensor is faulted). Nothing \
+             was changed."
+            .into(),
+        SensorChannel::Pressure => format!(
+            "pressure zero refused: the transducer reads {:+.3} bar from the barometric \
+             pressure; a zero is only taken within {:.3} bar of it. The port is not at \
+             atmospheric pressure: close the vessel valve, vent the transducer to atmosphere \
+             (open its bleed or disconnect it from the vessel), wait for the reading to \
+             settle, and try again. Nothing was changed.",
+            -(offset as f64) / 16.0 / 1e5,
+            f64::from(limit) / 16.0 / 1e5
+        ),
+        SensorChannel::Temperature => format!(
+            "temperature zero refused: the sensor reads {:+.2} K from 0 °C; a zero is only \
+             taken within {:.2} K of it. Put the sensor in a stirred bath of crushed ice \
+             topped up with water, wait until the reading settles, and try again. Nothing was \
+             changed.",
+            -(offset as f64) / 65_536.0,
+            f64::from(limit) / 65_536.0
+        ),
     }
 }

@@ -1,20 +1,21 @@
 //! An emulated device: the firmware's application ([`Gauge`], from the
 //! core) on a simulated NOR flash, served over any [`Transport`]. It runs
-//! exactly the code the reference firmware runs (records, signed commands,
-//! gas-model loads, the sensor front-ends, the tracker and its alarms), with
+//! exactly the code the reference firmware runs (the configuration record,
+//! signed commands, prepared-configuration loads, the sensor channels, the
+//! tracker and its alarms), with
 //! samples taken from [`InjectSample`](isochor_core::link::InjectSample)
 //! messages, so host tests exercise the same paths as the QEMU tests.
 
 use std::io;
 use std::time::{Duration, Instant as StdInstant};
 
-use isochor_core::app::{Gauge, GaugeIo, Models, decode_loaded_model, model_for, stored_gas};
+use isochor_core::app::{Gauge, GaugeIo, Mapper};
 use isochor_core::auth::{Authenticator, NonceSource, Policy, Secret};
 use isochor_core::link::{BootReport, Identity, NONCE_LEN, ResetReason};
-use isochor_core::model::device::builtin;
-use isochor_core::store::Layout;
 use isochor_core::store::sim::SimFlash;
+use isochor_core::store::{BlobRef, Layout};
 use isochor_core::time::Instant;
+use isochor_tank::gauge::SharedBlob;
 
 use super::transport::Transport;
 use crate::Error;
@@ -22,13 +23,14 @@ use crate::Error;
 /// The emulated device's flash: 64 KiB, 1 KiB sectors, 4-byte writes.
 pub type EmulatedFlash = SimFlash<65536, 1024, 4>;
 
-/// Record banks of 1 KiB (each record kind takes 2 KiB).
+/// Record banks of 1 KiB (the configuration record takes 2 KiB).
 pub const BANK_LEN: u32 = 1024;
-/// Gas-model slots of 24 KiB.
-pub const SLOT_LEN: u32 = 24 * 1024;
+/// Configuration slots of 16 KiB (the largest prepared configuration,
+/// [`isochor_core::prepared::MAX_LEN`]).
+pub const SLOT_LEN: u32 = isochor_core::prepared::MAX_LEN as u32;
 
-/// The emulated device's storage layout: the six record areas from 0, then
-/// the two gas-model slots.
+/// The emulated device's storage layout: the configuration record's area
+/// from 0, then the two configuration slots.
 pub fn layout(flash: &EmulatedFlash) -> Result<Layout, Error> {
     Ok(Layout::contiguous(flash, 0, BANK_LEN, SLOT_LEN)?)
 }
@@ -61,10 +63,29 @@ impl<T: Transport> GaugeIo for Io<'_, T> {
     }
 }
 
+/// Copies a stored configuration into RAM (the emulated flash is not
+/// mapped into memory).
+pub struct CopyMapper;
+
+impl Mapper<EmulatedFlash> for CopyMapper {
+    type Bytes = SharedBlob;
+
+    fn map(
+        &mut self,
+        flash: &mut EmulatedFlash,
+        layout: &Layout,
+        blob: &BlobRef,
+    ) -> Option<SharedBlob> {
+        let mut bytes = vec![0u8; blob.len as usize];
+        layout.blobs.read(flash, blob, 0, &mut bytes).ok()?;
+        Some(SharedBlob::from_bytes(&bytes))
+    }
+}
+
 /// A device in software.
 pub struct EmulatedDevice {
     flash: Option<Box<EmulatedFlash>>,
-    identity: Identity,
+    serial: u64,
     secret: Secret,
     policy: Policy,
     started: StdInstant,
@@ -87,14 +108,7 @@ impl EmulatedDevice {
         layout(&flash)?;
         Ok(EmulatedDevice {
             flash: Some(flash),
-            identity: Identity {
-                serial,
-                hardware_rev: 1,
-                firmware_version: isochor_core::app::FIRMWARE_VERSION,
-                protocol: 0,
-                max_frame_len: 0,
-                capabilities: 0,
-            },
+            serial,
             secret,
             policy: Policy::default(),
             started: StdInstant::now(),
@@ -124,30 +138,31 @@ impl EmulatedDevice {
     /// boot message.
     pub fn serve<T: Transport>(&mut self, transport: &mut T) -> Result<(), Error> {
         loop {
-            let mut flash = self
+            let flash = self
                 .flash
                 .take()
                 .ok_or_else(|| Error::Link("the emulated device has no flash".into()))?;
             let layout = layout(&flash)?;
-            let table = decode_loaded_model(flash.as_mut(), &layout);
-            let gas = stored_gas(flash.as_mut(), &layout);
-            let model = model_for(gas, table.as_ref(), builtin::table);
             self.boots += 1;
             let boot = BootReport::new(self.next_reason, self.boots);
-            let auth = Authenticator::new(self.secret.clone(), self.identity.serial, self.policy);
-            let mut gauge = Gauge::new(
-                self.identity.clone(),
-                auth,
-                *flash,
-                layout,
-                Models {
-                    model: model.as_ref(),
-                    loadable: true,
-                },
-                true,
-                boot,
+            let identity = Identity {
+                serial: self.serial,
+                hardware_rev: 1,
+                firmware_version: isochor_core::app::VERSION,
+                protocol: 0,
+                max_frame_len: 0,
+                capabilities: 0,
+                config_capacity: 0,
+            };
+            let auth = Authenticator::new(self.secret.clone(), self.serial, self.policy);
+            let mut slot = None;
+            let gauge = Gauge::new_in(
+                &mut slot, identity, auth, *flash, layout, CopyMapper, true, boot,
             )?;
-            let closed = self.run(&mut gauge, transport);
+            let closed = self.run(gauge, transport);
+            let gauge = slot
+                .take()
+                .ok_or_else(|| Error::Link("the emulated device lost its gauge".into()))?;
             self.flash = Some(Box::new(gauge.into_flash()));
             self.next_reason = ResetReason::Requested;
             if closed? {
@@ -160,7 +175,7 @@ impl EmulatedDevice {
     /// `Ok(false)` when the gauge asks for a restart.
     fn run<T: Transport>(
         &self,
-        gauge: &mut Gauge<'_, EmulatedFlash>,
+        gauge: &mut Gauge<EmulatedFlash, CopyMapper>,
         transport: &mut T,
     ) -> Result<bool, Error> {
         let mut io = Io {

@@ -7,7 +7,7 @@ use std::net::TcpStream;
 use std::sync::mpsc::{Receiver, RecvTimeoutError, Sender, channel};
 use std::time::{Duration, Instant};
 
-use isochor_core::link::{self, Accumulator, Feed, MAX_FRAME_LEN, Message};
+use isochor_core::link::{self, Accumulator, Feed, FromDevice, MAX_FRAME_LEN, ToDevice};
 
 use crate::Error;
 
@@ -160,8 +160,8 @@ impl Transport for MemoryEnd {
 #[derive(Debug, PartialEq, Eq)]
 #[allow(clippy::large_enum_variant)] // returned once per frame, never stored in bulk
 pub enum LinkEvent {
-    /// A decoded message.
-    Message(Message),
+    /// A decoded message of the device.
+    Message(FromDevice),
     /// A frame that did not decode, and why.
     BadFrame(isochor_core::Error),
     /// A frame longer than the protocol allows.
@@ -179,10 +179,11 @@ pub struct LinkStats {
     pub overfull: u64,
 }
 
-/// Frames over a transport.
+/// Frames over a transport, at the host's end: sends [`ToDevice`]
+/// messages, reads [`FromDevice`] ones.
 pub struct Link<T> {
     transport: T,
-    acc: Accumulator,
+    acc: Accumulator<FromDevice>,
     pending: Vec<u8>,
     stats: LinkStats,
     closed: bool,
@@ -211,7 +212,7 @@ impl<T: Transport> Link<T> {
     }
 
     /// Sends one message as a frame.
-    pub fn send(&mut self, msg: &Message) -> Result<(), Error> {
+    pub fn send(&mut self, msg: &ToDevice) -> Result<(), Error> {
         let mut out = [0u8; MAX_FRAME_LEN];
         let n = link::encode(msg, &mut out)?;
         self.transport

@@ -2,10 +2,10 @@
 //! or CSV.
 
 use isochor_core::Status;
-use isochor_core::fixed::types::I32F32;
+use isochor_core::alarm::AlarmKind;
 use isochor_core::fx;
 use isochor_core::link::{
-    AlarmEvent, AlarmTransition, BootReport, Message, Outcome, ResetReason, Telemetry,
+    AlarmEvent, AlarmTransition, BootReport, FromDevice, Outcome, ResetReason, Telemetry, Wire,
 };
 use serde::Serialize;
 
@@ -49,6 +49,9 @@ pub struct TelemetryRow {
     pub mass_uncertainty_kg: Option<f64>,
     /// Expanded uncertainty of the fill fraction (k = 2).
     pub fill_fraction_uncertainty: Option<f64>,
+    /// The leak detector's latest loss, fraction of the rated content per
+    /// day (positive: content lost); `None` until it has a verdict.
+    pub leak_loss_per_day: Option<f64>,
     /// Status flag names.
     pub status: Vec<String>,
 }
@@ -57,34 +60,31 @@ impl TelemetryRow {
     /// Converts a telemetry frame (exactly: every format fits an f64 within
     /// its resolution).
     pub fn from_frame(t: &Telemetry) -> TelemetryRow {
-        let status = Status::from_bits(t.status);
-        let valid = !status.intersects(Status::CONTENT_INVALID);
+        let status = t.status();
+        let valid = t.content_valid();
         let content = |v: f64| valid.then_some(v);
         TelemetryRow {
             kind: "telemetry",
             seq: t.seq,
             uptime_ms: t.uptime_ms,
-            pressure_pa: fx::to_f64(fx::Pressure::from_bits(t.pressure_pa)),
-            temperature_k: fx::to_f64(fx::Temperature::from_bits(t.temperature_k)),
-            density_kg_m3: content(fx::to_f64(fx::Density::from_bits(t.density_kg_m3))),
-            mass_kg: content(fx::to_f64(fx::Mass::from_bits(t.mass_kg))),
-            standard_volume_m3: content(fx::to_f64(fx::Volume::from_bits(t.standard_volume_m3))),
+            pressure_pa: fx::to_f64(t.pressure()),
+            temperature_k: fx::to_f64(t.temperature()),
+            density_kg_m3: content(fx::to_f64(t.density())),
+            mass_kg: content(fx::to_f64(t.mass())),
+            standard_volume_m3: content(fx::to_f64(t.standard_volume())),
             settled_pressure_pa: (valid && !status.contains(Status::SETTLED_TWO_PHASE))
-                .then(|| fx::to_f64(fx::Pressure::from_bits(t.settled_pressure_pa))),
-            fill_fraction: content(fx::to_f64(fx::Fraction::from_bits(t.fill_fraction))),
-            rate_kg_h: t.rate_kg_h.map(|r| fx::to_f64(I32F32::from_bits(r))),
-            rate_uncertainty_kg_h: t
-                .rate_uncertainty_kg_h
-                .map(|r| fx::to_f64(I32F32::from_bits(r))),
+                .then(|| fx::to_f64(t.settled_pressure())),
+            fill_fraction: content(fx::to_f64(t.fill_fraction())),
+            rate_kg_h: t.rate().map(fx::to_f64),
+            rate_uncertainty_kg_h: t.rate_uncertainty().map(fx::to_f64),
             time_to_empty_s: t.time_to_empty_s,
             time_to_empty_earliest_s: t.time_to_empty_earliest_s,
             time_to_empty_latest_s: t.time_to_empty_latest_s,
-            mass_uncertainty_kg: t
-                .mass_uncertainty_kg
-                .and_then(|u| content(fx::to_f64(fx::Mass::from_bits(u)))),
+            mass_uncertainty_kg: t.mass_uncertainty().and_then(|u| content(fx::to_f64(u))),
             fill_fraction_uncertainty: t
-                .fill_fraction_uncertainty
-                .and_then(|u| content(fx::to_f64(fx::Fraction::from_bits(u)))),
+                .fill_fraction_uncertainty()
+                .and_then(|u| content(fx::to_f64(u))),
+            leak_loss_per_day: t.leak_loss_per_day().map(fx::to_f64),
             status: status_names(status),
         }
     }
@@ -133,13 +133,13 @@ impl AlarmRow {
             seq: a.seq,
             uptime_ms: a.uptime_ms,
             alarm: a.alarm,
-            name: a.kind().map_or("unknown", |k| k.name()),
+            name: AlarmKind::from_code(a.alarm).map_or("unknown", AlarmKind::name),
             transition: match a.transition {
                 AlarmTransition::Raised => "raised",
                 AlarmTransition::Cleared => "cleared",
             },
-            mass_kg: fx::to_f64(fx::Mass::from_bits(a.mass_kg)),
-            status: status_names(Status::from_bits(a.status)),
+            mass_kg: fx::to_f64(a.mass()),
+            status: status_names(a.status()),
         }
     }
 }
@@ -148,7 +148,7 @@ impl AlarmRow {
 pub const CSV_HEADER: &str = "seq,uptime_ms,pressure_pa,temperature_k,density_kg_m3,mass_kg,\
 standard_volume_m3,settled_pressure_pa,fill_fraction,rate_kg_h,time_to_empty_s,\
 mass_uncertainty_kg,status,rate_uncertainty_kg_h,time_to_empty_earliest_s,\
-time_to_empty_latest_s,fill_fraction_uncertainty";
+time_to_empty_latest_s,fill_fraction_uncertainty,leak_loss_per_day";
 
 fn opt<T: ToString>(v: Option<T>) -> String {
     v.map(|x| x.to_string()).unwrap_or_default()
@@ -157,7 +157,7 @@ fn opt<T: ToString>(v: Option<T>) -> String {
 /// One CSV line (no newline); flags joined with `|`.
 pub fn csv_line(r: &TelemetryRow) -> String {
     format!(
-        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
+        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
         r.seq,
         r.uptime_ms,
         r.pressure_pa,
@@ -175,6 +175,7 @@ pub fn csv_line(r: &TelemetryRow) -> String {
         opt(r.time_to_empty_earliest_s),
         opt(r.time_to_empty_latest_s),
         opt(r.fill_fraction_uncertainty),
+        opt(r.leak_loss_per_day),
     )
 }
 
@@ -198,16 +199,19 @@ pub fn text_telemetry(r: &TelemetryRow) -> String {
         r.status.join(",")
     };
     format!(
-        "#{:<6} {:>10.3} s  p {:>9.3} bar  T {:>7.2} °C  mass {:>12}  Vstd {:>12}  fill {:>8}  \
-         settled {:>11}  rate {:>13}  empty in {:>9}  ±{:>10}  [{status}]",
+        "#{:<6} {:>10.3} s  p {:>9} bar abs  T {:>7} °C  mass {:>12}  Vstd {:>12}  fill {:>8}  \
+         settled {:>15}  rate {:>13}  empty in {:>9}  ±{:>10}  [{status}]",
         r.seq,
         r.uptime_ms as f64 / 1000.0,
-        r.pressure_pa / 1e5,
-        r.temperature_k - isochor_core::constants::ZERO_CELSIUS_K,
+        isochor_eos::units::fmt_decimal(r.pressure_pa / 1e5, 3),
+        isochor_eos::units::fmt_decimal(
+            r.temperature_k - isochor_core::constants::ZERO_CELSIUS_K,
+            2
+        ),
         fmt_opt(r.mass_kg, 1.0, 4, "kg"),
         fmt_opt(r.standard_volume_m3, 1.0, 3, "m³"),
         fmt_opt(r.fill_fraction, 100.0, 1, "%"),
-        fmt_opt(r.settled_pressure_pa, 1e-5, 2, "bar"),
+        fmt_opt(r.settled_pressure_pa, 1e-5, 2, "bar abs"),
         r.rate_kg_h
             .map_or_else(|| "n/a".to_string(), |x| format!("{x:+.4} kg/h")),
         r.time_to_empty_s.map(hms).unwrap_or_else(|| "n/a".into()),
@@ -216,9 +220,9 @@ pub fn text_telemetry(r: &TelemetryRow) -> String {
 }
 
 /// One readable line for any other message.
-pub fn text_other(m: &Message) -> String {
+pub fn text_other(m: &FromDevice) -> String {
     match m {
-        Message::Alarm(a) => {
+        FromDevice::Alarm(a) => {
             let r = AlarmRow::from_event(a);
             format!(
                 "ALARM {} {} {} (code {}) at {:.3} s, mass {:.4} kg [{}]",
@@ -231,16 +235,7 @@ pub fn text_other(m: &Message) -> String {
                 r.status.join(",")
             )
         }
-        Message::Identity(i) => format!(
-            "device serial {} hardware rev {} firmware {}.{}.{} protocol {}",
-            i.serial,
-            i.hardware_rev,
-            i.firmware_version[0],
-            i.firmware_version[1],
-            i.firmware_version[2],
-            i.protocol
-        ),
-        Message::Boot(b) => format!(
+        FromDevice::Boot(b) => format!(
             "device serial {} started (firmware {}.{}.{}): {}",
             b.serial,
             b.firmware_version[0],
@@ -248,7 +243,7 @@ pub fn text_other(m: &Message) -> String {
             b.firmware_version[2],
             boot_text(&b.report)
         ),
-        Message::Reply(r) => match &r.outcome {
+        FromDevice::Reply(r) => match &r.outcome {
             Outcome::Refused(x) => format!(
                 "reply {}: refused: {}",
                 r.tag,
@@ -331,7 +326,7 @@ pub fn listen<T: super::Transport, W: std::io::Write>(
         };
         quiet = std::time::Duration::ZERO;
         let line = match (&event, format) {
-            (LinkEvent::Message(Message::Telemetry(t)), f) => {
+            (LinkEvent::Message(FromDevice::Telemetry(t)), f) => {
                 shown += 1;
                 let row = TelemetryRow::from_frame(t);
                 match f {
@@ -340,17 +335,17 @@ pub fn listen<T: super::Transport, W: std::io::Write>(
                     ListenFormat::Csv => Some(csv_line(&row)),
                 }
             }
-            (LinkEvent::Message(Message::Alarm(a)), ListenFormat::Jsonl) => {
+            (LinkEvent::Message(FromDevice::Alarm(a)), ListenFormat::Jsonl) => {
                 shown += 1;
                 Some(json(&AlarmRow::from_event(a))?)
             }
             (LinkEvent::Message(m), ListenFormat::Text) => {
-                if matches!(m, Message::Alarm(_)) {
+                if matches!(m, FromDevice::Alarm(_)) {
                     shown += 1;
                 }
                 Some(text_other(m))
             }
-            (LinkEvent::Message(Message::Boot(b)), ListenFormat::Jsonl) => {
+            (LinkEvent::Message(FromDevice::Boot(b)), ListenFormat::Jsonl) => {
                 Some(json(&serde_json::json!({
                     "type": "boot",
                     "serial": b.serial,

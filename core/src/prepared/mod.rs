@@ -1,0 +1,467 @@
+//! Prepared configurations: everything a gauge evaluates per sample,
+//! prepared on a host from the physical configuration, in one blob the
+//! device validates once and then reads in place.
+//!
+//! A gauge's physical configuration ([`GaugeConfig`]: the setup, the two
+//! sensors' calibrations, the tracking and alarm settings, the site's
+//! barometric pressure, the gas model) is what a person writes down. The
+//! device does not evaluate it as written: a host *prepares* it
+//! ([`PreparedBuf::build`]) into
+//!
+//! * the two sensor channels as curves and status maps
+//!   ([`crate::sensor::channel::fixed`]),
+//! * the gas model's table, with the settled-pressure curve of this setup,
+//! * the estimator's prepared constants ([`EstimatorParts`]),
+//! * the tracker's configuration,
+//! * and the physical configuration itself (the device keeps it for whoever
+//!   reads the configuration back; it never decodes it).
+//!
+//! All the divisions, logarithms, square roots and iterations of preparing
+//! happen on the host, in `f64` against the reference paths; the device
+//! evaluates curves, one table and integer arithmetic. A device that runs a
+//! prepared configuration needs no code to prepare one.
+//!
+//! # Format (version 1; little-endian)
+//!
+//! | bytes | content |
+//! |---|---|
+//! | 4 | magic `IZPC` |
+//! | 2 | format version ([`VERSION`]) |
+//! | 2 | zero |
+//! | 4 | total length of the blob, bytes |
+//! | 4 | length n of the scalars, bytes |
+//! | 4 | offset of the arrays from the blob's start (a multiple of 4) |
+//! | n | the scalars: postcard encoding of [`Scalars`] |
+//! | … | zero padding to the arrays' offset |
+//! | … | the arrays, each at a multiple of 4 from the arrays' offset, referenced by [`ArraySpan`]s in the scalars: curve pieces ([`Piece`], seven 32-bit words), status steps ([`Step`], two words), knots (`u32`), table coefficients (`u16`), the source configuration (bytes) |
+//! | 4 | CRC-32C of everything before it |
+//!
+//! A blob is refused (never panics) when it is short, of another magic or
+//! version, fails its checksum, has scalars that do not decode or arrays
+//! that do not fit, or holds stages or a table that do not validate. The
+//! blob must start at an address that is a multiple of 4 (flash pages and
+//! [`PreparedBuf`] do).
+
+mod build;
+mod model;
+
+pub use build::{GaugeConfig, Plausibility, PreparedBuf, Report, STANDARD_ATMOSPHERE};
+pub use model::PreparedModel;
+
+use serde::{Deserialize, Serialize};
+use zerocopy::{FromBytes, Immutable, KnownLayout};
+
+use crate::checksum::crc32c;
+use crate::content::fixed::EstimatorParts;
+use crate::curve::{Curve, Piece};
+use crate::sensor::channel::fixed::{
+    BridgeStage, LoopStage, PressureFront, PressureStage, StatusMap, Step, TemperatureStage,
+};
+use crate::sensor::plausibility::fixed::Checker;
+use crate::time::Millis;
+use crate::track::fixed::TrackConfigFx;
+use crate::{Error, Gas};
+
+/// First bytes of a prepared configuration.
+pub const MAGIC: [u8; 4] = *b"IZPC";
+/// Version of the format this crate reads and writes.
+pub const VERSION: u16 = 1;
+/// Bytes of the fixed header.
+pub const HEADER_LEN: usize = 20;
+/// Largest prepared configuration, bytes.
+pub const MAX_LEN: usize = 16 * 1024;
+/// Largest encoding of the scalars, bytes.
+pub const MAX_SCALARS_LEN: usize = 768;
+
+/// Where an array lies: its offset in bytes from the arrays' start (a
+/// multiple of 4) and its length in elements.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default, Serialize, Deserialize)]
+pub struct ArraySpan {
+    /// Offset from the arrays' start, bytes.
+    pub offset: u32,
+    /// Elements.
+    pub len: u32,
+}
+
+/// A curve in the blob: its pieces and scale.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default, Serialize, Deserialize)]
+pub struct CurveDesc {
+    /// The pieces ([`Piece`]).
+    pub pieces: ArraySpan,
+    /// See [`Curve::end`].
+    pub end: i32,
+    /// See [`Curve::extra`].
+    pub extra: i8,
+}
+
+/// The temperature channel's scalars (see [`TemperatureStage`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct TemperatureScalars {
+    /// See [`TemperatureStage::full`].
+    pub full: u32,
+    /// See [`TemperatureStage::lo`].
+    pub lo: u32,
+    /// See [`TemperatureStage::hi`].
+    pub hi: u32,
+    /// The steps ([`Step`]).
+    pub status: ArraySpan,
+    /// The curve.
+    pub curve: CurveDesc,
+}
+
+/// The pressure channel's scalars (see [`PressureStage`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub enum PressureScalars {
+    /// A bridge (see [`BridgeStage`]).
+    Bridge {
+        /// Converter bits.
+        bits: u8,
+        /// Two's-complement codes.
+        bipolar: bool,
+        /// Saturating codes.
+        rails: (i32, i32),
+        /// Fraction bits of the signal.
+        signal_frac: u8,
+        /// Shift of a code into the signal.
+        code_shift: u8,
+        /// The zero curve.
+        zero: CurveDesc,
+        /// The 1/span curve.
+        inv_span: CurveDesc,
+        /// Fraction bits of 1/span.
+        inv_frac: u8,
+        /// Reference temperature, `fx::Temperature` bits.
+        reference: u32,
+        /// The steps over u.
+        status: ArraySpan,
+        /// The pressure curve.
+        curve: CurveDesc,
+    },
+    /// A 4–20 mA loop (see [`LoopStage`]).
+    Loop {
+        /// Saturating code.
+        top: u32,
+        /// NE 43 band thresholds.
+        bands: [u32; 4],
+        /// The steps over codes.
+        status: ArraySpan,
+        /// The pressure curve.
+        curve: CurveDesc,
+        /// Failure persistence.
+        persistence: Millis,
+    },
+}
+
+/// The boundary of a liquefiable gas's table.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct BoundaryScalars {
+    /// Critical temperature, `fx::Temperature` bits.
+    pub critical_temperature: u32,
+    /// Saturation-pressure curve coefficients (`u32`).
+    pub saturation_pressure: ArraySpan,
+    /// Limit-pressure curve coefficients (`u32`).
+    pub limit_pressure: ArraySpan,
+}
+
+/// The gas model's scalars (see [`crate::model::device::Table`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct ModelScalars {
+    /// The gas.
+    pub gas: Gas,
+    /// Offset of Z, Q30.
+    pub z_offset: u32,
+    /// Coefficient step exponent.
+    pub z_step_exp: u8,
+    /// Smallest Z returned, Q30.
+    pub z_floor: u32,
+    /// Temperature knots (`u32`).
+    pub temperature_knots: ArraySpan,
+    /// Pressure knots (`u32`).
+    pub pressure_knots: ArraySpan,
+    /// Coefficients (`u16`).
+    pub coefs: ArraySpan,
+    /// The boundary, for gases liquid somewhere in range.
+    pub boundary: Option<BoundaryScalars>,
+    /// The settled pressure as a function of τ/2 (τ = ρv·R·T_ref/M,
+    /// `fx::Pressure` bits): a curve, where the setup has one.
+    pub settle: Option<CurveDesc>,
+}
+
+/// Everything of a prepared configuration but its arrays.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct Scalars {
+    /// The temperature channel.
+    pub temperature: TemperatureScalars,
+    /// The pressure channel.
+    pub pressure: PressureScalars,
+    /// The plausibility checks of pressure (`fx::Pressure` bits) and
+    /// temperature (`fx::Temperature` bits) readings, if any.
+    pub plausibility: Option<(Checker, Checker)>,
+    /// The site's barometric pressure, `fx::Pressure` bits.
+    pub barometric: u32,
+    /// The largest zero correction of the pressure channel, `fx::Pressure`
+    /// bits (from the transducer's span: [`crate::app::zero_pressure_limit`]).
+    pub zero_pressure_limit: u32,
+    /// The gas model.
+    pub model: ModelScalars,
+    /// The estimator's constants.
+    pub estimator: EstimatorParts,
+    /// The tracker's configuration.
+    pub track: TrackConfigFx,
+    /// The physical configuration (postcard encoding of [`GaugeConfig`]),
+    /// bytes.
+    pub source: ArraySpan,
+}
+
+/// A prepared configuration over its bytes `B` (see the [module](self)
+/// documentation): validated once, then read in place.
+#[derive(Clone, Debug)]
+pub struct Prepared<B> {
+    bytes: B,
+    arrays: usize,
+    scalars: Scalars,
+}
+
+fn u16_at(b: &[u8], i: usize) -> Option<u16> {
+    Some(u16::from_le_bytes([*b.get(i)?, *b.get(i + 1)?]))
+}
+
+fn u32_at(b: &[u8], i: usize) -> Option<u32> {
+    Some(u32::from_le_bytes([
+        *b.get(i)?,
+        *b.get(i + 1)?,
+        *b.get(i + 2)?,
+        *b.get(i + 3)?,
+    ]))
+}
+
+impl<B: AsRef<[u8]>> Prepared<B> {
+    /// Validates `bytes` as a prepared configuration (see the
+    /// [module](self) documentation for what is checked).
+    pub fn new(bytes: B) -> Result<Prepared<B>, Error> {
+        let b = bytes.as_ref();
+        let bad = Error::Malformed;
+        if b.len() < HEADER_LEN + 4 || b.len() > MAX_LEN || b.get(..4) != Some(&MAGIC[..]) {
+            return Err(bad("prepared configuration header"));
+        }
+        if u16_at(b, 4) != Some(VERSION) {
+            return Err(Error::ProtocolVersion(b.get(4).copied().unwrap_or(0)));
+        }
+        if !(b.as_ptr() as usize).is_multiple_of(4) {
+            return Err(bad("prepared configuration alignment"));
+        }
+        let total = u32_at(b, 8).ok_or(bad("prepared configuration header"))? as usize;
+        if total != b.len() {
+            return Err(bad("prepared configuration length"));
+        }
+        let body = b
+            .get(..total - 4)
+            .ok_or(bad("prepared configuration length"))?;
+        if u32_at(b, total - 4) != Some(crc32c(body)) {
+            return Err(Error::ChecksumMismatch);
+        }
+        let n = u32_at(b, 12).ok_or(bad("prepared configuration header"))? as usize;
+        let arrays = u32_at(b, 16).ok_or(bad("prepared configuration header"))? as usize;
+        if n > MAX_SCALARS_LEN
+            || HEADER_LEN + n > arrays
+            || !arrays.is_multiple_of(4)
+            || arrays > total - 4
+        {
+            return Err(bad("prepared configuration layout"));
+        }
+        let enc = b
+            .get(HEADER_LEN..HEADER_LEN + n)
+            .ok_or(bad("prepared configuration layout"))?;
+        let (scalars, rest) = postcard::take_from_bytes::<Scalars>(enc)
+            .map_err(|_| bad("prepared configuration scalars"))?;
+        if !rest.is_empty() {
+            return Err(bad("prepared configuration scalars"));
+        }
+        let p = Prepared {
+            bytes,
+            arrays,
+            scalars,
+        };
+        p.validate()?;
+        Ok(p)
+    }
+
+    /// The scalars.
+    pub fn scalars(&self) -> &Scalars {
+        &self.scalars
+    }
+
+    /// The bytes.
+    pub fn bytes(&self) -> &B {
+        &self.bytes
+    }
+
+    /// The array at `span` as elements of `T` (empty when it does not fit:
+    /// never after validation).
+    pub fn array<T: FromBytes + Immutable + KnownLayout>(&self, span: ArraySpan) -> &[T] {
+        array(self.bytes.as_ref(), self.arrays, span).unwrap_or(&[])
+    }
+
+    /// The curve of `desc`.
+    pub fn curve(&self, desc: &CurveDesc) -> Curve<'_> {
+        Curve {
+            pieces: self.array::<Piece>(desc.pieces),
+            end: desc.end,
+            extra: desc.extra,
+        }
+    }
+
+    /// The temperature stage.
+    pub fn temperature(&self) -> TemperatureStage<'_> {
+        let t = &self.scalars.temperature;
+        TemperatureStage {
+            full: t.full,
+            lo: t.lo,
+            hi: t.hi,
+            status: StatusMap(self.array::<Step>(t.status)),
+            curve: self.curve(&t.curve),
+        }
+    }
+
+    /// The pressure stage.
+    pub fn pressure(&self) -> PressureStage<'_> {
+        let front = match &self.scalars.pressure {
+            PressureScalars::Bridge {
+                bits,
+                bipolar,
+                rails,
+                signal_frac,
+                code_shift,
+                zero,
+                inv_span,
+                inv_frac,
+                reference,
+                status,
+                curve,
+            } => PressureFront::Bridge(BridgeStage {
+                bits: *bits,
+                bipolar: *bipolar,
+                rails: *rails,
+                signal_frac: *signal_frac,
+                code_shift: *code_shift,
+                zero: self.curve(zero),
+                inv_span: self.curve(inv_span),
+                inv_frac: *inv_frac,
+                reference: *reference,
+                status: StatusMap(self.array::<Step>(*status)),
+                curve: self.curve(curve),
+            }),
+            PressureScalars::Loop {
+                top,
+                bands,
+                status,
+                curve,
+                persistence,
+            } => PressureFront::Loop(LoopStage {
+                top: *top,
+                bands: *bands,
+                status: StatusMap(self.array::<Step>(*status)),
+                curve: self.curve(curve),
+                persistence: *persistence,
+            }),
+        };
+        PressureStage {
+            front,
+            barometric: self.scalars.barometric,
+        }
+    }
+
+    /// The physical configuration's bytes (postcard encoding of
+    /// [`GaugeConfig`]).
+    pub fn source(&self) -> &[u8] {
+        self.array::<u8>(self.scalars.source)
+    }
+
+    /// The physical configuration it was prepared from (hosts: a device
+    /// keeps the bytes and never decodes them).
+    pub fn source_config(&self) -> Result<GaugeConfig, Error> {
+        let (c, rest) = postcard::take_from_bytes::<GaugeConfig>(self.source())
+            .map_err(|_| Error::Malformed("source configuration"))?;
+        if !rest.is_empty() {
+            return Err(Error::Malformed("source configuration"));
+        }
+        Ok(c)
+    }
+
+    /// Every check of [`Prepared::new`] past the header.
+    fn validate(&self) -> Result<(), Error> {
+        let b = self.bytes.as_ref();
+        let s = &self.scalars;
+        let fits = |span: ArraySpan, size: usize| -> Result<(), Error> {
+            let start = self.arrays + span.offset as usize;
+            let end = start + span.len as usize * size;
+            if !span.offset.is_multiple_of(4) || end > b.len() - 4 || span.len as usize > MAX_LEN {
+                Err(Error::Malformed("prepared configuration array"))
+            } else {
+                Ok(())
+            }
+        };
+        let curve = |d: &CurveDesc| fits(d.pieces, core::mem::size_of::<Piece>());
+        let step = core::mem::size_of::<Step>();
+        fits(s.temperature.status, step)?;
+        curve(&s.temperature.curve)?;
+        match &s.pressure {
+            PressureScalars::Bridge {
+                zero,
+                inv_span,
+                status,
+                curve: c,
+                ..
+            } => {
+                curve(zero)?;
+                curve(inv_span)?;
+                fits(*status, step)?;
+                curve(c)?;
+            }
+            PressureScalars::Loop {
+                status, curve: c, ..
+            } => {
+                fits(*status, step)?;
+                curve(c)?;
+            }
+        }
+        let m = &s.model;
+        fits(m.temperature_knots, 4)?;
+        fits(m.pressure_knots, 4)?;
+        fits(m.coefs, 2)?;
+        if let Some(bd) = &m.boundary {
+            fits(bd.saturation_pressure, 4)?;
+            fits(bd.limit_pressure, 4)?;
+        }
+        if let Some(c) = &m.settle {
+            curve(c)?;
+            self.curve(c).validate()?;
+        }
+        fits(s.source, 1)?;
+        if !build::BARO_BITS.contains(&s.barometric) {
+            return Err(Error::OutOfRange("barometric pressure"));
+        }
+        if !(crate::app::ZERO_PRESSURE_MIN..=crate::store::ZERO_PRESSURE_MAX as u32)
+            .contains(&s.zero_pressure_limit)
+        {
+            return Err(Error::OutOfRange("zero bound of the pressure channel"));
+        }
+        self.temperature().validate()?;
+        self.pressure().validate()?;
+        model::table(self).validate()?;
+        crate::model::device::fixed::Axes::prepare(&model::table(self))?;
+        s.track.validate()?;
+        Ok(())
+    }
+}
+
+/// The array at `span` of the arrays starting at `arrays` in `b`.
+fn array<T: FromBytes + Immutable + KnownLayout>(
+    b: &[u8],
+    arrays: usize,
+    span: ArraySpan,
+) -> Option<&[T]> {
+    let start = arrays.checked_add(span.offset as usize)?;
+    let end = start.checked_add((span.len as usize).checked_mul(core::mem::size_of::<T>())?)?;
+    <[T]>::ref_from_bytes(b.get(start..end)?).ok()
+}
