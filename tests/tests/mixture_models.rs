@@ -129,7 +129,10 @@ fn content_fixed_vs_float_with_mixture_tables() {
                 let (pf, tf) = (fx::Pressure::from_num(p), fx::Temperature::from_num(t));
                 let a = fx_est.estimate(pf, tf);
                 let b = fl_est.estimate(fx::to_f64(pf), fx::to_f64(tf)).unwrap();
-                let edge = isochor_tests::BOUNDARY_FLAGS;
+                // Over-fill (above the rated content: most of the grid
+                // above 200 bar) is a verdict on valid figures, not a
+                // reason to leave a sample out.
+                let edge = isochor_tests::BOUNDARY_FLAGS | isochor_core::Status::OVER_FILL;
                 if a.status.without(edge) != b.status.without(edge)
                     || !a.status.without(edge).is_ok()
                 {

@@ -176,6 +176,12 @@ fn a_mixture_prepares_with_its_table_and_composition() {
     let (buf, _) = PreparedBuf::build(&cfg).unwrap();
     let p = buf.prepared().unwrap();
     assert_eq!(p.scalars().model.gas, gas);
+    // The device's pipeline starts on it.
+    isochor_core::app::fixed::Pipeline::new(
+        buf.prepared().unwrap(),
+        isochor_core::app::Zero::default(),
+    )
+    .unwrap();
     // Read back, the composition is the one given (same fingerprint).
     let back = p.source_config().unwrap();
     assert_eq!(back, cfg);
