@@ -30,6 +30,7 @@ pub mod firmware;
 pub mod firmware_gauge;
 pub mod image;
 pub mod link;
+pub mod model_cache;
 pub mod sensor;
 
 pub use error::Error;

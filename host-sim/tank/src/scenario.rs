@@ -27,7 +27,8 @@ use isochor_core::track::LeakMode;
 use isochor_core::track::float::TrackConfig;
 use isochor_core::uncertainty::float::UncertaintyConfig;
 use isochor_core::{Gas, Setup, Tank};
-use isochor_eos::Eos;
+use isochor_eos::composition::GasSpec;
+use isochor_eos::fluid::Fluid;
 use isochor_eos::units;
 use rand::rngs::ChaCha8Rng;
 use rand::{RngExt, SeedableRng};
@@ -37,7 +38,7 @@ use serde::Deserialize;
 pub const FORMAT: &str = "isochor-scenario 1";
 
 /// The built-in scenarios: (name, TOML text). The first is the demo.
-pub const BUILTIN: [(&str, &str); 10] = [
+pub const BUILTIN: [(&str, &str); 12] = [
     (
         "workshop-leak",
         include_str!("../scenarios/workshop-leak.toml"),
@@ -77,6 +78,14 @@ pub const BUILTIN: [(&str, &str); 10] = [
     (
         "dead-sensor-draw",
         include_str!("../scenarios/dead-sensor-draw.toml"),
+    ),
+    (
+        "shielding-gas-cold-week",
+        include_str!("../scenarios/shielding-gas-cold-week.toml"),
+    ),
+    (
+        "ngv-fast-fill",
+        include_str!("../scenarios/ngv-fast-fill.toml"),
     ),
 ];
 
@@ -135,7 +144,8 @@ fn default_interval() -> String {
 #[derive(Clone, Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct TankSection {
-    /// Gas name.
+    /// Gas name, or a mixture as mole fractions
+    /// (`"argon=82%,carbon_dioxide=18%"`, see `isochor_eos::composition`).
     pub gas: String,
     /// Water capacity (`"50L"`).
     pub water_capacity: String,
@@ -682,7 +692,7 @@ fn area_m2(input: &str, what: &'static str) -> Result<f64, Error> {
 fn flow_kg_s(input: &str, gas: Gas, what: &'static str) -> Result<f64, Error> {
     let (v, unit) = units::split(input, what)?;
     let std_rho = || -> Result<f64, Error> {
-        Ok(Eos::of(gas)
+        Ok(Fluid::for_gas(gas)?
             .state(STANDARD_ATMOSPHERE_PA, ZERO_CELSIUS_K + 15.0)?
             .density_kg_m3)
     };
@@ -712,7 +722,10 @@ impl ScenarioFile {
         if self.format != FORMAT {
             return Err(bad("format", format!("expected '{FORMAT}'")));
         }
-        let gas = Gas::from_name(&self.tank.gas)?;
+        let spec = GasSpec::parse(&self.tank.gas).map_err(|e| bad("tank.gas", e.to_string()))?;
+        // Registers a mixture's composition for the physics and the gauge.
+        let fluid = Fluid::of(&spec);
+        let gas = fluid.gas();
         let duration = duration_s(&self.duration, "duration")?;
         if duration <= 0.0 || duration > 2.0 * 366.0 * 86_400.0 {
             return Err(bad("duration", "must be above 0 and at most two years"));

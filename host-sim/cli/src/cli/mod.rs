@@ -4,6 +4,7 @@
 mod budget;
 mod content;
 mod demo;
+pub mod gas;
 mod listen;
 mod model;
 mod props;
