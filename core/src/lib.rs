@@ -51,6 +51,7 @@ pub mod content;
 pub mod curve;
 pub mod envelope;
 mod error;
+pub mod field;
 pub mod fx;
 pub mod fxmath;
 mod gas;

@@ -12,6 +12,7 @@ use super::{
 use crate::checksum::crc32c;
 use crate::content::{fixed, float};
 use crate::curve::{CurveBuf, Piece};
+use crate::field::FieldConfig;
 use crate::model::device::{DeviceModel, Table, TableBuf, builtin};
 use crate::sensor::calibration::{CalibrationRecord, Channel};
 use crate::sensor::channel::fixed::{
@@ -43,6 +44,9 @@ pub struct GaugeConfig {
     /// Plausibility checks of the readings (range, rate of change, stuck
     /// value); `None`: no checks beyond the front-ends' own.
     pub plausibility: Option<Plausibility>,
+    /// The serial line (Modbus address, baud rate, parity, protocol on a
+    /// one-UART board) and the 4–20 mA output.
+    pub field: FieldConfig,
 }
 
 /// The plausibility checks of both channels.
@@ -83,6 +87,7 @@ impl GaugeConfig {
             barometric_pa: STANDARD_ATMOSPHERE,
             model: None,
             plausibility: None,
+            field: FieldConfig::default(),
         }
     }
 
@@ -99,6 +104,7 @@ impl GaugeConfig {
             p.pressure.validate()?;
             p.temperature.validate()?;
         }
+        self.field.validate()?;
         if let Some(t) = &self.model {
             t.table().validate()?;
             if t.gas != self.setup.gas {
@@ -301,6 +307,7 @@ impl PreparedBuf {
             estimator: est.parts(),
             track: cfg.track,
             source,
+            field: cfg.field.prepare()?,
         };
         let buf = assemble(&scalars, &arrays.bytes)?;
         // What the device will check, checked here.

@@ -196,6 +196,7 @@ impl GaugeConfig {
                 pressure: self.pressure_plausibility,
                 temperature: self.temperature_plausibility,
             }),
+            field: Default::default(),
         })
     }
 }
