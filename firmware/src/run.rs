@@ -121,9 +121,14 @@ pub fn run<B: Board>(board: B, gauge: &'static mut Option<BoardGauge<B>>) -> ! {
             #[cfg(feature = "modbus")]
             if shared {
                 let span = arrival(now_us, serial.rx_stamps());
+                let frames = server.counters().checked;
                 gauge.modbus_span(&mut server, now, span, bytes, &mut |b| {
                     let _ = serial.write_all(b);
                 });
+                if server.counters().checked != frames {
+                    // The bytes before these were a Modbus frame.
+                    gauge.discard_partial_frame();
+                }
             }
             let mut io = Io {
                 serial: &mut serial,
@@ -153,9 +158,17 @@ pub fn run<B: Board>(board: B, gauge: &'static mut Option<BoardGauge<B>>) -> ! {
                 Some(f) => gauge.modbus(&mut server, now, now_us, &[], &mut |b| {
                     let _ = f.write_all(b);
                 }),
-                None => gauge.modbus(&mut server, now, now_us, &[], &mut |b| {
-                    let _ = serial.write_all(b);
-                }),
+                None => {
+                    let frames = server.counters().checked;
+                    gauge.modbus(&mut server, now, now_us, &[], &mut |b| {
+                        let _ = serial.write_all(b);
+                    });
+                    if server.counters().checked != frames {
+                        // What the link's accumulator holds was that frame.
+                        gauge.discard_partial_frame();
+                    }
+                    false
+                }
             };
         }
         if let Some(raw) = sensors.poll(now) {
@@ -215,11 +228,16 @@ fn apply<B: Board>(
 
 /// The first and last arrival times (µs) of the bytes taken, from the
 /// ring's 32-bit stamps (read just after the take: a byte arriving in
-/// between only makes the silence end later) and the loop's time.
+/// between only makes the silence end later) and the loop's time. A stamp
+/// may lie before or after `now_us` (bytes arrive while the loop runs):
+/// the signed 32-bit difference places it either way.
 #[cfg(feature = "modbus")]
 fn arrival(now_us: u64, (first, last): (u32, u32)) -> (u64, u64) {
-    let back = |stamp: u32| now_us.saturating_sub(u64::from((now_us as u32).wrapping_sub(stamp)));
-    (back(first), back(last))
+    let at = |stamp: u32| {
+        let d = i64::from(stamp.wrapping_sub(now_us as u32) as i32);
+        now_us.saturating_add_signed(d)
+    };
+    (at(first), at(last))
 }
 
 /// Builds the gauge into its static slot (the core's start-up sequence):

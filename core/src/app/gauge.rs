@@ -518,6 +518,13 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         self.loop_current
     }
 
+    /// Drops the bytes of an unfinished link frame (a one-UART board on a
+    /// Modbus line: after a Modbus frame, what the link's accumulator holds
+    /// is that frame, not the start of a link frame).
+    pub fn discard_partial_frame(&mut self) {
+        self.acc.reset();
+    }
+
     /// Quiet: no telemetry or alarm frame is sent unasked (a one-UART board
     /// on a Modbus line); requests are still answered.
     pub fn set_quiet(&mut self, quiet: bool) {

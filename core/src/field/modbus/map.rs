@@ -193,7 +193,8 @@ impl Snapshot {
             sequence: 0,
             sample_at_ms: None,
             acknowledged: 0,
-            loop_current: 0,
+            // No estimate yet: the output signals failure.
+            loop_current: crate::field::current_loop::FAILURE_LOW.to_bits(),
         }
     }
 

@@ -100,6 +100,8 @@ pub fn crc16(mut crc: u16, data: &[u8]) -> u16 {
 /// Counters of what the server saw.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 pub struct Counters {
+    /// Frames whose CRC checked, for any address.
+    pub checked: u32,
     /// Frames checked and addressed to this server (or broadcast).
     pub frames: u32,
     /// Frames dropped: bad CRC, too short or too long, broken by a pause.
@@ -174,6 +176,7 @@ impl Server {
             last_us: 0,
             broken: false,
             counters: Counters {
+                checked: 0,
                 frames: 0,
                 bad_frames: 0,
                 exceptions: 0,
@@ -265,6 +268,7 @@ impl Server {
             self.counters.bad_frames = self.counters.bad_frames.wrapping_add(1);
             return false;
         }
+        self.counters.checked = self.counters.checked.wrapping_add(1);
         let addr = self.head.first().copied().unwrap_or(0);
         if addr != 0 && addr != self.address {
             return false;

@@ -4,7 +4,9 @@
 mod budget;
 mod content;
 mod demo;
+mod emulate;
 mod listen;
+mod modbus;
 mod model;
 mod props;
 mod send;
@@ -38,6 +40,12 @@ pub enum Command {
     Listen(listen::ListenArgs),
     /// Send a request or a signed command to a device.
     Send(send::SendArgs),
+    /// Read a gauge's Modbus RTU registers (decoded), acknowledge alarms,
+    /// read its identification.
+    Modbus(modbus::ModbusArgs),
+    /// Run the reference firmware in QEMU with its serial ports on local
+    /// TCP ports, until stopped: an emulated gauge any client can talk to.
+    Emulate(emulate::EmulateArgs),
     /// Sensor front-ends: convert single values both ways, fit a calibration,
     /// read back a calibration record.
     Sensor(sensor::SensorArgs),
@@ -82,6 +90,8 @@ pub fn run(cli: Cli) -> Result<String, crate::Error> {
         Command::Content(args) => content::run(&args),
         Command::Listen(args) => listen::run(&args),
         Command::Send(args) => send::run(&args),
+        Command::Modbus(args) => modbus::run(&args),
+        Command::Emulate(args) => emulate::run(&args),
         Command::Sensor(args) => sensor::run(&args),
         Command::Props(args) => props::run(&args),
         Command::Model(args) => model::run(&args),
