@@ -187,11 +187,25 @@ impl<T: Transport> RtuClient<T> {
     }
 
     /// Sends a request PDU and returns the reply PDU; `expected` tells the
-    /// reply's length from what has arrived (`None`: not known yet).
+    /// reply's length from what has arrived (`None`: not known yet). A
+    /// request nothing at all answers is sent once more (masters retry;
+    /// an emulator's socket may also drop the first bytes after a
+    /// connection).
     fn exchange(
         &mut self,
         pdu: &[u8],
         expected: impl Fn(&[u8]) -> Option<usize>,
+    ) -> Result<Vec<u8>, Error> {
+        match self.exchange_once(pdu, &expected) {
+            Err(Error::Link(m)) if m.contains("(0 bytes)") => self.exchange_once(pdu, &expected),
+            r => r,
+        }
+    }
+
+    fn exchange_once(
+        &mut self,
+        pdu: &[u8],
+        expected: &impl Fn(&[u8]) -> Option<usize>,
     ) -> Result<Vec<u8>, Error> {
         let mut frame = vec![self.address];
         frame.extend_from_slice(pdu);
