@@ -144,7 +144,7 @@ impl Curve<'_> {
         let Some((lo, hi)) = self.domain() else {
             return 0;
         };
-        let x = x.clamp(lo, hi);
+        let x = x.max(lo).min(hi);
         let k = self.pieces.partition_point(|p| p.x <= x).saturating_sub(1);
         let Some(p) = self.pieces.get(k) else {
             return 0;
@@ -168,7 +168,7 @@ impl Curve<'_> {
         let Some((lo, hi)) = self.domain() else {
             return 0.0;
         };
-        let x = x.clamp(lo, hi);
+        let x = x.max(lo).min(hi);
         let k = self.pieces.partition_point(|p| p.x <= x).saturating_sub(1);
         let Some(p) = self.pieces.get(k) else {
             return 0.0;

@@ -49,6 +49,7 @@ pub mod checksum;
 pub mod constants;
 pub mod content;
 pub mod curve;
+pub mod encode;
 pub mod envelope;
 mod error;
 pub mod field;

@@ -596,3 +596,30 @@ fn every_single_bit_flip_in_1000_frames_is_detected() {
     println!("bit flips: {frames} frames, {flips} single-bit flips, {flips} detected");
     assert!(frames >= 1000);
 }
+
+proptest! {
+    // The link's COBS decoder against the `cobs` crate's: the same verdict
+    // and the same bytes for any input, valid frames and noise alike.
+    #[test]
+    fn cobs_decoder_agrees_with_the_cobs_crate(
+        data in vec(any::<u8>(), 0..300),
+        noise in vec(any::<u8>(), 0..300),
+    ) {
+        let mut frame = vec![0u8; cobs::max_encoding_length(data.len())];
+        let n = cobs::encode(&data, &mut frame);
+        frame.truncate(n);
+        let mut ours = frame.clone();
+        prop_assert_eq!(link::cobs_decode_in_place(&mut ours), Some(data.len()));
+        prop_assert_eq!(&ours[..data.len()], &data[..]);
+        for input in [frame, noise] {
+            let mut ours = input.clone();
+            let mut theirs = input.clone();
+            let a = link::cobs_decode_in_place(&mut ours);
+            let b = cobs::decode_in_place(&mut theirs).ok();
+            prop_assert_eq!(a, b);
+            if let Some(n) = a {
+                prop_assert_eq!(&ours[..n], &theirs[..n]);
+            }
+        }
+    }
+}

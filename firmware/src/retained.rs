@@ -111,9 +111,7 @@ impl Retained {
             return None;
         }
         let mut file = [0u8; FAULT_FILE_MAX_LEN];
-        for (i, word) in w[5..5 + FILE_WORDS].iter().enumerate() {
-            file[4 * i..4 * i + 4].copy_from_slice(&word.to_le_bytes());
-        }
+        put_words(&mut file, &w[5..5 + FILE_WORDS]);
         Some(Retained {
             reason: reason_of(w[1])?,
             boots: w[2],
@@ -136,10 +134,20 @@ impl Retained {
 
 fn bytes(w: &[u32]) -> [u8; 4 * (WORDS - 1)] {
     let mut out = [0u8; 4 * (WORDS - 1)];
-    for (d, s) in out.chunks_exact_mut(4).zip(w) {
-        d.copy_from_slice(&s.to_le_bytes());
-    }
+    put_words(&mut out, w);
     out
+}
+
+/// Writes `w` little-endian into `out` as far as it reaches (checked
+/// look-ups: no panic path).
+fn put_words(out: &mut [u8], w: &[u32]) {
+    for (i, s) in w.iter().enumerate() {
+        for (k, x) in s.to_le_bytes().into_iter().enumerate() {
+            if let Some(b) = out.get_mut(4 * i + k) {
+                *b = x;
+            }
+        }
+    }
 }
 
 /// At a start: the report of what the memory kept (`hardware` is the

@@ -142,7 +142,11 @@ pub fn compare_at<MF, MX>(
     // The over-fill flag is a threshold on the fill fraction: within the
     // paths' difference of its limit either answer is right.
     let near_over_fill = (b.fill_fraction / OVER_FILL_FRACTION - 1.0).abs() < 1e-5;
-    let ignore = if near_over_fill {
+    // Outside the envelope the content is not valid and over-fill is not
+    // judged: where the paths differ on an edge (the float path rounds the
+    // fixed-point input), they may differ on over-fill too.
+    let edge_differs = (a.status & BOUNDARY_FLAGS) != (b.status & BOUNDARY_FLAGS);
+    let ignore = if near_over_fill || edge_differs {
         BOUNDARY_FLAGS | Status::OVER_FILL
     } else {
         BOUNDARY_FLAGS

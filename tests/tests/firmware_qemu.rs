@@ -39,6 +39,14 @@ fn main() -> ExitCode {
             "sim_on_the_firmware_scores_like_the_fixed_core",
             sim_on_the_firmware_scores_like_the_fixed_core,
         ),
+        needs_qemu(
+            "minimal_integration_matches_the_host",
+            minimal_integration_matches_the_host,
+        ),
+        needs_qemu(
+            "without_signed_config_signed_commands_are_unsupported",
+            without_signed_config_signed_commands_are_unsupported,
+        ),
     ];
     libtest_mimic::run(&args, trials).exit_code()
 }
@@ -294,4 +302,130 @@ fn sim_on_the_firmware_scores_like_the_fixed_core() {
     ));
     assert!(close(f.uncertainty_coverage, c.uncertainty_coverage, 0.01));
     assert_eq!(f.false_alarms, c.false_alarms);
+}
+
+/// The codes of sample `i` of the minimal firmware's invented bench sweep
+/// (the same formula as `codes` in `firmware/src/bin/minimal.rs`).
+fn minimal_codes(i: u32) -> RawSample {
+    let noise = (i.wrapping_mul(2_654_435_761) >> 28) as i32 - 8;
+    let p = 2_097_152 - (i * 27) as i32 + noise;
+    let t = 4_498_717 + ((i * 37) % 97) as i32 * 17 - 800;
+    RawSample {
+        pressure: (p as u32) & 0x00FF_FFFF,
+        temperature: t as u32,
+    }
+}
+
+/// The minimal integration (`firmware/src/bin/minimal.rs`: codes to content
+/// and telemetry, nothing else) on the Cortex-M0 board: every frame equals
+/// the host's fixed-point chain on the same codes and configuration bit for
+/// bit, and the host's f64 chain within the fixed-point bounds.
+fn minimal_integration_matches_the_host() {
+    use isochor_core::content::fixed::Estimator;
+    use isochor_core::prepared::PreparedModel;
+    use isochor_core::sensor::VALUE_INVALID;
+    use isochor_core::sensor::channel::fixed::{PressureChannel, TemperatureChannel};
+
+    const SAMPLES: u32 = 120;
+    let board = Board::Microbit;
+    let dir = firmware::default_firmware_dir();
+    let elf = firmware::build(&dir, &Build::standard(board), &["minimal"]).unwrap();
+    let q = Qemu::start(board, &elf, None, Duration::from_secs(120)).unwrap();
+    let mut c = Client::new(q.connection().unwrap(), Duration::from_secs(5));
+    let mut frames = Vec::new();
+    for _ in 0..100 {
+        c.collect(Duration::from_millis(100)).unwrap();
+        frames.extend(c.take_unsolicited().into_iter().filter_map(|m| match m {
+            FromDevice::Telemetry(t) => Some(t),
+            _ => None,
+        }));
+        if frames.len() >= SAMPLES as usize {
+            break;
+        }
+    }
+    assert_eq!(frames.len(), SAMPLES as usize, "frames received");
+
+    // The host: the same committed configuration, fixed point and f64.
+    let blob = std::fs::read(dir.join("data/nominal.izpc")).unwrap();
+    let buf = isochor_core::prepared::PreparedBuf::from_bytes(&blob).unwrap();
+    let prepared = buf.prepared().unwrap();
+    let model = PreparedModel::new(&prepared).unwrap();
+    let est = Estimator::from_parts(prepared.scalars().estimator, model).unwrap();
+    let config = prepared.source_config().unwrap();
+    let device_model = DeviceModel::new(config.table().unwrap()).unwrap();
+    let mut reference =
+        float::Pipeline::<f64, _>::new(&config, &device_model, Zero::default()).unwrap();
+    let temperature = TemperatureChannel { offset: 0 };
+    let mut pressure = PressureChannel::new(0);
+    let (mut worst_f, mut worst_m) = (0.0f64, 0.0f64);
+    for (i, got) in frames.iter().enumerate() {
+        let i = i as u32;
+        let at = Instant(u64::from(i) * 1000);
+        let raw = minimal_codes(i);
+        assert_eq!(got.seq, i);
+        let t = temperature.read(&prepared.temperature(), raw.temperature);
+        let p = pressure.read(&prepared.pressure(), at, raw.pressure, &t);
+        let flags = p.status | t.status;
+        assert!(!flags.intersects(VALUE_INVALID), "sample {i}: {flags:?}");
+        let mut want = est.estimate(p.pressure_pa, t.temperature_k);
+        want.status |= flags;
+        assert_eq!(
+            *got,
+            isochor_core::app::telemetry::from_content(i, at.as_millis(), &want),
+            "sample {i}: device and host fixed point differ"
+        );
+        let r = reference.convert(at, &raw).unwrap();
+        let f = reference
+            .tracker()
+            .estimator()
+            .estimate(r.pressure.pressure_pa, r.temperature.temperature_k)
+            .unwrap();
+        worst_f = worst_f.max((fx::to_f64(got.fill_fraction()) - f.fill_fraction).abs());
+        worst_m = worst_m.max((fx::to_f64(got.mass()) - f.mass_kg).abs() / f.mass_kg);
+    }
+    println!("minimal: {SAMPLES} frames, worst |ΔF| {worst_f:.2e}, worst mass {worst_m:.2e}");
+    // The bound of the full chain's end-to-end test above (1e-5), which
+    // the content stage alone stays within.
+    assert!(worst_f < 1e-5, "{worst_f}");
+    assert!(worst_m < 1e-5, "{worst_m}");
+    assert!(!q.expired(), "the run took longer than its limit");
+}
+
+/// The firmware built without its feature `signed-config` (configuration
+/// written at manufacture): it announces no signed configuration, refuses
+/// a challenge and every signed command as unsupported, and still answers
+/// its other requests.
+fn without_signed_config_signed_commands_are_unsupported() {
+    use isochor_core::link::capability;
+
+    let board = Board::Microbit;
+    let build = Build::with_features(board, "no-signed-config", &[]);
+    let dir = firmware::default_firmware_dir();
+    let elf = firmware::build(&dir, &build, &["isochor-firmware"]).unwrap();
+    let secret = Secret::new([0x5A; 32]);
+    let q = Qemu::start(
+        board,
+        &elf,
+        Some((SERIAL, &secret)),
+        Duration::from_secs(120),
+    )
+    .unwrap();
+    let mut c = Client::new(q.connection().unwrap(), Duration::from_secs(5)).with_secret(secret);
+    assert!(
+        (0..6).any(|i| c.ping(i).is_ok()),
+        "the firmware does not answer"
+    );
+    let id = c.identity().unwrap();
+    assert_eq!(id.serial, SERIAL);
+    assert_eq!(id.capabilities & capability::SIGNED_CONFIG, 0, "{id:?}");
+    assert_ne!(id.capabilities & capability::TELEMETRY, 0, "{id:?}");
+    let setup = SetupFx::from_f64(&Setup::new(Gas::Nitrogen, Tank::new(0.050, 200e5))).unwrap();
+    match c.configure(&GaugeConfig::nominal(setup), &mut |_, _| {}) {
+        Err(Error::Refused(why)) => assert!(why.contains("does not support"), "{why}"),
+        other => panic!("a configuration write was not refused as unsupported: {other:?}"),
+    }
+    // Nothing changed, and the device still answers.
+    assert_eq!(c.read_config().unwrap().origin, Origin::Default);
+    c.ping(9).unwrap();
+    assert!(!q.expired(), "the run took longer than its limit");
 }

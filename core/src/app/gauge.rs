@@ -2,17 +2,22 @@
 
 use embedded_storage::nor_flash::NorFlash;
 
+#[cfg(feature = "signed-config")]
+use super::Zero;
 use super::fixed::Pipeline;
-use super::service::{LoadStep, Service, config_refusal, refusal};
-use super::{Zero, telemetry};
+#[cfg(feature = "signed-config")]
+use super::service::{LoadStep, config_refusal};
+use super::service::{Service, refusal};
+use super::telemetry;
 use crate::alarm::Events;
 use crate::auth::{Authenticator, NonceSource};
 use crate::field::{FieldScalars, LoopScalars};
 use crate::link::{
-    self, Accumulator, Boot, BootReport, Command, Diagnostics, Feed, FromDevice, Identity,
-    InjectSample, MAX_FRAME_LEN, NONCE_LEN, Outcome, Refusal, Reply, SensorChannel, Signed,
-    ToDevice, capability,
+    self, Accumulator, Boot, BootReport, Diagnostics, Feed, FromDevice, Identity, InjectSample,
+    MAX_FRAME_LEN, NONCE_LEN, Outcome, Refusal, Reply, ToDevice, capability,
 };
+#[cfg(feature = "signed-config")]
+use crate::link::{Command, SensorChannel, Signed};
 use crate::prepared::Prepared;
 use crate::sensor::channel::RawSample;
 use crate::store::{BlobRef, Layout};
@@ -34,8 +39,10 @@ pub trait GaugeIo {
     }
 }
 
+#[cfg(feature = "signed-config")]
 struct IoNonces<'a>(&'a mut dyn GaugeIo);
 
+#[cfg(feature = "signed-config")]
 impl NonceSource for IoNonces<'_> {
     fn fill_nonce(&mut self, out: &mut [u8; NONCE_LEN]) {
         self.0.fill_nonce(out);
@@ -108,7 +115,11 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         boot: BootReport,
     ) -> Result<&mut Gauge<F, M>, Error> {
         identity.capabilities = capability::TELEMETRY
-            | capability::SIGNED_CONFIG
+            | if cfg!(feature = "signed-config") {
+                capability::SIGNED_CONFIG
+            } else {
+                0
+            }
             | capability::ALARMS
             | capability::DIAGNOSTICS
             | capability::TRACKING
@@ -252,6 +263,9 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         self.flush(io);
     }
 
+    // Not inlined: the sample chain's locals then live only during a
+    // sample, not in the frame of every message handler that may take one.
+    #[inline(never)]
     fn take(&mut self, at: Instant, raw: &RawSample) {
         self.samples = self.samples.wrapping_add(1);
         self.last_sample_at = at;
@@ -266,6 +280,11 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         let (tag, outcome) = match msg {
             ToDevice::Ping(p) => (p.tag, Outcome::Pong { token: p.token }),
             ToDevice::GetIdentity(g) => (g.tag, Outcome::Identity(self.service.identity().clone())),
+            #[cfg(not(feature = "signed-config"))]
+            ToDevice::GetChallenge(g) => (g.tag, Outcome::Refused(Refusal::Unsupported)),
+            #[cfg(not(feature = "signed-config"))]
+            ToDevice::Signed(s) => (s.tag, Outcome::Refused(Refusal::Unsupported)),
+            #[cfg(feature = "signed-config")]
             ToDevice::GetChallenge(g) => {
                 let now = self.now;
                 let r = self.service.challenge(now, &mut IoNonces(io));
@@ -285,6 +304,7 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
                     Err(e) => Outcome::Refused(refusal(e)),
                 },
             ),
+            #[cfg(feature = "signed-config")]
             ToDevice::Signed(s) => (s.tag, self.signed(s)),
             ToDevice::InjectSample(i) => (i.tag, self.inject(i)),
             ToDevice::GetDiagnostics(g) => {
@@ -319,6 +339,7 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         Outcome::Taken
     }
 
+    #[cfg(feature = "signed-config")]
     #[inline(never)]
     fn signed(&mut self, s: &Signed) -> Outcome {
         let now = self.now;
@@ -343,6 +364,7 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         }
     }
 
+    #[cfg(feature = "signed-config")]
     fn command(&mut self, c: &Command) -> Result<(), Refusal> {
         match c {
             Command::ConfigChunk {
@@ -369,6 +391,7 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         }
     }
 
+    #[cfg(feature = "signed-config")]
     #[inline(never)]
     fn config_chunk(
         &mut self,
@@ -400,6 +423,7 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         self.rebuild(&blob).map_err(refusal)
     }
 
+    #[cfg(feature = "signed-config")]
     fn zero(&mut self, channel: SensorChannel) -> Result<(), Refusal> {
         let Some(p) = &self.pipeline else {
             return Err(Refusal::NotAtZero {
@@ -425,6 +449,7 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         self.set_zero(z)
     }
 
+    #[cfg(feature = "signed-config")]
     fn set_zero(&mut self, z: Zero) -> Result<(), Refusal> {
         let blob = self.service.config().value.blob;
         self.service.commit(blob, z).map_err(refusal)?;

@@ -833,7 +833,7 @@ fn clamp_inputs(p: fx::Pressure, t: fx::Temperature) -> (u32, u32, Status) {
     if t < lo || t > hi {
         status |= Status::TEMPERATURE_OUTSIDE_ENVELOPE;
     }
-    (p, t.clamp(lo, hi), status)
+    (p, t.max(lo).min(hi), status)
 }
 
 #[cfg(test)]

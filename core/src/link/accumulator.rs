@@ -98,6 +98,9 @@ impl<M: Wire> Accumulator<M> {
     }
 
     /// Takes bytes until a frame ends or the input is used up.
+    // Not inlined: the decoder's temporaries stay out of the caller's frame
+    // while the decoded message is handled.
+    #[inline(never)]
     pub fn feed<'a>(&mut self, input: &'a [u8]) -> Feed<'a, M> {
         let mut rest = input;
         loop {
@@ -105,8 +108,8 @@ impl<M: Wire> Accumulator<M> {
                 self.take(rest);
                 return Feed::NeedMore;
             };
-            let (part, after) = rest.split_at(end);
-            let after = after.get(1..).unwrap_or(&[]);
+            let part = rest.get(..end).unwrap_or(&[]);
+            let after = rest.get(end + 1..).unwrap_or(&[]);
             self.take(part);
             rest = after;
             if self.overfull {
@@ -142,7 +145,7 @@ impl<M: Wire> Accumulator<M> {
             return;
         }
         if let Some(dst) = self.buf.get_mut(self.len..self.len + bytes.len()) {
-            dst.copy_from_slice(bytes);
+            crate::encode::copy(dst, bytes);
             self.len += bytes.len();
         }
     }

@@ -303,9 +303,10 @@ impl Signed {
     /// The encoding of `command` as a signed message carries it.
     pub fn encode_command(command: &Command) -> Result<Vec<u8, COMMAND_MAX_LEN>, crate::Error> {
         let mut buf = [0u8; COMMAND_MAX_LEN];
-        let used =
-            postcard::to_slice(command, &mut buf).map_err(|_| crate::Error::BufferTooSmall)?;
-        Vec::from_slice(used).map_err(|_| crate::Error::BufferTooSmall)
+        let n =
+            crate::encode::to_slice(command, &mut buf).map_err(|_| crate::Error::BufferTooSmall)?;
+        Vec::from_slice(buf.get(..n).ok_or(crate::Error::BufferTooSmall)?)
+            .map_err(|_| crate::Error::BufferTooSmall)
     }
 
     /// The command (whole encoding, nothing left over).

@@ -85,7 +85,7 @@ macro_rules! family {
 
             fn encode_body(&self, out: &mut [u8]) -> Result<usize, Error> {
                 let used = match self {
-                    $( $family::$variant(m) => postcard::to_slice(m, out).map(|s| s.len()), )*
+                    $( $family::$variant(m) => crate::encode::to_slice(m, out), )*
                 };
                 used.map_err(|_| Error::BufferTooSmall)
             }
@@ -229,9 +229,11 @@ pub fn encode_payload<M: Wire>(msg: &M, out: &mut [u8]) -> Result<usize, Error> 
     let body_len = msg.encode_body(rest)?;
     let crc_at = HEADER_LEN + body_len;
     let crc = crc32c(out.get(..crc_at).ok_or(Error::BufferTooSmall)?);
-    out.get_mut(crc_at..crc_at + CRC_LEN)
-        .ok_or(Error::BufferTooSmall)?
-        .copy_from_slice(&crc.to_le_bytes());
+    crate::encode::copy(
+        out.get_mut(crc_at..crc_at + CRC_LEN)
+            .ok_or(Error::BufferTooSmall)?,
+        &crc.to_le_bytes(),
+    );
     Ok(crc_at + CRC_LEN)
 }
 
@@ -252,10 +254,11 @@ pub fn decode_payload<M: Wire>(payload: &[u8]) -> Result<M, Error> {
     if payload.len() < HEADER_LEN + CRC_LEN || payload.len() > MAX_PAYLOAD_LEN {
         return Err(Error::FrameLength);
     }
-    let (covered, crc) = payload
-        .split_last_chunk::<CRC_LEN>()
-        .ok_or(Error::FrameLength)?;
-    if crc32c(covered) != u32::from_le_bytes(*crc) {
+    let at = payload.len() - CRC_LEN;
+    let (Some(covered), Some(&[c0, c1, c2, c3])) = (payload.get(..at), payload.get(at..)) else {
+        return Err(Error::FrameLength);
+    };
+    if crc32c(covered) != u32::from_le_bytes([c0, c1, c2, c3]) {
         return Err(Error::FrameCrc);
     }
     let ([version, code], body) = covered
@@ -282,8 +285,40 @@ pub fn decode_in_place<M: Wire>(frame: &mut [u8]) -> Result<M, Error> {
     if body.contains(&0) {
         return Err(Error::FrameEncoding);
     }
-    let n = cobs::decode_in_place(body).map_err(|_| Error::FrameEncoding)?;
+    let n = cobs_decode_in_place(body).ok_or(Error::FrameEncoding)?;
     decode_payload(body.get(..n).ok_or(Error::FrameEncoding)?)
+}
+
+/// Removes COBS (Consistent Overhead Byte Stuffing, Cheshire & Baker,
+/// IEEE/ACM Trans. Networking 7(2), 1999) from `buf` in place, up to its
+/// first 0x00 if any; returns the decoded length, or `None` for a frame that
+/// is not valid COBS. Every byte is reached by a checked look-up: no panic
+/// path (the `cobs` crate's decoder indexes directly). Tested against the
+/// `cobs` crate.
+pub fn cobs_decode_in_place(buf: &mut [u8]) -> Option<usize> {
+    if buf.is_empty() {
+        return None;
+    }
+    let end = buf.iter().position(|&b| b == 0).unwrap_or(buf.len());
+    let (mut src, mut dst) = (0usize, 0usize);
+    while src < end {
+        let code = usize::from(*buf.get(src)?);
+        if src + code > end && code != 1 {
+            return None;
+        }
+        src += 1;
+        for _ in 1..code {
+            let b = *buf.get(src)?;
+            *buf.get_mut(dst)? = b;
+            src += 1;
+            dst += 1;
+        }
+        if code != 0xFF && src < end {
+            *buf.get_mut(dst)? = 0;
+            dst += 1;
+        }
+    }
+    Some(dst)
 }
 
 /// Decodes one frame (copied first; see [`decode_in_place`]).

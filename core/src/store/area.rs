@@ -291,9 +291,7 @@ impl RecordArea {
         let data = image
             .get_mut(header_span..header_span + MAX_RECORD_LEN)
             .ok_or(Error::RecordTooLarge)?;
-        let len = postcard::to_slice(value, data)
-            .map_err(|_| Error::RecordTooLarge)?
-            .len();
+        let len = crate::encode::to_slice(value, data).map_err(|_| Error::RecordTooLarge)?;
         let dcrc = crc32c(data.get(..len).ok_or(Error::RecordTooLarge)?);
 
         let [s0, s1] = [0, 1].map(|bank| self.scan_bank(flash, bank, unit, &mut |_, _, _| {}));

@@ -59,6 +59,7 @@ mod area;
 mod blob;
 mod layout;
 mod records;
+#[cfg(any(test, feature = "sim-flash"))]
 pub mod sim;
 
 pub use area::{Loaded, RecordArea};
@@ -153,8 +154,9 @@ pub trait Record: Serialize + DeserializeOwned + MaxSize + Sized {
 pub fn encode_record<R: Record>(value: &R) -> Result<heapless::Vec<u8, MAX_RECORD_LEN>, Error> {
     value.validate()?;
     let mut buf = [0u8; MAX_RECORD_LEN];
-    let used = postcard::to_slice(value, &mut buf).map_err(|_| Error::RecordTooLarge)?;
-    heapless::Vec::from_slice(used).map_err(|_| Error::RecordTooLarge)
+    let n = crate::encode::to_slice(value, &mut buf).map_err(|_| Error::RecordTooLarge)?;
+    heapless::Vec::from_slice(buf.get(..n).ok_or(Error::RecordTooLarge)?)
+        .map_err(|_| Error::RecordTooLarge)
 }
 
 /// Decodes a record sent as `version` (must be [`Record::VERSION`]) from its

@@ -384,7 +384,9 @@ impl<M: CompressibilityFx> Tracker<M> {
                 .recip()
                 .ok_or(Error::ModelUnusable("rated condition"))?,
         );
-        let blocks_per_hour = (HOUR_MS / cfg.block.0) as u32;
+        let blocks_per_hour = HOUR_MS
+            .checked_div(cfg.block.0)
+            .ok_or(Error::OutOfRange("tracking block"))? as u32;
         let declared24 = match cfg.declared_draw_kg_h {
             Some(d) => {
                 // kg/h × 24 h / rated mass = fraction per day; × 24 for the
@@ -812,7 +814,13 @@ impl<M: CompressibilityFx> Tracker<M> {
         });
         self.tte = if per_h > 0 && left > 0 {
             // left < 2^41 (Q36, ≤ 16 + margin), × 3.6e6 < 2^63.
-            let ms = |rate: i64| Millis((left.min(1 << 41) * HOUR_MS as i64 / rate) as u64);
+            let ms = |rate: i64| {
+                Millis(
+                    (left.min(1 << 41) * HOUR_MS as i64)
+                        .checked_div(rate)
+                        .map_or(u64::MAX, |v| v as u64),
+                )
+            };
             // The bounds: left/(rate ± U) with U the rate spread of the
             // time to empty's own budget (k = 2).
             let u_t = budget
@@ -876,7 +884,10 @@ impl<M: CompressibilityFx> Tracker<M> {
             return;
         }
         let bph = self.blocks_per_hour as u64;
-        let hour = ((self.hour_sum + bph / 2) / bph).min(u32::MAX as u64) as u32;
+        let hour = (self.hour_sum + bph / 2)
+            .checked_div(bph)
+            .unwrap_or(0)
+            .min(u32::MAX as u64) as u32;
         self.hour_sum = 0;
         self.hour_blocks = 0;
         self.day_ring.rotate_left(1);
@@ -923,7 +934,8 @@ impl<M: CompressibilityFx> Tracker<M> {
                 ((v as i128) << 32)
                     .checked_div(older as i128)
                     .unwrap_or(0)
-                    .clamp(i64::MIN as i128, i64::MAX as i128) as i64
+                    .max(i64::MIN as i128)
+                    .min(i64::MAX as i128) as i64
             } else {
                 0
             }
@@ -1007,7 +1019,7 @@ impl<M: CompressibilityFx> Tracker<M> {
     /// d = 2i − (m − 1) = 2(i − ī) and
     /// q = 3d² − (m² − 1) = 12((i − ī)² − (m² − 1)/12).
     fn temperature_fit(&self, n: usize, m: usize) -> TemperatureFit {
-        let m = m.clamp(n, TEMPERATURE_WINDOW);
+        let m = m.max(n).min(TEMPERATURE_WINDOW);
         let ts = self.t_ring.iter().skip(TEMPERATURE_WINDOW - m);
         let ni = m as i64;
         let sum: u64 = ts.clone().map(|&t| t as u64).sum();
@@ -1064,7 +1076,7 @@ fn coef_mul(c: Coef, v: i64, v_frac: u32, out_frac: u32) -> i64 {
     } else {
         prod << shift.unsigned_abs().min(60)
     };
-    r.clamp(i64::MIN as i128, i64::MAX as i128) as i64
+    r.max(i64::MIN as i128).min(i64::MAX as i128) as i64
 }
 
 /// `num/den` in Q32 for `num < den` (rounded down), without a 128-bit division.

@@ -330,7 +330,7 @@ impl EvaluatorFx {
         let u_frac = isqrt(common + 2 * sq(k.model));
         let (mass, _) = self.rated_mass.scale(u_mass.saturating_mul(2), Q, 40);
         let c_i8f24 =
-            |v: i128| I8F24::from_bits((v >> 6).clamp(i32::MIN as i128, i32::MAX as i128) as i32);
+            |v: i128| I8F24::from_bits((v >> 6).max(i32::MIN as i128).min(i32::MAX as i128) as i32);
         UncertaintyFx {
             mass_kg: fx::Mass::from_bits(mass),
             fill_fraction: fx::Fraction::from_bits((u_frac as u64) << 5),

@@ -156,7 +156,9 @@ impl RxRing {
             return;
         }
         // SAFETY: see the `Sync` impl: slot `head` belongs to the producer.
-        unsafe { (*self.buf.get())[head] = b };
+        // `% RING` keeps the index in range without a bounds check (the
+        // indices are always below RING; this spells it for the compiler).
+        unsafe { (*self.buf.get())[head % RING] = b };
         self.head.store(next, Ordering::Release);
     }
 
@@ -175,7 +177,7 @@ impl RxRing {
                 break;
             }
             // SAFETY: slots from tail to head were published by the producer.
-            *slot = unsafe { (*self.buf.get())[tail] };
+            *slot = unsafe { (*self.buf.get())[tail % RING] };
             tail = (tail + 1) % RING;
             n += 1;
         }

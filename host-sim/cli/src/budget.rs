@@ -363,7 +363,7 @@ pub fn measure(firmware_dir: &Path) -> Result<Budget, Error> {
     let builds = [
         Build::standard(Board::Microbit),
         Build::standard(Board::Mps2An386),
-        Build::with_features(Board::Microbit, "no-modbus", &[]),
+        Build::with_features(Board::Microbit, "no-modbus", &["signed-config"]),
     ];
     let mut m0: Option<ProgramOutput> = None;
     let mut rows = Vec::new();

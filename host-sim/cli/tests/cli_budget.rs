@@ -143,6 +143,13 @@ fn budget_reports_every_figure_positive_and_consistent() {
         assert!(b["panic_symbols"].is_array(), "{b}");
     }
     assert_eq!(v["flash_by_module"], builds[0]["flash_by_module"]);
+    // The Cortex-M0 image links no panic path (the footprint goal: bounds
+    // checks, divisions and unwraps are all proven or checked by hand).
+    assert_eq!(
+        builds[0]["panic_symbols"],
+        serde_json::json!([]),
+        "panic paths in the Cortex-M0 image"
+    );
 
     // Every stage of the chain has a figure; the estimate's stages add up
     // to the estimate within the cost of the marks (a few tens of

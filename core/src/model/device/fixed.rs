@@ -93,7 +93,7 @@ fn prepare_span(knots: &[u32], k: usize, raw_per_unit: u64) -> Result<Span, Erro
         return Err(Error::ModelData("knots"));
     }
     let ext = |i: isize| -> u64 {
-        let j = i.clamp(0, n as isize) as usize;
+        let j = i.max(0).min(n as isize) as usize;
         knots.get(j).copied().unwrap_or(0) as u64
     };
     let k = k as isize;
@@ -107,7 +107,9 @@ fn prepare_span(knots: &[u32], k: usize, raw_per_unit: u64) -> Result<Span, Erro
     }
     let hs = h >> shift;
     // Rounded: hs·inv ≤ 2^31 + hs/2, so d·inv below still fits 32 bits.
-    let inv = (((1u64 << 31) + hs / 2) / hs) as u32;
+    let inv = ((1u64 << 31) + hs / 2)
+        .checked_div(hs)
+        .ok_or(Error::ModelData("knots"))? as u32;
     let frac = |j: isize, d: isize| {
         let den = ext(j + d).saturating_sub(ext(j));
         Frac::new(q16(tk.saturating_sub(ext(j)), den), q16(h, den))

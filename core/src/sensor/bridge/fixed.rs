@@ -116,7 +116,7 @@ impl Bridge {
     /// `s` at 2^-31; a code at a rail saturates.
     fn signal(&self, code: i32) -> (i64, Status) {
         let (lo, hi) = self.rails;
-        let c = code.clamp(lo, hi);
+        let c = code.max(lo).min(hi);
         let status = if code <= lo || code >= hi {
             Status::SENSOR_SATURATED
         } else {

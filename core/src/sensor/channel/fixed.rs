@@ -286,7 +286,7 @@ impl TemperatureStage<'_> {
     fn convert(&self, code: u32) -> (i64, Status) {
         let c = code.min(self.full);
         let status = self.status.at(c as i32);
-        let v = self.curve.eval(c.clamp(self.lo, self.hi) as i32);
+        let v = self.curve.eval(c.max(self.lo).min(self.hi) as i32);
         (v, status)
     }
 
@@ -840,7 +840,7 @@ impl PressureChannel {
                 } else {
                     Status::OK
                 };
-                let sig = (c.clamp(lo, hi) as i64) << s.code_shift.min(30);
+                let sig = (c.max(lo).min(hi) as i64) << s.code_shift.min(30);
                 let d = sig - s.zero.eval(t);
                 let inv = s.inv_span.eval(t);
                 // u = d·inv at 2^-(signal_frac + inv_frac) → Q30.
@@ -854,7 +854,7 @@ impl PressureChannel {
                 let limit = U_LIMIT_Q30 as i64;
                 let u = if u > limit || u < -limit {
                     status |= Status::SENSOR_SATURATED;
-                    u.clamp(-limit, limit)
+                    u.max(-limit).min(limit)
                 } else {
                     u
                 } as i32;
