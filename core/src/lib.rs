@@ -52,6 +52,7 @@ pub mod curve;
 pub mod encode;
 pub mod envelope;
 mod error;
+pub mod field;
 pub mod fx;
 pub mod fxmath;
 mod gas;

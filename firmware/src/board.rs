@@ -4,7 +4,8 @@
 //! | trait | what | reference boards |
 //! |---|---|---|
 //! | [`Board`] | bundles the parts below, the storage layout and the memory map of the store | `microbit`, `mps2-an386` |
-//! | serial: `embedded_io::{Read, ReadReady, Write}` | the host link, 8N1 | UART0 of each board |
+//! | serial: [`FieldSerial`] (`embedded_io::{Read, ReadReady, Write}`) | the host link, 8N1 (on a one-UART board also the Modbus line when configured so) | UART0 of each board |
+//! | field: [`FieldSerial`] | the Modbus RTU line on boards with a second UART | UART1 of `mps2-an386`; none on the `microbit` |
 //! | flash: `embedded_storage::nor_flash::NorFlash` | the configuration record and the prepared-configuration slots | nRF51 NVMC; RAM-backed NOR on `mps2-an386` |
 //! | [`SampleSource`] | raw converter codes (or none: injected samples) | [`crate::adc::AdcSampler`] over an `embedded_hal::spi::SpiDevice`; in emulation none |
 //! | [`Clock`] | monotonic milliseconds since start | SysTick |
@@ -16,6 +17,7 @@ use embedded_io::{Read, ReadReady, Write};
 use embedded_storage::nor_flash::NorFlash;
 use isochor_core::Error;
 use isochor_core::auth::{NonceSource, Secret};
+use isochor_core::field::SerialSettings;
 use isochor_core::link::{BootReport, ResetReason};
 use isochor_core::sensor::channel::RawSample;
 use isochor_core::store::Layout;
@@ -45,6 +47,25 @@ impl SampleSource for Injected {
 pub trait Clock {
     /// Milliseconds since the board started; never goes back.
     fn now(&mut self) -> Instant;
+    /// Microseconds since the board started (the Modbus silent intervals
+    /// need better than a millisecond); by default the milliseconds × 1000.
+    fn now_us(&mut self) -> u64 {
+        self.now().0.saturating_mul(1000)
+    }
+}
+
+/// A UART that carries the field protocol (Modbus RTU): it takes the
+/// configured baud rate and parity, and tells when its last byte arrived.
+pub trait FieldSerial: Read + ReadReady + Write {
+    /// Applies the baud rate and parity, as far as the UART supports them
+    /// (each board says what it does not).
+    fn configure(&mut self, settings: &SerialSettings);
+    /// When the first of the bytes waiting and the last received byte
+    /// arrived: low 32 bits of [`Clock::now_us`], stamped by the receive
+    /// interrupt (bytes wait in a ring while the loop is busy; the silent
+    /// intervals are judged by when they arrived, not when they were
+    /// taken). Read before the bytes are taken.
+    fn rx_stamps(&self) -> (u32, u32);
 }
 
 /// The watchdog: once started it resets the board unless fed in time.
@@ -77,7 +98,9 @@ pub trait System {
 /// A board: its parts, its storage layout and the memory map of its store.
 pub trait Board {
     /// The host link.
-    type Serial: Read + ReadReady + Write;
+    type Serial: FieldSerial;
+    /// The Modbus line of a board with a second UART.
+    type Field: FieldSerial;
     /// The flash that keeps the configuration record and the prepared
     /// configurations (offsets from 0).
     type Flash: NorFlash;
@@ -115,6 +138,9 @@ pub trait Board {
 pub struct Parts<B: Board + ?Sized> {
     /// The host link.
     pub serial: B::Serial,
+    /// The Modbus line (`None` on a board with one UART: the link's UART
+    /// serves Modbus when the configuration says so).
+    pub field: Option<B::Field>,
     /// The configuration store.
     pub flash: B::Flash,
     /// The converters.

@@ -59,6 +59,10 @@ unsafe fn DefaultHandler(irqn: i16) {
     if irqn == board::UART0_RX_IRQ as i16 {
         board::uart0_rx_interrupt();
     }
+    #[cfg(target_abi = "eabihf")]
+    if irqn == board::UART1_RX_IRQ as i16 {
+        board::uart1_rx_interrupt();
+    }
     #[cfg(not(target_abi = "eabihf"))]
     if irqn == board::UART0_IRQ as i16 {
         board::uart0_interrupt();

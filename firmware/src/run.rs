@@ -17,7 +17,10 @@ use isochor_core::auth::NonceSource;
 use isochor_core::link::{BootReport, NONCE_LEN, ResetReason};
 use isochor_core::store::{BlobRef, Layout};
 
-use crate::board::{Board, Clock, Parts, SampleSource, System, Watchdog};
+use crate::board::{Board, Clock, FieldSerial, Parts, SampleSource, System, Watchdog};
+#[cfg(feature = "modbus")]
+use isochor_core::field::modbus::Server;
+use isochor_core::field::{Parity, Protocol, SerialSettings};
 
 /// Version reported in the identity and the boot message: the application's
 /// (`isochor-core`'s package version; the host's emulated device reports
@@ -76,6 +79,7 @@ pub fn run<B: Board>(board: B, gauge: &'static mut Option<BoardGauge<B>>) -> ! {
     };
     let Parts {
         mut serial,
+        mut field,
         flash,
         mut sensors,
         mut clock,
@@ -93,22 +97,79 @@ pub fn run<B: Board>(board: B, gauge: &'static mut Option<BoardGauge<B>>) -> ! {
         };
         gauge.start(&mut io);
     }
+    // The field settings in force, applied to the UARTs (a new
+    // configuration may change them: checked after every received piece).
+    let mut settings = gauge.field().serial;
+    apply(&settings, &mut serial, field.as_mut(), gauge);
+    #[cfg(feature = "modbus")]
+    let mut server = Server::new(&settings);
     let mut buf = [0u8; 64];
     loop {
         watchdog.feed();
         let now = clock.now();
+        #[cfg(feature = "modbus")]
+        let now_us = clock.now_us();
         let mut busy = false;
+        // Modbus on the link's UART: a one-UART board configured so.
+        #[cfg(feature = "modbus")]
+        let shared = field.is_none() && settings.protocol == Protocol::Modbus;
         if serial.read_ready().unwrap_or(false)
             && let Ok(n) = serial.read(&mut buf)
             && n > 0
         {
+            let bytes = buf.get(..n).unwrap_or(&[]);
+            #[cfg(feature = "modbus")]
+            if shared {
+                let span = arrival(now_us, serial.rx_stamps());
+                let frames = server.counters().checked;
+                gauge.modbus_span(&mut server, now, span, bytes, &mut |b| {
+                    let _ = serial.write_all(b);
+                });
+                if server.counters().checked != frames {
+                    // The bytes before these were a Modbus frame.
+                    gauge.discard_partial_frame();
+                }
+            }
             let mut io = Io {
                 serial: &mut serial,
                 rng: &mut rng,
                 system: &system,
             };
-            gauge.receive(now, buf.get(..n).unwrap_or(&[]), &mut io);
+            gauge.receive(now, bytes, &mut io);
             busy = true;
+        }
+        #[cfg(feature = "modbus")]
+        if let Some(f) = field.as_mut()
+            && f.read_ready().unwrap_or(false)
+            && let Ok(n) = f.read(&mut buf)
+            && n > 0
+        {
+            let span = arrival(now_us, f.rx_stamps());
+            let bytes = buf.get(..n).unwrap_or(&[]);
+            gauge.modbus_span(&mut server, now, span, bytes, &mut |b| {
+                let _ = f.write_all(b);
+            });
+            busy = true;
+        }
+        // Time passing ends a frame (its t3.5 silence): answered here.
+        #[cfg(feature = "modbus")]
+        if server.busy() {
+            match field.as_mut() {
+                Some(f) => gauge.modbus(&mut server, now, now_us, &[], &mut |b| {
+                    let _ = f.write_all(b);
+                }),
+                None => {
+                    let frames = server.counters().checked;
+                    gauge.modbus(&mut server, now, now_us, &[], &mut |b| {
+                        let _ = serial.write_all(b);
+                    });
+                    if server.counters().checked != frames {
+                        // What the link's accumulator holds was that frame.
+                        gauge.discard_partial_frame();
+                    }
+                    false
+                }
+            };
         }
         if let Some(raw) = sensors.poll(now) {
             let mut io = Io {
@@ -119,6 +180,16 @@ pub fn run<B: Board>(board: B, gauge: &'static mut Option<BoardGauge<B>>) -> ! {
             gauge.sample(now, &raw, &mut io);
             busy = true;
         }
+        if busy {
+            let s = gauge.field().serial;
+            if s != settings {
+                let _ = serial.flush();
+                settings = s;
+                apply(&settings, &mut serial, field.as_mut(), gauge);
+                #[cfg(feature = "modbus")]
+                server.configure(&settings);
+            }
+        }
         if gauge.restart_requested() {
             let _ = serial.flush();
             system.restart(ResetReason::Requested);
@@ -127,6 +198,46 @@ pub fn run<B: Board>(board: B, gauge: &'static mut Option<BoardGauge<B>>) -> ! {
             system.idle();
         }
     }
+}
+
+/// The settings of the isochor link on a UART: 115 200 Bd, 8N1.
+const LINK: SerialSettings = SerialSettings {
+    protocol: Protocol::Link,
+    address: 1,
+    baud: 115_200,
+    parity: Parity::None,
+};
+
+/// Applies the field settings: the Modbus UART takes them; a one-UART
+/// board's UART takes them when the configuration chooses Modbus (the
+/// gauge then sends nothing unasked), the link's own otherwise.
+fn apply<B: Board>(
+    s: &SerialSettings,
+    serial: &mut B::Serial,
+    field: Option<&mut B::Field>,
+    gauge: &mut BoardGauge<B>,
+) {
+    let shared =
+        field.is_none() && s.protocol == Protocol::Modbus && core::cfg!(feature = "modbus");
+    match field {
+        Some(f) => f.configure(s),
+        None => serial.configure(if shared { s } else { &LINK }),
+    }
+    gauge.set_quiet(shared);
+}
+
+/// The first and last arrival times (µs) of the bytes taken, from the
+/// ring's 32-bit stamps (read just after the take: a byte arriving in
+/// between only makes the silence end later) and the loop's time. A stamp
+/// may lie before or after `now_us` (bytes arrive while the loop runs):
+/// the signed 32-bit difference places it either way.
+#[cfg(feature = "modbus")]
+fn arrival(now_us: u64, (first, last): (u32, u32)) -> (u64, u64) {
+    let at = |stamp: u32| {
+        let d = i64::from(stamp.wrapping_sub(now_us as u32) as i32);
+        now_us.saturating_add_signed(d)
+    };
+    (at(first), at(last))
 }
 
 /// Builds the gauge into its static slot (the core's start-up sequence):

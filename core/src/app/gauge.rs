@@ -11,6 +11,7 @@ use super::service::{Service, refusal};
 use super::telemetry;
 use crate::alarm::Events;
 use crate::auth::{Authenticator, NonceSource};
+use crate::field::{FieldScalars, LoopScalars};
 use crate::link::{
     self, Accumulator, Boot, BootReport, Diagnostics, Feed, FromDevice, Identity, InjectSample,
     MAX_FRAME_LEN, NONCE_LEN, Outcome, Refusal, Reply, ToDevice, capability,
@@ -88,6 +89,10 @@ pub struct Gauge<F, M: Mapper<F>> {
     telemetry_seq: u32,
     event_seq: u32,
     pending: Pending,
+    quiet: bool,
+    loop_current: fx::Milliamps,
+    #[cfg(feature = "modbus")]
+    snapshot: crate::field::modbus::map::Snapshot,
 }
 
 impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
@@ -142,6 +147,10 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
             telemetry_seq: 0,
             event_seq: 0,
             pending: Pending::default(),
+            quiet: false,
+            loop_current: LoopScalars::UNCONFIGURED.failure.current(),
+            #[cfg(feature = "modbus")]
+            snapshot: crate::field::modbus::map::Snapshot::new(),
         });
         let blob = g.service.config().value.blob;
         let _ = g.rebuild(&blob);
@@ -468,14 +477,20 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         let device = self.device_status();
         if let Some(t) = self.pending.track.take() {
             let tel = telemetry::from_track(self.telemetry_seq, &t, device);
+            self.field_update(Some(&t), t.at, device);
             self.telemetry_seq = self.telemetry_seq.wrapping_add(1);
-            send(io, &FromDevice::Telemetry(tel));
-            self.send_events(&t.events, tel.status(), tel.mass(), io);
+            if !self.quiet {
+                send(io, &FromDevice::Telemetry(tel));
+                self.send_events(&t.events, tel.status(), tel.mass(), io);
+            }
         }
         if let Some(at) = self.pending.unusable_at.take() {
             let tel = telemetry::status_only(self.telemetry_seq, at.as_millis(), device);
+            self.field_update(None, at, device);
             self.telemetry_seq = self.telemetry_seq.wrapping_add(1);
-            send(io, &FromDevice::Telemetry(tel));
+            if !self.quiet {
+                send(io, &FromDevice::Telemetry(tel));
+            }
         }
         if let Some(e) = self.pending.cleared.take() {
             let mass = self
@@ -485,6 +500,106 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
                 .map_or(fx::Mass::ZERO, |c| c.mass_kg);
             self.send_events(&e, device, mass, io);
         }
+    }
+
+    /// The loop output's set-point and the Modbus snapshot of an estimate
+    /// (`None`: no usable configuration).
+    #[inline(never)]
+    fn field_update(&mut self, t: Option<&TrackFx>, at: Instant, device: Status) {
+        let loop_out = self.field().loop_output;
+        self.loop_current = match t {
+            Some(t) => loop_out.of_content(t.content.as_ref(), t.status | device),
+            None => loop_out.failure.current(),
+        };
+        #[cfg(feature = "modbus")]
+        {
+            let tracker = self.pipeline.as_ref().map(|p| p.tracker());
+            let cfg = tracker.map(|k| *k.config());
+            let rated = tracker.map(|k| k.rated_standard_volume());
+            self.snapshot.update(
+                self.telemetry_seq,
+                t,
+                at.as_millis(),
+                device,
+                cfg.as_ref(),
+                rated,
+                self.loop_current,
+            );
+        }
+        #[cfg(not(feature = "modbus"))]
+        let _ = at;
+    }
+
+    /// The field settings in force: the configuration's, or the defaults
+    /// without a usable configuration.
+    pub fn field(&self) -> FieldScalars {
+        self.pipeline
+            .as_ref()
+            .map_or_else(FieldScalars::default, |p| p.prepared().scalars().field)
+    }
+
+    /// The 4–20 mA output's set-point after the latest sample.
+    pub fn loop_current(&self) -> fx::Milliamps {
+        self.loop_current
+    }
+
+    /// Drops the bytes of an unfinished link frame (a one-UART board on a
+    /// Modbus line: after a Modbus frame, what the link's accumulator holds
+    /// is that frame, not the start of a link frame).
+    pub fn discard_partial_frame(&mut self) {
+        self.acc.reset();
+    }
+
+    /// Quiet: no telemetry or alarm frame is sent unasked (a one-UART board
+    /// on a Modbus line); requests are still answered.
+    pub fn set_quiet(&mut self, quiet: bool) {
+        self.quiet = quiet;
+    }
+
+    /// The Modbus snapshot of the latest estimate.
+    #[cfg(feature = "modbus")]
+    pub fn snapshot(&self) -> &crate::field::modbus::map::Snapshot {
+        &self.snapshot
+    }
+
+    /// Serves Modbus RTU: `bytes` received at `now_us` (µs; `now` the same
+    /// time in ms) go to `server`, which answers a completed frame through
+    /// `out` from this gauge's registers. Returns true when it replied.
+    /// Nothing a Modbus request does changes the estimate (see
+    /// [`crate::field::modbus`]).
+    #[cfg(feature = "modbus")]
+    #[inline(never)]
+    pub fn modbus(
+        &mut self,
+        server: &mut crate::field::modbus::Server,
+        now: Instant,
+        now_us: u64,
+        bytes: &[u8],
+        out: &mut dyn FnMut(&[u8]),
+    ) -> bool {
+        self.modbus_span(server, now, (now_us, now_us), bytes, out)
+    }
+
+    /// As [`Gauge::modbus`] for bytes that arrived over `span_us` (first
+    /// and last byte, µs; see [`crate::field::modbus::Server::step_span`]).
+    #[cfg(feature = "modbus")]
+    #[inline(never)]
+    pub fn modbus_span(
+        &mut self,
+        server: &mut crate::field::modbus::Server,
+        now: Instant,
+        span_us: (u64, u64),
+        bytes: &[u8],
+        out: &mut dyn FnMut(&[u8]),
+    ) -> bool {
+        let field = self.field();
+        let mut regs = crate::field::modbus::map::Registers {
+            snapshot: &mut self.snapshot,
+            identity: self.service.identity(),
+            field: &field,
+            now_ms: now.as_millis(),
+        };
+        server.step_span(span_us.0, span_us.1, bytes, &mut regs, out)
     }
 
     fn send_events(&mut self, e: &Events, status: Status, mass: fx::Mass, io: &mut dyn GaugeIo) {

@@ -12,6 +12,7 @@ use super::{
 use crate::checksum::crc32c;
 use crate::content::{fixed, float};
 use crate::curve::{CurveBuf, Piece};
+use crate::field::FieldConfig;
 use crate::model::device::{DeviceModel, Table, TableBuf, builtin};
 use crate::sensor::calibration::{CalibrationRecord, Channel};
 use crate::sensor::channel::fixed::{
@@ -47,6 +48,9 @@ pub struct GaugeConfig {
     /// configuration back; the device needs only the table and the molar
     /// mass in the setup's gas); `None` for a pure gas.
     pub composition: Option<Composition>,
+    /// The serial line (Modbus address, baud rate, parity, protocol on a
+    /// one-UART board) and the 4–20 mA output.
+    pub field: FieldConfig,
 }
 
 /// The plausibility checks of both channels.
@@ -88,6 +92,7 @@ impl GaugeConfig {
             model: None,
             plausibility: None,
             composition: None,
+            field: FieldConfig::default(),
         }
     }
 
@@ -104,6 +109,7 @@ impl GaugeConfig {
             p.pressure.validate()?;
             p.temperature.validate()?;
         }
+        self.field.validate()?;
         if let Some(t) = &self.model {
             t.table().validate()?;
             if t.gas != self.setup.gas {
@@ -317,6 +323,7 @@ impl PreparedBuf {
             estimator: est.parts(),
             track: cfg.track,
             source,
+            field: cfg.field.prepare()?,
         };
         let buf = assemble(&scalars, &arrays.bytes)?;
         // What the device will check, checked here.

@@ -21,7 +21,10 @@
 //! evaluates curves, one table and integer arithmetic. A device that runs a
 //! prepared configuration needs no code to prepare one.
 //!
-//! # Format (version 1; little-endian)
+//! # Format (version 2; little-endian)
+//!
+//! Version 2 added the field settings to the scalars (serial line, 4–20 mA
+//! output); a version 1 blob is refused as of another version.
 //!
 //! | bytes | content |
 //! |---|---|
@@ -54,6 +57,7 @@ use zerocopy::{FromBytes, Immutable, KnownLayout};
 use crate::checksum::crc32c;
 use crate::content::fixed::EstimatorParts;
 use crate::curve::{Curve, Piece};
+use crate::field::FieldScalars;
 use crate::sensor::channel::fixed::{
     BridgeStage, LoopStage, PressureFront, PressureStage, StatusMap, Step, TemperatureStage,
 };
@@ -65,7 +69,7 @@ use crate::{Error, Gas};
 /// First bytes of a prepared configuration.
 pub const MAGIC: [u8; 4] = *b"IZPC";
 /// Version of the format this crate reads and writes.
-pub const VERSION: u16 = 1;
+pub const VERSION: u16 = 2;
 /// Bytes of the fixed header.
 pub const HEADER_LEN: usize = 20;
 /// Largest prepared configuration, bytes.
@@ -211,6 +215,8 @@ pub struct Scalars {
     /// The physical configuration (postcard encoding of [`GaugeConfig`]),
     /// bytes.
     pub source: ArraySpan,
+    /// The serial line and the 4–20 mA output (format version 2).
+    pub field: FieldScalars,
 }
 
 /// A prepared configuration over its bytes `B` (see the [module](self)
@@ -451,6 +457,7 @@ impl<B: AsRef<[u8]>> Prepared<B> {
         model::table(self).validate()?;
         crate::model::device::fixed::Axes::prepare(&model::table(self))?;
         s.track.validate()?;
+        s.field.validate()?;
         Ok(())
     }
 }

@@ -494,6 +494,11 @@ impl<M: CompressibilityFx> Tracker<M> {
         &self.cfg
     }
 
+    /// The standard volume of the rated content (saturating).
+    pub fn rated_standard_volume(&self) -> fx::Volume {
+        fx::Volume::from_bits(self.rated_volume.scale(1, 0, 40).0)
+    }
+
     /// The latest content estimate (on the smoothed sample).
     pub fn latest_content(&self) -> Option<Content> {
         self.content

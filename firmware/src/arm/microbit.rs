@@ -26,8 +26,9 @@ use isochor_core::link::{BootReport, NONCE_LEN, ResetReason};
 use isochor_core::store::Layout;
 
 use super::{RxRing, SysTickClock};
-use crate::board::{Board, Injected, Parts, System, Watchdog};
+use crate::board::{Board, FieldSerial, Injected, Parts, System, Watchdog};
 use crate::retained;
+use isochor_core::field::{Parity, SerialSettings};
 
 /// Core clock, Hz.
 pub const CORE_HZ: u32 = 16_000_000;
@@ -125,6 +126,42 @@ impl Read for Uart {
             }
             cortex_m::asm::wfi();
         }
+    }
+}
+
+/// BAUDRATE register values of the accepted rates (nRF51 Series
+/// Reference Manual v3.0, UART BAUDRATE; from memory).
+const BAUD: [(u32, u32); 8] = [
+    (1200, 0x0004_F000),
+    (2400, 0x0009_D000),
+    (4800, 0x0013_B000),
+    (9600, 0x0027_5000),
+    (19_200, 0x004E_A000),
+    (38_400, 0x009D_5000),
+    (57_600, 0x00EB_F000),
+    (115_200, 0x01D7_E000),
+];
+
+/// The nRF51 UART knows no odd parity and always sends one stop bit: odd
+/// parity is sent as even, and no parity with one stop bit (a master
+/// expecting two stop bits reads one fine; common practice). The settings
+/// reach the line only when the configuration chooses Modbus; the link
+/// stays at 115 200 Bd 8N1.
+impl FieldSerial for Uart {
+    fn configure(&mut self, s: &SerialSettings) {
+        let baud = BAUD
+            .iter()
+            .find(|(b, _)| *b == s.baud)
+            .map_or(0x01D7_E000, |(_, r)| *r);
+        wr(UART0 + 0x524, baud); // BAUDRATE
+        let parity = match s.parity {
+            Parity::None => 0,
+            Parity::Even | Parity::Odd => 0x7 << 1,
+        };
+        wr(UART0 + 0x56C, parity); // CONFIG.PARITY
+    }
+    fn rx_stamps(&self) -> (u32, u32) {
+        RX.stamps()
     }
 }
 
@@ -298,6 +335,7 @@ impl Microbit {
 
 impl Board for Microbit {
     type Serial = Uart;
+    type Field = Uart;
     type Flash = Nvmc;
     type Sensors = Injected;
     type Clock = SysTickClock;
@@ -316,6 +354,7 @@ impl Board for Microbit {
         let _ = crate::ram_nor::format_if_blank(&mut flash);
         Parts {
             serial: Uart::new(),
+            field: None,
             flash,
             sensors: Injected,
             clock: SysTickClock::start(self.syst, CORE_HZ),

@@ -37,6 +37,27 @@ pub fn tick() {
     );
 }
 
+/// Core clock cycles per microsecond (set when SysTick starts).
+static CYCLES_PER_US: AtomicU32 = AtomicU32::new(1);
+
+/// Microseconds since start, low 32 bits: the millisecond count and
+/// SysTick's current value (callable from interrupts). A SysTick wrap whose
+/// interrupt has not run yet reads up to 1 ms early (never late).
+pub fn micros32() -> u32 {
+    // SAFETY: reads of SysTick's value and reload registers only.
+    let syst = unsafe { &*cortex_m::peripheral::SYST::PTR };
+    loop {
+        let t1 = TICKS.load(Ordering::Relaxed);
+        let cvr = syst.cvr.read();
+        let t2 = TICKS.load(Ordering::Relaxed);
+        if t1 == t2 {
+            let rvr = syst.rvr.read();
+            let sub = rvr.saturating_sub(cvr) / CYCLES_PER_US.load(Ordering::Relaxed).max(1);
+            return t1.wrapping_mul(1000).wrapping_add(sub.min(999));
+        }
+    }
+}
+
 /// Milliseconds from SysTick interrupts at 1 kHz, extended to 64 bits.
 pub struct SysTickClock {
     last: u32,
@@ -49,6 +70,7 @@ impl SysTickClock {
         use cortex_m::peripheral::syst::SystClkSource;
         syst.set_clock_source(SystClkSource::Core);
         syst.set_reload(core_hz / 1000 - 1);
+        CYCLES_PER_US.store(core_hz / 1_000_000, Ordering::Relaxed);
         syst.clear_current();
         syst.enable_interrupt();
         syst.enable_counter();
@@ -72,6 +94,14 @@ impl Clock for SysTickClock {
         self.last = t;
         Instant(self.high | u64::from(t))
     }
+    fn now_us(&mut self) -> u64 {
+        let ms = self.now().0;
+        let us = micros32();
+        // The sub-millisecond part of the same moment (a tick between the
+        // two reads: the later one's, within a millisecond).
+        let sub = us.wrapping_sub((ms as u32).wrapping_mul(1000)).min(1999);
+        ms.saturating_mul(1000) + u64::from(sub)
+    }
 }
 
 // ---- receive ring ----
@@ -86,6 +116,8 @@ pub struct RxRing {
     head: AtomicUsize,
     tail: AtomicUsize,
     dropped: AtomicU32,
+    stamp: AtomicU32,
+    first: AtomicU32,
 }
 
 // SAFETY: `buf[head]` is written only by the producer before it publishes
@@ -103,13 +135,20 @@ impl RxRing {
             head: AtomicUsize::new(0),
             tail: AtomicUsize::new(0),
             dropped: AtomicU32::new(0),
+            stamp: AtomicU32::new(0),
+            first: AtomicU32::new(0),
         }
     }
 
     /// Producer side (interrupt): stores a byte, or counts it dropped when
     /// full (the host's frame check then fails and the frame is refused).
     pub fn push(&self, b: u8) {
+        let now = micros32();
         let head = self.head.load(Ordering::Relaxed);
+        if head == self.tail.load(Ordering::Acquire) {
+            self.first.store(now, Ordering::Relaxed);
+        }
+        self.stamp.store(now, Ordering::Relaxed);
         let next = (head + 1) % RING;
         if next == self.tail.load(Ordering::Acquire) {
             self.dropped
@@ -144,6 +183,15 @@ impl RxRing {
         }
         self.tail.store(tail, Ordering::Release);
         n
+    }
+
+    /// When the first byte waiting (or last taken) and the last byte
+    /// arrived ([`micros32`]).
+    pub fn stamps(&self) -> (u32, u32) {
+        (
+            self.first.load(Ordering::Relaxed),
+            self.stamp.load(Ordering::Relaxed),
+        )
     }
 
     /// Bytes dropped because the ring was full.

@@ -1,7 +1,8 @@
 //! The QEMU `mps2-an386` machine: Cortex-M4F at 25 MHz, code in 4 MiB of
 //! SSRAM at 0, data in SSRAM at 0x2000_0000. Written against the
 //! peripherals QEMU 7.2 emulates: CMSDK APB UART0 (0x4000_4000, receive
-//! interrupt 0) and the CMSDK APB watchdog (0x4000_8000, its interrupt on
+//! interrupt 0: the isochor link), UART1 (0x4000_5000, receive interrupt 2:
+//! the Modbus line) and the CMSDK APB watchdog (0x4000_8000, its interrupt on
 //! NMI, reset on the second expiry).
 //!
 //! The machine has no flash: the store lives in RAM-backed NOR emulation
@@ -28,9 +29,10 @@ use isochor_core::store::Layout;
 use sha2::Sha256;
 
 use super::{RxRing, SysTickClock};
-use crate::board::{Board, Clock, Injected, Parts, System, Watchdog};
+use crate::board::{Board, Clock, FieldSerial, Injected, Parts, System, Watchdog};
 use crate::ram_nor::{RamNor, format_if_blank};
 use crate::retained;
+use isochor_core::field::SerialSettings;
 
 /// Core clock, Hz.
 pub const CORE_HZ: u32 = 25_000_000;
@@ -46,8 +48,11 @@ pub const STORE_LEN: u32 = Layout::size(BANK_LEN, SLOT_LEN);
 pub const PROVISIONING: u32 = 0x21FF_FC00;
 /// UART0 receive interrupt number.
 pub const UART0_RX_IRQ: u16 = 0;
+/// UART1 receive interrupt number (AN385/AN386: UART1 RX is 2).
+pub const UART1_RX_IRQ: u16 = 2;
 
 const UART0: u32 = 0x4000_4000;
+const UART1: u32 = 0x4000_5000;
 const WATCHDOG: u32 = 0x4000_8000;
 
 fn rd(addr: u32) -> u32 {
@@ -60,10 +65,12 @@ fn wr(addr: u32, v: u32) {
     unsafe { core::ptr::write_volatile(addr as *mut u32, v) }
 }
 
-/// Bytes the UART interrupt received.
+/// Bytes the UART0 interrupt received (the isochor link).
 pub static RX: RxRing = RxRing::new();
+/// Bytes the UART1 interrupt received (the Modbus line).
+pub static RX1: RxRing = RxRing::new();
 
-/// The UART0 receive interrupt: moves every received byte into [`RX`].
+/// Drains a CMSDK UART's receive register into `ring`.
 ///
 /// The interrupt is cleared *before* the data register is drained. The
 /// other order loses the link for good: a byte that arrives between the
@@ -73,12 +80,22 @@ pub static RX: RxRing = RxRing::new();
 /// real part), nothing would ever raise it again. Cleared first, a byte
 /// arriving at any point either is drained by the loop below or raises the
 /// interrupt anew.
-pub fn uart0_rx_interrupt() {
-    wr(UART0 + 0xC, 2); // INTCLEAR RX
-    while rd(UART0 + 0x4) & 2 != 0 {
+fn drain(base: u32, ring: &RxRing) {
+    wr(base + 0xC, 2); // INTCLEAR RX
+    while rd(base + 0x4) & 2 != 0 {
         // STATE.RXFULL
-        RX.push(rd(UART0) as u8);
+        ring.push(rd(base) as u8);
     }
+}
+
+/// The UART0 receive interrupt: moves every received byte into [`RX`].
+pub fn uart0_rx_interrupt() {
+    drain(UART0, &RX);
+}
+
+/// The UART1 receive interrupt: moves every received byte into [`RX1`].
+pub fn uart1_rx_interrupt() {
+    drain(UART1, &RX1);
 }
 
 #[derive(Clone, Copy)]
@@ -90,16 +107,30 @@ unsafe impl cortex_m::interrupt::InterruptNumber for Irq {
     }
 }
 
-/// UART0 at 115 200 Bd (25 MHz / 217), received bytes through [`RX`].
-pub struct Uart(());
+/// A CMSDK APB UART at 115 200 Bd (25 MHz / 217), received bytes through
+/// its ring. The CMSDK UART has no parity and one stop bit: on the Modbus
+/// line the baud rate is applied, the parity is not (an emulation board).
+pub struct Uart {
+    base: u32,
+    ring: &'static RxRing,
+}
 
 impl Uart {
-    fn new() -> Uart {
-        wr(UART0 + 0x10, CORE_HZ / 115_200); // BAUDDIV (≥ 16)
-        wr(UART0 + 0x8, 0b1011); // CTRL: TX, RX, RX interrupt
-        // SAFETY: the handler only touches UART0 and the ring.
-        unsafe { cortex_m::peripheral::NVIC::unmask(Irq(UART0_RX_IRQ)) };
-        Uart(())
+    fn new(base: u32, ring: &'static RxRing, irq: u16) -> Uart {
+        wr(base + 0x10, CORE_HZ / 115_200); // BAUDDIV (≥ 16)
+        wr(base + 0x8, 0b1011); // CTRL: TX, RX, RX interrupt
+        // SAFETY: the handler only touches this UART and its ring.
+        unsafe { cortex_m::peripheral::NVIC::unmask(Irq(irq)) };
+        Uart { base, ring }
+    }
+}
+
+impl FieldSerial for Uart {
+    fn configure(&mut self, s: &SerialSettings) {
+        wr(self.base + 0x10, CORE_HZ / s.baud.max(1200)); // BAUDDIV
+    }
+    fn rx_stamps(&self) -> (u32, u32) {
+        self.ring.stamps()
     }
 }
 
@@ -109,14 +140,14 @@ impl ErrorType for Uart {
 
 impl ReadReady for Uart {
     fn read_ready(&mut self) -> Result<bool, Self::Error> {
-        Ok(RX.ready())
+        Ok(self.ring.ready())
     }
 }
 
 impl Read for Uart {
     fn read(&mut self, buf: &mut [u8]) -> Result<usize, Self::Error> {
         loop {
-            let n = RX.take(buf);
+            let n = self.ring.take(buf);
             if n > 0 || buf.is_empty() {
                 return Ok(n);
             }
@@ -128,13 +159,13 @@ impl Read for Uart {
 impl Write for Uart {
     fn write(&mut self, buf: &[u8]) -> Result<usize, Self::Error> {
         for &b in buf {
-            while rd(UART0 + 0x4) & 1 != 0 {} // STATE.TXFULL
-            wr(UART0, u32::from(b));
+            while rd(self.base + 0x4) & 1 != 0 {} // STATE.TXFULL
+            wr(self.base, u32::from(b));
         }
         Ok(buf.len())
     }
     fn flush(&mut self) -> Result<(), Self::Error> {
-        while rd(UART0 + 0x4) & 1 != 0 {}
+        while rd(self.base + 0x4) & 1 != 0 {}
         Ok(())
     }
 }
@@ -226,6 +257,7 @@ impl Mps2 {
 
 impl Board for Mps2 {
     type Serial = Uart;
+    type Field = Uart;
     type Flash = RamNor<'static>;
     type Sensors = Injected;
     type Clock = SysTickClock;
@@ -243,7 +275,8 @@ impl Board for Mps2 {
         let _ = format_if_blank(&mut flash);
         let key = provisioning().map_or([0; 32], |p| p.secret.derive(b"isochor/1/nonce-key"));
         Parts {
-            serial: Uart::new(),
+            serial: Uart::new(UART0, &RX, UART0_RX_IRQ),
+            field: Some(Uart::new(UART1, &RX1, UART1_RX_IRQ)),
             flash,
             sensors: Injected,
             clock: SysTickClock::start(self.syst, CORE_HZ),

@@ -428,3 +428,194 @@ impl From<Error> for Started {
         Started::Failed(e)
     }
 }
+
+/// An emulated gauge on fixed local ports (`isochor emulate`, the Modbus
+/// end-to-end tests): QEMU runs until this is dropped.
+pub struct Emulator {
+    child: Child,
+    _provisioning: Option<tempfile_path::TempPath>,
+    stop: Arc<std::sync::atomic::AtomicBool>,
+}
+
+impl Emulator {
+    /// True while the emulator runs.
+    pub fn running(&mut self) -> bool {
+        matches!(self.child.try_wait(), Ok(None))
+    }
+}
+
+impl Drop for Emulator {
+    fn drop(&mut self) {
+        self.stop.store(true, std::sync::atomic::Ordering::Relaxed);
+        let _ = self.child.kill();
+        let _ = self.child.wait();
+    }
+}
+
+/// Starts `elf` on `board` with the isochor link on `link` and, when given,
+/// Modbus RTU on `modbus` (local TCP ports; clients connect and reconnect
+/// at will). `mps2-an386` has the two on its UART0 and UART1; the
+/// `microbit` has one UART, so both ports reach it through a relay that
+/// sends what the UART says to the client that wrote last (the board
+/// serves Modbus there when its configuration says so).
+pub fn emulate(
+    board: Board,
+    elf: &Path,
+    provisioning: Option<(u64, &Secret)>,
+    link: std::net::SocketAddr,
+    modbus: Option<std::net::SocketAddr>,
+) -> Result<Emulator, Error> {
+    let tcp = |a: std::net::SocketAddr, wait: bool| {
+        format!(
+            "tcp:{}:{},server=on,wait={},nodelay=on",
+            a.ip(),
+            a.port(),
+            if wait { "on" } else { "off" }
+        )
+    };
+    let stop = Arc::new(std::sync::atomic::AtomicBool::new(false));
+    let mut cmd = Command::new("qemu-system-arm");
+    cmd.args(["-machine", board.name(), "-nographic", "-monitor", "none"]);
+    let relay = match (board, modbus) {
+        (Board::Mps2An386, Some(m)) => {
+            cmd.args(["-serial", &tcp(link, false), "-serial", &tcp(m, false)]);
+            None
+        }
+        (_, None) => {
+            cmd.args(["-serial", &tcp(link, false)]);
+            None
+        }
+        (Board::Microbit, Some(m)) => {
+            // The relay listens on both ports; QEMU's UART on a port of its own.
+            let inner = TcpListener::bind("127.0.0.1:0")
+                .and_then(|l| l.local_addr())
+                .map_err(|e| Error::Link(format!("no free port: {e}")))?;
+            cmd.args(["-serial", &tcp(inner, false)]);
+            let l = TcpListener::bind(link).map_err(|e| Error::Link(format!("{link}: {e}")))?;
+            let mb = TcpListener::bind(m).map_err(|e| Error::Link(format!("{m}: {e}")))?;
+            Some((inner, l, mb))
+        }
+    };
+    cmd.arg("-kernel")
+        .arg(elf)
+        .stdin(Stdio::null())
+        .stdout(Stdio::null())
+        .stderr(Stdio::inherit());
+    let file = match provisioning {
+        Some((serial, secret)) => {
+            let path = std::env::temp_dir().join(format!(
+                "isochor-provisioning-{}-{}.bin",
+                std::process::id(),
+                link.port()
+            ));
+            let block = Provisioning {
+                serial,
+                secret: secret.clone(),
+            }
+            .to_bytes();
+            std::fs::File::create(&path)
+                .and_then(|mut f| f.write_all(&block))
+                .map_err(|e| Error::Link(format!("provisioning file: {e}")))?;
+            cmd.arg("-device").arg(format!(
+                "loader,file={},addr={:#x},force-raw=on",
+                path.display(),
+                board.provisioning_address()
+            ));
+            Some(tempfile_path::TempPath(path))
+        }
+        None => None,
+    };
+    let child = cmd
+        .spawn()
+        .map_err(|e| Error::Link(format!("qemu-system-arm: {e}")))?;
+    let mut emu = Emulator {
+        child,
+        _provisioning: file,
+        stop: Arc::clone(&stop),
+    };
+    if let Some((inner, l, mb)) = relay {
+        let start = Instant::now();
+        let uart = loop {
+            match TcpStream::connect(inner) {
+                Ok(s) => break s,
+                Err(e) => {
+                    if !emu.running() || start.elapsed() > Duration::from_secs(20) {
+                        return Err(Error::Link(format!("qemu serial port: {e}")));
+                    }
+                    std::thread::sleep(Duration::from_millis(20));
+                }
+            }
+        };
+        relay_one_uart(uart, l, mb, stop)?;
+    }
+    Ok(emu)
+}
+
+/// The relay of a one-UART board: bytes from either client go to the UART;
+/// the UART's bytes go to the client that wrote last.
+fn relay_one_uart(
+    uart: TcpStream,
+    link: TcpListener,
+    modbus: TcpListener,
+    stop: Arc<std::sync::atomic::AtomicBool>,
+) -> Result<(), Error> {
+    use std::io::Read;
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    let _ = uart.set_nodelay(true);
+    // The clients: 0 link, 1 Modbus; `last` says who wrote last.
+    let clients: Arc<Mutex<[Option<TcpStream>; 2]>> = Arc::new(Mutex::new([None, None]));
+    let last = Arc::new(AtomicUsize::new(0));
+    for (i, listener) in [link, modbus].into_iter().enumerate() {
+        let clients = Arc::clone(&clients);
+        let last = Arc::clone(&last);
+        let stop = Arc::clone(&stop);
+        let mut to_uart = uart
+            .try_clone()
+            .map_err(|e| Error::Link(format!("relay: {e}")))?;
+        std::thread::spawn(move || {
+            for conn in listener.incoming() {
+                if stop.load(Ordering::Relaxed) {
+                    return;
+                }
+                let Ok(mut conn) = conn else { continue };
+                let _ = conn.set_nodelay(true);
+                if let (Ok(mut c), Ok(copy)) = (clients.lock(), conn.try_clone()) {
+                    c[i] = Some(copy);
+                }
+                let mut buf = [0u8; 512];
+                loop {
+                    match conn.read(&mut buf) {
+                        Ok(0) | Err(_) => break,
+                        Ok(n) => {
+                            last.store(i, Ordering::Relaxed);
+                            if to_uart.write_all(&buf[..n]).is_err() {
+                                return;
+                            }
+                        }
+                    }
+                }
+                if let Ok(mut c) = clients.lock() {
+                    c[i] = None;
+                }
+            }
+        });
+    }
+    let mut from_uart = uart;
+    std::thread::spawn(move || {
+        let mut buf = [0u8; 512];
+        loop {
+            match from_uart.read(&mut buf) {
+                Ok(0) | Err(_) => return,
+                Ok(n) => {
+                    let who = last.load(Ordering::Relaxed);
+                    if let Ok(mut c) = clients.lock()
+                        && let Some(s) = c[who].as_mut()
+                    {
+                        let _ = s.write_all(&buf[..n]);
+                    }
+                }
+            }
+        }
+    });
+    Ok(())
+}

@@ -13,6 +13,7 @@
 //! * this crate:
 //!   * [`content`] — the content report of `isochor content` (both core paths);
 //!   * [`link`] — the serial link: transports, client, emulated device, views;
+//!   * [`modbus`] — the host end of Modbus RTU: a client and the register map's decoder;
 //!   * [`firmware`] — the reference firmware in QEMU: builds, provisioning, the emulator;
 //!   * [`image`] — what a firmware image holds: flash and RAM, flash by module, statics, panic paths;
 //!   * [`firmware_gauge`] — the simulator's gauge over the emulated firmware;
@@ -30,6 +31,7 @@ pub mod firmware;
 pub mod firmware_gauge;
 pub mod image;
 pub mod link;
+pub mod modbus;
 pub mod model_cache;
 pub mod sensor;
 

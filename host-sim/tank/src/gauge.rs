@@ -228,6 +228,7 @@ impl GaugeConfig {
                 temperature: self.temperature_plausibility,
             }),
             composition: crate::run::spec_of(self.setup.gas).core_composition(),
+            field: Default::default(),
         })
     }
 }

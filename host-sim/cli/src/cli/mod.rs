@@ -4,8 +4,10 @@
 mod budget;
 mod content;
 mod demo;
+mod emulate;
 pub mod gas;
 mod listen;
+mod modbus;
 mod model;
 mod props;
 mod send;
@@ -39,6 +41,12 @@ pub enum Command {
     Listen(listen::ListenArgs),
     /// Send a request or a signed command to a device.
     Send(send::SendArgs),
+    /// Read a gauge's Modbus RTU registers (decoded), acknowledge alarms,
+    /// read its identification.
+    Modbus(modbus::ModbusArgs),
+    /// Run the reference firmware in QEMU with its serial ports on local
+    /// TCP ports, until stopped: an emulated gauge any client can talk to.
+    Emulate(emulate::EmulateArgs),
     /// Sensor front-ends: convert single values both ways, fit a calibration,
     /// read back a calibration record.
     Sensor(sensor::SensorArgs),
@@ -83,6 +91,8 @@ pub fn run(cli: Cli) -> Result<String, crate::Error> {
         Command::Content(args) => content::run(&args),
         Command::Listen(args) => listen::run(&args),
         Command::Send(args) => send::run(&args),
+        Command::Modbus(args) => modbus::run(&args),
+        Command::Emulate(args) => emulate::run(&args),
         Command::Sensor(args) => sensor::run(&args),
         Command::Props(args) => props::run(&args),
         Command::Model(args) => model::run(&args),

@@ -59,6 +59,91 @@ pub struct SendArgs {
     pub request: Request,
 }
 
+/// Arguments of `isochor send write-field`.
+#[derive(Debug, Args)]
+pub struct WriteFieldArgs {
+    /// Protocol on a board with one UART: link or modbus.
+    #[arg(long)]
+    pub protocol: Option<String>,
+    /// Modbus address (1 … 247).
+    #[arg(long)]
+    pub address: Option<u8>,
+    /// Baud rate of the Modbus line.
+    #[arg(long)]
+    pub baud: Option<u32>,
+    /// Parity of the Modbus line: none (two stop bits), even, odd.
+    #[arg(long)]
+    pub parity: Option<String>,
+    /// Quantity on the 4–20 mA output: fill (fraction of the rated
+    /// content) or mass (kg).
+    #[arg(long)]
+    pub loop_quantity: Option<String>,
+    /// Value at 4 mA.
+    #[arg(long)]
+    pub loop_lower: Option<f64>,
+    /// Value at 20 mA.
+    #[arg(long)]
+    pub loop_upper: Option<f64>,
+    /// Failure current: low (3.5 mA) or high (21.5 mA).
+    #[arg(long)]
+    pub loop_failure: Option<String>,
+}
+
+/// The field settings of `a` over `current`.
+pub fn field_settings(
+    a: &WriteFieldArgs,
+    current: isochor_core::field::FieldConfig,
+) -> Result<isochor_core::field::FieldConfig, Error> {
+    use isochor_core::field::{Failure, LoopQuantity, Parity, Protocol};
+    let bad = |what: &str, v: &str, allowed: &str| {
+        Error::Invalid(format!("--{what} {v:?}: one of {allowed}"))
+    };
+    let mut f = current;
+    if let Some(p) = &a.protocol {
+        f.serial.protocol = match p.as_str() {
+            "link" => Protocol::Link,
+            "modbus" => Protocol::Modbus,
+            _ => return Err(bad("protocol", p, "link, modbus")),
+        };
+    }
+    if let Some(x) = a.address {
+        f.serial.address = x;
+    }
+    if let Some(b) = a.baud {
+        f.serial.baud = b;
+    }
+    if let Some(p) = &a.parity {
+        f.serial.parity = match p.as_str() {
+            "none" => Parity::None,
+            "even" => Parity::Even,
+            "odd" => Parity::Odd,
+            _ => return Err(bad("parity", p, "none, even, odd")),
+        };
+    }
+    if let Some(q) = &a.loop_quantity {
+        f.loop_output.quantity = match q.as_str() {
+            "fill" => LoopQuantity::FillFraction,
+            "mass" => LoopQuantity::Mass,
+            _ => return Err(bad("loop-quantity", q, "fill, mass")),
+        };
+    }
+    if let Some(v) = a.loop_lower {
+        f.loop_output.lower = fx::from_f64(v, "--loop-lower")?;
+    }
+    if let Some(v) = a.loop_upper {
+        f.loop_output.upper = fx::from_f64(v, "--loop-upper")?;
+    }
+    if let Some(d) = &a.loop_failure {
+        f.loop_output.failure = match d.as_str() {
+            "low" => Failure::Low,
+            "high" => Failure::High,
+            _ => return Err(bad("loop-failure", d, "low, high")),
+        };
+    }
+    f.validate()?;
+    Ok(f)
+}
+
 /// A sensor channel on the command line.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
 pub enum Channel {
@@ -81,6 +166,12 @@ pub enum Request {
     /// settings and zero offsets are kept, the alarm limits follow the new
     /// tank.
     WriteConfig(WriteConfigArgs),
+    /// Store the field settings in the device (signed; the rest of its
+    /// configuration is kept): the Modbus line (protocol on a one-UART
+    /// board, address, baud rate, parity) and the 4–20 mA output (quantity,
+    /// range, failure direction). Options not given keep their stored
+    /// values.
+    WriteField(WriteFieldArgs),
     /// Take the present reading of a sensor as its zero (signed).
     ///
     /// Pressure: the transducer must be vented to atmosphere first (vessel
@@ -376,6 +467,43 @@ pub fn execute<T: crate::link::Transport>(
             t.push_str(&text_done("write-config"));
             (json!({ "written": setup_json(&s, &spec) }), t)
         }
+        Request::WriteField(a) => {
+            let Some(mut config) = client.read_config()?.config()? else {
+                return Err(Error::Invalid(
+                    "the device holds no configuration: store one with write-config first".into(),
+                ));
+            };
+            config.field = field_settings(a, config.field)?;
+            client.configure(&config, &mut |_, _| {})?;
+            let s = &config.field.serial;
+            let l = &config.field.loop_output;
+            let t = format!(
+                "field settings: protocol {:?}, Modbus address {}, {} Bd, parity {:?}; \
+                 loop {:?} {} → 4 mA, {} → 20 mA, failure {:?}\n{}",
+                s.protocol,
+                s.address,
+                s.baud,
+                s.parity,
+                l.quantity,
+                fx::to_f64(l.lower),
+                fx::to_f64(l.upper),
+                l.failure,
+                text_done("write-field")
+            );
+            (
+                json!({ "written": {
+                    "protocol": format!("{:?}", s.protocol).to_lowercase(),
+                    "address": s.address,
+                    "baud": s.baud,
+                    "parity": format!("{:?}", s.parity).to_lowercase(),
+                    "loop_quantity": format!("{:?}", l.quantity).to_lowercase(),
+                    "loop_lower": fx::to_f64(l.lower),
+                    "loop_upper": fx::to_f64(l.upper),
+                    "loop_failure": format!("{:?}", l.failure).to_lowercase(),
+                } }),
+                t,
+            )
+        }
         Request::ZeroCalibration { channel } => {
             let channel = match channel {
                 Channel::Pressure => SensorChannel::Pressure,
@@ -455,6 +583,7 @@ pub fn run(a: &SendArgs) -> Result<String, Error> {
     if let Request::WriteConfig(w) = &a.request {
         setup(w)?;
     }
+
     let needs_secret = !matches!(
         a.request,
         Request::Ping | Request::Identity | Request::ReadConfig

@@ -203,3 +203,56 @@ impl EmulatedDevice {
         }
     }
 }
+
+/// A gauge (the firmware's application) on an emulated flash that already
+/// holds `config`, stored as a signed load would store it; not
+/// provisioned for signing. For host tests and measurements that drive the
+/// gauge directly (samples, Modbus) without a link.
+pub fn configured_gauge(
+    config: &isochor_core::prepared::GaugeConfig,
+) -> Result<Box<Option<Gauge<EmulatedFlash, CopyMapper>>>, Error> {
+    use isochor_core::app::Zero;
+    use isochor_core::app::service::{LoadStep, Service};
+    let flash = EmulatedFlash::new();
+    let lay = layout(&flash)?;
+    let identity = Identity {
+        serial: 42,
+        hardware_rev: 1,
+        firmware_version: isochor_core::app::VERSION,
+        protocol: 0,
+        max_frame_len: 0,
+        capabilities: 0,
+        config_capacity: 0,
+    };
+    let mut key = [0u8; 32];
+    OsNonces.fill_nonce(
+        (&mut key[..NONCE_LEN])
+            .try_into()
+            .unwrap_or(&mut [0; NONCE_LEN]),
+    );
+    let auth = || Authenticator::new(Secret::new(key), 42, Policy::default());
+    let mut svc = Service::new(identity.clone(), auth(), flash, lay.clone())?;
+    let (blob, _) = isochor_core::prepared::PreparedBuf::build(config)?;
+    let bytes = blob.bytes();
+    let crc = isochor_core::checksum::crc32c(bytes);
+    let mut off = 0;
+    for chunk in bytes.chunks(256) {
+        if let LoadStep::Complete(b) = svc.chunk(off as u32, bytes.len() as u32, crc, chunk)? {
+            svc.commit(b, Zero::default())?;
+        }
+        off += chunk.len();
+    }
+    let flash = svc.into_flash();
+    let mut slot = Box::new(None);
+    Gauge::new_in(
+        &mut slot,
+        identity,
+        auth(),
+        flash,
+        lay,
+        CopyMapper,
+        false,
+        BootReport::new(ResetReason::PowerOn, 1),
+    )?;
+    Ok(slot)
+}

@@ -39,6 +39,22 @@ impl Serial {
             .map(Serial)
             .map_err(|e| Error::Link(format!("serial port {path}: {e}")))
     }
+
+    /// Opens `path` at `baud` with `parity` and `stop` bits (a Modbus line).
+    pub fn open_with(
+        path: &str,
+        baud: u32,
+        parity: serialport::Parity,
+        stop: serialport::StopBits,
+    ) -> Result<Serial, Error> {
+        serialport::new(path, baud)
+            .parity(parity)
+            .stop_bits(stop)
+            .timeout(Duration::from_millis(100))
+            .open()
+            .map(Serial)
+            .map_err(|e| Error::Link(format!("serial port {path}: {e}")))
+    }
 }
 
 impl Transport for Serial {
