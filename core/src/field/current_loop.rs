@@ -240,7 +240,8 @@ impl LoopScalars {
         if self.gain == 0 || status.intersects(NOT_A_VALUE) {
             return failure;
         }
-        let v = v.clamp(self.lo, self.hi);
+        // max/min, not clamp: clamp asserts lo ≤ hi (a panic path).
+        let v = v.max(self.lo).min(self.hi);
         // 0 … (hi − lo) >> shift < 2³² (validated).
         let d = (v.wrapping_sub(self.lo) as u64) >> (self.shift & 63);
         let d = d.min(u64::from(u32::MAX));
