@@ -552,8 +552,8 @@ fn word(r: &Register, value: Option<i64>, i: u16) -> u16 {
         (Encoding::F32, None) => 0x7FC0_0000,
         (Encoding::I32(s), Some(v)) => u64::from(scaled_i32(v, s) as u32),
         (Encoding::I32(_), None) => 0x8000_0000,
-        (Encoding::U16, Some(v)) => v.max(0).min(0xFFFE) as u64,
-        (Encoding::U32, Some(v)) => v.max(0).min(0xFFFF_FFFE) as u64,
+        (Encoding::U16, Some(v)) => v.clamp(0, 0xFFFE) as u64,
+        (Encoding::U32, Some(v)) => v.clamp(0, 0xFFFF_FFFE) as u64,
         (Encoding::U64, Some(v)) => v as u64,
         (_, None) => u64::MAX,
     };
