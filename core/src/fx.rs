@@ -21,6 +21,7 @@
 //! | loop current, mA | [`Milliamps`] = `U8F24` | 0 … 256 mA | 6.0e-8 mA |
 //! | sensor coefficient (tempcos, polynomials, Steinhart–Hart, excitation) | [`Coefficient`] = `I16F48` | ±32 768 | 3.6e-15 |
 //! | calibration anchor (SI value of a corrected quantity) | [`Anchor`] = `I40F24` | ±5.5e11 | 6.0e-8 |
+//! | molar mass of a mixture, kg/mol | [`MolarMass`] = `U0F32` | 0 … 1 | 2.3e-10 (1.2e-7 relative at 2 g/mol) |
 //!
 //! # How the per-sample arithmetic stays cheap
 //!
@@ -80,6 +81,9 @@ pub type Milliamps = U8F24;
 pub type Coefficient = I16F48;
 /// An SI value that anchors a calibration correction (Pa or K).
 pub type Anchor = I40F24;
+/// Molar mass in kg/mol (of a mixture: the pure gases carry theirs as
+/// compile-time constants).
+pub type MolarMass = U0F32;
 
 /// A positive constant prepared for the fixed-point path: `mantissa × 2^-shift`
 /// with the mantissa normalised to `[2^31, 2^32)` (or zero).

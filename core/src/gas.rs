@@ -6,9 +6,15 @@
 //! and reference paths all use one molar mass per gas. They agree with the
 //! IUPAC/CIAAW 2021 standard atomic weights to better than 1e-4 relative (see
 //! the test below).
+//!
+//! A mixture ([`Gas::Mixture`]) is known to the core only by a fingerprint of
+//! its composition and its molar mass ([`Mixture`]): its equation of state
+//! (GERG-2008) lives on the host, which builds a device table for the
+//! composition; the table names the same mixture, so an estimator refuses a
+//! table of another composition.
 
 use crate::Error;
-use crate::fx::Coef;
+use crate::fx::{self, Coef};
 
 /// A gas this crate knows by name.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
@@ -41,7 +47,95 @@ pub enum Gas {
     Ethane,
     /// Propane, C3H8.
     Propane,
+    /// A mixture, identified by its composition (see [`Mixture`]).
+    Mixture(Mixture),
 }
+
+/// A mixture as the core knows it: the fingerprint of its composition and
+/// its molar mass. Two values are the same mixture when both agree.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Mixture {
+    /// CRC-32C of the composition's canonical form ([`Composition::fingerprint`];
+    /// hosts: `isochor_eos::composition::Composition::fingerprint`).
+    pub fingerprint: u32,
+    /// Molar mass Σ xᵢMᵢ, kg/mol.
+    pub molar_mass_kg_mol: fx::MolarMass,
+}
+
+/// Most components of a [`Composition`] (GERG-2008 has 21).
+pub const MAX_COMPONENTS: usize = 21;
+
+/// One part in a billion: the unit of a [`Composition`]'s mole fractions.
+pub const FRACTION_ONE: u32 = 1_000_000_000;
+
+/// A mixture's composition as a host writes it into a configuration (the
+/// canonical form [`Mixture::fingerprint`] is taken of): per component its
+/// GERG-2008 number (1…21, the order of Kunz & Wagner's component table)
+/// and its mole fraction in units of 1e-9, in increasing component order.
+/// Hosts name the components (`isochor_eos::composition`); a device never
+/// reads it.
+#[derive(Clone, Debug, Default, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub struct Composition {
+    /// (component number, mole fraction × 1e9), component numbers strictly
+    /// increasing.
+    pub parts: heapless::Vec<(u8, u32), MAX_COMPONENTS>,
+}
+
+impl Composition {
+    /// CRC-32C of the canonical form: per part its component number (one
+    /// byte) and fraction (u32, little-endian).
+    pub fn fingerprint(&self) -> u32 {
+        let mut c = crate::checksum::Crc32c::new();
+        for &(i, f) in &self.parts {
+            c.update(&[i]);
+            c.update(&f.to_le_bytes());
+        }
+        c.finish()
+    }
+
+    /// Checks the form: at least one part, component numbers 1…21 strictly
+    /// increasing, positive fractions summing to one within 1e-6 (the rule
+    /// of `--gas`).
+    pub fn validate(&self) -> Result<(), Error> {
+        let bad = Error::OutOfRange("composition");
+        let mut last = 0u8;
+        let mut sum = 0u64;
+        for &(i, f) in &self.parts {
+            if i <= last || usize::from(i) > MAX_COMPONENTS || f == 0 {
+                return Err(bad);
+            }
+            last = i;
+            sum += u64::from(f);
+        }
+        if self.parts.is_empty() || sum.abs_diff(u64::from(FRACTION_ONE)) > 1_000 {
+            return Err(bad);
+        }
+        Ok(())
+    }
+
+    /// True when this is the composition `m` was made from (same
+    /// fingerprint).
+    pub fn is_of(&self, m: &Mixture) -> bool {
+        self.fingerprint() == m.fingerprint
+    }
+}
+
+/// 1/R in mol·K/J (CODATA 2018), for a mixture's M/R.
+const INV_R: Coef = Coef::from_f64(1.0 / crate::constants::MOLAR_GAS_CONSTANT_J_MOL_K);
+
+/// What the core reports of a mixture through [`Gas::info`]: its own molar
+/// mass is [`Gas::molar_mass_kg_mol`]; no critical point (NaN).
+const MIXTURE: GasInfo = GasInfo {
+    name: "mixture",
+    formula: "",
+    molar_mass_kg_mol: f64::NAN,
+    critical_temperature_k: f64::NAN,
+    critical_pressure_pa: f64::NAN,
+    source: "GERG-2008: Kunz & Wagner, J. Chem. Eng. Data 57, 3032 (2012)",
+    m_over_r: Coef::ZERO,
+    inv_molar_mass: Coef::ZERO,
+};
 
 /// What the crate knows about one gas.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -210,9 +304,11 @@ impl Gas {
         Gas::Propane,
     ];
 
-    /// What the crate knows about this gas.
+    /// What the crate knows about this gas (a mixture's molar mass is not
+    /// here: see [`Gas::molar_mass_kg_mol`]).
     pub const fn info(self) -> &'static GasInfo {
         match self {
+            Gas::Mixture(_) => &MIXTURE,
             Gas::Nitrogen => &NITROGEN,
             Gas::Oxygen => &OXYGEN,
             Gas::Argon => &ARGON,
@@ -235,14 +331,57 @@ impl Gas {
     }
 
     /// Molar mass in kg/mol.
-    pub const fn molar_mass_kg_mol(self) -> f64 {
-        self.info().molar_mass_kg_mol
+    pub fn molar_mass_kg_mol(self) -> f64 {
+        match self {
+            Gas::Mixture(m) => fx::to_f64(m.molar_mass_kg_mol),
+            g => g.info().molar_mass_kg_mol,
+        }
+    }
+
+    /// M/R in kg·K/J as a fixed-point constant: compile-time for a pure gas,
+    /// computed (preparation time) from a mixture's molar mass.
+    pub(crate) fn m_over_r(self) -> Coef {
+        match self {
+            Gas::Mixture(m) => mixture_coefs(m).0,
+            g => g.info().m_over_r,
+        }
+    }
+
+    /// 1/M in mol/kg as a fixed-point constant (like [`Gas::m_over_r`]).
+    pub(crate) fn inv_molar_mass(self) -> Coef {
+        match self {
+            Gas::Mixture(m) => mixture_coefs(m).1,
+            g => g.info().inv_molar_mass,
+        }
+    }
+
+    /// The mixture, if this is one.
+    pub const fn mixture(self) -> Option<Mixture> {
+        match self {
+            Gas::Mixture(m) => Some(m),
+            _ => None,
+        }
     }
 
     /// True when the gas can be liquid or two-phase somewhere in the
-    /// operating envelope (its critical temperature is above −60 °C).
+    /// operating envelope (its critical temperature is above −60 °C; a
+    /// mixture: always, as far as the core knows).
     pub fn liquefiable_in_envelope(self) -> bool {
-        self.info().critical_temperature_k > crate::envelope::TEMPERATURE_MIN_K
+        match self {
+            Gas::Mixture(_) => true,
+            g => g.info().critical_temperature_k > crate::envelope::TEMPERATURE_MIN_K,
+        }
+    }
+
+    /// The flag a gas model raises for states outside the single-phase gas
+    /// region: [`Status::TWO_PHASE`](crate::Status::TWO_PHASE) for a pure
+    /// gas, [`Status::CONDENSATION_RISK`](crate::Status::CONDENSATION_RISK)
+    /// for a mixture.
+    pub const fn phase_flag(self) -> crate::Status {
+        match self {
+            Gas::Mixture(_) => crate::Status::CONDENSATION_RISK,
+            _ => crate::Status::TWO_PHASE,
+        }
     }
 
     /// Looks a gas up by name or formula, ignoring case; `-`, `_` and spaces
@@ -258,6 +397,16 @@ impl Gas {
             })
             .ok_or(Error::UnknownGas)
     }
+}
+
+/// A mixture's M/R and 1/M as prepared constants (preparation time; kept
+/// out of line so that pure-gas builds pay one call for it).
+#[cold]
+#[inline(never)]
+fn mixture_coefs(m: Mixture) -> (Coef, Coef) {
+    // U0F32 bits: 32 fraction bits.
+    let mm = Coef::from_raw(m.molar_mass_kg_mol.to_bits() as u64, 32);
+    (mm.mul(INV_R), mm.recip().unwrap_or(Coef::ZERO))
 }
 
 fn same_name(ours: &str, theirs: &str) -> bool {
@@ -319,6 +468,48 @@ mod tests {
         // equation, which is the value used here (2.4e-4 apart).
         let air = 0.7812 * 28.013_48 + 0.0092 * 39.948 + 0.2096 * 31.9988;
         assert!((Gas::Air.molar_mass_kg_mol() * 1000.0 - air).abs() / air < 3e-4);
+    }
+
+    #[test]
+    fn mixture_constants_are_computed_from_its_molar_mass() {
+        // Argon 82 %, carbon dioxide 18 % (GERG-2008 molar masses).
+        let m = 0.82 * 0.039_948 + 0.18 * 0.044_009_5;
+        let g = Gas::Mixture(Mixture {
+            fingerprint: 7,
+            molar_mass_kg_mol: fx::MolarMass::from_num(m),
+        });
+        assert!((g.molar_mass_kg_mol() / m - 1.0).abs() < 1e-8);
+        let k = g.molar_mass_kg_mol() / crate::constants::MOLAR_GAS_CONSTANT_J_MOL_K;
+        assert!((g.m_over_r().to_f64() / k - 1.0).abs() < 1e-9);
+        assert!((g.inv_molar_mass().to_f64() * g.molar_mass_kg_mol() - 1.0).abs() < 1e-9);
+        assert_eq!(g.phase_flag(), crate::Status::CONDENSATION_RISK);
+        assert_eq!(Gas::Nitrogen.phase_flag(), crate::Status::TWO_PHASE);
+        // Another fingerprint is another mixture.
+        let other = Gas::Mixture(Mixture {
+            fingerprint: 8,
+            molar_mass_kg_mol: fx::MolarMass::from_num(m),
+        });
+        assert_ne!(g, other);
+    }
+
+    #[test]
+    fn pure_gases_encode_as_before_mixtures_and_a_mixture_round_trips() {
+        // Postcard (the prepared configuration and its source): a pure gas is
+        // one byte, its variant; a mixture is its variant (13), then its
+        // fingerprint and molar mass bits as varints.
+        let mut buf = [0u8; 16];
+        assert_eq!(
+            postcard::to_slice(&Gas::Propane, &mut buf).unwrap(),
+            &[12u8]
+        );
+        let g = Gas::Mixture(Mixture {
+            fingerprint: u32::MAX,
+            molar_mass_kg_mol: fx::MolarMass::MAX,
+        });
+        let enc = postcard::to_slice(&g, &mut buf).unwrap();
+        assert_eq!(enc.len(), 11);
+        assert_eq!(enc[0], 13);
+        assert_eq!(postcard::from_bytes::<Gas>(enc).unwrap(), g);
     }
 
     #[test]

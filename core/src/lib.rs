@@ -73,7 +73,7 @@ pub use error::Error;
 /// The fixed-point crate the device formats come from (re-exported so users
 /// name the same types).
 pub use fixed;
-pub use gas::{Gas, GasInfo};
+pub use gas::{Composition, Gas, GasInfo, Mixture};
 pub use real::Real;
 pub use setup::{Setup, SetupFx, StandardCondition, StandardConditionFx, Tank, TankFx};
 pub use status::Status;

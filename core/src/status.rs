@@ -11,7 +11,12 @@
 //! | 0–7   | content estimate and gas model           |
 //! | 8–15  | sensors and plausibility                 |
 //! | 16–23 | tracking over time and alarms (bit 23: the per-estimate over-fill verdict beside the debounced `over_pressure` alarm) |
-//! | 24–31 | device: configuration, storage, link     |
+//! | 24–30 | device: configuration, storage, link     |
+//! | 31    | content: a mixture's `condensation_risk` (the content range was full) |
+//!
+//! Every bit is named: bit 31 was the last free one. Content flags are those
+//! of [`Status::CONTENT_RANGE`] and bit 31; [`Status::DEVICE_RANGE`] is bits
+//! 24–30.
 
 use core::fmt;
 use core::ops::{BitAnd, BitOr, BitOrAssign};
@@ -115,6 +120,14 @@ flags! {
     /// reported in its boot message. Latched until alarms are cleared by a
     /// signed command.
     RESTARTED_AFTER_FAULT = 30, "restarted_after_fault";
+    /// A mixture is outside the single-phase range of its gas model: below
+    /// its cricondentherm, at or above the dew pressure where a liquid can
+    /// form (the stability limit found at build time by the tangent-plane
+    /// test on GERG-2008). Liquid may have dropped out: pressure does not tell
+    /// the content, and the content outputs are not valid. (Pure gases raise
+    /// [`Status::TWO_PHASE`] instead.) A content flag in the device range:
+    /// bit 31 was the last free bit (see the module documentation).
+    CONDENSATION_RISK = 31, "condensation_risk";
     /// A resistive sensor or its wiring is open (resistance above the open
     /// threshold, or the converter driven to its upper rail by an open input).
     SENSOR_OPEN_CIRCUIT = 8, "sensor_open_circuit";
@@ -154,12 +167,14 @@ impl Status {
     pub const SENSOR_RANGE: Status = Status(0x0000_FF00);
     /// Every bit of the tracking-and-alarm range (bits 16–23).
     pub const TRACKING_RANGE: Status = Status(0x00FF_0000);
-    /// Every bit of the device range (bits 24–31).
-    pub const DEVICE_RANGE: Status = Status(0xFF00_0000);
+    /// Every bit of the device range (bits 24–30; bit 31 is the content flag
+    /// [`Status::CONDENSATION_RISK`]).
+    pub const DEVICE_RANGE: Status = Status(0x7F00_0000);
 
     /// Flags after which the content outputs (density, mass, amount, standard
     /// volume, settled pressure, fill fraction, and Z) must not be shown as
-    /// valid numbers: the vessel holds liquid (two-phase or liquid-full), or
+    /// valid numbers: the vessel holds liquid (two-phase or liquid-full), a
+    /// mixture may have condensed ([`Status::CONDENSATION_RISK`]), or
     /// the sample lay outside the envelope (the outputs are then those of
     /// the envelope's edge, which is not where the tank is). The tracker
     /// leaves such samples out of its blocks; its alarms still judge them
@@ -169,8 +184,13 @@ impl Status {
         Status::TWO_PHASE.0
             | Status::LIQUID_FULL.0
             | Status::PRESSURE_OUTSIDE_ENVELOPE.0
-            | Status::TEMPERATURE_OUTSIDE_ENVELOPE.0,
+            | Status::TEMPERATURE_OUTSIDE_ENVELOPE.0
+            | Status::CONDENSATION_RISK.0,
     );
+    /// Either flag of a state outside the single-phase gas region: a pure
+    /// gas's [`Status::TWO_PHASE`] or a mixture's
+    /// [`Status::CONDENSATION_RISK`].
+    pub const NOT_SINGLE_PHASE: Status = Status(Status::TWO_PHASE.0 | Status::CONDENSATION_RISK.0);
 
     /// The raw bits, for the wire.
     pub const fn bits(self) -> u32 {
@@ -303,6 +323,29 @@ mod tests {
         let s = Status::SATURATED | Status::TWO_PHASE;
         assert_eq!(s.to_string(), "saturated,two_phase");
         assert_eq!(Status::OK.to_string(), "ok");
-        assert_eq!(Status::from_bits(1 << 31).to_string(), "bits_0x80000000");
+        assert_eq!(
+            (Status::CONDENSATION_RISK | Status::TWO_PHASE).to_string(),
+            "two_phase,condensation_risk"
+        );
+    }
+
+    #[test]
+    fn every_bit_is_named_and_the_ranges_split_the_word() {
+        // Bit 31 was the last free bit: no bit is left without a name.
+        assert_eq!(Status::from_bits(u32::MAX).unnamed_bits(), 0);
+        let ranges = [
+            Status::CONTENT_RANGE,
+            Status::SENSOR_RANGE,
+            Status::TRACKING_RANGE,
+            Status::DEVICE_RANGE,
+            Status::CONDENSATION_RISK,
+        ];
+        assert_eq!(ranges.iter().fold(0, |a, r| a | r.bits()), u32::MAX);
+        assert_eq!(
+            ranges.iter().map(|r| r.bits().count_ones()).sum::<u32>(),
+            32
+        );
+        assert!(!Status::DEVICE_RANGE.intersects(Status::CONDENSATION_RISK));
+        assert!(Status::CONTENT_INVALID.contains(Status::NOT_SINGLE_PHASE));
     }
 }

@@ -149,7 +149,7 @@ fn liquefiable_gases_flag_two_phase_and_liquid_full() {
     // its own (the margin between them is 1/8 of the vapour pressure, see
     // LIQUID_FULL_MARGIN). The device model in both arithmetics and the
     // reference equation agree.
-    let reference = |gas| isochor_eos::reference::ReferenceModel::new(gas);
+    let reference = |gas| isochor_eos::reference::ReferenceModel::new(gas).unwrap();
     for (gas, p_sat) in [(Gas::CarbonDioxide, 50.85e5), (Gas::Propane, 7.3e5)] {
         let m = DeviceModel::builtin(gas).unwrap();
         let r = reference(gas);

@@ -152,3 +152,50 @@ fn committed_firmware_configuration_is_current() {
         assert_eq!(x.status, y.status, "sample {i}");
     }
 }
+
+#[test]
+fn a_mixture_prepares_with_its_table_and_composition() {
+    use isochor_eos::composition::GasSpec;
+    use isochor_eos::fluid::Fluid;
+    use isochor_eos::model::{BuildSpec, build};
+
+    let spec = GasSpec::parse("argon=82%,carbon_dioxide=18%").unwrap();
+    let GasSpec::Mixture(comp) = &spec else {
+        panic!("a mixture")
+    };
+    let gas = spec.gas();
+    let table = build(&BuildSpec::for_fluid(Fluid::of(&spec)))
+        .unwrap()
+        .table;
+    let mut cfg = GaugeConfig::nominal(setup(gas, 0.05, 200e5));
+    // No built-in table names a mixture, and a mixture names its composition.
+    assert!(PreparedBuf::build(&cfg).is_err());
+    cfg.model = Some(table);
+    assert!(cfg.validate().is_err(), "composition missing");
+    cfg.composition = spec.core_composition();
+    let (buf, _) = PreparedBuf::build(&cfg).unwrap();
+    let p = buf.prepared().unwrap();
+    assert_eq!(p.scalars().model.gas, gas);
+    // The device's pipeline starts on it.
+    isochor_core::app::fixed::Pipeline::new(
+        buf.prepared().unwrap(),
+        isochor_core::app::Zero::default(),
+    )
+    .unwrap();
+    // Read back, the composition is the one given (same fingerprint).
+    let back = p.source_config().unwrap();
+    assert_eq!(back, cfg);
+    let read =
+        isochor_eos::composition::Composition::from_core(&back.composition.unwrap()).unwrap();
+    assert_eq!(read.fingerprint(), comp.fingerprint());
+    assert_eq!(read.to_string(), comp.to_string());
+    // Another composition, or one on a pure gas, is refused.
+    let mut other = cfg.clone();
+    other.composition = GasSpec::parse("argon=80%,carbon_dioxide=20%")
+        .unwrap()
+        .core_composition();
+    assert!(PreparedBuf::build(&other).is_err());
+    let mut pure = GaugeConfig::nominal(setup(Gas::Argon, 0.05, 200e5));
+    pure.composition = spec.core_composition();
+    assert!(PreparedBuf::build(&pure).is_err());
+}

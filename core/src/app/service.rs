@@ -109,7 +109,7 @@ impl<F: NorFlash> Service<F> {
         &mut self.auth
     }
 
-    /// Device status flags (bits 24–31) of the storage and the signatures.
+    /// Device status flags (bits 24–30) of the storage and the signatures.
     pub fn status(&self, now: Instant) -> Status {
         let c = &self.config;
         let mut s = origin_status(c.origin, c.damaged);

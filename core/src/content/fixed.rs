@@ -230,8 +230,8 @@ impl<M: CompressibilityFx> Estimator<M> {
         if model.gas() != setup.gas {
             return Err(Error::ModelUnusable("gas of the setup"));
         }
-        let gas = setup.gas.info();
-        let k = gas.m_over_r;
+        let k = setup.gas.m_over_r();
+        let inv_molar_mass = setup.gas.inv_molar_mass();
         let tank = setup.tank;
 
         // Largest density reachable: p_max·(M/R)/(T_min·Z_floor); it sets the
@@ -251,7 +251,7 @@ impl<M: CompressibilityFx> Estimator<M> {
         let rho_shift = (bound.shift() - 1).clamp(8, 31) as u32;
 
         let mass = Coef::from_raw(tank.water_capacity_m3.to_bits(), EXT_FRAC);
-        let amount = mass.mul(gas.inv_molar_mass);
+        let amount = mass.mul(inv_molar_mass);
         let mut est = Estimator {
             setup,
             model,
@@ -270,7 +270,7 @@ impl<M: CompressibilityFx> Estimator<M> {
                     setup.settled_reference_k.to_bits() as u64,
                     T_FRAC,
                 ))
-                .mul(gas.inv_molar_mass),
+                .mul(inv_molar_mass),
             inv_t_ref: recip(Coef::from_raw(
                 setup.settled_reference_k.to_bits() as u64,
                 T_FRAC,

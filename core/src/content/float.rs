@@ -68,9 +68,8 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
         if model.gas() != setup.gas {
             return Err(Error::ModelUnusable("gas of the setup"));
         }
-        let gas = setup.gas.info();
         let r = F::lit(MOLAR_GAS_CONSTANT_J_MOL_K);
-        let molar_mass = F::lit(gas.molar_mass_kg_mol);
+        let molar_mass = F::lit(setup.gas.molar_mass_kg_mol());
         let k = molar_mass / r;
         let tank = setup.tank;
         let mut est = Estimator {

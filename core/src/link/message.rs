@@ -126,7 +126,10 @@ pub struct Telemetry {
     /// content per day (positive: content lost): raw bits of `I32F32`
     /// ([`fx::FractionRate`]); `None` until it has a verdict.
     pub leak_loss_per_day: Option<i64>,
-    /// Status word bits ([`Status::bits`]).
+    /// Status word bits ([`Status::bits`]): bits 0–7 content and gas
+    /// model, 8–15 sensors, 16–23 tracking and alarms, 24–30 device, 31
+    /// the content flag `condensation_risk` (all content flags that void
+    /// the figures: [`Status::CONTENT_INVALID`]).
     pub status: u32,
 }
 

@@ -10,8 +10,8 @@
 //! * [`CompressibilityFx`] — the fixed-point form for devices.
 //!
 //! A model reports trouble through [`Status`] flags in its answer
-//! ([`Status::MODEL_OUT_OF_RANGE`], [`Status::TWO_PHASE`], [`Status::LIQUID_FULL`]);
-//! it never fails.
+//! ([`Status::MODEL_OUT_OF_RANGE`], [`Status::TWO_PHASE`], [`Status::LIQUID_FULL`],
+//! and for mixtures [`Status::CONDENSATION_RISK`]); it never fails.
 //! Models are per gas: one value answers for one gas.
 
 pub mod device;
@@ -32,7 +32,8 @@ pub struct ZPoint<F = f64> {
     /// ∂Z/∂T at constant p, per K.
     pub dz_dt_per_k: F,
     /// [`Status::MODEL_OUT_OF_RANGE`] and/or [`Status::TWO_PHASE`] or
-    /// [`Status::LIQUID_FULL`] when they apply.
+    /// [`Status::LIQUID_FULL`] (a mixture: [`Status::CONDENSATION_RISK`])
+    /// when they apply.
     pub flags: Status,
 }
 

@@ -22,7 +22,7 @@ use crate::sensor::channel::float::{PressureChannel, TemperatureChannel};
 use crate::sensor::plausibility::PlausibilityConfig;
 use crate::sensor::plausibility::fixed::Checker;
 use crate::track::fixed::TrackConfigFx;
-use crate::{Error, SetupFx, fx};
+use crate::{Composition, Error, SetupFx, fx};
 
 /// A gauge's physical configuration: what a person writes down, and what a
 /// host prepares ([`PreparedBuf::build`]).
@@ -47,6 +47,10 @@ pub struct GaugeConfig {
     /// The serial line (Modbus address, baud rate, parity, protocol on a
     /// one-UART board) and the 4–20 mA output.
     pub field: FieldConfig,
+    /// A mixture's composition (hosts show it when they read the
+    /// configuration back; the device needs only the table and the molar
+    /// mass in the setup's gas); `None` for a pure gas.
+    pub composition: Option<Composition>,
 }
 
 /// The plausibility checks of both channels.
@@ -88,6 +92,7 @@ impl GaugeConfig {
             model: None,
             plausibility: None,
             field: FieldConfig::default(),
+            composition: None,
         }
     }
 
@@ -110,6 +115,17 @@ impl GaugeConfig {
             if t.gas != self.setup.gas {
                 return Err(Error::ModelUnusable("gas of the setup"));
             }
+        }
+        // A mixture names its composition; a pure gas has none.
+        match (self.setup.gas.mixture(), &self.composition) {
+            (None, None) => {}
+            (Some(m), Some(c)) => {
+                c.validate()?;
+                if !c.is_of(&m) {
+                    return Err(Error::OutOfRange("composition of the setup's mixture"));
+                }
+            }
+            _ => return Err(Error::OutOfRange("composition of the setup's gas")),
         }
         Ok(())
     }

@@ -31,8 +31,10 @@
 
 use super::float::TrackConfig;
 use super::{
-    DAY_HOURS, HOUR_MS, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
-    SETTLE_WINDOW, TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    DAY_HOURS, EARLY_FACTOR_Q8, EARLY_MIN_PAIRS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS,
+    EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW,
+    SETTLE_TIME_CONSTANTS, SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR,
+    TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -56,6 +58,10 @@ const QF: u32 = 36;
 const SMOOTH_FRAC: u32 = 16;
 /// 1/(24 × 24): from the ×24 daily loss in fraction per day to per hour.
 const PER_576: Coef = Coef::from_f64(1.0 / 576.0);
+/// [`EPISODE_RATE_PER_H`] in Q36 (fraction of the rated content per hour).
+const EPISODE_Q36: i64 = (EPISODE_RATE_PER_H * (1u64 << QF) as f64 + 0.5) as i64;
+/// [`STEADY_FLOOR_PER_H`] in Q36.
+const STEADY_FLOOR_Q36: i64 = (STEADY_FLOOR_PER_H * (1u64 << QF) as f64 + 0.5) as i64;
 /// Largest raw input smoothed (2^31 − 1: far outside the envelope already).
 const RAW_MAX: u32 = i32::MAX as u32;
 
@@ -213,6 +219,8 @@ pub struct RateFx {
     pub confidence: fx::Fraction,
     /// Blocks in the fit.
     pub blocks: u32,
+    /// The window holds a steady draw (false: no time to empty).
+    pub steady: bool,
 }
 
 /// Thermal settling state and prediction, fixed-point form.
@@ -340,8 +348,21 @@ pub struct Tracker<M> {
     hour_sum: u64,
     hour_blocks: u32,
     day_ring: [u32; LEAK_RING],
+    /// The block temperature at each hour's close beside `day_ring`, K in
+    /// Q7 (1/128 K, below 512 K).
+    day_t: [u16; LEAK_RING],
+    /// The leak margin's lag factor, 3·u_τ/23 h in Q16 (u_τ the temperature
+    /// lag uncertainty; below 2^16 for any accepted one).
+    lag_q16: u64,
     day_len: usize,
     learned24: Option<i64>,
+    // Draw episodes: one is going on, its blocks, and until when the leak
+    // ring stays empty after the last one.
+    episode: bool,
+    episode_blocks: u32,
+    leak_hold_until: Instant,
+    /// The rate of the last block, fraction of the rated content per hour, Q36.
+    rate_per_h: Option<i64>,
     // Settling.
     settle_active: bool,
     settle_blocks: usize,
@@ -432,8 +453,22 @@ impl<M: CompressibilityFx> Tracker<M> {
             hour_sum: 0,
             hour_blocks: 0,
             day_ring: [0; LEAK_RING],
+            day_t: [0; LEAK_RING],
+            lag_q16: ((LAG_MARGIN
+                * effective_lag(
+                    cfg.uncertainty.temperature_lag,
+                    cfg.smoothing_pressure,
+                    cfg.smoothing_temperature,
+                )
+                .0)
+                << 16)
+                / (HOUR_MS * (DAY_HOURS as u64 - 1)),
             day_len: 0,
             learned24: None,
+            episode: false,
+            episode_blocks: 0,
+            leak_hold_until: Instant(0),
+            rate_per_h: None,
             settle_active: false,
             settle_blocks: 0,
             settle_since: Instant(0),
@@ -526,6 +561,8 @@ impl<M: CompressibilityFx> Tracker<M> {
                 }
             }
             self.last_at = Some(at);
+        } else {
+            self.withdraw_if_stale(at);
         }
 
         probe::enter(Stage::Alarms);
@@ -566,6 +603,20 @@ impl<M: CompressibilityFx> Tracker<M> {
             rated_pressure_now_pa: self.rated_pressure_now_pa,
             events,
             status: content_status | sensor | self.alarms.active().status(),
+        }
+    }
+
+    /// At a flagged sample: once the last usable one is older than
+    /// `max_gap`, the content and what rests on it are withdrawn (see
+    /// [`super`]; a usable sample restarts the windows).
+    fn withdraw_if_stale(&mut self, at: Instant) {
+        if self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap) {
+            self.content = None;
+            self.uncertainty = None;
+            self.rate = None;
+            self.rate_per_h = None;
+            self.tte = None;
+            self.predicted = None;
         }
     }
 
@@ -747,8 +798,9 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
         self.rate_and_time_to_empty(content);
+        self.episodes(end);
         self.settle(end, mean, content.temperature_k);
-        self.leak_block(mean);
+        self.leak_block(end, mean);
         probe::enter(Stage::Uncertainty);
         self.uncertainty = Some(self.unc.evaluate(&self.est.with_slopes(content)));
         probe::enter(Stage::Track);
@@ -764,6 +816,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         let n = self.ring_len.min(RATE_WINDOW);
         if n < RATE_MIN_BLOCKS {
             self.rate = None;
+            self.rate_per_h = None;
             self.tte = None;
             return;
         }
@@ -771,6 +824,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         let temp = self.temperature_fit(n, self.t_len);
         let bph = self.blocks_per_hour as i64;
         let per_h = -fit.slope * bph;
+        self.rate_per_h = Some(per_h);
         // Fitted value at the window's end: mean + slope·(n − 1)/2.
         let end = fit.mean + fx::shr_round_i64(fit.slope * (n as i64 - 1), 1);
         let reserve = (self.cfg.reserve_fraction.to_bits() << (QF - 32)) as i64;
@@ -805,14 +859,40 @@ impl<M: CompressibilityFx> Tracker<M> {
             0
         };
         let kg_h = coef_mul(self.rated_mass, per_h, QF, 32);
+        // A steady draw? The newest SETTLE_WINDOW blocks' slope against the
+        // window's (see super), per hour in Q36.
+        let steady = n < 2 * SETTLE_WINDOW || {
+            // |short − long|·bph ≤ long·bph/8 + floor with short =
+            // 6·Σ(2i − 7)·y·2^8/504 (the slope of the newest 8 blocks, Q36
+            // per block; see `fit`), multiplied through by 504: no division.
+            // Σ < 2^35, × 6 · 2^8 < 2^46; long·504 < 2^46; × bph < 2^58.
+            let k = SETTLE_WINDOW as i64;
+            let den = k * (k * k - 1);
+            let sxy2: i64 = self
+                .ring
+                .iter()
+                .skip(RATE_WINDOW - SETTLE_WINDOW)
+                .enumerate()
+                .map(|(i, &y)| (2 * i as i64 - (k - 1)) * y as i64)
+                .sum();
+            let short504 = (sxy2 * 6) << (QF - Q);
+            let diff = (short504 - fit.slope * den)
+                .saturating_mul(bph)
+                .saturating_abs();
+            let allowed = (fit.slope.saturating_abs() * bph / STEADY_SHARE_DIVISOR as i64
+                + STEADY_FLOOR_Q36)
+                .saturating_mul(den);
+            diff <= allowed
+        };
         self.rate = Some(RateFx {
             kg_h: fx::MassRate::from_bits(kg_h),
             standard_m3_h: fx::VolumeRate::from_bits(coef_mul(self.rated_volume, per_h, QF, 32)),
             u_kg_h: fx::MassRate::from_bits(coef_mul(self.rated_mass, u_per_h, QF, 32)),
             confidence: fx::Fraction::from_bits(confidence),
             blocks: n as u32,
+            steady,
         });
-        self.tte = if per_h > 0 && left > 0 {
+        self.tte = if per_h > 0 && left > 0 && steady {
             // left < 2^41 (Q36, ≤ 16 + margin), × 3.6e6 < 2^63.
             let ms = |rate: i64| {
                 Millis(
@@ -872,9 +952,58 @@ impl<M: CompressibilityFx> Tracker<M> {
         }
     }
 
+    /// Draw episodes (see [`super`]): the rate above the episode threshold
+    /// starts one, below half of it ends one; the leak ring stays empty until
+    /// [`SETTLE_TIME_CONSTANTS`] settling time constants after its end.
+    fn episodes(&mut self, end: Instant) {
+        let Some(per_h) = self.rate_per_h else {
+            self.episode = false;
+            return;
+        };
+        let mut start = EPISODE_Q36;
+        if let Some(d24) = self.expected24() {
+            // d24: fraction per day × 24, Q28; per hour × factor in Q36:
+            // d24 · 2^8 · factor / 576 (d24 < 2^40).
+            let f = (EPISODE_EXPECTED_FACTOR as i64) << (QF - Q);
+            start = start.max(d24.saturating_mul(f) / (DAY_HOURS * DAY_HOURS) as i64);
+        }
+        if !self.episode && per_h > start {
+            self.episode = true;
+            self.episode_blocks = 0;
+        }
+        if self.episode {
+            self.episode_blocks = self.episode_blocks.saturating_add(1);
+            if per_h < start / 2 {
+                self.episode = false;
+                let hold = self.cfg.settle_time_constant.0 * SETTLE_TIME_CONSTANTS;
+                self.leak_hold_until = end + Millis(hold);
+            }
+        }
+    }
+
+    /// The expected draw of the in-use leak mode as a day sum (fraction per
+    /// day × 24, Q28; `None`: standby, or not learned yet).
+    fn expected24(&self) -> Option<i64> {
+        match self.cfg.leak_mode {
+            LeakMode::Standby => None,
+            LeakMode::InUse => self.declared24.or(self.learned24),
+        }
+    }
+
+    /// Whether the leak ring is held empty at a block ending at `end` with
+    /// mean `mean` (Q28; see [`super`]).
+    fn leak_held(&self, end: Instant, mean: u32) -> bool {
+        let long = self.cfg.leak_mode == LeakMode::Standby
+            && self.episode_blocks >= EPISODE_MAX_HOURS * self.blocks_per_hour;
+        self.settle_active
+            || (self.episode && !long)
+            || end < self.leak_hold_until
+            || ((mean as u64) << (32 - Q)) <= self.cfg.reserve_fraction.to_bits()
+    }
+
     /// Leak detection: hourly means into the two-day ring.
-    fn leak_block(&mut self, mean: u32) {
-        if self.settle_active {
+    fn leak_block(&mut self, end: Instant, mean: u32) {
+        if self.leak_held(end, mean) {
             self.reset_leak();
             return;
         }
@@ -894,24 +1023,39 @@ impl<M: CompressibilityFx> Tracker<M> {
         if let Some(last) = self.day_ring.last_mut() {
             *last = hour;
         }
+        self.day_t.rotate_left(1);
+        if let Some(last) = self.day_t.last_mut() {
+            // Q23 → Q7, rounded.
+            let t = self.t_ring.last().copied().unwrap_or(0);
+            *last = ((t as u64 + (1 << 15)) >> 16).min(u16::MAX as u64) as u16;
+        }
         self.day_len = (self.day_len + 1).min(LEAK_RING);
-        if self.day_len < LEAK_RING {
+        // Pairs of hours one day apart: the older k of the ring against the
+        // k a day later (24 once the ring is full; see super).
+        let k = self.day_len.saturating_sub(DAY_HOURS);
+        if k < EARLY_MIN_PAIRS {
             return;
         }
-        // Day sums (24 × the day means), Q28.
-        let older: i64 = self
-            .day_ring
-            .iter()
-            .take(DAY_HOURS)
-            .map(|&x| x as i64)
-            .sum();
-        let newer: i64 = self
-            .day_ring
-            .iter()
-            .skip(DAY_HOURS)
-            .map(|&x| x as i64)
-            .sum();
-        let loss24 = older - newer;
+        // Sums of the k hours of each side, Q28, as day sums (24 × the
+        // means: exact for k = 24, one 64-bit division each otherwise).
+        let sum = |from: usize| -> i64 {
+            self.day_ring
+                .iter()
+                .skip(from)
+                .take(k)
+                .map(|&x| x as i64)
+                .sum()
+        };
+        let (older_k, newer_k) = (sum(DAY_HOURS - k), sum(LEAK_RING - k));
+        let per_day = |v: i64| {
+            if k == DAY_HOURS {
+                v
+            } else {
+                v * DAY_HOURS as i64 / k as i64
+            }
+        };
+        let older = per_day(older_k);
+        let loss24 = per_day(older_k - newer_k);
         let expected24 = match self.cfg.leak_mode {
             LeakMode::Standby => 0,
             LeakMode::InUse => match self.declared24 {
@@ -919,16 +1063,23 @@ impl<M: CompressibilityFx> Tracker<M> {
                 None => match self.learned24 {
                     Some(d) => d,
                     None => {
-                        self.learned24 = Some(loss24.max(0));
+                        if k == DAY_HOURS {
+                            self.learned24 = Some(loss24.max(0));
+                        }
                         return;
                     }
                 },
             },
         };
         let excess24 = loss24 - expected24;
-        // θ·older: U0F32 × Q28 sum → Q28.
-        let limit =
+        // θ·older: U0F32 × Q28 sum → Q28; raised by the early factor (1/256)
+        // for fewer than 24 pairs.
+        let mut limit =
             ((self.cfg.leak_threshold_per_day.to_bits() as i128 * older as i128) >> 32) as i64;
+        if k < DAY_HOURS {
+            let f = EARLY_FACTOR_Q8.get(k).copied().unwrap_or(256) as i64;
+            limit = limit.saturating_mul(f) >> 8;
+        }
         let rel = |v: i64| {
             if older > 0 {
                 ((v as i128) << 32)
@@ -940,6 +1091,21 @@ impl<M: CompressibilityFx> Tracker<M> {
                 0
             }
         };
+        // The weather's margin (see super), on the day sum: older · |Δs|/T ·
+        // 3·u_τ/23 h, Δs and T in Q7 (Δs over the k hours of each side, brought
+        // to 23 h), |Δs|/T in Q32 (one 64-bit division, |Δs| < 2^22), older
+        // narrowed by 8 bits before it multiplies (< 2^61), then the lag
+        // factor in Q16 (`lag_q16`).
+        let t = |i: usize| self.day_t.get(i).copied().unwrap_or(0) as i64;
+        let mut ds = ((t(LEAK_RING - 1) - t(LEAK_RING - k))
+            - (t(DAY_HOURS - 1) - t(DAY_HOURS - k)))
+        .unsigned_abs();
+        if k < DAY_HOURS {
+            ds = ds * (DAY_HOURS as u64 - 1) / (k as u64 - 1);
+        }
+        let ratio = (ds << 32).checked_div(t(DAY_HOURS) as u64).unwrap_or(0);
+        let x = ((older.max(0) as u64 >> 8).saturating_mul(ratio)) >> 24;
+        let margin24 = (x.saturating_mul(self.lag_q16) >> 16).min(i64::MAX as u64) as i64;
         self.leak = Some(LeakFx {
             loss_per_day: fx::FractionRate::from_bits(rel(loss24)),
             excess_per_day: fx::FractionRate::from_bits(rel(excess24)),
@@ -949,7 +1115,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 Q,
                 32,
             )),
-            leaking: excess24 > limit,
+            leaking: excess24 > limit.saturating_add(margin24),
         });
     }
 

@@ -2,8 +2,10 @@
 //! [`super`], mirrored step by step by [`super::fixed`]).
 
 use super::{
-    DAY_HOURS, HOUR_MS, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
-    SETTLE_WINDOW, TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    DAY_HOURS, EARLY_FACTOR_Q8, EARLY_MIN_PAIRS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS,
+    EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW,
+    SETTLE_TIME_CONSTANTS, SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR,
+    TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::float::{Inputs, LevelInputs, Limits};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -131,6 +133,9 @@ pub struct Rate<F = f64> {
     pub confidence: F,
     /// Blocks in the fit.
     pub blocks: u32,
+    /// The window holds a steady draw (false: a draw started, stopped or
+    /// changed within it, and no time to empty is given; see [`super`]).
+    pub steady: bool,
 }
 
 /// Time until the content reaches the reserve at the present rate.
@@ -263,8 +268,20 @@ pub struct Tracker<F: Real, M> {
     hour_sum: F,
     hour_blocks: u32,
     day_ring: [F; LEAK_RING],
+    /// The block temperature at each hour's close beside `day_ring`, K
+    /// (rounded to 1/128 K as the fixed path keeps it).
+    day_t: [F; LEAK_RING],
+    /// The temperature lag uncertainty of the leak margin, ms.
+    lag_ms: u64,
     day_len: usize,
     learned_draw_per_day: Option<F>,
+    // Draw episodes: one is going on, its blocks, and until when the leak
+    // ring stays empty after the last one.
+    episode: bool,
+    episode_blocks: u32,
+    leak_hold_until: Instant,
+    /// The rate of the last block, fraction of the rated content per hour.
+    rate_per_h: Option<F>,
     // Settling.
     settle_active: bool,
     settle_blocks: usize,
@@ -298,6 +315,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         let rated = est.estimate(tank.rated_pressure_pa, tank.rated_temperature_k)?;
         let rated_mass_kg = est.rated_mass_kg();
         let blocks_per_hour = (HOUR_MS / cfg.block.0) as u32;
+        let lag_ms = unc.config().temperature_lag.0;
         Ok(Tracker {
             unc,
             alarms: Alarms::new(cfg.debounce),
@@ -322,8 +340,14 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             hour_sum: F::ZERO,
             hour_blocks: 0,
             day_ring: [F::ZERO; LEAK_RING],
+            day_t: [F::ZERO; LEAK_RING],
+            lag_ms,
             day_len: 0,
             learned_draw_per_day: None,
+            episode: false,
+            episode_blocks: 0,
+            leak_hold_until: Instant(0),
+            rate_per_h: None,
             settle_active: false,
             settle_blocks: 0,
             settle_since: Instant(0),
@@ -404,6 +428,8 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 }
             }
             self.last_at = Some(at);
+        } else {
+            self.withdraw_if_stale(at);
         }
 
         let level = self.content.map(|c| LevelInputs {
@@ -444,6 +470,20 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             events,
             status: content_status | sensor | self.alarms.active().status(),
         })
+    }
+
+    /// At a flagged sample: once the last usable one is older than
+    /// `max_gap`, the content and what rests on it are withdrawn (see
+    /// [`super`]; a usable sample restarts the windows).
+    fn withdraw_if_stale(&mut self, at: Instant) {
+        if self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap) {
+            self.content = None;
+            self.uncertainty = None;
+            self.rate = None;
+            self.rate_per_h = None;
+            self.tte = None;
+            self.predicted = None;
+        }
     }
 
     /// The time to empty the low-content alarm may use: a rate known to
@@ -605,8 +645,9 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
         self.rate_and_time_to_empty(content);
+        self.episodes(end);
         self.settle(end, mean, content.temperature_k);
-        self.leak_block(mean);
+        self.leak_block(end, mean);
         self.uncertainty = Some(self.unc.evaluate(content));
         self.rated_pressure_now_pa = Some(self.est.pressure_at(F::ONE, content.temperature_k).0);
     }
@@ -616,6 +657,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         let n = self.ring_len.min(RATE_WINDOW);
         if n < RATE_MIN_BLOCKS {
             self.rate = None;
+            self.rate_per_h = None;
             self.tte = None;
             return;
         }
@@ -623,6 +665,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         let temp = self.temperature_fit(n, self.t_len);
         let bph = F::lit(self.blocks_per_hour as f64);
         let per_h = -fit.slope * bph;
+        self.rate_per_h = Some(per_h);
         let end = fit.mean + fit.slope * F::lit((n - 1) as f64 / 2.0);
         let left = end - self.cfg.reserve_fraction;
         // Standard uncertainties of the rate (the fit's scatter, the
@@ -651,14 +694,23 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             F::ZERO
         };
         let kg_h = per_h * self.rated_mass_kg;
+        // A steady draw? The newest SETTLE_WINDOW blocks' slope against the
+        // window's (see super).
+        let steady = n < 2 * SETTLE_WINDOW || {
+            let short = self.fit(SETTLE_WINDOW).slope;
+            let allowed = F::lit(1.0 / STEADY_SHARE_DIVISOR as f64) * fit.slope.abs() * bph
+                + F::lit(STEADY_FLOOR_PER_H);
+            (short - fit.slope).abs() * bph <= allowed
+        };
         self.rate = Some(Rate {
             kg_h,
             standard_m3_h: kg_h * self.standard_m3_per_kg,
             u_kg_h: u_per_h * self.rated_mass_kg,
             confidence,
             blocks: n as u32,
+            steady,
         });
-        self.tte = if per_h > F::ZERO && left > F::ZERO {
+        self.tte = if per_h > F::ZERO && left > F::ZERO && steady {
             let ms = |rate: F| Millis((left / rate * F::lit(HOUR_MS as f64)).to_f64() as u64);
             // The bounds: left/(rate ± U) with U the rate spread of the
             // time to empty's own budget (k = 2).
@@ -701,9 +753,58 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         }
     }
 
+    /// Draw episodes (see [`super`]): the rate above the episode threshold
+    /// starts one, below half of it ends one; the leak ring stays empty until
+    /// [`SETTLE_TIME_CONSTANTS`] settling time constants after its end.
+    fn episodes(&mut self, end: Instant) {
+        let Some(per_h) = self.rate_per_h else {
+            self.episode = false;
+            return;
+        };
+        let mut start = F::lit(EPISODE_RATE_PER_H);
+        if let Some(d) = self.expected_per_day() {
+            start = start.max(F::lit(EPISODE_EXPECTED_FACTOR as f64 / DAY_HOURS as f64) * d);
+        }
+        if !self.episode && per_h > start {
+            self.episode = true;
+            self.episode_blocks = 0;
+        }
+        if self.episode {
+            self.episode_blocks = self.episode_blocks.saturating_add(1);
+            if per_h < start / F::lit(2.0) {
+                self.episode = false;
+                let hold = self.cfg.settle_time_constant.0 * SETTLE_TIME_CONSTANTS;
+                self.leak_hold_until = end + Millis(hold);
+            }
+        }
+    }
+
+    /// The expected draw of the in-use leak mode, fraction of the rated
+    /// content per day (`None`: standby, or not learned yet).
+    fn expected_per_day(&self) -> Option<F> {
+        match (self.cfg.leak_mode, self.cfg.declared_draw_kg_h) {
+            (LeakMode::Standby, _) => None,
+            (LeakMode::InUse, Some(kg_h)) => {
+                Some(kg_h * F::lit(DAY_HOURS as f64) / self.rated_mass_kg)
+            }
+            (LeakMode::InUse, None) => self.learned_draw_per_day,
+        }
+    }
+
+    /// Whether the leak ring is held empty at a block ending at `end` with
+    /// mean `mean` (see [`super`]).
+    fn leak_held(&self, end: Instant, mean: F) -> bool {
+        let long = self.cfg.leak_mode == LeakMode::Standby
+            && self.episode_blocks >= EPISODE_MAX_HOURS * self.blocks_per_hour;
+        self.settle_active
+            || (self.episode && !long)
+            || end < self.leak_hold_until
+            || mean <= self.cfg.reserve_fraction
+    }
+
     /// Leak detection: hourly means into the two-day ring.
-    fn leak_block(&mut self, mean: F) {
-        if self.settle_active {
+    fn leak_block(&mut self, end: Instant, mean: F) {
+        if self.leak_held(end, mean) {
             self.reset_leak();
             return;
         }
@@ -719,23 +820,32 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         if let Some(last) = self.day_ring.last_mut() {
             *last = hour;
         }
+        self.day_t.rotate_left(1);
+        if let Some(last) = self.day_t.last_mut() {
+            *last = F::lit(libm::round(self.t_smooth.to_f64() * 128.0) / 128.0);
+        }
         self.day_len = (self.day_len + 1).min(LEAK_RING);
-        if self.day_len < LEAK_RING {
+        // Pairs of hours one day apart: the older k of the ring against the
+        // k a day later (24 once the ring is full; see super).
+        let k = self.day_len.saturating_sub(DAY_HOURS);
+        if k < EARLY_MIN_PAIRS {
             return;
         }
         let older: F = self
             .day_ring
             .iter()
-            .take(DAY_HOURS)
+            .skip(DAY_HOURS - k)
+            .take(k)
             .fold(F::ZERO, |a, &x| a + x);
         let newer: F = self
             .day_ring
             .iter()
-            .skip(DAY_HOURS)
+            .skip(LEAK_RING - k)
             .fold(F::ZERO, |a, &x| a + x);
         let hours = F::lit(DAY_HOURS as f64);
+        let kf = F::lit(k as f64);
         // Loss per day as a fraction of the rated content.
-        let loss = (older - newer) / hours;
+        let loss = (older - newer) / kf;
         let expected = match self.cfg.leak_mode {
             LeakMode::Standby => F::ZERO,
             LeakMode::InUse => match self.cfg.declared_draw_kg_h {
@@ -743,24 +853,39 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 None => match self.learned_draw_per_day {
                     Some(d) => d,
                     None => {
-                        self.learned_draw_per_day = Some(loss.max(F::ZERO));
+                        if k == DAY_HOURS {
+                            self.learned_draw_per_day = Some(loss.max(F::ZERO));
+                        }
                         return;
                     }
                 },
             },
         };
-        let content = older / hours;
+        let content = older / kf;
         let excess = loss - expected;
         let (loss_rel, excess_rel) = if content > F::ZERO {
             (loss / content, excess / content)
         } else {
             (F::ZERO, F::ZERO)
         };
+        let factor = F::lit(EARLY_FACTOR_Q8.get(k).copied().unwrap_or(256) as f64 / 256.0);
+        // The weather's margin (see super): the change of the mean
+        // temperature slope over the k hours of each side.
+        let t = |i: usize| self.day_t.get(i).copied().unwrap_or(F::ZERO);
+        let ds =
+            ((t(LEAK_RING - 1) - t(LEAK_RING - k)) - (t(DAY_HOURS - 1) - t(DAY_HOURS - k))).abs();
+        let mid = t(DAY_HOURS);
+        let margin = if mid > F::ZERO {
+            content * ds * F::lit((LAG_MARGIN * self.lag_ms) as f64)
+                / (F::lit(HOUR_MS as f64 * (k - 1) as f64) * mid)
+        } else {
+            F::ZERO
+        };
         self.leak = Some(Leak {
             loss_per_day: loss_rel,
             excess_per_day: excess_rel,
             expected_draw_kg_h: expected * self.rated_mass_kg / hours,
-            leaking: excess > self.cfg.leak_threshold_per_day * content,
+            leaking: excess > self.cfg.leak_threshold_per_day * factor * content + margin,
         });
     }
 

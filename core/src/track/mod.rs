@@ -44,6 +44,12 @@
 //!   parabola through the block temperatures, times the declared lag and
 //!   gain uncertainties of the temperature sensor and the sensitivity c_T)
 //!   and the scale errors; and a confidence 1 − U/|rate| (0 … 1).
+//! * **Steady draw**: the slope of the newest [`SETTLE_WINDOW`] blocks
+//!   against the window's; when they differ by more than
+//!   1/[`STEADY_SHARE_DIVISOR`] of the window's slope plus
+//!   [`STEADY_FLOOR_PER_H`] a draw started, stopped or changed within the
+//!   window: the rate is reported with `steady: false` and no time to empty
+//!   is given (the window's mix of draw and idle gives no basis for one).
 //! * **Time to empty** down to the reserve fraction: (F_end − F_reserve)/rate,
 //!   F_end the fitted value at the end of the window; earliest and latest
 //!   from rate ± U_t, U_t the time to empty's own budget written as a rate
@@ -86,7 +92,48 @@
 //!
 //! The ring restarts at every fast fill or draw (and stays empty while not
 //! settled) and after a gap in the samples, so a verdict always rests on two
-//! whole settled days.
+//! whole settled days. It also stays empty
+//!
+//! * during a **draw episode** — use, not loss: the block's rate above
+//!   [`EPISODE_RATE_PER_H`] of the rated content per hour (in use also above
+//!   [`EPISODE_EXPECTED_FACTOR`] times the expected draw) starts one, a rate
+//!   below half that ends it — and for [`SETTLE_TIME_CONSTANTS`] settling
+//!   time constants after it (the gas warms back from the draw's cooling, as
+//!   after a fill). In standby an episode longer than
+//!   [`EPISODE_MAX_HOURS`] is no use but a loss and is judged;
+//! * while the content is at or below the reserve fraction (an empty vessel's
+//!   pressure is the regulator's and the day's, not a measure of loss).
+//!
+//! ## Early verdicts
+//!
+//! In the second day after a start (k of the 24 pairs of hours one day
+//! apart in the ring, k ≥ [`EARLY_MIN_PAIRS`]) the loss is judged on those
+//! k pairs, against the threshold raised by [`EARLY_FACTOR_Q8`] (1.3·√(24/k)):
+//! a strong leak is reported before the ring is full. With a learned draw
+//! (in use, nothing declared) the first whole day pair is still needed to
+//! learn it.
+//!
+//! ## Weather
+//!
+//! A sensor on the wall runs ahead of the gas when the weather warms and
+//! behind it when it cools; the content errs by about −F·τ·(dT/dt)/T for a
+//! lag τ. Over one day that leaves −F·τ·s/T with s the day's mean dT/dt, and
+//! in the loss of a pair of days −F·τ·(s_older − s_newer)/T: nothing when
+//! the days warm and cool alike, up to a few tenths of a per cent per day
+//! when a warm spell follows a cold front. The verdict therefore adds a
+//! margin of [`LAG_MARGIN`]·F·u_τ·|s_older − s_newer|/T to the threshold
+//! (over the k hours of each side for an early verdict),
+//! u_τ the temperature lag uncertainty the rate budget uses (declared, plus
+//! the difference of the smoothing time constants); s from the block
+//! temperature at each hour's close, kept beside the hourly means (1/128 K).
+//!
+//! # Withdrawn outputs
+//!
+//! While the front end flags every sample (a dead or disconnected channel),
+//! the last estimate is shown for at most `max_gap`; after that the content,
+//! its uncertainty, rate, time to empty and settled prediction are withdrawn
+//! (`None`: null in telemetry and CLI) until a usable sample comes back,
+//! which restarts the windows. A frozen content is never shown longer.
 
 pub mod fixed;
 pub mod float;
@@ -108,6 +155,40 @@ pub const LEAK_RING: usize = 2 * DAY_HOURS;
 pub const HOUR_MS: u64 = 3_600_000;
 /// After this many settling time constants the gas counts as settled.
 pub const SETTLE_TIME_CONSTANTS: u64 = 3;
+/// A consumption above this share of the rated content per hour is a draw
+/// episode (use, not loss): 2 %/h, five times the largest slow loss the leak
+/// detector is made for (10 % of the content per day; common practice).
+pub const EPISODE_RATE_PER_H: f64 = 0.02;
+/// In use, an episode also needs a rate above this many times the expected
+/// (declared or learned) draw (common practice).
+pub const EPISODE_EXPECTED_FACTOR: u32 = 4;
+/// The rate window holds no steady draw when the slope of its newest
+/// [`SETTLE_WINDOW`] blocks differs from the window's by more than this
+/// share of it (1/8) …
+pub const STEADY_SHARE_DIVISOR: u32 = 8;
+/// … plus this share of the rated content per hour (far above the short
+/// slope's scatter from noise, about 0.01 %/h for a bridge transducer at
+/// 1 Hz; common practice).
+pub const STEADY_FLOOR_PER_H: f64 = 0.002;
+/// Fewest pairs of hours one day apart for an early leak verdict (the
+/// second day after a start; see "Early verdicts").
+pub const EARLY_MIN_PAIRS: usize = 6;
+/// The leak threshold's factor for a verdict on k pairs of hours one day
+/// apart, in 1/256: 1.3·√(24/k) for k < 24 (the scatter of a mean of k
+/// pairs grows as √(24/k); 1.3 more for what the day after a start still
+/// holds; common practice, checked on the weather population), 1 for a
+/// whole day; 0: no verdict.
+pub const EARLY_FACTOR_Q8: [u32; DAY_HOURS + 1] = [
+    0, 0, 0, 0, 0, 0, 666, 616, 576, 543, 516, 492, 471, 452, 436, 421, 408, 395, 384, 374, 365,
+    356, 348, 340, 256,
+];
+/// The leak verdict's margin for the temperature sensor's lag behind the
+/// gas, in lag uncertainties (see "Weather" below; common practice: about
+/// three standard uncertainties).
+pub const LAG_MARGIN: u64 = 3;
+/// In standby, an episode longer than this many hours is no use but a loss:
+/// it is judged by the leak detector like any other.
+pub const EPISODE_MAX_HOURS: u32 = 12;
 
 /// How losses are judged.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]

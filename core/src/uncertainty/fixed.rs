@@ -233,7 +233,6 @@ impl EvaluatorFx {
     ) -> Result<Self, Error> {
         cfg.validate()?;
         let setup = est.setup();
-        let gas = setup.gas.info();
         let rated_mass = Coef::from_raw(est.rated_mass_kg().to_bits(), 40);
         let inv_rated = rated_mass
             .recip()
@@ -248,7 +247,7 @@ impl EvaluatorFx {
                     4,
                 ))
                 .mul(Coef::from_raw(setup.tank.water_capacity_m3.to_bits(), 40))
-                .mul(gas.m_over_r)
+                .mul(setup.gas.m_over_r())
                 .mul(inv_rated),
             reading: frac(cfg.pressure_reading),
             temperature: Coef::from_raw(cfg.temperature_k.to_bits() as u64, 16),

@@ -219,11 +219,10 @@ impl<F: Real> Evaluator<F> {
     ) -> Result<Self, Error> {
         cfg.validate()?;
         let setup = est.setup();
-        let gas = setup.gas.info();
         Ok(Evaluator {
             cfg,
             tank: setup.tank,
-            mass_per_pressure: setup.tank.water_capacity_m3 * F::lit(gas.molar_mass_kg_mol)
+            mass_per_pressure: setup.tank.water_capacity_m3 * F::lit(setup.gas.molar_mass_kg_mol())
                 / F::lit(MOLAR_GAS_CONSTANT_J_MOL_K),
             rated_mass_kg: est.rated_mass_kg(),
             lag_h: F::lit(cfg.temperature_lag.0 as f64 / HOUR_MS),

@@ -10,10 +10,13 @@ use isochor_core::constants::{BAR_PA, ZERO_CELSIUS_K};
 use isochor_core::content::{fixed, float};
 use isochor_core::envelope as env;
 use isochor_core::model::{Compressibility, CompressibilityFx, DeviceModel, Ideal};
-use isochor_core::{Gas, Setup, SetupFx, StandardCondition, Status, Tank, fx};
+use isochor_core::{Setup, SetupFx, StandardCondition, Status, Tank, fx};
+use isochor_eos::composition::GasSpec;
+use isochor_eos::fluid::Fluid;
 use isochor_eos::reference::ReferenceModel;
 use isochor_eos::{safety, units};
 use serde::Serialize;
+use std::collections::BTreeMap;
 
 /// Which gas model to use.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, clap::ValueEnum)]
@@ -42,8 +45,8 @@ impl ModelChoice {
 /// What to estimate.
 #[derive(Clone, Debug)]
 pub struct ContentRequest {
-    /// The gas.
-    pub gas: Gas,
+    /// The gas or mixture.
+    pub gas: GasSpec,
     /// The gas model.
     pub model: ModelChoice,
     /// The tank.
@@ -160,10 +163,16 @@ impl Outputs {
 /// The full report of `isochor content`.
 #[derive(Clone, Debug, Serialize)]
 pub struct ContentReport {
-    /// Gas name.
+    /// Gas name (a mixture: its composition in the `--gas` form).
     pub gas: String,
+    /// Mole fractions by component (a pure gas: itself, 1).
+    pub composition: BTreeMap<String, f64>,
     /// Model name.
     pub model: String,
+    /// The device table built (or reused) for a mixture; absent for a pure
+    /// gas's built-in table and for the other models.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub device_table: Option<crate::model_cache::TableNote>,
     /// The sample.
     pub sample: SampleReport,
     /// The tank.
@@ -193,16 +202,26 @@ pub struct ContentReport {
 
 /// Runs one sample through both paths, and through the reference equation.
 pub fn report(req: &ContentRequest) -> Result<ContentReport, Error> {
+    let gas = req.gas.gas();
     let mut r = match req.model {
-        ModelChoice::Ideal => run(req, Ideal::new(req.gas), Ideal::new(req.gas))?,
+        ModelChoice::Ideal => run(req, Ideal::new(gas), Ideal::new(gas))?,
         ModelChoice::Reference => {
-            let m = ReferenceModel::new(req.gas);
+            let m = ReferenceModel::of(Fluid::of(&req.gas));
             run(req, m.clone(), m)?
         }
-        ModelChoice::Device => {
-            let m = DeviceModel::builtin(req.gas)?;
-            run(req, m.clone(), m)?
-        }
+        ModelChoice::Device => match &req.gas {
+            GasSpec::Pure(g) => {
+                let m = DeviceModel::builtin(*g)?;
+                run(req, m.clone(), m)?
+            }
+            GasSpec::Mixture(_) => {
+                let (table, note) = crate::model_cache::table_for(&Fluid::of(&req.gas))?;
+                let m = DeviceModel::new(table.table())?;
+                let mut r = run(req, m.clone(), m)?;
+                r.device_table = Some(note);
+                r
+            }
+        },
     };
     r.reference.eos = reference_outputs(req);
     Ok(r)
@@ -211,12 +230,12 @@ pub fn report(req: &ContentRequest) -> Result<ContentReport, Error> {
 /// The f64 estimate with the reference equation of state.
 fn reference_outputs(req: &ContentRequest) -> Option<Outputs> {
     let setup = Setup {
-        gas: req.gas,
+        gas: req.gas.gas(),
         tank: req.tank,
         standard: req.standard.1,
         settled_reference_k: req.settled_reference_k,
     };
-    let est = float::Estimator::new(setup, ReferenceModel::new(req.gas)).ok()?;
+    let est = float::Estimator::new(setup, ReferenceModel::of(Fluid::of(&req.gas))).ok()?;
     let a = est.estimate(req.pressure_pa, req.temperature_k).ok()?;
     Some(Outputs::new(
         a.density_kg_m3,
@@ -246,7 +265,7 @@ where
         )));
     }
     let setup = Setup {
-        gas: req.gas,
+        gas: req.gas.gas(),
         tank: req.tank,
         standard: req.standard.1,
         settled_reference_k: req.settled_reference_k,
@@ -272,8 +291,10 @@ where
     }
 
     Ok(ContentReport {
-        gas: req.gas.name().to_string(),
+        gas: crate::cli::gas::gas_field(&req.gas),
+        composition: crate::cli::gas::composition_map(&req.gas),
         model: float_est.model().kind().to_string(),
+        device_table: None,
         sample: SampleReport {
             pressure_pa: req.pressure_pa,
             temperature_k: req.temperature_k,
@@ -323,7 +344,7 @@ where
         ),
         rated_pressure_at_temperature_pa,
         pressure_limit_pa: limits.pressure_max_pa,
-        caution: safety::paragraph(req.gas),
+        caution: safety::paragraph_for(&req.gas),
     })
 }
 
@@ -336,23 +357,26 @@ fn check_rated_and_standard<M: Compressibility<f64>>(
     let t = &req.tank;
     let rated = model.z(t.rated_pressure_pa, t.rated_temperature_k);
     if rated.flags.intersects(Status::CONTENT_INVALID) {
-        let vapour = isochor_eos::Eos::of(req.gas)
-            .saturation_pressure_pa(t.rated_temperature_k)
-            .map(|p| {
-                format!(
-                    " (its vapour pressure at {} is about {} abs)",
-                    units::fmt_celsius(t.rated_temperature_k),
-                    units::fmt_bar(p)
-                )
-            })
-            .unwrap_or_default();
+        let vapour = match &req.gas {
+            GasSpec::Pure(g) => isochor_eos::Eos::of(*g)
+                .saturation_pressure_pa(t.rated_temperature_k)
+                .map(|p| {
+                    format!(
+                        " (its vapour pressure at {} is about {} abs)",
+                        units::fmt_celsius(t.rated_temperature_k),
+                        units::fmt_bar(p)
+                    )
+                })
+                .unwrap_or_default(),
+            GasSpec::Mixture(_) => " (at or above the mixture's dew line)".to_string(),
+        };
         return Err(Error::Invalid(format!(
             "no usable answer at the rated condition: {} at {} abs and {} is liquid, or liquid \
              and vapour{vapour}, not a gas (the gas model refuses liquid states). The content of a cylinder holding liquid cannot be \
              found from its pressure: weigh the cylinder (gross weight less the tare marked \
              on it). For a vessel rated for gas only, give its rated pressure and temperature \
              as marked (--rated-pressure, --rated-temperature).",
-            req.gas.name().replace('_', " "),
+            gas_words(&req.gas),
             units::fmt_bar(t.rated_pressure_pa),
             units::fmt_celsius(t.rated_temperature_k),
         )));
@@ -366,10 +390,18 @@ fn check_rated_and_standard<M: Compressibility<f64>>(
             req.standard.0,
             units::fmt_celsius(std.temperature_k),
             std.pressure_pa / 1e3,
-            req.gas.name(),
+            gas_words(&req.gas),
         )));
     }
     Ok(())
+}
+
+/// A gas in a sentence: a pure gas's name in words, a mixture's composition.
+fn gas_words(spec: &GasSpec) -> String {
+    match spec {
+        GasSpec::Pure(g) => g.name().replace('_', " "),
+        GasSpec::Mixture(c) => format!("the mixture {c}"),
+    }
 }
 
 /// The warnings of one sample (see [`ContentReport::warnings`]).
@@ -381,12 +413,25 @@ fn warnings(
     pressure_limit: f64,
 ) -> Vec<String> {
     let mut w = Vec::new();
-    let gas = req.gas.name().replace('_', " ");
     let t = units::fmt_celsius(req.temperature_k);
-    let vapour = isochor_eos::Eos::of(req.gas)
-        .saturation_pressure_pa(req.temperature_k)
-        .map(|p| format!(" ({} abs)", units::fmt_bar(p)))
-        .unwrap_or_default();
+    let (gas, vapour) = match &req.gas {
+        GasSpec::Pure(g) => (
+            g.name().replace('_', " "),
+            isochor_eos::Eos::of(*g)
+                .saturation_pressure_pa(req.temperature_k)
+                .map(|p| format!(" ({} abs)", units::fmt_bar(p)))
+                .unwrap_or_default(),
+        ),
+        GasSpec::Mixture(_) => (gas_words(&req.gas), String::new()),
+    };
+    if status.contains(Status::CONDENSATION_RISK) {
+        w.push(format!(
+            "CONDENSATION RISK: at {t} and {} abs {gas} is at or above its dew \
+             line, where a liquid can form; the content figures are not valid. Warm the cylinder to \
+             room temperature before use.",
+            units::fmt_bar(req.pressure_pa)
+        ));
+    }
     if status.contains(Status::LIQUID_FULL) {
         w.push(format!(
             "LIQUID-FULL: {} abs is far above the vapour pressure of {gas} at {t}{vapour}: the \
@@ -459,6 +504,9 @@ pub fn render_text(r: &ContentReport) -> String {
         units::fmt_bar(r.sample.pressure_pa),
         units::fmt_celsius(r.sample.temperature_k)
     );
+    if let Some(t) = &r.device_table {
+        let _ = writeln!(s, "{}\n", t.describe());
+    }
     let eos = r.reference.eos.as_ref();
     let _ = writeln!(
         s,
@@ -586,9 +634,9 @@ pub fn render_text(r: &ContentReport) -> String {
     for w in &r.warnings {
         let _ = writeln!(s, "\n{w}");
     }
-    if let Ok(g) = Gas::from_name(&r.gas) {
+    if let Ok(g) = GasSpec::parse(&r.gas) {
         let _ = writeln!(s);
-        for line in safety::lines(g) {
+        for line in safety::lines_for(&g) {
             let _ = writeln!(s, "{line}");
         }
     }

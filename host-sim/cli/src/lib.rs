@@ -32,6 +32,7 @@ pub mod firmware_gauge;
 pub mod image;
 pub mod link;
 pub mod modbus;
+pub mod model_cache;
 pub mod sensor;
 
 pub use error::Error;

@@ -608,3 +608,56 @@ fn send_over_tcp() {
     let devices = handle.join().unwrap();
     assert_eq!(devices[0].boots(), 7);
 }
+
+#[test]
+fn send_a_mixture_and_read_its_composition_back() {
+    let (addr, handle) = tcp_device(3);
+    let cache = std::env::temp_dir().join(format!("isochor-mix-send-{}", std::process::id()));
+    let cache_dir = cache.to_str().unwrap();
+    let out = isochor(
+        &[
+            "send",
+            "--tcp",
+            &addr,
+            "write-config",
+            "--gas",
+            "argon=82%,carbon_dioxide=18%",
+            "--capacity",
+            "50L",
+            "--rated-pressure",
+            "200bar",
+        ],
+        &[
+            ("ISOCHOR_SECRET", SECRET_HEX),
+            ("ISOCHOR_CACHE_DIR", cache_dir),
+        ],
+        None,
+    );
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let out = isochor(
+        &["send", "--tcp", &addr, "--format", "json", "read-config"],
+        &[],
+        None,
+    );
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    // The composition as given (GERG-2008 order), and the table built for it.
+    assert_eq!(v["gas"], "carbon_dioxide=18%,argon=82%");
+    assert!((v["composition"]["argon"].as_f64().unwrap() - 0.82).abs() < 1e-9);
+    assert!((v["composition"]["carbon_dioxide"].as_f64().unwrap() - 0.18).abs() < 1e-9);
+    assert_eq!(v["gas_model"], "loaded");
+    let out = isochor(&["send", "--tcp", &addr, "read-config"], &[], None);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("gas carbon_dioxide=18%,argon=82%"), "{text}");
+    assert!(text.contains("Mixture: the figures hold"), "{text}");
+    let _ = std::fs::remove_dir_all(&cache);
+    handle.join().unwrap();
+}

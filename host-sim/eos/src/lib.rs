@@ -46,9 +46,12 @@
 //! the critical temperature at or above the saturation pressure given by the
 //! fluid's ancillary equation), are refused with a typed error.
 
+pub mod composition;
 pub mod dual;
 mod error;
+pub mod fluid;
 mod format;
+pub mod gerg;
 pub mod model;
 pub mod reference;
 pub mod safety;
@@ -380,7 +383,16 @@ struct Residual {
 impl Eos {
     /// The built-in equation of state of `gas` (parsed once from the
     /// committed data).
+    ///
+    /// # Panics
+    ///
+    /// For [`Gas::Mixture`]: a mixture's equation (GERG-2008) needs its
+    /// composition, see [`fluid::Fluid`].
     pub fn of(gas: Gas) -> &'static Eos {
+        assert!(
+            gas.mixture().is_none(),
+            "Eos::of: a mixture is evaluated through fluid::Fluid (GERG-2008)"
+        );
         static ALL: OnceLock<Vec<Eos>> = OnceLock::new();
         let all = ALL.get_or_init(|| {
             Gas::ALL

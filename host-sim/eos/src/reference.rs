@@ -10,23 +10,35 @@
 //! [`Status::TWO_PHASE`] (liquid and vapour), [`Status::LIQUID_FULL`] (more
 //! than [`LIQUID_FULL_MARGIN`] above the vapour pressure: compressed liquid)
 //! or [`Status::MODEL_OUT_OF_RANGE`] (outside its declared range).
+//!
+//! A mixture ([`Fluid::Mixture`]) is answered by GERG-2008; at or above its
+//! dew line (the tangent-plane test's single-phase limit) the answer is
+//! flagged [`Status::CONDENSATION_RISK`] (never `liquid_full`: the dew line
+//! is not a vapour pressure) and taken just below the line.
 
-use crate::Eos;
+use crate::fluid::Fluid;
 use isochor_core::model::device::LIQUID_FULL_MARGIN;
 use isochor_core::model::{Compressibility, CompressibilityFx, ModelRange, ZPoint, ZPointFx};
 use isochor_core::{Gas, Status, envelope, fx};
 
-/// The reference equation of state of one gas, as a gas model.
+/// The reference equation of state of one gas or mixture, as a gas model.
 #[derive(Clone, Debug)]
 pub struct ReferenceModel {
-    eos: &'static Eos,
+    fluid: Fluid,
+    gas: Gas,
     z_floor: f64,
 }
 
 impl ReferenceModel {
-    /// The model of `gas`.
-    pub fn new(gas: Gas) -> ReferenceModel {
-        let eos = Eos::of(gas);
+    /// The model of a pure gas, or of a mixture this process has met (see
+    /// [`Fluid::for_gas`]; else [`ReferenceModel::of`] with its fluid).
+    pub fn new(gas: Gas) -> Result<ReferenceModel, crate::Error> {
+        Ok(ReferenceModel::of(Fluid::for_gas(gas)?))
+    }
+
+    /// The model of a pure gas or a mixture.
+    pub fn of(fluid: Fluid) -> ReferenceModel {
+        let eos = &fluid;
         // Smallest Z_eff over the envelope's gas states (coarse grid), with a
         // margin: the fixed-point estimator sizes its density scale from it.
         let mut floor = 1.0f64;
@@ -41,31 +53,40 @@ impl ReferenceModel {
             }
         }
         ReferenceModel {
-            eos,
+            gas: fluid.gas(),
             z_floor: (0.8 * floor).max(0.05),
+            fluid,
         }
+    }
+
+    /// The fluid.
+    pub fn fluid(&self) -> &Fluid {
+        &self.fluid
     }
 
     /// The answer in f64.
     pub fn answer(&self, p_pa: f64, t_k: f64) -> ZPoint<f64> {
-        let e = self.eos;
+        let e = &self.fluid;
         let mut flags = Status::OK;
         let mut t = t_k;
-        if t < e.temperature_min_k || t > e.temperature_max_k {
+        let (t_min, t_max) = (e.temperature_min_k(), e.temperature_max_k());
+        if t < t_min || t > t_max {
             flags |= Status::MODEL_OUT_OF_RANGE;
-            t = t.clamp(e.temperature_min_k, e.temperature_max_k);
+            t = t.clamp(t_min, t_max);
         }
         let mut p = p_pa.max(0.0);
-        if p > e.pressure_max_pa {
+        if p > e.pressure_max_pa() {
             flags |= Status::MODEL_OUT_OF_RANGE;
-            p = e.pressure_max_pa;
+            p = e.pressure_max_pa();
         }
-        if let Some(ps) = e.saturation_pressure_pa(t)
+        if let Some(ps) = e.condensation_pressure_pa(t)
             && p >= ps
         {
-            // Far above the vapour pressure: no vapour space left (the same
-            // margin as the device models).
-            flags |= if p > ps * (1.0 + LIQUID_FULL_MARGIN) {
+            // A pure gas far above its vapour pressure: no vapour space
+            // left (the same margin as the device models).
+            flags |= if self.gas.mixture().is_some() {
+                self.gas.phase_flag()
+            } else if p > ps * (1.0 + LIQUID_FULL_MARGIN) {
                 Status::LIQUID_FULL
             } else {
                 Status::TWO_PHASE
@@ -74,13 +95,14 @@ impl ReferenceModel {
         }
         // Slopes at p = 0 are the low-pressure limit: take them just above.
         let pe = p.max(1.0);
-        match e.state(pe, t) {
+        let state = match e {
+            Fluid::Pure(_) => e.state(pe, t),
+            // Already below the dew line: no second check.
+            Fluid::Mixture(_) => e.state_any_phase(pe, t),
+        };
+        match state {
             Ok(s) => {
-                let z = if p == 0.0 {
-                    e.gas_constant / isochor_core::constants::MOLAR_GAS_CONSTANT_J_MOL_K
-                } else {
-                    s.z_eff
-                };
+                let z = if p == 0.0 { e.z_eff_factor() } else { s.z_eff };
                 // Z_eff = p·M/(ρ·R·T): dZ/dp = Z(1/p − ρ_p/ρ), dZ/dT = −Z(1/T + ρ_T/ρ).
                 let dz_dp = s.z_eff * (1.0 / pe - s.drho_dp_mol_m3_pa / s.density_mol_m3);
                 let dz_dt = -s.z_eff * (1.0 / t + s.drho_dt_mol_m3_k / s.density_mol_m3);
@@ -103,16 +125,16 @@ impl ReferenceModel {
 
 impl Compressibility<f64> for ReferenceModel {
     fn gas(&self) -> Gas {
-        self.eos.gas
+        self.gas
     }
     fn kind(&self) -> &'static str {
         "reference"
     }
     fn range(&self) -> ModelRange {
         ModelRange {
-            pressure_max_pa: self.eos.pressure_max_pa,
-            temperature_min_k: self.eos.temperature_min_k,
-            temperature_max_k: self.eos.temperature_max_k,
+            pressure_max_pa: self.fluid.pressure_max_pa(),
+            temperature_min_k: self.fluid.temperature_min_k(),
+            temperature_max_k: self.fluid.temperature_max_k(),
         }
     }
     fn z(&self, p_pa: f64, t_k: f64) -> ZPoint<f64> {
@@ -122,7 +144,7 @@ impl Compressibility<f64> for ReferenceModel {
 
 impl CompressibilityFx for ReferenceModel {
     fn gas(&self) -> Gas {
-        self.eos.gas
+        self.gas
     }
     fn z_fx(&self, p: fx::Pressure, t: fx::Temperature) -> ZPointFx {
         let a = self.answer(fx::to_f64(p), fx::to_f64(t));

@@ -12,6 +12,7 @@
 //! our own; the hazards are the usual ones of safety data sheets and trade
 //! practice.
 
+use crate::composition::{Component, GasSpec};
 use isochor_core::Gas;
 
 /// The caution every result carries.
@@ -108,10 +109,73 @@ pub fn paragraph(gas: Gas) -> String {
     lines(gas).join(" ")
 }
 
+/// The caution every mixture carries.
+pub const MIXTURE: &str = "Mixture: the figures hold for the composition given (check the \
+cylinder's label or certificate); a mixture can separate or condense when cold, and then \
+pressure no longer tells the content (condensation_risk).";
+
+/// Every caution for a gas or a mixture, as lines: a mixture carries the
+/// mixture caution and those of its components (oxygen above 23.5 % as an
+/// oxidiser; flammable components; asphyxiants; carbon dioxide;
+/// hydrogen sulfide above 10 ppm as toxic).
+pub fn lines_for(spec: &GasSpec) -> Vec<&'static str> {
+    let GasSpec::Mixture(c) = spec else {
+        return lines(spec.gas());
+    };
+    let mut v = vec![GENERAL, MIXTURE];
+    let mut add = |line: &'static str| {
+        if !v.contains(&line) {
+            v.push(line);
+        }
+    };
+    for &(comp, x) in c.parts() {
+        match comp {
+            Component::Oxygen if x > 0.235 => add(OXIDISER),
+            Component::HydrogenSulfide if x > 1e-5 => add(
+                "Hydrogen sulfide: toxic at a few ppm and deadening the sense of smell; use \
+                 gas detection and follow your toxic-gas rules.",
+            ),
+            Component::CarbonMonoxide if x > 1e-5 => {
+                add("Carbon monoxide: toxic and odourless; use gas detection in closed rooms.")
+            }
+            _ => {
+                if let Some(line) = comp.pure_gas().and_then(for_gas)
+                    && comp != Component::Oxygen
+                {
+                    add(line);
+                } else if comp.pure_gas().is_none() && comp != Component::Water {
+                    // The heavier hydrocarbons.
+                    add(
+                        "Flammable gas: keep ignition sources away, ventilate, and check for leaks.",
+                    );
+                }
+            }
+        }
+    }
+    v
+}
+
+/// Oxygen-enriched mixtures.
+const OXIDISER: &str = "Oxygen-enriched mixture (above 23.5 % oxygen): use only oxygen-clean, \
+oil- and grease-free parts rated for oxygen service; open valves slowly.";
+
+/// [`lines_for`] as one paragraph (for JSON).
+pub fn paragraph_for(spec: &GasSpec) -> String {
+    lines_for(spec).join(" ")
+}
+
 /// Every caution for `gas` and the hardware caution, as lines (results
 /// about a device: sensors, configuration, the link).
 pub fn device_lines(gas: Gas) -> Vec<&'static str> {
     let mut v = lines(gas);
+    v.push(HARDWARE);
+    v
+}
+
+/// [`device_lines`] for a gas or a mixture ([`lines_for`] and the
+/// hardware caution).
+pub fn device_lines_for(spec: &GasSpec) -> Vec<&'static str> {
+    let mut v = lines_for(spec);
     v.push(HARDWARE);
     v
 }

@@ -22,7 +22,7 @@ use super::sensors::{Codes, PressureCode, PressureFrontEnd, TemperatureFrontEnd}
 use crate::Error;
 use isochor_core::alarm::Events;
 use isochor_core::app::{Zero, fixed, float};
-use isochor_core::model::device::{DeviceModel, Table};
+use isochor_core::model::device::{DeviceModel, Table, TableBuf};
 use isochor_core::model::{Compressibility, Ideal, ModelRange, ZPoint};
 use isochor_core::prepared::{self, Plausibility, Prepared, PreparedBuf};
 use isochor_core::sensor::calibration::{CalibrationRecord, Channel, Correction, SensorConfig};
@@ -91,7 +91,8 @@ pub enum ModelKind {
 /// A gas model chosen at run time, for the `f64` pipeline.
 #[derive(Clone, Debug)]
 pub enum GaugeModel {
-    /// Built-in device table, evaluated in `f64`.
+    /// Built-in device table, or a mixture's table built for its
+    /// composition, evaluated in `f64`.
     Device(Box<DeviceModel<'static>>),
     /// Ideal gas.
     Ideal(Ideal),
@@ -103,11 +104,36 @@ impl GaugeModel {
     /// The model of `kind` for `gas`.
     pub fn new(kind: ModelKind, gas: Gas) -> Result<GaugeModel, Error> {
         Ok(match kind {
+            ModelKind::Device if gas.mixture().is_some() => {
+                GaugeModel::Device(Box::new(DeviceModel::new(mixture_table(gas)?.table())?))
+            }
             ModelKind::Device => GaugeModel::Device(Box::new(DeviceModel::builtin(gas)?)),
             ModelKind::Ideal => GaugeModel::Ideal(Ideal::new(gas)),
-            ModelKind::Reference => GaugeModel::Reference(Box::new(ReferenceModel::new(gas))),
+            ModelKind::Reference => GaugeModel::Reference(Box::new(ReferenceModel::new(gas)?)),
         })
     }
+}
+
+/// The device table of a mixture (whose composition this process has met),
+/// built once per process with the built-in envelope and kept for the
+/// process (`isochor_eos::model::BuildSpec::for_fluid`; a few seconds).
+pub fn mixture_table(gas: Gas) -> Result<&'static TableBuf, Error> {
+    use std::collections::HashMap;
+    use std::sync::{Mutex, OnceLock};
+    static TABLES: OnceLock<Mutex<HashMap<Gas, &'static TableBuf>>> = OnceLock::new();
+    let tables = TABLES.get_or_init(|| Mutex::new(HashMap::new()));
+    if let Some(t) = tables.lock().unwrap_or_else(|e| e.into_inner()).get(&gas) {
+        return Ok(t);
+    }
+    let fluid = isochor_eos::fluid::Fluid::for_gas(gas)?;
+    let built = isochor_eos::model::build(&isochor_eos::model::BuildSpec::for_fluid(fluid))?;
+    // Kept for the rest of the process: one small table per composition.
+    let table: &'static TableBuf = Box::leak(Box::new(built.table));
+    tables
+        .lock()
+        .unwrap_or_else(|e| e.into_inner())
+        .insert(gas, table);
+    Ok(table)
 }
 
 impl Compressibility<f64> for GaugeModel {
@@ -191,12 +217,18 @@ impl GaugeConfig {
             ),
             track: TrackConfigFx::from_f64(&self.track)?,
             barometric_pa: fx::from_f64(self.barometric_pa, "barometric pressure")?,
-            model: None,
+            // A mixture's table, built for its composition (no built-in
+            // table names it).
+            model: match self.setup.gas.mixture() {
+                Some(_) => Some(mixture_table(self.setup.gas)?.clone()),
+                None => None,
+            },
             plausibility: Some(Plausibility {
                 pressure: self.pressure_plausibility,
                 temperature: self.temperature_plausibility,
             }),
             field: Default::default(),
+            composition: crate::run::spec_of(self.setup.gas).core_composition(),
         })
     }
 }
@@ -309,8 +341,11 @@ impl FixedGauge {
 
 /// A device table of Z = 1 (the ideal gas) for `gas`, over the envelope.
 fn ideal_table(gas: Gas) -> Result<isochor_core::model::device::TableBuf, Error> {
-    let t = isochor_core::model::device::builtin::table(gas)
-        .ok_or_else(|| Error::Invalid(format!("no table of {gas}")))?;
+    let t = match gas.mixture() {
+        Some(_) => mixture_table(gas)?.table(),
+        None => isochor_core::model::device::builtin::table(gas)
+            .ok_or_else(|| Error::Invalid(format!("no table of {gas}")))?,
+    };
     let cols = t.columns();
     let rows = t.rows();
     let ideal = Table {

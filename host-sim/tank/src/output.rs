@@ -494,8 +494,8 @@ pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
         }
     }
     let _ = writeln!(o);
-    if let Ok(g) = isochor_core::Gas::from_name(&s.gas) {
-        for line in safety::lines(g) {
+    if let Ok(g) = isochor_eos::composition::GasSpec::parse(&s.gas) {
+        for line in safety::lines_for(&g) {
             let _ = writeln!(o, "{line}");
         }
     }

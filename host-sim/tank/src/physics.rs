@@ -53,7 +53,8 @@
 use crate::Error;
 use isochor_core::Gas;
 use isochor_core::constants::STANDARD_ATMOSPHERE_PA;
-use isochor_eos::{Caloric, Eos};
+use isochor_eos::Caloric;
+use isochor_eos::fluid::Fluid;
 use rand::rngs::ChaCha8Rng;
 use rand::{RngExt, SeedableRng};
 
@@ -112,6 +113,20 @@ pub struct Weather {
     /// Lowest daily clearness (the daily factor on the irradiance is drawn
     /// uniformly between this and 1).
     pub clearness_min: f64,
+    /// Scripted weather fronts, on top of the drawn weather.
+    pub fronts: Vec<Front>,
+}
+
+/// A scripted weather front: the ambient temperature moves by `change_k`
+/// from `start_s` on, linearly over `over_s`, and stays moved.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Front {
+    /// Start, s.
+    pub start_s: f64,
+    /// Change of the ambient temperature, K (negative: a cold front).
+    pub change_k: f64,
+    /// Time the change takes, s (> 0).
+    pub over_s: f64,
 }
 
 /// The vessel and how it exchanges heat.
@@ -315,7 +330,7 @@ struct Supply {
 /// inside the last step.
 pub struct Simulator {
     plant: Plant,
-    eos: &'static Eos,
+    eos: Fluid,
     molar_mass: f64,
     modes: Modes,
     supplies: Vec<Supply>,
@@ -339,8 +354,8 @@ impl Simulator {
     /// Prepares the plant at t = 0. Errors when the initial or a supply
     /// state is outside the equation of state (liquid, out of range).
     pub fn new(plant: Plant) -> Result<Simulator, Error> {
-        let eos = Eos::of(plant.gas);
-        let molar_mass = eos.molar_mass_kg_mol;
+        let eos = Fluid::for_gas(plant.gas)?;
+        let molar_mass = eos.molar_mass_kg_mol();
         let mut supplies = Vec::new();
         for f in &plant.fills {
             let s = eos.state(f.supply_pressure_pa, f.supply_temperature_k)?;
@@ -349,7 +364,7 @@ impl Simulator {
             supplies.push(Supply {
                 rho_kg_m3: s.density_kg_m3,
                 h_j_kg: c.h_j_mol / molar_mass,
-                gamma: (cv0 + eos.gas_constant) / cv0,
+                gamma: (cv0 + eos.gas_constant()) / cv0,
             });
         }
         let modes = Modes {
@@ -382,7 +397,7 @@ impl Simulator {
             .unwrap_or_else(|| sim.ambient_k(0.0));
         let p0 = sim.plant.initial_pressure_pa;
         let v0 = sim.volume(p0, t0);
-        let s = eos.state(p0, t0)?;
+        let s = sim.eos.state(p0, t0)?;
         let mut y = [0.0; N];
         y[ix::MASS] = s.density_kg_m3 * v0;
         y[ix::GAS_T] = t0;
@@ -414,8 +429,8 @@ impl Simulator {
     }
 
     /// The equation of state in use.
-    pub fn eos(&self) -> &'static Eos {
-        self.eos
+    pub fn eos(&self) -> &Fluid {
+        &self.eos
     }
 
     /// The full state vector at the end of the last step (for the
@@ -637,7 +652,7 @@ impl Simulator {
         let _ = c;
         let t = y[ix::GAS_T];
         let cv0 = self.eos.ideal_cv(t);
-        let gamma = (cv0 + self.eos.gas_constant) / cv0;
+        let gamma = (cv0 + self.eos.gas_constant()) / cv0;
         Ok((
             orifice_flux(p, rho_kg, gamma, self.plant.weather.pressure_pa),
             p,
@@ -658,7 +673,7 @@ impl Simulator {
         let m = y[ix::MASS].max(1e-12);
         let t = y[ix::GAS_T];
         let tw = y[ix::WALL_T];
-        if !(t.is_finite() && t > 1.0 && t < 2.0 * self.eos.temperature_max_k) {
+        if !(t.is_finite() && t > 1.0 && t < 2.0 * self.eos.temperature_max_k()) {
             return Err(Error::Invalid(format!(
                 "simulated gas temperature {t} K is outside the equation of state"
             )));
@@ -686,7 +701,7 @@ impl Simulator {
             (c.pressure_pa + c.dp_drho * (rho - rho_g), v, rho)
         };
         let rho = rho_mol * self.molar_mass;
-        if !p.is_finite() || p > self.eos.pressure_max_pa * 1.5 {
+        if !p.is_finite() || p > self.eos.pressure_max_pa() * 1.5 {
             return Err(Error::Invalid(format!(
                 "simulated pressure {p} Pa is outside the equation of state"
             )));
@@ -729,7 +744,7 @@ impl Simulator {
                 .sum::<f64>();
         if open_area > 0.0 {
             let cv0 = self.eos.ideal_cv(temp);
-            let gamma = (cv0 + self.eos.gas_constant) / cv0;
+            let gamma = (cv0 + self.eos.gas_constant()) / cv0;
             out += open_area * orifice_flux(p, rho, gamma, p_amb);
         }
         let mut inflow = 0.0;
@@ -934,7 +949,12 @@ impl Simulator {
         let (m1, a1, _) = self.day(d + 1);
         let w = &self.plant.weather;
         let phase = 2.0 * std::f64::consts::PI * (x * 24.0 - w.warmest_hour + 6.0) / 24.0;
-        w.mean_k + m0 + (m1 - m0) * x + (a0 + (a1 - a0) * x) * phase.sin()
+        let fronts: f64 = w
+            .fronts
+            .iter()
+            .map(|f| f.change_k * ((t - f.start_s) / f.over_s).clamp(0.0, 1.0))
+            .sum();
+        w.mean_k + m0 + (m1 - m0) * x + (a0 + (a1 - a0) * x) * phase.sin() + fronts
     }
 
     /// Solar irradiance at `t`, W/m².

@@ -63,7 +63,8 @@ use isochor_core::Status;
 use isochor_core::alarm::{AlarmEvent, AlarmKind};
 use isochor_core::constants::{STANDARD_ATMOSPHERE_PA, ZERO_CELSIUS_K};
 use isochor_core::time::Instant;
-use isochor_eos::Eos;
+use isochor_eos::composition::GasSpec;
+use isochor_eos::fluid::Fluid;
 use serde::Serialize;
 
 /// Which in-process gauge runs.
@@ -250,8 +251,10 @@ pub struct Summary {
     pub scenario: String,
     /// Scenario title.
     pub title: String,
-    /// Gas.
+    /// Gas (a mixture: its composition in the `--gas` form).
     pub gas: String,
+    /// Mole fractions by component (a pure gas: itself, 1).
+    pub composition: std::collections::BTreeMap<String, f64>,
     /// The gauge: `fixed` or `float`.
     pub backend: String,
     /// The gauge's gas model.
@@ -501,11 +504,17 @@ fn point(t: &Truth, r: &Reading) -> TracePoint {
     }
 }
 
+/// The gas specification of a core gas value (a mixture the scenario
+/// registered; an unknown one reads as its own name).
+pub fn spec_of(gas: isochor_core::Gas) -> GasSpec {
+    Fluid::for_gas(gas).map_or(GasSpec::Pure(gas), |f| f.spec())
+}
+
 /// The true rated content: the reference equation of state at the rated
 /// pressure and temperature, in the vessel's volume there.
 pub fn true_rated_mass(sc: &Scenario) -> Result<f64, Error> {
     let t = &sc.tank;
-    let s = Eos::of(sc.gas).state(t.rated_pressure_pa, t.rated_temperature_k)?;
+    let s = Fluid::for_gas(sc.gas)?.state(t.rated_pressure_pa, t.rated_temperature_k)?;
     let v = t.water_capacity_m3
         * (1.0
             + t.elastic_expansion_per_mpa * 1e-6 * (t.rated_pressure_pa - STANDARD_ATMOSPHERE_PA));
@@ -545,7 +554,9 @@ struct Scorer {
     p_max: f64,
     interval_ms: u64,
     instrument: InstrumentErrors,
-    eos: &'static Eos,
+    /// The reference equation of the gas or mixture (`None`: a mixture
+    /// this process has not met; no expected bias then).
+    eos: Option<Fluid>,
     /// Sums of the expected content error (capacity, pressure, temperature)
     /// over judged minutes, and their count.
     bias_sum: [f64; 3],
@@ -581,7 +592,7 @@ impl Scorer {
             p_max: 0.0,
             interval_ms: sc.interval_ms,
             instrument: InstrumentErrors::of(sc),
-            eos: Eos::of(sc.gas),
+            eos: Fluid::for_gas(sc.gas).ok(),
             bias_sum: [0.0; 3],
             bias_n: 0,
             sensitivities: None,
@@ -651,7 +662,7 @@ impl Scorer {
                 (c_p, c_t)
             }
             _ => {
-                let Ok(s) = self.eos.state(p, t) else {
+                let Some(Ok(s)) = self.eos.as_ref().map(|e| e.state(p, t)) else {
                     return;
                 };
                 if s.density_mol_m3 <= 0.0 {
@@ -791,7 +802,12 @@ impl Scorer {
         Summary {
             scenario: sc.name.clone(),
             title: sc.title.clone(),
-            gas: sc.gas.name().to_string(),
+            gas: spec_of(sc.gas).to_string(),
+            composition: spec_of(sc.gas)
+                .composition_map()
+                .into_iter()
+                .map(|(n, f)| (n.to_string(), f))
+                .collect(),
             backend: backend.to_string(),
             model: gauge_model.to_string(),
             duration_s: sc.duration_s,
@@ -833,7 +849,7 @@ impl Scorer {
             gas_temperature_min_k: self.t_gas.0,
             pressure_max_pa: self.p_max,
             alarms: self.events,
-            caution: isochor_eos::safety::paragraph(sc.gas),
+            caution: isochor_eos::safety::paragraph_for(&spec_of(sc.gas)),
         }
     }
 }

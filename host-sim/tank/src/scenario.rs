@@ -9,7 +9,7 @@
 //! never silently falls back to a default.
 
 use super::gauge::{GaugeConfig, ModelKind};
-use super::physics::{self, Blowdown, Draw, Fill, Leak, LeakSize, Plant, Vessel, Weather};
+use super::physics::{self, Blowdown, Draw, Fill, Front, Leak, LeakSize, Plant, Vessel, Weather};
 use super::sensors::{
     self, Channel, Fault, FaultKind, Mount, PressureFrontEnd, PressureSensor, TemperatureFrontEnd,
     TemperatureSensor,
@@ -27,7 +27,8 @@ use isochor_core::track::LeakMode;
 use isochor_core::track::float::TrackConfig;
 use isochor_core::uncertainty::float::UncertaintyConfig;
 use isochor_core::{Gas, Setup, Tank};
-use isochor_eos::Eos;
+use isochor_eos::composition::GasSpec;
+use isochor_eos::fluid::Fluid;
 use isochor_eos::units;
 use rand::rngs::ChaCha8Rng;
 use rand::{RngExt, SeedableRng};
@@ -37,7 +38,7 @@ use serde::Deserialize;
 pub const FORMAT: &str = "isochor-scenario 1";
 
 /// The built-in scenarios: (name, TOML text). The first is the demo.
-pub const BUILTIN: [(&str, &str); 5] = [
+pub const BUILTIN: [(&str, &str); 12] = [
     (
         "workshop-leak",
         include_str!("../scenarios/workshop-leak.toml"),
@@ -57,6 +58,34 @@ pub const BUILTIN: [(&str, &str); 5] = [
     (
         "methane-cold-night",
         include_str!("../scenarios/methane-cold-night.toml"),
+    ),
+    (
+        "contractor-busy-days",
+        include_str!("../scenarios/contractor-busy-days.toml"),
+    ),
+    (
+        "run-to-empty",
+        include_str!("../scenarios/run-to-empty.toml"),
+    ),
+    (
+        "sunny-rack-weather",
+        include_str!("../scenarios/sunny-rack-weather.toml"),
+    ),
+    (
+        "quiet-sensor-leak",
+        include_str!("../scenarios/quiet-sensor-leak.toml"),
+    ),
+    (
+        "dead-sensor-draw",
+        include_str!("../scenarios/dead-sensor-draw.toml"),
+    ),
+    (
+        "shielding-gas-cold-week",
+        include_str!("../scenarios/shielding-gas-cold-week.toml"),
+    ),
+    (
+        "ngv-fast-fill",
+        include_str!("../scenarios/ngv-fast-fill.toml"),
     ),
 ];
 
@@ -82,6 +111,9 @@ pub struct ScenarioFile {
     pub tank: TankSection,
     /// The weather.
     pub ambient: AmbientSection,
+    /// Scripted weather fronts on top of the drawn weather.
+    #[serde(default)]
+    pub front: Vec<FrontSection>,
     /// Regulated draws.
     #[serde(default)]
     pub draw: Vec<DrawSection>,
@@ -112,7 +144,8 @@ fn default_interval() -> String {
 #[derive(Clone, Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct TankSection {
-    /// Gas name.
+    /// Gas name, or a mixture as mole fractions
+    /// (`"argon=82%,carbon_dioxide=18%"`, see `isochor_eos::composition`).
     pub gas: String,
     /// Water capacity (`"50L"`).
     pub water_capacity: String,
@@ -232,6 +265,23 @@ fn default_sunset() -> String {
 }
 fn default_clearness() -> f64 {
     0.5
+}
+
+/// `[[front]]`: a scripted weather front.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FrontSection {
+    /// Start (`"5d12h"` is not accepted: `"132h"`).
+    pub start: String,
+    /// Change of the ambient temperature (`"-10K"`: a cold front).
+    pub change: String,
+    /// Time the change takes (default 3 h).
+    #[serde(default = "default_front_over")]
+    pub over: String,
+}
+
+fn default_front_over() -> String {
+    "3h".into()
 }
 
 /// `[[draw]]`: a regulated draw.
@@ -397,8 +447,8 @@ pub struct FaultSection {
     pub kind: FaultKind,
     /// Start.
     pub start: String,
-    /// Duration.
-    pub duration: String,
+    /// Duration (default: to the end of the run, a permanent fault).
+    pub duration: Option<String>,
     /// Spikes per hour (spikes only; default 6).
     #[serde(default = "default_spikes")]
     pub spikes_per_hour: f64,
@@ -444,10 +494,18 @@ pub struct GaugeSection {
     /// labels, see `Limits::for_tank`; e.g. `"85C"` for a hydrogen
     /// vehicle tank).
     pub temperature_max: Option<String>,
-    /// Stuck check of both channels: a converted value that does not move at
-    /// all for this long is stuck (default 60 s; `"0s"` turns it off).
+    /// Stuck check of the pressure channel: a converted value that does not
+    /// move at all for this long is stuck (default 60 s; `"0s"` turns it
+    /// off).
     #[serde(default = "default_stuck")]
     pub stuck_after: String,
+    /// Stuck check of the temperature channel (default 6 h; `"0s"` turns it
+    /// off). Much longer than the pressure's: a quiet temperature front end
+    /// (noise at or below the code step, about 0.016 K for 16 bits) repeats
+    /// its code for minutes on a working sensor, while any vessel in a room
+    /// or outdoors moves by more than a code step within hours.
+    #[serde(default = "default_temperature_stuck")]
+    pub temperature_stuck_after: String,
 }
 
 fn default_leak_mode() -> String {
@@ -458,6 +516,9 @@ fn default_instrument() -> String {
 }
 fn default_stuck() -> String {
     "60s".into()
+}
+fn default_temperature_stuck() -> String {
+    "6h".into()
 }
 
 impl Default for GaugeSection {
@@ -475,6 +536,7 @@ impl Default for GaugeSection {
             temperature_lag: None,
             temperature_max: None,
             stuck_after: default_stuck(),
+            temperature_stuck_after: default_temperature_stuck(),
         }
     }
 }
@@ -630,7 +692,7 @@ fn area_m2(input: &str, what: &'static str) -> Result<f64, Error> {
 fn flow_kg_s(input: &str, gas: Gas, what: &'static str) -> Result<f64, Error> {
     let (v, unit) = units::split(input, what)?;
     let std_rho = || -> Result<f64, Error> {
-        Ok(Eos::of(gas)
+        Ok(Fluid::for_gas(gas)?
             .state(STANDARD_ATMOSPHERE_PA, ZERO_CELSIUS_K + 15.0)?
             .density_kg_m3)
     };
@@ -660,7 +722,10 @@ impl ScenarioFile {
         if self.format != FORMAT {
             return Err(bad("format", format!("expected '{FORMAT}'")));
         }
-        let gas = Gas::from_name(&self.tank.gas)?;
+        let spec = GasSpec::parse(&self.tank.gas).map_err(|e| bad("tank.gas", e.to_string()))?;
+        // Registers a mixture's composition for the physics and the gauge.
+        let fluid = Fluid::of(&spec);
+        let gas = fluid.gas();
         let duration = duration_s(&self.duration, "duration")?;
         if duration <= 0.0 || duration > 2.0 * 366.0 * 86_400.0 {
             return Err(bad("duration", "must be above 0 and at most two years"));
@@ -731,6 +796,21 @@ impl ScenarioFile {
             sunrise_hour: clock(&a.sunrise, "ambient.sunrise")?,
             sunset_hour: clock(&a.sunset, "ambient.sunset")?,
             clearness_min: a.clearness_min.clamp(0.0, 1.0),
+            fronts: self
+                .front
+                .iter()
+                .map(|f| {
+                    let over_s = duration_s(&f.over, "front.over")?;
+                    if over_s <= 0.0 {
+                        return Err(bad("front.over", "must be longer than 0 s"));
+                    }
+                    Ok(Front {
+                        start_s: duration_s(&f.start, "front.start")?,
+                        change_k: kelvin_diff(&f.change, "front.change")?,
+                        over_s,
+                    })
+                })
+                .collect::<Result<Vec<_>, Error>>()?,
         };
         if weather.sunset_hour <= weather.sunrise_hour {
             return Err(bad("ambient.sunset", "must be after sunrise"));
@@ -952,7 +1032,10 @@ impl ScenarioFile {
                 channel: f.channel,
                 kind: f.kind,
                 start_s: duration_s(&f.start, "fault.start")?,
-                duration_s: duration_s(&f.duration, "fault.duration")?,
+                duration_s: match &f.duration {
+                    Some(d) => duration_s(d, "fault.duration")?,
+                    None => f64::INFINITY,
+                },
                 spikes_per_hour: f.spikes_per_hour.max(0.0),
             });
         }
@@ -981,6 +1064,9 @@ impl ScenarioFile {
         }
         track.validate()?;
         let stuck = Millis((duration_s(&g.stuck_after, "gauge.stuck_after")? * 1e3) as u64);
+        let t_stuck = Millis(
+            (duration_s(&g.temperature_stuck_after, "gauge.temperature_stuck_after")? * 1e3) as u64,
+        );
         let gauge = GaugeConfig {
             setup,
             model: g.model,
@@ -1001,7 +1087,7 @@ impl ScenarioFile {
             // −100 … +200 °C, at most 5 K/s plus 1 K between samples (a
             // sensor in the gas of a fast fill sees a few K/s).
             temperature_plausibility: PlausibilityConfig::new(
-                173.15, 473.15, 5.0, 1.0, 0.0, stuck,
+                173.15, 473.15, 5.0, 1.0, 0.0, t_stuck,
             )?,
             track,
         };

@@ -21,6 +21,7 @@ fn weather(mean_k: f64, swing_k: f64, sun: f64) -> Weather {
         sunrise_hour: 6.0,
         sunset_hour: 20.0,
         clearness_min: 0.5,
+        fronts: Vec::new(),
     }
 }
 

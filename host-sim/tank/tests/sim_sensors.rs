@@ -17,7 +17,13 @@ fn quiet(name: &str, faults: Vec<Fault>) -> (SensorPair, Scenario) {
         .find(|b| b.0 == name)
         .unwrap()
         .1
-        .replace("[gauge]", "[gauge]\ninstrument = \"nominal\"");
+        // The truth below moves 0.01 K/s, a code step every 2 s or so: one
+        // minute tells a frozen temperature here (the default, 6 h, is for
+        // quiet channels, see sim_tracking.rs).
+        .replace(
+            "[gauge]",
+            "[gauge]\ninstrument = \"nominal\"\ntemperature_stuck_after = \"60s\"",
+        );
     let sc = Scenario::from_toml(&text).unwrap();
     let mut p = sc.pressure;
     p.noise_pa = 0.0;

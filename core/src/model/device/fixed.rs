@@ -12,7 +12,7 @@
 
 use super::{MAX_SPANS, Table};
 use crate::model::{IsothermFx, ZPointFx};
-use crate::{Error, Status, fx};
+use crate::{Error, Gas, Status, fx};
 
 /// Raw temperature bits per kelvin.
 pub const T_RAW_PER_UNIT: u64 = 65_536;
@@ -345,9 +345,13 @@ fn curve(c: &[u32], row: usize, w: &[u32; 4]) -> u32 {
 
 /// The flag of a pressure `p` above the saturation pressure `p_sat` (raw
 /// bits): [`Status::LIQUID_FULL`] more than 1/8 above it, else
-/// [`Status::TWO_PHASE`] (see [`super::LIQUID_FULL_MARGIN`]).
-fn liquid_phase(p: u32, p_sat: u32) -> Status {
-    if p > p_sat.saturating_add(p_sat >> 3) {
+/// [`Status::TWO_PHASE`] (see [`super::LIQUID_FULL_MARGIN`]); a mixture's
+/// table (whose curve is the dew line, not a vapour pressure) raises
+/// [`Status::CONDENSATION_RISK`] alone ([`Gas::phase_flag`]).
+fn liquid_phase(gas: Gas, p: u32, p_sat: u32) -> Status {
+    if gas.mixture().is_some() {
+        gas.phase_flag()
+    } else if p > p_sat.saturating_add(p_sat >> 3) {
         Status::LIQUID_FULL
     } else {
         Status::TWO_PHASE
@@ -372,7 +376,7 @@ pub fn evaluate(tab: &Table<'_>, m: &Axes, p: u32, t: u32) -> ZPointFx {
         let p_sat = curve(b.saturation_pressure, it, &wt);
         let p_lim = curve(b.limit_pressure, it, &wt);
         if t < b.critical_temperature && p > p_sat {
-            flags |= liquid_phase(p, p_sat);
+            flags |= liquid_phase(tab.gas, p, p_sat);
             p = p_sat;
         } else if p > p_lim {
             out_p = true;
@@ -439,7 +443,7 @@ pub fn evaluate_z(tab: &Table<'_>, m: &Axes, p: u32, t: u32) -> (u32, Status) {
         let p_sat = curve(b.saturation_pressure, it, &wt);
         let p_lim = curve(b.limit_pressure, it, &wt);
         if t < b.critical_temperature && p > p_sat {
-            flags |= liquid_phase(p, p_sat);
+            flags |= liquid_phase(tab.gas, p, p_sat);
             p = p_sat;
         } else if p > p_lim {
             out_p = true;
@@ -571,7 +575,7 @@ pub fn isotherm_z(tab: &Table<'_>, m: &Axes, iso: &IsothermFx, p: u32) -> ZPoint
     let mut p = p;
     let mut out_p = false;
     if p > iso.saturation {
-        flags |= liquid_phase(p, iso.saturation);
+        flags |= liquid_phase(tab.gas, p, iso.saturation);
         p = iso.saturation;
     } else if p > iso.limit {
         out_p = true;

@@ -135,7 +135,9 @@ pub(super) fn evaluate<F: Real>(tab: &Table<'_>, p_pa: F, t_k: F) -> ZPoint<F> {
         let p_sat = curve(b.saturation_pressure, lt.k, &wt) * F::lit(1e-6);
         let p_lim = curve(b.limit_pressure, lt.k, &wt) * F::lit(1e-6);
         if t < F::lit(b.critical_temperature as f64 * T_PER_RAW) && p > p_sat {
-            flags |= if p > p_sat * F::lit(1.0 + super::LIQUID_FULL_MARGIN) {
+            flags |= if tab.gas.mixture().is_some() {
+                tab.gas.phase_flag()
+            } else if p > p_sat * F::lit(1.0 + super::LIQUID_FULL_MARGIN) {
                 Status::LIQUID_FULL
             } else {
                 Status::TWO_PHASE

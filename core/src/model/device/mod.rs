@@ -35,6 +35,15 @@
 //! [`Status::MODEL_OUT_OF_RANGE`](crate::Status::MODEL_OUT_OF_RANGE); the
 //! builder fits both curves conservatively (never above the true curve).
 //!
+//! A table of a mixture ([`Gas::Mixture`]) uses the same [`Boundary`] for
+//! its single-phase range: `critical_temperature` is the mixture's
+//! cricondentherm (the highest temperature at which a liquid can form, with a
+//! margin), `saturation_pressure` the lower dew pressure found by the host's
+//! phase-stability test, and states above it below the cricondentherm are
+//! flagged [`Status::CONDENSATION_RISK`](crate::Status::CONDENSATION_RISK)
+//! instead of `two_phase` ([`Gas::phase_flag`]). The device never evaluates
+//! the mixture's equation of state.
+//!
 //! # Cost
 //!
 //! Per evaluation: two binary searches over the knots, the four cubic
@@ -115,8 +124,9 @@ pub struct Table<'a> {
 /// Where a liquefiable gas's table ends (see the module documentation).
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct Boundary<'a> {
-    /// Critical temperature, raw [`fx::Temperature`] bits: below it, pressures
-    /// above the saturation curve are liquid or two-phase.
+    /// Critical temperature (a mixture: its cricondentherm), raw
+    /// [`fx::Temperature`] bits: below it, pressures above the saturation
+    /// (dew) curve are liquid or two-phase.
     pub critical_temperature: u32,
     /// Saturation pressure p_sat(T): B-spline coefficients on the temperature
     /// knots (temperature spans + 3), raw [`fx::Pressure`] bits.

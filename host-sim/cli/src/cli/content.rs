@@ -5,16 +5,15 @@ use crate::Error;
 use crate::content::{ContentRequest, ModelChoice, render_text, report};
 use clap::Args;
 use isochor_core::constants::ZERO_CELSIUS_K;
-use isochor_core::{Gas, StandardCondition, Tank};
+use isochor_core::{StandardCondition, Tank};
 use isochor_eos::units;
 
 /// Arguments of `isochor content`.
 #[derive(Debug, Args)]
 pub struct ContentArgs {
-    /// Gas name or formula (nitrogen, oxygen, argon, helium, hydrogen, methane,
-    /// air, carbon_dioxide, neon, krypton, xenon, ethane, propane).
-    #[arg(long)]
-    pub gas: String,
+    /// The gas or mixture.
+    #[command(flatten)]
+    pub gas: super::gas::GasArgs,
     /// Water capacity of the tank, with unit (L, mL, m3).
     #[arg(long, allow_hyphen_values = true)]
     pub capacity: String,
@@ -52,8 +51,9 @@ pub struct ContentArgs {
     /// 14.696 psia), or TEMPERATURE,PRESSURE such as 25C,100kPa.
     #[arg(long, default_value = "iso13443", allow_hyphen_values = true)]
     pub standard: String,
-    /// Gas model: device (the built-in table a device runs), reference (the
-    /// reference equation of state) or ideal.
+    /// Gas model: device (the built-in table a device runs; for a mixture,
+    /// a table built for its composition, cached), reference (the reference
+    /// equation of state; GERG-2008 for a mixture) or ideal.
     #[arg(long, value_enum, default_value_t = ModelChoice::Device)]
     pub model: ModelChoice,
     /// Elastic volume expansion of the vessel per bar of pressure (e.g.
@@ -94,25 +94,9 @@ pub fn parse_standard(s: &str) -> Result<(String, StandardCondition), Error> {
     ))
 }
 
-/// Parses `--gas`.
-pub fn parse_gas(name: &str) -> Result<Gas, Error> {
-    Gas::from_name(name).map_err(|_| Error::Quantity {
-        what: "--gas",
-        input: name.to_string(),
-        reason: format!(
-            "unknown gas (known: {})",
-            Gas::ALL
-                .iter()
-                .map(|g| g.name())
-                .collect::<Vec<_>>()
-                .join(", ")
-        ),
-    })
-}
-
 /// Turns the arguments into a request (all validation of units and signs).
 pub fn request(a: &ContentArgs) -> Result<ContentRequest, Error> {
-    let gas = parse_gas(&a.gas)?;
+    let gas = a.gas.spec()?;
     let barometric = units::pressure_pa(&a.barometric, "--barometric")?;
     let gauge_unit = |v: &str| {
         units::pressure(v, "")

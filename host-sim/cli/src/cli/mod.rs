@@ -5,6 +5,7 @@ mod budget;
 mod content;
 mod demo;
 mod emulate;
+pub mod gas;
 mod listen;
 mod modbus;
 mod model;

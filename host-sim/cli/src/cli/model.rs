@@ -5,9 +5,12 @@ use crate::Error;
 use clap::{Args, Subcommand};
 use isochor_core::Gas;
 use isochor_core::model::device::{TableBuf, builtin};
+use isochor_eos::composition::GasSpec;
+use isochor_eos::fluid::Fluid;
 use isochor_eos::model::{self, BuildSpec, Built, CheckReport};
 use isochor_eos::{safety, units};
 use serde::Serialize;
+use std::collections::BTreeMap;
 
 /// Arguments of `isochor model`.
 #[derive(Debug, Args)]
@@ -39,12 +42,18 @@ pub enum Emit {
 /// Arguments of `isochor model build`.
 #[derive(Debug, Args)]
 pub struct BuildArgs {
-    /// Gas name or formula, or `all` (with --emit rust).
-    #[arg(long)]
-    pub gas: String,
-    /// Temperature range, e.g. -40C..85C.
-    #[arg(long, default_value = "-40C..85C", allow_hyphen_values = true)]
-    pub temperature: String,
+    /// Gas name or formula, `all` (with --emit rust), or a mixture as mole
+    /// fractions: argon=82%,carbon_dioxide=18%.
+    #[arg(long, required_unless_present = "gas_file")]
+    pub gas: Option<String>,
+    /// A composition file (TOML: a `[composition]` table of name = fraction).
+    #[arg(long, conflicts_with = "gas")]
+    pub gas_file: Option<String>,
+    /// Temperature range, e.g. -40C..85C (default: -40C..85C for a pure gas,
+    /// -60C..85C for a mixture, so that its condensation guard covers the
+    /// whole envelope).
+    #[arg(long, allow_hyphen_values = true)]
+    pub temperature: Option<String>,
     /// Pressure range from 0, e.g. 0..875bar (capped at the equation's limit).
     #[arg(long, default_value = "0..1000bar")]
     pub pressure: String,
@@ -69,9 +78,14 @@ pub struct BuildArgs {
 /// Arguments of `isochor model check`.
 #[derive(Debug, Args)]
 pub struct CheckArgs {
-    /// Gas name or formula (its built-in table), or `all`.
-    #[arg(long)]
-    pub gas: String,
+    /// Gas name or formula (its built-in table), `all`, or a mixture (its
+    /// table as `content --model device` builds and keeps it; with --model,
+    /// the composition the blob is checked against).
+    #[arg(long, required_unless_present = "gas_file")]
+    pub gas: Option<String>,
+    /// A composition file (TOML: a `[composition]` table of name = fraction).
+    #[arg(long, conflicts_with = "gas")]
+    pub gas_file: Option<String>,
     /// A blob file to check instead of the built-in table.
     #[arg(long)]
     pub model: Option<String>,
@@ -100,8 +114,24 @@ fn range(
     Ok((lo, hi))
 }
 
+/// `--gas` or `--gas-file`.
+fn gas_spec(gas: &Option<String>, file: &Option<String>) -> Result<GasSpec, Error> {
+    super::gas::GasArgs {
+        gas: gas.clone(),
+        gas_file: file.clone(),
+    }
+    .spec()
+}
+
 fn specs(a: &BuildArgs) -> Result<Vec<BuildSpec>, Error> {
-    let (t_lo, t_hi) = range(&a.temperature, "--temperature", units::temperature_k)?;
+    let t_range = |mixture: bool| -> Result<(f64, f64), Error> {
+        let default = if mixture { "-60C..85C" } else { "-40C..85C" };
+        range(
+            a.temperature.as_deref().unwrap_or(default),
+            "--temperature",
+            units::temperature_k,
+        )
+    };
     let (p_lo, p_hi) = range(&a.pressure, "--pressure", units::pressure_pa)?;
     if p_lo != 0.0 {
         return Err(Error::Invalid("--pressure: tables start at 0".into()));
@@ -120,23 +150,26 @@ fn specs(a: &BuildArgs) -> Result<Vec<BuildSpec>, Error> {
             Some(units::number(v, "--density-max")?)
         }
     };
-    let gases: Vec<Gas> = if a.gas == "all" {
-        Gas::ALL.to_vec()
+    let fluids: Vec<Fluid> = if a.gas.as_deref() == Some("all") {
+        Gas::ALL.iter().map(|&g| Fluid::pure(g)).collect()
     } else {
-        vec![super::content::parse_gas(&a.gas)?]
+        vec![Fluid::of(&gas_spec(&a.gas, &a.gas_file)?)]
     };
-    Ok(gases
+    fluids
         .into_iter()
-        .map(|gas| BuildSpec {
-            gas,
-            t_min_k: t_lo,
-            t_max_k: t_hi,
-            p_max_pa: p_hi,
-            density_max_kg_m3: density,
-            target: a.target,
-            max_bytes: a.max_bytes,
+        .map(|fluid| {
+            let (t_lo, t_hi) = t_range(matches!(fluid, Fluid::Mixture(_)))?;
+            Ok(BuildSpec {
+                fluid,
+                t_min_k: t_lo,
+                t_max_k: t_hi,
+                p_max_pa: p_hi,
+                density_max_kg_m3: density,
+                target: a.target,
+                max_bytes: a.max_bytes,
+            })
         })
-        .collect())
+        .collect()
 }
 
 /// Builds several models, two at a time.
@@ -175,7 +208,7 @@ fn summary(b: &Built) -> String {
     let t = b.table.table();
     format!(
         "{}: {} × {} knots, {} bytes, max density error {:.2e} (mean {:.1e}) over {} states, target {:.1e}",
-        b.spec.gas,
+        b.spec.fluid.label(),
         t.temperature_knots.len(),
         t.pressure_knots.len(),
         model::blob_len(&b.table).unwrap_or(0),
@@ -235,8 +268,10 @@ fn run_build(a: &BuildArgs) -> Result<String, Error> {
 /// The JSON answer of `isochor model check`.
 #[derive(Clone, Debug, Serialize)]
 pub struct CheckOutput {
-    /// Gas name.
+    /// Gas name (a mixture: its composition in the `--gas` form).
     pub gas: String,
+    /// Mole fractions by component (a pure gas: itself, 1).
+    pub composition: BTreeMap<String, f64>,
     /// `builtin` or the blob file.
     pub model: String,
     /// Size of the blob, bytes.
@@ -256,37 +291,63 @@ pub struct CheckOutput {
     pub caution: String,
 }
 
-/// Checks one table.
-pub fn check_one(table: &TableBuf, name: &str) -> Result<CheckOutput, Error> {
+/// Checks one table against the reference equation of `fluid`.
+pub fn check_one(table: &TableBuf, name: &str, fluid: &Fluid) -> Result<CheckOutput, Error> {
     let t = table.table();
     let r = t.range();
+    let spec = fluid.spec();
     Ok(CheckOutput {
-        gas: t.gas.name().to_string(),
+        gas: super::gas::gas_field(&spec),
+        composition: super::gas::composition_map(&spec),
         model: name.to_string(),
         bytes: model::blob_len(table)?,
         temperature_min_k: r.temperature_min_k,
         temperature_max_k: r.temperature_max_k,
         pressure_max_pa: r.pressure_max_pa,
         knots: [t.temperature_knots.len(), t.pressure_knots.len()],
-        check: model::check(&t)?,
-        caution: safety::device_lines(t.gas).join(" "),
+        check: model::check_fluid(&t, fluid)?,
+        caution: safety::device_lines_for(&spec).join(" "),
     })
 }
 
 fn run_check(a: &CheckArgs) -> Result<String, Error> {
-    let tables: Vec<(TableBuf, String)> = match &a.model {
-        Some(path) => {
+    let all = a.gas.as_deref() == Some("all");
+    let spec = if all {
+        None
+    } else {
+        Some(gas_spec(&a.gas, &a.gas_file)?)
+    };
+    let tables: Vec<(TableBuf, String, Fluid)> = match (&a.model, &spec) {
+        (Some(path), _) => {
             let bytes = std::fs::read(path).map_err(|e| Error::File {
                 path: path.clone(),
                 reason: e.to_string(),
             })?;
-            vec![(TableBuf::from_blob(&bytes)?, path.clone())]
+            let t = TableBuf::from_blob(&bytes)?;
+            let fluid = match &spec {
+                Some(s) => Fluid::of(s),
+                None => match t.gas.mixture() {
+                    Some(_) => {
+                        return Err(Error::Invalid(
+                            "a mixture's table is checked against its composition: give --gas"
+                                .into(),
+                        ));
+                    }
+                    None => Fluid::pure(t.gas),
+                },
+            };
+            vec![(t, path.clone(), fluid)]
         }
-        None => {
-            let gases = if a.gas == "all" {
-                Gas::ALL.to_vec()
-            } else {
-                vec![super::content::parse_gas(&a.gas)?]
+        (None, Some(GasSpec::Mixture(_))) => {
+            let fluid = Fluid::of(spec.as_ref().unwrap_or(&GasSpec::Pure(Gas::Nitrogen)));
+            let (t, note) = crate::model_cache::table_for(&fluid)?;
+            let name = note.path.unwrap_or_else(|| note.source.clone());
+            vec![(t, name, fluid)]
+        }
+        (None, _) => {
+            let gases = match &spec {
+                Some(GasSpec::Pure(g)) => vec![*g],
+                _ => Gas::ALL.to_vec(),
             };
             gases
                 .into_iter()
@@ -294,14 +355,18 @@ fn run_check(a: &CheckArgs) -> Result<String, Error> {
                     let t = builtin::table(g).ok_or(Error::Core(
                         isochor_core::Error::ModelUnusable("built-in table"),
                     ))?;
-                    Ok((TableBuf::from_table(&t)?, "builtin".to_string()))
+                    Ok((
+                        TableBuf::from_table(&t)?,
+                        "builtin".to_string(),
+                        Fluid::pure(g),
+                    ))
                 })
                 .collect::<Result<_, Error>>()?
         }
     };
     let outs: Vec<CheckOutput> = tables
         .iter()
-        .map(|(t, n)| check_one(t, n))
+        .map(|(t, n, f)| check_one(t, n, f))
         .collect::<Result<_, _>>()?;
     match a.format {
         Format::Json if outs.len() == 1 => to_json(&outs[0]),

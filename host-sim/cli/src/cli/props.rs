@@ -3,17 +3,18 @@
 use super::{Format, to_json};
 use crate::Error;
 use clap::Args;
-use isochor_core::Gas;
-use isochor_eos::Eos;
+use isochor_eos::composition::GasSpec;
+use isochor_eos::fluid::Fluid;
 use isochor_eos::{safety, units};
 use serde::Serialize;
+use std::collections::BTreeMap;
 
 /// Arguments of `isochor props`.
 #[derive(Debug, Args)]
 pub struct PropsArgs {
-    /// Gas name or formula.
-    #[arg(long)]
-    pub gas: String,
+    /// The gas or mixture.
+    #[command(flatten)]
+    pub gas: super::gas::GasArgs,
     /// Absolute pressure, with unit (Pa, kPa, MPa, bar, mbar, psi).
     #[arg(long, allow_hyphen_values = true)]
     pub pressure: String,
@@ -28,8 +29,10 @@ pub struct PropsArgs {
 /// The JSON answer of `isochor props`.
 #[derive(Clone, Debug, Serialize)]
 pub struct PropsReport {
-    /// Gas name.
+    /// Gas name (a mixture: its composition in the `--gas` form).
     pub gas: String,
+    /// Mole fractions by component (a pure gas: itself, 1).
+    pub composition: BTreeMap<String, f64>,
     /// Absolute pressure, Pa.
     pub pressure_pa: f64,
     /// Temperature, K.
@@ -60,13 +63,15 @@ pub struct PropsReport {
     pub caution: String,
 }
 
-/// Computes the report.
-pub fn report(gas: Gas, p_pa: f64, t_k: f64) -> Result<PropsReport, Error> {
-    let eos = Eos::of(gas);
+/// Computes the report. A mixture at or above its dew line is refused (a
+/// liquid can form there: tangent-plane test on GERG-2008).
+pub fn report(gas: &GasSpec, p_pa: f64, t_k: f64) -> Result<PropsReport, Error> {
+    let eos = Fluid::of(gas);
     let s = eos.state(p_pa, t_k)?;
-    let m = eos.molar_mass_kg_mol;
+    let m = eos.molar_mass_kg_mol();
     Ok(PropsReport {
-        gas: gas.name().to_string(),
+        gas: super::gas::gas_field(gas),
+        composition: super::gas::composition_map(gas),
         pressure_pa: p_pa,
         temperature_k: t_k,
         z: s.z,
@@ -76,19 +81,19 @@ pub fn report(gas: Gas, p_pa: f64, t_k: f64) -> Result<PropsReport, Error> {
         drho_dp_kg_m3_pa: s.drho_dp_mol_m3_pa * m,
         drho_dt_kg_m3_k: s.drho_dt_mol_m3_k * m,
         molar_mass_kg_mol: m,
-        gas_constant_j_mol_k: eos.gas_constant,
+        gas_constant_j_mol_k: eos.gas_constant(),
         phase: s.phase.name().to_string(),
         source: eos.source().to_string(),
-        caution: safety::paragraph(gas),
+        caution: safety::paragraph_for(gas),
     })
 }
 
 /// Runs the command.
 pub fn run(a: &PropsArgs) -> Result<String, Error> {
-    let gas = super::content::parse_gas(&a.gas)?;
+    let gas = a.gas.spec()?;
     let p = units::pressure_pa(&a.pressure, "--pressure")?;
     let t = units::temperature_k(&a.temperature, "--temperature")?;
-    let r = report(gas, p, t)?;
+    let r = report(&gas, p, t)?;
     match a.format {
         Format::Json => to_json(&r),
         Format::Text => {
@@ -121,7 +126,7 @@ pub fn run(a: &PropsArgs) -> Result<String, Error> {
                 r.molar_mass_kg_mol, r.gas_constant_j_mol_k
             );
             let _ = writeln!(s, "  source             {}\n", r.source);
-            for line in safety::lines(gas) {
+            for line in safety::lines_for(&gas) {
                 let _ = writeln!(s, "{line}");
             }
             Ok(s)

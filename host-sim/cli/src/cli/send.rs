@@ -10,6 +10,8 @@ use isochor_core::model::device::TableBuf;
 use isochor_core::prepared::GaugeConfig;
 use isochor_core::store::Origin;
 use isochor_core::{Gas, Setup, SetupFx, Tank, fx};
+use isochor_eos::composition::{Composition, GasSpec};
+use isochor_eos::fluid::Fluid;
 use serde_json::json;
 
 use super::{Format, to_json};
@@ -205,7 +207,8 @@ pub enum Request {
 /// The setup to write.
 #[derive(Debug, Args)]
 pub struct WriteConfigArgs {
-    /// Gas name or formula.
+    /// Gas name or formula, or a mixture as mole fractions
+    /// (argon=82%,carbon_dioxide=18%: load its table with load-gas-model).
     #[arg(long)]
     pub gas: String,
     /// Water capacity of the tank, with unit (L, mL, m3).
@@ -249,11 +252,7 @@ pub fn secret(file: Option<&std::path::Path>) -> Result<Option<Secret>, Error> {
 
 /// Builds the fixed-point setup from the arguments (validated).
 pub fn setup(a: &WriteConfigArgs) -> Result<SetupFx, Error> {
-    let gas = Gas::from_name(&a.gas).map_err(|_| Error::Quantity {
-        what: "--gas",
-        input: a.gas.clone(),
-        reason: "unknown gas".into(),
-    })?;
+    let gas = super::gas::parse(&a.gas)?.gas();
     let tank = Tank {
         water_capacity_m3: units::volume_m3(&a.capacity, "--capacity")?,
         rated_pressure_pa: units::absolute_pa(
@@ -297,6 +296,29 @@ pub fn with_setup(current: Option<GaugeConfig>, setup: SetupFx) -> GaugeConfig {
     }
 }
 
+/// A configuration of a mixture carries its composition and a table built
+/// for it (kept from the configuration when it is of the same mixture, else
+/// from the table cache or built: `isochor content --model device` shares
+/// it); a pure gas carries no composition.
+pub fn with_mixture(mut c: GaugeConfig, spec: &GasSpec) -> Result<GaugeConfig, Error> {
+    c.composition = spec.core_composition();
+    if let GasSpec::Mixture(_) = spec
+        && c.model.as_ref().map(|t| t.gas) != Some(c.setup.gas)
+    {
+        c.model = Some(crate::model_cache::table_for(&Fluid::of(spec))?.0);
+    }
+    Ok(c)
+}
+
+/// The gas of a configuration read back: a mixture's composition when it
+/// carries one, else the setup's gas.
+pub fn config_gas(c: &GaugeConfig) -> GasSpec {
+    c.composition
+        .as_ref()
+        .and_then(|k| Composition::from_core(k).ok())
+        .map_or(GasSpec::Pure(c.setup.gas), GasSpec::from_composition)
+}
+
 /// What the device's configuration reads back as, for text and JSON.
 fn config_view(
     d: &crate::link::client::DeviceConfig,
@@ -329,7 +351,8 @@ fn config_view(
             ),
         ));
     };
-    let mut v = setup_json(&cfg.setup);
+    let spec = config_gas(&cfg);
+    let mut v = setup_json(&cfg.setup, &spec);
     for (k, x) in head.as_object().into_iter().flatten() {
         v[k] = x.clone();
     }
@@ -341,7 +364,7 @@ fn config_view(
     v["barometric_pa"] = json!(fx::to_f64(cfg.barometric_pa));
     let mut t = format!(
         "{note}{}gas model {}\nbarometric pressure {:.1} hPa\n{zero_line}configuration {} bytes, CRC-32C {:08x}\n",
-        setup_text(&cfg.setup),
+        setup_text(&cfg.setup, &spec),
         if cfg.model.is_some() {
             "loaded"
         } else {
@@ -351,16 +374,17 @@ fn config_view(
         d.blob.len(),
         d.crc
     );
-    t.push_str(&safety::lines(cfg.setup.gas).join("\n"));
+    t.push_str(&safety::lines_for(&spec).join("\n"));
     t.push('\n');
     Ok((v, t))
 }
 
 /// The setup as JSON (SI units).
-pub fn setup_json(s: &SetupFx) -> serde_json::Value {
+pub fn setup_json(s: &SetupFx, spec: &GasSpec) -> serde_json::Value {
     let f: Setup<f64> = s.to_real();
     json!({
-        "gas": f.gas.name(),
+        "gas": super::gas::gas_field(spec),
+        "composition": super::gas::composition_map(spec),
         "water_capacity_m3": f.tank.water_capacity_m3,
         "rated_pressure_pa": f.tank.rated_pressure_pa,
         "rated_temperature_k": f.tank.rated_temperature_k,
@@ -371,13 +395,13 @@ pub fn setup_json(s: &SetupFx) -> serde_json::Value {
     })
 }
 
-fn setup_text(s: &SetupFx) -> String {
+fn setup_text(s: &SetupFx, spec: &GasSpec) -> String {
     let c = |k: fx::Temperature| fx::to_f64(k) - isochor_core::constants::ZERO_CELSIUS_K;
     format!(
         "gas {}\nwater capacity {:.4} L\nrated pressure {:.3} bar (absolute) at {:.2} °C\n\
          elastic expansion {:.3e} per MPa, thermal expansion {:.3e} per K\n\
          standard condition {:.2} °C, {:.3} kPa\nsettled pressure at {:.2} °C\n",
-        s.gas.name(),
+        spec,
         fx::to_f64(s.tank.water_capacity_m3) * 1000.0,
         fx::to_f64(s.tank.rated_pressure_pa) / 1e5,
         c(s.tank.rated_temperature_k),
@@ -434,13 +458,14 @@ pub fn execute<T: crate::link::Transport>(
         }
         Request::ReadConfig => config_view(&client.read_config()?)?,
         Request::WriteConfig(a) => {
+            let spec = super::gas::parse(&a.gas)?;
             let s = setup(a)?;
             let current = client.read_config()?.config()?;
-            let config = with_setup(current, s);
+            let config = with_mixture(with_setup(current, s), &spec)?;
             client.configure(&config, &mut |_, _| {})?;
-            let mut t = setup_text(&s);
+            let mut t = setup_text(&s, &spec);
             t.push_str(&text_done("write-config"));
-            (json!({ "written": setup_json(&s) }), t)
+            (json!({ "written": setup_json(&s, &spec) }), t)
         }
         Request::WriteField(a) => {
             let Some(mut config) = client.read_config()?.config()? else {
@@ -522,8 +547,8 @@ pub fn execute<T: crate::link::Transport>(
                 return Err(Error::Invalid(format!(
                     "--file {}: a table of {}, but the device is set up for {}",
                     file.display(),
-                    table.gas.name(),
-                    config.setup.gas.name()
+                    describe_gas(table.gas),
+                    config_gas(&config)
                 )));
             }
             config.model = Some(table);
@@ -580,4 +605,13 @@ pub fn run(a: &SendArgs) -> Result<String, Error> {
         client = client.with_secret(s);
     }
     execute(&mut client, &a.request, a.format)
+}
+
+/// A table's gas in a message: a pure gas's name, or a mixture's
+/// fingerprint (a table does not carry the composition).
+fn describe_gas(g: Gas) -> String {
+    match g.mixture() {
+        Some(m) => format!("a mixture (fingerprint {:08x})", m.fingerprint),
+        None => g.name().to_string(),
+    }
 }

@@ -5,7 +5,23 @@ use isochor_core::Gas;
 use std::fmt::Write;
 
 fn const_name(g: Gas) -> String {
-    g.name().to_uppercase()
+    match g.mixture() {
+        Some(m) => format!("MIXTURE_{:08X}", m.fingerprint),
+        None => g.name().to_uppercase(),
+    }
+}
+
+/// The gas as a Rust expression (a mixture: its fingerprint and molar-mass
+/// bits).
+fn gas_expr(g: Gas) -> String {
+    match g.mixture() {
+        Some(m) => format!(
+            "Gas::Mixture(crate::Mixture {{ fingerprint: {}, molar_mass_kg_mol: crate::fx::MolarMass::from_bits({}) }})",
+            m.fingerprint,
+            m.molar_mass_kg_mol.to_bits()
+        ),
+        None => format!("Gas::{g:?}"),
+    }
 }
 
 fn array<T: std::fmt::Display>(out: &mut String, name: &str, ty: &str, v: &[T]) {
@@ -35,7 +51,7 @@ pub fn rust_module(models: &[Built]) -> String {
         let _ = writeln!(
             out,
             "//! | {} | {} × {} | {} | {:.1e} | {:.1e} |",
-            b.spec.gas,
+            b.spec.fluid.label(),
             t.temperature_knots.len(),
             t.pressure_knots.len(),
             super::blob_len(&b.table).unwrap_or(0),
@@ -46,7 +62,7 @@ pub fn rust_module(models: &[Built]) -> String {
     out.push_str("\n#![allow(clippy::unreadable_literal)]\n\nuse super::{Boundary, Table};\nuse crate::Gas;\n");
     for b in models {
         let t = b.table.table();
-        let n = const_name(b.spec.gas);
+        let n = const_name(b.spec.gas());
         let _ = writeln!(out);
         array(&mut out, &format!("{n}_T"), "u32", t.temperature_knots);
         array(&mut out, &format!("{n}_P"), "u32", t.pressure_knots);
@@ -65,25 +81,25 @@ pub fn rust_module(models: &[Built]) -> String {
         let _ = writeln!(
             out,
             "/// {}: {:.2}…{:.2} K, 0…{} bar; max density error {:.1e}.\n\
-             pub const {n}: Table<'static> = Table {{\n    gas: Gas::{:?},\n    temperature_knots: &{n}_T,\n    pressure_knots: &{n}_P,\n    z_offset: {},\n    z_step_exp: {},\n    z_floor: {},\n    coefs: &{n}_Z,\n    boundary: {boundary},\n}};",
-            b.spec.gas,
+             pub const {n}: Table<'static> = Table {{\n    gas: {},\n    temperature_knots: &{n}_T,\n    pressure_knots: &{n}_P,\n    z_offset: {},\n    z_step_exp: {},\n    z_floor: {},\n    coefs: &{n}_Z,\n    boundary: {boundary},\n}};",
+            b.spec.fluid.label(),
             t.range().temperature_min_k,
             t.range().temperature_max_k,
             (t.range().pressure_max_pa / 1e5 * 100.0).round() / 100.0,
             b.check.max_rel_error,
-            b.spec.gas,
+            gas_expr(b.spec.gas()),
             t.z_offset,
             t.z_step_exp,
             t.z_floor,
         );
     }
     out.push_str("\n/// The built-in table of `gas`.\npub const fn table(gas: Gas) -> Option<Table<'static>> {\n    match gas {\n");
-    for b in models {
+    for b in models.iter().filter(|b| b.spec.gas().mixture().is_none()) {
         let _ = writeln!(
             out,
             "        Gas::{:?} => Some({}),",
-            b.spec.gas,
-            const_name(b.spec.gas)
+            b.spec.gas(),
+            const_name(b.spec.gas())
         );
     }
     if models.len() < Gas::ALL.len() {

@@ -81,7 +81,7 @@ impl Samples {
                         return None;
                     }
                     let z = if p == 0.0 {
-                        dom.eos.gas_constant / isochor_core::constants::MOLAR_GAS_CONSTANT_J_MOL_K
+                        dom.fluid.z_eff_factor()
                     } else {
                         dom.z_ref(p, t)?
                     };
@@ -106,9 +106,7 @@ impl Samples {
             return None;
         }
         if p == 0.0 {
-            return Some(
-                self.dom.eos.gas_constant / isochor_core::constants::MOLAR_GAS_CONSTANT_J_MOL_K,
-            );
+            return Some(self.dom.fluid.z_eff_factor());
         }
         self.dom.z_ref(p, t)
     }

@@ -31,15 +31,16 @@ pub use emit::rust_module;
 
 use crate::Eos;
 use crate::Error;
+use crate::fluid::Fluid;
 use isochor_core::model::device::{BoundaryBuf, MAX_COEFS, MAX_KNOTS, TableBuf};
 use isochor_core::model::{Compressibility, CompressibilityFx, DeviceModel, ZPoint};
 use isochor_core::{Gas, fx};
 
 /// What to build.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug)]
 pub struct BuildSpec {
-    /// The gas.
-    pub gas: Gas,
+    /// The gas or mixture.
+    pub fluid: Fluid,
     /// Lowest temperature, K.
     pub t_min_k: f64,
     /// Highest temperature, K.
@@ -57,17 +58,37 @@ pub struct BuildSpec {
 
 impl BuildSpec {
     /// The built-in envelope: −40…+85 °C, 0…1000 bar (or the equation's
-    /// limit), target 9e-5, at most 2 KiB.
+    /// limit), target 9e-5, at most 2 KiB (a mixture: from −60 °C, see
+    /// [`BuildSpec::for_fluid`]).
     pub fn builtin(gas: Gas) -> BuildSpec {
+        BuildSpec::for_fluid(Fluid::pure(gas))
+    }
+
+    /// The built-in envelope for a pure gas or a mixture.
+    /// A mixture's table starts at −60 °C, the envelope's lowest
+    /// temperature, so that its condensation guard covers every temperature
+    /// the device accepts (a pure gas's at −40 °C).
+    pub fn for_fluid(fluid: Fluid) -> BuildSpec {
+        let t_min_k = match fluid {
+            Fluid::Pure(_) => 233.15,
+            Fluid::Mixture(_) => isochor_core::envelope::TEMPERATURE_MIN_K,
+        };
         BuildSpec {
-            gas,
-            t_min_k: 233.15,
+            fluid,
+            t_min_k,
             t_max_k: 358.15,
             p_max_pa: 1.0e8,
             density_max_kg_m3: None,
             target: 9e-5,
             max_bytes: 2048,
         }
+    }
+}
+
+impl BuildSpec {
+    /// The gas (the core's value: a mixture by its fingerprint).
+    pub fn gas(&self) -> Gas {
+        self.fluid.gas()
     }
 }
 
@@ -80,6 +101,27 @@ pub fn default_density_max(gas: Gas) -> f64 {
     let fraction = if gas == Gas::Xenon { 0.25 } else { 1.0 / 3.0 };
     e.critical_density_mol_m3 * e.molar_mass_kg_mol * fraction
 }
+
+/// Default density limit of a fluid's table: [`default_density_max`] for a
+/// pure gas; for a mixture [`MIXTURE_DENSITY_FRACTION`] times its
+/// pseudo-critical density (1/Σxᵢ/ρ_c,i), which no state of the range
+/// reaches: a mixture's table is bounded by its dew line only (below the
+/// cricondentherm) and covers the dense states above it (measured: the
+/// mixtures of `tests/tests/mixture_models.rs` hold 1e-4 up to 700 bar).
+pub fn default_density_max_of(fluid: &Fluid) -> f64 {
+    match fluid {
+        Fluid::Pure(e) => default_density_max(e.gas),
+        Fluid::Mixture(m) => {
+            m.gerg.pseudo_critical_density_mol_m3()
+                * m.gerg.molar_mass_kg_mol()
+                * MIXTURE_DENSITY_FRACTION
+        }
+    }
+}
+
+/// Multiple of the pseudo-critical density a mixture's table is limited to
+/// (three: beyond every state of the envelope, so no limit in practice).
+pub const MIXTURE_DENSITY_FRACTION: f64 = 3.0;
 
 /// A built model with its measured accuracy.
 #[derive(Clone, Debug)]
@@ -117,7 +159,7 @@ pub struct CheckReport {
 /// liquefiable gases, the boundary curves.
 #[derive(Clone, Debug)]
 pub struct Domain {
-    eos: &'static Eos,
+    fluid: Fluid,
     /// Lowest temperature, K.
     pub t_min: f64,
     /// Highest temperature, K.
@@ -140,16 +182,18 @@ pub struct Liquefiable {
 impl Domain {
     /// The domain of a spec.
     pub fn new(spec: &BuildSpec) -> Result<Domain, Error> {
-        let eos = Eos::of(spec.gas);
+        let fluid = spec.fluid.clone();
         if spec.t_min_k.partial_cmp(&spec.t_max_k) != Some(std::cmp::Ordering::Less)
-            || spec.t_min_k < eos.temperature_min_k
-            || spec.t_max_k > eos.temperature_max_k
+            || spec.t_min_k < fluid.temperature_min_k()
+            || spec.t_max_k > fluid.temperature_max_k()
             || spec.t_min_k < isochor_core::envelope::TEMPERATURE_MIN_K - 20.0
             || spec.t_max_k > isochor_core::envelope::TEMPERATURE_MAX_K + 20.0
         {
             return Err(Error::Invalid(format!(
                 "temperature range {}..{} K is outside what a table of {} can cover",
-                spec.t_min_k, spec.t_max_k, spec.gas
+                spec.t_min_k,
+                spec.t_max_k,
+                fluid.label()
             )));
         }
         if !(1e5..=isochor_core::envelope::PRESSURE_MAX_PA).contains(&spec.p_max_pa)
@@ -160,27 +204,40 @@ impl Domain {
                 spec.p_max_pa / 1e5
             )));
         }
-        let liquefiable = (eos.saturation_temperature_max_k() > spec.t_min_k).then(|| {
+        // Top of the liquid region: a pure gas's saturation line; a
+        // mixture's cricondentherm estimate plus one step of its dew-line
+        // grid (the true one lies within that step).
+        let top = match &fluid {
+            Fluid::Pure(e) => Some(e.saturation_temperature_max_k()),
+            Fluid::Mixture(_) => fluid
+                .condensation_temperature_max_k()
+                .map(|t| t + crate::fluid::ENVELOPE_STEP_K),
+        };
+        let liquefiable = top.filter(|&t| t > spec.t_min_k).map(|t_sat_max| {
             let rho_kg = spec
                 .density_max_kg_m3
-                .unwrap_or_else(|| default_density_max(spec.gas));
+                .unwrap_or_else(|| default_density_max_of(&fluid));
             Liquefiable {
-                t_sat_max: eos.saturation_temperature_max_k(),
-                rho_max_mol_m3: rho_kg / eos.molar_mass_kg_mol,
+                t_sat_max,
+                rho_max_mol_m3: rho_kg / fluid.molar_mass_kg_mol(),
             }
         });
         Ok(Domain {
-            eos,
             t_min: spec.t_min_k,
             t_max: spec.t_max_k,
-            p_max: spec.p_max_pa.min(eos.pressure_max_pa),
+            p_max: spec.p_max_pa.min(fluid.pressure_max_pa()),
             liquefiable,
+            fluid,
         })
     }
 
-    /// True saturation pressure (ancillary) below the top of the line.
+    /// True saturation (dew) pressure below the top of the line.
     fn p_sat(&self, t: f64) -> Option<f64> {
-        self.eos.saturation_pressure_pa(t)
+        let l = self.liquefiable.as_ref()?;
+        if t >= l.t_sat_max {
+            return None;
+        }
+        self.fluid.condensation_pressure_pa(t)
     }
 
     /// Highest pressure of the gas states kept at `t` (exact curves).
@@ -190,14 +247,13 @@ impl Domain {
         };
         let sat = self.p_sat(t);
         // The isochore of the density limit, where it lies in the gas region.
-        let (p_iso, _, _) = self.eos.pressure(l.rho_max_mol_m3, t);
-        let in_gas = match sat {
-            Some(ps) => {
-                // Saturated vapour denser than the limit: the isochore is in
-                // the gas region.
-                self.eos.vapour_density.eval(t) > l.rho_max_mol_m3 && p_iso < ps
-            }
-            None => true,
+        let (p_iso, _, _) = self.fluid.pressure(l.rho_max_mol_m3, t);
+        let in_gas = match (&self.fluid, sat) {
+            // Saturated vapour denser than the limit: the isochore is in
+            // the gas region.
+            (Fluid::Pure(e), Some(ps)) => e.vapour_density.eval(t) > l.rho_max_mol_m3 && p_iso < ps,
+            (Fluid::Mixture(_), Some(ps)) => p_iso > 0.0 && p_iso < ps,
+            (_, None) => true,
         };
         let mut lim = self.p_max;
         if in_gas {
@@ -219,7 +275,7 @@ impl Domain {
 
     /// Z_eff from the reference equation (None outside the gas region).
     pub fn z_ref(&self, p: f64, t: f64) -> Option<f64> {
-        self.eos.state(p, t).ok().map(|s| s.z_eff)
+        self.fluid.state(p, t).ok().map(|s| s.z_eff)
     }
 }
 
@@ -232,7 +288,7 @@ pub fn build(spec: &BuildSpec) -> Result<Built, Error> {
     let mut np = 6usize;
     let mut best: Option<Built> = None;
     for _ in 0..40 {
-        let (cand, report) = match fit::fit_table(spec.gas, &dom, &samples, nt, np)
+        let (cand, report) = match fit::fit_table(spec.gas(), &dom, &samples, nt, np)
             .and_then(|c| check_table(&c.table(), &check).map(|r| (c, r)))
         {
             Ok(x) => x,
@@ -247,7 +303,8 @@ pub fn build(spec: &BuildSpec) -> Result<Built, Error> {
         if std::env::var_os("ISOCHOR_BUILD_TRACE").is_some() {
             eprintln!(
                 "{}: {nt}×{np} spans, {bytes} bytes, max {:.2e}",
-                spec.gas, report.max_rel_error
+                spec.fluid.label(),
+                report.max_rel_error
             );
         }
         if bytes > spec.max_bytes {
@@ -261,7 +318,7 @@ pub fn build(spec: &BuildSpec) -> Result<Built, Error> {
             best = Some(Built {
                 table: cand,
                 check: report,
-                spec: *spec,
+                spec: spec.clone(),
             });
         }
         if done {
@@ -274,7 +331,7 @@ pub fn build(spec: &BuildSpec) -> Result<Built, Error> {
             if (a + 3) * (b + 3) > MAX_COEFS {
                 return Ok(0.0);
             }
-            let Ok(t) = fit::fit_table(spec.gas, &dom, &samples, a, b) else {
+            let Ok(t) = fit::fit_table(spec.gas(), &dom, &samples, a, b) else {
                 return Ok(0.0);
             };
             let Ok(r) = check_table(&t.table(), &check) else {
@@ -297,7 +354,7 @@ pub fn build(spec: &BuildSpec) -> Result<Built, Error> {
             break;
         }
     }
-    let b = best.ok_or_else(|| Error::Build(format!("{}: no table fits", spec.gas)))?;
+    let b = best.ok_or_else(|| Error::Build(format!("{}: no table fits", spec.fluid.label())))?;
     Ok(b)
 }
 
@@ -318,16 +375,39 @@ pub fn blob(t: &TableBuf) -> Result<Vec<u8>, Error> {
 /// `fit::Samples::new_offset` (0.5 K × p_max/1000, offset from the sample
 /// nodes), fixed point and float.
 pub fn check(table: &isochor_core::model::device::Table<'_>) -> Result<CheckReport, Error> {
+    if table.gas.mixture().is_some() {
+        return Err(Error::Invalid(
+            "a mixture's table is checked against its composition (check_fluid)".into(),
+        ));
+    }
+    check_fluid(table, &Fluid::pure(table.gas))
+}
+
+/// [`check`] for a table of `fluid` (a mixture's table needs its
+/// composition; its gas must be the fluid's).
+pub fn check_fluid(
+    table: &isochor_core::model::device::Table<'_>,
+    fluid: &Fluid,
+) -> Result<CheckReport, Error> {
+    if table.gas != fluid.gas() {
+        return Err(Error::Invalid(format!(
+            "the table is not of {} (another gas or composition)",
+            fluid.label()
+        )));
+    }
     let r = table.range();
-    let eos = Eos::of(table.gas);
+    let density_max = match fluid {
+        Fluid::Pure(eos) => eos.critical_density_mol_m3 * eos.molar_mass_kg_mol,
+        Fluid::Mixture(m) => m.gerg.pseudo_critical_density_mol_m3() * m.gerg.molar_mass_kg_mol(),
+    };
     let spec = BuildSpec {
-        gas: table.gas,
+        fluid: fluid.clone(),
         t_min_k: r.temperature_min_k,
         t_max_k: r.temperature_max_k,
         p_max_pa: r.pressure_max_pa,
         // Candidates up to the critical density; the table's own boundary
         // curves decide which of them it covers (states it flags are skipped).
-        density_max_kg_m3: Some(eos.critical_density_mol_m3 * eos.molar_mass_kg_mol),
+        density_max_kg_m3: Some(density_max),
         target: 0.0,
         max_bytes: 0,
     };

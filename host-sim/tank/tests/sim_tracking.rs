@@ -1,0 +1,272 @@
+//! Tracking through real use (the scenarios of docs/tracking.md, "Real
+//! use"): busy days, a vessel run to empty, changeable weather, a quiet
+//! temperature channel and a dead one; each scored in both gauges (the
+//! fixed-point device path and the f64 reference), with identical alarm
+//! events.
+
+use isochor_tank::run::{BackendKind, RunOptions, RunResult, Summary, run};
+use isochor_tank::scenario::Scenario;
+
+fn run_with(sc: &Scenario, backend: BackendKind) -> RunResult {
+    run(
+        sc,
+        &RunOptions {
+            backend,
+            trace_every_s: 60.0,
+            progress: false,
+        },
+    )
+    .unwrap()
+}
+
+/// Runs a built-in scenario in both gauges; asserts their alarm events are
+/// the same and returns the fixed-point run.
+fn both(name: &str) -> RunResult {
+    let sc = Scenario::builtin(name).unwrap();
+    let a = run_with(&sc, BackendKind::Fixed);
+    let b = run_with(&sc, BackendKind::Float);
+    show(&a.summary);
+    assert_eq!(events(&a.summary), events(&b.summary), "{name}");
+    a
+}
+
+fn events(s: &Summary) -> Vec<(u64, &'static str, &'static str)> {
+    s.alarms
+        .iter()
+        .map(|e| (e.t_s as u64, e.alarm, e.change))
+        .collect()
+}
+
+fn raised<'a>(s: &'a Summary, alarm: &'a str) -> impl Iterator<Item = f64> + 'a {
+    s.alarms
+        .iter()
+        .filter(move |e| e.alarm == alarm && e.change == "raised")
+        .map(|e| e.t_s)
+}
+
+fn show(s: &Summary) {
+    eprintln!(
+        "{}: max |e| {:.2} %, rms {:.2} %, coverage {:.1} %, median U {:.2} %, false alarms {}, leak after {:?} s, time to empty {} min (bounds hold {:?}), alarms {:?}",
+        s.scenario,
+        s.max_abs_error_fraction.unwrap_or(f64::NAN) * 100.0,
+        s.rms_error_fraction.unwrap_or(f64::NAN) * 100.0,
+        s.uncertainty_coverage.unwrap_or(f64::NAN) * 100.0,
+        s.median_relative_uncertainty.unwrap_or(f64::NAN) * 100.0,
+        s.false_alarms,
+        s.leak_detected_after_s,
+        s.time_to_empty_minutes,
+        s.time_to_empty_coverage,
+        s.alarms
+            .iter()
+            .filter(|e| e.alarm != "not_settled")
+            .map(|e| format!("{:.1} h {} {}", e.t_s / 3600.0, e.alarm, e.change))
+            .collect::<Vec<_>>()
+    );
+}
+
+/// Two busy welding days (six hours at 12 sL/min, about 7 % of the content
+/// an hour) with idle days between, in standby: the draws are use, not
+/// loss, and no leak is raised after them (before draw episodes were kept
+/// out of the leak ring, each busy day raised `leak` for about two days).
+#[test]
+fn busy_days_raise_no_leak() {
+    let r = both("contractor-busy-days");
+    let s = &r.summary;
+    assert_eq!(s.false_alarms, 0);
+    assert_eq!(raised(s, "leak").count(), 0);
+    assert!(s.uncertainty_coverage.unwrap() >= 0.95);
+    assert!(s.mass_end_kg < 0.7 * s.mass_start_kg);
+    // No time to empty while a draw starts or stops within the rate window
+    // (rate `steady: false`); where one is shown its bounds hold the truth.
+    assert!(s.time_to_empty_coverage.unwrap() >= 0.9);
+}
+
+/// Run down to the reserve and left there, in use with a learned draw: the
+/// gauge says `low_content` and never `leak`.
+#[test]
+fn run_to_empty_says_low_content_not_leak() {
+    let r = both("run-to-empty");
+    let s = &r.summary;
+    assert_eq!(s.false_alarms, 0);
+    assert_eq!(raised(s, "leak").count(), 0);
+    assert_eq!(raised(s, "low_content").count(), 1);
+    assert!(s.uncertainty_coverage.unwrap() >= 0.95);
+    assert!(s.time_to_empty_coverage.unwrap() >= 0.9);
+}
+
+/// Two weeks idle on a sunny outdoor rack with the daily mean moving by 6 K
+/// from day to day: no leak from weather alone.
+#[test]
+fn weather_alone_raises_no_leak() {
+    let r = both("sunny-rack-weather");
+    let s = &r.summary;
+    assert_eq!(s.false_alarms, 0);
+    assert!(s.uncertainty_coverage.unwrap() >= 0.95);
+}
+
+/// A temperature channel whose noise is below its code step repeats its
+/// code for minutes: with the temperature's own stuck time (6 h) it is not
+/// flagged and the leak (1 %/day) is found within a day. With the
+/// pressure's 60 s it would be flagged over and over (checked here too, so
+/// the scenario keeps showing the case).
+#[test]
+fn quiet_temperature_channel_is_not_stuck() {
+    let r = both("quiet-sensor-leak");
+    let s = &r.summary;
+    assert_eq!(s.false_alarms, 0);
+    assert_eq!(raised(s, "sensor_fault").count(), 0);
+    let after = s.leak_detected_after_s.expect("leak found");
+    assert!(after < 24.0 * 3600.0, "{after}");
+
+    let text = isochor_tank::scenario::BUILTIN
+        .iter()
+        .find(|(n, _)| *n == "quiet-sensor-leak")
+        .unwrap()
+        .1
+        .replace(
+            "instrument = \"nominal\"",
+            "instrument = \"nominal\"\ntemperature_stuck_after = \"60s\"",
+        );
+    let sc = Scenario::from_toml(&text)
+        .unwrap()
+        .with(Some(86_400.0), None);
+    let short = run_with(&sc, BackendKind::Fixed);
+    assert!(raised(&short.summary, "sensor_fault").count() > 10);
+}
+
+/// The temperature sensor dies for good while the draw goes on: the
+/// `sensor_fault` alarm is raised, and no content is shown later than the
+/// restart gap (5 min) after the last usable sample — never a frozen
+/// content while the true one falls.
+#[test]
+fn dead_sensor_withdraws_the_content() {
+    let r = both("dead-sensor-draw");
+    let s = &r.summary;
+    assert_eq!(s.false_alarms, 0);
+    let fault = 36.0 * 3600.0;
+    assert!(raised(s, "sensor_fault").any(|t| (fault..fault + 60.0).contains(&t)));
+    let shown_late = r
+        .trace
+        .iter()
+        .filter(|p| p.t_s > fault + 300.0 && p.mass_gauge_kg.is_some())
+        .count();
+    assert_eq!(shown_late, 0);
+    let shown_before = r
+        .trace
+        .iter()
+        .filter(|p| p.t_s < fault && p.mass_gauge_kg.is_some())
+        .count();
+    assert!(shown_before > 2000);
+}
+
+/// Runs `n` weathers (seeds from `seed0`) of a scenario text at 10 s
+/// samples; returns per run (false alarms, leak found after, coverage,
+/// judged samples).
+fn population(text: &str, n: u64, seed0: u64) -> Vec<(u64, Option<f64>, f64, u64)> {
+    use rayon::prelude::*;
+    let base = Scenario::from_toml(text).unwrap();
+    (0..n)
+        .into_par_iter()
+        .map(|i| {
+            let mut sc = base.clone().with(None, Some(seed0 + i));
+            sc.interval_ms = 10_000;
+            let s = run(
+                &sc,
+                &RunOptions {
+                    backend: BackendKind::Fixed,
+                    trace_every_s: 0.0,
+                    progress: false,
+                },
+            )
+            .unwrap()
+            .summary;
+            (
+                s.false_alarms,
+                s.leak_detected_after_s,
+                s.uncertainty_coverage.unwrap_or(0.0),
+                s.judged_samples,
+            )
+        })
+        .collect()
+}
+
+fn builtin_text(name: &str) -> &'static str {
+    isochor_tank::scenario::BUILTIN
+        .iter()
+        .find(|(n, _)| *n == name)
+        .unwrap()
+        .1
+}
+
+/// The population run of issue 18's weather: 60 weathers of two weeks idle
+/// on the sunny rack (6 K day to day, ±10 K day/night, sun, a cold front and
+/// a warm one), 2.3 instrument-years: no false alarm (before the weather
+/// margin, 28 of 50 such weathers without the fronts raised `leak` at least
+/// once); and a leak of 0.2 %/day from day four is found in every weather.
+#[test]
+fn weather_population_false_alarms_and_leak_delays() {
+    let n = 60;
+    let text = builtin_text("sunny-rack-weather");
+    let idle = population(text, n, 5000);
+    let years = n as f64 * 14.0 / 365.25;
+    let alarms: u64 = idle.iter().map(|r| r.0).sum();
+    let (judged, covered) = idle.iter().fold((0.0, 0.0), |(j, c), r| {
+        (j + r.3 as f64, c + r.2 * r.3 as f64)
+    });
+    eprintln!(
+        "weather population: {n} runs, {years:.2} instrument-years, {alarms} false alarms ({:.2} per instrument-year), pooled coverage {:.1} %",
+        alarms as f64 / years,
+        covered / judged * 100.0
+    );
+    assert_eq!(alarms, 0);
+
+    // A leak of 0.2 %/day from day four, with the fronts (the cold one on
+    // day six comes while the leak is being judged: the weather margin
+    // rises and delays the verdict) and without them (6 K day to day only:
+    // the stated sensitivity, within 48 h).
+    let leak = "[[leak]]\nstart = \"4d\"\nloss_per_day = 0.002\n\n";
+    let with_fronts = text.replacen("[[front]]", &format!("{leak}[[front]]"), 1);
+    let without = text.split("[[front]]").next().unwrap().to_string()
+        + leak
+        + &text[text.find("[sensors.pressure]").unwrap()..];
+    for (what, text, limit_h) in [
+        ("with the fronts", with_fronts, 60.0),
+        ("without fronts", without, 48.0),
+    ] {
+        let runs = population(&text, n, 5000);
+        let mut delays: Vec<f64> = runs
+            .iter()
+            .filter_map(|r| r.1)
+            .map(|s| s / 3600.0)
+            .collect();
+        delays.sort_by(f64::total_cmp);
+        eprintln!(
+            "0.2 %/day from day four, {what}: found in {} of {n}; delay h: min {:.1}, median {:.1}, max {:.1}",
+            delays.len(),
+            delays.first().copied().unwrap_or(f64::NAN),
+            delays.get(delays.len() / 2).copied().unwrap_or(f64::NAN),
+            delays.last().copied().unwrap_or(f64::NAN)
+        );
+        assert_eq!(runs.iter().map(|r| r.0).sum::<u64>(), 0);
+        assert_eq!(delays.len() as u64, n);
+        assert!(delays.iter().all(|&h| h < limit_h), "{what}: {delays:?}");
+    }
+}
+
+/// A leak of 1 %/day from the first hour: reported in the second day, on
+/// the pairs of hours one day apart that are in (before early verdicts the
+/// first verdict came 48 h after the start), in both gauges alike.
+#[test]
+fn leak_at_start_up_is_reported_in_the_second_day() {
+    let text = builtin_text("quiet-sensor-leak").replace("start = \"3d\"", "start = \"1h\"");
+    let sc = Scenario::from_toml(&text)
+        .unwrap()
+        .with(Some(3.0 * 86_400.0), None);
+    let a = run_with(&sc, BackendKind::Fixed);
+    let b = run_with(&sc, BackendKind::Float);
+    show(&a.summary);
+    assert_eq!(events(&a.summary), events(&b.summary));
+    assert_eq!(a.summary.false_alarms, 0);
+    let after = a.summary.leak_detected_after_s.expect("leak found");
+    assert!(after + 3600.0 < 40.0 * 3600.0, "{after}");
+}
