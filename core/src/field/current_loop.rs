@@ -240,7 +240,7 @@ impl LoopScalars {
         if self.gain == 0 || status.intersects(NOT_A_VALUE) {
             return failure;
         }
-        // max/min, not clamp: clamp asserts lo ≤ hi (a panic path).
+        // `max`/`min`, not `clamp`: no panic path (docs/budget.md).
         let v = v.max(self.lo).min(self.hi);
         // 0 … (hi − lo) >> shift < 2³² (validated).
         let d = (v.wrapping_sub(self.lo) as u64) >> (self.shift & 63);

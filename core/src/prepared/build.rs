@@ -44,13 +44,13 @@ pub struct GaugeConfig {
     /// Plausibility checks of the readings (range, rate of change, stuck
     /// value); `None`: no checks beyond the front-ends' own.
     pub plausibility: Option<Plausibility>,
-    /// The serial line (Modbus address, baud rate, parity, protocol on a
-    /// one-UART board) and the 4–20 mA output.
-    pub field: FieldConfig,
     /// A mixture's composition (hosts show it when they read the
     /// configuration back; the device needs only the table and the molar
     /// mass in the setup's gas); `None` for a pure gas.
     pub composition: Option<Composition>,
+    /// The serial line (Modbus address, baud rate, parity, protocol on a
+    /// one-UART board) and the 4–20 mA output.
+    pub field: FieldConfig,
 }
 
 /// The plausibility checks of both channels.
@@ -91,8 +91,8 @@ impl GaugeConfig {
             barometric_pa: STANDARD_ATMOSPHERE,
             model: None,
             plausibility: None,
-            field: FieldConfig::default(),
             composition: None,
+            field: FieldConfig::default(),
         }
     }
 

@@ -1051,7 +1051,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             if k == DAY_HOURS {
                 v
             } else {
-                v * DAY_HOURS as i64 / k as i64
+                (v * DAY_HOURS as i64).checked_div(k as i64).unwrap_or(0)
             }
         };
         let older = per_day(older_k);

@@ -227,8 +227,8 @@ impl GaugeConfig {
                 pressure: self.pressure_plausibility,
                 temperature: self.temperature_plausibility,
             }),
-            field: Default::default(),
             composition: crate::run::spec_of(self.setup.gas).core_composition(),
+            field: Default::default(),
         })
     }
 }

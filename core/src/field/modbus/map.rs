@@ -476,9 +476,10 @@ pub fn scaled_i32(v: i64, scale: u8) -> i32 {
     let lim = i64::from(i32::MAX);
     // Beyond 2⁵⁶/k the result saturates anyway; below it v·k fits.
     let bound = (1i64 << 56) / k;
+    // `max`/`min`, not `clamp`: no panic path (docs/budget.md).
     let v = v.max(-bound).min(bound);
     let x = (v * k + (1 << 23)) >> 24;
-    x.max(-lim).min(lim) as i32
+    x.clamp(-lim, lim) as i32
 }
 
 /// The registers of a gauge: its snapshot, identity and field settings, at
