@@ -415,7 +415,7 @@ pub fn derive(i: &DerivedInputs) -> Derived {
 }
 
 /// The derived uncertainties in `f64` (SI units): the reference of
-/// [`derive`]. Fields as in [`Derived`], `None` where it has none.
+/// [`derive`](fn@derive). Fields as in [`Derived`], `None` where it has none.
 pub fn derive_f64(i: &DerivedInputs) -> [Option<f64>; 4] {
     let mut out = [None; 4];
     let l = |bits: u64, frac: i32| libm::ldexp(bits as f64, -frac);
