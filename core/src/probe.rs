@@ -4,7 +4,7 @@
 //! (and where the stage it was called from resumes). Without the `probe`
 //! feature [`enter`] is empty and inlined away: the device image carries no
 //! trace of it. With the feature, [`enter`] calls the hook a measuring
-//! program installed with [`set_hook`] (none: nothing happens); the firmware
+//! program installed with `set_hook` (feature `probe`) (none: nothing happens); the firmware
 //! budget program reads the cycle counter there and charges the time since
 //! the last mark to the stage that was running.
 //!

@@ -1,7 +1,7 @@
 //! Authenticated commands: challenge–response with HMAC-SHA-256.
 //!
 //! Reading telemetry, identity and records needs nothing. Every command that
-//! changes the device ([`Command`]) must be signed with the per-device secret
+//! changes the device ([`Command`](crate::link::Command)) must be signed with the per-device secret
 //! provisioned at manufacture:
 //!
 //! 1. The host sends [`GetChallenge`](crate::link::GetChallenge); the device

@@ -212,12 +212,12 @@ fn fit_with_steps(
 }
 
 /// The weight of the error where the channel flags its readings (see
-/// [`fit_with_steps`]).
+/// `fit_with_steps`).
 pub const FLAGGED_WEIGHT: f64 = 0.001;
 /// Where one input step moves the output by more than this many
 /// tolerances (for a temperature: 23 mK, the coarse ends of a thermistor on
 /// a 16-bit converter), the curve is fitted to a 1/STEP_RATIO of a step
-/// instead (see [`fit_with_steps`]).
+/// instead (see `fit_with_steps`).
 pub const STEP_RATIO: f64 = 10_000.0;
 
 /// The largest and smallest value of `f` on a grid over `lo..=hi`.

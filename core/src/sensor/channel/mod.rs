@@ -5,7 +5,7 @@
 //! Two forms, with the same steps:
 //!
 //! * [`float::TemperatureChannel`] / [`float::PressureChannel`] (generic over
-//!   [`Real`](crate::Real); `f64` is the reference): the front-ends'
+//!   [`Real`]; `f64` is the reference): the front-ends'
 //!   equations evaluated as written ([`crate::sensor::rtd`],
 //!   [`crate::sensor::ntc`], [`crate::sensor::bridge`],
 //!   [`crate::sensor::current_loop`], [`crate::sensor::calibration`]);
@@ -14,7 +14,7 @@
 //!   the whole chain from code to corrected reading as a
 //!   [`Curve`](crate::curve::Curve) of the code (for a bridge: the
 //!   compensation as curves of the temperature and the pressure as a curve
-//!   of the normalised signal), and the flags as a [`StatusMap`] of the
+//!   of the normalised signal), and the flags as a [`StatusMap`](fixed::StatusMap) of the
 //!   input, located exactly on the `f64` channel. Per sample the device
 //!   evaluates curves and compares integers; it never runs the front-ends'
 //!   equations.
