@@ -327,35 +327,28 @@ impl<'w, 'a> ser::SerializeMap for &'w mut Writer<'a> {
     }
 }
 
-impl<'w, 'a> ser::SerializeStruct for &'w mut Writer<'a> {
-    type Ok = ();
-    type Error = Fault;
-    fn serialize_field<T: Serialize + ?Sized>(
-        &mut self,
-        _key: &'static str,
-        value: &T,
-    ) -> Result<(), Fault> {
-        value.serialize(&mut **self)
-    }
-    fn end(self) -> Result<(), Fault> {
-        Ok(())
-    }
+/// Structs and struct variants: the fields in order, names left out.
+macro_rules! named_fields {
+    ($trait:ident) => {
+        impl<'w, 'a> ser::$trait for &'w mut Writer<'a> {
+            type Ok = ();
+            type Error = Fault;
+            fn serialize_field<T: Serialize + ?Sized>(
+                &mut self,
+                _key: &'static str,
+                value: &T,
+            ) -> Result<(), Fault> {
+                value.serialize(&mut **self)
+            }
+            fn end(self) -> Result<(), Fault> {
+                Ok(())
+            }
+        }
+    };
 }
 
-impl<'w, 'a> ser::SerializeStructVariant for &'w mut Writer<'a> {
-    type Ok = ();
-    type Error = Fault;
-    fn serialize_field<T: Serialize + ?Sized>(
-        &mut self,
-        _key: &'static str,
-        value: &T,
-    ) -> Result<(), Fault> {
-        value.serialize(&mut **self)
-    }
-    fn end(self) -> Result<(), Fault> {
-        Ok(())
-    }
-}
+named_fields!(SerializeStruct);
+named_fields!(SerializeStructVariant);
 
 #[cfg(test)]
 mod tests {

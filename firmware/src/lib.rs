@@ -20,6 +20,7 @@ pub mod board;
 pub mod ram_nor;
 pub mod retained;
 pub mod run;
+pub mod sweep;
 
 #[cfg(target_arch = "arm")]
 pub mod arm;

@@ -305,7 +305,7 @@ fn sim_on_the_firmware_scores_like_the_fixed_core() {
 }
 
 /// The codes of sample `i` of the minimal firmware's invented bench sweep
-/// (the same formula as `codes` in `firmware/src/bin/minimal.rs`).
+/// (the same formula as `isochor_firmware::sweep::codes`, `firmware/src/sweep.rs`).
 fn minimal_codes(i: u32) -> RawSample {
     let noise = (i.wrapping_mul(2_654_435_761) >> 28) as i32 - 8;
     let p = 2_097_152 - (i * 27) as i32 + noise;

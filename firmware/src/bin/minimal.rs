@@ -8,13 +8,13 @@
 //! in place.
 //!
 //! On the emulated boards there are no converters: the program takes the
-//! codes of an invented bench sweep ([`codes`], the cylinder drawn down from
+//! codes of an invented bench sweep ([`isochor_firmware::sweep::codes`], the cylinder drawn down from
 //! about 150 bar while the temperature wanders around 20 °C), one sample a
 //! second of its own time, and sends [`SAMPLES`] frames, then idles. The
 //! end-to-end test (`tests/tests/firmware_qemu.rs`,
 //! `minimal_integration_matches_the_host`) reads the frames and compares
-//! them with the host on the same codes. On a real board, replace [`codes`]
-//! by the board's [`SampleSource`](isochor_firmware::board::SampleSource).
+//! them with the host on the same codes. On a real board, replace
+//! the sweep by the board's [`SampleSource`](isochor_firmware::board::SampleSource).
 //!
 //! Build and measure (figures in docs/budget.md):
 //! `cd firmware && cargo build --release --bin minimal` and
@@ -29,7 +29,6 @@ use isochor_core::content::fixed::Estimator;
 use isochor_core::link::{self, FromDevice, MAX_FRAME_LEN, ResetReason};
 use isochor_core::prepared::{Prepared, PreparedModel};
 use isochor_core::sensor::VALUE_INVALID;
-use isochor_core::sensor::channel::RawSample;
 use isochor_core::sensor::channel::fixed::{PressureChannel, TemperatureChannel};
 use isochor_core::time::Instant;
 use isochor_firmware::arm;
@@ -55,21 +54,6 @@ struct Aligned<T: ?Sized>(T);
 /// The configuration, in flash.
 static CONFIG: &Aligned<[u8]> = &Aligned(*include_bytes!("../../data/nominal.izpc"));
 
-/// The codes of sample `i` (invented bench sweep): the nominal 300 bar
-/// bridge (24-bit bipolar, 2^22 codes per 150 bar gauge) from 150 bar down
-/// by 27 codes (about 1 mbar) a second with ±8 codes of noise; the nominal
-/// Pt1000 (4.02 kΩ reference, 24-bit) around 20 °C (code 4 498 717),
-/// wandering by ±0.1 K. The test repeats this formula.
-fn codes(i: u32) -> RawSample {
-    let noise = (i.wrapping_mul(2_654_435_761) >> 28) as i32 - 8;
-    let p = 2_097_152 - (i * 27) as i32 + noise;
-    let t = 4_498_717 + ((i * 37) % 97) as i32 * 17 - 800;
-    RawSample {
-        pressure: (p as u32) & 0x00FF_FFFF,
-        temperature: t as u32,
-    }
-}
-
 #[entry]
 fn main() -> ! {
     let Some(b) = Board::take() else {
@@ -87,7 +71,7 @@ fn main() -> ! {
         let mut pressure = PressureChannel::new(0);
         for i in 0..SAMPLES {
             let at = Instant(u64::from(i) * 1000);
-            let raw = codes(i);
+            let raw = isochor_firmware::sweep::codes(i);
             let t = temperature.read(&prepared.temperature(), raw.temperature);
             let p = pressure.read(&prepared.pressure(), at, raw.pressure, &t);
             let flags = p.status | t.status;

@@ -3,7 +3,7 @@
 
 Independent implementation: teqp 0.23.1 (PyPI; Bell, Deiters, Jäger, Ind.
 Eng. Chem. Res. 62 (2023) 5452), model kind "GERG2008resid" (its own
-implementation and its own transcription of Kunz & Wagner 2012). Loose
+implementation and its own coding of Kunz & Wagner 2012). Loose
 sanity data: CoolProp 8.0.0's mixture model (pure-fluid reference equations
 with GERG-2008-type departure functions: not GERG-2008).
 

@@ -8,7 +8,7 @@
 //! same form for T_r). The pure-fluid terms are `n τ^t δ^d exp(−δ^c)`, the
 //! departure functions of the 15 binaries that have one add
 //! `n τ^t δ^d exp(−η(δ−ε)² − β(δ−γ))` terms. Coefficients: [`coefficients`]
-//! (the publication's values as transcribed in NIST's AGA8 reference code).
+//! (the publication's values as coded in NIST's AGA8 reference code).
 //!
 //! A [`Gerg`] is prepared for one composition: every coefficient is multiplied
 //! by its composition factor once, and the terms that depend on τ only are
