@@ -398,14 +398,20 @@ pub fn derive(i: &DerivedInputs) -> Derived {
         }
     }
     if let Some((fs, u_fs, u_rd, u_t)) = i.declared {
-        // Q4 Pa: FS (Q4) × u_FS (Q32) >> 32; p (Q4) × u_rd (Q32) >> 32.
-        let a = (u64::from(fs) * u64::from(u_fs)) >> 32;
-        let b = (u64::from(i.pressure) * u64::from(u_rd)) >> 32;
-        // a, b < 2³², so a² + b² < 2⁶⁵: both shifted by 2 bits when needed.
-        let (a2, b2) = (a * a, b * b);
+        // Q4 Pa, rounded: FS (Q4) × u_FS (Q32) >> 32; p (Q4) × u_rd (Q32) >> 32.
+        let half = 1u64 << 31;
+        let a = (u64::from(fs) * u64::from(u_fs)).saturating_add(half) >> 32;
+        let b = (u64::from(i.pressure) * u64::from(u_rd)).saturating_add(half) >> 32;
+        // a, b ≤ 2³², so a² + b² may pass 2⁶⁴: both shifted by 2 bits then.
+        let (a2, b2) = (a.saturating_mul(a), b.saturating_mul(b));
+        // The root rounded to nearest (√s ≥ r + ½ exactly when s − r² > r).
+        let rounded = |s: u64| {
+            let r = isqrt(s);
+            if s - r * r > r { r + 1 } else { r }
+        };
         let root = match a2.checked_add(b2) {
-            Some(s) => isqrt(s),
-            None => isqrt((a2 >> 2) + (b2 >> 2)) << 1,
+            Some(s) => rounded(s),
+            None => rounded((a2 >> 2) + (b2 >> 2)) << 1,
         };
         d.pressure_u_pa = Some(((2 * root) as i64) << 20);
         // U16F16 × 2 → Q24: << 9.
