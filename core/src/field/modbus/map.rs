@@ -388,8 +388,9 @@ pub fn derive(i: &DerivedInputs) -> Derived {
     let mut d = Derived::default();
     if let (Some((u_m, u_fill, cp)), Some(v)) = (i.uncertainty, i.rated_volume) {
         // U(fill) Q32 × V Q40 → Q24: product / 2^48.
-        let uv = mul_div(u_fill, v, 1 << 48);
-        d.standard_volume_u_m3 = Some(uv.min(i64::MAX as u64) as i64);
+        // Exact product (mul_div's reduced precision lost up to 1e-5 here).
+        let uv = (u128::from(u_fill) * u128::from(v)) >> 48;
+        d.standard_volume_u_m3 = Some(uv.min(i64::MAX as u128) as i64);
         if cp > 0 && i.mass > 0 {
             // p_s (Q4) × U(m)/m (Q32) / c_p (Q24) = Q12; Q12 → Q24.
             let rel_q32 = mul_div(u_m, 1 << 32, i.mass);
