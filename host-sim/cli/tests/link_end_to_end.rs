@@ -661,3 +661,79 @@ fn send_a_mixture_and_read_its_composition_back() {
     let _ = std::fs::remove_dir_all(&cache);
     handle.join().unwrap();
 }
+
+/// `send write-config` reads the tank's pressures as `content` does: barg
+/// adds `--barometric` (the standard atmosphere, 101 325 Pa by definition,
+/// when not given), and a given `--barometric` is stored in the device; a
+/// later write without it keeps the stored one.
+#[test]
+fn write_config_reads_gauge_pressures_and_stores_the_barometric_pressure() {
+    let (addr, handle) = tcp_device(4);
+    let read = |addr: &str| -> serde_json::Value {
+        let out = isochor(
+            &["send", "--tcp", addr, "--format", "json", "read-config"],
+            &[],
+            None,
+        );
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        serde_json::from_slice(&out.stdout).unwrap()
+    };
+    let write = |addr: &str, rest: &[&str]| -> serde_json::Value {
+        let mut args = vec![
+            "send",
+            "--tcp",
+            addr,
+            "--format",
+            "json",
+            "write-config",
+            "--gas",
+            "nitrogen",
+            "--capacity",
+            "50L",
+        ];
+        args.extend_from_slice(rest);
+        let out = isochor(&args, &[("ISOCHOR_SECRET", SECRET_HEX)], None);
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        serde_json::from_slice(&out.stdout).unwrap()
+    };
+    // The device holds pressures in sixteenths of a pascal: 1 Pa bounds the
+    // rounding.
+    let near = |v: &serde_json::Value, x: f64| (v.as_f64().unwrap() - x).abs() <= 1.0;
+
+    let w = write(
+        &addr,
+        &[
+            "--rated-pressure",
+            "200bar",
+            "--gauge",
+            "--barometric",
+            "95kPa",
+        ],
+    );
+    assert!(
+        near(&w["written"]["rated_pressure_pa"], 200e5 + 95e3),
+        "{w}"
+    );
+    assert!(near(&w["written"]["barometric_pa"], 95e3), "{w}");
+    let r = read(&addr);
+    assert!(near(&r["rated_pressure_pa"], 200e5 + 95e3), "{r}");
+    assert!(near(&r["barometric_pa"], 95e3), "{r}");
+
+    let w = write(&addr, &["--rated-pressure", "200barg"]);
+    assert!(
+        near(&w["written"]["rated_pressure_pa"], 200e5 + 101_325.0),
+        "{w}"
+    );
+    let r = read(&addr);
+    assert!(near(&r["rated_pressure_pa"], 200e5 + 101_325.0), "{r}");
+    assert!(near(&r["barometric_pa"], 95e3), "kept: {r}");
+    handle.join().unwrap();
+}

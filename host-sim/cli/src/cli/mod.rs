@@ -13,6 +13,7 @@ mod props;
 mod send;
 mod sensor;
 mod sim;
+mod tank;
 
 use clap::{Parser, Subcommand, ValueEnum};
 use std::process::ExitCode;

@@ -9,7 +9,7 @@ use isochor_core::link::{Command, SensorChannel};
 use isochor_core::model::device::TableBuf;
 use isochor_core::prepared::GaugeConfig;
 use isochor_core::store::Origin;
-use isochor_core::{Gas, Setup, SetupFx, Tank, fx};
+use isochor_core::{Gas, Setup, SetupFx, fx};
 use isochor_eos::composition::{Composition, GasSpec};
 use isochor_eos::fluid::Fluid;
 use serde_json::json;
@@ -211,30 +211,15 @@ pub struct WriteConfigArgs {
     /// (argon=82%,carbon_dioxide=18%: load its table with load-gas-model).
     #[arg(long)]
     pub gas: String,
-    /// Water capacity of the tank, with unit (L, mL, m3).
-    #[arg(long, allow_hyphen_values = true)]
-    pub capacity: String,
-    /// Rated (service) pressure, with unit: absolute (bar, bara, psia, ...)
-    /// or gauge (barg, psig: the standard atmosphere, 1.01325 bar, is
-    /// added). The working pressure marked on a cylinder is a gauge pressure.
-    #[arg(long, allow_hyphen_values = true)]
-    pub rated_pressure: String,
-    /// Temperature the rated pressure refers to. 15 °C in ISO practice; some
-    /// markings (US practice) refer to 70 °F (21.1 °C): give 70F then.
-    #[arg(long, default_value = "15C", allow_hyphen_values = true)]
-    pub rated_temperature: String,
+    /// The tank, and how its pressures read (gauge or absolute).
+    #[command(flatten)]
+    pub tank: super::tank::TankArgs,
     /// Standard condition for standard volume (iso13443, normal, ntp, 60f, or T,P).
     #[arg(long, default_value = "iso13443", allow_hyphen_values = true)]
     pub standard: String,
     /// Temperature the settled pressure refers to.
     #[arg(long, default_value = "15C", allow_hyphen_values = true)]
     pub reference_temperature: String,
-    /// Elastic volume expansion of the vessel per bar.
-    #[arg(long, default_value = "0", allow_hyphen_values = true)]
-    pub elastic_expansion_per_bar: String,
-    /// Volumetric thermal expansion of the vessel per kelvin.
-    #[arg(long, default_value = "0", allow_hyphen_values = true)]
-    pub thermal_expansion_per_k: String,
 }
 
 /// Reads the secret from the file or the environment.
@@ -253,24 +238,7 @@ pub fn secret(file: Option<&std::path::Path>) -> Result<Option<Secret>, Error> {
 /// Builds the fixed-point setup from the arguments (validated).
 pub fn setup(a: &WriteConfigArgs) -> Result<SetupFx, Error> {
     let gas = super::gas::parse(&a.gas)?.gas();
-    let tank = Tank {
-        water_capacity_m3: units::volume_m3(&a.capacity, "--capacity")?,
-        rated_pressure_pa: units::absolute_pa(
-            &a.rated_pressure,
-            "--rated-pressure",
-            false,
-            isochor_core::constants::STANDARD_ATMOSPHERE_PA,
-        )?,
-        rated_temperature_k: units::temperature_k(&a.rated_temperature, "--rated-temperature")?,
-        elastic_expansion_per_mpa: units::number(
-            &a.elastic_expansion_per_bar,
-            "--elastic-expansion-per-bar",
-        )? * 10.0,
-        thermal_expansion_per_k: units::number(
-            &a.thermal_expansion_per_k,
-            "--thermal-expansion-per-k",
-        )?,
-    };
+    let tank = a.tank.tank()?;
     let mut s = Setup::new(gas, tank);
     s.standard = super::content::parse_standard(&a.standard)?.1;
     s.settled_reference_k =
@@ -278,12 +246,24 @@ pub fn setup(a: &WriteConfigArgs) -> Result<SetupFx, Error> {
     SetupFx::from_f64(&s).map_err(|e| Error::Invalid(format!("setup: {e}")))
 }
 
+/// `--barometric` of write-config as the device stores it, when given.
+pub fn barometric_fx(t: &super::tank::TankArgs) -> Result<Option<fx::Pressure>, Error> {
+    t.barometric_given_pa()?
+        .map(|b| Ok(fx::from_f64(b, "--barometric")?))
+        .transpose()
+}
+
 /// The device's configuration with `setup` in place of its own: sensors,
-/// tracking settings, plausibility checks and barometric pressure kept, the
-/// alarm limits those of the new tank, a loaded gas model kept only for the
-/// same gas. A device without a configuration gets the nominal one.
-pub fn with_setup(current: Option<GaugeConfig>, setup: SetupFx) -> GaugeConfig {
-    match current {
+/// tracking settings and plausibility checks kept, the barometric pressure
+/// `barometric_pa` when given (else kept), the alarm limits those of the new
+/// tank, a loaded gas model kept only for the same gas. A device without a
+/// configuration gets the nominal one.
+pub fn with_setup(
+    current: Option<GaugeConfig>,
+    setup: SetupFx,
+    barometric_pa: Option<fx::Pressure>,
+) -> GaugeConfig {
+    let mut c = match current {
         None => GaugeConfig::nominal(setup),
         Some(mut c) => {
             if c.setup.gas != setup.gas {
@@ -293,7 +273,11 @@ pub fn with_setup(current: Option<GaugeConfig>, setup: SetupFx) -> GaugeConfig {
             c.track.limits = LimitsFx::for_tank(&setup.tank);
             c
         }
+    };
+    if let Some(b) = barometric_pa {
+        c.barometric_pa = b;
     }
+    c
 }
 
 /// A configuration of a mixture carries its composition and a table built
@@ -461,11 +445,24 @@ pub fn execute<T: crate::link::Transport>(
             let spec = super::gas::parse(&a.gas)?;
             let s = setup(a)?;
             let current = client.read_config()?.config()?;
-            let config = with_mixture(with_setup(current, s), &spec)?;
+            let barometric = barometric_fx(&a.tank)?;
+            let config = with_mixture(with_setup(current, s, barometric), &spec)?;
             client.configure(&config, &mut |_, _| {})?;
+            let b = fx::to_f64(config.barometric_pa);
             let mut t = setup_text(&s, &spec);
+            t.push_str(&format!(
+                "barometric pressure {:.1} hPa ({})\n",
+                b / 100.0,
+                if barometric.is_some() {
+                    "written"
+                } else {
+                    "kept"
+                }
+            ));
             t.push_str(&text_done("write-config"));
-            (json!({ "written": setup_json(&s, &spec) }), t)
+            let mut v = setup_json(&s, &spec);
+            v["barometric_pa"] = json!(b);
+            (json!({ "written": v }), t)
         }
         Request::WriteField(a) => {
             let Some(mut config) = client.read_config()?.config()? else {
@@ -582,6 +579,7 @@ pub fn run(a: &SendArgs) -> Result<String, Error> {
     // Input is checked before any connection is made.
     if let Request::WriteConfig(w) = &a.request {
         setup(w)?;
+        barometric_fx(&w.tank)?;
     }
 
     let needs_secret = !matches!(
