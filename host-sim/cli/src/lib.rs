@@ -19,7 +19,8 @@
 //!   * [`firmware_gauge`] — the simulator's gauge over the emulated firmware;
 //!   * [`budget`] — the firmware's flash, RAM, stack and instructions per estimate, measured in QEMU;
 //!   * [`mod@bench`] — converter codes for given readings (drives devices that take injected samples);
-//!   * [`sensor`] — sensor option parsing and the least-squares calibration fit;
+//!   * [`sensor`] — sensor option parsing, the least-squares calibration fit,
+//!     and the reports of `isochor sensor` ([`sensor::convert`]);
 //!   * [`cli`] — argument parsing and the commands.
 
 pub mod bench;

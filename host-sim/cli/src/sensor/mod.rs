@@ -9,6 +9,8 @@
 //! (`d` = 1 … 3) by Householder QR of the Vandermonde matrix (no normal
 //! equations, so no squared condition number).
 
+pub mod convert;
+
 use crate::Error;
 use isochor_core::sensor::calibration::Correction;
 use isochor_eos::units;
