@@ -21,6 +21,8 @@
 //!   * [`mod@bench`] — converter codes for given readings (drives devices that take injected samples);
 //!   * [`sensor`] — sensor option parsing, the least-squares calibration fit,
 //!     and the reports of `isochor sensor` ([`sensor::convert`]);
+//!   * [`send`] — requests and signed commands to a device, the setup and
+//!     configuration they write, and their reports;
 //!   * [`cli`] — argument parsing and the commands.
 
 pub mod bench;
@@ -34,6 +36,7 @@ pub mod image;
 pub mod link;
 pub mod modbus;
 pub mod model_cache;
+pub mod send;
 pub mod sensor;
 
 pub use error::Error;

@@ -1,23 +1,19 @@
-//! `isochor send`: one request or signed command to a device.
+//! `isochor send`: one request or signed command to a device. The options
+//! become a [`crate::send::Request`], the library runs it and reports, and
+//! this renders the report.
 
 use std::time::Duration;
 
 use clap::{Args, Subcommand, ValueEnum};
-use isochor_core::alarm::fixed::LimitsFx;
 use isochor_core::auth::Secret;
-use isochor_core::link::{Command, SensorChannel};
-use isochor_core::model::device::TableBuf;
-use isochor_core::prepared::GaugeConfig;
-use isochor_core::store::Origin;
-use isochor_core::{Gas, Setup, SetupFx, fx};
-use isochor_eos::composition::{Composition, GasSpec};
-use isochor_eos::fluid::Fluid;
-use serde_json::json;
+use isochor_core::field::{Failure, LoopQuantity, Parity, Protocol};
+use isochor_core::link::SensorChannel;
+use isochor_eos::units;
 
 use super::{Format, to_json};
 use crate::Error;
 use crate::link::Client;
-use isochor_eos::{safety, units};
+use crate::send::{self as lib, FieldChanges, SetupRequest};
 
 /// Environment variable that may hold the device secret (64 hex digits).
 pub const SECRET_ENV: &str = "ISOCHOR_SECRET";
@@ -89,61 +85,6 @@ pub struct WriteFieldArgs {
     pub loop_failure: Option<String>,
 }
 
-/// The field settings of `a` over `current`.
-pub fn field_settings(
-    a: &WriteFieldArgs,
-    current: isochor_core::field::FieldConfig,
-) -> Result<isochor_core::field::FieldConfig, Error> {
-    use isochor_core::field::{Failure, LoopQuantity, Parity, Protocol};
-    let bad = |what: &str, v: &str, allowed: &str| {
-        Error::Invalid(format!("--{what} {v:?}: one of {allowed}"))
-    };
-    let mut f = current;
-    if let Some(p) = &a.protocol {
-        f.serial.protocol = match p.as_str() {
-            "link" => Protocol::Link,
-            "modbus" => Protocol::Modbus,
-            _ => return Err(bad("protocol", p, "link, modbus")),
-        };
-    }
-    if let Some(x) = a.address {
-        f.serial.address = x;
-    }
-    if let Some(b) = a.baud {
-        f.serial.baud = b;
-    }
-    if let Some(p) = &a.parity {
-        f.serial.parity = match p.as_str() {
-            "none" => Parity::None,
-            "even" => Parity::Even,
-            "odd" => Parity::Odd,
-            _ => return Err(bad("parity", p, "none, even, odd")),
-        };
-    }
-    if let Some(q) = &a.loop_quantity {
-        f.loop_output.quantity = match q.as_str() {
-            "fill" => LoopQuantity::FillFraction,
-            "mass" => LoopQuantity::Mass,
-            _ => return Err(bad("loop-quantity", q, "fill, mass")),
-        };
-    }
-    if let Some(v) = a.loop_lower {
-        f.loop_output.lower = fx::from_f64(v, "--loop-lower")?;
-    }
-    if let Some(v) = a.loop_upper {
-        f.loop_output.upper = fx::from_f64(v, "--loop-upper")?;
-    }
-    if let Some(d) = &a.loop_failure {
-        f.loop_output.failure = match d.as_str() {
-            "low" => Failure::Low,
-            "high" => Failure::High,
-            _ => return Err(bad("loop-failure", d, "low, high")),
-        };
-    }
-    f.validate()?;
-    Ok(f)
-}
-
 /// A sensor channel on the command line.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
 pub enum Channel {
@@ -164,7 +105,8 @@ pub enum Request {
     ReadConfig,
     /// Store a new setup in the device (signed); its sensors, tracking
     /// settings and zero offsets are kept, the alarm limits follow the new
-    /// tank.
+    /// tank, and its barometric pressure is kept unless --barometric is
+    /// given.
     WriteConfig(WriteConfigArgs),
     /// Store the field settings in the device (signed; the rest of its
     /// configuration is kept): the Modbus line (protocol on a one-UART
@@ -235,336 +177,99 @@ pub fn secret(file: Option<&std::path::Path>) -> Result<Option<Secret>, Error> {
         .transpose()
 }
 
-/// Builds the fixed-point setup from the arguments (validated).
-pub fn setup(a: &WriteConfigArgs) -> Result<SetupFx, Error> {
-    let gas = super::gas::parse(&a.gas)?.gas();
-    let tank = a.tank.tank()?;
-    let mut s = Setup::new(gas, tank);
-    s.standard = super::content::parse_standard(&a.standard)?.1;
-    s.settled_reference_k =
-        units::temperature_k(&a.reference_temperature, "--reference-temperature")?;
-    SetupFx::from_f64(&s).map_err(|e| Error::Invalid(format!("setup: {e}")))
-}
-
-/// `--barometric` of write-config as the device stores it, when given.
-pub fn barometric_fx(t: &super::tank::TankArgs) -> Result<Option<fx::Pressure>, Error> {
-    t.barometric_given_pa()?
-        .map(|b| Ok(fx::from_f64(b, "--barometric")?))
-        .transpose()
-}
-
-/// The device's configuration with `setup` in place of its own: sensors,
-/// tracking settings and plausibility checks kept, the barometric pressure
-/// `barometric_pa` when given (else kept), the alarm limits those of the new
-/// tank, a loaded gas model kept only for the same gas. A device without a
-/// configuration gets the nominal one.
-pub fn with_setup(
-    current: Option<GaugeConfig>,
-    setup: SetupFx,
-    barometric_pa: Option<fx::Pressure>,
-) -> GaugeConfig {
-    let mut c = match current {
-        None => GaugeConfig::nominal(setup),
-        Some(mut c) => {
-            if c.setup.gas != setup.gas {
-                c.model = None;
-            }
-            c.setup = setup;
-            c.track.limits = LimitsFx::for_tank(&setup.tank);
-            c
-        }
-    };
-    if let Some(b) = barometric_pa {
-        c.barometric_pa = b;
-    }
-    c
-}
-
-/// A configuration of a mixture carries its composition and a table built
-/// for it (kept from the configuration when it is of the same mixture, else
-/// from the table cache or built: `isochor content --model device` shares
-/// it); a pure gas carries no composition.
-pub fn with_mixture(mut c: GaugeConfig, spec: &GasSpec) -> Result<GaugeConfig, Error> {
-    c.composition = spec.core_composition();
-    if let GasSpec::Mixture(_) = spec
-        && c.model.as_ref().map(|t| t.gas) != Some(c.setup.gas)
-    {
-        c.model = Some(crate::model_cache::table_for(&Fluid::of(spec))?.0);
-    }
-    Ok(c)
-}
-
-/// The gas of a configuration read back: a mixture's composition when it
-/// carries one, else the setup's gas.
-pub fn config_gas(c: &GaugeConfig) -> GasSpec {
-    c.composition
-        .as_ref()
-        .and_then(|k| Composition::from_core(k).ok())
-        .map_or(GasSpec::Pure(c.setup.gas), GasSpec::from_composition)
-}
-
-/// What the device's configuration reads back as, for text and JSON.
-fn config_view(
-    d: &crate::link::client::DeviceConfig,
-) -> Result<(serde_json::Value, String), Error> {
-    let (zp, zt) = d.zero.to_f64();
-    let head = json!({
-        "origin": d.origin.name(),
-        "config_len": d.blob.len(),
-        "crc32c": format!("{:08x}", d.crc),
-        "zero_pressure_pa": zp,
-        "zero_temperature_k": zt,
-    });
-    let zero_line = format!(
-        "zero offsets: pressure {:+.1} Pa, temperature {:+.3} K\n",
-        zp, zt
-    );
-    let note = match d.origin {
-        Origin::Stored => "",
-        Origin::Fallback => "NOTE: the newest stored copy is damaged; an older copy is in use\n",
-        Origin::Default => "",
-    };
-    let Some(cfg) = d.config()? else {
-        let mut v = head;
-        v["setup"] = serde_json::Value::Null;
-        return Ok((
-            v,
-            format!(
-                "{note}NO CONFIGURATION: the device reports config_unusable and shows no \
-                 content; store one with `isochor send write-config`\n{zero_line}"
-            ),
-        ));
-    };
-    let spec = config_gas(&cfg);
-    let mut v = setup_json(&cfg.setup, &spec);
-    for (k, x) in head.as_object().into_iter().flatten() {
-        v[k] = x.clone();
-    }
-    v["gas_model"] = json!(if cfg.model.is_some() {
-        "loaded"
-    } else {
-        "built-in"
-    });
-    v["barometric_pa"] = json!(fx::to_f64(cfg.barometric_pa));
-    let mut t = format!(
-        "{note}{}gas model {}\nbarometric pressure {:.1} hPa\n{zero_line}configuration {} bytes, CRC-32C {:08x}\n",
-        setup_text(&cfg.setup, &spec),
-        if cfg.model.is_some() {
-            "loaded"
-        } else {
-            "built-in"
-        },
-        fx::to_f64(cfg.barometric_pa) / 100.0,
-        d.blob.len(),
-        d.crc
-    );
-    t.push_str(&safety::lines_for(&spec).join("\n"));
-    t.push('\n');
-    Ok((v, t))
-}
-
-/// The setup as JSON (SI units).
-pub fn setup_json(s: &SetupFx, spec: &GasSpec) -> serde_json::Value {
-    let f: Setup<f64> = s.to_real();
-    json!({
-        "gas": super::gas::gas_field(spec),
-        "composition": super::gas::composition_map(spec),
-        "water_capacity_m3": f.tank.water_capacity_m3,
-        "rated_pressure_pa": f.tank.rated_pressure_pa,
-        "rated_temperature_k": f.tank.rated_temperature_k,
-        "elastic_expansion_per_mpa": f.tank.elastic_expansion_per_mpa,
-        "thermal_expansion_per_k": f.tank.thermal_expansion_per_k,
-        "standard": { "temperature_k": f.standard.temperature_k, "pressure_pa": f.standard.pressure_pa },
-        "settled_reference_k": f.settled_reference_k,
+/// The setup request of write-config's options (units and signs checked).
+pub fn setup_request(a: &WriteConfigArgs) -> Result<SetupRequest, Error> {
+    Ok(SetupRequest {
+        gas: super::gas::parse(&a.gas)?,
+        tank: a.tank.tank()?,
+        standard: super::content::parse_standard(&a.standard)?.1,
+        settled_reference_k: units::temperature_k(
+            &a.reference_temperature,
+            "--reference-temperature",
+        )?,
     })
 }
 
-fn setup_text(s: &SetupFx, spec: &GasSpec) -> String {
-    let c = |k: fx::Temperature| fx::to_f64(k) - isochor_core::constants::ZERO_CELSIUS_K;
-    format!(
-        "gas {}\nwater capacity {:.4} L\nrated pressure {:.3} bar (absolute) at {:.2} °C\n\
-         elastic expansion {:.3e} per MPa, thermal expansion {:.3e} per K\n\
-         standard condition {:.2} °C, {:.3} kPa\nsettled pressure at {:.2} °C\n",
-        spec,
-        fx::to_f64(s.tank.water_capacity_m3) * 1000.0,
-        fx::to_f64(s.tank.rated_pressure_pa) / 1e5,
-        c(s.tank.rated_temperature_k),
-        fx::to_f64(s.tank.elastic_expansion_per_mpa),
-        fx::to_f64(s.tank.thermal_expansion_per_k),
-        c(s.standard.temperature_k),
-        fx::to_f64(s.standard.pressure_pa) / 1e3,
-        c(s.settled_reference_k),
-    )
+/// One of `allowed` (named `--{what}` in the message).
+fn one_of<T: Copy>(
+    what: &str,
+    v: &Option<String>,
+    allowed: &[(&str, T)],
+) -> Result<Option<T>, Error> {
+    v.as_deref()
+        .map(|v| {
+            allowed
+                .iter()
+                .find(|(name, _)| *name == v)
+                .map(|(_, x)| *x)
+                .ok_or_else(|| {
+                    let names: Vec<&str> = allowed.iter().map(|(n, _)| *n).collect();
+                    Error::Invalid(format!("--{what} {v:?}: one of {}", names.join(", ")))
+                })
+        })
+        .transpose()
 }
 
-/// Runs one request with a connected client; returns what to print.
-pub fn execute<T: crate::link::Transport>(
-    client: &mut Client<T>,
-    request: &Request,
-    format: Format,
-) -> Result<String, Error> {
-    let text_done = |what: &str| {
-        format!(
-            "{what}: done (confirmed by the device)\n{}\n{}\n",
-            safety::GENERAL,
-            safety::HARDWARE
-        )
-    };
-    let (value, text) = match request {
-        Request::Ping => {
-            let rtt = client.ping(0x15_0C_40)?;
-            let ms = rtt.as_secs_f64() * 1e3;
-            (
-                json!({ "reply": "pong", "round_trip_ms": ms }),
-                format!("pong in {ms:.2} ms\n"),
-            )
-        }
-        Request::Identity => {
-            let id = client.identity()?;
-            let v = json!({
-                "serial": id.serial,
-                "hardware_rev": id.hardware_rev,
-                "firmware_version": format!("{}.{}.{}", id.firmware_version[0], id.firmware_version[1], id.firmware_version[2]),
-                "protocol": id.protocol,
-                "max_frame_len": id.max_frame_len,
-                "capabilities": id.capabilities,
-            });
-            let t = format!(
-                "serial {}\nhardware rev {}\nfirmware {}\nprotocol {}\nmax frame {} bytes\ncapabilities {:#x}\n",
-                id.serial,
-                id.hardware_rev,
-                v["firmware_version"].as_str().unwrap_or(""),
-                id.protocol,
-                id.max_frame_len,
-                id.capabilities
-            );
-            (v, t)
-        }
-        Request::ReadConfig => config_view(&client.read_config()?)?,
-        Request::WriteConfig(a) => {
-            let spec = super::gas::parse(&a.gas)?;
-            let s = setup(a)?;
-            let current = client.read_config()?.config()?;
-            let barometric = barometric_fx(&a.tank)?;
-            let config = with_mixture(with_setup(current, s, barometric), &spec)?;
-            client.configure(&config, &mut |_, _| {})?;
-            let b = fx::to_f64(config.barometric_pa);
-            let mut t = setup_text(&s, &spec);
-            t.push_str(&format!(
-                "barometric pressure {:.1} hPa ({})\n",
-                b / 100.0,
-                if barometric.is_some() {
-                    "written"
-                } else {
-                    "kept"
-                }
-            ));
-            t.push_str(&text_done("write-config"));
-            let mut v = setup_json(&s, &spec);
-            v["barometric_pa"] = json!(b);
-            (json!({ "written": v }), t)
-        }
-        Request::WriteField(a) => {
-            let Some(mut config) = client.read_config()?.config()? else {
-                return Err(Error::Invalid(
-                    "the device holds no configuration: store one with write-config first".into(),
-                ));
-            };
-            config.field = field_settings(a, config.field)?;
-            client.configure(&config, &mut |_, _| {})?;
-            let s = &config.field.serial;
-            let l = &config.field.loop_output;
-            let t = format!(
-                "field settings: protocol {:?}, Modbus address {}, {} Bd, parity {:?}; \
-                 loop {:?} {} → 4 mA, {} → 20 mA, failure {:?}\n{}",
-                s.protocol,
-                s.address,
-                s.baud,
-                s.parity,
-                l.quantity,
-                fx::to_f64(l.lower),
-                fx::to_f64(l.upper),
-                l.failure,
-                text_done("write-field")
-            );
-            (
-                json!({ "written": {
-                    "protocol": format!("{:?}", s.protocol).to_lowercase(),
-                    "address": s.address,
-                    "baud": s.baud,
-                    "parity": format!("{:?}", s.parity).to_lowercase(),
-                    "loop_quantity": format!("{:?}", l.quantity).to_lowercase(),
-                    "loop_lower": fx::to_f64(l.lower),
-                    "loop_upper": fx::to_f64(l.upper),
-                    "loop_failure": format!("{:?}", l.failure).to_lowercase(),
-                } }),
-                t,
-            )
-        }
-        Request::ZeroCalibration { channel } => {
-            let channel = match channel {
-                Channel::Pressure => SensorChannel::Pressure,
-                Channel::Temperature => SensorChannel::Temperature,
-            };
-            client.signed(Command::ZeroCalibration { channel })?;
-            let note = match channel {
-                SensorChannel::Pressure => {
-                    "The transducer's present reading is now the barometric pressure. Reconnect \
-                     it and compare with a calibrated gauge before relying on its readings.\n"
-                }
-                SensorChannel::Temperature => {
-                    "The sensor's present reading is now 0 °C. Refit it to the vessel and let it \
-                     settle before relying on its readings.\n"
-                }
-            };
-            (
-                json!({ "done": "zero-calibration" }),
-                format!("{note}{}", text_done("zero-calibration")),
-            )
-        }
-        Request::ClearAlarms => {
-            client.signed(Command::ClearAlarms)?;
-            (json!({ "done": "clear-alarms" }), text_done("clear-alarms"))
-        }
-        Request::Reboot => {
-            client.signed(Command::Reboot)?;
-            (json!({ "done": "reboot" }), text_done("reboot"))
-        }
-        Request::LoadGasModel { file } => {
-            let bytes = std::fs::read(file)
-                .map_err(|e| Error::Invalid(format!("--file {}: {e}", file.display())))?;
-            let table = TableBuf::from_blob(&bytes)
-                .map_err(|e| Error::Invalid(format!("--file {}: {e}", file.display())))?;
-            let Some(mut config) = client.read_config()?.config()? else {
-                return Err(Error::Invalid(
-                    "the device holds no configuration: store one with write-config first".into(),
-                ));
-            };
-            if table.gas != config.setup.gas {
-                return Err(Error::Invalid(format!(
-                    "--file {}: a table of {}, but the device is set up for {}",
-                    file.display(),
-                    describe_gas(table.gas),
-                    config_gas(&config)
-                )));
-            }
-            config.model = Some(table);
-            let mut sent = 0;
-            client.configure(&config, &mut |n, _| sent = n)?;
-            (
-                json!({ "done": "load-gas-model", "table_len": bytes.len(), "config_len": sent }),
-                format!(
-                    "gas model loaded: table {} bytes, configuration {sent} bytes\n{}",
-                    bytes.len(),
-                    text_done("load-gas-model")
-                ),
-            )
-        }
-    };
-    match format {
-        Format::Json => to_json(&value),
-        Format::Text => Ok(text),
-    }
+/// The field changes of write-field's options.
+pub fn field_changes(a: &WriteFieldArgs) -> Result<FieldChanges, Error> {
+    Ok(FieldChanges {
+        protocol: one_of(
+            "protocol",
+            &a.protocol,
+            &[("link", Protocol::Link), ("modbus", Protocol::Modbus)],
+        )?,
+        address: a.address,
+        baud: a.baud,
+        parity: one_of(
+            "parity",
+            &a.parity,
+            &[
+                ("none", Parity::None),
+                ("even", Parity::Even),
+                ("odd", Parity::Odd),
+            ],
+        )?,
+        loop_quantity: one_of(
+            "loop-quantity",
+            &a.loop_quantity,
+            &[
+                ("fill", LoopQuantity::FillFraction),
+                ("mass", LoopQuantity::Mass),
+            ],
+        )?,
+        loop_lower: a.loop_lower,
+        loop_upper: a.loop_upper,
+        loop_failure: one_of(
+            "loop-failure",
+            &a.loop_failure,
+            &[("low", Failure::Low), ("high", Failure::High)],
+        )?,
+    })
+}
+
+/// The library's request of the command line's.
+pub fn request(r: &Request) -> Result<lib::Request, Error> {
+    Ok(match r {
+        Request::Ping => lib::Request::Ping,
+        Request::Identity => lib::Request::Identity,
+        Request::ReadConfig => lib::Request::ReadConfig,
+        Request::WriteConfig(a) => lib::Request::WriteConfig {
+            setup: setup_request(a)?,
+            barometric_pa: a.tank.barometric_given_pa()?,
+        },
+        Request::WriteField(a) => lib::Request::WriteField(field_changes(a)?),
+        Request::ZeroCalibration { channel } => lib::Request::ZeroCalibration(match channel {
+            Channel::Pressure => SensorChannel::Pressure,
+            Channel::Temperature => SensorChannel::Temperature,
+        }),
+        Request::ClearAlarms => lib::Request::ClearAlarms,
+        Request::Reboot => lib::Request::Reboot,
+        Request::LoadGasModel { file } => lib::Request::LoadGasModel {
+            file: file.display().to_string(),
+            bytes: std::fs::read(file)
+                .map_err(|e| Error::Invalid(format!("--file {}: {e}", file.display())))?,
+        },
+    })
 }
 
 /// Runs the command.
@@ -577,16 +282,9 @@ pub fn run(a: &SendArgs) -> Result<String, Error> {
     }
     let secret = secret(a.secret_file.as_deref())?;
     // Input is checked before any connection is made.
-    if let Request::WriteConfig(w) = &a.request {
-        setup(w)?;
-        barometric_fx(&w.tank)?;
-    }
-
-    let needs_secret = !matches!(
-        a.request,
-        Request::Ping | Request::Identity | Request::ReadConfig
-    );
-    if needs_secret && secret.is_none() {
+    let request = request(&a.request)?;
+    lib::check(&request)?;
+    if request.changes_device() && secret.is_none() {
         return Err(Error::Invalid(format!(
             "this command changes the device and must be signed: give the device secret \
              with --secret-file or the {SECRET_ENV} environment variable"
@@ -602,14 +300,12 @@ pub fn run(a: &SendArgs) -> Result<String, Error> {
     if let Some(s) = secret {
         client = client.with_secret(s);
     }
-    execute(&mut client, &a.request, a.format)
-}
-
-/// A table's gas in a message: a pure gas's name, or a mixture's
-/// fingerprint (a table does not carry the composition).
-fn describe_gas(g: Gas) -> String {
-    match g.mixture() {
-        Some(m) => format!("a mixture (fingerprint {:08x})", m.fingerprint),
-        None => g.name().to_string(),
+    let report = lib::execute(&mut client, &request)?;
+    match a.format {
+        // Objects with their keys in name order at every level.
+        Format::Json => {
+            to_json(&serde_json::to_value(&report.json).map_err(|e| Error::Output(e.to_string()))?)
+        }
+        Format::Text => Ok(report.text),
     }
 }
