@@ -17,6 +17,37 @@ pub enum Error {
     /// A value that parses but makes no physical sense or is out of range.
     #[error("{0}")]
     Invalid(String),
+    /// A file named on the command line could not be read.
+    #[error("{}{path}: {reason}", what.map(|w| format!("{w} ")).unwrap_or_default())]
+    InputFile {
+        /// The option that named it, if one did.
+        what: Option<&'static str>,
+        /// The file.
+        path: String,
+        /// What went wrong.
+        reason: String,
+    },
+    /// The core refused what the options set up (a tank, a setup, a sensor
+    /// front-end, a correction, a record), with the core's reason.
+    #[error("{what}: {source}")]
+    Rejected {
+        /// What was set up.
+        what: &'static str,
+        /// The core's reason.
+        source: isochor_core::Error,
+    },
+    /// A command that changes a device without the device secret.
+    #[error(
+        "this command changes the device and must be signed: give the device secret \
+         with --secret-file or the ISOCHOR_SECRET environment variable"
+    )]
+    NoSecret,
+    /// The device holds no configuration for a command that changes one.
+    #[error("the device holds no configuration: store one with write-config first")]
+    NoConfiguration,
+    /// The device refused a value as out of range (the user's to correct).
+    #[error("device refused: {0}")]
+    OutOfRange(String),
     /// The core refused a setup or sample.
     #[error(transparent)]
     Core(#[from] isochor_core::Error),
@@ -68,6 +99,11 @@ impl Error {
         match self {
             Error::Quantity { .. }
             | Error::Invalid(_)
+            | Error::InputFile { .. }
+            | Error::Rejected { .. }
+            | Error::NoSecret
+            | Error::NoConfiguration
+            | Error::OutOfRange(_)
             | Error::Core(_)
             | Error::EosRange(_)
             | Error::TwoPhase(_) => 2,
@@ -121,5 +157,60 @@ impl From<isochor_tank::Error> for Error {
             E::Core(c) => Error::Core(c),
             other => Error::Sim(other),
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::Error;
+
+    /// The cases a user must tell apart keep the exit code of bad input (2)
+    /// and say what failed.
+    #[test]
+    fn cases_say_what_failed_and_exit_as_bad_input() {
+        let cases = [
+            (
+                Error::InputFile {
+                    what: Some("--input"),
+                    path: "points.csv".into(),
+                    reason: "No such file or directory (os error 2)".into(),
+                },
+                "--input points.csv: No such file or directory (os error 2)",
+            ),
+            (
+                Error::InputFile {
+                    what: None,
+                    path: "cal.bin".into(),
+                    reason: "No such file or directory (os error 2)".into(),
+                },
+                "cal.bin: No such file or directory (os error 2)",
+            ),
+            (
+                Error::Rejected {
+                    what: "tank",
+                    source: isochor_core::Tank {
+                        water_capacity_m3: -1.0,
+                        rated_pressure_pa: 200e5,
+                        rated_temperature_k: 288.15,
+                        elastic_expansion_per_mpa: 0.0,
+                        thermal_expansion_per_k: 0.0,
+                    }
+                    .validate()
+                    .unwrap_err(),
+                },
+                "tank: ",
+            ),
+            (Error::NoSecret, "must be signed"),
+            (Error::NoConfiguration, "store one with write-config first"),
+            (
+                Error::OutOfRange("pressure zero refused".into()),
+                "device refused: pressure zero refused",
+            ),
+        ];
+        for (e, text) in cases {
+            assert!(e.to_string().contains(text), "{e}");
+            assert_eq!(e.exit_code(), 2, "{e}");
+        }
+        assert_eq!(Error::Refused("wrong secret".into()).exit_code(), 1);
     }
 }

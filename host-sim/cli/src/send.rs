@@ -45,7 +45,10 @@ pub fn setup(r: &SetupRequest) -> Result<SetupFx, Error> {
     let mut s = Setup::new(r.gas.gas(), r.tank);
     s.standard = r.standard;
     s.settled_reference_k = r.settled_reference_k;
-    SetupFx::from_f64(&s).map_err(|e| Error::Invalid(format!("setup: {e}")))
+    SetupFx::from_f64(&s).map_err(|source| Error::Rejected {
+        what: "setup",
+        source,
+    })
 }
 
 /// The device's configuration with `setup` in place of its own: sensors,
@@ -416,10 +419,6 @@ fn done_text(what: &str) -> String {
     )
 }
 
-fn no_configuration() -> Error {
-    Error::Invalid("the device holds no configuration: store one with write-config first".into())
-}
-
 /// What the device's configuration reads back as.
 fn config_report(d: &DeviceConfig) -> Result<Report, Error> {
     let (zp, zt) = d.zero.to_f64();
@@ -548,7 +547,7 @@ pub fn execute<T: Transport>(client: &mut Client<T>, request: &Request) -> Resul
         }
         Request::WriteField(changes) => {
             let Some(mut config) = client.read_config()?.config()? else {
-                return Err(no_configuration());
+                return Err(Error::NoConfiguration);
             };
             config.field = field_settings(changes, config.field)?;
             client.configure(&config, &mut |_, _| {})?;
@@ -622,7 +621,7 @@ pub fn execute<T: Transport>(client: &mut Client<T>, request: &Request) -> Resul
             let table = TableBuf::from_blob(bytes)
                 .map_err(|e| Error::Invalid(format!("--file {file}: {e}")))?;
             let Some(mut config) = client.read_config()?.config()? else {
-                return Err(no_configuration());
+                return Err(Error::NoConfiguration);
             };
             if table.gas != config.setup.gas {
                 return Err(Error::Invalid(format!(

@@ -268,7 +268,16 @@ fn out_of_range_and_unsigned_changes_are_refused() {
     let mut plain = plain;
     assert!(matches!(
         plain.signed(Command::Reboot),
-        Err(Error::Invalid(_))
+        Err(Error::NoSecret)
+    ));
+    // A change to a configuration the device does not hold: found before
+    // anything is signed.
+    assert!(matches!(
+        isochor_sim::send::execute(
+            &mut plain,
+            &isochor_sim::send::Request::WriteField(Default::default())
+        ),
+        Err(Error::NoConfiguration)
     ));
 
     // A replayed frame: same counter and signature again.

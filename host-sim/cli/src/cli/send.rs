@@ -167,10 +167,11 @@ pub struct WriteConfigArgs {
 /// Reads the secret from the file or the environment.
 pub fn secret(file: Option<&std::path::Path>) -> Result<Option<Secret>, Error> {
     let text = match file {
-        Some(f) => Some(
-            std::fs::read_to_string(f)
-                .map_err(|e| Error::Invalid(format!("--secret-file {}: {e}", f.display())))?,
-        ),
+        Some(f) => Some(std::fs::read_to_string(f).map_err(|e| Error::InputFile {
+            what: Some("--secret-file"),
+            path: f.display().to_string(),
+            reason: e.to_string(),
+        })?),
         None => std::env::var(SECRET_ENV).ok(),
     };
     text.map(|t| Secret::from_hex(&t).map_err(|e| Error::Invalid(format!("device secret: {e}"))))
@@ -266,8 +267,11 @@ pub fn request(r: &Request) -> Result<lib::Request, Error> {
         Request::Reboot => lib::Request::Reboot,
         Request::LoadGasModel { file } => lib::Request::LoadGasModel {
             file: file.display().to_string(),
-            bytes: std::fs::read(file)
-                .map_err(|e| Error::Invalid(format!("--file {}: {e}", file.display())))?,
+            bytes: std::fs::read(file).map_err(|e| Error::InputFile {
+                what: Some("--file"),
+                path: file.display().to_string(),
+                reason: e.to_string(),
+            })?,
         },
     })
 }
@@ -285,10 +289,7 @@ pub fn run(a: &SendArgs) -> Result<String, Error> {
     let request = request(&a.request)?;
     lib::check(&request)?;
     if request.changes_device() && secret.is_none() {
-        return Err(Error::Invalid(format!(
-            "this command changes the device and must be signed: give the device secret \
-             with --secret-file or the {SECRET_ENV} environment variable"
-        )));
+        return Err(Error::NoSecret);
     }
     let source = super::listen::Source {
         port: a.device.port.clone(),

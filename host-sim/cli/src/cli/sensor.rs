@@ -391,8 +391,11 @@ pub fn run(a: &SensorArgs) -> Result<String, Error> {
         SensorCommand::Gauge(x) => run_gauge(x),
         SensorCommand::Fit(x) => run_fit(x),
         SensorCommand::Record(x) => {
-            let bytes =
-                std::fs::read(&x.file).map_err(|e| Error::Invalid(format!("{}: {e}", x.file)))?;
+            let bytes = std::fs::read(&x.file).map_err(|e| Error::InputFile {
+                what: None,
+                path: x.file.clone(),
+                reason: e.to_string(),
+            })?;
             render(x.format, &convert::read_record(&bytes, &x.file)?)
         }
     }
@@ -479,14 +482,20 @@ fn run_gauge(a: &GaugeArgs) -> Result<String, Error> {
 }
 
 fn run_fit(a: &FitArgs) -> Result<String, Error> {
-    let csv = std::fs::read_to_string(&a.input)
-        .map_err(|e| Error::Invalid(format!("--input {}: {e}", a.input)))?;
+    let csv = std::fs::read_to_string(&a.input).map_err(|e| Error::InputFile {
+        what: Some("--input"),
+        path: a.input.clone(),
+        reason: e.to_string(),
+    })?;
     let record = match &a.record {
         None => None,
         Some(path) => {
             let cfg_path = a.sensor_config.as_deref().unwrap_or_default();
-            let cfg_text = std::fs::read_to_string(cfg_path)
-                .map_err(|e| Error::Invalid(format!("--sensor-config {cfg_path}: {e}")))?;
+            let cfg_text = std::fs::read_to_string(cfg_path).map_err(|e| Error::InputFile {
+                what: Some("--sensor-config"),
+                path: cfg_path.to_string(),
+                reason: e.to_string(),
+            })?;
             Some(RecordRequest {
                 file: path.clone(),
                 sensor_config: (cfg_text, cfg_path.to_string()),

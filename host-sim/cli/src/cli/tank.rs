@@ -112,8 +112,10 @@ impl TankArgs {
                 "--thermal-expansion-per-k",
             )?,
         };
-        tank.validate()
-            .map_err(|e| Error::Invalid(format!("tank: {e}")))?;
+        tank.validate().map_err(|source| Error::Rejected {
+            what: "tank",
+            source,
+        })?;
         Ok(tank)
     }
 }

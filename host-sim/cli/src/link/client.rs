@@ -235,9 +235,7 @@ impl<T: Transport> Client<T> {
     /// a valid signature of its own.
     pub fn signed(&mut self, command: Command) -> Result<(), Error> {
         let Some(secret) = self.secret.clone() else {
-            return Err(Error::Invalid(
-                "this command needs the device secret (--secret-file or ISOCHOR_SECRET)".into(),
-            ));
+            return Err(Error::NoSecret);
         };
         let serial = match self.serial {
             Some(s) => s,
@@ -336,9 +334,7 @@ impl<T: Transport> Client<T> {
 
 fn unexpected(outcome: Outcome) -> Error {
     match outcome {
-        Outcome::Refused(r @ Refusal::OutOfRange { .. }) => {
-            Error::Invalid(format!("device refused: {}", refusal_text(&r)))
-        }
+        Outcome::Refused(r @ Refusal::OutOfRange { .. }) => Error::OutOfRange(refusal_text(&r)),
         Outcome::Refused(r) => Error::Refused(refusal_text(&r)),
         other => Error::Link(format!("unexpected reply: {other:?}")),
     }

@@ -215,7 +215,7 @@ fn names(status: Status) -> Vec<&'static str> {
 }
 
 fn fx_value<T: isochor_core::fixed::traits::Fixed>(v: f64, what: &'static str) -> Result<T, Error> {
-    fx::from_f64(v, what).map_err(|e| Error::Invalid(format!("{what}: {e}")))
+    fx::from_f64(v, what).map_err(|source| Error::Rejected { what, source })
 }
 
 fn fmt_status(s: Status) -> String {
@@ -295,8 +295,10 @@ impl Converter {
         fe.lead_ohms = fx_value(self.lead_ohms, "--lead-ohms")?;
         fe.excitation = fx_value(self.excitation, "--excitation")?;
         fe.self_heating_k_per_mw = fx_value(self.self_heating_k_per_mw, "--self-heating-k-per-mw")?;
-        fe.validate()
-            .map_err(|e| Error::Invalid(format!("sensor input: {e}")))
+        fe.validate().map_err(|source| Error::Rejected {
+            what: "sensor input",
+            source,
+        })
     }
 }
 
@@ -330,8 +332,12 @@ pub fn rtd(r: &RtdRequest) -> Result<Report<Conversion>, Error> {
         .circuit
         .unwrap_or(resistive::Circuit::Ratiometric);
     let rref = r.converter.reference_ohms.unwrap_or(4.0 * r0);
-    let mut cfg = rtd::RtdConfig::new(r0, circuit, r.converter.bits, rref)
-        .map_err(|e| Error::Invalid(format!("RTD: {e}")))?;
+    let mut cfg = rtd::RtdConfig::new(r0, circuit, r.converter.bits, rref).map_err(|source| {
+        Error::Rejected {
+            what: "RTD",
+            source,
+        }
+    })?;
     r.converter.apply(&mut cfg.front_end)?;
     let fl = rtd::float::Rtd::<f64>::new(&cfg)?;
     let fi = rtd::fixed::Rtd::new(&cfg)?;
@@ -442,8 +448,10 @@ pub fn ntc(r: &NtcRequest) -> Result<Report<Conversion>, Error> {
             r25_ohms,
             t25_k,
         } => (
-            ntc::NtcConfig::beta(r25_ohms, t25_k, beta)
-                .map_err(|e| Error::Invalid(format!("NTC: {e}")))?,
+            ntc::NtcConfig::beta(r25_ohms, t25_k, beta).map_err(|source| Error::Rejected {
+                what: "NTC",
+                source,
+            })?,
             format!(
                 "beta model, β = {beta} K, R = {r25_ohms} Ω at {}",
                 units::fmt_celsius(t25_k)
@@ -451,8 +459,10 @@ pub fn ntc(r: &NtcRequest) -> Result<Report<Conversion>, Error> {
             r25_ohms,
         ),
         NtcModel::SteinhartHart { a, b, c } => (
-            ntc::NtcConfig::steinhart_hart(a, b, c)
-                .map_err(|e| Error::Invalid(format!("NTC: {e}")))?,
+            ntc::NtcConfig::steinhart_hart(a, b, c).map_err(|source| Error::Rejected {
+                what: "NTC",
+                source,
+            })?,
             format!("Steinhart–Hart, A = {a:e}, B = {b:e}, C = {c:e}"),
             ntc_ln_r(a, b, c, 298.15).exp(),
         ),
@@ -462,8 +472,13 @@ pub fn ntc(r: &NtcRequest) -> Result<Report<Conversion>, Error> {
         .circuit
         .unwrap_or(resistive::Circuit::DividerLow);
     let rref = r.converter.reference_ohms.unwrap_or(r_default);
-    let mut cfg = ntc::NtcConfig::new(model, circuit, r.converter.bits, rref)
-        .map_err(|e| Error::Invalid(format!("NTC: {e}")))?;
+    let mut cfg =
+        ntc::NtcConfig::new(model, circuit, r.converter.bits, rref).map_err(|source| {
+            Error::Rejected {
+                what: "NTC",
+                source,
+            }
+        })?;
     r.converter.apply(&mut cfg.front_end)?;
     let fl = ntc::float::Ntc::<f64>::new(&cfg)?;
     let fi = ntc::fixed::Ntc::new(&cfg)?;
@@ -590,7 +605,10 @@ pub fn current_loop(r: &LoopRequest) -> Result<Report<Conversion>, Error> {
         kind(r.gauge),
         Millis(0),
     )
-    .map_err(|e| Error::Invalid(format!("loop: {e}")))?;
+    .map_err(|source| Error::Rejected {
+        what: "loop",
+        source,
+    })?;
     let fl = current_loop::float::Loop::<f64>::new(&cfg)?;
     let fi = current_loop::fixed::Loop::new(&cfg)?;
     let bq: fx::Pressure = fx_value(b, "--barometric")?;
@@ -628,9 +646,10 @@ pub fn current_loop(r: &LoopRequest) -> Result<Report<Conversion>, Error> {
             (i, iq, s)
         }
     };
-    let (band, mut x) = fl
-        .convert_current(i, b)
-        .map_err(|e| Error::Invalid(format!("--milliamps: {e}")))?;
+    let (band, mut x) = fl.convert_current(i, b).map_err(|source| Error::Rejected {
+        what: "--milliamps",
+        source,
+    })?;
     x.status |= sat;
     let (_, mut xq) = fi.convert_current(iq, bq);
     xq.status |= sat;
@@ -691,7 +710,10 @@ pub fn bridge(r: &BridgeRequest) -> Result<Report<Conversion>, Error> {
     let (lo, hi) = r.range_pa;
     let (b, t) = (r.barometric_pa, r.temperature_k);
     let cfg = bridge::BridgeConfig::new(r.bits, !r.unipolar, r.zero, r.span, lo, hi, kind(r.gauge))
-        .map_err(|e| Error::Invalid(format!("bridge: {e}")))?;
+        .map_err(|source| Error::Rejected {
+            what: "bridge",
+            source,
+        })?;
     let fl = bridge::float::Bridge::<f64>::new(&cfg)?;
     let fi = bridge::fixed::Bridge::new(&cfg)?;
     let mut m = Conversion {
@@ -708,9 +730,10 @@ pub fn bridge(r: &BridgeRequest) -> Result<Report<Conversion>, Error> {
     )];
     match r.input {
         BridgeInput::Pressure(p) => {
-            let code = fl
-                .code(p, t, b)
-                .map_err(|e| Error::Invalid(format!("--pressure: {e}")))?;
+            let code = fl.code(p, t, b).map_err(|source| Error::Rejected {
+                what: "--pressure",
+                source,
+            })?;
             m.pressure_pa = Some(Some(p));
             m.code = Some(Code::Computed(code));
             m.status = names(Status::OK);
@@ -874,9 +897,10 @@ pub fn fit_points(
             correction,
         };
         let mut buf = [0u8; CalibrationRecord::MAX_SIZE];
-        let bytes = rec
-            .encode(&mut buf)
-            .map_err(|e| Error::Invalid(format!("calibration record: {e}")))?;
+        let bytes = rec.encode(&mut buf).map_err(|source| Error::Rejected {
+            what: "calibration record",
+            source,
+        })?;
         written = Some(RecordWritten {
             bytes: bytes.len(),
             file: req.file.clone(),

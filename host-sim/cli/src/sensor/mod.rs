@@ -215,8 +215,12 @@ impl Fit {
     /// The correction in the record's fixed-point form (refused when a
     /// coefficient exceeds ±2: the points do not describe a usable sensor).
     pub fn correction(&self) -> Result<Correction, Error> {
-        Correction::from_f64(self.lo, self.hi, self.coefficients)
-            .map_err(|e| Error::Invalid(format!("fitted correction: {e}")))
+        Correction::from_f64(self.lo, self.hi, self.coefficients).map_err(|source| {
+            Error::Rejected {
+                what: "fitted correction",
+                source,
+            }
+        })
     }
 }
 
