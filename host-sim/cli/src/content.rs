@@ -370,7 +370,7 @@ fn check_rated_and_standard<M: Compressibility<f64>>(
                 .unwrap_or_default(),
             GasSpec::Mixture(_) => " (at or above the mixture's dew line)".to_string(),
         };
-        return Err(Error::Invalid(format!(
+        return Err(Error::TwoPhase(format!(
             "no usable answer at the rated condition: {} at {} abs and {} is liquid, or liquid \
              and vapour{vapour}, not a gas (the gas model refuses liquid states). The content of a cylinder holding liquid cannot be \
              found from its pressure: weigh the cylinder (gross weight less the tare marked \
@@ -384,7 +384,7 @@ fn check_rated_and_standard<M: Compressibility<f64>>(
     let std = &req.standard.1;
     let z = model.z(std.pressure_pa, std.temperature_k);
     if z.flags.intersects(Status::CONTENT_INVALID) {
-        return Err(Error::Invalid(format!(
+        return Err(Error::TwoPhase(format!(
             "no usable answer at the standard condition {} ({} and {:.3} kPa): {} is liquid \
              there, so a standard volume of gas means nothing; choose another --standard",
             req.standard.0,

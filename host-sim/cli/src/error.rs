@@ -27,6 +27,18 @@ pub enum Error {
         /// What went wrong.
         reason: String,
     },
+    /// A file's content could not be read as what it should hold (a
+    /// calibration file, a composition file, a record, a sensor
+    /// configuration).
+    #[error("{what}{}: {reason}", line.map(|n| format!(" line {n}")).unwrap_or_default())]
+    Malformed {
+        /// What the file is, or its name.
+        what: String,
+        /// The line at fault, when there is one.
+        line: Option<usize>,
+        /// What is wrong.
+        reason: String,
+    },
     /// The core refused what the options set up (a tank, a setup, a sensor
     /// front-end, a correction, a record), with the core's reason.
     #[error("{what}: {source}")]
@@ -100,6 +112,7 @@ impl Error {
             Error::Quantity { .. }
             | Error::Invalid(_)
             | Error::InputFile { .. }
+            | Error::Malformed { .. }
             | Error::Rejected { .. }
             | Error::NoSecret
             | Error::NoConfiguration
@@ -199,6 +212,22 @@ mod tests {
                     .unwrap_err(),
                 },
                 "tank: ",
+            ),
+            (
+                Error::Malformed {
+                    what: "calibration file".into(),
+                    line: Some(3),
+                    reason: "'x' is not a number".into(),
+                },
+                "calibration file line 3: 'x' is not a number",
+            ),
+            (
+                Error::Malformed {
+                    what: "mix.toml".into(),
+                    line: None,
+                    reason: "unknown component".into(),
+                },
+                "mix.toml: unknown component",
             ),
             (Error::NoSecret, "must be signed"),
             (Error::NoConfiguration, "store one with write-config first"),

@@ -60,7 +60,11 @@ pub fn read_file(path: &str) -> Result<GasSpec, Error> {
         path: path.to_string(),
         reason: e.to_string(),
     })?;
-    parse_file(&text).map_err(|e| Error::Invalid(format!("{path}: {e}")))
+    parse_file(&text).map_err(|reason| Error::Malformed {
+        what: path.to_string(),
+        line: None,
+        reason,
+    })
 }
 
 /// The composition of a composition file's text.

@@ -877,7 +877,11 @@ pub fn fit_points(
         let (cfg_text, cfg_path) = &req.sensor_config;
         // The text may hold the configuration itself or a whole conversion
         // report with its `config` object.
-        let bad = |e: serde_json::Error| Error::Invalid(format!("--sensor-config {cfg_path}: {e}"));
+        let bad = |e: serde_json::Error| Error::Malformed {
+            what: format!("--sensor-config {cfg_path}"),
+            line: None,
+            reason: e.to_string(),
+        };
         let mut value: Value = serde_json::from_str(cfg_text).map_err(bad)?;
         if let Some(inner) = value.get_mut("config") {
             value = inner.take();
@@ -937,8 +941,11 @@ pub fn fit_points(
 /// `sensor record`: reads back and checks a calibration record (`file` names
 /// it in the report).
 pub fn read_record(bytes: &[u8], file: &str) -> Result<Report<RecordReport>, Error> {
-    let rec =
-        CalibrationRecord::decode(bytes).map_err(|e| Error::Invalid(format!("{file}: {e}")))?;
+    let rec = CalibrationRecord::decode(bytes).map_err(|e| Error::Malformed {
+        what: file.to_string(),
+        line: None,
+        reason: e.to_string(),
+    })?;
     let c = rec.correction;
     let coefficients: Vec<f64> = c.coefficients.iter().map(|v| fx::to_f64(*v)).collect();
     let lines = vec![

@@ -91,6 +91,14 @@ impl Quantity {
     }
 }
 
+fn malformed(line: Option<usize>, reason: String) -> Error {
+    Error::Malformed {
+        what: "calibration file".into(),
+        line,
+        reason,
+    }
+}
+
 /// Reads calibration points from CSV text: a header `measured_pa,reference_pa`
 /// or `measured_k,reference_k`, then one `measured,reference` pair per line
 /// (SI units; blank lines and lines starting with `#` are skipped).
@@ -102,34 +110,36 @@ pub fn parse_points(text: &str) -> Result<(Quantity, Vec<(f64, f64)>), Error> {
         .filter(|(_, l)| !l.is_empty() && !l.starts_with('#'));
     let (_, header) = lines
         .next()
-        .ok_or_else(|| Error::Invalid("calibration file: no header line".to_string()))?;
+        .ok_or_else(|| malformed(None, "no header line".to_string()))?;
     let cols: Vec<&str> = header.split(',').map(str::trim).collect();
     let quantity = match cols.as_slice() {
         ["measured_pa", "reference_pa"] => Quantity::Pressure,
         ["measured_k", "reference_k"] => Quantity::Temperature,
         _ => {
-            return Err(Error::Invalid(format!(
-                "calibration file: header '{header}' must be 'measured_pa,reference_pa' or \
-                 'measured_k,reference_k' (SI units)"
-            )));
+            return Err(malformed(
+                None,
+                format!(
+                    "header '{header}' must be 'measured_pa,reference_pa' or \
+                     'measured_k,reference_k' (SI units)"
+                ),
+            ));
         }
     };
     let mut points = Vec::new();
     for (n, line) in lines {
         let fields: Vec<&str> = line.split(',').map(str::trim).collect();
         let [m, r] = fields.as_slice() else {
-            return Err(Error::Invalid(format!(
-                "calibration file line {n}: expected two values, found '{line}'"
-            )));
+            return Err(malformed(
+                Some(n),
+                format!("expected two values, found '{line}'"),
+            ));
         };
         let parse = |v: &str| -> Result<f64, Error> {
-            let x: f64 = v.parse().map_err(|_| {
-                Error::Invalid(format!("calibration file line {n}: '{v}' is not a number"))
-            })?;
+            let x: f64 = v
+                .parse()
+                .map_err(|_| malformed(Some(n), format!("'{v}' is not a number")))?;
             if !x.is_finite() {
-                return Err(Error::Invalid(format!(
-                    "calibration file line {n}: '{v}' is not a finite number"
-                )));
+                return Err(malformed(Some(n), format!("'{v}' is not a finite number")));
             }
             Ok(x)
         };
