@@ -583,7 +583,14 @@ impl Scorer {
             sum_err: 0.0,
             sum_sq: 0.0,
             rel_u: Vec::new(),
-            leak_start: sc.leak_starts_s.iter().copied().reduce(f64::min),
+            // A leak the scenario starts after the end of this run (a
+            // shortened one) is not part of it.
+            leak_start: sc
+                .leak_starts_s
+                .iter()
+                .copied()
+                .filter(|&s| s < sc.duration_s)
+                .reduce(f64::min),
             leak_found: None,
             events: Vec::new(),
             false_alarms: 0,
