@@ -298,4 +298,28 @@ mod tests {
         assert_eq!(effective_lag(s(600), s(64), s(4)), s(660));
         assert_eq!(effective_lag(s(7000), s(0), s(3600)), s(7200));
     }
+
+    #[test]
+    fn scale_uncertainty_of_the_example_declaration() {
+        // Capacity 0.5 %, pressure reading 0.1 %/√3, model 0.1 %, 0.5 K at
+        // a rated 15 °C: √(0.5² + 0.0577² + 0.1² + 0.1735²) % = 0.5420 %.
+        let q = |v: f64| (v * 65_536.0).round() as u64;
+        let t = |k: f64| (k * 65_536.0).round() as u64;
+        let u = scale_uncertainty_q16(
+            q(0.005),
+            q(0.001 / 3f64.sqrt()),
+            q(0.001),
+            t(0.5),
+            t(288.15),
+        );
+        assert!((u as f64 / 65_536.0 - 0.005420).abs() < 2e-5, "{u}");
+        assert_eq!(scale_uncertainty_q16(0, 0, 0, 0, t(288.15)), 0);
+        // No rated temperature: the temperature part is left out, no panic.
+        assert_eq!(scale_uncertainty_q16(q(0.005), 0, 0, t(0.5), 0), q(0.005));
+        // Each part at most 1 (the root of four).
+        assert_eq!(
+            scale_uncertainty_q16(u64::MAX, u64::MAX, u64::MAX, u64::MAX, 1),
+            2 << 16
+        );
+    }
 }
