@@ -210,8 +210,9 @@ pub const DRAW_MARGIN: u64 = 3;
 /// the instrument's own errors, √(u_V² + u_rd² + u_Z² + (u_T/T_r)²) — the
 /// water capacity, the pressure reading's gain, the gas model and the
 /// temperature offset relative to the rated temperature (each Q16; the
-/// temperature and the rated temperature in `fx::Temperature` bits). Floor
-/// of the root, one integer path for both trackers.
+/// temperature and the rated temperature in `fx::Temperature` bits). One
+/// integer path for both trackers.
+#[inline(never)]
 pub(crate) fn scale_uncertainty_q16(
     capacity: u64,
     reading: u64,
@@ -227,7 +228,10 @@ pub(crate) fn scale_uncertainty_q16(
         let v = v.min(1 << 16);
         v * v
     };
-    (sq(capacity) + sq(reading) + sq(model) + sq(t)).isqrt()
+    // The floor of the root, by the integer root the uncertainty already
+    // links.
+    let sum = sq(capacity) + sq(reading) + sq(model) + sq(t);
+    u64::from(crate::uncertainty::fixed::isqrt(sum))
 }
 /// In standby, an episode longer than this many hours is no use but a loss:
 /// it is judged by the leak detector like any other.
