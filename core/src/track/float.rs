@@ -282,6 +282,12 @@ pub struct Tracker<F: Real, M> {
     leak_hold_until: Instant,
     /// The rate of the last block, fraction of the rated content per hour.
     rate_per_h: Option<F>,
+    /// The gas–sensor term of the content's budget (standard uncertainty,
+    /// fraction of the rated content) from the last rate window, and whether
+    /// it outweighs the rest of the budget (`not_settled`).
+    gas_sensor: F,
+    gas_draw: F,
+    gas_transient: bool,
     // Settling.
     settle_active: bool,
     settle_blocks: usize,
@@ -310,7 +316,8 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 ..cfg.uncertainty
             },
             &est,
-        )?;
+        )?
+        .with_vessel_time_constant(cfg.settle_time_constant);
         let tank = est.setup().tank;
         let rated = est.estimate(tank.rated_pressure_pa, tank.rated_temperature_k)?;
         let rated_mass_kg = est.rated_mass_kg();
@@ -348,6 +355,9 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             episode_blocks: 0,
             leak_hold_until: Instant(0),
             rate_per_h: None,
+            gas_sensor: F::ZERO,
+            gas_draw: F::ZERO,
+            gas_transient: false,
             settle_active: false,
             settle_blocks: 0,
             settle_since: Instant(0),
@@ -447,7 +457,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             content: level,
             sensor_fault: fault,
             leak: self.leak.is_some_and(|l| l.leaking),
-            not_settled: self.settle_active,
+            not_settled: self.not_settled(),
         });
         let events = self.alarms.update(at, raise, clear);
         let content_status = self.content.map_or(Status::OK, |c| c.status);
@@ -458,7 +468,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             rate: self.rate,
             time_to_empty: self.tte,
             settling: Settling {
-                not_settled: self.settle_active,
+                not_settled: self.not_settled(),
                 predicted: if self.settle_active {
                     self.predicted
                 } else {
@@ -472,6 +482,13 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         })
     }
 
+    /// Not settled: after a fast fill or draw (the settling above), or while
+    /// the gas–sensor temperature difference outweighs the rest of the
+    /// content's budget.
+    fn not_settled(&self) -> bool {
+        self.settle_active || self.gas_transient
+    }
+
     /// At a flagged sample: once the last usable one is older than
     /// `max_gap`, the content and what rests on it are withdrawn (see
     /// [`super`]; a usable sample restarts the windows).
@@ -483,6 +500,9 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.rate_per_h = None;
             self.tte = None;
             self.predicted = None;
+            self.gas_sensor = F::ZERO;
+            self.gas_draw = F::ZERO;
+            self.gas_transient = false;
         }
     }
 
@@ -648,7 +668,11 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         self.episodes(end);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(end, mean);
-        self.uncertainty = Some(self.unc.evaluate(content));
+        let (u, transient) = self
+            .unc
+            .evaluate_with(content, self.gas_sensor, self.gas_draw);
+        self.uncertainty = Some(u);
+        self.gas_transient = transient;
         self.rated_pressure_now_pa = Some(self.est.pressure_at(F::ONE, content.temperature_k).0);
     }
 
@@ -659,6 +683,8 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.rate = None;
             self.rate_per_h = None;
             self.tte = None;
+            self.gas_sensor = F::ZERO;
+            self.gas_draw = F::ZERO;
             return;
         }
         let fit = self.fit(n);
@@ -686,6 +712,8 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 blocks_per_hour: self.blocks_per_hour,
             },
         );
+        self.gas_sensor = budget.gas_sensor;
+        self.gas_draw = budget.draw;
         let two = F::lit(2.0);
         let u_per_h = two * budget.rate_per_h;
         let confidence = if per_h.abs() > F::ZERO {

@@ -490,6 +490,11 @@ pub struct GaugeSection {
     pub model_uncertainty: Option<f64>,
     /// Declared standard uncertainty of the temperature lag (default 10 min).
     pub temperature_lag: Option<String>,
+    /// The vessel's gas–wall time constant: how fast the quiet gas follows
+    /// its wall (the tracker's settling time constant; default 30 min). It
+    /// sizes the gas–sensor term of the content's uncertainty (a draw cools
+    /// the gas below the wall-mounted sensor; the gas trails the wall).
+    pub vessel_time_constant: Option<String>,
     /// `over_temperature` limit (default 50 °C, the storage limit of cylinder
     /// labels, see `Limits::for_tank`; e.g. `"85C"` for a hydrogen
     /// vehicle tank).
@@ -534,6 +539,7 @@ impl Default for GaugeSection {
             capacity: None,
             model_uncertainty: None,
             temperature_lag: None,
+            vessel_time_constant: None,
             temperature_max: None,
             stuck_after: default_stuck(),
             temperature_stuck_after: default_temperature_stuck(),
@@ -1059,6 +1065,10 @@ impl ScenarioFile {
             .as_deref()
             .map(|d| flow_kg_s(d, gas, "gauge.declared_draw").map(|x| x * 3600.0))
             .transpose()?;
+        if let Some(v) = &g.vessel_time_constant {
+            track.settle_time_constant =
+                Millis((duration_s(v, "gauge.vessel_time_constant")? * 1e3) as u64);
+        }
         if let Some(t) = &g.temperature_max {
             track.limits.temperature_max_k = units::temperature_k(t, "gauge.temperature_max")?;
         }
