@@ -34,7 +34,7 @@ use super::{
     DAY_HOURS, EARLY_FACTOR_Q8, EARLY_MIN_PAIRS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS,
     EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW,
     SETTLE_TIME_CONSTANTS, SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR,
-    TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    STEADY_TIME_CONSTANTS, TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -369,6 +369,8 @@ pub struct Tracker<M> {
     gas_sensor: u64,
     gas_draw: u64,
     gas_transient: bool,
+    /// How long the rate window has held a steady draw, ms.
+    steady_ms: u64,
     // Settling.
     settle_active: bool,
     settle_blocks: usize,
@@ -479,6 +481,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             gas_sensor: 0,
             gas_draw: 0,
             gas_transient: false,
+            steady_ms: 0,
             settle_active: false,
             settle_blocks: 0,
             settle_since: Instant(0),
@@ -845,6 +848,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.tte = None;
             self.gas_sensor = 0;
             self.gas_draw = 0;
+            self.steady_ms = 0;
             return;
         }
         let fit = self.fit(n);
@@ -921,7 +925,17 @@ impl<M: CompressibilityFx> Tracker<M> {
             blocks: n as u32,
             steady,
         });
-        self.tte = if per_h > 0 && left > 0 && steady {
+        // The draw's cooling settles with τ_v·F (see the float form):
+        // (≤ 2 × 24 h in ms < 2^28) × (F ≤ 2^36) < 2^64.
+        self.steady_ms = if steady {
+            self.steady_ms.saturating_add(self.cfg.block.0)
+        } else {
+            0
+        };
+        let f1 = fit.mean.clamp(0, 1 << QF) as u64;
+        let need = (STEADY_TIME_CONSTANTS * self.cfg.settle_time_constant.0).saturating_mul(f1);
+        let settled_draw = (self.steady_ms as u128) << QF >= need as u128;
+        self.tte = if per_h > 0 && left > 0 && steady && settled_draw {
             // left < 2^41 (Q36, ≤ 16 + margin), × 3.6e6 < 2^63.
             let ms = |rate: i64| {
                 Millis(

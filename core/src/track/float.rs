@@ -5,7 +5,7 @@ use super::{
     DAY_HOURS, EARLY_FACTOR_Q8, EARLY_MIN_PAIRS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS,
     EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW,
     SETTLE_TIME_CONSTANTS, SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR,
-    TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    STEADY_TIME_CONSTANTS, TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::float::{Inputs, LevelInputs, Limits};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -288,6 +288,8 @@ pub struct Tracker<F: Real, M> {
     gas_sensor: F,
     gas_draw: F,
     gas_transient: bool,
+    /// How long the rate window has held a steady draw, ms.
+    steady_ms: u64,
     // Settling.
     settle_active: bool,
     settle_blocks: usize,
@@ -358,6 +360,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             gas_sensor: F::ZERO,
             gas_draw: F::ZERO,
             gas_transient: false,
+            steady_ms: 0,
             settle_active: false,
             settle_blocks: 0,
             settle_since: Instant(0),
@@ -685,6 +688,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.tte = None;
             self.gas_sensor = F::ZERO;
             self.gas_draw = F::ZERO;
+            self.steady_ms = 0;
             return;
         }
         let fit = self.fit(n);
@@ -738,7 +742,18 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             blocks: n as u32,
             steady,
         });
-        self.tte = if per_h > F::ZERO && left > F::ZERO && steady {
+        // The draw's cooling settles with the gas's time constant τ_v·F:
+        // before STEADY_TIME_CONSTANTS of them the rate still holds the gas
+        // cooling toward its steady difference (see super).
+        self.steady_ms = if steady {
+            self.steady_ms.saturating_add(self.cfg.block.0)
+        } else {
+            0
+        };
+        let settled_draw = F::lit(self.steady_ms as f64)
+            >= F::lit((STEADY_TIME_CONSTANTS * self.cfg.settle_time_constant.0) as f64)
+                * fit.mean.clamp_to(F::ZERO, F::ONE);
+        self.tte = if per_h > F::ZERO && left > F::ZERO && steady && settled_draw {
             let ms = |rate: F| Millis((left / rate * F::lit(HOUR_MS as f64)).to_f64() as u64);
             // The bounds: left/(rate ± U) with U the rate spread of the
             // time to empty's own budget (k = 2).

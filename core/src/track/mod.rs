@@ -170,6 +170,13 @@ pub const STEADY_SHARE_DIVISOR: u32 = 8;
 /// slope's scatter from noise, about 0.01 %/h for a bridge transducer at
 /// 1 Hz; common practice).
 pub const STEADY_FLOOR_PER_H: f64 = 0.002;
+/// A time to empty needs a steady draw for this many of the gas's time
+/// constants τ_v·F (τ_v the settling time constant, F the fill fraction):
+/// a draw cools the gas below a wall-mounted sensor toward a steady
+/// difference with that time constant, and until then the apparent rate
+/// holds the growing cooling (up to (R/c_v)·Z·c_T²/c_p times the rate, a
+/// third or more of it; see "Steady draw" above).
+pub const STEADY_TIME_CONSTANTS: u64 = 2;
 /// Fewest pairs of hours one day apart for an early leak verdict (the
 /// second day after a start; see "Early verdicts").
 pub const EARLY_MIN_PAIRS: usize = 6;

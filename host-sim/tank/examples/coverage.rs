@@ -20,7 +20,13 @@ fn opts(backend: BackendKind) -> RunOptions {
 }
 
 fn nominal(name: &str) -> Scenario {
-    let mut file = Scenario::builtin(name).unwrap().source;
+    let mut file = if name.ends_with(".toml") {
+        Scenario::from_toml(&std::fs::read_to_string(name).unwrap())
+            .unwrap()
+            .source
+    } else {
+        Scenario::builtin(name).unwrap().source
+    };
     file.gauge.instrument = "nominal".into();
     file.build().unwrap()
 }
