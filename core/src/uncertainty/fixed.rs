@@ -10,7 +10,7 @@
 use fixed::types::{I8F24, U0F32};
 
 use super::float::{
-    C_P_MIN, GAS_SENSOR_UNSETTLED, MAX_VESSEL_MS, UncertaintyConfig, ideal_r_over_cv,
+    C_P_MIN, GAS_SENSOR_UNSETTLED, MAX_VESSEL_MS, R_OVER_CV, UncertaintyConfig, r_over_cv_class,
 };
 use crate::content::fixed::{Content, Estimator};
 use crate::fx::{self, Coef};
@@ -150,6 +150,17 @@ const PER_MPA: Coef = Coef::from_f64(1e-6);
 
 /// ms → h.
 const PER_HOUR_MS: Coef = Coef::from_f64(1.0 / 3_600_000.0);
+/// R/c_v of the ideal gas by class (see `super::float::ideal_r_over_cv`),
+/// converted at compile time.
+const R_OVER_CV_FX: [Coef; 5] = [
+    Coef::from_f64(R_OVER_CV[0]),
+    Coef::from_f64(R_OVER_CV[1]),
+    Coef::from_f64(R_OVER_CV[2]),
+    Coef::from_f64(R_OVER_CV[3]),
+    Coef::from_f64(R_OVER_CV[4]),
+];
+/// The smallest c_p taken, Q30.
+const C_P_MIN_Q30: u64 = (C_P_MIN * (1u64 << 30) as f64) as u64;
 /// Fraction bits of the rate budget (fraction of the rated content, per
 /// hour for rates), like the tracker's fits.
 const QR: u32 = 36;
@@ -269,7 +280,7 @@ impl EvaluatorFx {
             gain: frac(cfg.temperature_gain),
             rated_mass,
             vessel_h: None,
-            r_over_cv: Coef::from_f64(ideal_r_over_cv(setup.gas)),
+            r_over_cv: R_OVER_CV_FX[r_over_cv_class(setup.gas)],
         })
     }
 
@@ -409,15 +420,17 @@ impl EvaluatorFx {
         let td2_t = (((td * td) >> QT) * inv_t) >> QT;
         let a = (f * (tdd - td2_t)).saturating_add(fdot * td) >> QT;
         let per_k = |v: i128| sat64(v.unsigned_abs().saturating_mul(ct) >> QT);
-        // The gas's time constant τ = τ_v·F: times F (≤ 1) in Q36.
+        // The gas's time constant τ = τ_v·F (F ≤ 1), and the lag of the
+        // gas (τ) and the sensor (u(τ)) behind the wall in quadrature (see
+        // the float form), hours in Q36: one root.
         let f1 = f.min(1 << QR) as u128;
         let by_f = |v: u64| sat64((v as u128 * f1) >> QR);
-        // The gas trails its wall by τ besides the sensor's lag: the two
-        // lags in quadrature (see the float form).
-        let lags = |v: u64| match self.vessel_h {
-            Some(vessel_h) => hypot(&[apply(self.lag_h, v), by_f(apply(vessel_h, v))]),
-            None => apply(self.lag_h, v),
+        let lag36 = apply(self.lag_h, 1 << QR);
+        let lags36 = match self.vessel_h {
+            Some(vessel_h) => hypot(&[lag36, by_f(apply(vessel_h, 1 << QR))]),
+            None => lag36,
         };
+        let lags = |v: u64| sat64((v as u128 * lags36 as u128) >> QR);
         let lag = lags(per_k(a));
         let lag_t = lags(per_k(q36(f_td.saturating_mul(rho)) + a));
         let gain = apply(self.gain, per_k(f_td));
@@ -444,24 +457,25 @@ impl EvaluatorFx {
         // The gas–sensor temperature difference (see the float form), with
         // τ = τ_v·F: the draw's cooling τ·(R/c_v)·Z·c_T²/c_p·|dF/dt| and
         // the trail of gas (τ) and sensor (u(τ)) behind the wall, times
-        // |k|·F·|dT/dt|. φ = Z·c_T²/c_p in Q30 (c_p at least C_P_MIN;
-        // |c_T| < 2^37 in Q30 so c_T² < 2^74 in Q60).
+        // |k|·F·|dT/dt|. φ = Z·c_T²/c_p in Q24 with one 64-bit division:
+        // c_T² in Q24 (|c_T| < 2^3 for any gas state in the models'
+        // envelopes, kept below 2^30) times Z in Q30 (< 2^32), over c_p in Q30
+        // (at least C_P_MIN).
         let (gas_sensor, gas_draw, draw_t) = match self.vessel_h {
             Some(vessel_h) => {
-                let c_t2 = (k.c_t * k.c_t) >> 30;
-                let z = c.z.z.to_bits() as i128;
-                let c_p_min = (C_P_MIN * (1u64 << 30) as f64) as i128;
-                let phi = ((c_t2 * z) / k.c_p.abs().max(c_p_min)).min(1 << 50);
+                let c_t2 = ((k.c_t.unsigned_abs().pow(2)) >> 36).min((1 << 30) - 1) as u64;
+                let z = c.z.z.to_bits() as u64;
+                let c_p = (k.c_p.unsigned_abs().min(u64::MAX as u128) as u64).max(C_P_MIN_Q30);
+                let phi = (c_t2 * z) / c_p;
                 let draw = by_f(apply(
                     vessel_h,
                     apply(
                         self.r_over_cv,
-                        sat64((phi.unsigned_abs() * fdot_abs as u128) >> 30),
+                        sat64((phi as u128 * fdot_abs as u128) >> 24),
                     ),
                 ));
-                let x = per_k(f_td);
                 (
-                    hypot(&[draw, by_f(apply(vessel_h, x)), apply(self.lag_h, x)]),
+                    hypot(&[draw, lags(per_k(f_td))]),
                     draw,
                     sat64(q36((draw as i128).saturating_mul(rho)).unsigned_abs()),
                 )

@@ -202,14 +202,26 @@ pub struct Evaluator<F: Real> {
 /// monatomic (the largest cooling). The real gas's c_v is larger than the
 /// ideal part's near saturation, so this bounds the cooling from above.
 pub fn ideal_r_over_cv(gas: Gas) -> f64 {
+    R_OVER_CV[r_over_cv_class(gas)]
+}
+
+/// R/c_v⁰ by class (see [`ideal_r_over_cv`]).
+pub(crate) const R_OVER_CV: [f64; 5] = [
+    2.0 / 3.0,
+    0.4,
+    0.3125,
+    0.208_333_333_333_333_34,
+    0.142_857_142_857_142_85,
+];
+
+/// The class of `gas` in [`R_OVER_CV`].
+pub(crate) fn r_over_cv_class(gas: Gas) -> usize {
     match gas {
-        Gas::Helium | Gas::Neon | Gas::Argon | Gas::Krypton | Gas::Xenon | Gas::Mixture(_) => {
-            2.0 / 3.0
-        }
-        Gas::Hydrogen | Gas::Nitrogen | Gas::Oxygen | Gas::Air => 0.4,
-        Gas::Methane | Gas::CarbonDioxide => 0.3125,
-        Gas::Ethane => 0.208_333_333_333_333_34,
-        Gas::Propane => 0.142_857_142_857_142_85,
+        Gas::Helium | Gas::Neon | Gas::Argon | Gas::Krypton | Gas::Xenon | Gas::Mixture(_) => 0,
+        Gas::Hydrogen | Gas::Nitrogen | Gas::Oxygen | Gas::Air => 1,
+        Gas::Methane | Gas::CarbonDioxide => 2,
+        Gas::Ethane => 3,
+        Gas::Propane => 4,
     }
 }
 
