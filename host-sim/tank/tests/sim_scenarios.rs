@@ -481,3 +481,12 @@ fn methane_cold_night_population_coverage_is_near_95_percent() {
     let coverage = population("methane-cold-night", 100, 2.0 * 86_400.0, 5000);
     assert!((0.92..=0.99).contains(&coverage), "{coverage}");
 }
+
+/// The 4 m³ methane store over a population: 100 instruments drawn from the
+/// declaration, four days each at 10 s samples; the pooled coverage of the
+/// k = 2 interval is near 95 % with the gas trailing its wall by hours.
+#[test]
+fn methane_store_winter_population_coverage_is_near_95_percent() {
+    let coverage = population("methane-store-winter", 100, 4.0 * 86_400.0, 5000);
+    assert!((0.92..=0.99).contains(&coverage), "{coverage}");
+}
