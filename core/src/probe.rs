@@ -78,7 +78,10 @@ mod hook {
 
     use super::Stage;
 
-    static HOOK: Mutex<Cell<Option<fn(Stage)>>> = Mutex::new(Cell::new(None));
+    /// The installed hook, if any.
+    type Hook = Option<fn(Stage)>;
+
+    static HOOK: Mutex<Cell<Hook>> = Mutex::new(Cell::new(None));
 
     /// Installs `hook` (called at every mark from now on).
     pub fn set_hook(hook: fn(Stage)) {

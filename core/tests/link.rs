@@ -597,7 +597,63 @@ fn every_single_bit_flip_in_1000_frames_is_detected() {
     assert!(frames >= 1000);
 }
 
+#[test]
+fn cobs_max_len_is_the_cobs_crates() {
+    for n in 0..2000 {
+        assert_eq!(link::cobs_max_len(n), cobs::max_encoding_length(n), "{n}");
+    }
+}
+
+/// The in-place encoder's result for `data` (in a buffer of exactly the
+/// longest encoding, so a write past it would be caught).
+fn cobs_in_place(data: &[u8]) -> Option<Vec<u8>> {
+    let mut buf = vec![0u8; link::cobs_max_len(data.len())];
+    buf[1..=data.len()].copy_from_slice(data);
+    let n = link::cobs_encode_in_place(&mut buf, data.len())?;
+    buf.truncate(n);
+    Some(buf)
+}
+
+#[test]
+fn cobs_encoder_handles_full_runs() {
+    // Runs of 253, 254 and 255 non-zero bytes, alone, before a zero and
+    // back to back: the cases where a code byte is inserted.
+    for len in [1usize, 253, 254, 255, 508, 509, 600] {
+        for tail in [&[][..], &[0][..], &[0, 7][..]] {
+            let mut data: Vec<u8> = (0..len).map(|i| (i % 255 + 1) as u8).collect();
+            data.extend_from_slice(tail);
+            let mut want = vec![0u8; cobs::max_encoding_length(data.len())];
+            let m = cobs::encode(&data, &mut want);
+            want.truncate(m);
+            assert_eq!(cobs_in_place(&data), Some(want), "len {len}, tail {tail:?}");
+        }
+    }
+    // A buffer one byte short of the encoding is refused, not overrun.
+    let data = vec![9u8; 300];
+    assert_eq!(cobs::max_encoding_length(300), 302);
+    let mut buf = vec![0u8; 301];
+    buf[1..=300].copy_from_slice(&data);
+    assert_eq!(link::cobs_encode_in_place(&mut buf, 300), None);
+    assert_eq!(link::cobs_encode_in_place(&mut buf, 301), None);
+}
+
 proptest! {
+    // The link's COBS encoder against the `cobs` crate's, on noise, on data
+    // without zeros (long runs) and with few zeros.
+    #[test]
+    fn cobs_encoder_agrees_with_the_cobs_crate(
+        data in prop_oneof![
+            vec(any::<u8>(), 0..600),
+            vec(1u8..=255, 0..600),
+            vec(prop_oneof![9 => 1u8..=255, 1 => Just(0u8)], 0..600),
+        ],
+    ) {
+        let mut want = vec![0u8; cobs::max_encoding_length(data.len())];
+        let n = cobs::encode(&data, &mut want);
+        want.truncate(n);
+        prop_assert_eq!(cobs_in_place(&data), Some(want));
+    }
+
     // The link's COBS decoder against the `cobs` crate's: the same verdict
     // and the same bytes for any input, valid frames and noise alike.
     #[test]

@@ -66,6 +66,7 @@ pub use gauge::{Gauge, GaugeIo, Mapper};
 
 use crate::fx;
 use crate::link::{Refusal, SensorChannel};
+pub use crate::prepared::{ZERO_PRESSURE_MIN, ZERO_PRESSURE_SPAN_DIVISOR, zero_pressure_limit};
 use crate::store::{ZERO_PRESSURE_MAX, ZERO_TEMPERATURE_MAX};
 
 /// The version of this application (its package version), reported by
@@ -87,19 +88,6 @@ pub const VERSION: [u8; 3] = {
     ]
 };
 
-/// The pressure zero bound as a share of the transducer's span: 1/50
-/// (2 %). Common practice, no published source: a healthy industrial
-/// pressure transducer's zero offset stays well inside 2 % of its span (the
-/// total error bands of such transducers are about 0.1–1 % of span; from
-/// memory), so a larger apparent offset means gas pressure on the port, not
-/// a zero error. For a 300 bar transducer the bound is 6 bar.
-pub const ZERO_PRESSURE_SPAN_DIVISOR: u32 = 50;
-/// The smallest pressure zero bound, `fx::Pressure` bits: 10 kPa. The zero
-/// reference is the configured barometric pressure, while the weather moves
-/// the real one by about ±5 kPa around its mean (common practice, from
-/// memory) and a site's altitude may differ from the configured value: a
-/// vented absolute transducer must not be refused for that.
-pub const ZERO_PRESSURE_MIN: u32 = 160_000;
 /// The largest zero correction of the temperature channel accepted,
 /// `fx::Temperature` bits: 2 K around the ice point. IEC 60751 class B
 /// allows ±0.3 K at 0 °C for a platinum resistance thermometer (from
@@ -110,25 +98,6 @@ pub const ZERO_TEMPERATURE_LIMIT: u32 = 131_072;
 /// 0 °C, `fx::Temperature` bits (273.15 × 65 536, rounded).
 const ICE_POINT: i64 = 17_901_158;
 
-/// The pressure zero bound of a transducer measuring `span` (`fx::Pressure`
-/// bits, its range's width): [`ZERO_PRESSURE_SPAN_DIVISOR`] of it, at least
-/// [`ZERO_PRESSURE_MIN`], at most what the store keeps
-/// ([`ZERO_PRESSURE_MAX`]). Prepared once per configuration.
-pub const fn zero_pressure_limit(span: u32) -> u32 {
-    let l = span / ZERO_PRESSURE_SPAN_DIVISOR;
-    let l = if l < ZERO_PRESSURE_MIN {
-        ZERO_PRESSURE_MIN
-    } else {
-        l
-    };
-    if l > ZERO_PRESSURE_MAX as u32 {
-        ZERO_PRESSURE_MAX as u32
-    } else {
-        l
-    }
-}
-
-const _: () = assert!(ZERO_PRESSURE_MIN <= ZERO_PRESSURE_MAX as u32);
 const _: () = assert!(ZERO_TEMPERATURE_LIMIT <= ZERO_TEMPERATURE_MAX as u32);
 
 /// The zero offsets of the two channels, format bits: added to every

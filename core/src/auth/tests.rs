@@ -1,5 +1,4 @@
 use super::*;
-use crate::link::{Command, SensorChannel, Signed};
 
 /// A deterministic nonce source for tests (xorshift64*; not for devices).
 struct TestNonces(u64);
@@ -22,20 +21,37 @@ fn secret() -> Secret {
     Secret::new([7u8; SECRET_LEN])
 }
 
-fn signed(secret: &Secret, nonce: &[u8; NONCE_LEN], counter: u32, command: Command) -> Signed {
-    let bytes = Signed::encode_command(&command).unwrap();
+/// A signed message as the link carries it: counter, MAC and the command's
+/// bytes. The authenticator sees bytes only (it sits below the wire format),
+/// so the commands here are short byte strings standing for encoded ones.
+struct Signed {
+    counter: u32,
+    mac: [u8; MAC_LEN],
+    command: &'static [u8],
+}
+
+/// Stand-ins for three encoded commands (any bytes do: only their MAC counts).
+const CLEAR_ALARMS: &[u8] = &[3];
+const REBOOT: &[u8] = &[5];
+const ZERO_PRESSURE: &[u8] = &[6, 0];
+
+fn signed(
+    secret: &Secret,
+    nonce: &[u8; NONCE_LEN],
+    counter: u32,
+    command: &'static [u8],
+) -> Signed {
     Signed {
-        tag: 1,
         counter,
-        mac: sign_command(secret, SERIAL, nonce, counter, &bytes),
-        command: bytes,
+        mac: sign_command(secret, SERIAL, nonce, counter, command),
+        command,
     }
 }
 
-/// What a device does with a signed message: its counter, tag and command
+/// What a device does with a signed message: its counter, MAC and command
 /// bytes to the authenticator.
 fn check(auth: &mut Authenticator, now: Instant, s: &Signed) -> Result<Verified, Error> {
-    auth.verify(now, s.counter, &s.mac, &s.command)
+    auth.verify(now, s.counter, &s.mac, s.command)
 }
 
 #[test]
@@ -79,7 +95,7 @@ fn good_session_then_replay_and_reorder_rejected() {
     let mut rng = TestNonces(1);
     let t0 = Instant(1_000);
     let nonce = auth.challenge(t0, &mut rng).unwrap();
-    let first = signed(&secret(), &nonce, 1, Command::ClearAlarms);
+    let first = signed(&secret(), &nonce, 1, CLEAR_ALARMS);
     let v = check(&mut auth, t0, &first).unwrap();
     assert_eq!(v.counter, 1);
     assert!(verify_done(&secret(), SERIAL, &nonce, 1, &v.done_mac));
@@ -87,7 +103,7 @@ fn good_session_then_replay_and_reorder_rejected() {
     // Same frame again: the counter is no longer the next one.
     assert_eq!(check(&mut auth, t0, &first), Err(Error::Replay));
     // The session is closed after a failure.
-    let second = signed(&secret(), &nonce, 2, Command::Reboot);
+    let second = signed(&secret(), &nonce, 2, REBOOT);
     assert_eq!(check(&mut auth, t0, &second), Err(Error::NoSession));
     // In a new session the old frames carry the wrong nonce.
     let nonce2 = auth.challenge(t0, &mut rng).unwrap();
@@ -95,7 +111,7 @@ fn good_session_then_replay_and_reorder_rejected() {
     assert_eq!(check(&mut auth, t0, &first), Err(Error::BadSignature));
     // Skipping ahead is refused too.
     let nonce3 = auth.challenge(t0, &mut rng).unwrap();
-    let skip = signed(&secret(), &nonce3, 2, Command::ClearAlarms);
+    let skip = signed(&secret(), &nonce3, 2, CLEAR_ALARMS);
     assert_eq!(check(&mut auth, t0, &skip), Err(Error::Replay));
 }
 
@@ -105,9 +121,7 @@ fn session_counts_up_and_expires() {
     let mut rng = TestNonces(2);
     let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
     for counter in 1..=5 {
-        let cmd = Command::ZeroCalibration {
-            channel: SensorChannel::Pressure,
-        };
+        let cmd = ZERO_PRESSURE;
         check(
             &mut auth,
             Instant(10 * u64::from(counter)),
@@ -115,7 +129,7 @@ fn session_counts_up_and_expires() {
         )
         .unwrap();
     }
-    let late = signed(&secret(), &nonce, 6, Command::ClearAlarms);
+    let late = signed(&secret(), &nonce, 6, CLEAR_ALARMS);
     assert_eq!(
         check(&mut auth, Instant(60_000), &late),
         Err(Error::NoSession)
@@ -127,22 +141,20 @@ fn altered_command_wrong_secret_or_device_rejected() {
     let mut auth = Authenticator::new(secret(), SERIAL, Policy::default());
     let mut rng = TestNonces(3);
     let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
-    let mut s = signed(&secret(), &nonce, 1, Command::ClearAlarms);
-    s.command = Signed::encode_command(&Command::Reboot).unwrap();
+    let mut s = signed(&secret(), &nonce, 1, CLEAR_ALARMS);
+    s.command = REBOOT;
     assert_eq!(check(&mut auth, Instant(0), &s), Err(Error::BadSignature));
 
     let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
     let other = Secret::new([8u8; SECRET_LEN]);
-    let s = signed(&other, &nonce, 1, Command::ClearAlarms);
+    let s = signed(&other, &nonce, 1, CLEAR_ALARMS);
     assert_eq!(check(&mut auth, Instant(0), &s), Err(Error::BadSignature));
 
     let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
-    let cmd = Signed::encode_command(&Command::ClearAlarms).unwrap();
     let s = Signed {
-        tag: 1,
         counter: 1,
-        mac: sign_command(&secret(), SERIAL + 1, &nonce, 1, &cmd),
-        command: cmd,
+        mac: sign_command(&secret(), SERIAL + 1, &nonce, 1, CLEAR_ALARMS),
+        command: CLEAR_ALARMS,
     };
     assert_eq!(check(&mut auth, Instant(0), &s), Err(Error::BadSignature));
 }
@@ -153,7 +165,7 @@ fn every_single_bit_of_a_signature_matters() {
     for bit in 0..MAC_LEN * 8 {
         let mut auth = Authenticator::new(secret(), SERIAL, Policy::default());
         let nonce = auth.challenge(Instant(0), &mut rng).unwrap();
-        let mut s = signed(&secret(), &nonce, 1, Command::ClearAlarms);
+        let mut s = signed(&secret(), &nonce, 1, CLEAR_ALARMS);
         s.mac[bit / 8] ^= 1 << (bit % 8);
         assert_eq!(check(&mut auth, Instant(0), &s), Err(Error::BadSignature));
     }
@@ -169,7 +181,7 @@ fn failures_back_off_and_success_resets() {
     let mut lockouts = std::vec::Vec::new();
     for _ in 0..8 {
         let nonce = auth.challenge(now, &mut rng).unwrap();
-        let s = signed(&bad_secret, &nonce, 1, Command::ClearAlarms);
+        let s = signed(&bad_secret, &nonce, 1, CLEAR_ALARMS);
         assert_eq!(check(&mut auth, now, &s), Err(Error::BadSignature));
         match auth.locked_for(now) {
             None => lockouts.push(0),
@@ -187,12 +199,7 @@ fn failures_back_off_and_success_resets() {
     assert_eq!(lockouts, [0, 0, 0, 1_000, 2_000, 4_000, 8_000, 16_000]);
     assert_eq!(auth.failures(), 8);
     let nonce = auth.challenge(now, &mut rng).unwrap();
-    check(
-        &mut auth,
-        now,
-        &signed(&secret(), &nonce, 1, Command::ClearAlarms),
-    )
-    .unwrap();
+    check(&mut auth, now, &signed(&secret(), &nonce, 1, CLEAR_ALARMS)).unwrap();
     assert_eq!(auth.failures(), 0);
     // The back-off is capped.
     let mut auth = Authenticator::new(secret(), SERIAL, policy);
@@ -202,11 +209,7 @@ fn failures_back_off_and_success_resets() {
             now = now + left;
         }
         let nonce = auth.challenge(now, &mut rng).unwrap();
-        let _ = check(
-            &mut auth,
-            now,
-            &signed(&bad_secret, &nonce, 1, Command::Reboot),
-        );
+        let _ = check(&mut auth, now, &signed(&bad_secret, &nonce, 1, REBOOT));
     }
     assert_eq!(
         auth.locked_for(now).map(|m| m.as_millis()),
@@ -217,7 +220,7 @@ fn failures_back_off_and_success_resets() {
 #[test]
 fn no_session_costs_nothing() {
     let mut auth = Authenticator::new(secret(), SERIAL, Policy::default());
-    let s = signed(&secret(), &[0; NONCE_LEN], 1, Command::Reboot);
+    let s = signed(&secret(), &[0; NONCE_LEN], 1, REBOOT);
     for _ in 0..10 {
         assert_eq!(check(&mut auth, Instant(0), &s), Err(Error::NoSession));
     }

@@ -217,7 +217,13 @@ pub const MAX_PAYLOAD_LEN: usize = HEADER_LEN + MAX_BODY_LEN + CRC_LEN;
 
 /// The largest frame on the wire, bytes: COBS-encoded payload plus the 0x00
 /// delimiter. Known at compile time.
-pub const MAX_FRAME_LEN: usize = cobs::max_encoding_length(MAX_PAYLOAD_LEN) + 1;
+pub const MAX_FRAME_LEN: usize = cobs_max_len(MAX_PAYLOAD_LEN) + 1;
+
+/// The longest COBS encoding of `n` bytes: one code byte per started run of
+/// 254 bytes, at least one.
+pub const fn cobs_max_len(n: usize) -> usize {
+    n + if n == 0 { 1 } else { n.div_ceil(254) }
+}
 
 /// Writes the payload of `msg` (header, body, CRC) into `out`; returns its
 /// length.
@@ -240,12 +246,64 @@ pub fn encode_payload<M: Wire>(msg: &M, out: &mut [u8]) -> Result<usize, Error> 
 /// Encodes `msg` as a complete frame (COBS payload and the 0x00 delimiter)
 /// into `out`; returns the frame length (at most [`MAX_FRAME_LEN`]).
 pub fn encode<M: Wire>(msg: &M, out: &mut [u8]) -> Result<usize, Error> {
-    let mut payload = [0u8; MAX_PAYLOAD_LEN];
-    let n = encode_payload(msg, &mut payload)?;
-    let src = payload.get(..n).ok_or(Error::BufferTooSmall)?;
-    let used = cobs::try_encode(src, out).map_err(|_| Error::BufferTooSmall)?;
+    // The payload is written one byte in, where COBS then encodes it in
+    // place: no second buffer, no copy.
+    let n = encode_payload(msg, out.get_mut(1..).ok_or(Error::BufferTooSmall)?)?;
+    let used = cobs_encode_in_place(out, n).ok_or(Error::BufferTooSmall)?;
     *out.get_mut(used).ok_or(Error::BufferTooSmall)? = 0;
     Ok(used + 1)
+}
+
+/// COBS-encodes (Consistent Overhead Byte Stuffing, Cheshire & Baker,
+/// IEEE/ACM Trans. Networking 7(2), 1999) the `n` bytes at `buf[1..=n]` in
+/// place; returns the encoding's length (it starts at `buf[0]`), or `None`
+/// when `buf` is too short for it ([`cobs_max_len`]`(n)` bytes are always
+/// enough). Each zero becomes the distance to the next one, and the byte
+/// before the data the distance to the first: nothing moves, but for the
+/// code byte inserted after each run of 254 non-zero bytes that more data
+/// follows. The same bytes
+/// as the `cobs` crate's encoder (tested); no panic path.
+pub fn cobs_encode_in_place(buf: &mut [u8], n: usize) -> Option<usize> {
+    let mut end = n.checked_add(1)?;
+    if end > buf.len() {
+        return None;
+    }
+    let mut code_at = 0;
+    let mut code = 1u8;
+    let mut i = 1;
+    while i < end {
+        if *buf.get(i)? == 0 {
+            *buf.get_mut(code_at)? = code;
+            code_at = i;
+            code = 1;
+        } else {
+            code += 1;
+            if code == 0xFF {
+                // A full run: its code, then room for the next run's code
+                // right after it (the rest moves up one byte) — unless the
+                // data ends here, where the encoding ends too.
+                *buf.get_mut(code_at)? = 0xFF;
+                if i + 1 == end {
+                    return Some(end);
+                }
+                if end >= buf.len() {
+                    return None;
+                }
+                let mut k = end;
+                while k > i + 1 {
+                    *buf.get_mut(k)? = *buf.get(k - 1)?;
+                    k -= 1;
+                }
+                end += 1;
+                i += 1;
+                code_at = i;
+                code = 1;
+            }
+        }
+        i += 1;
+    }
+    *buf.get_mut(code_at)? = code;
+    Some(end)
 }
 
 /// Decodes a payload (COBS already removed): checks length, CRC, version and

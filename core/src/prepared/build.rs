@@ -318,7 +318,7 @@ impl PreparedBuf {
             pressure,
             plausibility,
             barometric: cfg.barometric_pa.to_bits(),
-            zero_pressure_limit: crate::app::zero_pressure_limit(pressure_span(&cfg.pressure)),
+            zero_pressure_limit: super::zero_pressure_limit(pressure_span(&cfg.pressure)),
             model,
             estimator: est.parts(),
             track: cfg.track,

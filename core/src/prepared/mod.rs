@@ -66,6 +66,39 @@ use crate::time::Millis;
 use crate::track::fixed::TrackConfigFx;
 use crate::{Error, Gas};
 
+/// The pressure zero bound as a share of the transducer's span: 1/50
+/// (2 %). Common practice, no published source: a healthy industrial
+/// pressure transducer's zero offset stays well inside 2 % of its span (the
+/// total error bands of such transducers are about 0.1–1 % of span; from
+/// memory), so a larger apparent offset means gas pressure on the port, not
+/// a zero error. For a 300 bar transducer the bound is 6 bar.
+pub const ZERO_PRESSURE_SPAN_DIVISOR: u32 = 50;
+/// The smallest pressure zero bound, `fx::Pressure` bits: 10 kPa. The zero
+/// reference is the configured barometric pressure, while the weather moves
+/// the real one by about ±5 kPa around its mean (common practice, from
+/// memory) and a site's altitude may differ from the configured value: a
+/// vented absolute transducer must not be refused for that.
+pub const ZERO_PRESSURE_MIN: u32 = 160_000;
+/// The pressure zero bound of a transducer measuring `span` (`fx::Pressure`
+/// bits, its range's width): [`ZERO_PRESSURE_SPAN_DIVISOR`] of it, at least
+/// [`ZERO_PRESSURE_MIN`], at most what the store keeps
+/// ([`ZERO_PRESSURE_MAX`](crate::store::ZERO_PRESSURE_MAX)). Prepared once per configuration.
+pub const fn zero_pressure_limit(span: u32) -> u32 {
+    let l = span / ZERO_PRESSURE_SPAN_DIVISOR;
+    let l = if l < ZERO_PRESSURE_MIN {
+        ZERO_PRESSURE_MIN
+    } else {
+        l
+    };
+    if l > crate::store::ZERO_PRESSURE_MAX as u32 {
+        crate::store::ZERO_PRESSURE_MAX as u32
+    } else {
+        l
+    }
+}
+
+const _: () = assert!(ZERO_PRESSURE_MIN <= crate::store::ZERO_PRESSURE_MAX as u32);
+
 /// First bytes of a prepared configuration.
 pub const MAGIC: [u8; 4] = *b"IZPC";
 /// Version of the format this crate reads and writes.
@@ -204,7 +237,7 @@ pub struct Scalars {
     /// The site's barometric pressure, `fx::Pressure` bits.
     pub barometric: u32,
     /// The largest zero correction of the pressure channel, `fx::Pressure`
-    /// bits (from the transducer's span: [`crate::app::zero_pressure_limit`]).
+    /// bits (from the transducer's span: [`zero_pressure_limit`]).
     pub zero_pressure_limit: u32,
     /// The gas model.
     pub model: ModelScalars,
@@ -447,7 +480,7 @@ impl<B: AsRef<[u8]>> Prepared<B> {
         if !build::BARO_BITS.contains(&s.barometric) {
             return Err(Error::OutOfRange("barometric pressure"));
         }
-        if !(crate::app::ZERO_PRESSURE_MIN..=crate::store::ZERO_PRESSURE_MAX as u32)
+        if !(ZERO_PRESSURE_MIN..=crate::store::ZERO_PRESSURE_MAX as u32)
             .contains(&s.zero_pressure_limit)
         {
             return Err(Error::OutOfRange("zero bound of the pressure channel"));

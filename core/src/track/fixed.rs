@@ -321,6 +321,10 @@ pub struct Tracker<M> {
     draw_kg_h: Coef,
     /// Declared draw, Q28 fraction per day × 24.
     declared24: Option<i64>,
+    /// The verdict's margin for the gauge's scale against the declared
+    /// draw, Q28 × 24 ([`DRAW_MARGIN`](super::DRAW_MARGIN)·u_s·draw; 0
+    /// without a declared draw).
+    declared_margin24: i64,
     blocks_per_hour: u32,
     tau_blocks: Coef,
     // Despike and smoothing.
@@ -429,6 +433,19 @@ impl<M: CompressibilityFx> Tracker<M> {
             }
             None => None,
         };
+        let q16 = |v: fixed::types::U0F32| (v.to_bits() as u64 + (1 << 15)) >> 16;
+        let u = &cfg.uncertainty;
+        let u_scale = super::scale_uncertainty_q16(
+            q16(u.capacity),
+            q16(u.pressure_reading),
+            q16(u.model),
+            u.temperature_k.to_bits() as u64,
+            tank.rated_temperature_k.to_bits() as u64,
+        );
+        let declared_margin24 = declared24.map_or(0, |d| {
+            ((d.max(0) as u64).saturating_mul(super::DRAW_MARGIN * u_scale) >> 16)
+                .min(i64::MAX as u64) as i64
+        });
         Ok(Tracker {
             unc,
             alarms: Alarms::new(cfg.debounce),
@@ -436,6 +453,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             rated_volume: rated_mass.mul(v_per_kg),
             draw_kg_h: rated_mass.mul(PER_576),
             declared24,
+            declared_margin24,
             blocks_per_hour,
             tau_blocks: Coef::from_raw(cfg.settle_time_constant.0, 0).mul(
                 Coef::from_raw(cfg.block.0, 0)
@@ -1099,10 +1117,14 @@ impl<M: CompressibilityFx> Tracker<M> {
         };
         let older = per_day(older_k);
         let loss24 = per_day(older_k - newer_k);
+        let mut draw_margin24 = 0;
         let expected24 = match self.cfg.leak_mode {
             LeakMode::Standby => 0,
             LeakMode::InUse => match self.declared24 {
-                Some(d) => d,
+                Some(d) => {
+                    draw_margin24 = self.declared_margin24;
+                    d
+                }
                 None => match self.learned24 {
                     Some(d) => d,
                     None => {
@@ -1158,7 +1180,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 Q,
                 32,
             )),
-            leaking: excess24 > limit.saturating_add(margin24),
+            leaking: excess24 > limit.saturating_add(margin24).saturating_add(draw_margin24),
         });
     }
 

@@ -273,6 +273,9 @@ pub struct Tracker<F: Real, M> {
     day_t: [F; LEAK_RING],
     /// The temperature lag uncertainty of the leak margin, ms.
     lag_ms: u64,
+    /// [`DRAW_MARGIN`](super::DRAW_MARGIN)·u_s, the margin for the gauge's
+    /// scale as a share of a declared draw (u_s as the fixed path has it).
+    draw_margin: F,
     day_len: usize,
     learned_draw_per_day: Option<F>,
     // Draw episodes: one is going on, its blocks, and until when the leak
@@ -325,6 +328,17 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         let rated_mass_kg = est.rated_mass_kg();
         let blocks_per_hour = (HOUR_MS / cfg.block.0) as u32;
         let lag_ms = unc.config().temperature_lag.0;
+        let q16 = |v: F| libm::round(v.to_f64().clamp(0.0, 1.0) * 65_536.0) as u64;
+        let u = &cfg.uncertainty;
+        let t16 = |k: F| libm::round(k.to_f64().max(0.0) * 65_536.0) as u64;
+        let u_scale = super::scale_uncertainty_q16(
+            q16(u.capacity),
+            q16(u.pressure_reading),
+            q16(u.model),
+            t16(u.temperature_k),
+            t16(tank.rated_temperature_k),
+        );
+        let draw_margin = F::lit((super::DRAW_MARGIN * u_scale) as f64 / 65_536.0);
         Ok(Tracker {
             unc,
             alarms: Alarms::new(cfg.debounce),
@@ -351,6 +365,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             day_ring: [F::ZERO; LEAK_RING],
             day_t: [F::ZERO; LEAK_RING],
             lag_ms,
+            draw_margin,
             day_len: 0,
             learned_draw_per_day: None,
             episode: false,
@@ -889,10 +904,15 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         let kf = F::lit(k as f64);
         // Loss per day as a fraction of the rated content.
         let loss = (older - newer) / kf;
+        let mut draw_margin = F::ZERO;
         let expected = match self.cfg.leak_mode {
             LeakMode::Standby => F::ZERO,
             LeakMode::InUse => match self.cfg.declared_draw_kg_h {
-                Some(kg_h) => kg_h * hours / self.rated_mass_kg,
+                Some(kg_h) => {
+                    let d = kg_h * hours / self.rated_mass_kg;
+                    draw_margin = d * self.draw_margin;
+                    d
+                }
                 None => match self.learned_draw_per_day {
                     Some(d) => d,
                     None => {
@@ -928,7 +948,8 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             loss_per_day: loss_rel,
             excess_per_day: excess_rel,
             expected_draw_kg_h: expected * self.rated_mass_kg / hours,
-            leaking: excess > self.cfg.leak_threshold_per_day * factor * content + margin,
+            leaking: excess
+                > self.cfg.leak_threshold_per_day * factor * content + margin + draw_margin,
         });
     }
 

@@ -112,6 +112,20 @@
 //! * while the content is at or below the reserve fraction (an empty vessel's
 //!   pressure is the regulator's and the day's, not a measure of loss).
 //!
+//! ## Declared draws
+//!
+//! A draw declared in kg/h is the user's figure; the loss the gauge measures
+//! carries the instrument's scale errors (water capacity, pressure gain, gas
+//! model, temperature offset), so the two differ by up to a few standard
+//! uncertainties u_s of that scale even without a leak — 1 % of a 13 %/day
+//! draw is more than a 0.1 %/day threshold. The in-use verdict against a
+//! declared draw therefore adds [`DRAW_MARGIN`]·u_s·(expected draw) to the
+//! threshold (u_s from the uncertainty declaration, prepared once). A learned
+//! draw is measured on the gauge's own scale and needs no such margin. The
+//! smallest leak found in use is then about the threshold plus 3·u_s of the
+//! declared draw: a gauge on a busy cylinder cannot see a leak smaller than
+//! what it knows of the draw.
+//!
 //! ## Early verdicts
 //!
 //! In the second day after a start (k of the 24 pairs of hours one day
@@ -201,6 +215,35 @@ pub const EARLY_FACTOR_Q8: [u32; DAY_HOURS + 1] = [
 /// gas, in lag uncertainties (see "Weather" below; common practice: about
 /// three standard uncertainties).
 pub const LAG_MARGIN: u64 = 3;
+/// The in-use verdict's margin for the gauge's own scale against a declared
+/// draw, in standard uncertainties (see "Declared draws" below; common
+/// practice: about three standard uncertainties).
+pub const DRAW_MARGIN: u64 = 3;
+
+/// The relative standard uncertainty of the gauge's scale, Q16: how far the
+/// loss it measures in a day may differ from a draw declared in kg/h for
+/// the instrument's own errors, √(u_V² + u_rd² + u_Z² + (u_T/T_r)²) — the
+/// water capacity, the pressure reading's gain, the gas model and the
+/// temperature offset relative to the rated temperature (each Q16; the
+/// temperature and the rated temperature in `fx::Temperature` bits). Floor
+/// of the root, one integer path for both trackers.
+pub(crate) fn scale_uncertainty_q16(
+    capacity: u64,
+    reading: u64,
+    model: u64,
+    temperature: u64,
+    rated_temperature: u64,
+) -> u64 {
+    let t = (temperature << 16)
+        .checked_div(rated_temperature)
+        .unwrap_or(0)
+        .min(1 << 16);
+    let sq = |v: u64| {
+        let v = v.min(1 << 16);
+        v * v
+    };
+    (sq(capacity) + sq(reading) + sq(model) + sq(t)).isqrt()
+}
 /// In standby, an episode longer than this many hours is no use but a loss:
 /// it is judged by the leak detector like any other.
 pub const EPISODE_MAX_HOURS: u32 = 12;
@@ -269,5 +312,29 @@ mod tests {
         assert_eq!(effective_lag(s(600), s(4), s(64)), s(660));
         assert_eq!(effective_lag(s(600), s(64), s(4)), s(660));
         assert_eq!(effective_lag(s(7000), s(0), s(3600)), s(7200));
+    }
+
+    #[test]
+    fn scale_uncertainty_of_the_example_declaration() {
+        // Capacity 0.5 %, pressure reading 0.1 %/√3, model 0.1 %, 0.5 K at
+        // a rated 15 °C: √(0.5² + 0.0577² + 0.1² + 0.1735²) % = 0.5420 %.
+        let q = |v: f64| (v * 65_536.0).round() as u64;
+        let t = |k: f64| (k * 65_536.0).round() as u64;
+        let u = scale_uncertainty_q16(
+            q(0.005),
+            q(0.001 / 3f64.sqrt()),
+            q(0.001),
+            t(0.5),
+            t(288.15),
+        );
+        assert!((u as f64 / 65_536.0 - 0.005420).abs() < 2e-5, "{u}");
+        assert_eq!(scale_uncertainty_q16(0, 0, 0, 0, t(288.15)), 0);
+        // No rated temperature: the temperature part is left out, no panic.
+        assert_eq!(scale_uncertainty_q16(q(0.005), 0, 0, t(0.5), 0), q(0.005));
+        // Each part at most 1 (the root of four).
+        assert_eq!(
+            scale_uncertainty_q16(u64::MAX, u64::MAX, u64::MAX, u64::MAX, 1),
+            2 << 16
+        );
     }
 }

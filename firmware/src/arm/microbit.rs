@@ -119,13 +119,7 @@ impl ReadReady for Uart {
 
 impl Read for Uart {
     fn read(&mut self, buf: &mut [u8]) -> Result<usize, Self::Error> {
-        loop {
-            let n = RX.take(buf);
-            if n > 0 || buf.is_empty() {
-                return Ok(n);
-            }
-            cortex_m::asm::wfi();
-        }
+        Ok(RX.read(buf))
     }
 }
 

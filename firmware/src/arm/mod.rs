@@ -185,6 +185,19 @@ impl RxRing {
         n
     }
 
+    /// Consumer side, the boards' blocking UART read (`embedded_io::Read`):
+    /// takes waiting bytes into `out`, sleeping until an interrupt when none
+    /// wait; returns 0 only for an empty `out`.
+    pub fn read(&self, out: &mut [u8]) -> usize {
+        loop {
+            let n = self.take(out);
+            if n > 0 || out.is_empty() {
+                return n;
+            }
+            cortex_m::asm::wfi();
+        }
+    }
+
     /// When the first byte waiting (or last taken) and the last byte
     /// arrived ([`micros32`]).
     pub fn stamps(&self) -> (u32, u32) {

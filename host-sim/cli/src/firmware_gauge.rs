@@ -18,12 +18,9 @@ use std::time::Duration;
 
 use isochor_core::alarm::{AlarmKind, AlarmSet, Events};
 use isochor_core::auth::Secret;
-use isochor_core::link::{
-    AlarmTransition, FromDevice, InjectSample, Outcome, Ping, Telemetry, ToDevice,
-};
+use isochor_core::link::{AlarmTransition, FromDevice, InjectSample, Outcome, Ping, ToDevice};
 use isochor_core::prepared::PreparedBuf;
 use isochor_core::time::Instant;
-use isochor_core::{Status, fx};
 
 use crate::Error;
 use crate::firmware::{self, Board, Build, Qemu};
@@ -118,40 +115,6 @@ impl FirmwareGauge {
     fn tag(&mut self) -> u16 {
         self.next_tag = self.next_tag.wrapping_add(1).max(1);
         self.next_tag
-    }
-}
-
-/// The reading of one telemetry frame and the sample's alarm changes.
-fn reading(t: &Telemetry, events: Events) -> Reading {
-    let status = Status::from_bits(t.status);
-    let content = !status.intersects(Status::CONTENT_INVALID)
-        && (t.mass_kg != 0 || t.fill_fraction != 0 || t.density_kg_m3 != 0);
-    let valid = !status.intersects(isochor_core::sensor::VALUE_INVALID);
-    let mass = |bits: u64| fx::to_f64(fx::Mass::from_bits(bits));
-    let fraction = |bits: u64| fx::to_f64(fx::Fraction::from_bits(bits));
-    let rate = |bits: i64| fx::to_f64(fx::MassRate::from_bits(bits));
-    Reading {
-        pressure_pa: (valid && t.pressure_pa != 0)
-            .then(|| fx::to_f64(fx::Pressure::from_bits(t.pressure_pa))),
-        temperature_k: (valid && t.temperature_k != 0)
-            .then(|| fx::to_f64(fx::Temperature::from_bits(t.temperature_k))),
-        mass_kg: content.then(|| mass(t.mass_kg)),
-        fill_fraction: content.then(|| fraction(t.fill_fraction)),
-        u_mass_kg: t.mass_uncertainty_kg.filter(|_| content).map(mass),
-        // Telemetry carries the change of the mass (negative while the
-        // tank empties); readings carry the consumption.
-        rate_kg_h: t.rate_kg_h.map(|r| -rate(r)),
-        u_rate_kg_h: t.rate_uncertainty_kg_h.map(rate),
-        time_to_empty_s: t.time_to_empty_s.map(|e| {
-            (
-                f64::from(e),
-                f64::from(t.time_to_empty_earliest_s.unwrap_or(e)),
-                t.time_to_empty_latest_s.map(f64::from),
-            )
-        }),
-        loss_fraction_per_day: t.leak_loss_per_day().map(fx::to_f64),
-        status,
-        events,
     }
 }
 
@@ -266,7 +229,7 @@ impl FirmwareGauge {
             }
         }
         match (taken, telemetry) {
-            (true, Some(t)) => Ok(reading(&t, events)),
+            (true, Some(t)) => Ok(Reading::from_telemetry(&t, events)),
             _ => Err(Error::Link(format!(
                 "no telemetry for the sample at {} ms",
                 at.as_millis()

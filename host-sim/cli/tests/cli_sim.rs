@@ -351,3 +351,96 @@ fn bad_input_exits_with_2() {
     }
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// `isochor sim NAME --population N`: N drawn instruments of one scenario,
+/// pooled. The JSON carries the run count, the instrument-years, the
+/// pooled coverage (the judged-sample-weighted mean of the runs' own, which
+/// the single runs reproduce), and the text the gas's cautions.
+#[test]
+fn population_pools_drawn_instruments() {
+    let dir = temp("population");
+    let out = isochor(
+        &dir,
+        &[
+            "sim",
+            "workshop-leak",
+            "--population",
+            "4",
+            "--duration",
+            "2h",
+            "--seed",
+            "40",
+            "--format",
+            "json",
+        ],
+    );
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["scenario"], "workshop-leak");
+    assert_eq!(v["runs"], 4);
+    assert_eq!(v["seed_first"], 40);
+    let years = v["instrument_years"].as_f64().unwrap();
+    assert!((years - 4.0 * 2.0 * 3600.0 / (365.25 * 86_400.0)).abs() < 1e-12);
+    // The same four instruments one by one (seeds 40 … 43, drawn).
+    let (mut judged, mut covered) = (0.0, 0.0);
+    let mut offsets = Vec::new();
+    for seed in 40..44 {
+        let one = isochor(
+            &dir,
+            &[
+                "sim",
+                "workshop-leak",
+                "--duration",
+                "2h",
+                "--seed",
+                &seed.to_string(),
+                "--no-files",
+                "--format",
+                "json",
+            ],
+        );
+        let s: Value = serde_json::from_slice(&one.stdout).unwrap();
+        let k = s["judged_samples"].as_f64().unwrap();
+        judged += k;
+        covered += k * s["uncertainty_coverage"].as_f64().unwrap();
+        offsets.push(s["instrument"]["pressure_offset_pa"].as_f64().unwrap());
+    }
+    assert_eq!(v["judged_samples"].as_f64().unwrap(), judged);
+    let pooled = v["coverage_pooled"].as_f64().unwrap();
+    assert!((pooled - covered / judged).abs() < 1e-12, "{pooled}");
+    // Each seed drew another instrument.
+    offsets.sort_by(f64::total_cmp);
+    offsets.dedup();
+    assert_eq!(offsets.len(), 4, "{offsets:?}");
+    for key in [
+        "false_alarms_per_instrument_year",
+        "coverage_min",
+        "rms_error_pooled",
+        "uncertainty_over_rms",
+        "time_to_empty_coverage_pooled",
+    ] {
+        assert!(v.get(key).is_some(), "{key}");
+    }
+    let text = isochor(
+        &dir,
+        &[
+            "sim",
+            "workshop-leak",
+            "--population",
+            "2",
+            "--duration",
+            "1h",
+        ],
+    );
+    let text = String::from_utf8(text.stdout).unwrap();
+    assert!(text.contains("2 instruments drawn from the gauge's declaration"));
+    assert!(text.contains("CAUTION: gas under pressure can kill"));
+    // A population of none is refused.
+    let none = isochor(&dir, &["sim", "workshop-leak", "--population", "0"]);
+    assert!(!none.status.success());
+    assert!(String::from_utf8_lossy(&none.stderr).contains("at least one run"));
+}

@@ -21,7 +21,8 @@ use std::sync::Arc;
 use super::sensors::{Codes, PressureCode, PressureFrontEnd, TemperatureFrontEnd};
 use crate::Error;
 use isochor_core::alarm::Events;
-use isochor_core::app::{Zero, fixed, float};
+use isochor_core::app::{self, Zero, fixed, float};
+use isochor_core::link::Telemetry;
 use isochor_core::model::device::{DeviceModel, Table, TableBuf};
 use isochor_core::model::{Compressibility, Ideal, ModelRange, ZPoint};
 use isochor_core::prepared::{self, Plausibility, Prepared, PreparedBuf};
@@ -38,10 +39,10 @@ use zerocopy::IntoBytes;
 /// What the gauge reports for one sample, in SI units whatever the backend.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
 pub struct Reading {
-    /// Pressure the front-end converted, Pa absolute (`None`: not a
-    /// measurement).
+    /// Pressure the gauge reports, Pa absolute: the smoothed reading its
+    /// content comes from (`None`: not a measurement).
     pub pressure_pa: Option<f64>,
-    /// Temperature the front-end converted, K.
+    /// Temperature the gauge reports, K (smoothed likewise).
     pub temperature_k: Option<f64>,
     /// Content estimate, kg (`None` before the first usable sample or when
     /// the content is not valid).
@@ -63,6 +64,45 @@ pub struct Reading {
     pub status: Status,
     /// Alarm changes at this sample.
     pub events: Events,
+}
+
+impl Reading {
+    /// What one telemetry frame says, with the sample's alarm changes: the
+    /// one decoding of device telemetry into readings. The in-process
+    /// fixed-point gauge passes its pipeline's output through the device's
+    /// own frame builder ([`app::telemetry::from_track`]) and this, the
+    /// firmware backends decode the frames they receive with it, so both
+    /// report exactly what a device sends. Content values are `None` when
+    /// the status voids them or the frame carries none (zeros before the
+    /// first usable sample and while a channel is dead); pressure and
+    /// temperature when the sensor flags say they are not measurements.
+    pub fn from_telemetry(t: &Telemetry, events: Events) -> Reading {
+        let status = t.status();
+        let content =
+            t.content_valid() && (t.mass_kg != 0 || t.fill_fraction != 0 || t.density_kg_m3 != 0);
+        let measured = !status.intersects(isochor_core::sensor::VALUE_INVALID);
+        Reading {
+            pressure_pa: (measured && t.pressure_pa != 0).then(|| to_f64(t.pressure())),
+            temperature_k: (measured && t.temperature_k != 0).then(|| to_f64(t.temperature())),
+            mass_kg: content.then(|| to_f64(t.mass())),
+            fill_fraction: content.then(|| to_f64(t.fill_fraction())),
+            u_mass_kg: t.mass_uncertainty().filter(|_| content).map(to_f64),
+            // Telemetry carries the change of the mass (negative while the
+            // tank empties); readings carry the consumption.
+            rate_kg_h: t.rate().map(|r| -to_f64(r)),
+            u_rate_kg_h: t.rate_uncertainty().map(to_f64),
+            time_to_empty_s: t.time_to_empty_s.map(|e| {
+                (
+                    f64::from(e),
+                    f64::from(t.time_to_empty_earliest_s.unwrap_or(e)),
+                    t.time_to_empty_latest_s.map(f64::from),
+                )
+            }),
+            loss_fraction_per_day: t.leak_loss_per_day().map(to_f64),
+            status,
+            events,
+        }
+    }
 }
 
 /// The gauge under test.
@@ -308,11 +348,14 @@ fn raw(codes: &Codes, pressure: &PressureFrontEnd) -> Result<RawSample, Error> {
     })
 }
 
-/// The in-process device pipeline (fixed point, prepared configuration).
+/// The in-process device pipeline (fixed point, prepared configuration):
+/// the device's chain (`app::fixed::Pipeline::sample`) and its telemetry
+/// frame, read back as a host reads a device's.
 pub struct FixedGauge {
     pipeline: fixed::Pipeline<SharedBlob>,
     pressure: PressureFrontEnd,
     rated_kg: f64,
+    seq: u32,
 }
 
 impl FixedGauge {
@@ -335,6 +378,7 @@ impl FixedGauge {
             pipeline,
             pressure,
             rated_kg,
+            seq: 0,
         })
     }
 }
@@ -369,39 +413,10 @@ impl Backend for FixedGauge {
 
     fn sample(&mut self, at: Instant, codes: &Codes) -> Result<Reading, Error> {
         let raw = raw(codes, &self.pressure)?;
-        let readings = self.pipeline.convert(at, &raw);
-        let sensor = readings.status();
-        let r = self.pipeline.tracker_mut().update(
-            at,
-            readings.pressure.pressure_pa,
-            readings.temperature.temperature_k,
-            sensor,
-        );
-        let valid = |s: Status| !s.intersects(isochor_core::sensor::VALUE_INVALID);
-        let content = r
-            .content
-            .filter(|c| !c.status.intersects(Status::CONTENT_INVALID));
-        Ok(Reading {
-            pressure_pa: valid(readings.pressure.status)
-                .then(|| to_f64(readings.pressure.pressure_pa)),
-            temperature_k: valid(readings.temperature.status)
-                .then(|| to_f64(readings.temperature.temperature_k)),
-            mass_kg: content.map(|c| to_f64(c.mass_kg)),
-            fill_fraction: content.map(|c| to_f64(c.fill_fraction)),
-            u_mass_kg: r.uncertainty.map(|u| to_f64(u.mass_kg)),
-            rate_kg_h: r.rate.map(|x| to_f64(x.kg_h)),
-            u_rate_kg_h: r.rate.map(|x| to_f64(x.u_kg_h)),
-            time_to_empty_s: r.time_to_empty.map(|t| {
-                (
-                    t.expected.0 as f64 / 1e3,
-                    t.earliest.0 as f64 / 1e3,
-                    t.latest.map(|l| l.0 as f64 / 1e3),
-                )
-            }),
-            loss_fraction_per_day: r.leak.map(|l| to_f64(l.loss_per_day)),
-            status: r.status | sensor,
-            events: r.events,
-        })
+        let out = self.pipeline.sample(at, &raw);
+        let frame = app::telemetry::from_track(self.seq, &out, Status::OK);
+        self.seq = self.seq.wrapping_add(1);
+        Ok(Reading::from_telemetry(&frame, out.events))
     }
 }
 
@@ -447,17 +462,23 @@ impl Backend for FloatGauge {
             readings.temperature.temperature_k,
             sensor,
         )?;
-        let valid = |s: Status| !s.intersects(isochor_core::sensor::VALUE_INVALID);
+        // Read as [`Reading::from_telemetry`] reads the fixed-point gauge's
+        // frames: pressure and temperature are the content's (smoothed)
+        // ones, shown when measured; content values when valid.
+        let measured = !(r.status | sensor).intersects(isochor_core::sensor::VALUE_INVALID);
+        let shown = r.content.filter(|_| measured);
         let content = r
             .content
             .filter(|c| !c.status.intersects(Status::CONTENT_INVALID));
         Ok(Reading {
-            pressure_pa: valid(readings.pressure.status).then_some(readings.pressure.pressure_pa),
-            temperature_k: valid(readings.temperature.status)
-                .then_some(readings.temperature.temperature_k),
+            pressure_pa: shown.map(|c| c.pressure_pa),
+            temperature_k: shown.map(|c| c.temperature_k),
             mass_kg: content.map(|c| c.mass_kg),
             fill_fraction: content.map(|c| c.fill_fraction),
-            u_mass_kg: r.uncertainty.map(|u| u.mass_kg),
+            u_mass_kg: r
+                .uncertainty
+                .filter(|_| content.is_some())
+                .map(|u| u.mass_kg),
             rate_kg_h: r.rate.map(|x| x.kg_h),
             u_rate_kg_h: r.rate.map(|x| x.u_kg_h),
             time_to_empty_s: r.time_to_empty.map(|t| {

@@ -24,6 +24,7 @@ pub mod output;
 pub mod physics;
 #[cfg(feature = "plots")]
 pub mod plot;
+pub mod population;
 pub mod run;
 pub mod scenario;
 pub mod sensors;

@@ -432,6 +432,12 @@ pub fn render_text(s: &Summary, written: Option<&Written>) -> String {
                 fmt_duration(st),
                 fmt_duration(d)
             ),
+            (Some(st), None) if s.duration_s - st < 48.0 * 3600.0 => format!(
+                "began at {}, not detected in the {} the run went on (the stated \
+                 detection time is up to 48 h)",
+                fmt_duration(st),
+                fmt_duration(s.duration_s - st)
+            ),
             (Some(st), None) => format!("began at {}, NOT detected", fmt_duration(st)),
         },
     );

@@ -95,7 +95,8 @@ pub struct TracePoint {
     pub t_s: f64,
     /// True pressure, Pa absolute.
     pub pressure_true_pa: f64,
-    /// Pressure the gauge read, Pa absolute (`null`: not a measurement).
+    /// Pressure the gauge reports, Pa absolute: the smoothed reading its
+    /// content comes from (`null`: not a measurement or no content).
     pub pressure_read_pa: Option<f64>,
     /// True gas temperature, K.
     pub gas_temperature_k: f64,
@@ -103,7 +104,7 @@ pub struct TracePoint {
     pub wall_temperature_k: f64,
     /// Ambient temperature, K.
     pub ambient_temperature_k: f64,
-    /// Temperature the gauge read, K.
+    /// Temperature the gauge reports, K (smoothed likewise).
     pub temperature_read_k: Option<f64>,
     /// True mass, kg.
     pub mass_true_kg: f64,
@@ -582,7 +583,14 @@ impl Scorer {
             sum_err: 0.0,
             sum_sq: 0.0,
             rel_u: Vec::new(),
-            leak_start: sc.leak_starts_s.iter().copied().reduce(f64::min),
+            // A leak the scenario starts after the end of this run (a
+            // shortened one) is not part of it.
+            leak_start: sc
+                .leak_starts_s
+                .iter()
+                .copied()
+                .filter(|&s| s < sc.duration_s)
+                .reduce(f64::min),
             leak_found: None,
             events: Vec::new(),
             false_alarms: 0,

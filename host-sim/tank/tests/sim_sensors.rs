@@ -66,11 +66,17 @@ fn codes_convert_back_to_the_truth() {
         .into_iter()
         .enumerate()
         {
-            let tr = truth(i as f64, p, k);
-            let codes = pair.sample(&tr).unwrap();
-            let a = g.sample(Instant(i as u64 * 1000), &codes).unwrap();
-            let b = f.sample(Instant(i as u64 * 1000), &codes).unwrap();
-            for r in [a, b] {
+            // The gauges report smoothed readings (seconds of time
+            // constant): each truth is held for two minutes, the last
+            // reading compared.
+            let (mut a, mut b) = (None, None);
+            for s in 0..120u64 {
+                let at = (i as u64 * 120 + s) as f64;
+                let codes = pair.sample(&truth(at, p, k)).unwrap();
+                a = Some(g.sample(Instant(at as u64 * 1000), &codes).unwrap());
+                b = Some(f.sample(Instant(at as u64 * 1000), &codes).unwrap());
+            }
+            for r in [a.unwrap(), b.unwrap()] {
                 let (pr, kr) = (r.pressure_pa.unwrap(), r.temperature_k.unwrap());
                 assert!((pr - p).abs() < p_tol, "{name}: {pr} vs {p}");
                 assert!((kr - k).abs() < 0.02, "{name}: {kr} vs {k}");

@@ -7,6 +7,7 @@ use crate::firmware::Board;
 use crate::firmware_gauge::FirmwareGauge;
 use clap::Args;
 use isochor_tank::output::{self, Written};
+use isochor_tank::population::Population;
 use isochor_tank::run::{BackendKind, RunOptions, Summary, run, run_with};
 use isochor_tank::scenario::{BUILTIN, Scenario, duration_s};
 use rayon::prelude::*;
@@ -50,6 +51,13 @@ pub struct SimArgs {
     /// Write no plots.
     #[arg(long)]
     pub no_plots: bool,
+    /// Run each scenario as a population of N instruments instead of one:
+    /// seeds from --seed (or the scenario's) on, every instrument drawn from
+    /// the gauge's declaration, each in its own weather; reports false
+    /// alarms per instrument-year, pooled k = 2 coverage, leak finds and
+    /// time-to-empty coverage (no files are written).
+    #[arg(long, value_name = "N", conflicts_with = "firmware")]
+    pub population: Option<u64>,
     /// Output format of the summary.
     #[arg(long, value_enum, default_value_t = Format::Text)]
     pub format: Format,
@@ -152,6 +160,29 @@ pub fn execute_on(
         .collect()
 }
 
+/// Runs `scenario` as a population of `runs` instruments (seeds from
+/// `seed` on; see [`isochor_tank::population`]) in parallel on the
+/// in-process `backend`, and pools their scores.
+pub fn population(
+    scenario: &Scenario,
+    runs: u64,
+    seed: u64,
+    duration_s: Option<f64>,
+    backend: BackendKind,
+) -> Result<Population, Error> {
+    let members = isochor_tank::population::members(scenario, runs, seed, duration_s)?;
+    let opts = RunOptions {
+        backend,
+        trace_every_s: 0.0,
+        progress: false,
+    };
+    let summaries = members
+        .par_iter()
+        .map(|sc| run(sc, &opts).map(|r| r.summary))
+        .collect::<Result<Vec<_>, _>>()?;
+    Ok(Population::from_runs(&summaries, seed)?)
+}
+
 /// Prints the summaries.
 pub fn render(done: &[Done], format: Format) -> Result<String, Error> {
     match format {
@@ -195,6 +226,32 @@ pub fn run_cmd(a: &SimArgs) -> Result<String, Error> {
         .map(|d| duration_s(d, "--duration"))
         .transpose()?;
     let every = duration_s(&a.every, "--every")?;
+    if let Some(n) = a.population {
+        let reports = names
+            .iter()
+            .map(|name| {
+                let sc = load(name)?;
+                population(
+                    &sc,
+                    n,
+                    a.seed.unwrap_or(sc.source.seed),
+                    duration,
+                    a.backend.into(),
+                )
+            })
+            .collect::<Result<Vec<_>, Error>>()?;
+        return match a.format {
+            Format::Json => match reports.as_slice() {
+                [one] => to_json(one),
+                many => to_json(&many),
+            },
+            Format::Text => Ok(reports
+                .iter()
+                .map(Population::render_text)
+                .collect::<Vec<_>>()
+                .join("\n")),
+        };
+    }
     let scenarios = names
         .iter()
         .map(|n| load(n).map(|s| s.with(duration, a.seed)))
