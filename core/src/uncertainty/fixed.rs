@@ -280,7 +280,10 @@ impl EvaluatorFx {
             gain: frac(cfg.temperature_gain),
             rated_mass,
             vessel_h: None,
-            r_over_cv: R_OVER_CV_FX[r_over_cv_class(setup.gas)],
+            r_over_cv: R_OVER_CV_FX
+                .get(r_over_cv_class(setup.gas))
+                .copied()
+                .unwrap_or(R_OVER_CV_FX[0]),
         })
     }
 

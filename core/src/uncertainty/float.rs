@@ -202,7 +202,10 @@ pub struct Evaluator<F: Real> {
 /// monatomic (the largest cooling). The real gas's c_v is larger than the
 /// ideal part's near saturation, so this bounds the cooling from above.
 pub fn ideal_r_over_cv(gas: Gas) -> f64 {
-    R_OVER_CV[r_over_cv_class(gas)]
+    R_OVER_CV
+        .get(r_over_cv_class(gas))
+        .copied()
+        .unwrap_or(R_OVER_CV[0])
 }
 
 /// R/c_v⁰ by class (see [`ideal_r_over_cv`]).
