@@ -44,7 +44,16 @@ fn rate_and_time_to_empty_under_a_steady_draw() {
             sq_rate += e * e;
             n += 1;
             let truth_ms = (s.mass_kg - reserve_kg) / sc.draw_kg_h * HOUR_MS as f64;
-            let t = a.time_to_empty.expect("a consumption has a time to empty");
+            // A time to empty once the draw has been steady for two gas
+            // time constants 2·τ_v·F (the settling time constant times the
+            // fill fraction; docs/tracking.md): from 32 + 60 min on here.
+            let Some(t) = a.time_to_empty else {
+                assert!(
+                    s.t_ms <= 2 * cfg.settle_time_constant.0 + 32 * 60_000,
+                    "a steady consumption has a time to empty"
+                );
+                return;
+            };
             let err_min = (t.expected.0 as f64 - truth_ms).abs() / 60_000.0;
             // Relative to the time left, judged while more than 1 h is left.
             if truth_ms > HOUR_MS as f64 {

@@ -34,7 +34,7 @@ use super::{
     DAY_HOURS, EARLY_FACTOR_Q8, EARLY_MIN_PAIRS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS,
     EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW,
     SETTLE_TIME_CONSTANTS, SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR,
-    TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    STEADY_TIME_CONSTANTS, TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -367,6 +367,14 @@ pub struct Tracker<M> {
     leak_hold_until: Instant,
     /// The rate of the last block, fraction of the rated content per hour, Q36.
     rate_per_h: Option<i64>,
+    /// The gas–sensor term of the content's budget (standard uncertainty,
+    /// fraction of the rated content, Q36) from the last rate window, and
+    /// whether it outweighs the rest of the budget (`not_settled`).
+    gas_sensor: u64,
+    gas_draw: u64,
+    gas_transient: bool,
+    /// How long the rate window has held a steady draw, ms.
+    steady_ms: u64,
     // Settling.
     settle_active: bool,
     settle_blocks: usize,
@@ -396,7 +404,8 @@ impl<M: CompressibilityFx> Tracker<M> {
                 ..cfg.uncertainty
             },
             &est,
-        )?;
+        )?
+        .with_vessel_time_constant(cfg.settle_time_constant);
         let tank = est.setup().tank;
         let rated = est.estimate(tank.rated_pressure_pa, tank.rated_temperature_k);
         let rated_mass = Coef::from_raw(est.rated_mass_kg().to_bits(), 40);
@@ -487,6 +496,10 @@ impl<M: CompressibilityFx> Tracker<M> {
             episode_blocks: 0,
             leak_hold_until: Instant(0),
             rate_per_h: None,
+            gas_sensor: 0,
+            gas_draw: 0,
+            gas_transient: false,
+            steady_ms: 0,
             settle_active: false,
             settle_blocks: 0,
             settle_since: Instant(0),
@@ -599,7 +612,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             content: level,
             sensor_fault: fault,
             leak: self.leak.is_some_and(|l| l.leaking),
-            not_settled: self.settle_active,
+            not_settled: self.not_settled(),
         });
         let events = self.alarms.update(at, raise, clear);
         let content_status = self.content.map_or(Status::OK, |c| c.status);
@@ -610,7 +623,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             rate: self.rate,
             time_to_empty: self.tte,
             settling: SettlingFx {
-                not_settled: self.settle_active,
+                not_settled: self.not_settled(),
                 predicted: if self.settle_active {
                     self.predicted
                 } else {
@@ -635,7 +648,16 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.rate_per_h = None;
             self.tte = None;
             self.predicted = None;
+            self.gas_sensor = 0;
+            self.gas_draw = 0;
+            self.gas_transient = false;
         }
+    }
+
+    /// Not settled: after a fast fill or draw, or while the gas–sensor
+    /// temperature difference outweighs the rest of the content's budget.
+    fn not_settled(&self) -> bool {
+        self.settle_active || self.gas_transient
     }
 
     /// The time to empty the low-content alarm may use (confidence ≥ 0.5).
@@ -815,12 +837,18 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.ring_len = (self.ring_len + 1).min(RATE_WINDOW);
         self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
-        self.rate_and_time_to_empty(content);
+        // The model's slopes, for the sensitivities of both budgets.
+        let sloped = self.est.with_slopes(content);
+        self.rate_and_time_to_empty(&sloped);
         self.episodes(end);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(end, mean);
         probe::enter(Stage::Uncertainty);
-        self.uncertainty = Some(self.unc.evaluate(&self.est.with_slopes(content)));
+        let (u, transient) = self
+            .unc
+            .evaluate_with(&sloped, self.gas_sensor, self.gas_draw);
+        self.uncertainty = Some(u);
+        self.gas_transient = transient;
         probe::enter(Stage::Track);
         self.rated_pressure_now_pa = Some(
             self.est
@@ -836,6 +864,9 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.rate = None;
             self.rate_per_h = None;
             self.tte = None;
+            self.gas_sensor = 0;
+            self.gas_draw = 0;
+            self.steady_ms = 0;
             return;
         }
         let fit = self.fit(n);
@@ -864,6 +895,8 @@ impl<M: CompressibilityFx> Tracker<M> {
                 blocks_per_hour: self.blocks_per_hour,
             },
         );
+        self.gas_sensor = budget.gas_sensor;
+        self.gas_draw = budget.draw;
         let u_per_h = budget.rate_per_h.saturating_mul(2).min(i64::MAX as u64) as i64;
         let confidence = if per_h != 0 {
             let mag = per_h.unsigned_abs();
@@ -910,7 +943,17 @@ impl<M: CompressibilityFx> Tracker<M> {
             blocks: n as u32,
             steady,
         });
-        self.tte = if per_h > 0 && left > 0 && steady {
+        // The draw's cooling settles with τ_v·F (see the float form):
+        // (≤ 2 × 24 h in ms < 2^28) × (F ≤ 2^36) < 2^64.
+        self.steady_ms = if steady {
+            self.steady_ms.saturating_add(self.cfg.block.0)
+        } else {
+            0
+        };
+        let f1 = fit.mean.clamp(0, 1 << QF) as u64;
+        let need = (STEADY_TIME_CONSTANTS * self.cfg.settle_time_constant.0).saturating_mul(f1);
+        let settled_draw = (self.steady_ms as u128) << QF >= need as u128;
+        self.tte = if per_h > 0 && left > 0 && steady && settled_draw {
             // left < 2^41 (Q36, ≤ 16 + margin), × 3.6e6 < 2^63.
             let ms = |rate: i64| {
                 Millis(

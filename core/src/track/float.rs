@@ -5,7 +5,7 @@ use super::{
     DAY_HOURS, EARLY_FACTOR_Q8, EARLY_MIN_PAIRS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS,
     EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW,
     SETTLE_TIME_CONSTANTS, SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR,
-    TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    STEADY_TIME_CONSTANTS, TEMPERATURE_WINDOW, effective_lag, validate_timing,
 };
 use crate::alarm::float::{Inputs, LevelInputs, Limits};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -285,6 +285,14 @@ pub struct Tracker<F: Real, M> {
     leak_hold_until: Instant,
     /// The rate of the last block, fraction of the rated content per hour.
     rate_per_h: Option<F>,
+    /// The gas–sensor term of the content's budget (standard uncertainty,
+    /// fraction of the rated content) from the last rate window, and whether
+    /// it outweighs the rest of the budget (`not_settled`).
+    gas_sensor: F,
+    gas_draw: F,
+    gas_transient: bool,
+    /// How long the rate window has held a steady draw, ms.
+    steady_ms: u64,
     // Settling.
     settle_active: bool,
     settle_blocks: usize,
@@ -313,7 +321,8 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 ..cfg.uncertainty
             },
             &est,
-        )?;
+        )?
+        .with_vessel_time_constant(cfg.settle_time_constant);
         let tank = est.setup().tank;
         let rated = est.estimate(tank.rated_pressure_pa, tank.rated_temperature_k)?;
         let rated_mass_kg = est.rated_mass_kg();
@@ -363,6 +372,10 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             episode_blocks: 0,
             leak_hold_until: Instant(0),
             rate_per_h: None,
+            gas_sensor: F::ZERO,
+            gas_draw: F::ZERO,
+            gas_transient: false,
+            steady_ms: 0,
             settle_active: false,
             settle_blocks: 0,
             settle_since: Instant(0),
@@ -462,7 +475,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             content: level,
             sensor_fault: fault,
             leak: self.leak.is_some_and(|l| l.leaking),
-            not_settled: self.settle_active,
+            not_settled: self.not_settled(),
         });
         let events = self.alarms.update(at, raise, clear);
         let content_status = self.content.map_or(Status::OK, |c| c.status);
@@ -473,7 +486,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             rate: self.rate,
             time_to_empty: self.tte,
             settling: Settling {
-                not_settled: self.settle_active,
+                not_settled: self.not_settled(),
                 predicted: if self.settle_active {
                     self.predicted
                 } else {
@@ -487,6 +500,13 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         })
     }
 
+    /// Not settled: after a fast fill or draw (the settling above), or while
+    /// the gas–sensor temperature difference outweighs the rest of the
+    /// content's budget.
+    fn not_settled(&self) -> bool {
+        self.settle_active || self.gas_transient
+    }
+
     /// At a flagged sample: once the last usable one is older than
     /// `max_gap`, the content and what rests on it are withdrawn (see
     /// [`super`]; a usable sample restarts the windows).
@@ -498,6 +518,9 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.rate_per_h = None;
             self.tte = None;
             self.predicted = None;
+            self.gas_sensor = F::ZERO;
+            self.gas_draw = F::ZERO;
+            self.gas_transient = false;
         }
     }
 
@@ -663,7 +686,11 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         self.episodes(end);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(end, mean);
-        self.uncertainty = Some(self.unc.evaluate(content));
+        let (u, transient) = self
+            .unc
+            .evaluate_with(content, self.gas_sensor, self.gas_draw);
+        self.uncertainty = Some(u);
+        self.gas_transient = transient;
         self.rated_pressure_now_pa = Some(self.est.pressure_at(F::ONE, content.temperature_k).0);
     }
 
@@ -674,6 +701,9 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.rate = None;
             self.rate_per_h = None;
             self.tte = None;
+            self.gas_sensor = F::ZERO;
+            self.gas_draw = F::ZERO;
+            self.steady_ms = 0;
             return;
         }
         let fit = self.fit(n);
@@ -701,6 +731,8 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 blocks_per_hour: self.blocks_per_hour,
             },
         );
+        self.gas_sensor = budget.gas_sensor;
+        self.gas_draw = budget.draw;
         let two = F::lit(2.0);
         let u_per_h = two * budget.rate_per_h;
         let confidence = if per_h.abs() > F::ZERO {
@@ -725,7 +757,18 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             blocks: n as u32,
             steady,
         });
-        self.tte = if per_h > F::ZERO && left > F::ZERO && steady {
+        // The draw's cooling settles with the gas's time constant τ_v·F:
+        // before STEADY_TIME_CONSTANTS of them the rate still holds the gas
+        // cooling toward its steady difference (see super).
+        self.steady_ms = if steady {
+            self.steady_ms.saturating_add(self.cfg.block.0)
+        } else {
+            0
+        };
+        let settled_draw = F::lit(self.steady_ms as f64)
+            >= F::lit((STEADY_TIME_CONSTANTS * self.cfg.settle_time_constant.0) as f64)
+                * fit.mean.clamp_to(F::ZERO, F::ONE);
+        self.tte = if per_h > F::ZERO && left > F::ZERO && steady && settled_draw {
             let ms = |rate: F| Millis((left / rate * F::lit(HOUR_MS as f64)).to_f64() as u64);
             // The bounds: left/(rate ± U) with U the rate spread of the
             // time to empty's own budget (k = 2).

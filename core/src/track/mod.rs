@@ -50,6 +50,9 @@
 //!   [`STEADY_FLOOR_PER_H`] a draw started, stopped or changed within the
 //!   window: the rate is reported with `steady: false` and no time to empty
 //!   is given (the window's mix of draw and idle gives no basis for one).
+//!   A time to empty also waits until the rate has been steady for
+//!   [`STEADY_TIME_CONSTANTS`] gas time constants τ_v·F (a draw's cooling of
+//!   the gas below a wall-mounted sensor still grows before).
 //! * **Time to empty** down to the reserve fraction: (F_end − F_reserve)/rate,
 //!   F_end the fitted value at the end of the window; earliest and latest
 //!   from rate ± U_t, U_t the time to empty's own budget written as a rate
@@ -70,9 +73,14 @@
 //!   left |F∞ − F_last| is below `settle_tolerance`, or 3τ after the event.
 //!   τ is configured (`settle_time_constant`); a draw during settling biases
 //!   the prediction by τ × draw rate.
-//! * The uncertainty of the content ([`crate::uncertainty`]) and the
-//!   over-pressure reference (the pressure of the rated content at the
-//!   present temperature) are refreshed.
+//! * The uncertainty of the content ([`crate::uncertainty`]), with the
+//!   gas–sensor temperature difference from the rate window and the
+//!   settling time constant taken as the vessel's gas–wall time constant
+//!   τ_v, and the over-pressure reference (the pressure of the rated
+//!   content at the present temperature) are refreshed. While the draw's
+//!   cooling of the gas outweighs twice the rest of the fill fraction's
+//!   uncertainty, `not_settled` is reported (without restarting the rate or
+//!   predicting a settled content).
 //!
 //! # Per hour: leak detection on the compensated content
 //!
@@ -184,6 +192,13 @@ pub const STEADY_SHARE_DIVISOR: u32 = 8;
 /// slope's scatter from noise, about 0.01 %/h for a bridge transducer at
 /// 1 Hz; common practice).
 pub const STEADY_FLOOR_PER_H: f64 = 0.002;
+/// A time to empty needs a steady draw for this many of the gas's time
+/// constants τ_v·F (τ_v the settling time constant, F the fill fraction):
+/// a draw cools the gas below a wall-mounted sensor toward a steady
+/// difference with that time constant, and until then the apparent rate
+/// holds the growing cooling (up to (R/c_v)·Z·c_T²/c_p times the rate, a
+/// third or more of it; see "Steady draw" above).
+pub const STEADY_TIME_CONSTANTS: u64 = 2;
 /// Fewest pairs of hours one day apart for an early leak verdict (the
 /// second day after a start; see "Early verdicts").
 pub const EARLY_MIN_PAIRS: usize = 6;

@@ -9,7 +9,9 @@
 
 use fixed::types::{I8F24, U0F32};
 
-use super::float::UncertaintyConfig;
+use super::float::{
+    C_P_MIN, GAS_SENSOR_UNSETTLED, MAX_VESSEL_MS, R_OVER_CV, UncertaintyConfig, r_over_cv_class,
+};
 use crate::content::fixed::{Content, Estimator};
 use crate::fx::{self, Coef};
 use crate::model::CompressibilityFx;
@@ -148,6 +150,17 @@ const PER_MPA: Coef = Coef::from_f64(1e-6);
 
 /// ms → h.
 const PER_HOUR_MS: Coef = Coef::from_f64(1.0 / 3_600_000.0);
+/// R/c_v of the ideal gas by class (see `super::float::ideal_r_over_cv`),
+/// converted at compile time.
+const R_OVER_CV_FX: [Coef; 5] = [
+    Coef::from_f64(R_OVER_CV[0]),
+    Coef::from_f64(R_OVER_CV[1]),
+    Coef::from_f64(R_OVER_CV[2]),
+    Coef::from_f64(R_OVER_CV[3]),
+    Coef::from_f64(R_OVER_CV[4]),
+];
+/// The smallest c_p taken, Q30.
+const C_P_MIN_Q30: u64 = (C_P_MIN * (1u64 << 30) as f64) as u64;
 /// Fraction bits of the rate budget (fraction of the rated content, per
 /// hour for rates), like the tracker's fits.
 const QR: u32 = 36;
@@ -191,6 +204,11 @@ pub(crate) struct RateBudgetFx {
     /// Of the time to empty t, as the rate spread rate × u(t)/t, per hour,
     /// Q36.
     pub time_to_empty_per_h: u64,
+    /// Of the fill fraction, from the gas–sensor temperature difference,
+    /// Q36.
+    pub gas_sensor: u64,
+    /// Its part from the draw's own cooling, Q36.
+    pub draw: u64,
 }
 
 /// Prepared uncertainty evaluation for one fixed-point estimator.
@@ -210,6 +228,11 @@ pub struct EvaluatorFx {
     gain: Coef,
     /// The rated mass, per unit fraction.
     rated_mass: Coef,
+    /// The vessel's gas–wall time constant at the rated content in hours
+    /// (`None`: the gas–sensor term is left out) and R/c_v of the ideal gas
+    /// (see [`super::float`]).
+    vessel_h: Option<Coef>,
+    r_over_cv: Coef,
 }
 
 /// The sensitivities of one estimate (Q30) and its terms (standard
@@ -256,7 +279,20 @@ impl EvaluatorFx {
             lag_h: Coef::from_raw(cfg.temperature_lag.0, 0).mul(PER_HOUR_MS),
             gain: frac(cfg.temperature_gain),
             rated_mass,
+            vessel_h: None,
+            r_over_cv: R_OVER_CV_FX
+                .get(r_over_cv_class(setup.gas))
+                .copied()
+                .unwrap_or(R_OVER_CV_FX[0]),
         })
+    }
+
+    /// The same evaluation with the vessel's gas–wall time constant τ_v
+    /// (see [`super::float::Evaluator::with_vessel_time_constant`]).
+    pub fn with_vessel_time_constant(mut self, tau: Millis) -> Self {
+        let v = tau.0.min(MAX_VESSEL_MS);
+        self.vessel_h = (v > 0).then(|| Coef::from_raw(v, 0).mul(PER_HOUR_MS));
+        self
     }
 
     /// The declared input uncertainties.
@@ -322,20 +358,40 @@ impl EvaluatorFx {
     /// which must carry the model's slopes
     /// ([`Estimator::with_slopes`](crate::content::fixed::Estimator::with_slopes)).
     pub fn evaluate(&self, c: &Content) -> UncertaintyFx {
+        self.evaluate_with(c, 0, 0).0
+    }
+
+    /// Expanded uncertainties (k = 2) of `c` with the gas–sensor term
+    /// `gas_sensor` (Q36, from [`Self::rate`]), and whether its part from
+    /// the draw's cooling, `draw` (Q36), outweighs the rest of the fill
+    /// fraction's budget (see [`super::float`]).
+    pub(crate) fn evaluate_with(
+        &self,
+        c: &Content,
+        gas_sensor: u64,
+        draw: u64,
+    ) -> (UncertaintyFx, bool) {
         let k = self.terms(c);
         let sq = |v: u64| v * v;
+        // Q36 → Q28, rounded; at most the term limit (six squares in u64).
+        let q28 = |v: u64| (v.saturating_add(1 << 7) >> 8).min(TERM_MAX);
+        let g2 = sq(q28(gas_sensor));
         let common = sq(k.fs) + sq(k.rd) + sq(k.tt);
-        let u_mass = isqrt(common + sq(k.cap) + sq(k.model));
-        let u_frac = isqrt(common + 2 * sq(k.model));
+        let fraction = common + 2 * sq(k.model);
+        let u_mass = isqrt(common + sq(k.cap) + sq(k.model) + g2);
+        let u_frac = isqrt(fraction + g2);
         let (mass, _) = self.rated_mass.scale(u_mass.saturating_mul(2), Q, 40);
         let c_i8f24 =
             |v: i128| I8F24::from_bits((v >> 6).max(i32::MIN as i128).min(i32::MAX as i128) as i32);
-        UncertaintyFx {
-            mass_kg: fx::Mass::from_bits(mass),
-            fill_fraction: fx::Fraction::from_bits((u_frac as u64) << 5),
-            c_p: c_i8f24(k.c_p),
-            c_t: c_i8f24(k.c_t),
-        }
+        (
+            UncertaintyFx {
+                mass_kg: fx::Mass::from_bits(mass),
+                fill_fraction: fx::Fraction::from_bits((u_frac as u64) << 5),
+                c_p: c_i8f24(k.c_p),
+                c_t: c_i8f24(k.c_t),
+            },
+            sq(q28(draw)) > GAS_SENSOR_UNSETTLED * fraction,
+        )
     }
 
     /// Standard uncertainties (k = 1) of the consumption rate measured over
@@ -367,8 +423,19 @@ impl EvaluatorFx {
         let td2_t = (((td * td) >> QT) * inv_t) >> QT;
         let a = (f * (tdd - td2_t)).saturating_add(fdot * td) >> QT;
         let per_k = |v: i128| sat64(v.unsigned_abs().saturating_mul(ct) >> QT);
-        let lag = apply(self.lag_h, per_k(a));
-        let lag_t = apply(self.lag_h, per_k(q36(f_td.saturating_mul(rho)) + a));
+        // The gas's time constant τ = τ_v·F (F ≤ 1), and the lag of the
+        // gas (τ) and the sensor (u(τ)) behind the wall in quadrature (see
+        // the float form), hours in Q36: one root.
+        let f1 = f.min(1 << QR) as u128;
+        let by_f = |v: u64| sat64((v as u128 * f1) >> QR);
+        let lag36 = apply(self.lag_h, 1 << QR);
+        let lags36 = match self.vessel_h {
+            Some(vessel_h) => hypot(&[lag36, by_f(apply(vessel_h, 1 << QR))]),
+            None => lag36,
+        };
+        let lags = |v: u64| sat64((v as u128 * lags36 as u128) >> QR);
+        let lag = lags(per_k(a));
+        let lag_t = lags(per_k(q36(f_td.saturating_mul(rho)) + a));
         let gain = apply(self.gain, per_k(f_td));
         let offset = apply(self.temperature, per_k(fdot - f_td_t));
         let reserve_rho = q36(reserve.saturating_mul(rho));
@@ -390,6 +457,34 @@ impl EvaluatorFx {
         let capacity = apply(self.capacity, fdot_abs);
         let model = apply(self.model, fdot_abs);
         let model_t = apply(self.model, sat64(reserve_rho.unsigned_abs()));
+        // The gas–sensor temperature difference (see the float form), with
+        // τ = τ_v·F: the draw's cooling τ·(R/c_v)·Z·c_T²/c_p·|dF/dt| and
+        // the trail of gas (τ) and sensor (u(τ)) behind the wall, times
+        // |k|·F·|dT/dt|. φ = Z·c_T²/c_p in Q24 with one 64-bit division:
+        // c_T² in Q24 (|c_T| < 2^3 for any gas state in the models'
+        // envelopes, kept below 2^30) times Z in Q30 (< 2^32), over c_p in Q30
+        // (at least C_P_MIN).
+        let (gas_sensor, gas_draw, draw_t) = match self.vessel_h {
+            Some(vessel_h) => {
+                let c_t2 = ((k.c_t.unsigned_abs().pow(2)) >> 36).min((1 << 30) - 1) as u64;
+                let z = c.z.z.to_bits() as u64;
+                let c_p = (k.c_p.unsigned_abs().min(u64::MAX as u128) as u64).max(C_P_MIN_Q30);
+                let phi = (c_t2 * z) / c_p;
+                let draw = by_f(apply(
+                    vessel_h,
+                    apply(
+                        self.r_over_cv,
+                        sat64((phi as u128 * fdot_abs as u128) >> 24),
+                    ),
+                ));
+                (
+                    hypot(&[draw, lags(per_k(f_td))]),
+                    draw,
+                    sat64(q36((draw as i128).saturating_mul(rho)).unsigned_abs()),
+                )
+            }
+            None => (0, 0, 0),
+        };
         let u = w.u_fit_per_h;
         // The fit's scatter through the slope and F_end (see the float
         // form): r = (1/t) per block, Q36; √((n² − 1)/12) in Q16.
@@ -402,8 +497,10 @@ impl EvaluatorFx {
         RateBudgetFx {
             rate_per_h: hypot(&[u, lag, gain, offset, fs_rate, reading, capacity, model]),
             time_to_empty_per_h: hypot(&[
-                u_end0, u_end1, lag_t, gain, offset_t, fs_t, reading_t, model_t, model_t,
+                u_end0, u_end1, lag_t, gain, offset_t, fs_t, reading_t, model_t, model_t, draw_t,
             ]),
+            gas_sensor,
+            draw: gas_draw,
         }
     }
 }
@@ -473,9 +570,21 @@ mod tests {
     use crate::{Gas, Setup, SetupFx, Tank};
 
     /// The rate budget of both paths on the same window, over a grid of
-    /// fill fractions, rates, temperatures and temperature dynamics.
+    /// fill fractions, rates, temperatures and temperature dynamics, without
+    /// and with a vessel time constant (the gas–sensor term), and the
+    /// content's uncertainty with that term.
     #[test]
     fn rate_budget_fixed_matches_float() {
+        for vessel in [
+            None,
+            Some(Millis::from_secs(1800)),
+            Some(Millis::from_secs(86_400)),
+        ] {
+            rate_budget_case(vessel);
+        }
+    }
+
+    fn rate_budget_case(vessel: Option<Millis>) {
         let setup = Setup::new(Gas::Nitrogen, Tank::new(0.05, 200e5));
         let sfx = SetupFx::from_f64(&setup).unwrap();
         let est_fx = crate::content::fixed::Estimator::new(sfx, Ideal::new(Gas::Nitrogen)).unwrap();
@@ -484,11 +593,16 @@ mod tests {
                 .unwrap();
         let decl = UncertaintyConfig::example(300e5);
         let dfx = UncertaintyConfigFx::from_f64(&decl).unwrap();
-        let (efx, ef) = (
+        let (mut efx, mut ef) = (
             EvaluatorFx::new(dfx, &est_fx).unwrap(),
             Evaluator::new(dfx.to_real::<f64>(), &est_f).unwrap(),
         );
-        let mut worst = [0.0f64; 2];
+        if let Some(v) = vessel {
+            efx = efx.with_vessel_time_constant(v);
+            ef = ef.with_vessel_time_constant(v);
+        }
+        let mut worst = [0.0f64; 4];
+        let mut largest_gas_sensor = 0.0f64;
         for &(p, t) in &[(20e5, 250.0), (120e5, 288.15), (190e5, 330.0)] {
             let cfx = est_fx.estimate(fx::Pressure::from_num(p), fx::Temperature::from_num(t));
             let cf = est_f
@@ -525,9 +639,11 @@ mod tests {
                             blocks_per_hour: 60,
                         };
                         let (bfx, bf) = (efx.rate(&cfx, &wfx), ef.rate(&cf, &wf));
+                        largest_gas_sensor = largest_gas_sensor.max(bf.gas_sensor);
                         let pairs = [
                             (bfx.rate_per_h, bf.rate_per_h),
                             (bfx.time_to_empty_per_h, bf.time_to_empty_per_h),
+                            (bfx.gas_sensor, bf.gas_sensor),
                         ];
                         for (k, (a, b)) in pairs.into_iter().enumerate() {
                             let a = a as f64 / 2f64.powi(36);
@@ -536,12 +652,30 @@ mod tests {
                             let rel = (a - b).abs() / b.max(1e-4);
                             worst[k] = worst[k].max(rel);
                         }
+                        // The content's U(F) with the term, absolute (a
+                        // fraction of the rated content; the tracker's
+                        // comparisons assert 1e-6).
+                        let (ufx, tfx) = efx.evaluate_with(&cfx, bfx.gas_sensor, bfx.draw);
+                        let (uf, tf) = ef.evaluate_with(&cf, bf.gas_sensor, bf.draw);
+                        let a = fx::to_f64(ufx.fill_fraction);
+                        worst[3] = worst[3].max((a - uf.fill_fraction).abs());
+                        // The not-settled verdicts agree away from the edge.
+                        let s2 = (uf.fill_fraction / 2.0).powi(2) - bf.gas_sensor.powi(2);
+                        if (bf.draw / s2.max(1e-30).sqrt() - 2.0).abs() > 1e-3 {
+                            assert_eq!(tfx, tf, "{p} {t} {rate} {td} {tdd}");
+                        }
                     }
                 }
             }
         }
         // Relative error of the budget arithmetic itself (inputs identical).
-        assert!(worst[0] < 1e-6 && worst[1] < 1e-6, "{worst:?}");
+        assert!(worst.iter().all(|&w| w < 1e-6), "{vessel:?} {worst:?}");
+        // The term is there when a vessel time constant is declared.
+        assert_eq!(
+            vessel.is_some(),
+            largest_gas_sensor > 1e-3,
+            "{largest_gas_sensor}"
+        );
     }
 
     #[test]

@@ -5,7 +5,7 @@ use crate::constants::MOLAR_GAS_CONSTANT_J_MOL_K;
 use crate::content::float::{Content, Estimator};
 use crate::model::Compressibility;
 use crate::time::Millis;
-use crate::{Error, Real, Tank};
+use crate::{Error, Gas, Real, Tank};
 
 /// The declared standard uncertainties (k = 1) of the inputs, float form.
 #[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
@@ -169,6 +169,12 @@ pub(crate) struct RateBudget<F> {
     /// Of the time to empty t, as the rate spread with the same relative
     /// size: rate × u(t)/t, per hour.
     pub time_to_empty_per_h: F,
+    /// Of the fill fraction, from the difference between the gas and its
+    /// temperature sensor (the draw's own cooling and the gas and sensor
+    /// following the wall; see [`super`]).
+    pub gas_sensor: F,
+    /// Its part from the draw's own cooling.
+    pub draw: F,
 }
 
 /// Prepared uncertainty evaluation for one estimator.
@@ -181,6 +187,45 @@ pub struct Evaluator<F: Real> {
     rated_mass_kg: F,
     /// The temperature lag uncertainty, h.
     lag_h: F,
+    /// The vessel's gas–wall time constant, h (0: the gas–sensor term is
+    /// left out).
+    vessel_h: F,
+    /// R/c_v of the ideal gas (see [`ideal_r_over_cv`]).
+    r_over_cv: F,
+}
+
+/// R/c_v⁰ of the gas's ideal part, a lower bound of c_v over the
+/// envelope so that the draw's cooling is not underestimated: monatomic
+/// gases 3/2 R, the diatomic ones (and air) 5/2 R, methane and carbon
+/// dioxide 3.2 R, ethane 4.8 R, propane 7.0 R (c_v⁰ of the polyatomic ones
+/// near 250 K, rising with temperature; from memory); a mixture is taken as
+/// monatomic (the largest cooling). The real gas's c_v is larger than the
+/// ideal part's near saturation, so this bounds the cooling from above.
+pub fn ideal_r_over_cv(gas: Gas) -> f64 {
+    R_OVER_CV
+        .get(r_over_cv_class(gas))
+        .copied()
+        .unwrap_or(R_OVER_CV[0])
+}
+
+/// R/c_v⁰ by class (see [`ideal_r_over_cv`]).
+pub(crate) const R_OVER_CV: [f64; 5] = [
+    2.0 / 3.0,
+    0.4,
+    0.3125,
+    0.208_333_333_333_333_34,
+    0.142_857_142_857_142_85,
+];
+
+/// The class of `gas` in [`R_OVER_CV`].
+pub(crate) fn r_over_cv_class(gas: Gas) -> usize {
+    match gas {
+        Gas::Helium | Gas::Neon | Gas::Argon | Gas::Krypton | Gas::Xenon | Gas::Mixture(_) => 0,
+        Gas::Hydrogen | Gas::Nitrogen | Gas::Oxygen | Gas::Air => 1,
+        Gas::Methane | Gas::CarbonDioxide => 2,
+        Gas::Ethane => 3,
+        Gas::Propane => 4,
+    }
 }
 
 /// The sensitivities of one estimate and its terms (standard
@@ -226,7 +271,18 @@ impl<F: Real> Evaluator<F> {
                 / F::lit(MOLAR_GAS_CONSTANT_J_MOL_K),
             rated_mass_kg: est.rated_mass_kg(),
             lag_h: F::lit(cfg.temperature_lag.0 as f64 / HOUR_MS),
+            vessel_h: F::ZERO,
+            r_over_cv: F::lit(ideal_r_over_cv(setup.gas)),
         })
+    }
+
+    /// The same evaluation with the vessel's gas–wall time constant τ_v at
+    /// the rated content (the tracker's settling time constant): the
+    /// content's budget then carries the gas–sensor temperature difference
+    /// (see [`super`]).
+    pub fn with_vessel_time_constant(mut self, tau: Millis) -> Self {
+        self.vessel_h = F::lit(tau.0.min(MAX_VESSEL_MS) as f64 / HOUR_MS);
+        self
     }
 
     /// The declared input uncertainties.
@@ -264,16 +320,35 @@ impl<F: Real> Evaluator<F> {
 
     /// Expanded uncertainties (k = 2) of the mass and fill fraction of `c`.
     pub fn evaluate(&self, c: &Content<F>) -> Uncertainty<F> {
+        self.evaluate_with(c, F::ZERO, F::ZERO).0
+    }
+
+    /// Expanded uncertainties (k = 2) of `c` with the gas–sensor term
+    /// `gas_sensor` (a standard uncertainty of the fill fraction, from
+    /// [`Self::rate`]), and whether its part from the draw's cooling, `draw`,
+    /// outweighs the rest of the fill fraction's budget (the gas a draw
+    /// cooled has not settled to its sensor: `not_settled`).
+    pub(crate) fn evaluate_with(
+        &self,
+        c: &Content<F>,
+        gas_sensor: F,
+        draw: F,
+    ) -> (Uncertainty<F>, bool) {
         let k = self.terms(c);
         let two = F::lit(2.0);
-        Uncertainty {
-            mass_kg: two
-                * (k.common() + k.cap * k.cap + k.model * k.model).sqrt()
-                * self.rated_mass_kg,
-            fill_fraction: two * k.fraction_variance().sqrt(),
-            c_p: k.c_p,
-            c_t: k.c_t,
-        }
+        let g2 = gas_sensor * gas_sensor;
+        let fraction = k.fraction_variance();
+        (
+            Uncertainty {
+                mass_kg: two
+                    * (k.common() + k.cap * k.cap + k.model * k.model + g2).sqrt()
+                    * self.rated_mass_kg,
+                fill_fraction: two * (fraction + g2).sqrt(),
+                c_p: k.c_p,
+                c_t: k.c_t,
+            },
+            draw * draw > F::lit(GAS_SENSOR_UNSETTLED as f64) * fraction,
+        )
     }
 
     /// Standard uncertainties (k = 1) of the consumption rate measured over
@@ -301,8 +376,15 @@ impl<F: Real> Evaluator<F> {
         // time to empty t = left/rate moves by δt/t = e/left + ė/rate: as a
         // rate, e·rate/left + ė.
         let a = f * (tdd - td * td * inv_t) + fdot * td;
-        let lag = ct * self.lag_h * a.abs();
-        let lag_t = ct * self.lag_h * (f * td * rho + a).abs();
+        // The gas trails its wall by τ = τ_v·F besides the sensor's lag
+        // (see super): the two lags in quadrature.
+        let tau = self.vessel_h * f.clamp_to(F::ZERO, F::ONE);
+        let lags = |v: F| {
+            let (x, y) = (self.lag_h * v, tau * v);
+            (x * x + y * y).sqrt()
+        };
+        let lag = lags(ct * a.abs());
+        let lag_t = lags(ct * (f * td * rho + a).abs());
         let gain = ct * cfg.temperature_gain * f * td.abs();
         let offset = ct * cfg.temperature_k * (fdot - f * td * inv_t).abs();
         let offset_t = ct * cfg.temperature_k * (reserve * rho - f * td * inv_t).abs();
@@ -320,6 +402,23 @@ impl<F: Real> Evaluator<F> {
         let model = fdot_abs * cfg.model;
         let model_t = reserve * rho * cfg.model;
         let hypot = |v: &[F]| v.iter().fold(F::ZERO, |s, &x| s + x * x).sqrt();
+        // The gas–sensor temperature difference (see super), with the gas's
+        // time constant τ = τ_v·F (its heat capacity goes with its mass):
+        // the draw's own cooling, τ·(∂ln T/∂ln ρ)_s·T·(dF/dt)/F with
+        // (∂ln T/∂ln ρ)_s = (R/c_v)·Z·|c_T|/c_p, reads as the content
+        // |c_T|·F/T times that: τ·(R/c_v)·Z·c_T²/c_p·|dF/dt|; and the gas
+        // (by τ) and the sensor (by u(τ)) trailing the wall's dT/dt.
+        // Uncorrected; a standard uncertainty each. The draw's part is a
+        // level error the time to empty counts down from.
+        let phi = self.r_over_cv * c.z.z * k.c_t * k.c_t / k.c_p.abs().max(F::lit(C_P_MIN));
+        let draw = tau * phi * fdot.abs();
+        let x = ct * f * td.abs();
+        let (gas_sensor, draw) = if self.vessel_h > F::ZERO {
+            (hypot(&[draw, tau * x, self.lag_h * x]), draw)
+        } else {
+            (F::ZERO, F::ZERO)
+        };
+        let draw_t = draw * rho;
         let u = w.u_fit_per_h;
         // The fit's scatter reaches the time to empty through the slope and
         // through F_end = mean + slope·(n − 1)/2 (mean and slope
@@ -335,10 +434,27 @@ impl<F: Real> Evaluator<F> {
             rate_per_h: hypot(&[u, lag, gain, offset, fs, reading, capacity, model]),
             time_to_empty_per_h: hypot(&[
                 u_end[0], u_end[1], lag_t, gain, offset_t, fs_t, reading_t, model_t, model_t,
+                draw_t,
             ]),
+            gas_sensor,
+            draw,
         }
     }
 }
 
 /// Milliseconds per hour, as a float.
 const HOUR_MS: f64 = 3_600_000.0;
+
+/// Largest vessel time constant taken: 24 h (the tracker's settling time
+/// constant accepts no more).
+pub(crate) const MAX_VESSEL_MS: u64 = 24 * 3_600_000;
+
+/// Smallest c_p = ∂ln m/∂ln p taken in the draw's cooling (a gas near its
+/// critical point; common practice).
+pub(crate) const C_P_MIN: f64 = 0.25;
+
+/// `not_settled` while the variance of the draw's cooling exceeds this
+/// many times the rest of the fill fraction's (the term more than twice the
+/// rest's standard uncertainty: a draw has cooled the gas far below its
+/// sensor's reading; common practice).
+pub(crate) const GAS_SENSOR_UNSETTLED: u64 = 4;

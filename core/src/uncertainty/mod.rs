@@ -45,6 +45,35 @@
 //! and its sensor after fast fills (see the settling prediction), and
 //! correlation between inputs.
 //!
+//! # The gas–sensor temperature difference
+//!
+//! A sensor on the wall reads the wall, not the gas. The quiet gas follows
+//! its wall with a time constant τ = τ_v·F: τ_v the vessel's gas–wall time
+//! constant at the rated content (n·c_v/(h·A); the tracker's settling time
+//! constant `settle_time_constant` is that declaration), F the fill
+//! fraction (the gas's heat capacity goes with its mass). Two effects
+//! follow, each reading as a content error |c_T|·F·ΔT/T:
+//!
+//! * a draw cools the gas isentropically at (∂T/∂ρ)_s·dρ/dt while the wall
+//!   warms it back, so in a steady draw the gas is colder than its wall by
+//!   ΔT = τ·(∂ln T/∂ln ρ)_s·T·|dF/dt|/F, with
+//!   (∂ln T/∂ln ρ)_s = (R/c_v)·(∂p/∂T)_ρ/(ρ·R) = (R/c_v)·Z·|c_T|/c_p from
+//!   the model's own sensitivities and c_v of the ideal gas (a lower bound:
+//!   [`float::ideal_r_over_cv`]); as content
+//!   u_draw = τ·(R/c_v)·Z·c_T²/c_p·|dF/dt|;
+//! * the gas trails the wall's temperature changes by τ and the sensor by
+//!   its declared lag u(τ): u_trail = |c_T|·F·|dT/dt|·√(τ² + u(τ)²)/T.
+//!
+//! dF/dt and dT/dt are the rate window's (see below). The difference is not
+//! corrected but widens the budget, u(m)² and u(F)² gaining
+//! u_draw² + u_trail² (the reasons are in docs/uncertainty.md); while
+//! u_draw exceeds twice the rest of u(F) the gauge reports `not_settled`.
+//! The same τ joins u(τ) in quadrature in the rate's lag term below, and
+//! u_draw·R/left is a level error of the time to empty, shown only after a
+//! steady draw of two gas time constants (the cooling still grows before).
+//! A sensor in the gas declares τ_v as about its own time constant (at
+//! least 1 min).
+//!
 //! # Consumption rate and time to empty
 //!
 //! The tracker ([`crate::track`]) measures the rate R = −dF/dt as the

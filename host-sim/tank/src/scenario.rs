@@ -38,7 +38,7 @@ use serde::Deserialize;
 pub const FORMAT: &str = "isochor-scenario 1";
 
 /// The built-in scenarios: (name, TOML text). The first is the demo.
-pub const BUILTIN: [(&str, &str); 12] = [
+pub const BUILTIN: [(&str, &str); 13] = [
     (
         "workshop-leak",
         include_str!("../scenarios/workshop-leak.toml"),
@@ -86,6 +86,10 @@ pub const BUILTIN: [(&str, &str); 12] = [
     (
         "ngv-fast-fill",
         include_str!("../scenarios/ngv-fast-fill.toml"),
+    ),
+    (
+        "methane-store-winter",
+        include_str!("../scenarios/methane-store-winter.toml"),
     ),
 ];
 
@@ -490,6 +494,14 @@ pub struct GaugeSection {
     pub model_uncertainty: Option<f64>,
     /// Declared standard uncertainty of the temperature lag (default 10 min).
     pub temperature_lag: Option<String>,
+    /// The time constant with which the gas settles to what its
+    /// temperature sensor reads (the tracker's settling time constant;
+    /// default 30 min): for a sensor on the wall the vessel's gas–wall time
+    /// constant at the rated content, for a sensor in the gas about its own
+    /// (at least 1 min). It sizes the settling after fast fills and the
+    /// gas–sensor term of the content's uncertainty (a draw cools the gas
+    /// below a wall-mounted sensor; the gas trails its wall).
+    pub settle_time_constant: Option<String>,
     /// `over_temperature` limit (default 50 °C, the storage limit of cylinder
     /// labels, see `Limits::for_tank`; e.g. `"85C"` for a hydrogen
     /// vehicle tank).
@@ -534,6 +546,7 @@ impl Default for GaugeSection {
             capacity: None,
             model_uncertainty: None,
             temperature_lag: None,
+            settle_time_constant: None,
             temperature_max: None,
             stuck_after: default_stuck(),
             temperature_stuck_after: default_temperature_stuck(),
@@ -1059,6 +1072,10 @@ impl ScenarioFile {
             .as_deref()
             .map(|d| flow_kg_s(d, gas, "gauge.declared_draw").map(|x| x * 3600.0))
             .transpose()?;
+        if let Some(v) = &g.settle_time_constant {
+            track.settle_time_constant =
+                Millis((duration_s(v, "gauge.settle_time_constant")? * 1e3) as u64);
+        }
         if let Some(t) = &g.temperature_max {
             track.limits.temperature_max_k = units::temperature_k(t, "gauge.temperature_max")?;
         }
