@@ -166,6 +166,10 @@ pub struct InstrumentErrors {
     pub temperature_gain_error: f64,
     /// Temperature offset drift, K per year.
     pub temperature_drift_k_per_year: f64,
+    /// When the pressure sensor's drifts begin, s from the start.
+    pub pressure_drift_start_s: f64,
+    /// When the temperature sensor's drift begins, s from the start.
+    pub temperature_drift_start_s: f64,
     /// Temperature noise, standard deviation, K.
     pub temperature_noise_k: f64,
     /// Where the temperature sensor sits: `wall` or `gas`.
@@ -199,6 +203,8 @@ impl InstrumentErrors {
             temperature_offset_k: t.offset_k,
             temperature_gain_error: t.gain_error,
             temperature_drift_k_per_year: t.drift_k_per_year,
+            pressure_drift_start_s: p.drift_start_s,
+            temperature_drift_start_s: t.drift_start_s,
             temperature_noise_k: t.noise_k,
             temperature_mount: match t.mount {
                 Mount::Wall => "wall",
@@ -214,14 +220,16 @@ impl InstrumentErrors {
 
     /// The relative content error the static errors give at a true state
     /// (first order): capacity, pressure and temperature parts. `c_p`,
-    /// `c_t`: ∂ln ρ/∂ln p and ∂ln ρ/∂ln T of the gas there; `years` since
-    /// the start (drifts).
-    fn content_error(&self, p_pa: f64, t_k: f64, c_p: f64, c_t: f64, years: f64) -> [f64; 3] {
+    /// `c_t`: ∂ln ρ/∂ln p and ∂ln ρ/∂ln T of the gas there; `t_s` since
+    /// the start (drifts, from their own starts).
+    fn content_error(&self, p_pa: f64, t_k: f64, c_p: f64, c_t: f64, t_s: f64) -> [f64; 3] {
+        let years = crate::sensors::drift_years(t_s, self.pressure_drift_start_s);
         let dp = p_pa * (self.pressure_span_error + self.pressure_span_drift_per_year * years)
             + self.pressure_offset_pa
             + self.pressure_offset_drift_pa_per_year * years;
         let dt = self.temperature_offset_k
-            + self.temperature_drift_k_per_year * years
+            + self.temperature_drift_k_per_year
+                * crate::sensors::drift_years(t_s, self.temperature_drift_start_s)
             + self.temperature_gain_error * (t_k - ZERO_CELSIUS_K);
         [
             self.capacity_error_fraction,
@@ -682,10 +690,9 @@ impl Scorer {
                 (c_p, c_t)
             }
         };
-        let years = truth.t_s / (365.25 * 86_400.0);
         let e = self
             .instrument
-            .content_error(truth.pressure_pa, truth.gas_k, c_p, c_t, years);
+            .content_error(truth.pressure_pa, truth.gas_k, c_p, c_t, truth.t_s);
         for (sum, x) in self.bias_sum.iter_mut().zip(e) {
             *sum += x;
         }

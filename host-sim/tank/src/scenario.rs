@@ -401,6 +401,10 @@ pub struct PressureSection {
     /// Span drift per year, relative.
     #[serde(default)]
     pub span_drift_per_year: f64,
+    /// When the drifts begin (`"0s"`, default: at the start; e.g. `"3d"`:
+    /// a sensor aged or damaged on day three).
+    #[serde(default = "default_zero_s")]
+    pub drift_start: String,
 }
 
 fn default_zero_bar() -> String {
@@ -432,6 +436,9 @@ pub struct TemperatureSection {
     /// Offset drift per year (`"0.1K"`).
     #[serde(default = "default_zero_k")]
     pub drift_per_year: String,
+    /// When the drift begins (`"0s"`, default: at the start).
+    #[serde(default = "default_zero_s")]
+    pub drift_start: String,
 }
 
 fn default_mount() -> Mount {
@@ -994,6 +1001,7 @@ impl ScenarioFile {
                 "sensors.pressure.offset_drift_per_year",
             )?,
             span_drift_per_year: ps.span_drift_per_year,
+            drift_start_s: duration_s(&ps.drift_start, "sensors.pressure.drift_start")?,
             noise_pa: units::pressure_pa(&ps.noise, "sensors.pressure.noise")?.abs(),
         };
         let ts = &self.sensors.temperature;
@@ -1027,6 +1035,7 @@ impl ScenarioFile {
                 &ts.drift_per_year,
                 "sensors.temperature.drift_per_year",
             )?,
+            drift_start_s: duration_s(&ts.drift_start, "sensors.temperature.drift_start")?,
             noise_k: kelvin_diff(&ts.noise, "sensors.temperature.noise")?.abs(),
         };
         let mut faults = Vec::new();

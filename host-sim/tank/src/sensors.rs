@@ -31,6 +31,11 @@ use rand::rngs::ChaCha8Rng;
 use rand::{RngExt, SeedableRng};
 use rand_distr::StandardNormal;
 
+/// Years a drift beginning at `start_s` has run at `t_s` (none before it).
+pub fn drift_years(t_s: f64, start_s: f64) -> f64 {
+    (t_s - start_s).max(0.0) / YEAR_S
+}
+
 /// Seconds per year (365.25 days), for drift rates.
 pub const YEAR_S: f64 = 365.25 * 86_400.0;
 
@@ -75,6 +80,8 @@ pub struct PressureSensor {
     pub offset_drift_pa_per_year: f64,
     /// Span drift, relative per year.
     pub span_drift_per_year: f64,
+    /// When the drifts begin, s from the start.
+    pub drift_start_s: f64,
     /// White noise, standard deviation, Pa.
     pub noise_pa: f64,
 }
@@ -94,6 +101,8 @@ pub struct TemperatureSensor {
     pub gain_error: f64,
     /// Offset drift, K per year.
     pub drift_k_per_year: f64,
+    /// When the drift begins, s from the start.
+    pub drift_start_s: f64,
     /// White noise, standard deviation, K.
     pub noise_k: f64,
 }
@@ -268,7 +277,6 @@ impl SensorPair {
     /// The codes of one sample at the truth's time.
     pub fn sample(&mut self, truth: &Truth) -> Result<Codes, Error> {
         let t = truth.t_s;
-        let years = t / YEAR_S;
         // Temperature element: first order towards what it touches.
         let touched = match self.temperature.mount {
             Mount::Wall => truth.wall_k,
@@ -295,10 +303,11 @@ impl SensorPair {
         let ts = &self.temperature;
         let t_read = el
             + ts.offset_k
-            + ts.drift_k_per_year * years
+            + ts.drift_k_per_year * drift_years(t, ts.drift_start_s)
             + ts.gain_error * (el - 273.15)
             + ts.noise_k * self.rng.sample::<f64, _>(StandardNormal);
         let ps = &self.pressure;
+        let years = drift_years(t, ps.drift_start_s);
         let p_read = truth.pressure_pa * (1.0 + ps.span_error + ps.span_drift_per_year * years)
             + ps.offset_pa
             + ps.offset_drift_pa_per_year * years

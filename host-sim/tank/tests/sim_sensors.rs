@@ -177,3 +177,78 @@ fn faults_are_reported_as_what_they_are() {
         );
     }
 }
+
+/// A drift that begins at a chosen time (`drift_start`): the workshop's
+/// pressure sensor drifts 36.525 bar a year (0.1 bar a day) from day one
+/// and its temperature sensor 36.525 K a year from day two. The readings
+/// equal those of the same run without drift (same seed: same weather,
+/// noise and instrument) before each start, and differ by exactly the
+/// drift since its start after it; the instrument in the summary names
+/// the starts.
+#[test]
+fn drifts_begin_when_the_scenario_says() {
+    use isochor_tank::run::{BackendKind, RunOptions, run};
+    let base = isochor_tank::scenario::BUILTIN
+        .iter()
+        .find(|(n, _)| *n == "workshop-leak")
+        .unwrap()
+        .1;
+    let drifting = base
+        .replacen(
+            "[sensors.pressure]\n",
+            "[sensors.pressure]\noffset_drift_per_year = \"36.525bar\"\ndrift_start = \"1d\"\n",
+            1,
+        )
+        .replacen(
+            "[sensors.temperature]\n",
+            "[sensors.temperature]\ndrift_per_year = \"36.525K\"\ndrift_start = \"2d\"\n",
+            1,
+        );
+    assert_ne!(drifting, base);
+    let opts = RunOptions {
+        backend: BackendKind::Fixed,
+        trace_every_s: 3600.0,
+        progress: false,
+    };
+    let cut = Some(3.0 * 86_400.0);
+    let a = run(&Scenario::from_toml(base).unwrap().with(cut, None), &opts).unwrap();
+    let b = run(
+        &Scenario::from_toml(&drifting).unwrap().with(cut, None),
+        &opts,
+    )
+    .unwrap();
+    assert_eq!(b.summary.instrument.pressure_drift_start_s, 86_400.0);
+    assert_eq!(
+        b.summary.instrument.temperature_drift_start_s,
+        2.0 * 86_400.0
+    );
+    let mut after = 0;
+    for (x, y) in a.trace.iter().zip(&b.trace) {
+        assert_eq!(x.t_s, y.t_s);
+        // Before the first start the gauge reads alike; after the second,
+        // its (smoothed) readings differ by the drift since each start,
+        // within a fixed-point step and the smoothing's lag.
+        if x.t_s <= 86_400.0 {
+            assert_eq!(x.mass_gauge_kg, y.mass_gauge_kg, "at {} s", x.t_s);
+        } else if x.t_s > 2.5 * 86_400.0 {
+            let (tx, ty) = (x.temperature_read_k.unwrap(), y.temperature_read_k.unwrap());
+            let want = 0.1 * (x.t_s - 2.0 * 86_400.0) / 86_400.0;
+            assert!(
+                (ty - tx - want).abs() < 0.02,
+                "at {} s: {} vs {want}",
+                x.t_s,
+                ty - tx
+            );
+            let (px, py) = (x.pressure_read_pa.unwrap(), y.pressure_read_pa.unwrap());
+            let want = 1e4 * (x.t_s - 86_400.0) / 86_400.0;
+            assert!(
+                (py - px - want).abs() < 500.0,
+                "at {} s: {} vs {want}",
+                x.t_s,
+                py - px
+            );
+            after += 1;
+        }
+    }
+    assert!(after > 10, "{after}");
+}
