@@ -176,25 +176,19 @@ fn population(name: &str, n: u64, duration_s: f64, seed0: u64) -> f64 {
         trace_every_s: 0.0,
         progress: false,
     };
-    let results: Vec<(u64, f64)> = (0..n)
+    let runs: Vec<_> = (0..n)
         .into_par_iter()
         .map(|seed| {
             let mut sc = base.clone().with(Some(duration_s), Some(seed0 + seed));
             sc.interval_ms = 10_000;
-            let s = run(&sc, &opts).unwrap().summary;
-            (s.judged_samples, s.uncertainty_coverage.unwrap())
+            run(&sc, &opts).unwrap().summary
         })
         .collect();
-    let (samples, covered) = results.iter().fold((0.0, 0.0), |(n, c), &(k, f)| {
-        (n + k as f64, c + f * k as f64)
-    });
-    let coverage = covered / samples;
-    let below_90 = results.iter().filter(|r| r.1 < 0.9).count();
-    eprintln!(
-        "{name}, {n} instruments: pooled coverage {:.1} % of {samples} samples; {below_90} instruments below 90 %",
-        coverage * 100.0
-    );
-    coverage
+    assert!(runs.iter().all(|r| r.uncertainty_coverage.is_some()));
+    // Pooled as `isochor sim --population` pools (weighted by judged samples).
+    let p = isochor_tank::population::Population::from_runs(&runs, seed0).unwrap();
+    eprint!("{}", p.render_text());
+    p.coverage_pooled.unwrap()
 }
 
 /// Two cold nights on methane: real-gas content at −25 °C, a draw that
