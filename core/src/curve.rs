@@ -31,6 +31,7 @@
 //! The error it reports is the largest seen on the fitting points; tests
 //! check curves exhaustively where the input space allows.
 
+use crate::error::{CurveSetting, Defect};
 use heapless::Vec;
 use zerocopy::{FromBytes, Immutable, IntoBytes, KnownLayout};
 
@@ -121,19 +122,19 @@ impl Curve<'_> {
     /// what they say.
     pub fn validate(&self) -> Result<(), Error> {
         let bad = Error::Malformed;
-        let first = self.pieces.first().ok_or(bad("curve without pieces"))?;
+        let first = self.pieces.first().ok_or(bad(Defect::CurveWithoutPieces))?;
         let increasing = self
             .pieces
             .windows(2)
             .all(|w| matches!(w, [a, b] if a.x < b.x));
         let last = self.pieces.last().map_or(first.x, |p| p.x);
         if !increasing || self.end <= last {
-            return Err(bad("curve pieces out of order"));
+            return Err(bad(Defect::CurvePiecesOrder));
         }
         if !(MIN_EXTRA..=MAX_EXTRA).contains(&self.extra)
             || self.pieces.iter().any(|p| p.shift > 31)
         {
-            return Err(bad("curve scale"));
+            return Err(bad(Defect::CurveScale));
         }
         Ok(())
     }
@@ -213,7 +214,7 @@ impl CurveBuf {
     ) -> Result<(CurveBuf, f64), Error> {
         let increasing = initial.windows(2).all(|w| matches!(w, [a, b] if a < b));
         if initial.len() < 2 || !increasing || initial.len() > MAX_PIECES + 1 {
-            return Err(Error::OutOfRange("curve domain"));
+            return Err(Error::OutOfRange(CurveSetting::Domain.into()));
         }
         let end = initial.last().copied().unwrap_or(0);
         let fit_all = |knots: &[i32]| -> Result<Vec<Fitted, MAX_PIECES>, Error> {
@@ -222,7 +223,7 @@ impl CurveBuf {
                 if let &[a, b] = w {
                     let piece = Fitted::new(f, a, b, b == end, weight)?;
                     v.push(piece)
-                        .map_err(|_| Error::OutOfRange("curve pieces"))?;
+                        .map_err(|_| Error::OutOfRange(CurveSetting::Pieces.into()))?;
                 }
             }
             Ok(v)
@@ -406,7 +407,7 @@ fn quantise(
         extra += 1;
     }
     if big * libm::exp2(extra as f64) > room {
-        return Err(Error::OutOfRange("curve values (beyond the output format)"));
+        return Err(Error::OutOfRange(CurveSetting::Values.into()));
     }
     let scale = libm::exp2(extra as f64);
     let mut curve = CurveBuf {
@@ -424,7 +425,7 @@ fn quantise(
                 shift: p.shift as u32,
                 c,
             })
-            .map_err(|_| Error::OutOfRange("curve pieces"))?;
+            .map_err(|_| Error::OutOfRange(CurveSetting::Pieces.into()))?;
     }
     let view = curve.curve();
     let mut worst = 0.0f64;
@@ -523,7 +524,7 @@ fn finite(v: f64) -> Result<f64, Error> {
     if v.is_finite() {
         Ok(v)
     } else {
-        Err(Error::NotFinite("curve function"))
+        Err(Error::NotFinite(CurveSetting::Function.into()))
     }
 }
 

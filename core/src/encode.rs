@@ -15,6 +15,7 @@
 //! 32-bit arithmetic (a Cortex-M0 has no 64-bit shifts). The tests compare it
 //! with postcard byte for byte.
 
+use crate::error::Defect;
 use serde::Serialize;
 use serde::ser;
 
@@ -32,7 +33,7 @@ pub fn to_slice<T: Serialize + ?Sized>(value: &T, out: &mut [u8]) -> Result<usiz
     match value.serialize(&mut w) {
         Ok(()) => Ok(w.at),
         Err(Fault::Full) => Err(Error::BufferTooSmall),
-        Err(Fault::Unsupported) => Err(Error::Malformed("value without a postcard encoding")),
+        Err(Fault::Unsupported) => Err(Error::Malformed(Defect::NoPostcardEncoding)),
     }
 }
 

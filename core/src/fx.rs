@@ -330,15 +330,16 @@ pub const fn sat_u32(value: u64) -> (u32, bool) {
 }
 
 /// Converts an `f64` to a fixed-point value by rounding to nearest.
-/// Errors name `what` when the value is not finite or does not fit.
+/// Errors name `what` (a [`Quantity`](crate::Quantity) or one of its groups)
+/// when the value is not finite or does not fit.
 pub fn from_f64<T: fixed::traits::Fixed>(
     value: f64,
-    what: &'static str,
+    what: impl Into<crate::error::Quantity>,
 ) -> Result<T, crate::Error> {
     if !value.is_finite() {
-        return Err(crate::Error::NotFinite(what));
+        return Err(crate::Error::NotFinite(what.into()));
     }
-    T::checked_from_num(value).ok_or(crate::Error::OutOfRange(what))
+    T::checked_from_num(value).ok_or(crate::Error::OutOfRange(what.into()))
 }
 
 /// Exact `f64` value of a fixed-point number.

@@ -14,6 +14,7 @@
 //! table of another composition.
 
 use crate::Error;
+use crate::error::TankSetting;
 use crate::fx::{self, Coef};
 
 /// A gas this crate knows by name.
@@ -98,7 +99,7 @@ impl Composition {
     /// increasing, positive fractions summing to one within 1e-6 (the rule
     /// of `--gas`).
     pub fn validate(&self) -> Result<(), Error> {
-        let bad = Error::OutOfRange("composition");
+        let bad = Error::OutOfRange(TankSetting::Composition.into());
         let mut last = 0u8;
         let mut sum = 0u64;
         for &(i, f) in &self.parts {

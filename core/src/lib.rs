@@ -51,7 +51,7 @@ pub mod content;
 pub mod curve;
 pub mod encode;
 pub mod envelope;
-mod error;
+pub mod error;
 pub mod field;
 pub mod fx;
 pub mod fxmath;
@@ -69,7 +69,10 @@ pub mod time;
 pub mod track;
 pub mod uncertainty;
 
-pub use error::Error;
+pub use error::{
+    AlarmSetting, Condition, CurveSetting, Defect, DeviceSetting, Error, FieldSetting, Measured,
+    ModelDefect, Quantity, SensorSetting, TankSetting, TrackSetting, UncertaintyInput,
+};
 /// The fixed-point crate the device formats come from (re-exported so users
 /// name the same types).
 pub use fixed;

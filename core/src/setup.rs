@@ -6,6 +6,7 @@
 
 use crate::constants::{STANDARD_ATMOSPHERE_PA, ZERO_CELSIUS_K, fahrenheit_to_kelvin};
 use crate::envelope as env;
+use crate::error::TankSetting;
 use crate::{Error, Gas, Real, fx};
 
 /// A pressure vessel, float form.
@@ -51,35 +52,35 @@ impl<F: Real> Tank<F> {
             env::CAPACITY_MIN_M3,
             env::CAPACITY_MAX_M3,
             ULP_VOLUME,
-            "water capacity",
+            TankSetting::WaterCapacity,
         )?;
         check(
             self.rated_pressure_pa,
             env::RATED_PRESSURE_MIN_PA,
             env::PRESSURE_MAX_PA,
             ULP_PRESSURE,
-            "rated pressure",
+            TankSetting::RatedPressure,
         )?;
         check(
             self.rated_temperature_k,
             env::TEMPERATURE_MIN_K,
             env::TEMPERATURE_MAX_K,
             ULP_TEMPERATURE,
-            "rated temperature",
+            TankSetting::RatedTemperature,
         )?;
         check(
             self.elastic_expansion_per_mpa,
             0.0,
             env::ELASTIC_EXPANSION_MAX_PER_MPA,
             ULP_EXPANSION,
-            "elastic expansion",
+            TankSetting::ElasticExpansion,
         )?;
         check(
             self.thermal_expansion_per_k,
             -env::THERMAL_EXPANSION_MAX_PER_K,
             env::THERMAL_EXPANSION_MAX_PER_K,
             ULP_EXPANSION,
-            "thermal expansion",
+            TankSetting::ThermalExpansion,
         )
     }
 }
@@ -92,13 +93,13 @@ const ULP_PRESSURE: f64 = 1.0 / 16.0;
 const ULP_TEMPERATURE: f64 = 1.0 / 65_536.0;
 const ULP_EXPANSION: f64 = 1.0 / 4_294_967_296.0;
 
-fn check<F: Real>(v: F, lo: f64, hi: f64, ulp: f64, what: &'static str) -> Result<(), Error> {
+fn check<F: Real>(v: F, lo: f64, hi: f64, ulp: f64, what: TankSetting) -> Result<(), Error> {
     if !v.is_finite() {
-        return Err(Error::NotFinite(what));
+        return Err(Error::NotFinite(what.into()));
     }
     let x = v.to_f64();
     if x < lo - ulp || x > hi + ulp {
-        return Err(Error::OutOfRange(what));
+        return Err(Error::OutOfRange(what.into()));
     }
     Ok(())
 }
@@ -124,14 +125,20 @@ impl TankFx {
     pub fn from_f64(t: &Tank<f64>) -> Result<TankFx, Error> {
         t.validate()?;
         let fx = TankFx {
-            water_capacity_m3: fx::from_f64(t.water_capacity_m3, "water capacity")?,
-            rated_pressure_pa: fx::from_f64(t.rated_pressure_pa, "rated pressure")?,
-            rated_temperature_k: fx::from_f64(t.rated_temperature_k, "rated temperature")?,
+            water_capacity_m3: fx::from_f64(t.water_capacity_m3, TankSetting::WaterCapacity)?,
+            rated_pressure_pa: fx::from_f64(t.rated_pressure_pa, TankSetting::RatedPressure)?,
+            rated_temperature_k: fx::from_f64(
+                t.rated_temperature_k,
+                TankSetting::RatedTemperature,
+            )?,
             elastic_expansion_per_mpa: fx::from_f64(
                 t.elastic_expansion_per_mpa,
-                "elastic expansion",
+                TankSetting::ElasticExpansion,
             )?,
-            thermal_expansion_per_k: fx::from_f64(t.thermal_expansion_per_k, "thermal expansion")?,
+            thermal_expansion_per_k: fx::from_f64(
+                t.thermal_expansion_per_k,
+                TankSetting::ThermalExpansion,
+            )?,
         };
         fx.validate()?;
         Ok(fx)
@@ -153,22 +160,22 @@ impl TankFx {
         // 0.1 L = 1e-4 m³ → U24F40 bits 109_951_162.8 (rounded down).
         let cap = self.water_capacity_m3.to_bits();
         if !(109_951_162..=100u64 << 40).contains(&cap) {
-            return Err(Error::OutOfRange("water capacity"));
+            return Err(Error::OutOfRange(TankSetting::WaterCapacity.into()));
         }
         let pr = self.rated_pressure_pa.to_bits();
         if !(1_600_000..=env::PRESSURE_MAX.to_bits()).contains(&pr) {
-            return Err(Error::OutOfRange("rated pressure"));
+            return Err(Error::OutOfRange(TankSetting::RatedPressure.into()));
         }
         if !(env::TEMPERATURE_MIN..=env::TEMPERATURE_MAX).contains(&self.rated_temperature_k) {
-            return Err(Error::OutOfRange("rated temperature"));
+            return Err(Error::OutOfRange(TankSetting::RatedTemperature.into()));
         }
         // 1e-3 per MPa → U0F32 bits 4_294_967.3 (rounded up).
         if self.elastic_expansion_per_mpa.to_bits() > 4_294_968 {
-            return Err(Error::OutOfRange("elastic expansion"));
+            return Err(Error::OutOfRange(TankSetting::ElasticExpansion.into()));
         }
         // 1e-4 per K → I0F32 bits 429_496.7 (rounded up).
         if self.thermal_expansion_per_k.to_bits().unsigned_abs() > 429_497 {
-            return Err(Error::OutOfRange("thermal expansion"));
+            return Err(Error::OutOfRange(TankSetting::ThermalExpansion.into()));
         }
         Ok(())
     }
@@ -228,14 +235,14 @@ impl<F: Real> StandardCondition<F> {
             env::TEMPERATURE_MIN_K,
             env::TEMPERATURE_MAX_K,
             ULP_TEMPERATURE,
-            "standard temperature",
+            TankSetting::StandardTemperature,
         )?;
         check(
             self.pressure_pa,
             env::STANDARD_PRESSURE_MIN_PA,
             env::STANDARD_PRESSURE_MAX_PA,
             ULP_PRESSURE,
-            "standard pressure",
+            TankSetting::StandardPressure,
         )
     }
 }
@@ -285,7 +292,7 @@ impl<F: Real> Setup<F> {
             env::TEMPERATURE_MIN_K,
             env::TEMPERATURE_MAX_K,
             ULP_TEMPERATURE,
-            "settled reference temperature",
+            TankSetting::SettledReferenceTemperature,
         )
     }
 }
@@ -312,12 +319,15 @@ impl SetupFx {
             gas: s.gas,
             tank: TankFx::from_f64(&s.tank)?,
             standard: StandardConditionFx {
-                temperature_k: fx::from_f64(s.standard.temperature_k, "standard temperature")?,
-                pressure_pa: fx::from_f64(s.standard.pressure_pa, "standard pressure")?,
+                temperature_k: fx::from_f64(
+                    s.standard.temperature_k,
+                    TankSetting::StandardTemperature,
+                )?,
+                pressure_pa: fx::from_f64(s.standard.pressure_pa, TankSetting::StandardPressure)?,
             },
             settled_reference_k: fx::from_f64(
                 s.settled_reference_k,
-                "settled reference temperature",
+                TankSetting::SettledReferenceTemperature,
             )?,
         };
         fx.validate()?;
@@ -342,14 +352,16 @@ impl SetupFx {
         self.tank.validate()?;
         let t_ok = env::TEMPERATURE_MIN..=env::TEMPERATURE_MAX;
         if !t_ok.contains(&self.standard.temperature_k) {
-            return Err(Error::OutOfRange("standard temperature"));
+            return Err(Error::OutOfRange(TankSetting::StandardTemperature.into()));
         }
         // 50 kPa … 200 kPa in U28F4 bits.
         if !(800_000..=3_200_000).contains(&self.standard.pressure_pa.to_bits()) {
-            return Err(Error::OutOfRange("standard pressure"));
+            return Err(Error::OutOfRange(TankSetting::StandardPressure.into()));
         }
         if !t_ok.contains(&self.settled_reference_k) {
-            return Err(Error::OutOfRange("settled reference temperature"));
+            return Err(Error::OutOfRange(
+                TankSetting::SettledReferenceTemperature.into(),
+            ));
         }
         Ok(())
     }
@@ -384,14 +396,23 @@ mod tests {
     fn limits_are_enforced_in_both_forms() {
         let mut t = tank();
         t.water_capacity_m3 = 0.5e-4;
-        assert_eq!(t.validate(), Err(Error::OutOfRange("water capacity")));
+        assert_eq!(
+            t.validate(),
+            Err(Error::OutOfRange(TankSetting::WaterCapacity.into()))
+        );
         assert!(TankFx::from_f64(&t).is_err());
         let mut t = tank();
         t.rated_pressure_pa = f64::NAN;
-        assert_eq!(t.validate(), Err(Error::NotFinite("rated pressure")));
+        assert_eq!(
+            t.validate(),
+            Err(Error::NotFinite(TankSetting::RatedPressure.into()))
+        );
         let mut t = tank();
         t.thermal_expansion_per_k = -2e-4;
-        assert_eq!(t.validate(), Err(Error::OutOfRange("thermal expansion")));
+        assert_eq!(
+            t.validate(),
+            Err(Error::OutOfRange(TankSetting::ThermalExpansion.into()))
+        );
         // Edges are accepted in both forms.
         let mut t = tank();
         t.water_capacity_m3 = env::CAPACITY_MIN_M3;

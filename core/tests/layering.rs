@@ -50,12 +50,12 @@ const LAYERS: &[&str] = &[
 fn root_items() -> BTreeMap<String, String> {
     let lib = std::fs::read_to_string(src().join("lib.rs")).unwrap();
     let mut items = BTreeMap::new();
-    for line in strip_comments(&lib).lines() {
-        let line = line.trim();
-        let Some(rest) = line.strip_prefix("pub use ") else {
+    // One statement at a time: a `pub use` may span lines.
+    for statement in strip_comments(&lib).split(';') {
+        let statement = statement.split_whitespace().collect::<Vec<_>>().join(" ");
+        let Some(rest) = statement.rsplit_once("pub use ").map(|(_, r)| r) else {
             continue;
         };
-        let rest = rest.trim_end_matches(';');
         let (module, names) = match rest.split_once("::") {
             Some((m, n)) => (m.to_string(), n),
             None => continue,

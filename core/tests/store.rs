@@ -107,7 +107,9 @@ fn out_of_range_values_are_never_stored() {
     };
     assert_eq!(
         a.store(&mut flash, &s),
-        Err(isochor_core::Error::OutOfRange("pressure zero offset"))
+        Err(isochor_core::Error::OutOfRange(
+            isochor_core::SensorSetting::PressureZeroOffset.into()
+        ))
     );
     assert_eq!(flash.bytes_written(), 0);
     assert_eq!(flash.erases(), 0);

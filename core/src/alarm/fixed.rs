@@ -3,6 +3,7 @@
 
 use super::float::Limits;
 use super::{AlarmKind, AlarmSet};
+use crate::error::AlarmSetting;
 use crate::time::Millis;
 use crate::{Error, TankFx, fx};
 
@@ -36,17 +37,23 @@ impl LimitsFx {
     pub fn from_f64(l: &Limits<f64>) -> Result<LimitsFx, Error> {
         l.validate()?;
         Ok(LimitsFx {
-            low_fraction: fx::from_f64(l.low_fraction, "low fraction")?,
+            low_fraction: fx::from_f64(l.low_fraction, AlarmSetting::LowFraction)?,
             low_time_to_empty: l.low_time_to_empty,
-            fraction_hysteresis: fx::from_f64(l.fraction_hysteresis, "fraction hysteresis")?,
-            over_fill_fraction: fx::from_f64(l.over_fill_fraction, "over-fill fraction")?,
-            pressure_max_pa: fx::from_f64(l.pressure_max_pa, "maximum pressure")?,
-            pressure_hysteresis_pa: fx::from_f64(l.pressure_hysteresis_pa, "pressure hysteresis")?,
-            temperature_max_k: fx::from_f64(l.temperature_max_k, "maximum temperature")?,
-            temperature_min_k: fx::from_f64(l.temperature_min_k, "minimum temperature")?,
+            fraction_hysteresis: fx::from_f64(
+                l.fraction_hysteresis,
+                AlarmSetting::FractionHysteresis,
+            )?,
+            over_fill_fraction: fx::from_f64(l.over_fill_fraction, AlarmSetting::OverFillFraction)?,
+            pressure_max_pa: fx::from_f64(l.pressure_max_pa, AlarmSetting::MaximumPressure)?,
+            pressure_hysteresis_pa: fx::from_f64(
+                l.pressure_hysteresis_pa,
+                AlarmSetting::PressureHysteresis,
+            )?,
+            temperature_max_k: fx::from_f64(l.temperature_max_k, AlarmSetting::MaximumTemperature)?,
+            temperature_min_k: fx::from_f64(l.temperature_min_k, AlarmSetting::MinimumTemperature)?,
             temperature_hysteresis_k: fx::from_f64(
                 l.temperature_hysteresis_k,
-                "temperature hysteresis",
+                AlarmSetting::TemperatureHysteresis,
             )?,
         })
     }
@@ -98,33 +105,52 @@ impl LimitsFx {
     /// pressures ≤ 2000 bar, temperatures ≤ 1000 K, temperature hysteresis
     /// ≤ 100 K; the formats cannot be negative).
     pub fn validate(&self) -> Result<(), Error> {
-        let fraction = |v: fx::Fraction, max: u64, what| {
+        let fraction = |v: fx::Fraction, max: u64, what: AlarmSetting| {
             if v.to_bits() > max << 32 {
-                Err(Error::OutOfRange(what))
+                Err(Error::OutOfRange(what.into()))
             } else {
                 Ok(())
             }
         };
-        fraction(self.low_fraction, 16, "low fraction")?;
-        fraction(self.fraction_hysteresis, 1, "fraction hysteresis")?;
-        fraction(self.over_fill_fraction, 16, "over-fill fraction")?;
+        fraction(self.low_fraction, 16, AlarmSetting::LowFraction)?;
+        fraction(
+            self.fraction_hysteresis,
+            1,
+            AlarmSetting::FractionHysteresis,
+        )?;
+        fraction(self.over_fill_fraction, 16, AlarmSetting::OverFillFraction)?;
         // 2e8 Pa in Pressure bits.
         const P_MAX: u32 = 3_200_000_000;
         for (v, what) in [
-            (self.pressure_max_pa, "maximum pressure"),
-            (self.pressure_hysteresis_pa, "pressure hysteresis"),
+            (self.pressure_max_pa, AlarmSetting::MaximumPressure),
+            (
+                self.pressure_hysteresis_pa,
+                AlarmSetting::PressureHysteresis,
+            ),
         ] {
             if v.to_bits() > P_MAX {
-                return Err(Error::OutOfRange(what));
+                return Err(Error::OutOfRange(what.into()));
             }
         }
         for (v, max, what) in [
-            (self.temperature_max_k, 1000, "maximum temperature"),
-            (self.temperature_min_k, 1000, "minimum temperature"),
-            (self.temperature_hysteresis_k, 100, "temperature hysteresis"),
+            (
+                self.temperature_max_k,
+                1000,
+                AlarmSetting::MaximumTemperature,
+            ),
+            (
+                self.temperature_min_k,
+                1000,
+                AlarmSetting::MinimumTemperature,
+            ),
+            (
+                self.temperature_hysteresis_k,
+                100,
+                AlarmSetting::TemperatureHysteresis,
+            ),
         ] {
             if v.to_bits() > max << 16 {
-                return Err(Error::OutOfRange(what));
+                return Err(Error::OutOfRange(what.into()));
             }
         }
         Ok(())

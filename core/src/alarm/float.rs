@@ -3,6 +3,7 @@
 
 use super::{AlarmKind, AlarmSet};
 use crate::constants::{STANDARD_ATMOSPHERE_PA, ZERO_CELSIUS_K};
+use crate::error::AlarmSetting;
 use crate::time::Millis;
 use crate::{Error, Real, Tank};
 
@@ -90,25 +91,45 @@ impl<F: Real> Limits<F> {
     /// pressures 0 … 2000 bar, temperatures 0 … 1000 K.
     pub fn validate(&self) -> Result<(), Error> {
         let checks = [
-            (self.low_fraction, 16.0, "low fraction"),
-            (self.fraction_hysteresis, 1.0, "fraction hysteresis"),
-            (self.over_fill_fraction, 16.0, "over-fill fraction"),
-            (self.pressure_max_pa, 2e8, "maximum pressure"),
-            (self.pressure_hysteresis_pa, 2e8, "pressure hysteresis"),
-            (self.temperature_max_k, 1000.0, "maximum temperature"),
-            (self.temperature_min_k, 1000.0, "minimum temperature"),
+            (self.low_fraction, 16.0, AlarmSetting::LowFraction),
+            (
+                self.fraction_hysteresis,
+                1.0,
+                AlarmSetting::FractionHysteresis,
+            ),
+            (
+                self.over_fill_fraction,
+                16.0,
+                AlarmSetting::OverFillFraction,
+            ),
+            (self.pressure_max_pa, 2e8, AlarmSetting::MaximumPressure),
+            (
+                self.pressure_hysteresis_pa,
+                2e8,
+                AlarmSetting::PressureHysteresis,
+            ),
+            (
+                self.temperature_max_k,
+                1000.0,
+                AlarmSetting::MaximumTemperature,
+            ),
+            (
+                self.temperature_min_k,
+                1000.0,
+                AlarmSetting::MinimumTemperature,
+            ),
             (
                 self.temperature_hysteresis_k,
                 100.0,
-                "temperature hysteresis",
+                AlarmSetting::TemperatureHysteresis,
             ),
         ];
         for (v, hi, what) in checks {
             if !v.is_finite() {
-                return Err(Error::NotFinite(what));
+                return Err(Error::NotFinite(what.into()));
             }
             if v < F::ZERO || v > F::lit(hi) {
-                return Err(Error::OutOfRange(what));
+                return Err(Error::OutOfRange(what.into()));
             }
         }
         Ok(())

@@ -4,6 +4,7 @@
 
 use super::Zero;
 use crate::content::fixed::Estimator;
+use crate::error::DeviceSetting;
 use crate::prepared::{Prepared, PreparedModel};
 use crate::probe::{self, Stage};
 use crate::sensor::channel::RawSample;
@@ -50,7 +51,7 @@ impl<B: AsRef<[u8]> + Clone> Pipeline<B> {
     pub fn new(prepared: Prepared<B>, zero: Zero) -> Result<Self, Error> {
         let mut slot = None;
         Self::new_in(&mut slot, prepared, zero)?;
-        slot.ok_or(Error::OutOfRange("configuration"))
+        slot.ok_or(Error::OutOfRange(DeviceSetting::Configuration.into()))
     }
 
     /// [`Pipeline::new`] straight into `slot` (`None` after an error): a

@@ -206,7 +206,7 @@ impl<F: NorFlash> Service<F> {
 /// [`Refusal::BadConfig`].
 pub fn config_refusal(e: Error) -> Refusal {
     match e {
-        Error::OutOfRange(why) | Error::NotFinite(why) => Refusal::bad_config(why),
+        Error::OutOfRange(why) | Error::NotFinite(why) => Refusal::bad_config(why.text()),
         e => match refusal(e) {
             r @ Refusal::BadConfig { .. } => r,
             _ => Refusal::bad_config("configuration content"),
@@ -223,14 +223,14 @@ pub fn refusal(e: Error) -> Refusal {
         Error::LockedOut(ms) => Refusal::LockedOut {
             retry_after_ms: u32::try_from(ms).unwrap_or(u32::MAX),
         },
-        Error::OutOfRange(field) | Error::NotFinite(field) => Refusal::out_of_range(field),
+        Error::OutOfRange(field) | Error::NotFinite(field) => Refusal::out_of_range(field.text()),
         Error::ChunkOrder(expected) => Refusal::ChunkOrder { expected },
         Error::BlobCrc => Refusal::BlobCrc,
         Error::RecordTooLarge => Refusal::BlobTooLarge,
         Error::Flash | Error::SequenceExhausted | Error::StoreLayout => Refusal::Storage,
-        Error::Malformed(why) | Error::ModelData(why) | Error::ModelUnusable(why) => {
-            Refusal::bad_config(why)
-        }
+        Error::Malformed(why) => Refusal::bad_config(why.text()),
+        Error::ModelData(why) => Refusal::bad_config(why.text()),
+        Error::ModelUnusable(why) => Refusal::bad_config(why.text()),
         Error::ChecksumMismatch => Refusal::bad_config("configuration checksum"),
         Error::ProtocolVersion(_) => Refusal::bad_config("configuration format version"),
         _ => Refusal::Unsupported,

@@ -27,6 +27,7 @@
 //! The secret never leaves the device and is never sent: it is not a record
 //! and no request reads it.
 
+use crate::error::DeviceSetting;
 use hmac::{Hmac, KeyInit, Mac};
 use sha2::Sha256;
 
@@ -74,7 +75,7 @@ impl Secret {
         let text = text.trim();
         let mut out = [0u8; SECRET_LEN];
         if text.len() != 2 * SECRET_LEN {
-            return Err(Error::OutOfRange("secret length (64 hex digits)"));
+            return Err(Error::OutOfRange(DeviceSetting::SecretLength.into()));
         }
         for (byte, pair) in out.iter_mut().zip(text.as_bytes().chunks_exact(2)) {
             let hi = hex_digit(pair.first().copied())?;
@@ -173,7 +174,7 @@ fn hex_digit(c: Option<u8>) -> Result<u8, Error> {
         Some(c @ b'0'..=b'9') => Ok(c - b'0'),
         Some(c @ b'a'..=b'f') => Ok(c - b'a' + 10),
         Some(c @ b'A'..=b'F') => Ok(c - b'A' + 10),
-        _ => Err(Error::OutOfRange("secret (hex digits only)")),
+        _ => Err(Error::OutOfRange(DeviceSetting::SecretDigits.into())),
     }
 }
 

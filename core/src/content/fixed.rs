@@ -12,6 +12,7 @@
 use super::{OVER_FILL_FRACTION_BITS, SETTLE_ITERATIONS, SETTLE_SLOPE_MIN};
 use crate::constants::MOLAR_GAS_CONSTANT_J_MOL_K;
 use crate::envelope as env;
+use crate::error::{Condition, Defect};
 use crate::fx::{self, Coef, mul_i32, mul_u32, sat_u32, shr_round, shr_round_i64};
 use crate::fxmath;
 use crate::model::{CompressibilityFx, IsothermFx, ZPointFx};
@@ -228,7 +229,7 @@ impl<M: CompressibilityFx> Estimator<M> {
     pub fn new(setup: SetupFx, model: M) -> Result<Self, Error> {
         setup.validate()?;
         if model.gas() != setup.gas {
-            return Err(Error::ModelUnusable("gas of the setup"));
+            return Err(Error::ModelUnusable(Condition::GasOfSetup));
         }
         let k = setup.gas.m_over_r();
         let inv_molar_mass = setup.gas.inv_molar_mass();
@@ -242,7 +243,7 @@ impl<M: CompressibilityFx> Estimator<M> {
         ))?;
         let inv_z_floor = Coef::from_raw(model.z_floor().to_bits() as u64, Z_FRAC)
             .recip()
-            .ok_or(Error::ModelUnusable("lowest compressibility factor"))?;
+            .ok_or(Error::ModelUnusable(Condition::LowestCompressibility))?;
         let bound = Coef::from_raw(env::PRESSURE_MAX.to_bits() as u64, P_FRAC)
             .mul(k)
             .mul(inv_t_min)
@@ -282,7 +283,7 @@ impl<M: CompressibilityFx> Estimator<M> {
         let (p_r, t_r) = (tank.rated_pressure_pa, tank.rated_temperature_k);
         let zr = est.model.z_fx(p_r, t_r);
         if zr.flags.intersects(Status::CONTENT_INVALID) {
-            return Err(Error::ModelUnusable("rated condition"));
+            return Err(Error::ModelUnusable(Condition::RatedCondition));
         }
         let (rho, _) = est.density(p_r.to_bits(), t_r.to_bits(), zr.z.to_bits());
         let vf = est.vessel_factor(p_r.to_bits(), t_r.to_bits());
@@ -290,12 +291,12 @@ impl<M: CompressibilityFx> Estimator<M> {
         est.rho_v_rated = rho_v_rated;
         est.fraction = Coef::from_raw(rho_v_rated as u64, rho_shift)
             .recip()
-            .ok_or(Error::ModelUnusable("rated condition"))?;
+            .ok_or(Error::ModelUnusable(Condition::RatedCondition))?;
 
         let std = setup.standard;
         let zs = est.model.z_fx(std.pressure_pa, std.temperature_k);
         if zs.flags.intersects(Status::CONTENT_INVALID) {
-            return Err(Error::ModelUnusable("standard condition"));
+            return Err(Error::ModelUnusable(Condition::StandardCondition));
         }
         est.standard_volume = amount
             .mul(zs.z_coef())
@@ -480,10 +481,10 @@ impl<M: CompressibilityFx> Estimator<M> {
     /// the settled pressure is solved at each sample.
     pub fn from_parts(parts: EstimatorParts, model: M) -> Result<Self, Error> {
         if model.gas() != parts.setup.gas {
-            return Err(Error::ModelUnusable("gas of the setup"));
+            return Err(Error::ModelUnusable(Condition::GasOfSetup));
         }
         if !(8..=31).contains(&parts.rho_shift) || parts.rho_v_rated == 0 {
-            return Err(Error::Malformed("estimator constants"));
+            return Err(Error::Malformed(Defect::EstimatorConstants));
         }
         Ok(Estimator {
             setup: parts.setup,
@@ -797,7 +798,8 @@ impl ZPointFx {
 
 /// Reciprocal of a constant that cannot be zero by construction.
 fn recip(c: Coef) -> Result<Coef, Error> {
-    c.recip().ok_or(Error::ModelUnusable("reference condition"))
+    c.recip()
+        .ok_or(Error::ModelUnusable(Condition::ReferenceCondition))
 }
 
 /// `a·b` with `b` in Q30, rounded; the flag is true when it saturated.

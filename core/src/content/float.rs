@@ -4,6 +4,7 @@
 use super::{OVER_FILL_FRACTION, SETTLE_ITERATIONS, SETTLE_SLOPE_MIN};
 use crate::constants::{MOLAR_GAS_CONSTANT_J_MOL_K, STANDARD_ATMOSPHERE_PA};
 use crate::envelope as env;
+use crate::error::{Condition, Measured};
 use crate::model::{Compressibility, ZPoint};
 use crate::{Error, Real, Setup, Status};
 
@@ -66,7 +67,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
     pub fn new(setup: Setup<F>, model: M) -> Result<Self, Error> {
         setup.validate()?;
         if model.gas() != setup.gas {
-            return Err(Error::ModelUnusable("gas of the setup"));
+            return Err(Error::ModelUnusable(Condition::GasOfSetup));
         }
         let r = F::lit(MOLAR_GAS_CONSTANT_J_MOL_K);
         let molar_mass = F::lit(setup.gas.molar_mass_kg_mol());
@@ -89,7 +90,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
         let (p_r, t_r) = (tank.rated_pressure_pa, tank.rated_temperature_k);
         let zr = est.model.z(p_r, t_r);
         if zr.flags.intersects(Status::CONTENT_INVALID) {
-            return Err(Error::ModelUnusable("rated condition"));
+            return Err(Error::ModelUnusable(Condition::RatedCondition));
         }
         est.rho_v_rated = est.density(p_r, t_r, zr.z) * est.vessel_factor(p_r, t_r);
         est.fraction_per_rho_v = F::ONE / est.rho_v_rated;
@@ -97,7 +98,7 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
         let std = setup.standard;
         let zs = est.model.z(std.pressure_pa, std.temperature_k);
         if zs.flags.intersects(Status::CONTENT_INVALID) {
-            return Err(Error::ModelUnusable("standard condition"));
+            return Err(Error::ModelUnusable(Condition::StandardCondition));
         }
         est.standard_volume_per_rho_v =
             est.amount_per_rho_v * zs.z * r * std.temperature_k / std.pressure_pa;
@@ -126,10 +127,10 @@ impl<F: Real, M: Compressibility<F>> Estimator<F, M> {
     /// is not valid: [`Status::CONTENT_INVALID`]).
     pub fn estimate(&self, pressure_pa: F, temperature_k: F) -> Result<Content<F>, Error> {
         if !pressure_pa.is_finite() {
-            return Err(Error::NotFinite("pressure"));
+            return Err(Error::NotFinite(Measured::Pressure.into()));
         }
         if !temperature_k.is_finite() {
-            return Err(Error::NotFinite("temperature"));
+            return Err(Error::NotFinite(Measured::Temperature.into()));
         }
         let (p, t, mut status) = clamp_inputs(pressure_pa, temperature_k);
         status |= self.setup_status;
@@ -307,11 +308,11 @@ mod tests {
         let e = nitrogen_50l();
         assert_eq!(
             e.estimate(f64::NAN, 300.0),
-            Err(Error::NotFinite("pressure"))
+            Err(Error::NotFinite(Measured::Pressure.into()))
         );
         assert_eq!(
             e.estimate(1e5, f64::INFINITY),
-            Err(Error::NotFinite("temperature"))
+            Err(Error::NotFinite(Measured::Temperature.into()))
         );
     }
 

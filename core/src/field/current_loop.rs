@@ -16,6 +16,7 @@
 //! ([`LoopScalars::current`]). [`current_f64`] is the reference the tests
 //! hold it to.
 
+use crate::error::FieldSetting;
 use serde::{Deserialize, Serialize};
 
 use super::{ma, q24};
@@ -133,10 +134,10 @@ impl LoopOutputConfig {
     pub fn validate(&self) -> Result<(), Error> {
         let (lo, hi) = (self.lower.to_bits(), self.upper.to_bits());
         if lo.abs() > END_MAX || hi.abs() > END_MAX {
-            return Err(Error::OutOfRange("loop output range end"));
+            return Err(Error::OutOfRange(FieldSetting::LoopOutputRangeEnd.into()));
         }
         if hi - lo < 1 << 8 {
-            return Err(Error::OutOfRange("loop output range (lower < upper)"));
+            return Err(Error::OutOfRange(FieldSetting::LoopOutputRangeOrder.into()));
         }
         Ok(())
     }
@@ -198,7 +199,7 @@ impl LoopScalars {
         }
         let gain = libm::round(per_unit * libm::ldexp(1.0, i32::from(gain_shift)));
         if !(1.0..=u32::MAX as f64).contains(&gain) {
-            return Err(Error::OutOfRange("loop output range"));
+            return Err(Error::OutOfRange(FieldSetting::LoopOutputRange.into()));
         }
         let s = LoopScalars {
             quantity: c.quantity,
@@ -218,7 +219,7 @@ impl LoopScalars {
         if self.gain == 0 {
             return Ok(());
         }
-        let bad = Error::OutOfRange("loop output");
+        let bad = Error::OutOfRange(FieldSetting::LoopOutput.into());
         if self.lo.abs() > 2 * END_MAX || self.hi.abs() > 2 * END_MAX || self.hi <= self.lo {
             return Err(bad);
         }

@@ -13,6 +13,7 @@ pub mod current_loop;
 #[cfg(feature = "modbus")]
 pub mod modbus;
 
+use crate::error::FieldSetting;
 use serde::{Deserialize, Serialize};
 
 use crate::{Error, fx};
@@ -83,10 +84,10 @@ impl SerialSettings {
     /// Checks the address and the baud rate.
     pub fn validate(&self) -> Result<(), Error> {
         if !(1..=247).contains(&self.address) {
-            return Err(Error::OutOfRange("Modbus address (1 … 247)"));
+            return Err(Error::OutOfRange(FieldSetting::ModbusAddress.into()));
         }
         if !BAUD_RATES.contains(&self.baud) {
-            return Err(Error::OutOfRange("baud rate"));
+            return Err(Error::OutOfRange(FieldSetting::BaudRate.into()));
         }
         Ok(())
     }

@@ -1,6 +1,7 @@
 //! Preparing a configuration (hosts): the physical configuration in, the
 //! blob out.
 
+use crate::error::{Condition, SensorSetting, TankSetting};
 use heapless::Vec;
 use serde::{Deserialize, Serialize};
 use zerocopy::IntoBytes;
@@ -103,7 +104,7 @@ impl GaugeConfig {
         self.temperature.validate_for(Channel::Temperature)?;
         self.track.validate()?;
         if !BARO_BITS.contains(&self.barometric_pa.to_bits()) {
-            return Err(Error::OutOfRange("barometric pressure"));
+            return Err(Error::OutOfRange(SensorSetting::BarometricPressure.into()));
         }
         if let Some(p) = &self.plausibility {
             p.pressure.validate()?;
@@ -113,7 +114,7 @@ impl GaugeConfig {
         if let Some(t) = &self.model {
             t.table().validate()?;
             if t.gas != self.setup.gas {
-                return Err(Error::ModelUnusable("gas of the setup"));
+                return Err(Error::ModelUnusable(Condition::GasOfSetup));
             }
         }
         // A mixture names its composition; a pure gas has none.
@@ -122,10 +123,10 @@ impl GaugeConfig {
             (Some(m), Some(c)) => {
                 c.validate()?;
                 if !c.is_of(&m) {
-                    return Err(Error::OutOfRange("composition of the setup's mixture"));
+                    return Err(Error::OutOfRange(TankSetting::MixtureComposition.into()));
                 }
             }
-            _ => return Err(Error::OutOfRange("composition of the setup's gas")),
+            _ => return Err(Error::OutOfRange(TankSetting::GasComposition.into())),
         }
         Ok(())
     }
@@ -135,7 +136,9 @@ impl GaugeConfig {
     pub fn table(&self) -> Result<Table<'_>, Error> {
         match &self.model {
             Some(t) => Ok(t.table()),
-            None => builtin::table(self.setup.gas).ok_or(Error::ModelUnusable("built-in table")),
+            None => {
+                builtin::table(self.setup.gas).ok_or(Error::ModelUnusable(Condition::BuiltinTable))
+            }
         }
     }
 }

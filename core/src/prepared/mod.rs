@@ -51,6 +51,7 @@ mod model;
 pub use build::{GaugeConfig, Plausibility, PreparedBuf, Report, STANDARD_ATMOSPHERE};
 pub use model::PreparedModel;
 
+use crate::error::{Defect, SensorSetting};
 use serde::{Deserialize, Serialize};
 use zerocopy::{FromBytes, Immutable, KnownLayout};
 
@@ -281,40 +282,38 @@ impl<B: AsRef<[u8]>> Prepared<B> {
         let b = bytes.as_ref();
         let bad = Error::Malformed;
         if b.len() < HEADER_LEN + 4 || b.len() > MAX_LEN || b.get(..4) != Some(&MAGIC[..]) {
-            return Err(bad("prepared configuration header"));
+            return Err(bad(Defect::PreparedHeader));
         }
         if u16_at(b, 4) != Some(VERSION) {
             return Err(Error::ProtocolVersion(b.get(4).copied().unwrap_or(0)));
         }
         if !(b.as_ptr() as usize).is_multiple_of(4) {
-            return Err(bad("prepared configuration alignment"));
+            return Err(bad(Defect::PreparedAlignment));
         }
-        let total = u32_at(b, 8).ok_or(bad("prepared configuration header"))? as usize;
+        let total = u32_at(b, 8).ok_or(bad(Defect::PreparedHeader))? as usize;
         if total != b.len() {
-            return Err(bad("prepared configuration length"));
+            return Err(bad(Defect::PreparedLength));
         }
-        let body = b
-            .get(..total - 4)
-            .ok_or(bad("prepared configuration length"))?;
+        let body = b.get(..total - 4).ok_or(bad(Defect::PreparedLength))?;
         if u32_at(b, total - 4) != Some(crc32c(body)) {
             return Err(Error::ChecksumMismatch);
         }
-        let n = u32_at(b, 12).ok_or(bad("prepared configuration header"))? as usize;
-        let arrays = u32_at(b, 16).ok_or(bad("prepared configuration header"))? as usize;
+        let n = u32_at(b, 12).ok_or(bad(Defect::PreparedHeader))? as usize;
+        let arrays = u32_at(b, 16).ok_or(bad(Defect::PreparedHeader))? as usize;
         if n > MAX_SCALARS_LEN
             || HEADER_LEN + n > arrays
             || !arrays.is_multiple_of(4)
             || arrays > total - 4
         {
-            return Err(bad("prepared configuration layout"));
+            return Err(bad(Defect::PreparedLayout));
         }
         let enc = b
             .get(HEADER_LEN..HEADER_LEN + n)
-            .ok_or(bad("prepared configuration layout"))?;
-        let (scalars, rest) = postcard::take_from_bytes::<Scalars>(enc)
-            .map_err(|_| bad("prepared configuration scalars"))?;
+            .ok_or(bad(Defect::PreparedLayout))?;
+        let (scalars, rest) =
+            postcard::take_from_bytes::<Scalars>(enc).map_err(|_| bad(Defect::PreparedScalars))?;
         if !rest.is_empty() {
-            return Err(bad("prepared configuration scalars"));
+            return Err(bad(Defect::PreparedScalars));
         }
         let p = Prepared {
             bytes,
@@ -420,9 +419,9 @@ impl<B: AsRef<[u8]>> Prepared<B> {
     /// keeps the bytes and never decodes them).
     pub fn source_config(&self) -> Result<GaugeConfig, Error> {
         let (c, rest) = postcard::take_from_bytes::<GaugeConfig>(self.source())
-            .map_err(|_| Error::Malformed("source configuration"))?;
+            .map_err(|_| Error::Malformed(Defect::SourceConfiguration))?;
         if !rest.is_empty() {
-            return Err(Error::Malformed("source configuration"));
+            return Err(Error::Malformed(Defect::SourceConfiguration));
         }
         Ok(c)
     }
@@ -435,7 +434,7 @@ impl<B: AsRef<[u8]>> Prepared<B> {
             let start = self.arrays + span.offset as usize;
             let end = start + span.len as usize * size;
             if !span.offset.is_multiple_of(4) || end > b.len() - 4 || span.len as usize > MAX_LEN {
-                Err(Error::Malformed("prepared configuration array"))
+                Err(Error::Malformed(Defect::PreparedArray))
             } else {
                 Ok(())
             }
@@ -478,12 +477,12 @@ impl<B: AsRef<[u8]>> Prepared<B> {
         }
         fits(s.source, 1)?;
         if !build::BARO_BITS.contains(&s.barometric) {
-            return Err(Error::OutOfRange("barometric pressure"));
+            return Err(Error::OutOfRange(SensorSetting::BarometricPressure.into()));
         }
         if !(ZERO_PRESSURE_MIN..=crate::store::ZERO_PRESSURE_MAX as u32)
             .contains(&s.zero_pressure_limit)
         {
-            return Err(Error::OutOfRange("zero bound of the pressure channel"));
+            return Err(Error::OutOfRange(SensorSetting::ZeroBound.into()));
         }
         self.temperature().validate()?;
         self.pressure().validate()?;

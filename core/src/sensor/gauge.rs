@@ -10,6 +10,7 @@
 //!
 //! Gauge pressure uses [`fx::GaugePressure`] (`I28F4`, ±1342 bar, 0.0625 Pa).
 
+use crate::error::Measured;
 use crate::sensor::{PressureKind, PressureReading};
 use crate::{Error, Status, fx};
 
@@ -105,11 +106,11 @@ pub mod float {
     /// and plausible, else the configured one (the status then flags the
     /// barometer's reading). NaN or infinite inputs are errors.
     pub fn barometric<F: Real>(measured: Option<F>, configured: F) -> Result<(F, Status), Error> {
-        let configured = finite(configured, "barometric pressure")?;
+        let configured = finite(configured, Measured::BarometricPressure)?;
         Ok(match measured {
             None => (configured, Status::OK),
             Some(b) => {
-                let b = finite(b, "measured barometric pressure")?;
+                let b = finite(b, Measured::MeasuredBarometricPressure)?;
                 if b < F::lit(BAROMETRIC_MIN_PA) {
                     (configured, Status::SENSOR_UNDER_RANGE)
                 } else if b > F::lit(BAROMETRIC_MAX_PA) {
@@ -155,15 +156,15 @@ pub mod float {
 
     /// Absolute pressure from gauge pressure. NaN or infinite inputs are errors.
     pub fn absolute<F: Real>(gauge: F, barometric: F) -> Result<PressureReading<F, F>, Error> {
-        let g = finite(gauge, "gauge pressure")?;
-        let b = finite(barometric, "barometric pressure")?;
+        let g = finite(gauge, Measured::GaugePressure)?;
+        let b = finite(barometric, Measured::BarometricPressure)?;
         Ok(reading(PressureKind::Gauge, g, b))
     }
 
     /// Gauge pressure from absolute pressure. NaN or infinite inputs are errors.
     pub fn gauge<F: Real>(absolute: F, barometric: F) -> Result<PressureReading<F, F>, Error> {
-        let p = finite(absolute, "absolute pressure")?;
-        let b = finite(barometric, "barometric pressure")?;
+        let p = finite(absolute, Measured::AbsolutePressure)?;
+        let b = finite(barometric, Measured::BarometricPressure)?;
         Ok(reading(PressureKind::Absolute, p, b))
     }
 }

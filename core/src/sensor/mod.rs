@@ -38,6 +38,7 @@ pub mod plausibility;
 pub mod resistive;
 pub mod rtd;
 
+use crate::error::Measured;
 use crate::fx::{self, Coef};
 use crate::{Error, Real, Status};
 
@@ -213,11 +214,11 @@ impl SCoef {
 }
 
 /// A float input, checked finite.
-pub(crate) fn finite<F: Real>(v: F, what: &'static str) -> Result<F, Error> {
+pub(crate) fn finite<F: Real>(v: F, what: Measured) -> Result<F, Error> {
     if v.is_finite() {
         Ok(v)
     } else {
-        Err(Error::NotFinite(what))
+        Err(Error::NotFinite(what.into()))
     }
 }
 

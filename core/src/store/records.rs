@@ -9,6 +9,7 @@
 //! (see [`crate::prepared`]); writing this record after the blob's last
 //! chunk is what makes a new configuration the one in force.
 
+use crate::error::{DeviceSetting, SensorSetting};
 use postcard::experimental::max_size::MaxSize;
 use serde::{Deserialize, Serialize};
 
@@ -39,13 +40,15 @@ impl Record for ConfigRef {
     const VERSION: u16 = 1;
     fn validate(&self) -> Result<(), Error> {
         if self.blob.slot > 1 {
-            return Err(Error::OutOfRange("configuration slot"));
+            return Err(Error::OutOfRange(DeviceSetting::ConfigurationSlot.into()));
         }
         if self.zero_pressure.unsigned_abs() > ZERO_PRESSURE_MAX as u32 {
-            return Err(Error::OutOfRange("pressure zero offset"));
+            return Err(Error::OutOfRange(SensorSetting::PressureZeroOffset.into()));
         }
         if self.zero_temperature.unsigned_abs() > ZERO_TEMPERATURE_MAX as u32 {
-            return Err(Error::OutOfRange("temperature zero offset"));
+            return Err(Error::OutOfRange(
+                SensorSetting::TemperatureZeroOffset.into(),
+            ));
         }
         Ok(())
     }

@@ -39,6 +39,7 @@ use super::{
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
 use crate::alarm::{Alarms, DebounceTable, Events};
 use crate::content::fixed::{Content, Estimator};
+use crate::error::{Condition, TrackSetting};
 use crate::fx::{self, Coef};
 use crate::model::CompressibilityFx;
 use crate::probe::{self, Stage};
@@ -105,7 +106,7 @@ impl TrackConfigFx {
     pub fn from_f64(c: &TrackConfig<f64>) -> Result<Self, Error> {
         c.validate()?;
         let declared_draw_kg_h = match c.declared_draw_kg_h {
-            Some(d) => Some(fx::from_f64(d, "declared draw")?),
+            Some(d) => Some(fx::from_f64(d, TrackSetting::DeclaredDraw)?),
             None => None,
         };
         let fx = TrackConfigFx {
@@ -113,13 +114,16 @@ impl TrackConfigFx {
             smoothing_temperature: c.smoothing_temperature,
             block: c.block,
             max_gap: c.max_gap,
-            reserve_fraction: fx::from_f64(c.reserve_fraction, "reserve fraction")?,
+            reserve_fraction: fx::from_f64(c.reserve_fraction, TrackSetting::ReserveFraction)?,
             settle_time_constant: c.settle_time_constant,
-            settle_step: fx::from_f64(c.settle_step, "settle step")?,
-            settle_tolerance: fx::from_f64(c.settle_tolerance, "settle tolerance")?,
+            settle_step: fx::from_f64(c.settle_step, TrackSetting::SettleStep)?,
+            settle_tolerance: fx::from_f64(c.settle_tolerance, TrackSetting::SettleTolerance)?,
             leak_mode: c.leak_mode,
             declared_draw_kg_h,
-            leak_threshold_per_day: fx::from_f64(c.leak_threshold_per_day, "leak threshold")?,
+            leak_threshold_per_day: fx::from_f64(
+                c.leak_threshold_per_day,
+                TrackSetting::LeakThreshold,
+            )?,
             uncertainty: UncertaintyConfigFx::from_f64(&c.uncertainty)?,
             limits: LimitsFx::from_f64(&c.limits)?,
             debounce: c.debounce,
@@ -157,22 +161,22 @@ impl TrackConfigFx {
             self.settle_time_constant,
         )?;
         if self.reserve_fraction > fx::Fraction::ONE {
-            return Err(Error::OutOfRange("reserve fraction"));
+            return Err(Error::OutOfRange(TrackSetting::ReserveFraction.into()));
         }
         let half = fx::SmallFraction::from_bits(1 << 31);
         for (v, what) in [
-            (self.settle_step, "settle step"),
-            (self.settle_tolerance, "settle tolerance"),
-            (self.leak_threshold_per_day, "leak threshold"),
+            (self.settle_step, TrackSetting::SettleStep),
+            (self.settle_tolerance, TrackSetting::SettleTolerance),
+            (self.leak_threshold_per_day, TrackSetting::LeakThreshold),
         ] {
             if v > half {
-                return Err(Error::OutOfRange(what));
+                return Err(Error::OutOfRange(what.into()));
             }
         }
         if let Some(d) = self.declared_draw_kg_h
             && (d < fx::MassRate::ZERO || d > fx::MassRate::from_num(1_000_000))
         {
-            return Err(Error::OutOfRange("declared draw"));
+            return Err(Error::OutOfRange(TrackSetting::DeclaredDraw.into()));
         }
         self.uncertainty.validate()?;
         self.limits.validate()
@@ -411,16 +415,17 @@ impl<M: CompressibilityFx> Tracker<M> {
         let rated_mass = Coef::from_raw(est.rated_mass_kg().to_bits(), 40);
         let inv_rated_mass = rated_mass
             .recip()
-            .ok_or(Error::ModelUnusable("rated condition"))?;
+            .ok_or(Error::ModelUnusable(Condition::RatedCondition))?;
         // Rated standard volume = rated mass × (standard volume / mass).
         let v_per_kg = Coef::from_raw(rated.standard_volume_m3.to_bits(), 40).mul(
             Coef::from_raw(rated.mass_kg.to_bits(), 40)
                 .recip()
-                .ok_or(Error::ModelUnusable("rated condition"))?,
+                .ok_or(Error::ModelUnusable(Condition::RatedCondition))?,
         );
         let blocks_per_hour = HOUR_MS
             .checked_div(cfg.block.0)
-            .ok_or(Error::OutOfRange("tracking block"))? as u32;
+            .ok_or(Error::OutOfRange(TrackSetting::TrackingBlock.into()))?
+            as u32;
         let declared24 = match cfg.declared_draw_kg_h {
             Some(d) => {
                 // kg/h × 24 h / rated mass = fraction per day; × 24 for the
@@ -458,7 +463,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             tau_blocks: Coef::from_raw(cfg.settle_time_constant.0, 0).mul(
                 Coef::from_raw(cfg.block.0, 0)
                     .recip()
-                    .ok_or(Error::OutOfRange("block"))?,
+                    .ok_or(Error::OutOfRange(TrackSetting::Block.into()))?,
             ),
             last_at: None,
             p_hist: [0; 2],

@@ -10,6 +10,7 @@ use super::{
 use crate::alarm::float::{Inputs, LevelInputs, Limits};
 use crate::alarm::{Alarms, DebounceTable, Events};
 use crate::content::float::{Content, Estimator};
+use crate::error::{Measured, TrackSetting};
 use crate::model::Compressibility;
 use crate::time::{Instant, Millis};
 use crate::uncertainty::float::{
@@ -93,25 +94,29 @@ impl<F: Real> TrackConfig<F> {
             self.settle_time_constant,
         )?;
         let fractions = [
-            (self.reserve_fraction, 1.0, "reserve fraction"),
-            (self.settle_step, 0.5, "settle step"),
-            (self.settle_tolerance, 0.5, "settle tolerance"),
-            (self.leak_threshold_per_day, 0.5, "leak threshold"),
+            (self.reserve_fraction, 1.0, TrackSetting::ReserveFraction),
+            (self.settle_step, 0.5, TrackSetting::SettleStep),
+            (self.settle_tolerance, 0.5, TrackSetting::SettleTolerance),
+            (
+                self.leak_threshold_per_day,
+                0.5,
+                TrackSetting::LeakThreshold,
+            ),
         ];
         for (v, hi, what) in fractions {
             if !v.is_finite() {
-                return Err(Error::NotFinite(what));
+                return Err(Error::NotFinite(what.into()));
             }
             if v < F::ZERO || v > F::lit(hi) {
-                return Err(Error::OutOfRange(what));
+                return Err(Error::OutOfRange(what.into()));
             }
         }
         if let Some(d) = self.declared_draw_kg_h {
             if !d.is_finite() {
-                return Err(Error::NotFinite("declared draw"));
+                return Err(Error::NotFinite(TrackSetting::DeclaredDraw.into()));
             }
             if d < F::ZERO || d > F::lit(1e6) {
-                return Err(Error::OutOfRange("declared draw"));
+                return Err(Error::OutOfRange(TrackSetting::DeclaredDraw.into()));
             }
         }
         self.uncertainty.validate()?;
@@ -435,10 +440,10 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         let fault = !sensor.is_ok();
         if !fault {
             if !pressure_pa.is_finite() {
-                return Err(Error::NotFinite("pressure"));
+                return Err(Error::NotFinite(Measured::Pressure.into()));
             }
             if !temperature_k.is_finite() {
-                return Err(Error::NotFinite("temperature"));
+                return Err(Error::NotFinite(Measured::Temperature.into()));
             }
             self.check_gap(at);
             let (p, t) = self.despike(pressure_pa, temperature_k);

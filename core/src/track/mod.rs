@@ -270,21 +270,23 @@ pub(crate) fn validate_timing(
     smoothing: [crate::time::Millis; 2],
     settle_time_constant: crate::time::Millis,
 ) -> Result<(), crate::Error> {
-    use crate::Error;
+    use crate::{Error, TrackSetting};
     let b = block.0;
     if !(1000..=HOUR_MS).contains(&b) || !HOUR_MS.is_multiple_of(b) {
-        return Err(Error::OutOfRange("block"));
+        return Err(Error::OutOfRange(TrackSetting::Block.into()));
     }
     if max_gap.0 < 1000 || max_gap.0 > 24 * HOUR_MS {
-        return Err(Error::OutOfRange("maximum gap"));
+        return Err(Error::OutOfRange(TrackSetting::MaximumGap.into()));
     }
     for s in smoothing {
         if s.0 > HOUR_MS {
-            return Err(Error::OutOfRange("smoothing time constant"));
+            return Err(Error::OutOfRange(
+                TrackSetting::SmoothingTimeConstant.into(),
+            ));
         }
     }
     if !(60_000..=24 * HOUR_MS).contains(&settle_time_constant.0) {
-        return Err(Error::OutOfRange("settle time constant"));
+        return Err(Error::OutOfRange(TrackSetting::SettleTimeConstant.into()));
     }
     Ok(())
 }

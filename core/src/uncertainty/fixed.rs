@@ -7,6 +7,7 @@
 //! the rate budget once per block too (one more 64/32 division for 1/T,
 //! about thirty wider multiplies, four integer square roots).
 
+use crate::error::{Condition, UncertaintyInput};
 use fixed::types::{I8F24, U0F32};
 
 use super::float::{
@@ -46,14 +47,20 @@ impl UncertaintyConfigFx {
     pub fn from_f64(c: &UncertaintyConfig<f64>) -> Result<Self, Error> {
         c.validate()?;
         let fx = UncertaintyConfigFx {
-            pressure_full_scale_pa: fx::from_f64(c.pressure_full_scale_pa, "pressure full scale")?,
-            pressure_fs: fx::from_f64(c.pressure_fs, "pressure uncertainty of full scale")?,
-            pressure_reading: fx::from_f64(c.pressure_reading, "pressure uncertainty of reading")?,
-            temperature_k: fx::from_f64(c.temperature_k, "temperature uncertainty")?,
-            capacity: fx::from_f64(c.capacity, "capacity uncertainty")?,
-            model: fx::from_f64(c.model, "model uncertainty")?,
+            pressure_full_scale_pa: fx::from_f64(
+                c.pressure_full_scale_pa,
+                UncertaintyInput::PressureFullScale,
+            )?,
+            pressure_fs: fx::from_f64(c.pressure_fs, UncertaintyInput::PressureOfFullScale)?,
+            pressure_reading: fx::from_f64(
+                c.pressure_reading,
+                UncertaintyInput::PressureOfReading,
+            )?,
+            temperature_k: fx::from_f64(c.temperature_k, UncertaintyInput::Temperature)?,
+            capacity: fx::from_f64(c.capacity, UncertaintyInput::Capacity)?,
+            model: fx::from_f64(c.model, UncertaintyInput::Model)?,
             temperature_lag: c.temperature_lag,
-            temperature_gain: fx::from_f64(c.temperature_gain, "temperature gain uncertainty")?,
+            temperature_gain: fx::from_f64(c.temperature_gain, UncertaintyInput::TemperatureGain)?,
         };
         fx.to_real::<f64>().validate()?;
         Ok(fx)
@@ -87,25 +94,27 @@ impl UncertaintyConfigFx {
         // 1e5 Pa and 2e8 Pa in Pressure (U28F4) bits.
         let fs = self.pressure_full_scale_pa.to_bits();
         if !(1_600_000..=3_200_000_000).contains(&fs) {
-            return Err(Error::OutOfRange("pressure full scale"));
+            return Err(Error::OutOfRange(
+                UncertaintyInput::PressureFullScale.into(),
+            ));
         }
         let half = 1u32 << 31;
         for (v, what) in [
-            (self.pressure_fs, "pressure uncertainty of full scale"),
-            (self.pressure_reading, "pressure uncertainty of reading"),
-            (self.capacity, "capacity uncertainty"),
-            (self.model, "model uncertainty"),
-            (self.temperature_gain, "temperature gain uncertainty"),
+            (self.pressure_fs, UncertaintyInput::PressureOfFullScale),
+            (self.pressure_reading, UncertaintyInput::PressureOfReading),
+            (self.capacity, UncertaintyInput::Capacity),
+            (self.model, UncertaintyInput::Model),
+            (self.temperature_gain, UncertaintyInput::TemperatureGain),
         ] {
             if v.to_bits() > half {
-                return Err(Error::OutOfRange(what));
+                return Err(Error::OutOfRange(what.into()));
             }
         }
         if self.temperature_k.to_bits() > 50 << 16 {
-            return Err(Error::OutOfRange("temperature uncertainty"));
+            return Err(Error::OutOfRange(UncertaintyInput::Temperature.into()));
         }
         if self.temperature_lag > super::float::MAX_TEMPERATURE_LAG {
-            return Err(Error::OutOfRange("temperature lag uncertainty"));
+            return Err(Error::OutOfRange(UncertaintyInput::TemperatureLag.into()));
         }
         Ok(())
     }
@@ -259,7 +268,7 @@ impl EvaluatorFx {
         let rated_mass = Coef::from_raw(est.rated_mass_kg().to_bits(), 40);
         let inv_rated = rated_mass
             .recip()
-            .ok_or(Error::ModelUnusable("rated condition"))?;
+            .ok_or(Error::ModelUnusable(Condition::RatedCondition))?;
         let frac = |v: U0F32| Coef::from_raw(v.to_bits() as u64, 32);
         Ok(EvaluatorFx {
             cfg,

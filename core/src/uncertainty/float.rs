@@ -3,6 +3,7 @@
 
 use crate::constants::MOLAR_GAS_CONSTANT_J_MOL_K;
 use crate::content::float::{Content, Estimator};
+use crate::error::UncertaintyInput;
 use crate::model::Compressibility;
 use crate::time::Millis;
 use crate::{Error, Gas, Real, Tank};
@@ -79,42 +80,47 @@ impl<F: Real> UncertaintyConfig<F> {
     /// Checks every field against its accepted range.
     pub fn validate(&self) -> Result<(), Error> {
         let checks = [
-            (self.pressure_full_scale_pa, 1e5, 2e8, "pressure full scale"),
+            (
+                self.pressure_full_scale_pa,
+                1e5,
+                2e8,
+                UncertaintyInput::PressureFullScale,
+            ),
             (
                 self.pressure_fs,
                 0.0,
                 0.5,
-                "pressure uncertainty of full scale",
+                UncertaintyInput::PressureOfFullScale,
             ),
             (
                 self.pressure_reading,
                 0.0,
                 0.5,
-                "pressure uncertainty of reading",
+                UncertaintyInput::PressureOfReading,
             ),
-            (self.temperature_k, 0.0, 50.0, "temperature uncertainty"),
-            (self.capacity, 0.0, 0.5, "capacity uncertainty"),
-            (self.model, 0.0, 0.5, "model uncertainty"),
+            (self.temperature_k, 0.0, 50.0, UncertaintyInput::Temperature),
+            (self.capacity, 0.0, 0.5, UncertaintyInput::Capacity),
+            (self.model, 0.0, 0.5, UncertaintyInput::Model),
             (
                 self.temperature_gain,
                 0.0,
                 0.5,
-                "temperature gain uncertainty",
+                UncertaintyInput::TemperatureGain,
             ),
         ];
         for (v, lo, hi, what) in checks {
             if !v.is_finite() {
-                return Err(Error::NotFinite(what));
+                return Err(Error::NotFinite(what.into()));
             }
             // The limits are exact in the fixed-point form, so exact
             // conversions of an accepted value are accepted too.
             let x = v.to_f64();
             if x < lo || x > hi {
-                return Err(Error::OutOfRange(what));
+                return Err(Error::OutOfRange(what.into()));
             }
         }
         if self.temperature_lag > MAX_TEMPERATURE_LAG {
-            return Err(Error::OutOfRange("temperature lag uncertainty"));
+            return Err(Error::OutOfRange(UncertaintyInput::TemperatureLag.into()));
         }
         Ok(())
     }

@@ -133,6 +133,21 @@ impl Error {
     }
 }
 
+/// A command-line value in a fixed-point format, rounded to nearest; refused
+/// in the core's words ("… is not a finite number", "… is outside the
+/// accepted range") with the option's name, since the core's errors name its
+/// own settings, not the host's options.
+pub fn fixed_option<T: isochor_core::fixed::traits::Fixed>(
+    value: f64,
+    option: &'static str,
+) -> Result<T, Error> {
+    if !value.is_finite() {
+        return Err(Error::Invalid(format!("{option} is not a finite number")));
+    }
+    T::checked_from_num(value)
+        .ok_or_else(|| Error::Invalid(format!("{option} is outside the accepted range")))
+}
+
 /// The host physics' errors keep their kind (and exit code) here.
 impl From<isochor_eos::Error> for Error {
     fn from(e: isochor_eos::Error) -> Error {

@@ -141,10 +141,10 @@ pub fn field_settings(c: &FieldChanges, current: FieldConfig) -> Result<FieldCon
         f.loop_output.quantity = q;
     }
     if let Some(v) = c.loop_lower {
-        f.loop_output.lower = fx::from_f64(v, "--loop-lower")?;
+        f.loop_output.lower = crate::error::fixed_option(v, "--loop-lower")?;
     }
     if let Some(v) = c.loop_upper {
-        f.loop_output.upper = fx::from_f64(v, "--loop-upper")?;
+        f.loop_output.upper = crate::error::fixed_option(v, "--loop-upper")?;
     }
     if let Some(d) = c.loop_failure {
         f.loop_output.failure = d;
@@ -211,7 +211,8 @@ pub fn check(r: &Request) -> Result<(), Error> {
 }
 
 fn barometric_fx(b: Option<f64>) -> Result<Option<fx::Pressure>, Error> {
-    b.map(|b| Ok(fx::from_f64(b, "--barometric")?)).transpose()
+    b.map(|b| crate::error::fixed_option(b, "--barometric"))
+        .transpose()
 }
 
 /// The standard condition in a setup's JSON.
@@ -673,10 +674,15 @@ mod tests {
     fn a_written_setup_keeps_or_replaces_the_barometric_pressure() {
         let s = setup(&request(200e5)).unwrap();
         let mut current = GaugeConfig::nominal(s);
-        current.barometric_pa = fx::from_f64(90e3, "test").unwrap();
+        current.barometric_pa =
+            fx::from_f64(90e3, isochor_core::SensorSetting::BarometricPressure).unwrap();
         let kept = with_setup(Some(current.clone()), s, None);
         assert_eq!(fx::to_f64(kept.barometric_pa), 90e3);
-        let written = with_setup(Some(current), s, Some(fx::from_f64(95e3, "test").unwrap()));
+        let written = with_setup(
+            Some(current),
+            s,
+            Some(fx::from_f64(95e3, isochor_core::SensorSetting::BarometricPressure).unwrap()),
+        );
         assert_eq!(fx::to_f64(written.barometric_pa), 95e3);
         // A device without a configuration gets the nominal one: the
         // standard atmosphere (101 325 Pa by definition) unless given.

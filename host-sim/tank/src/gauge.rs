@@ -256,7 +256,10 @@ impl GaugeConfig {
                 },
             ),
             track: TrackConfigFx::from_f64(&self.track)?,
-            barometric_pa: fx::from_f64(self.barometric_pa, "barometric pressure")?,
+            barometric_pa: fx::from_f64(
+                self.barometric_pa,
+                isochor_core::SensorSetting::BarometricPressure,
+            )?,
             // A mixture's table, built for its composition (no built-in
             // table names it).
             model: match self.setup.gas.mixture() {

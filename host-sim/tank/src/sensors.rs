@@ -508,7 +508,7 @@ pub fn default_bridge(full_scale_pa: f64, adc_bits: u8) -> Result<BridgeConfig, 
         full_scale_pa,
         isochor_core::sensor::PressureKind::Absolute,
     )?;
-    c.range_margin = fx::from_f64(0.05, "range margin")?;
+    c.range_margin = fx::from_f64(0.05, isochor_core::SensorSetting::RangeMargin)?;
     c.validate()?;
     Ok(c)
 }

@@ -15,6 +15,7 @@
 
 use super::{Boundary, MAX_COEFS, MAX_CURVE, MAX_KNOTS, Table};
 use crate::checksum::crc32c;
+use crate::error::ModelDefect;
 use crate::{Error, Gas};
 use heapless::Vec;
 
@@ -77,7 +78,7 @@ impl TableBuf {
 
     /// Copies a table (fails when an array exceeds its capacity).
     pub fn from_table(t: &Table<'_>) -> Result<TableBuf, Error> {
-        let cap = |_| Error::ModelData("table too large");
+        let cap = |_| Error::ModelData(ModelDefect::TableTooLarge);
         Ok(TableBuf {
             gas: t.gas,
             temperature_knots: Vec::from_slice(t.temperature_knots).map_err(cap)?,
@@ -99,7 +100,7 @@ impl TableBuf {
 
     /// Writes the blob into `out`; returns its length.
     pub fn to_blob(&self, out: &mut [u8]) -> Result<usize, Error> {
-        let small = Error::ModelData("blob buffer too small");
+        let small = Error::ModelData(ModelDefect::BlobBufferTooSmall);
         let (head, rest) = out.split_at_mut_checked(5).ok_or(small)?;
         head.copy_from_slice(&[
             BLOB_MAGIC[0],
@@ -121,14 +122,14 @@ impl TableBuf {
     pub fn from_blob(bytes: &[u8]) -> Result<TableBuf, Error> {
         let corrupt = Error::ModelData;
         if bytes.len() < 9 {
-            return Err(corrupt("blob too short"));
+            return Err(corrupt(ModelDefect::BlobTooShort));
         }
         let (body, crc) = bytes.split_at(bytes.len() - 4);
         if body.get(..4) != Some(&BLOB_MAGIC[..]) {
-            return Err(corrupt("not a table blob"));
+            return Err(corrupt(ModelDefect::NotATableBlob));
         }
         if body.get(4) != Some(&BLOB_VERSION) {
-            return Err(corrupt("unsupported blob version"));
+            return Err(corrupt(ModelDefect::BlobVersion));
         }
         let stored = u32::from_le_bytes([
             crc.first().copied().unwrap_or(0),
@@ -137,13 +138,13 @@ impl TableBuf {
             crc.get(3).copied().unwrap_or(0),
         ]);
         if crc32c(body) != stored {
-            return Err(corrupt("checksum"));
+            return Err(corrupt(ModelDefect::Checksum));
         }
         let payload = body.get(5..).unwrap_or(&[]);
-        let (buf, rest): (TableBuf, _) =
-            postcard::take_from_bytes(payload).map_err(|_| corrupt("undecodable blob"))?;
+        let (buf, rest): (TableBuf, _) = postcard::take_from_bytes(payload)
+            .map_err(|_| corrupt(ModelDefect::UndecodableBlob))?;
         if !rest.is_empty() {
-            return Err(corrupt("trailing bytes in blob"));
+            return Err(corrupt(ModelDefect::TrailingBytes));
         }
         buf.table().validate()?;
         Ok(buf)

@@ -11,6 +11,7 @@
 //! Bounds are given beside each step; tests run with overflow checks.
 
 use super::{MAX_SPANS, Table};
+use crate::error::ModelDefect;
 use crate::model::{IsothermFx, ZPointFx};
 use crate::{Error, Gas, Status, fx};
 
@@ -90,7 +91,7 @@ fn q16(num: u64, den: u64) -> u32 {
 fn prepare_span(knots: &[u32], k: usize, raw_per_unit: u64) -> Result<Span, Error> {
     let n = knots.len().saturating_sub(1);
     if k >= n {
-        return Err(Error::ModelData("knots"));
+        return Err(Error::ModelData(ModelDefect::Knots));
     }
     let ext = |i: isize| -> u64 {
         let j = i.max(0).min(n as isize) as usize;
@@ -99,7 +100,7 @@ fn prepare_span(knots: &[u32], k: usize, raw_per_unit: u64) -> Result<Span, Erro
     let k = k as isize;
     let (tk, h) = (ext(k), ext(k + 1).saturating_sub(ext(k)));
     if h == 0 {
-        return Err(Error::ModelData("knots"));
+        return Err(Error::ModelData(ModelDefect::Knots));
     }
     let mut shift = 0u32;
     while (h >> shift) >= 1 << 16 {
@@ -109,7 +110,7 @@ fn prepare_span(knots: &[u32], k: usize, raw_per_unit: u64) -> Result<Span, Erro
     // Rounded: hs·inv ≤ 2^31 + hs/2, so d·inv below still fits 32 bits.
     let inv = ((1u64 << 31) + hs / 2)
         .checked_div(hs)
-        .ok_or(Error::ModelData("knots"))? as u32;
+        .ok_or(Error::ModelData(ModelDefect::Knots))? as u32;
     let frac = |j: isize, d: isize| {
         let den = ext(j + d).saturating_sub(ext(j));
         Frac::new(q16(tk.saturating_sub(ext(j)), den), q16(h, den))
@@ -120,7 +121,7 @@ fn prepare_span(knots: &[u32], k: usize, raw_per_unit: u64) -> Result<Span, Erro
     let mut m = inv as u64 * raw_per_unit;
     let mut du_exp = 31 + shift as i32;
     if m == 0 {
-        return Err(Error::ModelData("knots"));
+        return Err(Error::ModelData(ModelDefect::Knots));
     }
     while m >= 1 << 16 {
         m = (m + 1) >> 1;
@@ -130,7 +131,7 @@ fn prepare_span(knots: &[u32], k: usize, raw_per_unit: u64) -> Result<Span, Erro
         m <<= 1;
         du_exp += 1;
     }
-    let du_exp = i8::try_from(du_exp).map_err(|_| Error::ModelData("knots"))?;
+    let du_exp = i8::try_from(du_exp).map_err(|_| Error::ModelData(ModelDefect::Knots))?;
     Ok(Span {
         start: tk as u32,
         shift: shift as u8,
@@ -149,7 +150,7 @@ impl Axis {
     pub fn prepare(knots: &[u32], raw_per_unit: u64) -> Result<Axis, Error> {
         let n = knots.len().saturating_sub(1);
         if n == 0 || n > MAX_SPANS {
-            return Err(Error::ModelData("knots"));
+            return Err(Error::ModelData(ModelDefect::Knots));
         }
         for k in 0..n {
             prepare_span(knots, k, raw_per_unit)?;

@@ -83,6 +83,7 @@ pub mod float;
 pub use blob::{BLOB_MAGIC, BLOB_VERSION, BoundaryBuf, TableBuf};
 
 use super::{Compressibility, CompressibilityFx, IsothermFx, ModelRange, ZPoint, ZPointFx};
+use crate::error::{Condition, ModelDefect};
 use crate::{Error, Gas, Real, Status, fx};
 
 /// Most spans per axis (knots − 1). A prepared model keeps 32 bytes per span
@@ -152,36 +153,36 @@ impl<'a> Table<'a> {
         let increasing = |k: &[u32]| k.windows(2).all(|w| matches!(w, [a, b] if a < b));
         let (tk, pk) = (self.temperature_knots, self.pressure_knots);
         if !(2..=MAX_KNOTS).contains(&tk.len()) || !increasing(tk) {
-            return Err(bad("temperature knots"));
+            return Err(bad(ModelDefect::TemperatureKnots));
         }
         if !(2..=MAX_KNOTS).contains(&pk.len()) || !increasing(pk) || pk.first() != Some(&0) {
-            return Err(bad("pressure knots"));
+            return Err(bad(ModelDefect::PressureKnots));
         }
         let (t_lo, t_hi) = (tk.first().copied(), tk.last().copied());
         if t_lo.is_none_or(|t| t < crate::envelope::TEMPERATURE_MIN.to_bits() / 2)
             || t_hi.is_none_or(|t| t > 2 * crate::envelope::TEMPERATURE_MAX.to_bits())
         {
-            return Err(bad("temperature range"));
+            return Err(bad(ModelDefect::TemperatureRange));
         }
         if self.coefs.len() != self.rows() * self.columns() || self.coefs.len() > MAX_COEFS {
-            return Err(bad("coefficient count"));
+            return Err(bad(ModelDefect::CoefficientCount));
         }
         if !(14..=24).contains(&self.z_step_exp) {
-            return Err(bad("coefficient step"));
+            return Err(bad(ModelDefect::CoefficientStep));
         }
         // Largest Z must stay below 4 (the Compressibility format).
         let max_q = self.coefs.iter().copied().max().unwrap_or(0) as u64;
         let top = self.z_offset as u64 + (max_q << (30 - self.z_step_exp as u32));
         if top >= 1 << 32 {
-            return Err(bad("coefficient range"));
+            return Err(bad(ModelDefect::CoefficientRange));
         }
         if self.z_floor < 1 << 26 {
-            return Err(bad("Z floor"));
+            return Err(bad(ModelDefect::ZFloor));
         }
         if let Some(b) = &self.boundary {
             let n = self.rows();
             if b.saturation_pressure.len() != n || b.limit_pressure.len() != n {
-                return Err(bad("boundary curves"));
+                return Err(bad(ModelDefect::BoundaryCurves));
             }
         }
         Ok(())
@@ -246,7 +247,7 @@ impl<'a> DeviceModel<'a> {
 impl DeviceModel<'static> {
     /// The built-in model of `gas` (see [`builtin`]).
     pub fn builtin(gas: Gas) -> Result<DeviceModel<'static>, Error> {
-        DeviceModel::new(builtin::table(gas).ok_or(Error::ModelUnusable("built-in table"))?)
+        DeviceModel::new(builtin::table(gas).ok_or(Error::ModelUnusable(Condition::BuiltinTable))?)
     }
 }
 

@@ -3,6 +3,7 @@
 //! `linearize` → `scale` → `check_range` → gauge/absolute.
 
 use super::{BridgeConfig, U_LIMIT};
+use crate::error::Measured;
 use crate::sensor::{PressureReading, finite, gauge};
 use crate::{Error, Real, Status, fx};
 
@@ -64,7 +65,7 @@ impl<F: Real> Bridge<F> {
     /// The zero and span at a transducer temperature (see the fixed path's
     /// `Bridge::compensation`). NaN or infinite inputs are errors.
     pub fn compensation(&self, temperature_k: F) -> Result<Compensation<F>, Error> {
-        let t = finite(temperature_k, "transducer temperature")?;
+        let t = finite(temperature_k, Measured::TransducerTemperature)?;
         let (zero, span) = self.compensate(t);
         Ok(Compensation { zero, span })
     }
@@ -77,7 +78,7 @@ impl<F: Real> Bridge<F> {
         comp: &Compensation<F>,
         barometric_pa: F,
     ) -> Result<PressureReading<F, F>, Error> {
-        let b = finite(barometric_pa, "barometric pressure")?;
+        let b = finite(barometric_pa, Measured::BarometricPressure)?;
         let (s, mut status) = self.signal(code);
         let (u, st) = self.normalize(s, comp.zero, comp.span);
         status |= st;
@@ -94,9 +95,9 @@ impl<F: Real> Bridge<F> {
     /// method on the linearity cubic). Errors for non-finite inputs and for
     /// pressures beyond ±150 % of the range.
     pub fn code(&self, pressure_pa: F, temperature_k: F, barometric_pa: F) -> Result<F, Error> {
-        let p = finite(pressure_pa, "pressure")?;
-        let t = finite(temperature_k, "transducer temperature")?;
-        let b = finite(barometric_pa, "barometric pressure")?;
+        let p = finite(pressure_pa, Measured::Pressure)?;
+        let t = finite(temperature_k, Measured::TransducerTemperature)?;
+        let b = finite(barometric_pa, Measured::BarometricPressure)?;
         let value = match self.config.kind {
             crate::sensor::PressureKind::Absolute => p,
             crate::sensor::PressureKind::Gauge => p - b,
@@ -104,7 +105,7 @@ impl<F: Real> Bridge<F> {
         let target = (value - self.range_lo_pa) / self.range_pa;
         let lim = F::lit(U_LIMIT);
         if target < -lim || target > lim {
-            return Err(Error::OutOfRange("pressure (beyond 150 % of the range)"));
+            return Err(Error::OutOfRange(Measured::BridgePressure.into()));
         }
         let [c0, c1, c2, c3] = self.linearity;
         let mut u = target;

@@ -27,6 +27,7 @@
 pub mod fixed;
 pub mod float;
 
+use crate::error::SensorSetting;
 use crate::sensor::PressureKind;
 use crate::{Error, fx};
 
@@ -83,11 +84,11 @@ impl BridgeConfig {
             adc_bits,
             bipolar,
             zero: [
-                fx::from_f64(zero, "zero")?,
+                fx::from_f64(zero, SensorSetting::Zero)?,
                 fx::Coefficient::ZERO,
                 fx::Coefficient::ZERO,
             ],
-            span: fx::from_f64(span, "span")?,
+            span: fx::from_f64(span, SensorSetting::Span)?,
             span_tc: [fx::Coefficient::ZERO; 2],
             reference_k: fx::Temperature::lit("298.15"),
             linearity: [
@@ -96,8 +97,8 @@ impl BridgeConfig {
                 fx::Coefficient::ZERO,
                 fx::Coefficient::ZERO,
             ],
-            range_lo_pa: fx::from_f64(range_lo_pa, "range low end")?,
-            range_hi_pa: fx::from_f64(range_hi_pa, "range high end")?,
+            range_lo_pa: fx::from_f64(range_lo_pa, SensorSetting::RangeLowEnd)?,
+            range_hi_pa: fx::from_f64(range_hi_pa, SensorSetting::RangeHighEnd)?,
             kind,
             range_margin: fx::Coefficient::ZERO,
         };
@@ -108,7 +109,7 @@ impl BridgeConfig {
     /// Checks every field.
     pub fn validate(&self) -> Result<(), Error> {
         if !(8..=24).contains(&self.adc_bits) {
-            return Err(Error::OutOfRange("converter bits"));
+            return Err(Error::OutOfRange(SensorSetting::ConverterBits.into()));
         }
         // Integer comparisons on the coefficients' bits (a device validates
         // records at start and on every write: no float there); the limits
@@ -116,49 +117,51 @@ impl BridgeConfig {
         const fn limit(x: f64) -> u64 {
             (x * (1u64 << 48) as f64) as u64
         }
-        let within = |v: fx::Coefficient, lim: u64, what| {
+        let within = |v: fx::Coefficient, lim: u64, what: SensorSetting| {
             if v.to_bits().unsigned_abs() > lim {
-                Err(Error::OutOfRange(what))
+                Err(Error::OutOfRange(what.into()))
             } else {
                 Ok(())
             }
         };
-        within(self.zero[0], const { limit(1.0) }, "zero")?;
+        within(self.zero[0], const { limit(1.0) }, SensorSetting::Zero)?;
         within(
             self.zero[1],
             const { limit(1e-2) },
-            "zero temperature coefficient",
+            SensorSetting::ZeroTempco,
         )?;
         within(
             self.zero[2],
             const { limit(1e-4) },
-            "zero second-order temperature coefficient",
+            SensorSetting::ZeroTempco2,
         )?;
         // span < 1e-4 ⟺ bits ≤ ⌊1e-4·2^48⌋ (1e-4·2^48 is not an integer).
         if self.span.to_bits() <= const { limit(1e-4) as i64 } || self.span > 2 {
-            return Err(Error::OutOfRange("span"));
+            return Err(Error::OutOfRange(SensorSetting::Span.into()));
         }
         within(
             self.span_tc[0],
             const { limit(1e-3) },
-            "span temperature coefficient",
+            SensorSetting::SpanTempco,
         )?;
         within(
             self.span_tc[1],
             const { limit(1e-5) },
-            "span second-order temperature coefficient",
+            SensorSetting::SpanTempco2,
         )?;
         if self.reference_k < 150 || self.reference_k > 500 {
-            return Err(Error::OutOfRange("reference temperature"));
+            return Err(Error::OutOfRange(
+                SensorSetting::ReferenceTemperature.into(),
+            ));
         }
         for c in self.linearity {
-            within(c, const { limit(2.0) }, "linearity coefficient")?;
+            within(c, const { limit(2.0) }, SensorSetting::LinearityCoefficient)?;
         }
         if self.range_hi_pa <= self.range_lo_pa {
-            return Err(Error::OutOfRange("range high end"));
+            return Err(Error::OutOfRange(SensorSetting::RangeHighEnd.into()));
         }
         if self.range_margin < 0 || self.range_margin.to_bits() > 1 << 47 {
-            return Err(Error::OutOfRange("range margin"));
+            return Err(Error::OutOfRange(SensorSetting::RangeMargin.into()));
         }
         Ok(())
     }

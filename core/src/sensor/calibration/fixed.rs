@@ -2,6 +2,7 @@
 //! fraction bits, 0 … 24). 5 multiplies per value, no division.
 
 use super::{Correction, X_MAX, X_MIN};
+use crate::error::SensorSetting;
 use crate::fx::{self, Coef, mul_s32};
 use crate::sensor::SCoef;
 use crate::{Error, Status};
@@ -27,12 +28,12 @@ impl Corrector {
     pub fn new(c: &Correction, frac: u32) -> Result<Corrector, Error> {
         c.validate()?;
         if frac > 24 {
-            return Err(Error::OutOfRange("fraction bits"));
+            return Err(Error::OutOfRange(SensorSetting::FractionBits.into()));
         }
         let span = c.hi.to_bits() - c.lo.to_bits();
         let inv = Coef::from_raw(span as u64, 24)
             .recip()
-            .ok_or(Error::OutOfRange("calibrated interval"))?;
+            .ok_or(Error::OutOfRange(SensorSetting::CalibratedInterval.into()))?;
         let q27 = |b: i64| fx::shr_round_i64(b, 21);
         let [c0, c1, c2, c3] = c.coefficients.map(|v| q27(v.to_bits()));
         Ok(Corrector {

@@ -1,6 +1,7 @@
 //! Correction, float (generic over [`Real`]). Same steps as [`super::fixed`].
 
 use super::{Correction, X_MAX, X_MIN};
+use crate::error::Measured;
 use crate::sensor::finite;
 use crate::{Error, Real, fx};
 
@@ -27,7 +28,7 @@ impl<F: Real> Corrector<F> {
 
     /// Corrects a value (SI). NaN or infinite values are errors.
     pub fn apply(&self, v: F) -> Result<F, Error> {
-        let v = finite(v, "value to correct")?;
+        let v = finite(v, Measured::ValueToCorrect)?;
         let x = self.position(v);
         Ok(v + self.span * self.deviation(x))
     }

@@ -27,6 +27,7 @@ pub mod fixed;
 pub mod float;
 
 use crate::checksum::crc32c;
+use crate::error::{Defect, SensorSetting};
 use crate::sensor::PressureKind;
 use crate::sensor::bridge::BridgeConfig;
 use crate::sensor::current_loop::LoopConfig;
@@ -70,12 +71,14 @@ impl Correction {
     /// Checks the interval and the coefficients.
     pub fn validate(&self) -> Result<(), Error> {
         if self.hi <= self.lo {
-            return Err(Error::OutOfRange("calibrated interval"));
+            return Err(Error::OutOfRange(SensorSetting::CalibratedInterval.into()));
         }
         // Integer limit: 2.0 in I16F48 bits.
         let lim = 2i64 << 48;
         if self.coefficients.iter().any(|c| c.to_bits().abs() > lim) {
-            return Err(Error::OutOfRange("correction coefficient"));
+            return Err(Error::OutOfRange(
+                SensorSetting::CorrectionCoefficient.into(),
+            ));
         }
         Ok(())
     }
@@ -100,13 +103,14 @@ impl Correction {
         };
         let span = hi - lo;
         if span < 1 << 8 {
-            return Err(Error::OutOfRange("two-point: measured points too close"));
+            return Err(Error::OutOfRange(SensorSetting::TwoPointSpacing.into()));
         }
         // c₀ = (r_lo − m_lo)/span, c₁ = (r_hi − r_lo)/span at 2^-48, rounded.
         let div = |n: i128| {
             let n = n << 48;
             let q = (n + if n < 0 { -span / 2 } else { span / 2 }) / span;
-            i64::try_from(q).map_err(|_| Error::OutOfRange("correction coefficient"))
+            i64::try_from(q)
+                .map_err(|_| Error::OutOfRange(SensorSetting::CorrectionCoefficient.into()))
         };
         let c0 = div(rlo - lo)?;
         let c1 = div(rhi - rlo)?;
@@ -128,11 +132,11 @@ impl Correction {
     pub fn from_f64(lo: f64, hi: f64, coefficients: [f64; 4]) -> Result<Correction, Error> {
         let mut c = [fx::Coefficient::ZERO; 4];
         for (d, s) in c.iter_mut().zip(coefficients) {
-            *d = fx::from_f64(s, "correction coefficient")?;
+            *d = fx::from_f64(s, SensorSetting::CorrectionCoefficient)?;
         }
         let c = Correction {
-            lo: fx::from_f64(lo, "calibrated interval low end")?,
-            hi: fx::from_f64(hi, "calibrated interval high end")?,
+            lo: fx::from_f64(lo, SensorSetting::CalibratedIntervalLowEnd)?,
+            hi: fx::from_f64(hi, SensorSetting::CalibratedIntervalHighEnd)?,
             coefficients: c,
         };
         c.validate()?;
@@ -267,7 +271,7 @@ impl CalibrationRecord {
         let u16_at = |i: usize| -> Result<u16, Error> {
             let b = bytes
                 .get(i..i + 2)
-                .ok_or(Error::Malformed("record too short"))?;
+                .ok_or(Error::Malformed(Defect::RecordTooShort))?;
             Ok(u16::from_le_bytes([
                 b.first().copied().unwrap_or(0),
                 b.get(1).copied().unwrap_or(0),
@@ -278,11 +282,11 @@ impl CalibrationRecord {
         let len = u16_at(4)? as usize;
         let end = HEADER + len;
         if bytes.len() != end + TRAILER {
-            return Err(Error::Malformed("record length"));
+            return Err(Error::Malformed(Defect::RecordLength));
         }
         let stored = bytes
             .get(end..end + TRAILER)
-            .ok_or(Error::Malformed("record too short"))?;
+            .ok_or(Error::Malformed(Defect::RecordTooShort))?;
         let stored = u32::from_le_bytes([
             stored.first().copied().unwrap_or(0),
             stored.get(1).copied().unwrap_or(0),
@@ -291,23 +295,23 @@ impl CalibrationRecord {
         ]);
         let covered = bytes
             .get(..end)
-            .ok_or(Error::Malformed("record too short"))?;
+            .ok_or(Error::Malformed(Defect::RecordTooShort))?;
         if crc32c(covered) != stored {
             return Err(Error::ChecksumMismatch);
         }
         if kind != Self::KIND {
-            return Err(Error::Malformed("record kind"));
+            return Err(Error::Malformed(Defect::RecordKind));
         }
         if version != Self::VERSION {
-            return Err(Error::Malformed("record version"));
+            return Err(Error::Malformed(Defect::RecordVersion));
         }
         let body = bytes
             .get(HEADER..end)
-            .ok_or(Error::Malformed("record too short"))?;
+            .ok_or(Error::Malformed(Defect::RecordTooShort))?;
         let (rec, rest): (CalibrationRecord, _) =
-            postcard::take_from_bytes(body).map_err(|_| Error::Malformed("record body"))?;
+            postcard::take_from_bytes(body).map_err(|_| Error::Malformed(Defect::RecordBody))?;
         if !rest.is_empty() {
-            return Err(Error::Malformed("record body"));
+            return Err(Error::Malformed(Defect::RecordBody));
         }
         rec.validate()?;
         Ok(rec)
@@ -393,7 +397,7 @@ impl CalibrationRecord {
     /// then the record itself.
     pub fn validate_for(&self, channel: Channel) -> Result<(), Error> {
         if self.channel != channel {
-            return Err(Error::OutOfRange("calibration channel"));
+            return Err(Error::OutOfRange(SensorSetting::CalibrationChannel.into()));
         }
         let fits = match channel {
             Channel::Pressure => {
@@ -405,7 +409,7 @@ impl CalibrationRecord {
             _ => false,
         };
         if !fits {
-            return Err(Error::OutOfRange("sensor kind of the channel"));
+            return Err(Error::OutOfRange(SensorSetting::ChannelSensorKind.into()));
         }
         self.validate()
     }
@@ -479,7 +483,7 @@ mod tests {
         bytes[n..].copy_from_slice(&crc);
         assert_eq!(
             CalibrationRecord::decode(&bytes),
-            Err(Error::Malformed("record kind"))
+            Err(Error::Malformed(Defect::RecordKind))
         );
         bytes[0] = 4;
         bytes[2] = 2;
@@ -487,7 +491,7 @@ mod tests {
         bytes[n..].copy_from_slice(&crc);
         assert_eq!(
             CalibrationRecord::decode(&bytes),
-            Err(Error::Malformed("record version"))
+            Err(Error::Malformed(Defect::RecordVersion))
         );
     }
 }

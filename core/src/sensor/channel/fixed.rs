@@ -18,6 +18,7 @@
 //! step of the map, found by bisection between grid points, and a knot of
 //! the curve, so no piece spans a kink).
 
+use crate::error::{Defect, SensorSetting};
 use heapless::Vec;
 use zerocopy::{FromBytes, Immutable, IntoBytes, KnownLayout};
 
@@ -94,7 +95,7 @@ impl StatusMap<'_> {
                 .windows(2)
                 .all(|w| matches!(w, [a, b] if a.from < b.from))
         {
-            return Err(Error::Malformed("status map"));
+            return Err(Error::Malformed(Defect::StatusMap));
         }
         Ok(())
     }
@@ -135,7 +136,7 @@ impl StatusMapBuf {
                     from,
                     status: st.bits(),
                 })
-                .map_err(|_| Error::OutOfRange("status changes (too many)"))
+                .map_err(|_| Error::OutOfRange(SensorSetting::StatusChanges.into()))
         };
         let (lo64, hi64) = (lo as i64, hi as i64);
         let n = (hi64 - lo64).clamp(1, STATUS_GRID);
@@ -271,13 +272,13 @@ impl TemperatureStage<'_> {
     /// Checks a stage received from elsewhere.
     pub fn validate(&self) -> Result<(), Error> {
         if !(2..=1 << 24).contains(&self.full) || self.lo > self.hi || self.hi >= self.full {
-            return Err(Error::Malformed("temperature channel codes"));
+            return Err(Error::Malformed(Defect::TemperatureChannelCodes));
         }
         self.status.validate()?;
         self.curve.validate()?;
         match self.curve.domain() {
             Some((a, b)) if a == self.lo as i32 && b == self.hi as i32 => Ok(()),
-            _ => Err(Error::Malformed("temperature curve domain")),
+            _ => Err(Error::Malformed(Defect::TemperatureCurveDomain)),
         }
     }
 
@@ -496,7 +497,7 @@ impl PressureStage<'_> {
                     || s.code_shift > s.signal_frac
                     || s.inv_frac > 40
                 {
-                    return Err(Error::Malformed("bridge stage"));
+                    return Err(Error::Malformed(Defect::BridgeStage));
                 }
                 s.zero.validate()?;
                 s.inv_span.validate()?;
@@ -508,7 +509,7 @@ impl PressureStage<'_> {
                     || s.top > 1 << 24
                     || !s.bands.windows(2).all(|w| matches!(w, [a, b] if a <= b))
                 {
-                    return Err(Error::Malformed("loop stage"));
+                    return Err(Error::Malformed(Defect::LoopStage));
                 }
                 s.status.validate()?;
                 s.curve.validate()
@@ -623,7 +624,8 @@ impl PressureStageBuf {
         temperature: &TemperatureStage<'_>,
     ) -> Result<(PressureStageBuf, f64), Error> {
         let b = ch.barometric();
-        let barometric = fx::from_f64::<fx::Pressure>(b, "barometric pressure")?.to_bits();
+        let barometric =
+            fx::from_f64::<fx::Pressure>(b, SensorSetting::BarometricPressure)?.to_bits();
         let corr = |p: f64| ch.correction().apply(p).unwrap_or(p) * 16.0;
         let (front, err) = match ch.front() {
             float::PressureFront::Bridge {
@@ -651,9 +653,7 @@ impl PressureStageBuf {
                     frac -= 1;
                 }
                 if frac < sb as i32 {
-                    return Err(Error::OutOfRange(
-                        "bridge zero (too large for the signal format)",
-                    ));
+                    return Err(Error::OutOfRange(SensorSetting::BridgeZero.into()));
                 }
                 let (_, imax) = extent(&inv_of, t_lo, t_hi);
                 let mut ifrac = 0i32;
@@ -661,9 +661,11 @@ impl PressureStageBuf {
                 {
                     ifrac += 1;
                 }
-                let reference =
-                    fx::from_f64::<fx::Temperature>(*reference_k, "bridge reference temperature")?
-                        .to_bits();
+                let reference = fx::from_f64::<fx::Temperature>(
+                    *reference_k,
+                    SensorSetting::BridgeReferenceTemperature,
+                )?
+                .to_bits();
                 let kinks: Vec<i32, 2> = [reference_k - 255.0, reference_k + 255.0]
                     .into_iter()
                     .map(|t| (t * 65_536.0) as i64)

@@ -3,6 +3,7 @@
 //! against). Steps in [`super`].
 
 use super::{PRESSURE_FORMAT_MAX, TEMPERATURE_FORMAT_MAX, limit, signed_code};
+use crate::error::{Measured, SensorSetting};
 use crate::sensor::bridge::float::Bridge;
 use crate::sensor::calibration::float::Corrector;
 use crate::sensor::calibration::{CalibrationRecord, SensorConfig};
@@ -48,7 +49,11 @@ impl<F: Real> TemperatureChannel<F> {
         let (front, bits) = match &record.sensor {
             SensorConfig::Rtd(c) => (TemperatureFront::Rtd(Rtd::new(c)?), c.front_end.adc_bits),
             SensorConfig::Ntc(c) => (TemperatureFront::Ntc(Ntc::new(c)?), c.front_end.adc_bits),
-            _ => return Err(Error::OutOfRange("temperature sensor kind")),
+            _ => {
+                return Err(Error::OutOfRange(
+                    SensorSetting::TemperatureSensorKind.into(),
+                ));
+            }
         };
         Ok(TemperatureChannel {
             front,
@@ -144,12 +149,12 @@ impl<F: Real> PressureChannel<F> {
                 input: Loop::new(c)?,
                 state: LoopState::new(),
             },
-            _ => return Err(Error::OutOfRange("pressure sensor kind")),
+            _ => return Err(Error::OutOfRange(SensorSetting::PressureSensorKind.into())),
         };
         Ok(PressureChannel {
             front,
             correction: Corrector::new(&record.correction)?,
-            barometric: crate::sensor::finite(barometric_pa, "barometric pressure")?,
+            barometric: crate::sensor::finite(barometric_pa, Measured::BarometricPressure)?,
             offset: F::ZERO,
         })
     }

@@ -5,6 +5,7 @@
 //! 2^-4. 2 multiplies per code, no division.
 
 use super::{Band, LoopConfig, LoopSample, LoopState, flags};
+use crate::error::SensorSetting;
 use crate::fx::{self, Coef};
 use crate::sensor::{PressureKind, PressureReading, SCoef, gauge};
 use crate::time::{Instant, Millis};
@@ -58,7 +59,7 @@ impl Loop {
         config.validate()?;
         let inv_shunt = Coef::from_raw(config.shunt_ohms.to_bits(), 32)
             .recip()
-            .ok_or(Error::OutOfRange("shunt resistance"))?;
+            .ok_or(Error::OutOfRange(SensorSetting::ShuntResistance.into()))?;
         let per_code = Coef::from_raw(config.adc_reference_v.to_bits() as u64, 48)
             .mul(inv_shunt)
             .mul(const { Coef::from_f64(1000.0) })

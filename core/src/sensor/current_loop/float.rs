@@ -5,6 +5,7 @@ use super::{
     Band, FAILURE_HIGH_MA, FAILURE_LOW_MA, LoopConfig, LoopSample, LoopState, MEASURING_MAX_MA,
     MEASURING_MIN_MA, RANGE_HI_MA, RANGE_LO_MA, flags,
 };
+use crate::error::Measured;
 use crate::sensor::{PressureKind, PressureReading, finite, gauge};
 use crate::time::{Instant, Millis};
 use crate::{Error, Real, Status, fx};
@@ -86,10 +87,10 @@ impl<F: Real> Loop<F> {
         milliamps: F,
         barometric_pa: F,
     ) -> Result<(Band, Reading<F>), Error> {
-        let i = finite(milliamps, "loop current")?;
-        let b = finite(barometric_pa, "barometric pressure")?;
+        let i = finite(milliamps, Measured::LoopCurrent)?;
+        let b = finite(barometric_pa, Measured::BarometricPressure)?;
         if i < F::ZERO {
-            return Err(Error::OutOfRange("loop current (negative)"));
+            return Err(Error::OutOfRange(Measured::NegativeLoopCurrent.into()));
         }
         let band = band(i);
         let used = i.clamp_to(F::lit(MEASURING_MIN_MA), F::lit(MEASURING_MAX_MA));
@@ -120,8 +121,8 @@ impl<F: Real> Loop<F> {
     /// The current for an absolute pressure (the inverse direction), mA.
     /// NaN or infinite inputs are errors.
     pub fn milliamps(&self, pressure_pa: F, barometric_pa: F) -> Result<F, Error> {
-        let p = finite(pressure_pa, "pressure")?;
-        let b = finite(barometric_pa, "barometric pressure")?;
+        let p = finite(pressure_pa, Measured::Pressure)?;
+        let b = finite(barometric_pa, Measured::BarometricPressure)?;
         let v = match self.kind {
             PressureKind::Absolute => p,
             PressureKind::Gauge => p - b,

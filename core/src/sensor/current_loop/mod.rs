@@ -27,6 +27,7 @@
 pub mod fixed;
 pub mod float;
 
+use crate::error::SensorSetting;
 use crate::sensor::{PressureKind, PressureReading};
 use crate::time::{Instant, Millis};
 use crate::{Error, Status, fx};
@@ -131,10 +132,10 @@ impl LoopConfig {
     ) -> Result<LoopConfig, Error> {
         let c = LoopConfig {
             adc_bits,
-            adc_reference_v: fx::from_f64(adc_reference_v, "converter reference")?,
-            shunt_ohms: fx::from_f64(shunt_ohms, "shunt resistance")?,
-            range_lo_pa: fx::from_f64(range_lo_pa, "range low end")?,
-            range_hi_pa: fx::from_f64(range_hi_pa, "range high end")?,
+            adc_reference_v: fx::from_f64(adc_reference_v, SensorSetting::ConverterReference)?,
+            shunt_ohms: fx::from_f64(shunt_ohms, SensorSetting::ShuntResistance)?,
+            range_lo_pa: fx::from_f64(range_lo_pa, SensorSetting::RangeLowEnd)?,
+            range_hi_pa: fx::from_f64(range_hi_pa, SensorSetting::RangeHighEnd)?,
             kind,
             persistence,
         };
@@ -146,25 +147,23 @@ impl LoopConfig {
     /// (else the high failure band is invisible) and at most 200 mA.
     pub fn validate(&self) -> Result<(), Error> {
         if !(8..=24).contains(&self.adc_bits) {
-            return Err(Error::OutOfRange("converter bits"));
+            return Err(Error::OutOfRange(SensorSetting::ConverterBits.into()));
         }
         if self.adc_reference_v <= 0 || self.adc_reference_v > 100 {
-            return Err(Error::OutOfRange("converter reference"));
+            return Err(Error::OutOfRange(SensorSetting::ConverterReference.into()));
         }
         if self.shunt_ohms < 1 || self.shunt_ohms > 100_000 {
-            return Err(Error::OutOfRange("shunt resistance"));
+            return Err(Error::OutOfRange(SensorSetting::ShuntResistance.into()));
         }
         // I_max = V_ref/R_shunt in mA, compared in integers (no float on a
         // device): V bits/2^48 · 1000 against I · R bits/2^32.
         let v1000 = i128::from(self.adc_reference_v.to_bits()) * 1000;
         let r = i128::from(self.shunt_ohms.to_bits()) << 16;
         if v1000 <= FAILURE_HIGH_MA as i128 * r || v1000 > 200 * r {
-            return Err(Error::OutOfRange(
-                "converter range (must reach beyond 21 mA, at most 200 mA)",
-            ));
+            return Err(Error::OutOfRange(SensorSetting::ConverterRange.into()));
         }
         if self.range_hi_pa == self.range_lo_pa {
-            return Err(Error::OutOfRange("range high end"));
+            return Err(Error::OutOfRange(SensorSetting::RangeHighEnd.into()));
         }
         Ok(())
     }

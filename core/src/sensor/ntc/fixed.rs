@@ -7,6 +7,7 @@
 //! self-heating (2). No division.
 
 use super::{NtcConfig, NtcModel};
+use crate::error::SensorSetting;
 use crate::fx::{self, mul_s32};
 use crate::fxmath;
 use crate::sensor::resistive::fixed::{Input, Sample};
@@ -37,7 +38,7 @@ impl Ntc {
     /// Prepares a channel (integer arithmetic only).
     pub fn new(config: &NtcConfig) -> Result<Ntc, Error> {
         config.validate()?;
-        let bad = Error::OutOfRange("NTC model");
+        let bad = Error::OutOfRange(SensorSetting::NtcModel.into());
         let (c0, c1, c3) = match config.model {
             NtcModel::Beta {
                 r0_ohms,

@@ -3,6 +3,7 @@
 //! `inverse_temperature` → `temperature` → `self_heating` → `check_range`.
 
 use super::{NtcConfig, NtcModel};
+use crate::error::Measured;
 use crate::sensor::resistive::float::{Input, Sample};
 use crate::sensor::{TemperatureReading, finite};
 use crate::{Error, Real, Status, fx};
@@ -75,9 +76,9 @@ impl<F: Real> Ntc<F> {
     /// closed form for Steinhart–Hart). Errors for non-finite or
     /// non-positive temperatures.
     pub fn ohms(&self, temperature_k: F) -> Result<F, Error> {
-        let t = finite(temperature_k, "temperature")?;
+        let t = finite(temperature_k, Measured::Temperature)?;
         if t <= F::ZERO {
-            return Err(Error::OutOfRange("temperature"));
+            return Err(Error::OutOfRange(Measured::Temperature.into()));
         }
         let y = F::ONE / t;
         let l = match self.config.model {
@@ -92,7 +93,7 @@ impl<F: Real> Ntc<F> {
         };
         let r = l.exp();
         if !r.is_finite() {
-            return Err(Error::OutOfRange("temperature"));
+            return Err(Error::OutOfRange(Measured::Temperature.into()));
         }
         Ok(r)
     }

@@ -19,6 +19,7 @@
 pub mod fixed;
 pub mod float;
 
+use crate::error::SensorSetting;
 use crate::sensor::resistive::{Circuit, FrontEnd};
 use crate::{Error, envelope, fx};
 
@@ -73,8 +74,8 @@ impl NtcConfig {
         let probe = NtcConfig {
             model,
             front_end: FrontEnd::new(circuit, adc_bits, reference_ohms, 1.0, 2.0)?,
-            range_min_k: fx::from_f64(envelope::TEMPERATURE_MIN_K, "range minimum")?,
-            range_max_k: fx::from_f64(envelope::TEMPERATURE_MAX_K, "range maximum")?,
+            range_min_k: fx::from_f64(envelope::TEMPERATURE_MIN_K, SensorSetting::RangeMinimum)?,
+            range_max_k: fx::from_f64(envelope::TEMPERATURE_MAX_K, SensorSetting::RangeMaximum)?,
         };
         probe.validate_model()?;
         let ntc = float::Ntc::<f64>::new(&probe)?;
@@ -91,18 +92,18 @@ impl NtcConfig {
     /// The beta model from `f64` values (host helper).
     pub fn beta(r0_ohms: f64, t0_k: f64, beta_k: f64) -> Result<NtcModel, Error> {
         Ok(NtcModel::Beta {
-            r0_ohms: fx::from_f64(r0_ohms, "R0")?,
-            t0_k: fx::from_f64(t0_k, "T0")?,
-            beta_k: fx::from_f64(beta_k, "beta")?,
+            r0_ohms: fx::from_f64(r0_ohms, SensorSetting::R0)?,
+            t0_k: fx::from_f64(t0_k, SensorSetting::T0)?,
+            beta_k: fx::from_f64(beta_k, SensorSetting::Beta)?,
         })
     }
 
     /// The Steinhart–Hart model from `f64` values (host helper).
     pub fn steinhart_hart(a: f64, b: f64, c: f64) -> Result<NtcModel, Error> {
         Ok(NtcModel::SteinhartHart {
-            a: fx::from_f64(a, "Steinhart-Hart A")?,
-            b: fx::from_f64(b, "Steinhart-Hart B")?,
-            c: fx::from_f64(c, "Steinhart-Hart C")?,
+            a: fx::from_f64(a, SensorSetting::SteinhartHartA)?,
+            b: fx::from_f64(b, SensorSetting::SteinhartHartB)?,
+            c: fx::from_f64(c, SensorSetting::SteinhartHartC)?,
         })
     }
 
@@ -114,25 +115,25 @@ impl NtcConfig {
                 beta_k,
             } => {
                 if !(1..=10_000_000).contains(&r0_ohms) {
-                    return Err(Error::OutOfRange("R0"));
+                    return Err(Error::OutOfRange(SensorSetting::R0.into()));
                 }
                 if !(150..=500).contains(&t0_k) {
-                    return Err(Error::OutOfRange("T0"));
+                    return Err(Error::OutOfRange(SensorSetting::T0.into()));
                 }
                 if !(1000..=10_000).contains(&beta_k) {
-                    return Err(Error::OutOfRange("beta"));
+                    return Err(Error::OutOfRange(SensorSetting::Beta.into()));
                 }
             }
             NtcModel::SteinhartHart { a, b, c } => {
                 // Usual magnitudes: A ~ 1e-3, B ~ 2e-4, C ~ 1e-7 (all 1/K).
                 if a.abs() > 0.1 {
-                    return Err(Error::OutOfRange("Steinhart-Hart A"));
+                    return Err(Error::OutOfRange(SensorSetting::SteinhartHartA.into()));
                 }
                 if b <= 0 || b > 0.01 {
-                    return Err(Error::OutOfRange("Steinhart-Hart B"));
+                    return Err(Error::OutOfRange(SensorSetting::SteinhartHartB.into()));
                 }
                 if c < 0 || c > 1e-4 {
-                    return Err(Error::OutOfRange("Steinhart-Hart C"));
+                    return Err(Error::OutOfRange(SensorSetting::SteinhartHartC.into()));
                 }
             }
         }
@@ -144,10 +145,10 @@ impl NtcConfig {
         self.front_end.validate()?;
         self.validate_model()?;
         if self.range_min_k < 150 || self.range_min_k >= self.range_max_k {
-            return Err(Error::OutOfRange("range minimum"));
+            return Err(Error::OutOfRange(SensorSetting::RangeMinimum.into()));
         }
         if self.range_max_k > 500 {
-            return Err(Error::OutOfRange("range maximum"));
+            return Err(Error::OutOfRange(SensorSetting::RangeMaximum.into()));
         }
         Ok(())
     }

@@ -2,6 +2,7 @@
 //! (as `i64`) with `frac` fraction bits. 1 multiply per sample (the rate).
 
 use super::{PlausibilityConfig, PlausibilityState, decide};
+use crate::error::SensorSetting;
 use crate::fx::{self, Coef};
 use crate::time::{Instant, Millis};
 use crate::{Error, Status};
@@ -24,7 +25,7 @@ impl Checker {
     pub fn new(config: &PlausibilityConfig, frac: u32) -> Result<Checker, Error> {
         config.validate()?;
         if frac > 24 {
-            return Err(Error::OutOfRange("fraction bits"));
+            return Err(Error::OutOfRange(SensorSetting::FractionBits.into()));
         }
         let raw = |a: fx::Anchor| {
             let s = 24 - frac;

@@ -2,6 +2,7 @@
 //! [`super::fixed`].
 
 use super::{PlausibilityConfig, PlausibilityState, decide};
+use crate::error::Measured;
 use crate::sensor::finite;
 use crate::time::{Instant, Millis};
 use crate::{Error, Real, Status, fx};
@@ -40,7 +41,7 @@ impl<F: Real> Checker<F> {
         now: Instant,
         state: &mut PlausibilityState<F>,
     ) -> Result<Status, Error> {
-        let v = finite(value, "reading")?;
+        let v = finite(value, Measured::SensorReading)?;
         let rate = self.rate_per_ms;
         let allowance = self.allowance;
         let allowed = |dt: Millis| {

@@ -22,6 +22,7 @@
 pub mod fixed;
 pub mod float;
 
+use crate::error::SensorSetting;
 use crate::time::{Instant, Millis};
 use crate::{Error, Status, fx};
 
@@ -54,11 +55,11 @@ impl PlausibilityConfig {
         stuck_after: Millis,
     ) -> Result<PlausibilityConfig, Error> {
         let c = PlausibilityConfig {
-            min: fx::from_f64(min, "plausible minimum")?,
-            max: fx::from_f64(max, "plausible maximum")?,
-            max_rate_per_s: fx::from_f64(max_rate_per_s, "plausible rate")?,
-            rate_allowance: fx::from_f64(rate_allowance, "rate allowance")?,
-            stuck_band: fx::from_f64(stuck_band, "stuck band")?,
+            min: fx::from_f64(min, SensorSetting::PlausibleMinimum)?,
+            max: fx::from_f64(max, SensorSetting::PlausibleMaximum)?,
+            max_rate_per_s: fx::from_f64(max_rate_per_s, SensorSetting::PlausibleRate)?,
+            rate_allowance: fx::from_f64(rate_allowance, SensorSetting::RateAllowance)?,
+            stuck_band: fx::from_f64(stuck_band, SensorSetting::StuckBand)?,
             stuck_after,
         };
         c.validate()?;
@@ -68,16 +69,16 @@ impl PlausibilityConfig {
     /// Checks every field.
     pub fn validate(&self) -> Result<(), Error> {
         if self.max <= self.min {
-            return Err(Error::OutOfRange("plausible maximum"));
+            return Err(Error::OutOfRange(SensorSetting::PlausibleMaximum.into()));
         }
         if self.max_rate_per_s < 0 {
-            return Err(Error::OutOfRange("plausible rate"));
+            return Err(Error::OutOfRange(SensorSetting::PlausibleRate.into()));
         }
         if self.rate_allowance < 0 {
-            return Err(Error::OutOfRange("rate allowance"));
+            return Err(Error::OutOfRange(SensorSetting::RateAllowance.into()));
         }
         if self.stuck_band < 0 {
-            return Err(Error::OutOfRange("stuck band"));
+            return Err(Error::OutOfRange(SensorSetting::StuckBand.into()));
         }
         Ok(())
     }

@@ -4,6 +4,7 @@
 //! correction, one or two for self-heating.
 
 use super::{Circuit, FrontEnd};
+use crate::error::SensorSetting;
 use crate::fx::{self, Coef, mul_u32, sat_u32};
 use crate::{Error, Status};
 
@@ -52,7 +53,7 @@ impl Input {
         let rref = Coef::from_raw(f.reference_ohms.to_bits(), 32);
         let inv_rref = rref
             .recip()
-            .ok_or(Error::OutOfRange("reference resistance"))?;
+            .ok_or(Error::OutOfRange(SensorSetting::ReferenceResistance.into()))?;
         let lead = Coef::from_raw(f.lead_ohms.to_bits(), 32).mul(inv_rref);
         let exc = Coef::from_raw(f.excitation.to_bits().unsigned_abs(), 48);
         // θ in K/W.

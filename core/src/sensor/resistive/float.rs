@@ -1,6 +1,7 @@
 //! Resistive input, float. Same steps as [`super::fixed`].
 
 use super::{Circuit, FrontEnd};
+use crate::error::Measured;
 use crate::sensor::finite;
 use crate::{Error, Real, Status, fx};
 
@@ -78,7 +79,7 @@ impl<F: Real> Input<F> {
     /// self-heating correction: it belongs to converter codes, where the
     /// circuit's state is known.
     pub fn sample_ohms(&self, ohms: F, f: &FrontEnd) -> Result<Sample<F>, Error> {
-        let ohms = finite(ohms, "resistance")?;
+        let ohms = finite(ohms, Measured::Resistance)?;
         let short = F::lit(fx::to_f64(f.short_ohms));
         let open = F::lit(fx::to_f64(f.open_ohms));
         let mut status = Status::OK;

@@ -32,6 +32,7 @@
 pub mod fixed;
 pub mod float;
 
+use crate::error::SensorSetting;
 use crate::{Error, fx};
 
 /// How the sensor is wired to the converter (see the module table).
@@ -84,10 +85,10 @@ impl FrontEnd {
         let f = FrontEnd {
             circuit,
             adc_bits,
-            reference_ohms: fx::from_f64(reference_ohms, "reference resistance")?,
+            reference_ohms: fx::from_f64(reference_ohms, SensorSetting::ReferenceResistance)?,
             lead_ohms: fx::Resistance::ZERO,
-            short_ohms: fx::from_f64(short_ohms, "short-circuit threshold")?,
-            open_ohms: fx::from_f64(open_ohms, "open-circuit threshold")?,
+            short_ohms: fx::from_f64(short_ohms, SensorSetting::ShortCircuitThreshold)?,
+            open_ohms: fx::from_f64(open_ohms, SensorSetting::OpenCircuitThreshold)?,
             excitation: fx::Coefficient::ZERO,
             self_heating_k_per_mw: fx::Coefficient::ZERO,
         };
@@ -98,22 +99,24 @@ impl FrontEnd {
     /// Checks every field.
     pub fn validate(&self) -> Result<(), Error> {
         if !(8..=24).contains(&self.adc_bits) {
-            return Err(Error::OutOfRange("converter bits"));
+            return Err(Error::OutOfRange(SensorSetting::ConverterBits.into()));
         }
         if self.reference_ohms.to_bits() < 1 << 32 {
-            return Err(Error::OutOfRange("reference resistance"));
+            return Err(Error::OutOfRange(SensorSetting::ReferenceResistance.into()));
         }
         if self.short_ohms >= self.open_ohms {
-            return Err(Error::OutOfRange("short-circuit threshold"));
+            return Err(Error::OutOfRange(
+                SensorSetting::ShortCircuitThreshold.into(),
+            ));
         }
         if self.lead_ohms >= self.short_ohms && self.lead_ohms != fx::Resistance::ZERO {
-            return Err(Error::OutOfRange("lead resistance"));
+            return Err(Error::OutOfRange(SensorSetting::LeadResistance.into()));
         }
         if self.excitation < 0 || self.excitation > 100 {
-            return Err(Error::OutOfRange("excitation"));
+            return Err(Error::OutOfRange(SensorSetting::Excitation.into()));
         }
         if self.self_heating_k_per_mw < 0 || self.self_heating_k_per_mw > 100 {
-            return Err(Error::OutOfRange("self-heating"));
+            return Err(Error::OutOfRange(SensorSetting::SelfHeating.into()));
         }
         Ok(())
     }
@@ -184,6 +187,9 @@ mod tests {
         assert!(FrontEnd::new(Circuit::Ratiometric, 16, f64::NAN, 5.0, 390.0).is_err());
         let mut f = FrontEnd::new(Circuit::Ratiometric, 16, 400.0, 5.0, 390.0).unwrap();
         f.lead_ohms = fx::Resistance::from_num(6);
-        assert_eq!(f.validate(), Err(Error::OutOfRange("lead resistance")));
+        assert_eq!(
+            f.validate(),
+            Err(Error::OutOfRange(SensorSetting::LeadResistance.into()))
+        );
     }
 }

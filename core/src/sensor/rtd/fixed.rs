@@ -11,6 +11,7 @@
 
 use super::consts::{q, slope_inverse};
 use super::{A, B, C, ITERATIONS_FIXED, RtdConfig};
+use crate::error::SensorSetting;
 use crate::fx::{self, Coef, mul_s32, sat_u32};
 use crate::fxmath;
 use crate::sensor::TemperatureReading;
@@ -123,7 +124,9 @@ impl Rtd {
         config.validate()?;
         let f = &config.front_end;
         let r0 = Coef::from_raw(config.r0_ohms.to_bits(), 32);
-        let inv_r0 = r0.recip().ok_or(Error::OutOfRange("R0"))?;
+        let inv_r0 = r0
+            .recip()
+            .ok_or(Error::OutOfRange(SensorSetting::R0.into()))?;
         let mut w = Coef::from_raw(f.reference_ohms.to_bits(), 32).mul(inv_r0);
         if f.circuit == Circuit::Ratiometric {
             w = w.mul(Coef::from_parts(1, f.adc_bits as i32));

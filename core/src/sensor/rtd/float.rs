@@ -4,6 +4,7 @@
 
 use super::{A, B, C, ITERATIONS_FLOAT, RtdConfig, T_MAX_C, T_MIN_C};
 use crate::constants::ZERO_CELSIUS_K;
+use crate::error::Measured;
 use crate::sensor::resistive::float::{Input, Sample};
 use crate::sensor::{TemperatureReading, finite};
 use crate::{Error, Real, Status, fx};
@@ -108,11 +109,11 @@ impl<F: Real> Rtd<F> {
     /// The resistance the sensor element has at `temperature_k`, Ω (the
     /// inverse direction). Outside −200 … 850 °C it is an error.
     pub fn ohms(&self, temperature_k: F) -> Result<F, Error> {
-        let t = finite(temperature_k, "temperature")? - F::lit(ZERO_CELSIUS_K);
+        let t = finite(temperature_k, Measured::Temperature)? - F::lit(ZERO_CELSIUS_K);
         // A micro-kelvin of tolerance absorbs the rounding of K ↔ °C at the limits.
         let tol = F::lit(1e-6);
         if t < F::lit(T_MIN_C) - tol || t > F::lit(T_MAX_C) + tol {
-            return Err(Error::OutOfRange("temperature (IEC 60751: -200...850 C)"));
+            return Err(Error::OutOfRange(Measured::RtdTemperature.into()));
         }
         Ok(self.r0_ohms * ratio(t.clamp_to(F::lit(T_MIN_C), F::lit(T_MAX_C))))
     }

@@ -23,6 +23,7 @@ pub mod fixed;
 pub mod float;
 
 use crate::constants::ZERO_CELSIUS_K;
+use crate::error::SensorSetting;
 use crate::sensor::resistive::FrontEnd;
 use crate::{Error, fx};
 
@@ -70,10 +71,10 @@ impl RtdConfig {
         let short = 0.5 * r0_ohms * float::ratio(T_MIN_C);
         let open = 2.0 * r0_ohms * float::ratio(T_MAX_C);
         let c = RtdConfig {
-            r0_ohms: fx::from_f64(r0_ohms, "R0")?,
+            r0_ohms: fx::from_f64(r0_ohms, SensorSetting::R0)?,
             front_end: FrontEnd::new(circuit, adc_bits, reference_ohms, short, open)?,
-            range_min_k: fx::from_f64(T_MIN_C + ZERO_CELSIUS_K, "range minimum")?,
-            range_max_k: fx::from_f64(T_MAX_C + ZERO_CELSIUS_K, "range maximum")?,
+            range_min_k: fx::from_f64(T_MIN_C + ZERO_CELSIUS_K, SensorSetting::RangeMinimum)?,
+            range_max_k: fx::from_f64(T_MAX_C + ZERO_CELSIUS_K, SensorSetting::RangeMaximum)?,
         };
         c.validate()?;
         Ok(c)
@@ -83,16 +84,16 @@ impl RtdConfig {
     pub fn validate(&self) -> Result<(), Error> {
         self.front_end.validate()?;
         if self.r0_ohms < 1 || self.r0_ohms > 60_000 {
-            return Err(Error::OutOfRange("R0"));
+            return Err(Error::OutOfRange(SensorSetting::R0.into()));
         }
         // −200 °C = 73.15 K, 850 °C = 1123.15 K.
         let lo = const { fx::Temperature::lit("73.15") };
         let hi = const { fx::Temperature::lit("1123.15") };
         if self.range_min_k < lo || self.range_min_k >= self.range_max_k {
-            return Err(Error::OutOfRange("range minimum"));
+            return Err(Error::OutOfRange(SensorSetting::RangeMinimum.into()));
         }
         if self.range_max_k > hi {
-            return Err(Error::OutOfRange("range maximum"));
+            return Err(Error::OutOfRange(SensorSetting::RangeMaximum.into()));
         }
         Ok(())
     }
@@ -153,6 +154,9 @@ mod tests {
         assert!(RtdConfig::new(0.5, Circuit::Ratiometric, 16, 400.0).is_err());
         let mut c = c;
         c.range_max_k = fx::Temperature::from_num(1200);
-        assert_eq!(c.validate(), Err(Error::OutOfRange("range maximum")));
+        assert_eq!(
+            c.validate(),
+            Err(Error::OutOfRange(SensorSetting::RangeMaximum.into()))
+        );
     }
 }

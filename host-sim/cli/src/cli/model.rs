@@ -353,7 +353,7 @@ fn run_check(a: &CheckArgs) -> Result<String, Error> {
                 .into_iter()
                 .map(|g| {
                     let t = builtin::table(g).ok_or(Error::Core(
-                        isochor_core::Error::ModelUnusable("built-in table"),
+                        isochor_core::Error::ModelUnusable(isochor_core::Condition::BuiltinTable),
                     ))?;
                     Ok((
                         TableBuf::from_table(&t)?,

@@ -215,7 +215,8 @@ fn names(status: Status) -> Vec<&'static str> {
 }
 
 fn fx_value<T: isochor_core::fixed::traits::Fixed>(v: f64, what: &'static str) -> Result<T, Error> {
-    fx::from_f64(v, what).map_err(|source| Error::Rejected { what, source })
+    // The wording the core gave when it took the option's name.
+    crate::error::fixed_option(v, what).map_err(|e| Error::Invalid(format!("{what}: {e}")))
 }
 
 fn fmt_status(s: Status) -> String {
