@@ -8,20 +8,33 @@
 //! | temperature, K | [`Temperature`] = `U16F16` | 0 … 65 536 K | 15.3 µK |
 //! | compressibility factor Z | [`Compressibility`] = `U2F30` | 0 … 4 | 9.3e-10 |
 //! | ∂Z/∂p per MPa, ∂Z/∂T per K | [`ZSlope`] = `I8F24` | ±128 | 6.0e-8 |
-//! | density kg/m³, fill fraction | `U32F32` | 0 … 4.29e9 | 2.3e-10 |
-//! | mass kg, amount mol, volume m³ | `U24F40` | 0 … 1.68e7 | 9.1e-13 |
+//! | density kg/m³, fill fraction | [`Density`], [`Fraction`] over `U32F32` | 0 … 4.29e9 | 2.3e-10 |
+//! | mass kg, amount mol, volume m³ | [`Mass`], [`Amount`], [`Volume`] over `U24F40` | 0 … 1.68e7 | 9.1e-13 |
 //! | vessel elastic expansion, 1/MPa | [`ElasticExpansion`] = `U0F32` | 0 … 1 | 2.3e-10 |
 //! | vessel thermal expansion, 1/K | [`ThermalExpansion`] = `I0F32` | ±0.5 | 2.3e-10 |
 //! | vessel volume factor V/V₀ | [`Compressibility`] = `U2F30` | 0 … 4 | 9.3e-10 |
-//! | mass flow kg/h, volume flow m³/h (signed) | [`MassRate`], [`VolumeRate`] = `I32F32` | ±2.1e9 | 2.3e-10 |
-//! | fraction per hour or per day (signed) | [`FractionRate`] = `I32F32` | ±2.1e9 | 2.3e-10 |
+//! | mass flow kg/h, volume flow m³/h (signed) | [`MassRate`], [`VolumeRate`] over `I32F32` | ±2.1e9 | 2.3e-10 |
+//! | fraction per hour or per day (signed) | [`FractionRate`] over `I32F32` | ±2.1e9 | 2.3e-10 |
 //! | small fractions (thresholds, uncertainties) | [`SmallFraction`] = `U0F32` | 0 … 1 | 2.3e-10 |
 //! | gauge pressure, Pa (relative to barometric; signed) | [`GaugePressure`] = `I28F4` | ±134.2 MPa (±1342 bar) | 0.0625 Pa |
-//! | resistance, Ω (sensor configuration, diagnostics) | [`Resistance`] = `U32F32` | 0 … 4.29 GΩ | 2.3e-10 Ω |
+//! | resistance, Ω (sensor configuration, diagnostics) | [`Resistance`] over `U32F32` | 0 … 4.29 GΩ | 2.3e-10 Ω |
 //! | loop current, mA | [`Milliamps`] = `U8F24` | 0 … 256 mA | 6.0e-8 mA |
 //! | sensor coefficient (tempcos, polynomials, Steinhart–Hart, excitation) | [`Coefficient`] = `I16F48` | ±32 768 | 3.6e-15 |
 //! | calibration anchor (SI value of a corrected quantity) | [`Anchor`] = `I40F24` | ±5.5e11 | 6.0e-8 |
 //! | molar mass of a mixture, kg/mol | [`MolarMass`] = `U0F32` | 0 … 1 | 2.3e-10 (1.2e-7 relative at 2 g/mol) |
+//!
+//! Quantities that share a format are distinct newtypes (`#[repr(transparent)]`,
+//! serialised as the number underneath: same bits, same cost), so a mass
+//! cannot be passed where a volume is meant; the others are aliases of their
+//! format. A newtype gives its bits (`from_bits`, `to_bits`), the number
+//! (`from_fixed`, `to_fixed`, `to_num`, `saturating_from_num`) and saturating
+//! sums and differences of the same unit; [`from_f64`] and [`to_f64`] take
+//! either kind ([`FixedValue`]).
+//!
+//! ```compile_fail
+//! // A volume is not a mass.
+//! let m: isochor_core::fx::Mass = isochor_core::fx::Volume::ZERO;
+//! ```
 //!
 //! # How the per-sample arithmetic stays cheap
 //!
@@ -38,6 +51,123 @@ use fixed::types::{
     I0F32, I8F24, I16F48, I28F4, I32F32, I40F24, U0F32, U2F30, U8F24, U16F16, U24F40, U28F4, U32F32,
 };
 
+/// A fixed-point value: a `fixed` number or a unit newtype over one. The
+/// conversions [`from_f64`] and [`to_f64`] take either.
+pub trait FixedValue: Copy {
+    /// The `fixed` format underneath.
+    type Repr: fixed::traits::Fixed;
+    /// The value of a number in its format.
+    fn from_repr(repr: Self::Repr) -> Self;
+    /// The number underneath.
+    fn repr(self) -> Self::Repr;
+}
+
+impl<T: fixed::traits::Fixed> FixedValue for T {
+    type Repr = T;
+    #[inline]
+    fn from_repr(repr: T) -> T {
+        repr
+    }
+    #[inline]
+    fn repr(self) -> T {
+        self
+    }
+}
+
+/// Defines a unit newtype over a `fixed` format: `#[repr(transparent)]` and
+/// serialised as the number underneath (stored layouts and wire formats
+/// unchanged), so quantities that share a format cannot be swapped by
+/// accident. Constructors and accessors name the format's bits or the
+/// number; arithmetic between units is written where it means something.
+macro_rules! unit {
+    ($(#[$m:meta])* $name:ident($repr:ty)) => {
+        $(#[$m])*
+        #[derive(
+            Clone, Copy, Debug, Default, PartialEq, Eq, PartialOrd, Ord, Hash,
+            serde::Serialize, serde::Deserialize,
+        )]
+        #[cfg_attr(feature = "defmt", derive(defmt::Format))]
+        #[serde(transparent)]
+        #[repr(transparent)]
+        pub struct $name($repr);
+
+        impl $name {
+            /// Zero.
+            pub const ZERO: $name = $name(<$repr>::ZERO);
+            /// The largest value of the format.
+            pub const MAX: $name = $name(<$repr>::MAX);
+
+            /// The value with these bits of the format underneath.
+            #[inline]
+            pub const fn from_bits(bits: <$repr as fixed::traits::Fixed>::Bits) -> $name {
+                $name(<$repr>::from_bits(bits))
+            }
+
+            /// The bits of the format underneath.
+            #[inline]
+            pub const fn to_bits(self) -> <$repr as fixed::traits::Fixed>::Bits {
+                self.0.to_bits()
+            }
+
+            /// The value of a number in the format underneath.
+            #[inline]
+            pub const fn from_fixed(value: $repr) -> $name {
+                $name(value)
+            }
+
+            /// The number underneath.
+            #[inline]
+            pub const fn to_fixed(self) -> $repr {
+                self.0
+            }
+
+            /// The sum, saturating at the format's bounds.
+            #[inline]
+            pub const fn saturating_add(self, other: $name) -> $name {
+                $name(self.0.saturating_add(other.0))
+            }
+
+            /// The difference, saturating at the format's bounds.
+            #[inline]
+            pub const fn saturating_sub(self, other: $name) -> $name {
+                $name(self.0.saturating_sub(other.0))
+            }
+
+            /// The value of a number of another type, saturating at the
+            /// format's bounds (as `fixed`'s `saturating_from_num`).
+            #[inline]
+            pub fn saturating_from_num<N: fixed::traits::ToFixed>(value: N) -> $name {
+                $name(<$repr>::saturating_from_num(value))
+            }
+
+            /// The value converted to another number type (as `fixed`'s
+            /// `to_num`).
+            #[inline]
+            pub fn to_num<N: fixed::traits::FromFixed>(self) -> N {
+                self.0.to_num()
+            }
+        }
+
+        impl FixedValue for $name {
+            type Repr = $repr;
+            #[inline]
+            fn from_repr(repr: $repr) -> $name {
+                $name(repr)
+            }
+            #[inline]
+            fn repr(self) -> $repr {
+                self.0
+            }
+        }
+
+        impl core::fmt::Display for $name {
+            fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+                core::fmt::Display::fmt(&self.0, f)
+            }
+        }
+    };
+}
+
 /// Absolute pressure in pascal.
 pub type Pressure = U28F4;
 /// Thermodynamic temperature in kelvin.
@@ -46,34 +176,57 @@ pub type Temperature = U16F16;
 pub type Compressibility = U2F30;
 /// A slope of Z: per MPa (with pressure) or per K (with temperature).
 pub type ZSlope = I8F24;
-/// Density in kg/m³.
-pub type Density = U32F32;
-/// Mass in kg.
-pub type Mass = U24F40;
-/// Amount of substance in mol.
-pub type Amount = U24F40;
-/// Volume in m³.
-pub type Volume = U24F40;
-/// A fraction (fill fraction: 1 = rated content).
-pub type Fraction = U32F32;
+unit! {
+    /// Density in kg/m³ (`U32F32`).
+    Density(U32F32)
+}
+unit! {
+    /// Mass in kg (`U24F40`).
+    Mass(U24F40)
+}
+unit! {
+    /// Amount of substance in mol (`U24F40`).
+    Amount(U24F40)
+}
+unit! {
+    /// Volume in m³ (`U24F40`).
+    Volume(U24F40)
+}
+unit! {
+    /// A fraction (fill fraction: 1 = rated content; `U32F32`).
+    Fraction(U32F32)
+}
 /// Relative volume change of a vessel per MPa of internal pressure.
 pub type ElasticExpansion = U0F32;
 /// Relative volume change of a vessel per kelvin.
 pub type ThermalExpansion = I0F32;
-/// Mass flow, kg/h (signed: positive = gas leaving the tank where a field
-/// says "consumption").
-pub type MassRate = I32F32;
-/// Standard-volume flow, m³/h (signed like [`MassRate`]).
-pub type VolumeRate = I32F32;
-/// A rate of a fraction of content, per hour or per day (signed).
-pub type FractionRate = I32F32;
+unit! {
+    /// Mass flow, kg/h (signed: positive = gas leaving the tank where a field
+    /// says "consumption"; `I32F32`).
+    MassRate(I32F32)
+}
+unit! {
+    /// Standard-volume flow, m³/h (signed like [`MassRate`]; `I32F32`).
+    VolumeRate(I32F32)
+}
+unit! {
+    /// A rate of a fraction of content, per hour or per day (signed;
+    /// `I32F32`).
+    FractionRate(I32F32)
+}
 /// A fraction below one: thresholds and relative uncertainties.
 pub type SmallFraction = U0F32;
 /// Gauge pressure in pascal: absolute pressure minus barometric pressure
 /// (negative below the ambient).
 pub type GaugePressure = I28F4;
-/// Electrical resistance in ohm.
-pub type Resistance = U32F32;
+impl Fraction {
+    /// One: the rated content.
+    pub const ONE: Fraction = Fraction(U32F32::ONE);
+}
+unit! {
+    /// Electrical resistance in ohm (`U32F32`).
+    Resistance(U32F32)
+}
 /// Electrical current in milliampere (4–20 mA loops).
 pub type Milliamps = U8F24;
 /// A signed sensor coefficient in configuration (temperature coefficients,
@@ -332,19 +485,23 @@ pub const fn sat_u32(value: u64) -> (u32, bool) {
 /// Converts an `f64` to a fixed-point value by rounding to nearest.
 /// Errors name `what` (a [`Quantity`](crate::Quantity) or one of its groups)
 /// when the value is not finite or does not fit.
-pub fn from_f64<T: fixed::traits::Fixed>(
+pub fn from_f64<T: FixedValue>(
     value: f64,
     what: impl Into<crate::error::Quantity>,
 ) -> Result<T, crate::Error> {
+    use fixed::traits::Fixed;
     if !value.is_finite() {
         return Err(crate::Error::NotFinite(what.into()));
     }
-    T::checked_from_num(value).ok_or(crate::Error::OutOfRange(what.into()))
+    T::Repr::checked_from_num(value)
+        .map(T::from_repr)
+        .ok_or(crate::Error::OutOfRange(what.into()))
 }
 
 /// Exact `f64` value of a fixed-point number.
-pub fn to_f64<T: fixed::traits::Fixed>(value: T) -> f64 {
-    value.to_num::<f64>()
+pub fn to_f64<T: FixedValue>(value: T) -> f64 {
+    use fixed::traits::Fixed;
+    value.repr().to_num::<f64>()
 }
 
 #[cfg(test)]
@@ -410,6 +567,36 @@ mod tests {
             let want = (v >> s) + ((v >> (s - 1)) & 1);
             prop_assert_eq!(shr_round(v, s), (want, false));
         }
+    }
+
+    #[test]
+    fn unit_newtypes_cost_nothing_and_keep_their_bits() {
+        use core::mem::{align_of, size_of};
+        assert_eq!(size_of::<Mass>(), size_of::<U24F40>());
+        assert_eq!(align_of::<Mass>(), align_of::<U24F40>());
+        assert_eq!(size_of::<Fraction>(), size_of::<U32F32>());
+        assert_eq!(size_of::<MassRate>(), size_of::<I32F32>());
+        // Serialised as the number underneath: stored layouts unchanged.
+        let mut a = [0u8; 16];
+        let mut b = [0u8; 16];
+        let m = Mass::from_bits(0x0123_4567_89AB_CDEF);
+        let x = postcard::to_slice(&m, &mut a).unwrap().len();
+        let y = postcard::to_slice(&m.to_fixed(), &mut b).unwrap().len();
+        assert_eq!(a[..x], b[..y]);
+        let r = MassRate::from_bits(-5 << 32);
+        let x = postcard::to_slice(&r, &mut a).unwrap().len();
+        let y = postcard::to_slice(&r.to_fixed(), &mut b).unwrap().len();
+        assert_eq!(a[..x], b[..y]);
+        assert_eq!(
+            Fraction::ONE.saturating_add(Fraction::MAX),
+            Fraction::MAX,
+            "saturates"
+        );
+        assert_eq!(
+            Volume::ZERO.saturating_sub(Volume::from_bits(1)),
+            Volume::ZERO
+        );
+        assert_eq!(to_f64(Density::saturating_from_num(2.5)), 2.5);
     }
 
     #[test]

@@ -107,7 +107,7 @@ fn rtd_channels_every_code() {
     // (invented sensor), besides the plain circuits; a gas-gauge range
     // −60…150 °C and the whole IEC 60751 range.
     let mut leads = RtdConfig::new(100.0, Circuit::Ratiometric, 16, 400.0).unwrap();
-    leads.front_end.lead_ohms = fx::Resistance::from_num(0.8);
+    leads.front_end.lead_ohms = fx::Resistance::saturating_from_num(0.8);
     leads.front_end.excitation = fx::Coefficient::from_num(1e-3);
     leads.front_end.self_heating_k_per_mw = fx::Coefficient::from_num(0.1);
     let mut divider_heated = RtdConfig::new(1000.0, Circuit::DividerLow, 16, 4990.0).unwrap();
@@ -196,7 +196,7 @@ fn ntc_channels_every_code() {
     let mut heated = cfg(beta, Circuit::DividerLow, 10_000.0);
     heated.front_end.excitation = fx::Coefficient::from_num(3.3);
     heated.front_end.self_heating_k_per_mw = fx::Coefficient::from_num(1.0 / 1.5);
-    heated.front_end.lead_ohms = fx::Resistance::from_num(2.0);
+    heated.front_end.lead_ohms = fx::Resistance::saturating_from_num(2.0);
     for (name, c) in [
         (
             "NTC beta 3950 low divider 10k",

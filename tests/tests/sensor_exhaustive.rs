@@ -63,7 +63,7 @@ fn rtd_every_code() {
     // Pt100 2-wire with 0.8 Ω of leads and self-heating at 1 mA, 0.1 K/mW
     // (invented sensor), besides the plain circuits.
     let mut corrected = RtdConfig::new(100.0, Circuit::Ratiometric, 16, 400.0).unwrap();
-    corrected.front_end.lead_ohms = fx::Resistance::from_num(0.8);
+    corrected.front_end.lead_ohms = fx::Resistance::saturating_from_num(0.8);
     corrected.front_end.excitation = fx::Coefficient::from_num(1e-3);
     corrected.front_end.self_heating_k_per_mw = fx::Coefficient::from_num(0.1);
     let mut divider_heated = RtdConfig::new(1000.0, Circuit::DividerLow, 16, 4990.0).unwrap();
@@ -124,7 +124,7 @@ fn ntc_every_code() {
     let mut heated = cfg(beta, Circuit::DividerLow, 10_000.0);
     heated.front_end.excitation = fx::Coefficient::from_num(3.3);
     heated.front_end.self_heating_k_per_mw = fx::Coefficient::from_num(1.0 / 1.5);
-    heated.front_end.lead_ohms = fx::Resistance::from_num(2.0);
+    heated.front_end.lead_ohms = fx::Resistance::saturating_from_num(2.0);
     for (name, cfg) in [
         (
             "beta 3950 low divider 10k",
@@ -259,10 +259,10 @@ fn resistance_inputs_agree_between_paths() {
     // Resistances given directly (leads included): 20 000 log-spaced values
     // from 1 Ω to 10 MΩ through both paths, with 2-wire leads configured.
     let mut rtd_cfg = RtdConfig::new(100.0, Circuit::Ratiometric, 16, 400.0).unwrap();
-    rtd_cfg.front_end.lead_ohms = fx::Resistance::from_num(0.7);
+    rtd_cfg.front_end.lead_ohms = fx::Resistance::saturating_from_num(0.7);
     let model = NtcConfig::beta(10_000.0, 298.15, 3950.0).unwrap();
     let mut ntc_cfg = NtcConfig::new(model, Circuit::DividerLow, 16, 10_000.0).unwrap();
-    ntc_cfg.front_end.lead_ohms = fx::Resistance::from_num(2.0);
+    ntc_cfg.front_end.lead_ohms = fx::Resistance::saturating_from_num(2.0);
     let (ri, rf) = (
         rtd::fixed::Rtd::new(&rtd_cfg).unwrap(),
         rtd::float::Rtd::<f64>::new(&rtd_cfg).unwrap(),
@@ -273,10 +273,10 @@ fn resistance_inputs_agree_between_paths() {
     );
     let (mut wr, mut wn) = (Worst::default(), Worst::default());
     for i in 0..20_000u32 {
-        let ohms = fx::to_f64(fx::Resistance::from_num(
+        let ohms = fx::to_f64(fx::Resistance::saturating_from_num(
             10f64.powf(i as f64 * 7.0 / 20_000.0),
         ));
-        let q = fx::Resistance::from_num(ohms);
+        let q = fx::Resistance::saturating_from_num(ohms);
         let (a, b) = (ri.read_ohms(q), rf.read_ohms(ohms).unwrap());
         let limits = [
             fx::to_f64(rtd_cfg.range_min_k),

@@ -43,7 +43,9 @@ fn pt100_matches_the_iec_60751_table() {
         // is about 0.013 °C at these slopes).
         let t = fl.read_ohms(ohms).unwrap().temperature_k - ZERO_CELSIUS_K;
         assert!((t - t_c).abs() < 0.014, "{t_c} C: {t}");
-        let tf = fi.read_ohms(fx::Resistance::from_num(ohms)).temperature_k;
+        let tf = fi
+            .read_ohms(fx::Resistance::saturating_from_num(ohms))
+            .temperature_k;
         assert!((fx::to_f64(tf) - ZERO_CELSIUS_K - t_c).abs() < 0.014);
     }
 }
@@ -77,13 +79,13 @@ fn rtd_lead_and_self_heating_corrections() {
     // Pt100 at 100 °C reads 138.5055 Ω (IEC 60751 formula); with 2 × 0.5 Ω
     // of 2-wire leads the input sees 139.5055 Ω.
     let mut cfg = pt100();
-    cfg.front_end.lead_ohms = fx::Resistance::from_num(1.0);
+    cfg.front_end.lead_ohms = fx::Resistance::saturating_from_num(1.0);
     let fl = rtd::float::Rtd::<f64>::new(&cfg).unwrap();
     let t = fl.read_ohms(139.5055).unwrap().temperature_k - ZERO_CELSIUS_K;
     assert!((t - 100.0).abs() < 1e-3, "{t}");
     let fi = rtd::fixed::Rtd::new(&cfg).unwrap();
     let tq = fx::to_f64(
-        fi.read_ohms(fx::Resistance::from_num(139.5055))
+        fi.read_ohms(fx::Resistance::saturating_from_num(139.5055))
             .temperature_k,
     );
     assert!((tq - ZERO_CELSIUS_K - 100.0).abs() < 1e-3, "{tq}");
@@ -118,7 +120,10 @@ fn steinhart_hart_10k_set() {
     let fi = ntc::fixed::Ntc::new(&cfg).unwrap();
     let t = fl.read_ohms(10_000.0).unwrap().temperature_k - ZERO_CELSIUS_K;
     assert!((t - 25.0).abs() < 0.05, "{t}");
-    let tf = fx::to_f64(fi.read_ohms(fx::Resistance::from_num(10_000)).temperature_k);
+    let tf = fx::to_f64(
+        fi.read_ohms(fx::Resistance::saturating_from_num(10_000))
+            .temperature_k,
+    );
     assert!((tf - ZERO_CELSIUS_K - t).abs() < 1e-5);
     // The closed-form inverse gives back the resistance over −60 … 150 °C.
     for t_c in (-60..=150).map(|c| c as f64) {
@@ -146,7 +151,7 @@ fn beta_model_10k_3950() {
     let t = fl.read_ohms(33_620.6).unwrap().temperature_k - ZERO_CELSIUS_K;
     assert!(t.abs() < 1e-4, "{t}");
     let tf = fx::to_f64(
-        fi.read_ohms(fx::Resistance::from_num(33_620.6))
+        fi.read_ohms(fx::Resistance::saturating_from_num(33_620.6))
             .temperature_k,
     );
     assert!((tf - ZERO_CELSIUS_K).abs() < 1e-4, "{tf}");

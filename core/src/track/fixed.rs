@@ -174,7 +174,7 @@ impl TrackConfigFx {
             }
         }
         if let Some(d) = self.declared_draw_kg_h
-            && (d < fx::MassRate::ZERO || d > fx::MassRate::from_num(1_000_000))
+            && (d < fx::MassRate::ZERO || d > fx::MassRate::from_bits(1_000_000 << 32))
         {
             return Err(Error::OutOfRange(TrackSetting::DeclaredDraw.into()));
         }

@@ -137,14 +137,16 @@ impl Error {
 /// in the core's words ("… is not a finite number", "… is outside the
 /// accepted range") with the option's name, since the core's errors name its
 /// own settings, not the host's options.
-pub fn fixed_option<T: isochor_core::fixed::traits::Fixed>(
+pub fn fixed_option<T: isochor_core::fx::FixedValue>(
     value: f64,
     option: &'static str,
 ) -> Result<T, Error> {
+    use isochor_core::fixed::traits::Fixed;
     if !value.is_finite() {
         return Err(Error::Invalid(format!("{option} is not a finite number")));
     }
-    T::checked_from_num(value)
+    T::Repr::checked_from_num(value)
+        .map(T::from_repr)
         .ok_or_else(|| Error::Invalid(format!("{option} is outside the accepted range")))
 }
 

@@ -152,7 +152,7 @@ impl LoopConfig {
         if self.adc_reference_v <= 0 || self.adc_reference_v > 100 {
             return Err(Error::OutOfRange(SensorSetting::ConverterReference.into()));
         }
-        if self.shunt_ohms < 1 || self.shunt_ohms > 100_000 {
+        if self.shunt_ohms.to_fixed() < 1 || self.shunt_ohms.to_fixed() > 100_000 {
             return Err(Error::OutOfRange(SensorSetting::ShuntResistance.into()));
         }
         // I_max = V_ref/R_shunt in mA, compared in integers (no float on a

@@ -114,7 +114,7 @@ impl NtcConfig {
                 t0_k,
                 beta_k,
             } => {
-                if !(1..=10_000_000).contains(&r0_ohms) {
+                if !(1..=10_000_000).contains(&r0_ohms.to_fixed()) {
                     return Err(Error::OutOfRange(SensorSetting::R0.into()));
                 }
                 if !(150..=500).contains(&t0_k) {

@@ -186,7 +186,7 @@ mod tests {
         assert!(FrontEnd::new(Circuit::Ratiometric, 16, 400.0, 500.0, 390.0).is_err());
         assert!(FrontEnd::new(Circuit::Ratiometric, 16, f64::NAN, 5.0, 390.0).is_err());
         let mut f = FrontEnd::new(Circuit::Ratiometric, 16, 400.0, 5.0, 390.0).unwrap();
-        f.lead_ohms = fx::Resistance::from_num(6);
+        f.lead_ohms = fx::Resistance::from_bits(6 << 32);
         assert_eq!(
             f.validate(),
             Err(Error::OutOfRange(SensorSetting::LeadResistance.into()))

@@ -83,7 +83,7 @@ impl RtdConfig {
     /// Checks every field.
     pub fn validate(&self) -> Result<(), Error> {
         self.front_end.validate()?;
-        if self.r0_ohms < 1 || self.r0_ohms > 60_000 {
+        if self.r0_ohms.to_fixed() < 1 || self.r0_ohms.to_fixed() > 60_000 {
             return Err(Error::OutOfRange(SensorSetting::R0.into()));
         }
         // −200 °C = 73.15 K, 850 °C = 1123.15 K.

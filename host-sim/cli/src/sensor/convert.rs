@@ -214,7 +214,7 @@ fn names(status: Status) -> Vec<&'static str> {
     status.names().collect()
 }
 
-fn fx_value<T: isochor_core::fixed::traits::Fixed>(v: f64, what: &'static str) -> Result<T, Error> {
+fn fx_value<T: isochor_core::fx::FixedValue>(v: f64, what: &'static str) -> Result<T, Error> {
     // The wording the core gave when it took the option's name.
     crate::error::fixed_option(v, what).map_err(|e| Error::Invalid(format!("{what}: {e}")))
 }
