@@ -8,10 +8,16 @@
 //! [`Condition`] for a gas model without a usable answer, [`Defect`] for
 //! malformed bytes and [`ModelDefect`] for a refused gas-model table. Code and
 //! tests match on the variants; each variant's `text()` is its `Display` and
-//! the name a device sends in a refusal. This module is the lowest layer: it
-//! imports nothing from the crate.
+//! the name a host shows for a device's refusal. A device sends the payloads
+//! themselves in its refusals (postcard: each case as its index, so new cases
+//! are appended, never inserted), not their texts, so the texts stay out of
+//! its flash. This module is the lowest layer: it imports nothing from the
+//! crate.
 
 use core::fmt;
+
+use postcard::experimental::max_size::MaxSize;
+use serde::{Deserialize, Serialize};
 
 /// Everything that can go wrong in `isochor-core`.
 ///
@@ -123,7 +129,7 @@ impl core::error::Error for Error {}
 
 /// The quantity or setting an [`Error::NotFinite`] or [`Error::OutOfRange`]
 /// names, by the layer it belongs to.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize, MaxSize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum Quantity {
@@ -225,11 +231,13 @@ impl From<DeviceSetting> for Quantity {
 }
 
 /// Defines a fieldless payload enum whose variants each carry the text that
-/// names them (their `Display`, and the name a device sends in a refusal).
+/// names them (their `Display`, and what a host shows for a refusal).
 macro_rules! named {
     ($(#[$m:meta])* $name:ident { $($v:ident => $text:literal,)* }) => {
         $(#[$m])*
-        #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+        #[derive(
+            Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize, MaxSize,
+        )]
         #[cfg_attr(feature = "defmt", derive(defmt::Format))]
         #[non_exhaustive]
         pub enum $name {

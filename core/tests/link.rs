@@ -2,13 +2,17 @@
 //! the accumulator fed in random pieces, and single-bit-flip detection.
 
 use heapless::Vec as HVec;
+use isochor_core::link::ConfigFault;
 use isochor_core::link::{
     self, Accumulator, AlarmEvent, AlarmTransition, Boot, BootReport, Command, ConfigPart,
     Diagnostics, Feed, FromDevice, GetChallenge, GetDiagnostics, GetIdentity, Identity,
     InjectSample, Kind, MAX_FRAME_LEN, Outcome, Ping, ReadConfig, Refusal, Reply, ResetReason,
     SensorChannel, Signed, Telemetry, ToDevice, Wire,
 };
-use isochor_core::{Error, checksum};
+use isochor_core::{
+    AlarmSetting, Condition, CurveSetting, Defect, DeviceSetting, Error, FieldSetting, Measured,
+    ModelDefect, Quantity, SensorSetting, TankSetting, TrackSetting, UncertaintyInput, checksum,
+};
 use proptest::collection::vec;
 use proptest::prelude::*;
 use proptest::strategy::ValueTree;
@@ -342,14 +346,45 @@ fn telemetry() -> impl Strategy<Value = Telemetry> {
         )
 }
 
+/// Typed refusal reasons from every group, first and last cases included
+/// (each travels as its index).
+fn quantity() -> impl Strategy<Value = Quantity> {
+    prop_oneof![
+        Just(Measured::Pressure.into()),
+        Just(Measured::Resistance.into()),
+        Just(SensorSetting::TemperatureSensorKind.into()),
+        Just(SensorSetting::TemperatureZeroOffset.into()),
+        Just(TankSetting::WaterCapacity.into()),
+        Just(TrackSetting::DeclaredDraw.into()),
+        Just(AlarmSetting::TemperatureHysteresis.into()),
+        Just(UncertaintyInput::TemperatureGain.into()),
+        Just(FieldSetting::ModbusAddress.into()),
+        Just(CurveSetting::Function.into()),
+        Just(DeviceSetting::SecretDigits.into()),
+    ]
+}
+
+fn config_fault() -> impl Strategy<Value = ConfigFault> {
+    prop_oneof![
+        quantity().prop_map(ConfigFault::Value),
+        Just(ConfigFault::Malformed(Defect::RecordTooShort)),
+        Just(ConfigFault::Malformed(Defect::CurveScale)),
+        Just(ConfigFault::ModelData(ModelDefect::BoundaryCurves)),
+        Just(ConfigFault::ModelUnusable(Condition::BuiltinTable)),
+        Just(ConfigFault::Content),
+        Just(ConfigFault::Checksum),
+        Just(ConfigFault::FormatVersion),
+    ]
+}
+
 fn refusal() -> impl Strategy<Value = Refusal> {
     prop_oneof![
         Just(Refusal::NoSession),
         Just(Refusal::BadSignature),
         Just(Refusal::Replay),
         any::<u32>().prop_map(|retry_after_ms| Refusal::LockedOut { retry_after_ms }),
-        "[a-z ]{0,40}".prop_map(|f| Refusal::out_of_range(&f)),
-        "[a-z ]{0,40}".prop_map(|f| Refusal::bad_config(&f)),
+        quantity().prop_map(|field| Refusal::OutOfRange { field }),
+        config_fault().prop_map(|reason| Refusal::BadConfig { reason }),
         Just(Refusal::Unsupported),
         any::<u32>().prop_map(|expected| Refusal::ChunkOrder { expected }),
         Just(Refusal::BlobCrc),
@@ -678,4 +713,31 @@ proptest! {
             }
         }
     }
+}
+
+#[test]
+fn refusals_carry_typed_reasons_in_a_few_bytes() {
+    // The reason travels as indices (group, case), not as text; the host
+    // shows the core's words for it.
+    let r = Refusal::OutOfRange {
+        field: TankSetting::WaterCapacity.into(),
+    };
+    let mut buf = [0u8; 16];
+    let n = postcard::to_slice(&r, &mut buf).unwrap().len();
+    assert!(n <= 3, "{n} bytes");
+    let back: Refusal = postcard::from_bytes(&buf[..n]).unwrap();
+    assert_eq!(back, r);
+    let Refusal::OutOfRange { field } = back else {
+        unreachable!()
+    };
+    assert_eq!(field.to_string(), "water capacity");
+    assert_eq!(ConfigFault::Checksum.to_string(), "configuration checksum");
+    assert_eq!(
+        ConfigFault::Value(SensorSetting::ZeroBound.into()).to_string(),
+        "zero bound of the pressure channel"
+    );
+    assert_eq!(
+        ConfigFault::Malformed(Defect::PreparedHeader).to_string(),
+        "prepared configuration header"
+    );
 }

@@ -7,7 +7,9 @@ use embedded_storage::nor_flash::NorFlash;
 
 use super::Zero;
 use crate::auth::{Authenticator, NonceSource};
-use crate::link::{CHUNK_MAX_LEN, ConfigPart, Identity, MAX_FRAME_LEN, PROTOCOL_VERSION, Refusal};
+use crate::link::{
+    CHUNK_MAX_LEN, ConfigFault, ConfigPart, Identity, MAX_FRAME_LEN, PROTOCOL_VERSION, Refusal,
+};
 use crate::store::{BlobRef, ChunkOutcome, ConfigRef, Layout, Loaded, Origin, origin_status};
 use crate::time::Instant;
 use crate::{Error, Status};
@@ -206,12 +208,20 @@ impl<F: NorFlash> Service<F> {
 /// [`Refusal::BadConfig`].
 pub fn config_refusal(e: Error) -> Refusal {
     match e {
-        Error::OutOfRange(why) | Error::NotFinite(why) => Refusal::bad_config(why.text()),
+        Error::OutOfRange(why) | Error::NotFinite(why) => Refusal::BadConfig {
+            reason: ConfigFault::Value(why),
+        },
         e => match refusal(e) {
             r @ Refusal::BadConfig { .. } => r,
-            _ => Refusal::bad_config("configuration content"),
+            _ => Refusal::BadConfig {
+                reason: ConfigFault::Content,
+            },
         },
     }
+}
+
+fn bad_config(reason: ConfigFault) -> Refusal {
+    Refusal::BadConfig { reason }
 }
 
 /// The refusal that tells the host about `e`.
@@ -223,16 +233,16 @@ pub fn refusal(e: Error) -> Refusal {
         Error::LockedOut(ms) => Refusal::LockedOut {
             retry_after_ms: u32::try_from(ms).unwrap_or(u32::MAX),
         },
-        Error::OutOfRange(field) | Error::NotFinite(field) => Refusal::out_of_range(field.text()),
+        Error::OutOfRange(field) | Error::NotFinite(field) => Refusal::OutOfRange { field },
         Error::ChunkOrder(expected) => Refusal::ChunkOrder { expected },
         Error::BlobCrc => Refusal::BlobCrc,
         Error::RecordTooLarge => Refusal::BlobTooLarge,
         Error::Flash | Error::SequenceExhausted | Error::StoreLayout => Refusal::Storage,
-        Error::Malformed(why) => Refusal::bad_config(why.text()),
-        Error::ModelData(why) => Refusal::bad_config(why.text()),
-        Error::ModelUnusable(why) => Refusal::bad_config(why.text()),
-        Error::ChecksumMismatch => Refusal::bad_config("configuration checksum"),
-        Error::ProtocolVersion(_) => Refusal::bad_config("configuration format version"),
+        Error::Malformed(why) => bad_config(ConfigFault::Malformed(why)),
+        Error::ModelData(why) => bad_config(ConfigFault::ModelData(why)),
+        Error::ModelUnusable(why) => bad_config(ConfigFault::ModelUnusable(why)),
+        Error::ChecksumMismatch => bad_config(ConfigFault::Checksum),
+        Error::ProtocolVersion(_) => bad_config(ConfigFault::FormatVersion),
         _ => Refusal::Unsupported,
     }
 }

@@ -13,22 +13,20 @@
 //! the host to the device. A device decodes only the second kind and
 //! encodes only the first.
 //!
-//! This module is a leaf: it depends on the crate's formats and status word
-//! only. The device builds these messages from its pipeline's outputs
+//! This module is a leaf: it depends on the crate's formats, status word and
+//! error payloads only. The device builds these messages from its pipeline's outputs
 //! ([`crate::app`]).
 
 use heapless::{String, Vec};
 use postcard::experimental::max_size::MaxSize;
 use serde::{Deserialize, Serialize};
 
+use crate::error::{Condition, Defect, ModelDefect, Quantity};
 use crate::{Status, fx};
 
 /// Largest piece of a configuration carried by one [`Command::ConfigChunk`]
 /// or [`ConfigPart`], bytes.
 pub const CHUNK_MAX_LEN: usize = 128;
-/// Longest field name or reason a refusal carries, bytes (longer ones are
-/// cut).
-pub const FIELD_NAME_MAX_LEN: usize = 32;
 pub use crate::auth::{MAC_LEN, NONCE_LEN};
 /// Longest encoding of a [`Command`], bytes.
 pub const COMMAND_MAX_LEN: usize = <Command as MaxSize>::POSTCARD_MAX_SIZE;
@@ -539,15 +537,15 @@ pub enum Refusal {
         /// Time until they are taken again, ms.
         retry_after_ms: u32,
     },
-    /// A value is out of its range.
+    /// A value is out of its range (or not a number).
     OutOfRange {
         /// Which one.
-        field: String<FIELD_NAME_MAX_LEN>,
+        field: Quantity,
     },
     /// The configuration does not validate; nothing was committed.
     BadConfig {
         /// Why.
-        reason: String<FIELD_NAME_MAX_LEN>,
+        reason: ConfigFault,
     },
     /// The device cannot do this (a capability it lacks).
     Unsupported,
@@ -578,26 +576,45 @@ pub enum Refusal {
     },
 }
 
-impl Refusal {
-    /// An out-of-range refusal naming `field` (cut to fit).
-    pub fn out_of_range(field: &str) -> Refusal {
-        Refusal::OutOfRange { field: cut(field) }
-    }
+/// Why a configuration does not validate on the device: the core's typed
+/// reason, carried as such (a host shows its [`text`](ConfigFault::text)).
+/// New cases are appended, never inserted (postcard sends the index).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, MaxSize)]
+#[non_exhaustive]
+pub enum ConfigFault {
+    /// A value out of its range or not a number.
+    Value(Quantity),
+    /// Bytes that do not form what they should.
+    Malformed(Defect),
+    /// A gas-model table or blob refused.
+    ModelData(ModelDefect),
+    /// The gas model has no usable answer at a condition.
+    ModelUnusable(Condition),
+    /// The configuration's content, otherwise unnamed.
+    Content,
+    /// The configuration's checksum.
+    Checksum,
+    /// The configuration's format version.
+    FormatVersion,
+}
 
-    /// A configuration refusal saying why (cut to fit).
-    pub fn bad_config(reason: &str) -> Refusal {
-        Refusal::BadConfig {
-            reason: cut(reason),
+impl ConfigFault {
+    /// What is at fault, in words.
+    pub const fn text(self) -> &'static str {
+        match self {
+            ConfigFault::Value(q) => q.text(),
+            ConfigFault::Malformed(d) => d.text(),
+            ConfigFault::ModelData(d) => d.text(),
+            ConfigFault::ModelUnusable(c) => c.text(),
+            ConfigFault::Content => "configuration content",
+            ConfigFault::Checksum => "configuration checksum",
+            ConfigFault::FormatVersion => "configuration format version",
         }
     }
 }
 
-fn cut(s: &str) -> String<FIELD_NAME_MAX_LEN> {
-    let mut out = String::new();
-    for ch in s.chars() {
-        if out.push(ch).is_err() {
-            break;
-        }
+impl core::fmt::Display for ConfigFault {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.write_str(self.text())
     }
-    out
 }

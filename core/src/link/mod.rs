@@ -39,8 +39,11 @@ use crate::Error;
 use crate::checksum::crc32c;
 
 /// The protocol version this crate speaks; every frame carries it. Version 2:
-/// prepared configurations, message families per direction.
-pub const PROTOCOL_VERSION: u8 = 2;
+/// prepared configurations, message families per direction. Version 3:
+/// refusals carry the core's typed reasons ([`Refusal::OutOfRange`] a
+/// [`Quantity`](crate::Quantity), [`Refusal::BadConfig`] a [`ConfigFault`])
+/// instead of text.
+pub const PROTOCOL_VERSION: u8 = 3;
 
 /// Bytes before the body: version and kind.
 pub const HEADER_LEN: usize = 2;

@@ -192,6 +192,8 @@ fn requests_and_signed_commands_over_memory() {
     let junk: Vec<u8> = (0..5000u32).map(|i| (i % 251) as u8).collect();
     let m = refused(client.load_config(&junk, &mut |_, _| {}));
     assert!(m.contains("does not validate"), "{m}");
+    // The device's typed reason, in the core's words.
+    assert!(m.contains("(prepared configuration header)"), "{m}");
     // A configuration damaged after it was prepared (its own CRC-32C no
     // longer matches): refused too.
     let mut damaged = blob.bytes().to_vec();
@@ -199,6 +201,7 @@ fn requests_and_signed_commands_over_memory() {
     damaged[mid] ^= 0x10;
     let m = refused(client.load_config(&damaged, &mut |_, _| {}));
     assert!(m.contains("does not validate"), "{m}");
+    assert!(m.contains("(configuration checksum)"), "{m}");
     // Pieces whose CRC-32C over the whole is not the one announced.
     let m = refused(client.signed(Command::ConfigChunk {
         offset: 0,
