@@ -137,7 +137,7 @@ impl Error {
 /// in the core's words ("… is not a finite number", "… is outside the
 /// accepted range") with the option's name, since the core's errors name its
 /// own settings, not the host's options.
-pub fn fixed_option<T: isochor_core::fx::FixedValue>(
+pub(crate) fn fixed_option<T: isochor_core::fx::FixedValue>(
     value: f64,
     option: &'static str,
 ) -> Result<T, Error> {
