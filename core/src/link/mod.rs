@@ -39,11 +39,12 @@ use crate::Error;
 use crate::checksum::crc32c;
 
 /// The protocol version this crate speaks; every frame carries it. Version 2:
-/// prepared configurations, message families per direction. Version 3:
-/// refusals carry the core's typed reasons ([`Refusal::OutOfRange`] a
+/// prepared configurations, message families per direction; version 3: the
+/// telemetry says why no time to empty is given; version 4: refusals carry
+/// the core's typed reasons ([`Refusal::OutOfRange`] a
 /// [`Quantity`](crate::Quantity), [`Refusal::BadConfig`] a [`ConfigFault`])
 /// instead of text.
-pub const PROTOCOL_VERSION: u8 = 3;
+pub const PROTOCOL_VERSION: u8 = 4;
 
 /// Bytes before the body: version and kind.
 pub const HEADER_LEN: usize = 2;
