@@ -353,7 +353,6 @@ named! {
         Composition => "composition",
         MixtureComposition => "composition of the setup's mixture",
         GasComposition => "composition of the setup's gas",
-        BarometricPressure => "barometric pressure",
     }
 }
 
