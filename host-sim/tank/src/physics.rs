@@ -184,6 +184,51 @@ pub struct Draw {
     /// The regulator's lowest inlet pressure, Pa absolute: below it the flow
     /// falls in proportion to p − p_atm.
     pub min_pressure_pa: f64,
+    /// An irregular schedule: the demand of each day (day n from n·24 h),
+    /// kg/s, 0 on days without the draw, none after the last entry; empty:
+    /// every day at `kg_s`.
+    pub day_demand: Vec<f64>,
+}
+
+impl Draw {
+    /// The demand on the day of `t_s` (the draw's windows and span aside),
+    /// kg/s.
+    pub fn day_kg_s(&self, t_s: f64) -> f64 {
+        if self.day_demand.is_empty() {
+            return self.kg_s;
+        }
+        let day = (t_s / DAY_S).floor();
+        if day < 0.0 {
+            return 0.0;
+        }
+        self.day_demand.get(day as usize).copied().unwrap_or(0.0)
+    }
+
+    /// Whether the draw runs at `t_s`: inside its span, on one of its days
+    /// and inside one of its daily windows.
+    pub fn on(&self, t_s: f64) -> bool {
+        if t_s < self.start_s || t_s >= self.end_s {
+            return false;
+        }
+        if !self.day_demand.is_empty() && self.day_kg_s(t_s) <= 0.0 {
+            return false;
+        }
+        if self.windows.is_empty() {
+            return true;
+        }
+        let hour = (t_s.rem_euclid(DAY_S)) / 3600.0;
+        self.windows.iter().any(|&(a, b)| hour >= a && hour < b)
+    }
+
+    /// The demand at `t_s` (0 while the draw does not run), kg/s, before the
+    /// regulator's limit.
+    pub fn demand_kg_s(&self, t_s: f64) -> f64 {
+        if self.on(t_s) {
+            self.day_kg_s(t_s)
+        } else {
+            0.0
+        }
+    }
 }
 
 /// A leak to ambient through an orifice.
@@ -637,11 +682,13 @@ impl Simulator {
                 changed = true;
             }
         }
-        // Draw windows, sunrise/sunset and midnight are breakpoints only.
+        // Draw windows, sunrise/sunset and midnight are breakpoints only
+        // (a day's new demand on an irregular schedule changes the rates).
         Ok(changed
             || self.plant.draws.iter().any(|d| {
-                let on = |x: f64| self.draw_on(d, x);
-                on(t - 1e-6) != on(t + 1e-6)
+                d.on(t - 1e-6) != d.on(t + 1e-6)
+                    || (!d.day_demand.is_empty()
+                        && d.demand_kg_s(t - 1e-6) != d.demand_kg_s(t + 1e-6))
             }))
     }
 
@@ -728,9 +775,9 @@ impl Simulator {
         // Flows.
         let mut out = 0.0;
         for d in &self.plant.draws {
-            if self.draw_on(d, t) {
+            if d.on(t) {
                 let room = ((p - p_amb) / (d.min_pressure_pa - p_amb).max(1.0)).clamp(0.0, 1.0);
-                out += d.kg_s * room;
+                out += d.day_kg_s(t) * room;
             }
         }
         let open_area: f64 = self.modes.leak_area.iter().flatten().sum::<f64>()
@@ -876,18 +923,6 @@ impl Simulator {
         }
         self.p_guess = p_save;
         Ok((y1, err, k[6], last))
-    }
-
-    /// Whether draw `d` runs at `t`.
-    fn draw_on(&self, d: &Draw, t: f64) -> bool {
-        if t < d.start_s || t >= d.end_s {
-            return false;
-        }
-        if d.windows.is_empty() {
-            return true;
-        }
-        let hour = (t.rem_euclid(DAY_S)) / 3600.0;
-        d.windows.iter().any(|&(a, b)| hour >= a && hour < b)
     }
 
     /// The first breakpoint after `t`.

@@ -38,7 +38,7 @@ use serde::Deserialize;
 pub const FORMAT: &str = "isochor-scenario 1";
 
 /// The built-in scenarios: (name, TOML text). The first is the demo.
-pub const BUILTIN: [(&str, &str); 13] = [
+pub const BUILTIN: [(&str, &str); 15] = [
     (
         "workshop-leak",
         include_str!("../scenarios/workshop-leak.toml"),
@@ -91,6 +91,14 @@ pub const BUILTIN: [(&str, &str); 13] = [
         "methane-store-winter",
         include_str!("../scenarios/methane-store-winter.toml"),
     ),
+    (
+        "transmitter-ramp",
+        include_str!("../scenarios/transmitter-ramp.toml"),
+    ),
+    (
+        "workshop-odd-days",
+        include_str!("../scenarios/workshop-odd-days.toml"),
+    ),
 ];
 
 /// A scenario file as written.
@@ -108,9 +116,14 @@ pub struct ScenarioFile {
     /// Sample interval of the gauge (`"1s"`, default).
     #[serde(default = "default_interval")]
     pub sample_interval: String,
-    /// Seed of every random part (weather, noise, drawn instrument errors).
+    /// Seed of every random part (weather, noise, drawn instrument errors,
+    /// irregular draw schedules).
     #[serde(default)]
     pub seed: u64,
+    /// The weekday of the run's first day, for `[[draw]] weekdays`
+    /// (`"mon"` … `"sun"`, default `"mon"`).
+    #[serde(default = "default_weekday")]
+    pub start_weekday: String,
     /// The tank.
     pub tank: TankSection,
     /// The weather.
@@ -142,6 +155,53 @@ pub struct ScenarioFile {
 
 fn default_interval() -> String {
     "1s".into()
+}
+fn default_weekday() -> String {
+    "mon".into()
+}
+
+/// The weekdays, day 0 of a week first.
+const WEEKDAYS: [&str; 7] = ["mon", "tue", "wed", "thu", "fri", "sat", "sun"];
+
+/// Days in the longest run (two years), for irregular draw schedules.
+const SCHEDULE_DAYS: usize = 2 * 366 + 1;
+
+fn weekday(input: &str, what: &'static str) -> Result<usize, Error> {
+    let w = input.trim().to_ascii_lowercase();
+    WEEKDAYS.iter().position(|d| *d == w).ok_or_else(|| {
+        bad(
+            what,
+            format!("'{input}': mon, tue, wed, thu, fri, sat or sun"),
+        )
+    })
+}
+
+/// The demand of each day of an irregular draw schedule, kg/s (see
+/// [`DrawSection`]): days allowed by `days` and `weekdays` run with
+/// probability `probability`, at a demand uniform in `lo … hi`. The draws
+/// come from a generator of their own (the seed and the draw's index), two
+/// per day in day order whatever the filters say, so a schedule depends on
+/// the seed and the draw's own keys only, never on the weather or the
+/// other draws.
+fn day_demands(
+    seed: u64,
+    index: usize,
+    allowed: impl Fn(usize) -> bool,
+    probability: f64,
+    lo: f64,
+    hi: f64,
+) -> Vec<f64> {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0xD7A0_5C4E_0000_0000 ^ index as u64);
+    (0..SCHEDULE_DAYS)
+        .map(|day| {
+            let (u_on, u_flow) = (rng.random::<f64>(), rng.random::<f64>());
+            if allowed(day) && u_on < probability {
+                lo + (hi - lo) * u_flow
+            } else {
+                0.0
+            }
+        })
+        .collect()
 }
 
 /// `[tank]`.
@@ -306,6 +366,20 @@ pub struct DrawSection {
     /// The regulator's lowest inlet pressure, absolute (default 5 bar).
     #[serde(default = "default_regulator")]
     pub min_pressure: String,
+    /// Only on these days, counted from 0 (day n runs from n·24 h: `start =
+    /// "3d"` is the start of day 3); none: every day.
+    #[serde(default)]
+    pub days: Vec<u32>,
+    /// Only on these weekdays (`["mon", "thu"]`; day 0 is the scenario's
+    /// `start_weekday`); none: every day.
+    #[serde(default)]
+    pub weekdays: Vec<String>,
+    /// Each day the draw may run on (by `days` and `weekdays`), it runs with
+    /// this probability (0 … 1), drawn from the scenario's seed (default 1).
+    pub probability: Option<f64>,
+    /// With it, each day's demand is drawn uniformly between `flow` and
+    /// this (from the seed; same units as `flow`).
+    pub flow_max: Option<String>,
 }
 
 fn default_zero_s() -> String {
@@ -454,7 +528,8 @@ fn default_tau() -> String {
 pub struct FaultSection {
     /// `pressure` or `temperature`.
     pub channel: Channel,
-    /// `open`, `short`, `stuck`, `spikes`, `failure_low`, `failure_high`.
+    /// `open`, `short`, `stuck`, `spikes`, `failure_low`, `failure_high`,
+    /// `ramp`.
     pub kind: FaultKind,
     /// Start.
     pub start: String,
@@ -463,6 +538,13 @@ pub struct FaultSection {
     /// Spikes per hour (spikes only; default 6).
     #[serde(default = "default_spikes")]
     pub spikes_per_hour: f64,
+    /// Ramps only (required there): how far the reading ends up from the
+    /// truth, a pressure difference (`"+30bar"`, `"-8bar"`) or a temperature
+    /// difference (`"-8K"`) by the channel.
+    pub to: Option<String>,
+    /// Ramps only (required there): the time the reading takes to get
+    /// there, linearly (`"2h"`; above 0).
+    pub over: Option<String>,
 }
 
 fn default_spikes() -> f64 {
@@ -835,8 +917,9 @@ impl ScenarioFile {
         if weather.sunset_hour <= weather.sunrise_hour {
             return Err(bad("ambient.sunset", "must be after sunrise"));
         }
+        let first_weekday = weekday(&self.start_weekday, "start_weekday")?;
         let mut draws = Vec::new();
-        for d in &self.draw {
+        for (i, d) in self.draw.iter().enumerate() {
             let mut windows = Vec::new();
             for w in &d.daily {
                 let (x, y) = w
@@ -848,15 +931,49 @@ impl ScenarioFile {
                 }
                 windows.push((x, y));
             }
+            let kg_s = flow_kg_s(&d.flow, gas, "draw.flow")?;
+            let irregular = !d.days.is_empty()
+                || !d.weekdays.is_empty()
+                || d.probability.is_some()
+                || d.flow_max.is_some();
+            let day_demand = if irregular {
+                let probability = d.probability.unwrap_or(1.0);
+                if !(0.0..=1.0).contains(&probability) {
+                    return Err(bad("draw.probability", "0 … 1"));
+                }
+                let hi = match &d.flow_max {
+                    Some(f) => flow_kg_s(f, gas, "draw.flow_max")?,
+                    None => kg_s,
+                };
+                if hi < kg_s {
+                    return Err(bad("draw.flow_max", "must not be below flow"));
+                }
+                let week: Vec<usize> = d
+                    .weekdays
+                    .iter()
+                    .map(|w| weekday(w, "draw.weekdays"))
+                    .collect::<Result<_, _>>()?;
+                if let Some(&n) = d.days.iter().find(|&&n| n as usize >= SCHEDULE_DAYS) {
+                    return Err(bad("draw.days", format!("day {n} is beyond two years")));
+                }
+                let allowed = |day: usize| {
+                    (d.days.is_empty() || d.days.contains(&(day as u32)))
+                        && (week.is_empty() || week.contains(&((first_weekday + day) % 7)))
+                };
+                day_demands(self.seed, i, allowed, probability, kg_s, hi)
+            } else {
+                Vec::new()
+            };
             draws.push(Draw {
                 start_s: duration_s(&d.start, "draw.start")?,
                 end_s: match &d.end {
                     Some(e) => duration_s(e, "draw.end")?,
                     None => f64::INFINITY,
                 },
-                kg_s: flow_kg_s(&d.flow, gas, "draw.flow")?,
+                kg_s,
                 windows,
                 min_pressure_pa: units::pressure_pa(&d.min_pressure, "draw.min_pressure")?,
+                day_demand,
             });
         }
         let mut leaks = Vec::new();
@@ -1050,6 +1167,24 @@ impl ScenarioFile {
                     "failure currents need a 4–20 mA pressure channel",
                 ));
             }
+            let (ramp_to, ramp_over_s) = match (f.kind, &f.to, &f.over) {
+                (FaultKind::Ramp, Some(to), Some(over)) => {
+                    let to = match f.channel {
+                        Channel::Pressure => units::pressure_pa(to, "fault.to")?,
+                        Channel::Temperature => kelvin_diff(to, "fault.to")?,
+                    };
+                    let over = duration_s(over, "fault.over")?;
+                    if over <= 0.0 {
+                        return Err(bad("fault.over", "must be longer than 0 s"));
+                    }
+                    (to, over)
+                }
+                (FaultKind::Ramp, _, _) => {
+                    return Err(bad("fault", "a ramp needs `to` and `over`"));
+                }
+                (_, None, None) => (0.0, 0.0),
+                _ => return Err(bad("fault", "`to` and `over` are for ramps only")),
+            };
             faults.push(Fault {
                 channel: f.channel,
                 kind: f.kind,
@@ -1059,6 +1194,8 @@ impl ScenarioFile {
                     None => f64::INFINITY,
                 },
                 spikes_per_hour: f.spikes_per_hour.max(0.0),
+                ramp_to,
+                ramp_over_s,
             });
         }
 

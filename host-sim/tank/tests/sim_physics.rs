@@ -188,6 +188,7 @@ fn mass_and_energy_are_conserved() {
         kg_s: 0.5 / 3600.0,
         windows: vec![(8.0, 12.0), (13.0, 17.5)],
         min_pressure_pa: 5e5,
+        day_demand: Vec::new(),
     });
     p.leaks.push(Leak {
         start_s: DAY_S,
@@ -261,6 +262,7 @@ fn adaptive_steps_match_short_steps() {
         kg_s: 0.25 / 3600.0,
         windows: vec![(0.0, 8.0), (18.0, 24.0)],
         min_pressure_pa: 10e5,
+        day_demand: Vec::new(),
     });
     let mut a = Simulator::new(p.clone()).unwrap();
     let mut b = Simulator::new(p).unwrap().with_max_step(10.0);
