@@ -9,7 +9,10 @@
 //! never silently falls back to a default.
 
 use super::gauge::{GaugeConfig, ModelKind};
-use super::physics::{self, Blowdown, Draw, Fill, Front, Leak, LeakSize, Plant, Vessel, Weather};
+use super::physics::{
+    self, Blowdown, Cylinder, Draw, Fill, Front, Leak, LeakSize, MAX_CYLINDERS, Manifold, Plant,
+    Vessel, Weather,
+};
 use super::sensors::{
     self, Channel, Fault, FaultKind, Mount, PressureFrontEnd, PressureSensor, TemperatureFrontEnd,
     TemperatureSensor,
@@ -38,7 +41,7 @@ use serde::Deserialize;
 pub const FORMAT: &str = "isochor-scenario 1";
 
 /// The built-in scenarios: (name, TOML text). The first is the demo.
-pub const BUILTIN: [(&str, &str); 15] = [
+pub const BUILTIN: [(&str, &str); 16] = [
     (
         "workshop-leak",
         include_str!("../scenarios/workshop-leak.toml"),
@@ -99,6 +102,10 @@ pub const BUILTIN: [(&str, &str); 15] = [
         "workshop-odd-days",
         include_str!("../scenarios/workshop-odd-days.toml"),
     ),
+    (
+        "lab-argon-manifold",
+        include_str!("../scenarios/lab-argon-manifold.toml"),
+    ),
 ];
 
 /// A scenario file as written.
@@ -148,6 +155,13 @@ pub struct ScenarioFile {
     /// Sensor faults.
     #[serde(default)]
     pub fault: Vec<FaultSection>,
+    /// Several cylinders on one manifold (two or more; none: the single
+    /// `[tank]`, whose keys are then the cylinders' defaults).
+    #[serde(default)]
+    pub cylinder: Vec<CylinderSection>,
+    /// Cylinder valves opened or closed at chosen times.
+    #[serde(default)]
+    pub valve: Vec<ValveSection>,
     /// The gauge under test.
     #[serde(default)]
     pub gauge: GaugeSection,
@@ -387,6 +401,53 @@ fn default_zero_s() -> String {
 }
 fn default_regulator() -> String {
     "5bar".into()
+}
+
+/// `[[cylinder]]`: one cylinder of a manifolded group; every key but the
+/// valve's defaults to `[tank]`'s.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CylinderSection {
+    /// Water capacity (`"50L"`).
+    pub water_capacity: Option<String>,
+    /// Pressure at the start, absolute.
+    pub pressure: Option<String>,
+    /// Gas and wall temperature at the start.
+    pub temperature: Option<String>,
+    /// Mass of the wall, kg.
+    pub wall_mass_kg: Option<f64>,
+    /// Share of the projected side area in the sun (0 … 1).
+    pub sun_exposure: Option<f64>,
+    /// Effective area of its valve to the header (default `"3mm2"`).
+    #[serde(default = "default_valve_area")]
+    pub valve_area: String,
+    /// Whether its valve is open at the start (default true).
+    #[serde(default = "default_true")]
+    pub open: bool,
+    /// The gauge's temperature sensor is on this cylinder (at most one;
+    /// default: the first).
+    #[serde(default)]
+    pub temperature_sensor: bool,
+}
+
+fn default_valve_area() -> String {
+    "3mm2".into()
+}
+fn default_true() -> bool {
+    true
+}
+
+/// `[[valve]]`: a cylinder's valve opened or closed at a time.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ValveSection {
+    /// The cylinder, numbered from 1 in the order of the `[[cylinder]]`
+    /// tables.
+    pub cylinder: usize,
+    /// When (`"40h"`).
+    pub at: String,
+    /// Opened (`true`) or closed (`false`).
+    pub open: bool,
 }
 
 /// `[[leak]]`.
@@ -871,21 +932,24 @@ impl ScenarioFile {
                 return Err(bad(what, "0 … 1"));
             }
         }
-        let (area, side) = Vessel::cylinder_areas(cap, t.length_to_diameter);
-        let vessel = Vessel {
-            water_capacity_m3: cap,
-            elastic_per_pa: t.elastic_expansion_per_bar / BAR_PA,
-            thermal_per_k: t.thermal_expansion_per_k,
-            reference_k: rated_t,
-            wall_heat_capacity_j_k: t.wall_mass_kg * t.wall_specific_heat_j_kg_k,
-            inner_area_m2: area,
-            // The outer surface of a wall a few per cent of the diameter thick.
-            outer_area_m2: 1.1 * area,
-            inner_htc: t.inner_htc_w_m2_k,
-            fill_htc: t.fill_htc_w_m2_k,
-            outer_htc: t.outer_htc_w_m2_k,
-            sun_area_m2: side * t.sun_exposure * t.absorptivity,
+        let make_vessel = |cap: f64, wall_mass_kg: f64, sun_exposure: f64| {
+            let (area, side) = Vessel::cylinder_areas(cap, t.length_to_diameter);
+            Vessel {
+                water_capacity_m3: cap,
+                elastic_per_pa: t.elastic_expansion_per_bar / BAR_PA,
+                thermal_per_k: t.thermal_expansion_per_k,
+                reference_k: rated_t,
+                wall_heat_capacity_j_k: wall_mass_kg * t.wall_specific_heat_j_kg_k,
+                inner_area_m2: area,
+                // The outer surface of a wall a few per cent of the diameter thick.
+                outer_area_m2: 1.1 * area,
+                inner_htc: t.inner_htc_w_m2_k,
+                fill_htc: t.fill_htc_w_m2_k,
+                outer_htc: t.outer_htc_w_m2_k,
+                sun_area_m2: side * sun_exposure * t.absorptivity,
+            }
         };
+        let vessel = make_vessel(cap, t.wall_mass_kg, t.sun_exposure);
         let a = &self.ambient;
         let weather = Weather {
             mean_k: units::temperature_k(&a.mean, "ambient.mean")?,
@@ -1017,6 +1081,114 @@ impl ScenarioFile {
             .as_deref()
             .map(|s| units::temperature_k(s, "tank.temperature"))
             .transpose()?;
+        let manifold = if self.cylinder.is_empty() {
+            if !self.valve.is_empty() {
+                return Err(bad("valve", "valves are for [[cylinder]] groups"));
+            }
+            None
+        } else {
+            let n = self.cylinder.len();
+            if !(2..=MAX_CYLINDERS).contains(&n) {
+                return Err(bad(
+                    "cylinder",
+                    format!("a manifold has 2 … {MAX_CYLINDERS} cylinders"),
+                ));
+            }
+            if !fills.is_empty() || !blowdowns.is_empty() {
+                return Err(bad(
+                    "cylinder",
+                    "[[fill]] and [[blowdown]] are for a single [tank]",
+                ));
+            }
+            let mut cylinders = Vec::new();
+            for c in &self.cylinder {
+                let cap_i = match &c.water_capacity {
+                    Some(v) => units::volume_m3(v, "cylinder.water_capacity")?,
+                    None => cap,
+                };
+                let wall = c.wall_mass_kg.unwrap_or(t.wall_mass_kg);
+                let sun = c.sun_exposure.unwrap_or(t.sun_exposure);
+                if !(cap_i.is_finite() && cap_i > 0.0) {
+                    return Err(bad("cylinder.water_capacity", "must be positive"));
+                }
+                if !(wall.is_finite() && wall > 0.0) {
+                    return Err(bad("cylinder.wall_mass_kg", "must be positive"));
+                }
+                if !(0.0..=1.0).contains(&sun) {
+                    return Err(bad("cylinder.sun_exposure", "0 … 1"));
+                }
+                let valve = area_m2(&c.valve_area, "cylinder.valve_area")?;
+                if valve <= 0.0 {
+                    return Err(bad("cylinder.valve_area", "must be above 0"));
+                }
+                cylinders.push(Cylinder {
+                    vessel: make_vessel(cap_i, wall, sun),
+                    initial_pressure_pa: match &c.pressure {
+                        Some(v) => units::pressure_pa(v, "cylinder.pressure")?,
+                        None => initial_pressure,
+                    },
+                    initial_temperature_k: match &c.temperature {
+                        Some(v) => Some(units::temperature_k(v, "cylinder.temperature")?),
+                        None => initial_temperature,
+                    },
+                    valve_area_m2: valve,
+                    open: c.open,
+                    switches: Vec::new(),
+                });
+            }
+            let mut valves = Vec::new();
+            for v in &self.valve {
+                if !(1..=n).contains(&v.cylinder) {
+                    return Err(bad(
+                        "valve.cylinder",
+                        format!("{}: the cylinders are 1 … {n}", v.cylinder),
+                    ));
+                }
+                valves.push((v.cylinder - 1, duration_s(&v.at, "valve.at")?, v.open));
+            }
+            valves.sort_by(|a, b| a.1.total_cmp(&b.1));
+            for (i, at, open) in valves {
+                cylinders[i].switches.push((at, open));
+            }
+            let sensors: Vec<usize> = (0..n)
+                .filter(|&i| self.cylinder[i].temperature_sensor)
+                .collect();
+            let sensor = match sensors[..] {
+                [] => 0,
+                [i] => i,
+                _ => {
+                    return Err(bad(
+                        "cylinder.temperature_sensor",
+                        "the temperature sensor is on one cylinder",
+                    ));
+                }
+            };
+            // The gauge is told the water capacity open to the header at
+            // the start (docs/simulator.md, "Several cylinders on one
+            // manifold").
+            let open_cap: f64 = cylinders
+                .iter()
+                .filter(|c| c.open)
+                .map(|c| c.vessel.water_capacity_m3)
+                .sum();
+            if open_cap <= 0.0 {
+                return Err(bad("cylinder.open", "open at least one valve at the start"));
+            }
+            tank.water_capacity_m3 = open_cap;
+            tank.validate()?;
+            Some(Manifold { cylinders, sensor })
+        };
+        let (vessel, initial_pressure, initial_temperature) = match &manifold {
+            Some(m) => {
+                let c = &m.cylinders[m.sensor];
+                (
+                    c.vessel.clone(),
+                    c.initial_pressure_pa,
+                    c.initial_temperature_k,
+                )
+            }
+            None => (vessel, initial_pressure, initial_temperature),
+        };
         let plant = Plant {
             gas,
             vessel,
@@ -1028,6 +1200,7 @@ impl ScenarioFile {
             blowdowns,
             fills,
             seed: self.seed,
+            manifold,
         };
 
         // The gauge's declaration.
@@ -1200,7 +1373,7 @@ impl ScenarioFile {
         }
 
         let mut declared_tank = tank;
-        declared_tank.water_capacity_m3 = cap * (1.0 + d_cap);
+        declared_tank.water_capacity_m3 = tank.water_capacity_m3 * (1.0 + d_cap);
         let setup = Setup::new(gas, declared_tank);
         let mut track = TrackConfig::for_tank(&declared_tank, unc);
         track.leak_mode = match g.leak_mode.as_str() {

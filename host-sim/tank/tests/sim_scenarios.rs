@@ -633,3 +633,40 @@ fn irregular_draw_schedules_are_deterministic_per_seed() {
     // Two windows of 90 min a day, each minute mark inside one.
     assert_eq!(drawn_minutes, scheduled_days * 180);
 }
+
+/// The manifold's keys: the group parsed as written (capacity told: the
+/// cylinders open at the start; valve changes in time order; the sensor's
+/// cylinder), and refused where they do not fit.
+#[test]
+fn manifold_keys_are_checked() {
+    let text = BUILTIN
+        .iter()
+        .find(|b| b.0 == "lab-argon-manifold")
+        .unwrap()
+        .1;
+    let sc = Scenario::from_toml(text).unwrap();
+    let m = sc.plant.manifold.as_ref().unwrap();
+    assert_eq!(m.cylinders.len(), 4);
+    assert_eq!(m.sensor, 0);
+    assert_eq!(sc.tank.water_capacity_m3, 0.1);
+    assert_eq!(m.cylinders[0].switches, [(28.0 * 3600.0, false)]);
+    assert_eq!(m.cylinders[3].switches, [(28.0 * 3600.0, true)]);
+    assert!(!m.cylinders[2].open && m.cylinders[2].initial_pressure_pa == 198e5);
+    let cases = [
+        text.replace("cylinder = 4\n", "cylinder = 5\n"),
+        text.replace("pressure = \"52bar\"", "pressure = \"52bar\"\ntemperature_sensor = true"),
+        text.replace("pressure = \"52bar\"", "pressure = \"52bar\"\nvalve_area = \"0mm2\""),
+        text.replace("pressure = \"52bar\"", "pressure = \"52bar\"\nsun_exposure = 2.0"),
+        text.replace("pressure = \"52bar\"", "pressure = \"52bar\"\ncolour = \"blue\""),
+        text.replace("pressure = \"60bar\"\n", "pressure = \"60bar\"\nopen = false\n")
+            .replace("pressure = \"52bar\"\n", "pressure = \"52bar\"\nopen = false\n"),
+        text.replace("[[draw]]", "[[fill]]\nstart = \"1h\"\nsupply_pressure = \"300bar\"\nsupply_temperature = \"20C\"\narea = \"1mm2\"\nto_pressure = \"200bar\"\n\n[[draw]]"),
+        BUILTIN[0].1.replace("[gauge]", "[[valve]]\ncylinder = 1\nat = \"1h\"\nopen = false\n\n[gauge]"),
+    ];
+    for (i, t) in cases.iter().enumerate() {
+        assert_ne!(t, text, "case {i} changed nothing");
+        let e = Scenario::from_toml(t);
+        assert!(e.is_err(), "case {i} was accepted");
+        assert_eq!(e.unwrap_err().exit_code(), 2, "case {i}");
+    }
+}

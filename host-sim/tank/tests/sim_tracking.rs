@@ -360,3 +360,40 @@ fn irregular_draws_raise_no_leak() {
     assert!(s.time_to_empty_coverage.unwrap() >= 0.9);
     assert!(s.mass_end_kg < 0.7 * s.mass_start_kg);
 }
+
+/// Four argon cylinders on a lab manifold, bank A in service, bank B
+/// changed over at 28 h: the gauge (told one bank's 100 L) raises
+/// `low_content` as bank A runs down, takes the changeover as a fill
+/// (`not_settled` while the fresh bank's gas settles, `low_content`
+/// cleared), keeps its content within U, no false alarm, no leak.
+#[test]
+fn manifold_changeover_reads_as_a_fill() {
+    let r = both("lab-argon-manifold");
+    let s = &r.summary;
+    assert_eq!(s.false_alarms, 0);
+    assert_eq!(raised(s, "leak").count(), 0);
+    let change = 28.0 * 3600.0;
+    let low: Vec<f64> = raised(s, "low_content").collect();
+    assert_eq!(low.len(), 1, "{:?}", s.alarms);
+    assert!(low[0] < change);
+    assert!(s.alarms.iter().any(|e| e.alarm == "low_content"
+        && e.change == "cleared"
+        && (change..change + 600.0).contains(&e.t_s)));
+    assert!(s.uncertainty_coverage.unwrap() >= 0.95);
+    assert!(s.time_to_empty_coverage.unwrap() >= 0.9);
+    // The content open to the header jumps at the changeover.
+    let before = r
+        .trace
+        .iter()
+        .rfind(|p| p.t_s < change)
+        .unwrap()
+        .mass_true_kg;
+    let after = r
+        .trace
+        .iter()
+        .find(|p| p.t_s > change + 60.0)
+        .unwrap()
+        .mass_true_kg;
+    assert!(after > 5.0 * before, "{before} → {after}");
+    assert_eq!(s.instrument.capacity_told_m3, 0.1);
+}
