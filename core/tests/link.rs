@@ -118,6 +118,7 @@ fn max_frame_is_small_and_reached_by_no_message() {
             mass_uncertainty_kg: Some(u64::MAX),
             fill_fraction_uncertainty: Some(u64::MAX),
             leak_loss_per_day: Some(i64::MIN),
+            time_to_empty_withheld: Some(u8::MAX),
             status: u32::MAX,
         }),
         FromDevice::Boot(Boot {
@@ -316,10 +317,11 @@ fn telemetry() -> impl Strategy<Value = Telemetry> {
             any::<Option<i64>>(),
             any::<(Option<u32>, Option<u32>)>(),
             any::<(Option<u64>, Option<i64>)>(),
+            any::<Option<u8>>(),
         ),
     )
         .prop_map(
-            |((a, b, c, d, e, f), (g, h, i, j, k), (l, m, n, (o, p), (q, r)))| Telemetry {
+            |((a, b, c, d, e, f), (g, h, i, j, k), (l, m, n, (o, p), (q, r), w))| Telemetry {
                 seq: a,
                 uptime_ms: b,
                 pressure_pa: c,
@@ -337,6 +339,7 @@ fn telemetry() -> impl Strategy<Value = Telemetry> {
                 mass_uncertainty_kg: l,
                 fill_fraction_uncertainty: q,
                 leak_loss_per_day: r,
+                time_to_empty_withheld: w,
                 status: m,
             },
         )

@@ -33,7 +33,8 @@ pub struct Agreement {
     /// Largest |Δ predicted settled fraction|.
     pub settled_fraction: f64,
     /// Samples where one path had a rate, time to empty, leak verdict or
-    /// settled prediction and the other not, or the leak verdicts differ.
+    /// settled prediction and the other not, the leak verdicts differ, or
+    /// (rate told from zero) the reasons for no time to empty differ.
     pub presence_mismatches: u64,
     /// Samples whose tracking-and-alarm status bits differ.
     pub status_mismatches: u64,
@@ -62,6 +63,7 @@ impl Agreement {
         let confident = b.rate.is_some_and(|r| r.confidence >= 0.5);
         let mut presence = a.rate.is_some() != b.rate.is_some()
             || (confident && a.time_to_empty.is_some() != b.time_to_empty.is_some())
+            || (confident && a.time_to_empty_withheld != b.time_to_empty_withheld)
             || a.leak.is_some() != b.leak.is_some()
             || a.settling.predicted.is_some() != b.settling.predicted.is_some();
         if let (Some(ra), Some(rb)) = (a.rate, b.rate) {

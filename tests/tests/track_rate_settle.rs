@@ -4,11 +4,12 @@
 
 use isochor_core::alarm::AlarmKind;
 use isochor_core::model::Ideal;
-use isochor_core::track::float::TrackConfig;
+use isochor_core::track::float::{NoTimeToEmpty, TrackConfig};
 use isochor_core::uncertainty::float::UncertaintyConfig;
 use isochor_core::{Status, fx};
 use isochor_tests::synth::{Fill, HOUR_MS, Scenario, rated_mass};
 use isochor_tests::tracking::{RateScore, run, tank_of};
+use std::collections::BTreeMap;
 
 fn config(sc: &Scenario) -> TrackConfig {
     TrackConfig::for_tank(&tank_of(sc), UncertaintyConfig::example(300e5))
@@ -105,6 +106,119 @@ fn rate_and_time_to_empty_under_a_steady_draw() {
         score.tte_coverage()
     );
     agree.assert_close("steady draw");
+}
+
+#[test]
+fn time_to_empty_says_why_it_is_withheld() {
+    // 50 L nitrogen at 40 % of its rated content, mild weather (±3 K), idle
+    // for 5 h, then a draw of 6 % of the rated content per hour to the end
+    // (12 h): the reserve (5 %) is reached 5.8 h into the draw. Each phase
+    // must give its own reason, in both paths alike (checked by `agree`).
+    let mut sc = Scenario::standby(1, 53);
+    let m_rated = rated_mass(sc.gas, sc.capacity_m3, 200e5, 288.15);
+    sc.mass0_kg = 0.40 * m_rated;
+    sc.weather.swing_k = 3.0;
+    sc.draw_start_ms = 5 * HOUR_MS;
+    sc.draw_kg_h = 0.06 * m_rated;
+    sc.duration_ms = 12 * HOUR_MS;
+    let cfg = config(&sc);
+    let reserve_at = sc.draw_start_ms + ((0.40 - 0.05) / 0.06 * HOUR_MS as f64) as u64;
+    // Minutes per phase and reason (None: a time to empty shown).
+    let mut idle: BTreeMap<Option<NoTimeToEmpty>, u32> = BTreeMap::new();
+    let mut drawing: Vec<(u64, Option<NoTimeToEmpty>)> = Vec::new();
+    let mut below: BTreeMap<Option<NoTimeToEmpty>, u32> = BTreeMap::new();
+    let mut first = None;
+    let agree = run(&sc, &cfg, |s, a, _| {
+        assert_eq!(
+            a.time_to_empty.is_some(),
+            a.time_to_empty_withheld.is_none(),
+            "a reason exactly when no time to empty is given"
+        );
+        if s.t_ms % 60_000 != 0 {
+            return;
+        }
+        first.get_or_insert(a.time_to_empty_withheld);
+        let why = a.time_to_empty_withheld;
+        if a.rate.is_some() && s.t_ms < sc.draw_start_ms {
+            *idle.entry(why).or_default() += 1;
+        } else if s.t_ms >= sc.draw_start_ms && s.t_ms < reserve_at.saturating_sub(30 * 60_000) {
+            drawing.push((s.t_ms - sc.draw_start_ms, why));
+        } else if s.t_ms > reserve_at + 30 * 60_000 {
+            *below.entry(why).or_default() += 1;
+        }
+    });
+    let count = |v: &[(u64, Option<NoTimeToEmpty>)], w: Option<NoTimeToEmpty>| {
+        v.iter().filter(|(_, x)| *x == w).count()
+    };
+    println!(
+        "reasons: first {first:?}; idle {idle:?}; drawing: changing {} min, cooling {} min, shown {} min of {} (the rest not yet measurably emptying: {}); below the reserve {below:?}; {}",
+        count(&drawing, Some(NoTimeToEmpty::DrawChanging)),
+        count(&drawing, Some(NoTimeToEmpty::DrawCooling)),
+        count(&drawing, None),
+        drawing.len(),
+        count(&drawing, Some(NoTimeToEmpty::NotEmptying)),
+        agree.summary(),
+    );
+    // Start-up: the rate window fills.
+    assert_eq!(first, Some(Some(NoTimeToEmpty::Learning)));
+    // Idle: not measurably emptying in nearly every minute (the rate's k = 2
+    // interval holds zero in about 95 % of them), never a time to empty of
+    // years.
+    let idle_total: u32 = idle.values().sum();
+    let not_emptying = idle
+        .get(&Some(NoTimeToEmpty::NotEmptying))
+        .copied()
+        .unwrap_or(0);
+    assert!(idle_total > 200, "idle minutes with a rate: {idle_total}");
+    assert!(
+        f64::from(not_emptying) >= 0.9 * f64::from(idle_total),
+        "idle: {idle:?}"
+    );
+    assert!(
+        idle.get(&None).copied().unwrap_or(0) <= idle_total / 20,
+        "idle: {idle:?}"
+    );
+    // The draw: first the window holds its start, then the gas cools for
+    // two of its time constants (2·τ_v·F), then a time to empty — in that
+    // order, each for a while.
+    let phase = |w: Option<NoTimeToEmpty>| {
+        let at: Vec<u64> = drawing
+            .iter()
+            .filter(|(_, x)| *x == w)
+            .map(|(t, _)| *t)
+            .collect();
+        (at.first().copied(), at.last().copied(), at.len())
+    };
+    let (c0, c1, cn) = phase(Some(NoTimeToEmpty::DrawChanging));
+    let (k0, k1, kn) = phase(Some(NoTimeToEmpty::DrawCooling));
+    let (s0, _, sn) = phase(None);
+    assert!(cn >= 5 && kn >= 10 && sn >= 120, "drawing: {cn} {kn} {sn}");
+    assert!(
+        c0 < k0 && c1 < k1 && k0 < s0,
+        "order: {c0:?} {c1:?} {k0:?} {k1:?} {s0:?}"
+    );
+    // Once shown under this steady draw it stays shown until the reserve.
+    let s0 = s0.unwrap_or(u64::MAX);
+    assert!(
+        drawing
+            .iter()
+            .filter(|(t, _)| *t >= s0)
+            .all(|(_, x)| x.is_none()),
+        "a steady draw's time to empty comes and goes"
+    );
+    // Below the reserve: at the reserve (or, once the vessel is empty, not
+    // emptying), never a time to empty.
+    let below_total: u32 = below.values().sum();
+    let at_reserve = below
+        .get(&Some(NoTimeToEmpty::AtReserve))
+        .copied()
+        .unwrap_or(0);
+    assert!(
+        below_total > 20 && 4 * at_reserve >= 3 * below_total,
+        "below: {below:?}"
+    );
+    assert!(!below.contains_key(&None), "below: {below:?}");
+    agree.assert_close("reasons for no time to empty");
 }
 
 #[test]

@@ -49,6 +49,7 @@ pub fn from_track(seq: u32, t: &TrackFx, device: Status) -> Telemetry {
         out.rate_kg_h = Some(r.kg_h.to_bits().saturating_neg());
         out.rate_uncertainty_kg_h = Some(r.u_kg_h.to_bits());
     }
+    out.time_to_empty_withheld = t.time_to_empty_withheld.map(|r| r.code());
     if let Some(tte) = &t.time_to_empty {
         out.time_to_empty_s = Some(seconds(tte.expected));
         out.time_to_empty_earliest_s = Some(seconds(tte.earliest));

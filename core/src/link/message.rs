@@ -126,6 +126,10 @@ pub struct Telemetry {
     /// content per day (positive: content lost): raw bits of `I32F32`
     /// ([`fx::FractionRate`]); `None` until it has a verdict.
     pub leak_loss_per_day: Option<i64>,
+    /// Why no time to empty is given: the code of a
+    /// [`NoTimeToEmpty`](crate::track::float::NoTimeToEmpty) reason; `None`
+    /// while one is given or in a frame without tracking.
+    pub time_to_empty_withheld: Option<u8>,
     /// Status word bits ([`Status::bits`]): bits 0–7 content and gas
     /// model, 8–15 sensors, 16–23 tracking and alarms, 24–30 device, 31
     /// the content flag `condensation_risk` (all content flags that void
@@ -189,6 +193,12 @@ impl Telemetry {
     /// The leak detector's loss per day.
     pub fn leak_loss_per_day(&self) -> Option<fx::FractionRate> {
         self.leak_loss_per_day.map(fx::FractionRate::from_bits)
+    }
+    /// Why no time to empty is given (`None` while one is, in a frame
+    /// without tracking, or for a reason this version does not know).
+    pub fn time_to_empty_withheld(&self) -> Option<crate::track::float::NoTimeToEmpty> {
+        self.time_to_empty_withheld
+            .and_then(crate::track::float::NoTimeToEmpty::from_code)
     }
 }
 

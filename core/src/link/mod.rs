@@ -39,8 +39,9 @@ use crate::Error;
 use crate::checksum::crc32c;
 
 /// The protocol version this crate speaks; every frame carries it. Version 2:
-/// prepared configurations, message families per direction.
-pub const PROTOCOL_VERSION: u8 = 2;
+/// prepared configurations, message families per direction; version 3: the
+/// telemetry says why no time to empty is given.
+pub const PROTOCOL_VERSION: u8 = 3;
 
 /// Bytes before the body: version and kind.
 pub const HEADER_LEN: usize = 2;

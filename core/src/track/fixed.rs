@@ -48,7 +48,7 @@ use crate::uncertainty::fixed::{
 };
 use crate::{Error, Status};
 
-pub use super::float::TimeToEmpty;
+pub use super::float::{NoTimeToEmpty, TimeToEmpty};
 
 /// Fraction bits of block means and windows.
 const Q: u32 = 28;
@@ -273,6 +273,8 @@ pub struct TrackFx {
     pub rate: Option<RateFx>,
     /// Time to empty.
     pub time_to_empty: Option<TimeToEmpty>,
+    /// Why there is none (`None` while one is given).
+    pub time_to_empty_withheld: Option<NoTimeToEmpty>,
     /// Thermal settling.
     pub settling: SettlingFx,
     /// Leak detector verdict.
@@ -384,6 +386,8 @@ pub struct Tracker<M> {
     uncertainty: Option<UncertaintyFx>,
     rate: Option<RateFx>,
     tte: Option<TimeToEmpty>,
+    /// Why `tte` is `None`.
+    tte_why: NoTimeToEmpty,
     predicted: Option<SettledPredictionFx>,
     leak: Option<LeakFx>,
     rated_pressure_now_pa: Option<fx::Pressure>,
@@ -507,6 +511,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             uncertainty: None,
             rate: None,
             tte: None,
+            tte_why: NoTimeToEmpty::Learning,
             predicted: None,
             leak: None,
             rated_pressure_now_pa: None,
@@ -622,6 +627,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             uncertainty: self.uncertainty,
             rate: self.rate,
             time_to_empty: self.tte,
+            time_to_empty_withheld: self.tte_withheld(),
             settling: SettlingFx {
                 not_settled: self.not_settled(),
                 predicted: if self.settle_active {
@@ -647,6 +653,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.rate = None;
             self.rate_per_h = None;
             self.tte = None;
+            self.tte_why = NoTimeToEmpty::NoContent;
             self.predicted = None;
             self.gas_sensor = 0;
             self.gas_draw = 0;
@@ -658,6 +665,15 @@ impl<M: CompressibilityFx> Tracker<M> {
     /// temperature difference outweighs the rest of the content's budget.
     fn not_settled(&self) -> bool {
         self.settle_active || self.gas_transient
+    }
+
+    /// Why no time to empty is given, `None` while one is.
+    fn tte_withheld(&self) -> Option<NoTimeToEmpty> {
+        match (&self.content, &self.tte) {
+            (None, _) => Some(NoTimeToEmpty::NoContent),
+            (Some(_), Some(_)) => None,
+            (Some(_), None) => Some(self.tte_why),
+        }
     }
 
     /// The time to empty the low-content alarm may use (confidence ≥ 0.5).
@@ -686,6 +702,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.t_len = 0;
             self.rate = None;
             self.tte = None;
+            self.tte_why = NoTimeToEmpty::Learning;
             self.reset_leak();
             self.last_at = None;
         }
@@ -811,6 +828,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.t_len = 0;
             self.rate = None;
             self.tte = None;
+            self.tte_why = NoTimeToEmpty::Learning;
         }
     }
 
@@ -864,6 +882,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.rate = None;
             self.rate_per_h = None;
             self.tte = None;
+            self.tte_why = NoTimeToEmpty::Learning;
             self.gas_sensor = 0;
             self.gas_draw = 0;
             self.steady_ms = 0;
@@ -953,7 +972,19 @@ impl<M: CompressibilityFx> Tracker<M> {
         let f1 = fit.mean.clamp(0, 1 << QF) as u64;
         let need = (STEADY_TIME_CONSTANTS * self.cfg.settle_time_constant.0).saturating_mul(f1);
         let settled_draw = (self.steady_ms as u128) << QF >= need as u128;
-        self.tte = if per_h > 0 && left > 0 && steady && settled_draw {
+        // Not emptying: the content is not falling, or not measurably (the
+        // rate within its own expanded uncertainty of zero: an idle vessel's
+        // scatter would give times to empty of years).
+        self.tte_why = if per_h <= u_per_h {
+            NoTimeToEmpty::NotEmptying
+        } else if left <= 0 {
+            NoTimeToEmpty::AtReserve
+        } else if !steady {
+            NoTimeToEmpty::DrawChanging
+        } else {
+            NoTimeToEmpty::DrawCooling
+        };
+        self.tte = if per_h > u_per_h && left > 0 && steady && settled_draw {
             // left < 2^41 (Q36, ≤ 16 + margin), × 3.6e6 < 2^63.
             let ms = |rate: i64| {
                 Millis(

@@ -151,6 +151,65 @@ pub struct TimeToEmpty {
     pub latest: Option<Millis>,
 }
 
+/// Why no time to empty is given (both trackers; the telemetry carries
+/// [`code`](Self::code)).
+#[derive(
+    Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize, serde::Deserialize,
+)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[repr(u8)]
+pub enum NoTimeToEmpty {
+    /// No usable content: no sample yet, a failed channel, or the outputs
+    /// withdrawn after a gap longer than the maximum gap.
+    NoContent = 1,
+    /// The rate window is filling again (after start-up, a gap or a fill).
+    Learning = 2,
+    /// The content is not falling (idle, or filling), or not measurably:
+    /// the rate lies within its own expanded uncertainty of zero.
+    NotEmptying = 3,
+    /// The content is at or below the reserve.
+    AtReserve = 4,
+    /// A draw started, stopped or changed within the rate window: the
+    /// window's mix of draw and idle gives no basis for one.
+    DrawChanging = 5,
+    /// A steady draw, but not yet for two of the gas's time constants: the
+    /// gas is still cooling below its sensor and the rate holds that
+    /// cooling.
+    DrawCooling = 6,
+}
+
+impl NoTimeToEmpty {
+    /// Every reason, in code order.
+    pub const ALL: [NoTimeToEmpty; 6] = [
+        NoTimeToEmpty::NoContent,
+        NoTimeToEmpty::Learning,
+        NoTimeToEmpty::NotEmptying,
+        NoTimeToEmpty::AtReserve,
+        NoTimeToEmpty::DrawChanging,
+        NoTimeToEmpty::DrawCooling,
+    ];
+    /// The reason's wire code (1 … 6; 0 is never used).
+    pub const fn code(self) -> u8 {
+        self as u8
+    }
+    /// The reason of a wire code, `None` for a code this version does not
+    /// know.
+    pub fn from_code(code: u8) -> Option<Self> {
+        Self::ALL.into_iter().find(|r| r.code() == code)
+    }
+    /// The reason's name in reports (`snake_case`).
+    pub const fn name(self) -> &'static str {
+        match self {
+            NoTimeToEmpty::NoContent => "no_content",
+            NoTimeToEmpty::Learning => "learning",
+            NoTimeToEmpty::NotEmptying => "not_emptying",
+            NoTimeToEmpty::AtReserve => "at_reserve",
+            NoTimeToEmpty::DrawChanging => "draw_changing",
+            NoTimeToEmpty::DrawCooling => "draw_cooling",
+        }
+    }
+}
+
 /// Thermal settling state and prediction, float form.
 #[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Settling<F = f64> {
@@ -199,6 +258,8 @@ pub struct Track<F = f64> {
     pub rate: Option<Rate<F>>,
     /// Time to empty, while the rate is a consumption.
     pub time_to_empty: Option<TimeToEmpty>,
+    /// Why there is none (`None` while one is given).
+    pub time_to_empty_withheld: Option<NoTimeToEmpty>,
     /// Thermal settling.
     pub settling: Settling<F>,
     /// Leak detector verdict, once two settled days are in (and, in use with
@@ -302,6 +363,8 @@ pub struct Tracker<F: Real, M> {
     uncertainty: Option<Uncertainty<F>>,
     rate: Option<Rate<F>>,
     tte: Option<TimeToEmpty>,
+    /// Why `tte` is `None`.
+    tte_why: NoTimeToEmpty,
     predicted: Option<SettledPrediction<F>>,
     leak: Option<Leak<F>>,
     rated_pressure_now_pa: Option<F>,
@@ -383,6 +446,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             uncertainty: None,
             rate: None,
             tte: None,
+            tte_why: NoTimeToEmpty::Learning,
             predicted: None,
             leak: None,
             rated_pressure_now_pa: None,
@@ -485,6 +549,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             uncertainty: self.uncertainty,
             rate: self.rate,
             time_to_empty: self.tte,
+            time_to_empty_withheld: self.tte_withheld(),
             settling: Settling {
                 not_settled: self.not_settled(),
                 predicted: if self.settle_active {
@@ -517,10 +582,20 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.rate = None;
             self.rate_per_h = None;
             self.tte = None;
+            self.tte_why = NoTimeToEmpty::NoContent;
             self.predicted = None;
             self.gas_sensor = F::ZERO;
             self.gas_draw = F::ZERO;
             self.gas_transient = false;
+        }
+    }
+
+    /// Why no time to empty is given, `None` while one is.
+    fn tte_withheld(&self) -> Option<NoTimeToEmpty> {
+        match (&self.content, &self.tte) {
+            (None, _) => Some(NoTimeToEmpty::NoContent),
+            (Some(_), Some(_)) => None,
+            (Some(_), None) => Some(self.tte_why),
         }
     }
 
@@ -550,6 +625,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.t_len = 0;
             self.rate = None;
             self.tte = None;
+            self.tte_why = NoTimeToEmpty::Learning;
             self.reset_leak();
             self.last_at = None;
         }
@@ -658,6 +734,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.t_len = 0;
             self.rate = None;
             self.tte = None;
+            self.tte_why = NoTimeToEmpty::Learning;
         }
     }
 
@@ -701,6 +778,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.rate = None;
             self.rate_per_h = None;
             self.tte = None;
+            self.tte_why = NoTimeToEmpty::Learning;
             self.gas_sensor = F::ZERO;
             self.gas_draw = F::ZERO;
             self.steady_ms = 0;
@@ -768,7 +846,19 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         let settled_draw = F::lit(self.steady_ms as f64)
             >= F::lit((STEADY_TIME_CONSTANTS * self.cfg.settle_time_constant.0) as f64)
                 * fit.mean.clamp_to(F::ZERO, F::ONE);
-        self.tte = if per_h > F::ZERO && left > F::ZERO && steady && settled_draw {
+        // Not emptying: the content is not falling, or not measurably (the
+        // rate within its own expanded uncertainty of zero: an idle vessel's
+        // scatter would give times to empty of years).
+        self.tte_why = if per_h <= u_per_h {
+            NoTimeToEmpty::NotEmptying
+        } else if left <= F::ZERO {
+            NoTimeToEmpty::AtReserve
+        } else if !steady {
+            NoTimeToEmpty::DrawChanging
+        } else {
+            NoTimeToEmpty::DrawCooling
+        };
+        self.tte = if per_h > u_per_h && left > F::ZERO && steady && settled_draw {
             let ms = |rate: F| Millis((left / rate * F::lit(HOUR_MS as f64)).to_f64() as u64);
             // The bounds: left/(rate ± U) with U the rate spread of the
             // time to empty's own budget (k = 2).

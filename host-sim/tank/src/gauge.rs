@@ -31,7 +31,7 @@ use isochor_core::sensor::channel::RawSample;
 use isochor_core::sensor::plausibility::PlausibilityConfig;
 use isochor_core::time::Instant;
 use isochor_core::track::fixed::TrackConfigFx;
-use isochor_core::track::float::TrackConfig;
+use isochor_core::track::float::{NoTimeToEmpty, TrackConfig};
 use isochor_core::{Gas, Setup, SetupFx, Status, fx, fx::to_f64};
 use isochor_eos::reference::ReferenceModel;
 use zerocopy::IntoBytes;
@@ -57,6 +57,8 @@ pub struct Reading {
     pub u_rate_kg_h: Option<f64>,
     /// Time to empty (to the reserve), s: expected, earliest, latest.
     pub time_to_empty_s: Option<(f64, f64, Option<f64>)>,
+    /// Why no time to empty is given (`None` while one is).
+    pub time_to_empty_withheld: Option<NoTimeToEmpty>,
     /// Loss per day from the leak detector, as a fraction of the content
     /// per day (0.005: 0.5 % a day).
     pub loss_fraction_per_day: Option<f64>,
@@ -98,6 +100,7 @@ impl Reading {
                     t.time_to_empty_latest_s.map(f64::from),
                 )
             }),
+            time_to_empty_withheld: t.time_to_empty_withheld(),
             loss_fraction_per_day: t.leak_loss_per_day().map(to_f64),
             status,
             events,
@@ -488,6 +491,7 @@ impl Backend for FloatGauge {
                     t.latest.map(|l| l.0 as f64 / 1e3),
                 )
             }),
+            time_to_empty_withheld: r.time_to_empty_withheld,
             loss_fraction_per_day: r.leak.map(|l| l.loss_per_day),
             status: r.status | sensor,
             events: r.events,

@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 /// The CSV header (SI units in the column names).
 pub const CSV_HEADER: &str = "t_s,pressure_true_pa,pressure_read_pa,gas_temperature_k,\
 wall_temperature_k,ambient_temperature_k,temperature_read_k,mass_true_kg,mass_gauge_kg,\
-u_mass_kg,fill_fraction,rate_kg_h,true_outflow_kg_h,time_to_empty_s,loss_fraction_per_day,status";
+u_mass_kg,fill_fraction,rate_kg_h,true_outflow_kg_h,time_to_empty_s,loss_fraction_per_day,status,time_to_empty_withheld";
 // `status`: the flag names joined by `|` (empty: ok).
 
 fn opt(v: Option<f64>) -> String {
@@ -23,7 +23,7 @@ fn opt(v: Option<f64>) -> String {
 /// One CSV row (empty fields where the gauge has no value).
 pub fn csv_row(p: &TracePoint) -> String {
     format!(
-        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
+        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
         p.t_s,
         p.pressure_true_pa,
         opt(p.pressure_read_pa),
@@ -42,7 +42,8 @@ pub fn csv_row(p: &TracePoint) -> String {
         Status::from_bits(p.status)
             .names()
             .collect::<Vec<_>>()
-            .join("|")
+            .join("|"),
+        p.time_to_empty_withheld.unwrap_or_default()
     )
 }
 

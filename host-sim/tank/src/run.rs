@@ -135,6 +135,8 @@ pub struct TracePoint {
     pub loss_fraction_per_day: Option<f64>,
     /// The gauge's status word (bits).
     pub status: u32,
+    /// Why the gauge gives no time to empty (`None` while it gives one).
+    pub time_to_empty_withheld: Option<&'static str>,
 }
 
 /// One alarm change, judged.
@@ -520,6 +522,7 @@ fn point(t: &Truth, r: &Reading) -> TracePoint {
         time_to_empty_s: r.time_to_empty_s.map(|x| x.0),
         loss_fraction_per_day: r.loss_fraction_per_day,
         status: r.status.bits(),
+        time_to_empty_withheld: r.time_to_empty_withheld.map(|w| w.name()),
     }
 }
 

@@ -15,7 +15,7 @@ use crate::track::fixed::{TrackConfigFx, TrackFx};
 use crate::{Status, fx};
 
 /// Version of the register map (input register 308).
-pub const MAP_VERSION: u16 = 1;
+pub const MAP_VERSION: u16 = 2;
 
 /// The map as text (hosts decode with it; `core/modbus-registers.csv`).
 pub const MAP_CSV: &str = include_str!("../../../modbus-registers.csv");
@@ -76,6 +76,7 @@ pub enum Quantity {
     ContentValid,
     LoopCurrentUa,
     Sequence,
+    TimeToEmptyWithheld,
     SerialNumber,
     FirmwareMajor,
     FirmwareMinor,
@@ -120,6 +121,8 @@ pub struct Snapshot {
     values: [i64; KEPT],
     status: u32,
     sequence: u32,
+    /// Why no time to empty is given (the tracker's reason code, 0: one is).
+    withheld: u8,
     sample_at_ms: Option<u64>,
     acknowledged: u16,
     loop_current: u32,
@@ -191,6 +194,7 @@ impl Snapshot {
             values: [NONE; KEPT],
             status: 0,
             sequence: 0,
+            withheld: crate::track::float::NoTimeToEmpty::NoContent.code(),
             sample_at_ms: None,
             acknowledged: 0,
             // No estimate yet: the output signals failure.
@@ -222,7 +226,11 @@ impl Snapshot {
         self.status = status.bits();
         // An alarm that cleared loses its acknowledgement.
         self.acknowledged &= alarms_of(self.status);
-        let Some(t) = t else { return };
+        let Some(t) = t else {
+            self.withheld = crate::track::float::NoTimeToEmpty::NoContent.code();
+            return;
+        };
+        self.withheld = t.time_to_empty_withheld.map_or(0, |r| r.code());
         let v = &mut self.values;
         let mut set = |q: Quantity, value: i64| {
             if let Some(slot) = v.get_mut(q as usize) {
@@ -530,6 +538,7 @@ impl Registers<'_> {
             // Milliamps bits (Q24) → µA, rounded.
             Quantity::LoopCurrentUa => (i64::from(s.loop_current) * 1000 + (1 << 23)) >> 24,
             Quantity::Sequence => i64::from(s.sequence),
+            Quantity::TimeToEmptyWithheld => i64::from(s.withheld),
             Quantity::SerialNumber => id.serial as i64,
             Quantity::FirmwareMajor => i64::from(id.firmware_version[0]),
             Quantity::FirmwareMinor => i64::from(id.firmware_version[1]),

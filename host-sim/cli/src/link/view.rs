@@ -52,6 +52,10 @@ pub struct TelemetryRow {
     /// The leak detector's latest loss, fraction of the rated content per
     /// day (positive: content lost); `None` until it has a verdict.
     pub leak_loss_per_day: Option<f64>,
+    /// Why no time to empty is given (`no_content`, `learning`,
+    /// `not_emptying`, `at_reserve`, `draw_changing`, `draw_cooling`; see
+    /// docs/tracking.md); `None` while one is given.
+    pub time_to_empty_withheld: Option<&'static str>,
     /// Status flag names.
     pub status: Vec<String>,
 }
@@ -85,6 +89,7 @@ impl TelemetryRow {
                 .fill_fraction_uncertainty()
                 .and_then(|u| content(fx::to_f64(u))),
             leak_loss_per_day: t.leak_loss_per_day().map(fx::to_f64),
+            time_to_empty_withheld: t.time_to_empty_withheld().map(|r| r.name()),
             status: status_names(status),
         }
     }
@@ -148,7 +153,7 @@ impl AlarmRow {
 pub const CSV_HEADER: &str = "seq,uptime_ms,pressure_pa,temperature_k,density_kg_m3,mass_kg,\
 standard_volume_m3,settled_pressure_pa,fill_fraction,rate_kg_h,time_to_empty_s,\
 mass_uncertainty_kg,status,rate_uncertainty_kg_h,time_to_empty_earliest_s,\
-time_to_empty_latest_s,fill_fraction_uncertainty,leak_loss_per_day";
+time_to_empty_latest_s,fill_fraction_uncertainty,leak_loss_per_day,time_to_empty_withheld";
 
 fn opt<T: ToString>(v: Option<T>) -> String {
     v.map(|x| x.to_string()).unwrap_or_default()
@@ -157,7 +162,7 @@ fn opt<T: ToString>(v: Option<T>) -> String {
 /// One CSV line (no newline); flags joined with `|`.
 pub fn csv_line(r: &TelemetryRow) -> String {
     format!(
-        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
+        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
         r.seq,
         r.uptime_ms,
         r.pressure_pa,
@@ -176,6 +181,7 @@ pub fn csv_line(r: &TelemetryRow) -> String {
         opt(r.time_to_empty_latest_s),
         opt(r.fill_fraction_uncertainty),
         opt(r.leak_loss_per_day),
+        r.time_to_empty_withheld.unwrap_or_default(),
     )
 }
 
@@ -214,7 +220,12 @@ pub fn text_telemetry(r: &TelemetryRow) -> String {
         fmt_opt(r.settled_pressure_pa, 1e-5, 2, "bar abs"),
         r.rate_kg_h
             .map_or_else(|| "n/a".to_string(), |x| format!("{x:+.4} kg/h")),
-        r.time_to_empty_s.map(hms).unwrap_or_else(|| "n/a".into()),
+        r.time_to_empty_s
+            .map(hms)
+            .unwrap_or_else(|| match r.time_to_empty_withheld {
+                Some(why) => format!("n/a ({why})"),
+                None => "n/a".into(),
+            }),
         fmt_opt(r.mass_uncertainty_kg, 1.0, 4, "kg"),
     )
 }
