@@ -33,6 +33,17 @@
 //!   already in), a fast draw cools it (what stays expands).
 //! * **Wall**: C_w·dT_w/dt = h_i·A_i·(T − T_w) + h_o·A_o·(T_amb − T_w) + α·A_sun·G(t),
 //!   with a larger inner coefficient while a fill's jet stirs the gas.
+//! * **Manifold** ([`Manifold`]): several such vessels, each with its own
+//!   m, T, T_w and wall, on one header through their valves. Between two
+//!   open cylinders the gas flows from the higher pressure to the lower
+//!   through both valves in series (area (A_i⁻² + A_j⁻²)^(−1/2), the orifice
+//!   law above at the upstream state, linear in Δp below
+//!   [`VALVE_LINEAR_PA`]), arriving with the upstream enthalpy; draws and
+//!   leaks leave through the header, shared by the open cylinders in
+//!   proportion to their capacity. The header has no volume; its pressure is
+//!   the open cylinders' weighted by A² (exact for two in incompressible
+//!   flow). The truth is the content open to the header, the header's
+//!   pressure and the sensor's cylinder's temperatures.
 //! * **Weather** ([`Weather`]): daily mean that wanders from day to day, a
 //!   day/night sine whose amplitude also varies, and sunshine between sunrise
 //!   and sunset with a daily cloudiness.
@@ -67,10 +78,25 @@ const RTOL: f64 = 1e-8;
 /// Absolute tolerance on temperatures, K.
 const ATOL_K: f64 = 1e-5;
 
-/// Number of state components: m, T, T_w, then the running totals.
-pub const N: usize = 8;
-/// Index of each state component.
+/// Below this pressure difference the flow between two cylinders is taken
+/// linear in the difference, through the flow at this difference, Pa: the
+/// square-root law's infinite slope at equal pressures would make the
+/// equations stiff (steps of milliseconds once a bank has equalised).
+/// Common practice for valve models in explicit integrators.
+pub const VALVE_LINEAR_PA: f64 = 1e5;
+/// Most cylinders on one manifold.
+pub const MAX_CYLINDERS: usize = 8;
+/// Size of the state vector: m, T, T_w of each vessel (a single tank: one),
+/// then the five running totals ([`ix::totals`]).
+pub const N: usize = 3 * MAX_CYLINDERS + 5;
+/// Index of each state component of a single tank (a manifold: vessel i's
+/// m, T, T_w at 3i, 3i + 1, 3i + 2, the totals from [`ix::totals`] on, in
+/// the order of `MASS_IN` … `EXPANSION_WORK`).
 pub mod ix {
+    /// Where the running totals begin for `k` vessels.
+    pub const fn totals(k: usize) -> usize {
+        3 * k
+    }
     /// Gas mass, kg.
     pub const MASS: usize = 0;
     /// Gas temperature, K.
@@ -184,6 +210,51 @@ pub struct Draw {
     /// The regulator's lowest inlet pressure, Pa absolute: below it the flow
     /// falls in proportion to p − p_atm.
     pub min_pressure_pa: f64,
+    /// An irregular schedule: the demand of each day (day n from n·24 h),
+    /// kg/s, 0 on days without the draw, none after the last entry; empty:
+    /// every day at `kg_s`.
+    pub day_demand: Vec<f64>,
+}
+
+impl Draw {
+    /// The demand on the day of `t_s` (the draw's windows and span aside),
+    /// kg/s.
+    pub fn day_kg_s(&self, t_s: f64) -> f64 {
+        if self.day_demand.is_empty() {
+            return self.kg_s;
+        }
+        let day = (t_s / DAY_S).floor();
+        if day < 0.0 {
+            return 0.0;
+        }
+        self.day_demand.get(day as usize).copied().unwrap_or(0.0)
+    }
+
+    /// Whether the draw runs at `t_s`: inside its span, on one of its days
+    /// and inside one of its daily windows.
+    pub fn on(&self, t_s: f64) -> bool {
+        if t_s < self.start_s || t_s >= self.end_s {
+            return false;
+        }
+        if !self.day_demand.is_empty() && self.day_kg_s(t_s) <= 0.0 {
+            return false;
+        }
+        if self.windows.is_empty() {
+            return true;
+        }
+        let hour = (t_s.rem_euclid(DAY_S)) / 3600.0;
+        self.windows.iter().any(|&(a, b)| hour >= a && hour < b)
+    }
+
+    /// The demand at `t_s` (0 while the draw does not run), kg/s, before the
+    /// regulator's limit.
+    pub fn demand_kg_s(&self, t_s: f64) -> f64 {
+        if self.on(t_s) {
+            self.day_kg_s(t_s)
+        } else {
+            0.0
+        }
+    }
 }
 
 /// A leak to ambient through an orifice.
@@ -259,6 +330,49 @@ pub struct Plant {
     pub fills: Vec<Fill>,
     /// Seed of the weather's random parts.
     pub seed: u64,
+    /// Several cylinders on one manifold instead of the single vessel
+    /// (`vessel`, `initial_pressure_pa` and `initial_temperature_k` are then
+    /// not used).
+    pub manifold: Option<Manifold>,
+}
+
+/// One cylinder of a manifold, connected to the header through its valve.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Cylinder {
+    /// The vessel.
+    pub vessel: Vessel,
+    /// Initial pressure, Pa absolute.
+    pub initial_pressure_pa: f64,
+    /// Initial gas and wall temperature, K; `None`: the ambient at the start.
+    pub initial_temperature_k: Option<f64>,
+    /// Effective area of its valve to the header, m².
+    pub valve_area_m2: f64,
+    /// Whether its valve is open at the start.
+    pub open: bool,
+    /// Valve changes: (time s, open), in time order.
+    pub switches: Vec<(f64, bool)>,
+}
+
+impl Cylinder {
+    /// Whether the valve is open at `t_s` (a change at `t_s` has happened).
+    pub fn open_at(&self, t_s: f64) -> bool {
+        let mut open = self.open;
+        for &(at, o) in &self.switches {
+            if t_s >= at - 1e-9 {
+                open = o;
+            }
+        }
+        open
+    }
+}
+
+/// Several cylinders on one header (see the module documentation).
+#[derive(Clone, Debug, PartialEq)]
+pub struct Manifold {
+    /// The cylinders (2 … [`MAX_CYLINDERS`]).
+    pub cylinders: Vec<Cylinder>,
+    /// The cylinder whose wall (or gas) the temperature sensor is on.
+    pub sensor: usize,
 }
 
 /// The true state at one time.
@@ -282,22 +396,35 @@ pub struct Truth {
 }
 
 /// One integration point: state, rates and derived values.
-#[derive(Clone, Copy, Debug, Default, PartialEq)]
+#[derive(Clone, Copy, Debug, PartialEq)]
 struct Knot {
     t: f64,
     y: [f64; N],
     f: [f64; N],
-    p: f64,
-    dp: f64,
-    v: f64,
+    p: [f64; MAX_CYLINDERS],
+    dp: [f64; MAX_CYLINDERS],
+    v: [f64; MAX_CYLINDERS],
 }
 
-/// Derived values of one right-hand side evaluation.
+impl Default for Knot {
+    fn default() -> Knot {
+        Knot {
+            t: 0.0,
+            y: [0.0; N],
+            f: [0.0; N],
+            p: [0.0; MAX_CYLINDERS],
+            dp: [0.0; MAX_CYLINDERS],
+            v: [0.0; MAX_CYLINDERS],
+        }
+    }
+}
+
+/// Derived values of one right-hand side evaluation, per vessel.
 #[derive(Clone, Copy, Debug, Default)]
 struct Aux {
-    p: f64,
-    dp: f64,
-    v: f64,
+    p: [f64; MAX_CYLINDERS],
+    dp: [f64; MAX_CYLINDERS],
+    v: [f64; MAX_CYLINDERS],
 }
 
 /// What is going on at a time (discrete state of the events).
@@ -312,11 +439,17 @@ struct Modes {
     /// Whether each blow-down runs / is over.
     blow_on: Vec<bool>,
     blow_done: Vec<bool>,
+    /// Whether each vessel's valve is open (a single tank: always).
+    open: [bool; MAX_CYLINDERS],
 }
 
 /// One Dormand–Prince step: the new state, the error estimate, and the
 /// rates and derived values at the new state.
 type Stage = ([f64; N], [f64; N], [f64; N], Aux);
+
+/// The gas of one vessel at one evaluation: pressure, volume, caloric
+/// state, mass density.
+type GasState = (f64, f64, Caloric, f64);
 
 /// The supply state of a fill (computed once).
 #[derive(Clone, Copy, Debug)]
@@ -330,6 +463,12 @@ struct Supply {
 /// inside the last step.
 pub struct Simulator {
     plant: Plant,
+    /// The vessels: the single tank, or the manifold's cylinders.
+    vessels: Vec<Cylinder>,
+    /// The vessel the temperature sensor is on.
+    sensor: usize,
+    /// Valve states during the last step (for the truth inside it).
+    seg_open: [bool; MAX_CYLINDERS],
     eos: Fluid,
     molar_mass: f64,
     modes: Modes,
@@ -340,10 +479,10 @@ pub struct Simulator {
     a: Knot,
     b: Knot,
     /// Rates (and ṗ) just after `b` when a discontinuity happened there.
-    after: Option<([f64; N], f64)>,
+    after: Option<([f64; N], [f64; MAX_CYLINDERS])>,
     h: f64,
     max_step: f64,
-    p_guess: f64,
+    p_guess: [f64; MAX_CYLINDERS],
     /// Right-hand side evaluations so far.
     pub evaluations: u64,
     /// Accepted steps so far.
@@ -373,8 +512,36 @@ impl Simulator {
             fill_done: vec![false; plant.fills.len()],
             blow_on: vec![false; plant.blowdowns.len()],
             blow_done: vec![false; plant.blowdowns.len()],
+            open: [false; MAX_CYLINDERS],
+        };
+        let (vessels, sensor) = match &plant.manifold {
+            None => (
+                vec![Cylinder {
+                    vessel: plant.vessel.clone(),
+                    initial_pressure_pa: plant.initial_pressure_pa,
+                    initial_temperature_k: plant.initial_temperature_k,
+                    valve_area_m2: 0.0,
+                    open: true,
+                    switches: Vec::new(),
+                }],
+                0,
+            ),
+            Some(m) => {
+                if m.cylinders.is_empty()
+                    || m.cylinders.len() > MAX_CYLINDERS
+                    || m.sensor >= m.cylinders.len()
+                {
+                    return Err(Error::Invalid(format!(
+                        "a manifold has 1 … {MAX_CYLINDERS} cylinders and its sensor on one of them"
+                    )));
+                }
+                (m.cylinders.clone(), m.sensor)
+            }
         };
         let mut sim = Simulator {
+            vessels,
+            sensor,
+            seg_open: [false; MAX_CYLINDERS],
             rng: ChaCha8Rng::seed_from_u64(plant.seed),
             eos,
             molar_mass,
@@ -386,24 +553,26 @@ impl Simulator {
             after: None,
             h: 60.0,
             max_step: MAX_STEP_S,
-            p_guess: plant.initial_pressure_pa,
+            p_guess: [0.0; MAX_CYLINDERS],
             evaluations: 0,
             steps: 0,
             plant,
         };
-        let t0 = sim
-            .plant
-            .initial_temperature_k
-            .unwrap_or_else(|| sim.ambient_k(0.0));
-        let p0 = sim.plant.initial_pressure_pa;
-        let v0 = sim.volume(p0, t0);
-        let s = sim.eos.state(p0, t0)?;
         let mut y = [0.0; N];
-        y[ix::MASS] = s.density_kg_m3 * v0;
-        y[ix::GAS_T] = t0;
-        y[ix::WALL_T] = t0;
-        sim.p_guess = p0;
+        for i in 0..sim.vessels.len() {
+            let t0 = sim.vessels[i]
+                .initial_temperature_k
+                .unwrap_or_else(|| sim.ambient_k(0.0));
+            let p0 = sim.vessels[i].initial_pressure_pa;
+            let v0 = sim.volume(i, p0, t0);
+            let s = sim.eos.state(p0, t0)?;
+            y[3 * i + ix::MASS] = s.density_kg_m3 * v0;
+            y[3 * i + ix::GAS_T] = t0;
+            y[3 * i + ix::WALL_T] = t0;
+            sim.p_guess[i] = p0;
+        }
         sim.switch_modes(0.0, &y)?;
+        sim.seg_open = sim.modes.open;
         let (f, aux) = sim.rates(0.0, &y)?;
         sim.b = Knot {
             t: 0.0,
@@ -436,17 +605,36 @@ impl Simulator {
     /// The full state vector at the end of the last step (for the
     /// conservation checks: see [`ix`]).
     pub fn state(&self) -> ([f64; N], f64, f64, f64) {
-        (self.b.y, self.b.p, self.b.v, self.b.t)
+        (self.b.y, self.b.p[0], self.b.v[0], self.b.t)
     }
 
     /// Internal energy of the gas and the wall at the end of the last step,
-    /// J (the wall as C_w·T_w).
+    /// J (the wall as C_w·T_w), summed over the vessels.
     pub fn energy_j(&self) -> Result<f64, Error> {
         let k = &self.b;
-        let rho = k.y[ix::MASS] / (self.molar_mass * k.v);
-        let c = self.eos.caloric(rho, k.y[ix::GAS_T]);
-        Ok(k.y[ix::MASS] * c.u_j_mol / self.molar_mass
-            + self.plant.vessel.wall_heat_capacity_j_k * k.y[ix::WALL_T])
+        let mut e = 0.0;
+        for (i, c) in self.vessels.iter().enumerate() {
+            let m = k.y[3 * i + ix::MASS];
+            let rho = m / (self.molar_mass * k.v[i]);
+            let cal = self.eos.caloric(rho, k.y[3 * i + ix::GAS_T]);
+            e += m * cal.u_j_mol / self.molar_mass
+                + c.vessel.wall_heat_capacity_j_k * k.y[3 * i + ix::WALL_T];
+        }
+        Ok(e)
+    }
+
+    /// The number of vessels (1: a single tank).
+    pub fn vessels(&self) -> usize {
+        self.vessels.len()
+    }
+
+    /// Gas mass, gas and wall temperature and pressure of vessel `i` at the
+    /// end of the last step.
+    pub fn vessel_state(&self, i: usize) -> Option<(f64, f64, f64, f64)> {
+        (i < self.vessels.len()).then(|| {
+            let y = &self.b.y;
+            (y[3 * i], y[3 * i + 1], y[3 * i + 2], self.b.p[i])
+        })
     }
 
     /// The truth at `t_s`, advancing the integration as needed. Times must
@@ -472,14 +660,45 @@ impl Simulator {
         );
         let herm = |ya: f64, fa: f64, yb: f64, fb: f64| h00 * ya + h10 * fa + h01 * yb + h11 * fb;
         let lin = |ya: f64, yb: f64| ya + (yb - ya) * x;
+        if self.vessels.len() == 1 {
+            return Ok(Truth {
+                t_s,
+                mass_kg: herm(a.y[0], a.f[0], b.y[0], b.f[0]),
+                gas_k: herm(a.y[1], a.f[1], b.y[1], b.f[1]),
+                wall_k: herm(a.y[2], a.f[2], b.y[2], b.f[2]),
+                pressure_pa: herm(a.p[0], a.dp[0], b.p[0], b.dp[0]),
+                ambient_k: f64::NAN,
+                outflow_kg_s: -lin(a.f[0], b.f[0]),
+            });
+        }
+        // A manifold: the content open to the header, the header's pressure
+        // (the open cylinders' pressures weighted by their valves' A²), the
+        // sensor's cylinder's temperatures.
+        let (mut mass, mut outflow, mut pa2, mut a2) = (0.0, 0.0, 0.0, 0.0);
+        for (i, c) in self.vessels.iter().enumerate() {
+            if !self.seg_open[i] {
+                continue;
+            }
+            let m = 3 * i;
+            mass += herm(a.y[m], a.f[m], b.y[m], b.f[m]);
+            outflow -= lin(a.f[m], b.f[m]);
+            let w = c.valve_area_m2 * c.valve_area_m2;
+            pa2 += w * herm(a.p[i], a.dp[i], b.p[i], b.dp[i]);
+            a2 += w;
+        }
+        let k = 3 * self.sensor;
         Ok(Truth {
             t_s,
-            mass_kg: herm(a.y[0], a.f[0], b.y[0], b.f[0]),
-            gas_k: herm(a.y[1], a.f[1], b.y[1], b.f[1]),
-            wall_k: herm(a.y[2], a.f[2], b.y[2], b.f[2]),
-            pressure_pa: herm(a.p, a.dp, b.p, b.dp),
+            mass_kg: mass,
+            gas_k: herm(a.y[k + 1], a.f[k + 1], b.y[k + 1], b.f[k + 1]),
+            wall_k: herm(a.y[k + 2], a.f[k + 2], b.y[k + 2], b.f[k + 2]),
+            pressure_pa: if a2 > 0.0 {
+                pa2 / a2
+            } else {
+                self.plant.weather.pressure_pa
+            },
             ambient_k: f64::NAN,
-            outflow_kg_s: -lin(a.f[0], b.f[0]),
+            outflow_kg_s: outflow,
         })
     }
 
@@ -494,20 +713,24 @@ impl Simulator {
             start.dp = dp;
         }
         let (y0, f0) = (start.y, start.f);
-        let scale_m = y0[ix::MASS].abs().max(1e-6);
+        let k = self.vessels.len();
+        let mut scale_m = [0.0; MAX_CYLINDERS];
+        for (i, s) in scale_m.iter_mut().enumerate().take(k) {
+            *s = y0[3 * i + ix::MASS].abs().max(1e-6);
+        }
         for _ in 0..200 {
             let (y1, err, f1, aux1) = self.dp45(t0, &y0, &f0, h)?;
             let tol = |i: usize| -> f64 {
-                match i {
-                    ix::MASS => RTOL * scale_m.max(y1[i].abs()),
+                match i % 3 {
+                    ix::MASS => RTOL * scale_m[i / 3].max(y1[i].abs()),
                     _ => ATOL_K + RTOL * y1[i].abs(),
                 }
             };
-            let e = (0..3)
+            let e = (0..3 * k)
                 .map(|i| (err[i] / tol(i)).powi(2))
                 .sum::<f64>()
                 .sqrt()
-                / 3f64.sqrt();
+                / ((3 * k) as f64).sqrt();
             if !e.is_finite() || e > 1.0 {
                 let f = if e.is_finite() {
                     (0.9 * e.powf(-0.2)).max(0.2)
@@ -519,7 +742,7 @@ impl Simulator {
             }
             // Event: a fill or blow-down reaching its pressure inside the
             // step (from 0.999 of the step on, it happens at its end).
-            if let Some(frac) = self.pressure_event(self.b.p, aux1.p)
+            if let Some(frac) = self.pressure_event(self.b.p[0], aux1.p[0])
                 && frac < 0.999
             {
                 h *= frac.max(1e-3);
@@ -543,6 +766,7 @@ impl Simulator {
             };
             self.steps += 1;
             self.p_guess = aux1.p;
+            self.seg_open = self.modes.open;
             let t1 = t0 + h;
             let changed = self.switch_modes(t1, &y1)?;
             if changed {
@@ -591,7 +815,14 @@ impl Simulator {
     /// Updates the discrete modes at `t`; true when something changed.
     fn switch_modes(&mut self, t: f64, y: &[f64; N]) -> Result<bool, Error> {
         let mut changed = false;
-        let p = self.p_guess;
+        let p = self.p_guess[0];
+        for i in 0..self.vessels.len() {
+            let open = self.vessels[i].open_at(t);
+            if open != self.modes.open[i] {
+                self.modes.open[i] = open;
+                changed = true;
+            }
+        }
         for i in 0..self.plant.fills.len() {
             let f = &self.plant.fills[i];
             let on = !self.modes.fill_done[i]
@@ -625,9 +856,9 @@ impl Simulator {
                 let area = match self.plant.leaks[i].size {
                     LeakSize::Area(a) => a,
                     LeakSize::LossPerDay(r) => {
-                        let (flux, _) = self.tank_orifice_flux(y)?;
+                        let (flux, mass) = self.tank_orifice_flux(y)?;
                         if flux > 0.0 {
-                            r * y[ix::MASS] / DAY_S / flux
+                            r * mass / DAY_S / flux
                         } else {
                             0.0
                         }
@@ -637,57 +868,92 @@ impl Simulator {
                 changed = true;
             }
         }
-        // Draw windows, sunrise/sunset and midnight are breakpoints only.
+        // Draw windows, sunrise/sunset and midnight are breakpoints only
+        // (a day's new demand on an irregular schedule changes the rates).
         Ok(changed
             || self.plant.draws.iter().any(|d| {
-                let on = |x: f64| self.draw_on(d, x);
-                on(t - 1e-6) != on(t + 1e-6)
+                d.on(t - 1e-6) != d.on(t + 1e-6)
+                    || (!d.day_demand.is_empty()
+                        && d.demand_kg_s(t - 1e-6) != d.demand_kg_s(t + 1e-6))
             }))
     }
 
-    /// Orifice mass flux per unit area from the tank to ambient, kg/(s·m²),
-    /// and the tank's pressure.
+    /// Orifice mass flux per unit area to ambient, kg/(s·m²) — of the
+    /// tank, or of the header, the open cylinders sharing it by capacity —
+    /// and the content open to it, kg.
     fn tank_orifice_flux(&mut self, y: &[f64; N]) -> Result<(f64, f64), Error> {
-        let (p, _v, c, rho_kg) = self.gas_state(y)?;
-        let _ = c;
-        let t = y[ix::GAS_T];
-        let cv0 = self.eos.ideal_cv(t);
-        let gamma = (cv0 + self.eos.gas_constant()) / cv0;
-        Ok((
-            orifice_flux(p, rho_kg, gamma, self.plant.weather.pressure_pa),
-            p,
-        ))
+        let share = self.shares();
+        let (mut flux, mut mass) = (0.0, 0.0);
+        for (i, &sh) in share.iter().enumerate().take(self.vessels.len()) {
+            if sh <= 0.0 {
+                continue;
+            }
+            let (p, _v, _c, rho_kg) = self.gas_state(i, y)?;
+            let t = y[3 * i + ix::GAS_T];
+            let cv0 = self.eos.ideal_cv(t);
+            let gamma = (cv0 + self.eos.gas_constant()) / cv0;
+            flux += sh * orifice_flux(p, rho_kg, gamma, self.plant.weather.pressure_pa);
+            mass += y[3 * i + ix::MASS];
+        }
+        Ok((flux, mass))
     }
 
-    /// The vessel's volume at pressure `p` and wall temperature `tw`, m³.
-    fn volume(&self, p: f64, tw: f64) -> f64 {
-        let ves = &self.plant.vessel;
+    /// Each vessel's share of what the header delivers or takes (draws,
+    /// leaks, blow-downs, fills): its water capacity over that of the
+    /// vessels open to the header (a single tank: 1).
+    fn shares(&self) -> [f64; MAX_CYLINDERS] {
+        let mut share = [0.0; MAX_CYLINDERS];
+        if self.vessels.len() == 1 {
+            share[0] = 1.0;
+            return share;
+        }
+        let open: f64 = self
+            .vessels
+            .iter()
+            .zip(&self.modes.open)
+            .filter(|(_, o)| **o)
+            .map(|(c, _)| c.vessel.water_capacity_m3)
+            .sum();
+        if open > 0.0 {
+            for (i, c) in self.vessels.iter().enumerate() {
+                if self.modes.open[i] {
+                    share[i] = c.vessel.water_capacity_m3 / open;
+                }
+            }
+        }
+        share
+    }
+
+    /// Vessel `i`'s volume at pressure `p` and wall temperature `tw`, m³.
+    fn volume(&self, i: usize, p: f64, tw: f64) -> f64 {
+        let ves = &self.vessels[i].vessel;
         ves.water_capacity_m3
             * (1.0
                 + ves.elastic_per_pa * (p - STANDARD_ATMOSPHERE_PA)
                 + ves.thermal_per_k * (tw - ves.reference_k))
     }
 
-    /// Pressure, volume, caloric state and mass density from (m, T, T_w).
-    fn gas_state(&mut self, y: &[f64; N]) -> Result<(f64, f64, Caloric, f64), Error> {
-        let m = y[ix::MASS].max(1e-12);
-        let t = y[ix::GAS_T];
-        let tw = y[ix::WALL_T];
+    /// Pressure, volume, caloric state and mass density of vessel `i` from
+    /// its (m, T, T_w).
+    fn gas_state(&mut self, i: usize, y: &[f64; N]) -> Result<GasState, Error> {
+        let m = y[3 * i + ix::MASS].max(1e-12);
+        let t = y[3 * i + ix::GAS_T];
+        let tw = y[3 * i + ix::WALL_T];
         if !(t.is_finite() && t > 1.0 && t < 2.0 * self.eos.temperature_max_k()) {
             return Err(Error::Invalid(format!(
                 "simulated gas temperature {t} K is outside the equation of state"
             )));
         }
         let (v0, e_p) = (
-            self.plant.vessel.water_capacity_m3,
-            self.plant.vessel.elastic_per_pa,
+            self.vessels[i].vessel.water_capacity_m3,
+            self.vessels[i].vessel.elastic_per_pa,
         );
         // One evaluation at the volume of the guessed pressure, then the
         // Newton correction of p = P(m/V(p)) applied linearly to p, V and
         // ρ: the guess comes from the previous stage, so the correction is
         // tiny and what is left is second order in it.
-        let p_g = self.p_guess;
-        let v_g = self.volume(p_g, tw);
+        let p_g = self.p_guess[i];
+        let v_g = self.volume(i, p_g, tw);
         let rho_g = m / (self.molar_mass * v_g);
         let c = self.eos.caloric(rho_g, t);
         let (p, v, rho_mol) = if e_p == 0.0 {
@@ -696,7 +962,7 @@ impl Simulator {
             let g = p_g - c.pressure_pa;
             let dg = 1.0 + c.dp_drho * rho_g * v0 * e_p / v_g;
             let p = p_g - g / dg;
-            let v = self.volume(p, tw);
+            let v = self.volume(i, p, tw);
             let rho = m / (self.molar_mass * v);
             (c.pressure_pa + c.dp_drho * (rho - rho_g), v, rho)
         };
@@ -706,33 +972,26 @@ impl Simulator {
                 "simulated pressure {p} Pa is outside the equation of state"
             )));
         }
-        self.p_guess = p;
+        self.p_guess[i] = p;
         Ok((p, v, c, rho))
     }
 
     /// The rates of every state component at (t, y).
     fn rates(&mut self, t: f64, y: &[f64; N]) -> Result<([f64; N], Aux), Error> {
         self.evaluations += 1;
-        let (p, v, c, rho) = self.gas_state(y)?;
-        let mm = self.molar_mass;
-        let m = y[ix::MASS].max(1e-12);
-        let temp = y[ix::GAS_T];
-        let tw = y[ix::WALL_T];
-        let u = c.u_j_mol / mm;
-        let h = c.h_j_mol / mm;
-        let cv = c.cv_j_mol_k / mm;
-        let p_rho = c.dp_drho / mm;
-        let p_t = c.dp_dt;
+        let k = self.vessels.len();
+        let mut gas: [Option<GasState>; MAX_CYLINDERS] = [None; MAX_CYLINDERS];
+        for (i, g) in gas.iter_mut().enumerate().take(k) {
+            *g = Some(self.gas_state(i, y)?);
+        }
+        let share = self.shares();
         let p_amb = self.plant.weather.pressure_pa;
 
-        // Flows.
-        let mut out = 0.0;
-        for d in &self.plant.draws {
-            if self.draw_on(d, t) {
-                let room = ((p - p_amb) / (d.min_pressure_pa - p_amb).max(1.0)).clamp(0.0, 1.0);
-                out += d.kg_s * room;
-            }
-        }
+        // Flows to and from outside, per vessel: its share of the header's.
+        let mut out = [0.0; MAX_CYLINDERS];
+        let mut inflow = [0.0; MAX_CYLINDERS];
+        let mut in_h = [0.0; MAX_CYLINDERS];
+        let mut filling = false;
         let open_area: f64 = self.modes.leak_area.iter().flatten().sum::<f64>()
             + self
                 .plant
@@ -742,55 +1001,141 @@ impl Simulator {
                 .filter(|(_, on)| **on)
                 .map(|(b, _)| b.area_m2)
                 .sum::<f64>();
-        if open_area > 0.0 {
-            let cv0 = self.eos.ideal_cv(temp);
-            let gamma = (cv0 + self.eos.gas_constant()) / cv0;
-            out += open_area * orifice_flux(p, rho, gamma, p_amb);
-        }
-        let mut inflow = 0.0;
-        let mut in_h = 0.0;
-        let mut filling = false;
-        for (i, f) in self.plant.fills.iter().enumerate() {
-            if self.modes.fill_on[i] {
-                let s = self.supplies[i];
-                let q = f.area_m2 * orifice_flux(f.supply_pressure_pa, s.rho_kg_m3, s.gamma, p);
-                inflow += q;
-                in_h += q * s.h_j_kg;
-                filling = true;
+        for i in 0..k {
+            let (sh, Some((p, _, _, rho))) = (share[i], gas[i]) else {
+                continue;
+            };
+            if sh <= 0.0 {
+                continue;
+            }
+            let temp = y[3 * i + ix::GAS_T];
+            for d in &self.plant.draws {
+                if d.on(t) {
+                    let room = ((p - p_amb) / (d.min_pressure_pa - p_amb).max(1.0)).clamp(0.0, 1.0);
+                    out[i] += d.day_kg_s(t) * room * sh;
+                }
+            }
+            if open_area > 0.0 {
+                let cv0 = self.eos.ideal_cv(temp);
+                let gamma = (cv0 + self.eos.gas_constant()) / cv0;
+                out[i] += sh * open_area * orifice_flux(p, rho, gamma, p_amb);
+            }
+            for (j, f) in self.plant.fills.iter().enumerate() {
+                if self.modes.fill_on[j] {
+                    let s = self.supplies[j];
+                    let q = f.area_m2
+                        * orifice_flux(f.supply_pressure_pa, s.rho_kg_m3, s.gamma, p)
+                        * sh;
+                    inflow[i] += q;
+                    in_h[i] += q * s.h_j_kg;
+                    filling = true;
+                }
             }
         }
-        // Heat.
+        // What crosses the boundary (before the flows between vessels).
+        let (ext_in, ext_out, ext_in_h) = (inflow, out, in_h);
+        // Between the cylinders open to the header: from the higher pressure
+        // to the lower through both valves in series (effective area
+        // (A_i⁻² + A_j⁻²)^(−1/2)), at the upstream stagnation state; the gas
+        // arrives with the upstream enthalpy (throttling is isenthalpic).
+        if k > 1 {
+            for i in 0..k {
+                for j in i + 1..k {
+                    if !(self.modes.open[i] && self.modes.open[j]) {
+                        continue;
+                    }
+                    let (Some(gi), Some(gj)) = (gas[i], gas[j]) else {
+                        continue;
+                    };
+                    let (ai, aj) = (self.vessels[i].valve_area_m2, self.vessels[j].valve_area_m2);
+                    if ai <= 0.0 || aj <= 0.0 || gi.0 == gj.0 {
+                        continue;
+                    }
+                    let area = 1.0 / (1.0 / (ai * ai) + 1.0 / (aj * aj)).sqrt();
+                    let (up, down, gu, gd) = if gi.0 > gj.0 {
+                        (i, j, gi, gj)
+                    } else {
+                        (j, i, gj, gi)
+                    };
+                    let temp = y[3 * up + ix::GAS_T];
+                    let cv0 = self.eos.ideal_cv(temp);
+                    let gamma = (cv0 + self.eos.gas_constant()) / cv0;
+                    let dp = gu.0 - gd.0;
+                    let q = if dp >= VALVE_LINEAR_PA {
+                        area * orifice_flux(gu.0, gu.3, gamma, gd.0)
+                    } else {
+                        area * orifice_flux(gu.0, gu.3, gamma, gu.0 - VALVE_LINEAR_PA) * dp
+                            / VALVE_LINEAR_PA
+                    };
+                    out[up] += q;
+                    inflow[down] += q;
+                    in_h[down] += q * gu.2.h_j_mol / self.molar_mass;
+                }
+            }
+        }
+
         let amb = self.ambient_k(t);
         let sun = self.sun(t);
-        let ves = &self.plant.vessel;
-        let h_in = if filling { ves.fill_htc } else { ves.inner_htc };
-        let q_wall = h_in * ves.inner_area_m2 * (tw - temp);
-        let q_amb = ves.outer_htc * ves.outer_area_m2 * (amb - tw) + ves.sun_area_m2 * sun;
-        let dtw = (-q_wall + q_amb) / ves.wall_heat_capacity_j_k;
-
-        // Energy and volume together (see the module documentation).
-        let mdot = inflow - out;
-        let rhs = (in_h - inflow * u) - out * p / rho + q_wall;
-        let a = ves.water_capacity_m3 * ves.elastic_per_pa;
-        let b = ves.water_capacity_m3 * ves.thermal_per_k * dtw;
-        let dd = 1.0 + a * p_rho * rho / v;
-        let c0 = a * p_rho * mdot / v + b;
-        let tpt = temp * p_t;
-        let dt = (rhs - (p - tpt) * mdot / rho - tpt * c0 / dd) / (m * cv + tpt * a * p_t / dd);
-        let dv = (c0 + a * p_t * dt) / dd;
-        let drho = (mdot - rho * dv) / v;
-        let dp = p_rho * drho + p_t * dt;
-
+        let mm = self.molar_mass;
         let mut f = [0.0; N];
-        f[ix::MASS] = mdot;
-        f[ix::GAS_T] = dt;
-        f[ix::WALL_T] = dtw;
-        f[ix::MASS_IN] = inflow;
-        f[ix::MASS_OUT] = out;
-        f[ix::FLOW_ENERGY] = in_h - out * h;
-        f[ix::AMBIENT_ENERGY] = q_amb;
-        f[ix::EXPANSION_WORK] = p * dv;
-        Ok((f, Aux { p, dp, v }))
+        let mut aux = Aux::default();
+        let tot = ix::totals(k);
+        for i in 0..k {
+            let Some((p, v, c, rho)) = gas[i] else {
+                continue;
+            };
+            let m = y[3 * i + ix::MASS].max(1e-12);
+            let temp = y[3 * i + ix::GAS_T];
+            let tw = y[3 * i + ix::WALL_T];
+            let u = c.u_j_mol / mm;
+            let h = c.h_j_mol / mm;
+            let cv = c.cv_j_mol_k / mm;
+            let p_rho = c.dp_drho / mm;
+            let p_t = c.dp_dt;
+            let (out, inflow, in_h) = (out[i], inflow[i], in_h[i]);
+
+            // Heat.
+            let ves = &self.vessels[i].vessel;
+            let h_in = if filling { ves.fill_htc } else { ves.inner_htc };
+            let q_wall = h_in * ves.inner_area_m2 * (tw - temp);
+            let q_amb = ves.outer_htc * ves.outer_area_m2 * (amb - tw) + ves.sun_area_m2 * sun;
+            let dtw = (-q_wall + q_amb) / ves.wall_heat_capacity_j_k;
+
+            // Energy and volume together (see the module documentation).
+            let mdot = inflow - out;
+            let rhs = (in_h - inflow * u) - out * p / rho + q_wall;
+            let a = ves.water_capacity_m3 * ves.elastic_per_pa;
+            let b = ves.water_capacity_m3 * ves.thermal_per_k * dtw;
+            let dd = 1.0 + a * p_rho * rho / v;
+            let c0 = a * p_rho * mdot / v + b;
+            let tpt = temp * p_t;
+            let dt = (rhs - (p - tpt) * mdot / rho - tpt * c0 / dd) / (m * cv + tpt * a * p_t / dd);
+            let dv = (c0 + a * p_t * dt) / dd;
+            let drho = (mdot - rho * dv) / v;
+            let dp = p_rho * drho + p_t * dt;
+
+            f[3 * i + ix::MASS] = mdot;
+            f[3 * i + ix::GAS_T] = dt;
+            f[3 * i + ix::WALL_T] = dtw;
+            let totals = [
+                ext_in[i],
+                ext_out[i],
+                ext_in_h[i] - ext_out[i] * h,
+                q_amb,
+                p * dv,
+            ];
+            for (n, x) in totals.into_iter().enumerate() {
+                if i == 0 {
+                    f[tot + n] = x;
+                } else {
+                    f[tot + n] += x;
+                }
+            }
+            aux.p[i] = p;
+            aux.dp[i] = dp;
+            aux.v[i] = v;
+        }
+        Ok((f, aux))
     }
 
     /// One Dormand–Prince 5(4) step: the 5th-order solution and the error
@@ -878,18 +1223,6 @@ impl Simulator {
         Ok((y1, err, k[6], last))
     }
 
-    /// Whether draw `d` runs at `t`.
-    fn draw_on(&self, d: &Draw, t: f64) -> bool {
-        if t < d.start_s || t >= d.end_s {
-            return false;
-        }
-        if d.windows.is_empty() {
-            return true;
-        }
-        let hour = (t.rem_euclid(DAY_S)) / 3600.0;
-        d.windows.iter().any(|&(a, b)| hour >= a && hour < b)
-    }
-
     /// The first breakpoint after `t`.
     fn next_breakpoint(&self, t: f64) -> f64 {
         let mut best = f64::INFINITY;
@@ -915,6 +1248,11 @@ impl Simulator {
         }
         for l in &self.plant.leaks {
             take(l.start_s);
+        }
+        for c in &self.vessels {
+            for &(at, _) in &c.switches {
+                take(at);
+            }
         }
         for f in &self.plant.fills {
             take(f.start_s);

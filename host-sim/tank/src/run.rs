@@ -26,6 +26,16 @@
 //!   and the pressure below the pressure limit − 1 % of the rated pressure;
 //!   `over_temperature`/`under_temperature` with the gas more than 2 K inside
 //!   the limit. `not_settled` is information, never counted.
+//! * **Ramp faults** (`kind = "ramp"`): an injected failure of a sensor
+//!   whose reading walks away from the truth. While a ramp lasts (from its
+//!   start to its end; for good when it has no end) the samples are not
+//!   judged — the instrument is outside anything it declares, so the content
+//!   error there measures the injection, not the gauge (they stay in the
+//!   `_all` maximum) — and every alarm raised from its start to one minute
+//!   after its end is justified by it: a fast ramp is the device's to flag
+//!   (`sensor_fault`), a slow one looks like a real change and the gauge
+//!   acts on it as on one (a pressure walking down is a leak to it). Such a
+//!   `leak` raise is not a leak found.
 //! * **Time to empty** at the present rate, as the gauge defines it: once a
 //!   minute where the gauge states one, against (m_true − m_reserve)/R_true
 //!   with R_true the true mean outflow over the last 32 minutes (the gauge's
@@ -57,7 +67,7 @@
 use super::gauge::{Backend, FixedGauge, FloatGauge, Reading};
 use super::physics::{Simulator, Truth};
 use super::scenario::Scenario;
-use super::sensors::{Mount, SensorPair};
+use super::sensors::{FaultKind, Mount, SensorPair};
 use crate::Error;
 use isochor_core::Status;
 use isochor_core::alarm::{AlarmEvent, AlarmKind};
@@ -562,6 +572,8 @@ struct Scorer {
     false_alarms: u64,
     minutes: Vec<Minute>,
     last_fault_s: f64,
+    /// The last sample with a ramp fault in effect, s.
+    last_ramp_s: f64,
     t_gas: (f64, f64),
     p_max: f64,
     interval_ms: u64,
@@ -607,6 +619,7 @@ impl Scorer {
             false_alarms: 0,
             minutes: Vec::new(),
             last_fault_s: f64::NEG_INFINITY,
+            last_ramp_s: f64::NEG_INFINITY,
             t_gas: (f64::INFINITY, f64::NEG_INFINITY),
             p_max: 0.0,
             interval_ms: sc.interval_ms,
@@ -620,8 +633,15 @@ impl Scorer {
 
     fn add(&mut self, ms: u64, truth: &Truth, r: &Reading, sensors: &SensorPair) {
         let t = truth.t_s;
-        if sensors.fault_active(t) {
-            self.last_fault_s = t;
+        let mut ramp = false;
+        for f in sensors.faults() {
+            if f.active(t) {
+                self.last_fault_s = t;
+                ramp |= f.kind == FaultKind::Ramp;
+            }
+        }
+        if ramp {
+            self.last_ramp_s = t;
         }
         self.t_gas = (self.t_gas.0.min(truth.gas_k), self.t_gas.1.max(truth.gas_k));
         self.p_max = self.p_max.max(truth.pressure_pa);
@@ -636,7 +656,7 @@ impl Scorer {
             let e = (m - truth.mass_kg) / truth.mass_kg;
             self.max_err_all = self.max_err_all.max(e.abs());
             self.any_all = true;
-            if let (Some(u), false, true) = (r.u_mass_kg, flagged, above_reserve) {
+            if let (Some(u), false, true) = (r.u_mass_kg, flagged || ramp, above_reserve) {
                 self.n_judged += 1;
                 self.max_err = self.max_err.max(e.abs());
                 self.sum_err += e;
@@ -707,7 +727,7 @@ impl Scorer {
         let justified = if ev.raised {
             let f_true = truth.mass_kg / self.rated_true;
             let lim = &self.limits;
-            let ok = match ev.kind {
+            let truly = match ev.kind {
                 AlarmKind::NotSettled => true,
                 AlarmKind::Leak => self.leak_start.is_some_and(|s| t >= s),
                 AlarmKind::SensorFault => t - self.last_fault_s <= 60.0,
@@ -727,8 +747,11 @@ impl Scorer {
                 AlarmKind::OverTemperature => truth.gas_k >= lim.temperature_max_k - 2.0,
                 AlarmKind::UnderTemperature => truth.gas_k <= lim.temperature_min_k + 2.0,
             };
+            // A ramp fault in effect (or ended within the minute) explains
+            // any raise (see the module documentation).
+            let ok = truly || t - self.last_ramp_s <= 60.0;
             if ev.kind == AlarmKind::Leak
-                && ok
+                && truly
                 && self.leak_found.is_none()
                 && let Some(s) = self.leak_start
             {

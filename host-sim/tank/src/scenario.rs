@@ -9,7 +9,10 @@
 //! never silently falls back to a default.
 
 use super::gauge::{GaugeConfig, ModelKind};
-use super::physics::{self, Blowdown, Draw, Fill, Front, Leak, LeakSize, Plant, Vessel, Weather};
+use super::physics::{
+    self, Blowdown, Cylinder, Draw, Fill, Front, Leak, LeakSize, MAX_CYLINDERS, Manifold, Plant,
+    Vessel, Weather,
+};
 use super::sensors::{
     self, Channel, Fault, FaultKind, Mount, PressureFrontEnd, PressureSensor, TemperatureFrontEnd,
     TemperatureSensor,
@@ -38,7 +41,7 @@ use serde::Deserialize;
 pub const FORMAT: &str = "isochor-scenario 1";
 
 /// The built-in scenarios: (name, TOML text). The first is the demo.
-pub const BUILTIN: [(&str, &str); 13] = [
+pub const BUILTIN: [(&str, &str); 16] = [
     (
         "workshop-leak",
         include_str!("../scenarios/workshop-leak.toml"),
@@ -91,6 +94,18 @@ pub const BUILTIN: [(&str, &str); 13] = [
         "methane-store-winter",
         include_str!("../scenarios/methane-store-winter.toml"),
     ),
+    (
+        "transmitter-ramp",
+        include_str!("../scenarios/transmitter-ramp.toml"),
+    ),
+    (
+        "workshop-odd-days",
+        include_str!("../scenarios/workshop-odd-days.toml"),
+    ),
+    (
+        "lab-argon-manifold",
+        include_str!("../scenarios/lab-argon-manifold.toml"),
+    ),
 ];
 
 /// A scenario file as written.
@@ -108,9 +123,14 @@ pub struct ScenarioFile {
     /// Sample interval of the gauge (`"1s"`, default).
     #[serde(default = "default_interval")]
     pub sample_interval: String,
-    /// Seed of every random part (weather, noise, drawn instrument errors).
+    /// Seed of every random part (weather, noise, drawn instrument errors,
+    /// irregular draw schedules).
     #[serde(default)]
     pub seed: u64,
+    /// The weekday of the run's first day, for `[[draw]] weekdays`
+    /// (`"mon"` … `"sun"`, default `"mon"`).
+    #[serde(default = "default_weekday")]
+    pub start_weekday: String,
     /// The tank.
     pub tank: TankSection,
     /// The weather.
@@ -135,6 +155,13 @@ pub struct ScenarioFile {
     /// Sensor faults.
     #[serde(default)]
     pub fault: Vec<FaultSection>,
+    /// Several cylinders on one manifold (two or more; none: the single
+    /// `[tank]`, whose keys are then the cylinders' defaults).
+    #[serde(default)]
+    pub cylinder: Vec<CylinderSection>,
+    /// Cylinder valves opened or closed at chosen times.
+    #[serde(default)]
+    pub valve: Vec<ValveSection>,
     /// The gauge under test.
     #[serde(default)]
     pub gauge: GaugeSection,
@@ -142,6 +169,53 @@ pub struct ScenarioFile {
 
 fn default_interval() -> String {
     "1s".into()
+}
+fn default_weekday() -> String {
+    "mon".into()
+}
+
+/// The weekdays, day 0 of a week first.
+const WEEKDAYS: [&str; 7] = ["mon", "tue", "wed", "thu", "fri", "sat", "sun"];
+
+/// Days in the longest run (two years), for irregular draw schedules.
+const SCHEDULE_DAYS: usize = 2 * 366 + 1;
+
+fn weekday(input: &str, what: &'static str) -> Result<usize, Error> {
+    let w = input.trim().to_ascii_lowercase();
+    WEEKDAYS.iter().position(|d| *d == w).ok_or_else(|| {
+        bad(
+            what,
+            format!("'{input}': mon, tue, wed, thu, fri, sat or sun"),
+        )
+    })
+}
+
+/// The demand of each day of an irregular draw schedule, kg/s (see
+/// [`DrawSection`]): days allowed by `days` and `weekdays` run with
+/// probability `probability`, at a demand uniform in `lo … hi`. The draws
+/// come from a generator of their own (the seed and the draw's index), two
+/// per day in day order whatever the filters say, so a schedule depends on
+/// the seed and the draw's own keys only, never on the weather or the
+/// other draws.
+fn day_demands(
+    seed: u64,
+    index: usize,
+    allowed: impl Fn(usize) -> bool,
+    probability: f64,
+    lo: f64,
+    hi: f64,
+) -> Vec<f64> {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0xD7A0_5C4E_0000_0000 ^ index as u64);
+    (0..SCHEDULE_DAYS)
+        .map(|day| {
+            let (u_on, u_flow) = (rng.random::<f64>(), rng.random::<f64>());
+            if allowed(day) && u_on < probability {
+                lo + (hi - lo) * u_flow
+            } else {
+                0.0
+            }
+        })
+        .collect()
 }
 
 /// `[tank]`.
@@ -306,6 +380,20 @@ pub struct DrawSection {
     /// The regulator's lowest inlet pressure, absolute (default 5 bar).
     #[serde(default = "default_regulator")]
     pub min_pressure: String,
+    /// Only on these days, counted from 0 (day n runs from n·24 h: `start =
+    /// "3d"` is the start of day 3); none: every day.
+    #[serde(default)]
+    pub days: Vec<u32>,
+    /// Only on these weekdays (`["mon", "thu"]`; day 0 is the scenario's
+    /// `start_weekday`); none: every day.
+    #[serde(default)]
+    pub weekdays: Vec<String>,
+    /// Each day the draw may run on (by `days` and `weekdays`), it runs with
+    /// this probability (0 … 1), drawn from the scenario's seed (default 1).
+    pub probability: Option<f64>,
+    /// With it, each day's demand is drawn uniformly between `flow` and
+    /// this (from the seed; same units as `flow`).
+    pub flow_max: Option<String>,
 }
 
 fn default_zero_s() -> String {
@@ -313,6 +401,53 @@ fn default_zero_s() -> String {
 }
 fn default_regulator() -> String {
     "5bar".into()
+}
+
+/// `[[cylinder]]`: one cylinder of a manifolded group; every key but the
+/// valve's defaults to `[tank]`'s.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CylinderSection {
+    /// Water capacity (`"50L"`).
+    pub water_capacity: Option<String>,
+    /// Pressure at the start, absolute.
+    pub pressure: Option<String>,
+    /// Gas and wall temperature at the start.
+    pub temperature: Option<String>,
+    /// Mass of the wall, kg.
+    pub wall_mass_kg: Option<f64>,
+    /// Share of the projected side area in the sun (0 … 1).
+    pub sun_exposure: Option<f64>,
+    /// Effective area of its valve to the header (default `"3mm2"`).
+    #[serde(default = "default_valve_area")]
+    pub valve_area: String,
+    /// Whether its valve is open at the start (default true).
+    #[serde(default = "default_true")]
+    pub open: bool,
+    /// The gauge's temperature sensor is on this cylinder (at most one;
+    /// default: the first).
+    #[serde(default)]
+    pub temperature_sensor: bool,
+}
+
+fn default_valve_area() -> String {
+    "3mm2".into()
+}
+fn default_true() -> bool {
+    true
+}
+
+/// `[[valve]]`: a cylinder's valve opened or closed at a time.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ValveSection {
+    /// The cylinder, numbered from 1 in the order of the `[[cylinder]]`
+    /// tables.
+    pub cylinder: usize,
+    /// When (`"40h"`).
+    pub at: String,
+    /// Opened (`true`) or closed (`false`).
+    pub open: bool,
 }
 
 /// `[[leak]]`.
@@ -454,7 +589,8 @@ fn default_tau() -> String {
 pub struct FaultSection {
     /// `pressure` or `temperature`.
     pub channel: Channel,
-    /// `open`, `short`, `stuck`, `spikes`, `failure_low`, `failure_high`.
+    /// `open`, `short`, `stuck`, `spikes`, `failure_low`, `failure_high`,
+    /// `ramp`.
     pub kind: FaultKind,
     /// Start.
     pub start: String,
@@ -463,6 +599,13 @@ pub struct FaultSection {
     /// Spikes per hour (spikes only; default 6).
     #[serde(default = "default_spikes")]
     pub spikes_per_hour: f64,
+    /// Ramps only (required there): how far the reading ends up from the
+    /// truth, a pressure difference (`"+30bar"`, `"-8bar"`) or a temperature
+    /// difference (`"-8K"`) by the channel.
+    pub to: Option<String>,
+    /// Ramps only (required there): the time the reading takes to get
+    /// there, linearly (`"2h"`; above 0).
+    pub over: Option<String>,
 }
 
 fn default_spikes() -> f64 {
@@ -789,21 +932,24 @@ impl ScenarioFile {
                 return Err(bad(what, "0 … 1"));
             }
         }
-        let (area, side) = Vessel::cylinder_areas(cap, t.length_to_diameter);
-        let vessel = Vessel {
-            water_capacity_m3: cap,
-            elastic_per_pa: t.elastic_expansion_per_bar / BAR_PA,
-            thermal_per_k: t.thermal_expansion_per_k,
-            reference_k: rated_t,
-            wall_heat_capacity_j_k: t.wall_mass_kg * t.wall_specific_heat_j_kg_k,
-            inner_area_m2: area,
-            // The outer surface of a wall a few per cent of the diameter thick.
-            outer_area_m2: 1.1 * area,
-            inner_htc: t.inner_htc_w_m2_k,
-            fill_htc: t.fill_htc_w_m2_k,
-            outer_htc: t.outer_htc_w_m2_k,
-            sun_area_m2: side * t.sun_exposure * t.absorptivity,
+        let make_vessel = |cap: f64, wall_mass_kg: f64, sun_exposure: f64| {
+            let (area, side) = Vessel::cylinder_areas(cap, t.length_to_diameter);
+            Vessel {
+                water_capacity_m3: cap,
+                elastic_per_pa: t.elastic_expansion_per_bar / BAR_PA,
+                thermal_per_k: t.thermal_expansion_per_k,
+                reference_k: rated_t,
+                wall_heat_capacity_j_k: wall_mass_kg * t.wall_specific_heat_j_kg_k,
+                inner_area_m2: area,
+                // The outer surface of a wall a few per cent of the diameter thick.
+                outer_area_m2: 1.1 * area,
+                inner_htc: t.inner_htc_w_m2_k,
+                fill_htc: t.fill_htc_w_m2_k,
+                outer_htc: t.outer_htc_w_m2_k,
+                sun_area_m2: side * sun_exposure * t.absorptivity,
+            }
         };
+        let vessel = make_vessel(cap, t.wall_mass_kg, t.sun_exposure);
         let a = &self.ambient;
         let weather = Weather {
             mean_k: units::temperature_k(&a.mean, "ambient.mean")?,
@@ -835,8 +981,9 @@ impl ScenarioFile {
         if weather.sunset_hour <= weather.sunrise_hour {
             return Err(bad("ambient.sunset", "must be after sunrise"));
         }
+        let first_weekday = weekday(&self.start_weekday, "start_weekday")?;
         let mut draws = Vec::new();
-        for d in &self.draw {
+        for (i, d) in self.draw.iter().enumerate() {
             let mut windows = Vec::new();
             for w in &d.daily {
                 let (x, y) = w
@@ -848,15 +995,49 @@ impl ScenarioFile {
                 }
                 windows.push((x, y));
             }
+            let kg_s = flow_kg_s(&d.flow, gas, "draw.flow")?;
+            let irregular = !d.days.is_empty()
+                || !d.weekdays.is_empty()
+                || d.probability.is_some()
+                || d.flow_max.is_some();
+            let day_demand = if irregular {
+                let probability = d.probability.unwrap_or(1.0);
+                if !(0.0..=1.0).contains(&probability) {
+                    return Err(bad("draw.probability", "0 … 1"));
+                }
+                let hi = match &d.flow_max {
+                    Some(f) => flow_kg_s(f, gas, "draw.flow_max")?,
+                    None => kg_s,
+                };
+                if hi < kg_s {
+                    return Err(bad("draw.flow_max", "must not be below flow"));
+                }
+                let week: Vec<usize> = d
+                    .weekdays
+                    .iter()
+                    .map(|w| weekday(w, "draw.weekdays"))
+                    .collect::<Result<_, _>>()?;
+                if let Some(&n) = d.days.iter().find(|&&n| n as usize >= SCHEDULE_DAYS) {
+                    return Err(bad("draw.days", format!("day {n} is beyond two years")));
+                }
+                let allowed = |day: usize| {
+                    (d.days.is_empty() || d.days.contains(&(day as u32)))
+                        && (week.is_empty() || week.contains(&((first_weekday + day) % 7)))
+                };
+                day_demands(self.seed, i, allowed, probability, kg_s, hi)
+            } else {
+                Vec::new()
+            };
             draws.push(Draw {
                 start_s: duration_s(&d.start, "draw.start")?,
                 end_s: match &d.end {
                     Some(e) => duration_s(e, "draw.end")?,
                     None => f64::INFINITY,
                 },
-                kg_s: flow_kg_s(&d.flow, gas, "draw.flow")?,
+                kg_s,
                 windows,
                 min_pressure_pa: units::pressure_pa(&d.min_pressure, "draw.min_pressure")?,
+                day_demand,
             });
         }
         let mut leaks = Vec::new();
@@ -900,6 +1081,114 @@ impl ScenarioFile {
             .as_deref()
             .map(|s| units::temperature_k(s, "tank.temperature"))
             .transpose()?;
+        let manifold = if self.cylinder.is_empty() {
+            if !self.valve.is_empty() {
+                return Err(bad("valve", "valves are for [[cylinder]] groups"));
+            }
+            None
+        } else {
+            let n = self.cylinder.len();
+            if !(2..=MAX_CYLINDERS).contains(&n) {
+                return Err(bad(
+                    "cylinder",
+                    format!("a manifold has 2 … {MAX_CYLINDERS} cylinders"),
+                ));
+            }
+            if !fills.is_empty() || !blowdowns.is_empty() {
+                return Err(bad(
+                    "cylinder",
+                    "[[fill]] and [[blowdown]] are for a single [tank]",
+                ));
+            }
+            let mut cylinders = Vec::new();
+            for c in &self.cylinder {
+                let cap_i = match &c.water_capacity {
+                    Some(v) => units::volume_m3(v, "cylinder.water_capacity")?,
+                    None => cap,
+                };
+                let wall = c.wall_mass_kg.unwrap_or(t.wall_mass_kg);
+                let sun = c.sun_exposure.unwrap_or(t.sun_exposure);
+                if !(cap_i.is_finite() && cap_i > 0.0) {
+                    return Err(bad("cylinder.water_capacity", "must be positive"));
+                }
+                if !(wall.is_finite() && wall > 0.0) {
+                    return Err(bad("cylinder.wall_mass_kg", "must be positive"));
+                }
+                if !(0.0..=1.0).contains(&sun) {
+                    return Err(bad("cylinder.sun_exposure", "0 … 1"));
+                }
+                let valve = area_m2(&c.valve_area, "cylinder.valve_area")?;
+                if valve <= 0.0 {
+                    return Err(bad("cylinder.valve_area", "must be above 0"));
+                }
+                cylinders.push(Cylinder {
+                    vessel: make_vessel(cap_i, wall, sun),
+                    initial_pressure_pa: match &c.pressure {
+                        Some(v) => units::pressure_pa(v, "cylinder.pressure")?,
+                        None => initial_pressure,
+                    },
+                    initial_temperature_k: match &c.temperature {
+                        Some(v) => Some(units::temperature_k(v, "cylinder.temperature")?),
+                        None => initial_temperature,
+                    },
+                    valve_area_m2: valve,
+                    open: c.open,
+                    switches: Vec::new(),
+                });
+            }
+            let mut valves = Vec::new();
+            for v in &self.valve {
+                if !(1..=n).contains(&v.cylinder) {
+                    return Err(bad(
+                        "valve.cylinder",
+                        format!("{}: the cylinders are 1 … {n}", v.cylinder),
+                    ));
+                }
+                valves.push((v.cylinder - 1, duration_s(&v.at, "valve.at")?, v.open));
+            }
+            valves.sort_by(|a, b| a.1.total_cmp(&b.1));
+            for (i, at, open) in valves {
+                cylinders[i].switches.push((at, open));
+            }
+            let sensors: Vec<usize> = (0..n)
+                .filter(|&i| self.cylinder[i].temperature_sensor)
+                .collect();
+            let sensor = match sensors[..] {
+                [] => 0,
+                [i] => i,
+                _ => {
+                    return Err(bad(
+                        "cylinder.temperature_sensor",
+                        "the temperature sensor is on one cylinder",
+                    ));
+                }
+            };
+            // The gauge is told the water capacity open to the header at
+            // the start (docs/simulator.md, "Several cylinders on one
+            // manifold").
+            let open_cap: f64 = cylinders
+                .iter()
+                .filter(|c| c.open)
+                .map(|c| c.vessel.water_capacity_m3)
+                .sum();
+            if open_cap <= 0.0 {
+                return Err(bad("cylinder.open", "open at least one valve at the start"));
+            }
+            tank.water_capacity_m3 = open_cap;
+            tank.validate()?;
+            Some(Manifold { cylinders, sensor })
+        };
+        let (vessel, initial_pressure, initial_temperature) = match &manifold {
+            Some(m) => {
+                let c = &m.cylinders[m.sensor];
+                (
+                    c.vessel.clone(),
+                    c.initial_pressure_pa,
+                    c.initial_temperature_k,
+                )
+            }
+            None => (vessel, initial_pressure, initial_temperature),
+        };
         let plant = Plant {
             gas,
             vessel,
@@ -911,6 +1200,7 @@ impl ScenarioFile {
             blowdowns,
             fills,
             seed: self.seed,
+            manifold,
         };
 
         // The gauge's declaration.
@@ -1050,6 +1340,24 @@ impl ScenarioFile {
                     "failure currents need a 4–20 mA pressure channel",
                 ));
             }
+            let (ramp_to, ramp_over_s) = match (f.kind, &f.to, &f.over) {
+                (FaultKind::Ramp, Some(to), Some(over)) => {
+                    let to = match f.channel {
+                        Channel::Pressure => units::pressure_pa(to, "fault.to")?,
+                        Channel::Temperature => kelvin_diff(to, "fault.to")?,
+                    };
+                    let over = duration_s(over, "fault.over")?;
+                    if over <= 0.0 {
+                        return Err(bad("fault.over", "must be longer than 0 s"));
+                    }
+                    (to, over)
+                }
+                (FaultKind::Ramp, _, _) => {
+                    return Err(bad("fault", "a ramp needs `to` and `over`"));
+                }
+                (_, None, None) => (0.0, 0.0),
+                _ => return Err(bad("fault", "`to` and `over` are for ramps only")),
+            };
             faults.push(Fault {
                 channel: f.channel,
                 kind: f.kind,
@@ -1059,11 +1367,13 @@ impl ScenarioFile {
                     None => f64::INFINITY,
                 },
                 spikes_per_hour: f.spikes_per_hour.max(0.0),
+                ramp_to,
+                ramp_over_s,
             });
         }
 
         let mut declared_tank = tank;
-        declared_tank.water_capacity_m3 = cap * (1.0 + d_cap);
+        declared_tank.water_capacity_m3 = tank.water_capacity_m3 * (1.0 + d_cap);
         let setup = Setup::new(gas, declared_tank);
         let mut track = TrackConfig::for_tank(&declared_tank, unc);
         track.leak_mode = match g.leak_mode.as_str() {

@@ -18,6 +18,17 @@
 //! | `spikes` | single-sample jumps of ±20 % of the range at random times | same | ±30 K |
 //! | `failure_low` | — | 3.4 mA (NAMUR NE 43 low failure signal) | — |
 //! | `failure_high` | — | 21.5 mA (NE 43 high failure signal) | — |
+//! | `ramp` | the reading moves away from the truth by `to` (Pa), linearly over `over` | same | the same in K |
+//!
+//! A ramp adds to the reading (errors and noise stay) rather than replacing
+//! the code: the reading leaves the truth at the fault's start, reaches
+//! `to` after `over` and stays there until the fault ends (a permanent
+//! fault: for good), when it snaps back. A ramp faster than the device's
+//! plausible rate (5 % of full scale a second plus 1 % between samples for
+//! pressure, 5 K/s plus 1 K for temperature, see docs/simulator.md) is
+//! flagged by the device's rate check; one that ends beyond the plausible
+//! range by its range check; a slower one inside the range looks like a real
+//! change of pressure or temperature.
 
 use super::physics::Truth;
 use crate::Error;
@@ -133,6 +144,8 @@ pub enum FaultKind {
     FailureLow,
     /// NE 43 high failure current (4–20 mA only).
     FailureHigh,
+    /// The reading moves away from the truth linearly (see [`Fault::ramp_offset`]).
+    Ramp,
 }
 
 /// A fault over a time span.
@@ -148,12 +161,32 @@ pub struct Fault {
     pub duration_s: f64,
     /// Spikes per hour (spikes only).
     pub spikes_per_hour: f64,
+    /// Where a ramp goes: its offset from the truth at its end, Pa for
+    /// pressure, K for temperature (ramps only; 0 otherwise).
+    pub ramp_to: f64,
+    /// Time a ramp takes to reach `ramp_to`, s (> 0 for a ramp).
+    pub ramp_over_s: f64,
 }
 
 impl Fault {
     /// True while the fault lasts at `t_s`.
     pub fn active(&self, t_s: f64) -> bool {
         t_s >= self.start_s && t_s < self.start_s + self.duration_s
+    }
+
+    /// What a ramp adds to its channel's reading at `t_s` (Pa or K):
+    /// `ramp_to` × (t − start)/over, at most `ramp_to`, while the fault
+    /// lasts; 0 before, after, and for every other kind.
+    pub fn ramp_offset(&self, t_s: f64) -> f64 {
+        if self.kind != FaultKind::Ramp || !self.active(t_s) {
+            return 0.0;
+        }
+        let x = if self.ramp_over_s > 0.0 {
+            ((t_s - self.start_s) / self.ramp_over_s).clamp(0.0, 1.0)
+        } else {
+            1.0
+        };
+        self.ramp_to * x
     }
 }
 
@@ -324,6 +357,10 @@ impl SensorPair {
                 continue;
             }
             match f.kind {
+                FaultKind::Ramp => match f.channel {
+                    Channel::Pressure => p_val += f.ramp_offset(t),
+                    Channel::Temperature => t_val += f.ramp_offset(t),
+                },
                 FaultKind::Spikes => {
                     if t >= self.next_spike[i] {
                         self.next_spike[i] = t + exp_draw(&mut self.rng, f.spikes_per_hour);

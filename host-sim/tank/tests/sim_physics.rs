@@ -5,8 +5,8 @@
 use isochor_core::Gas;
 use isochor_eos::Eos;
 use isochor_tank::physics::{
-    Blowdown, DAY_S, Draw, Fill, Leak, LeakSize, Plant, Simulator, Vessel, Weather, ix,
-    orifice_flux,
+    Blowdown, Cylinder, DAY_S, Draw, Fill, Leak, LeakSize, Manifold, Plant, Simulator, Vessel,
+    Weather, ix, orifice_flux,
 };
 
 fn weather(mean_k: f64, swing_k: f64, sun: f64) -> Weather {
@@ -55,6 +55,7 @@ fn plant(gas: Gas, vessel: Vessel, p0: f64, t0: f64) -> Plant {
         blowdowns: vec![],
         fills: vec![],
         seed: 1,
+        manifold: None,
     }
 }
 
@@ -188,6 +189,7 @@ fn mass_and_energy_are_conserved() {
         kg_s: 0.5 / 3600.0,
         windows: vec![(8.0, 12.0), (13.0, 17.5)],
         min_pressure_pa: 5e5,
+        day_demand: Vec::new(),
     });
     p.leaks.push(Leak {
         start_s: DAY_S,
@@ -261,6 +263,7 @@ fn adaptive_steps_match_short_steps() {
         kg_s: 0.25 / 3600.0,
         windows: vec![(0.0, 8.0), (18.0, 24.0)],
         min_pressure_pa: 10e5,
+        day_demand: Vec::new(),
     });
     let mut a = Simulator::new(p.clone()).unwrap();
     let mut b = Simulator::new(p).unwrap().with_max_step(10.0);
@@ -280,4 +283,141 @@ fn adaptive_steps_match_short_steps() {
     );
     assert!(dp < 1e-6 && dt < 1e-4 && dm < 1e-7);
     assert!(a.steps < 200, "{} steps", a.steps);
+}
+
+/// A steel cylinder of `v_m3` that exchanges heat (sun on half its side).
+fn steel_vessel(v_m3: f64) -> Vessel {
+    let (area, side) = Vessel::cylinder_areas(v_m3, 5.0);
+    Vessel {
+        water_capacity_m3: v_m3,
+        elastic_per_pa: 1.2e-5 / 1e5,
+        thermal_per_k: 3.6e-5,
+        reference_k: 288.15,
+        wall_heat_capacity_j_k: 58.0 * 480.0,
+        inner_area_m2: area,
+        outer_area_m2: 1.1 * area,
+        inner_htc: 10.0,
+        fill_htc: 250.0,
+        outer_htc: 8.0,
+        sun_area_m2: 0.5 * side,
+    }
+}
+
+fn cylinder(vessel: Vessel, p0: f64, t0: f64, open: bool, switches: Vec<(f64, bool)>) -> Cylinder {
+    Cylinder {
+        vessel,
+        initial_pressure_pa: p0,
+        initial_temperature_k: Some(t0),
+        valve_area_m2: 2e-6,
+        open,
+        switches,
+    }
+}
+
+/// Two identical cylinders on a manifold, drawn and leaking through the
+/// header, against one cylinder of twice the capacity with twice the wall
+/// (heat capacity, areas, sun): the same state within the step control's
+/// tolerance (asserted 1e-6 relative in pressure and content, 1e-4 K),
+/// over two days of sun, day/night and a draw.
+#[test]
+fn two_identical_cylinders_equal_one_of_twice_the_capacity() {
+    let one = steel_vessel(0.05);
+    let mut double = one.clone();
+    double.water_capacity_m3 *= 2.0;
+    double.wall_heat_capacity_j_k *= 2.0;
+    double.inner_area_m2 *= 2.0;
+    double.outer_area_m2 *= 2.0;
+    double.sun_area_m2 *= 2.0;
+    let mut p = plant(Gas::Nitrogen, double, 150e5, 290.0);
+    p.weather = weather(290.0, 8.0, 700.0);
+    p.draws.push(Draw {
+        start_s: 0.3 * DAY_S,
+        end_s: 2.0 * DAY_S,
+        kg_s: 0.5 / 3600.0,
+        windows: vec![(8.0, 12.0), (13.0, 17.5)],
+        min_pressure_pa: 5e5,
+        day_demand: Vec::new(),
+    });
+    p.leaks.push(Leak {
+        start_s: DAY_S,
+        size: LeakSize::LossPerDay(0.02),
+    });
+    let mut m = p.clone();
+    m.manifold = Some(Manifold {
+        cylinders: vec![
+            cylinder(one.clone(), 150e5, 290.0, true, vec![]),
+            cylinder(one, 150e5, 290.0, true, vec![]),
+        ],
+        sensor: 1,
+    });
+    let mut a = Simulator::new(p).unwrap();
+    let mut b = Simulator::new(m).unwrap();
+    let (mut worst_p, mut worst_m, mut worst_t) = (0.0f64, 0.0f64, 0.0f64);
+    for i in 0..=2 * 24 * 60 {
+        let t = i as f64 * 60.0;
+        let (x, y) = (a.truth(t).unwrap(), b.truth(t).unwrap());
+        worst_p = worst_p.max((x.pressure_pa / y.pressure_pa - 1.0).abs());
+        worst_m = worst_m.max((x.mass_kg / y.mass_kg - 1.0).abs());
+        worst_t = worst_t.max((x.gas_k - y.gas_k).abs().max((x.wall_k - y.wall_k).abs()));
+    }
+    eprintln!(
+        "manifold of two vs one double cylinder: p {worst_p:.1e}, m {worst_m:.1e}, T {worst_t:.1e} K"
+    );
+    assert!(worst_p < 1e-6 && worst_m < 1e-6 && worst_t < 1e-4);
+}
+
+/// Two cylinders at 200 and 50 bar on one header, no draw: the gas flows
+/// from the full one to the other until their pressures agree, the total
+/// mass stays what it was (to 1e-12 relative), and energy is conserved with
+/// the heat exchanged with the ambient (as in the single tank's check).
+/// While the second valve is closed (the first hour) nothing flows: each
+/// cylinder keeps its mass exactly.
+#[test]
+fn manifold_flows_conserve_mass_and_a_closed_valve_stops_them() {
+    let v = steel_vessel(0.05);
+    let mut p = plant(Gas::Argon, v.clone(), 200e5, 293.0);
+    p.weather = weather(293.0, 3.0, 0.0);
+    p.manifold = Some(Manifold {
+        cylinders: vec![
+            cylinder(v.clone(), 200e5, 293.0, true, vec![]),
+            cylinder(v, 50e5, 293.0, false, vec![(3600.0, true)]),
+        ],
+        sensor: 0,
+    });
+    let mut sim = Simulator::new(p).unwrap();
+    let (m1, _, _, p1) = sim.vessel_state(0).unwrap();
+    let (m2, _, _, p2) = sim.vessel_state(1).unwrap();
+    assert!(p1 > 3.0 * p2);
+    let total = m1 + m2;
+    let e0 = sim.energy_j().unwrap();
+    let (y0, ..) = sim.state();
+    // Closed: the content open to the header is the first cylinder's alone.
+    let t = sim.truth(3599.0).unwrap();
+    assert_eq!(sim.vessel_state(0).unwrap().0, m1);
+    assert_eq!(sim.vessel_state(1).unwrap().0, m2);
+    assert!((t.mass_kg - m1).abs() < 1e-12 * m1);
+    let t = sim.truth(2.0 * 3600.0).unwrap();
+    let (a, _, _, pa) = sim.vessel_state(0).unwrap();
+    let (b, _, _, pb) = sim.vessel_state(1).unwrap();
+    assert!(
+        (a + b - total).abs() < 1e-12 * total,
+        "{} vs {total}",
+        a + b
+    );
+    assert!((pa - pb).abs() < 0.01 * pa, "{pa} vs {pb}");
+    assert!((t.mass_kg - total).abs() < 1e-12 * total);
+    let _ = sim.truth(DAY_S).unwrap();
+    let (y, ..) = sim.state();
+    let tot = ix::totals(2);
+    assert_eq!(y[tot], 0.0);
+    assert_eq!(y[tot + 1], 0.0);
+    let e1 = sim.energy_j().unwrap();
+    let exchanged = y[tot + 3] - y[tot + 4] - (y0[tot + 3] - y0[tot + 4]);
+    let err = (e1 - e0 - exchanged).abs();
+    eprintln!(
+        "manifold: mass {:.1e} rel, energy {err:.3e} J of {:.3e} J exchanged",
+        ((a + b) / total - 1.0).abs(),
+        y[tot + 3].abs()
+    );
+    assert!(err < 1e-5 * (y[tot + 3].abs() + total * 300.0 * 312.0));
 }

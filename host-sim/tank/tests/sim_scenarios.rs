@@ -484,3 +484,189 @@ fn methane_store_winter_population_coverage_is_near_95_percent() {
     let coverage = population("methane-store-winter", 100, 4.0 * 86_400.0, 5000);
     assert!((0.92..=0.99).contains(&coverage), "{coverage}");
 }
+
+/// The keys of ramp faults and irregular draws: accepted where they belong,
+/// refused elsewhere (exit code 2, as every scenario error).
+#[test]
+fn ramp_and_schedule_keys_are_checked() {
+    let ramp = BUILTIN
+        .iter()
+        .find(|b| b.0 == "transmitter-ramp")
+        .unwrap()
+        .1;
+    let odd = BUILTIN
+        .iter()
+        .find(|b| b.0 == "workshop-odd-days")
+        .unwrap()
+        .1;
+    let sc = Scenario::from_toml(ramp).unwrap();
+    let ramps: Vec<_> = sc
+        .faults
+        .iter()
+        .map(|f| (f.ramp_to, f.ramp_over_s))
+        .collect();
+    assert_eq!(
+        ramps,
+        [(-6e5, 12.0 * 3600.0), (8.0, 4.0 * 3600.0), (400e5, 20.0)]
+    );
+    assert_eq!(sc.faults[2].duration_s, f64::INFINITY);
+    let sc = Scenario::from_toml(odd).unwrap();
+    assert!(!sc.plant.draws[0].day_demand.is_empty());
+    // Good variants.
+    for text in [
+        ramp.replace("to = \"-6bar\"", "to = \"+87psi\""),
+        odd.replace("start_weekday = \"wed\"", "start_weekday = \"Sun\""),
+        odd.replace("probability = 0.5", "days = [0, 3, 700]"),
+        odd.replace("flow_max = \"10sL/min\"\n", ""),
+    ] {
+        assert!(Scenario::from_toml(&text).is_ok(), "{text}");
+    }
+    let cases = [
+        // A ramp without `to` or `over`, or with a zero `over`.
+        ramp.replacen("to = \"-6bar\"\n", "", 1),
+        ramp.replacen("over = \"12h\"\n", "", 1),
+        ramp.replacen("over = \"12h\"", "over = \"0s\"", 1),
+        // A pressure ramp in kelvin, a temperature ramp in bar, a gauge unit.
+        ramp.replacen("to = \"-6bar\"", "to = \"-6K\"", 1),
+        ramp.replacen("to = \"+8K\"", "to = \"+8bar\"", 1),
+        ramp.replacen("to = \"-6bar\"", "to = \"-6barg\"", 1),
+        // `to`/`over` on another kind.
+        BUILTIN[0].1.replace(
+            "duration = \"10min\"",
+            "duration = \"10min\"\nto = \"1K\"\nover = \"1h\"",
+        ),
+        // Schedules: a probability out of 0 … 1, an unknown weekday, a day
+        // beyond two years, a flow range upside down, an unknown key.
+        odd.replace("probability = 0.5", "probability = 1.5"),
+        odd.replace("\"fri\"", "\"fry\""),
+        odd.replace("start_weekday = \"wed\"", "start_weekday = \"someday\""),
+        odd.replace("probability = 0.5", "days = [800]"),
+        odd.replace("flow_max = \"10sL/min\"", "flow_max = \"5sL/min\""),
+        odd.replace("probability = 0.5", "chance = 0.5"),
+    ];
+    for (i, text) in cases.iter().enumerate() {
+        assert_ne!(text, ramp, "case {i} changed nothing");
+        assert_ne!(text, odd, "case {i} changed nothing");
+        let e = Scenario::from_toml(text);
+        assert!(e.is_err(), "case {i} was accepted");
+        assert_eq!(e.unwrap_err().exit_code(), 2, "case {i}");
+    }
+}
+
+/// Irregular draws are drawn from the scenario's seed: the same seed gives
+/// the same schedule, another seed another; only the allowed weekdays are
+/// used (day 0 a Wednesday), each in about half of them (binomial, 3σ over
+/// two years), at a demand between `flow` and `flow_max`; `days` picks
+/// exactly the days it names. The simulated outflow follows the schedule:
+/// only on scheduled days, inside the windows, at the day's demand.
+#[test]
+fn irregular_draw_schedules_are_deterministic_per_seed() {
+    let odd = BUILTIN
+        .iter()
+        .find(|b| b.0 == "workshop-odd-days")
+        .unwrap()
+        .1;
+    let a = Scenario::from_toml(odd).unwrap();
+    let b = Scenario::from_toml(odd).unwrap();
+    let c = Scenario::from_toml(odd).unwrap().with(None, Some(30));
+    let (da, db, dc) = (
+        &a.plant.draws[0].day_demand,
+        &b.plant.draws[0].day_demand,
+        &c.plant.draws[0].day_demand,
+    );
+    assert_eq!(da, db);
+    assert_ne!(da, dc);
+    let lo = a.plant.draws[0].kg_s;
+    let hi = lo * 10.0 / 6.0;
+    let (mut weekdays, mut used) = (0, 0);
+    for (day, &q) in da.iter().enumerate() {
+        let weekday = (2 + day) % 7 < 5;
+        weekdays += usize::from(weekday);
+        if q > 0.0 {
+            assert!(weekday, "day {day} is a weekend day");
+            assert!(q >= lo && q <= hi * (1.0 + 1e-12), "day {day}: {q}");
+            used += 1;
+        }
+    }
+    let (n, p) = (weekdays as f64, 0.5);
+    let sigma = (n * p * (1.0 - p)).sqrt();
+    eprintln!(
+        "{used} of {weekdays} weekdays used (expected {:.0} ± {sigma:.1})",
+        n * p
+    );
+    assert!((used as f64 - n * p).abs() < 3.0 * sigma);
+    let days = Scenario::from_toml(&odd.replace("probability = 0.5", "days = [0, 5, 6, 7]"))
+        .unwrap()
+        .plant
+        .draws[0]
+        .day_demand
+        .clone();
+    // `days` alone: those days and no other (every weekday is allowed).
+    let on: Vec<usize> = (0..days.len()).filter(|&d| days[d] > 0.0).collect();
+    assert_eq!(on, [0, 5, 6, 7]);
+
+    // The physics follows the schedule (1 min trace; the draws start and
+    // stop on the minute).
+    let r = run(
+        &a.clone().with(Some(14.0 * 86_400.0), None),
+        &RunOptions {
+            backend: BackendKind::Fixed,
+            trace_every_s: 60.0,
+            progress: false,
+        },
+    )
+    .unwrap();
+    let d = &a.plant.draws[0];
+    let mut drawn_minutes = 0;
+    for p in &r.trace {
+        let want = d.demand_kg_s(p.t_s) * 3600.0;
+        assert!(
+            (p.true_outflow_kg_h - want).abs() <= 1e-9 * want.max(1e-3),
+            "at {} s: {} vs {want}",
+            p.t_s,
+            p.true_outflow_kg_h
+        );
+        drawn_minutes += usize::from(want > 0.0);
+    }
+    let scheduled_days = da.iter().take(14).filter(|&&q| q > 0.0).count();
+    assert!(scheduled_days >= 2, "{scheduled_days}");
+    // Two windows of 90 min a day, each minute mark inside one.
+    assert_eq!(drawn_minutes, scheduled_days * 180);
+}
+
+/// The manifold's keys: the group parsed as written (capacity told: the
+/// cylinders open at the start; valve changes in time order; the sensor's
+/// cylinder), and refused where they do not fit.
+#[test]
+fn manifold_keys_are_checked() {
+    let text = BUILTIN
+        .iter()
+        .find(|b| b.0 == "lab-argon-manifold")
+        .unwrap()
+        .1;
+    let sc = Scenario::from_toml(text).unwrap();
+    let m = sc.plant.manifold.as_ref().unwrap();
+    assert_eq!(m.cylinders.len(), 4);
+    assert_eq!(m.sensor, 0);
+    assert_eq!(sc.tank.water_capacity_m3, 0.1);
+    assert_eq!(m.cylinders[0].switches, [(28.0 * 3600.0, false)]);
+    assert_eq!(m.cylinders[3].switches, [(28.0 * 3600.0, true)]);
+    assert!(!m.cylinders[2].open && m.cylinders[2].initial_pressure_pa == 198e5);
+    let cases = [
+        text.replace("cylinder = 4\n", "cylinder = 5\n"),
+        text.replace("pressure = \"52bar\"", "pressure = \"52bar\"\ntemperature_sensor = true"),
+        text.replace("pressure = \"52bar\"", "pressure = \"52bar\"\nvalve_area = \"0mm2\""),
+        text.replace("pressure = \"52bar\"", "pressure = \"52bar\"\nsun_exposure = 2.0"),
+        text.replace("pressure = \"52bar\"", "pressure = \"52bar\"\ncolour = \"blue\""),
+        text.replace("pressure = \"60bar\"\n", "pressure = \"60bar\"\nopen = false\n")
+            .replace("pressure = \"52bar\"\n", "pressure = \"52bar\"\nopen = false\n"),
+        text.replace("[[draw]]", "[[fill]]\nstart = \"1h\"\nsupply_pressure = \"300bar\"\nsupply_temperature = \"20C\"\narea = \"1mm2\"\nto_pressure = \"200bar\"\n\n[[draw]]"),
+        BUILTIN[0].1.replace("[gauge]", "[[valve]]\ncylinder = 1\nat = \"1h\"\nopen = false\n\n[gauge]"),
+    ];
+    for (i, t) in cases.iter().enumerate() {
+        assert_ne!(t, text, "case {i} changed nothing");
+        let e = Scenario::from_toml(t);
+        assert!(e.is_err(), "case {i} was accepted");
+        assert_eq!(e.unwrap_err().exit_code(), 2, "case {i}");
+    }
+}

@@ -92,6 +92,8 @@ fn flags_during(name: &str, channel: Channel, kind: FaultKind) -> Status {
         start_s: 10.0,
         duration_s: 120.0,
         spikes_per_hour: 0.0,
+        ramp_to: 0.0,
+        ramp_over_s: 0.0,
     };
     let (mut pair, sc) = quiet(name, vec![fault]);
     let mut g = FixedGauge::new(&sc.gauge).unwrap();
@@ -251,4 +253,128 @@ fn drifts_begin_when_the_scenario_says() {
         }
     }
     assert!(after > 10, "{after}");
+}
+
+fn ramp(channel: Channel, start_s: f64, to: f64, over_s: f64, duration_s: f64) -> Fault {
+    Fault {
+        channel,
+        kind: FaultKind::Ramp,
+        start_s,
+        duration_s,
+        spikes_per_hour: 0.0,
+        ramp_to: to,
+        ramp_over_s: over_s,
+    }
+}
+
+/// The shape of a ramp: nothing before its start, linear to `to` over
+/// `over`, held, and gone at its end; through the sensors, the codes of a
+/// ramped channel are exactly those of a sound channel shown the truth
+/// plus the ramp's offset (errors and noise off), for pressure (+30 bar
+/// over 100 s) and temperature (−8 K over 100 s).
+#[test]
+fn ramps_walk_the_reading_away_linearly() {
+    let f = ramp(Channel::Pressure, 10.0, 30e5, 100.0, 200.0);
+    for (t, want) in [
+        (0.0, 0.0),
+        (9.999, 0.0),
+        (10.0, 0.0),
+        (35.0, 7.5e5),
+        (60.0, 15e5),
+        (110.0, 30e5),
+        (209.9, 30e5),
+        (210.0, 0.0),
+        (1e6, 0.0),
+    ] {
+        assert!(
+            (f.ramp_offset(t) - want).abs() < 1e-6,
+            "{t}: {}",
+            f.ramp_offset(t)
+        );
+    }
+    let mut stuck = f;
+    stuck.kind = FaultKind::Stuck;
+    assert_eq!(stuck.ramp_offset(60.0), 0.0);
+    let permanent = ramp(Channel::Pressure, 10.0, -6e5, 100.0, f64::INFINITY);
+    assert_eq!(permanent.ramp_offset(1e9), -6e5);
+
+    for (channel, to) in [(Channel::Pressure, 30e5), (Channel::Temperature, -8.0)] {
+        let f = ramp(channel, 10.0, to, 100.0, 200.0);
+        let (mut ramped, _) = quiet("workshop-leak", vec![f]);
+        let (mut sound, _) = quiet("workshop-leak", vec![]);
+        let mut moved = 0;
+        for i in 0..=260u64 {
+            let t = i as f64;
+            let (p, k) = (150e5 + 100.0 * t, 290.0 + 0.001 * t);
+            let a = ramped.sample(&truth(t, p, k)).unwrap();
+            let off = f.ramp_offset(t);
+            // No lag and no noise in `quiet`: the element reads the wall.
+            match channel {
+                Channel::Pressure => {
+                    let b = sound.sample(&truth(t, p + off, k)).unwrap();
+                    assert_eq!(a.pressure, b.pressure, "at {t} s");
+                }
+                Channel::Temperature => {
+                    let b = sound.sample(&truth(t, p, k + off)).unwrap();
+                    assert_eq!(a.temperature, b.temperature, "at {t} s");
+                }
+            }
+            if off != 0.0 {
+                moved += 1;
+            }
+        }
+        assert_eq!(moved, 199, "{channel:?}");
+    }
+}
+
+/// A fast ramp (+400 bar in 20 s on a 300 bar channel: 20 bar/s against the
+/// plausible 15 bar/s plus 3 bar between samples) is flagged by the
+/// device's rate check and, once beyond 150 % of the range, by its range
+/// check, and raises `sensor_fault`; a slow one (+30 bar over 10 min) is
+/// never flagged: to the device it is a real change.
+#[test]
+fn a_fast_ramp_is_flagged_a_slow_one_is_not() {
+    for (f, flagged) in [
+        (
+            ramp(Channel::Pressure, 10.0, 400e5, 20.0, f64::INFINITY),
+            true,
+        ),
+        (
+            ramp(Channel::Pressure, 10.0, 30e5, 600.0, f64::INFINITY),
+            false,
+        ),
+        (
+            ramp(Channel::Temperature, 10.0, 40.0, 4.0, f64::INFINITY),
+            true,
+        ),
+        (
+            ramp(Channel::Temperature, 10.0, -8.0, 600.0, f64::INFINITY),
+            false,
+        ),
+    ] {
+        let (mut pair, sc) = quiet("workshop-leak", vec![f]);
+        let mut g = FixedGauge::new(&sc.gauge).unwrap();
+        let mut seen = Status::OK;
+        let mut last = Status::OK;
+        for i in 0..=700u64 {
+            let tr = truth(i as f64, 150e5 + 100.0 * i as f64, 290.0 + 0.01 * i as f64);
+            let codes = pair.sample(&tr).unwrap();
+            last = g.sample(Instant(i * 1000), &codes).unwrap().status;
+            seen |= last;
+        }
+        if flagged {
+            assert!(
+                seen.contains(Status::SENSOR_RATE_IMPLAUSIBLE),
+                "{f:?}: {seen}"
+            );
+            assert!(seen.contains(Status::SENSOR_FAULT), "{f:?}: {seen}");
+        } else {
+            assert!(!seen.intersects(Status::SENSOR_RANGE), "{f:?}: {seen}");
+            assert!(!seen.contains(Status::SENSOR_FAULT), "{f:?}: {seen}");
+        }
+        if f.channel == Channel::Pressure && flagged {
+            // 590 bar against a plausible 450 bar: flagged for good.
+            assert!(last.contains(Status::SENSOR_OVER_RANGE), "{last}");
+        }
+    }
 }
