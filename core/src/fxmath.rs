@@ -16,7 +16,7 @@
 //! four 16-bit `muls` and carries ([`fx::mul_u32`](crate::fx::mul_u32), about
 //! 20 instructions); a 64-bit division costs hundreds, which is why none is
 //! used. Measured on a Cortex-M0 (QEMU): `ln` 379, `recip` 504, `sqrt` 498
-//! instructions per call (`firmware/examples/sensor_cost.rs`).
+//! instructions per call (`isochor budget`, its `sensor` stage; per-call figures in docs/measured.md).
 
 use crate::fx::{Coef, mul_s32, mul_u32};
 

@@ -7,7 +7,7 @@
 //! Cost per code (32×32→64 multiplies): ratio 1 (series circuit) or 8
 //! (dividers: one division-free reciprocal); closed form 10 (one square
 //! root); below 0 °C 2 × 7 more; self-heating 1–2. No division. Measured on
-//! a Cortex-M0: see `firmware/examples/sensor_cost.rs`.
+//! a Cortex-M0: see `isochor budget`, its `sensor` stage; per-call figures in docs/measured.md.
 
 use super::consts::{q, slope_inverse};
 use super::{A, B, C, ITERATIONS_FIXED, RtdConfig};
