@@ -208,14 +208,10 @@ impl<F: NorFlash> Service<F> {
 /// [`Refusal::BadConfig`].
 pub fn config_refusal(e: Error) -> Refusal {
     match e {
-        Error::OutOfRange(why) | Error::NotFinite(why) => Refusal::BadConfig {
-            reason: ConfigFault::Value(why),
-        },
+        Error::OutOfRange(why) | Error::NotFinite(why) => bad_config(ConfigFault::Value(why)),
         e => match refusal(e) {
             r @ Refusal::BadConfig { .. } => r,
-            _ => Refusal::BadConfig {
-                reason: ConfigFault::Content,
-            },
+            _ => bad_config(ConfigFault::Content),
         },
     }
 }

@@ -13,8 +13,9 @@
 //! the host to the device. A device decodes only the second kind and
 //! encodes only the first.
 //!
-//! This module is a leaf: it depends on the crate's formats, status word and
-//! error payloads only. The device builds these messages from its pipeline's outputs
+//! This module is a leaf: it depends on the crate's formats, status word,
+//! error payloads and the tracker's reason for no time to empty only (all
+//! of a lower layer). The device builds these messages from its pipeline's outputs
 //! ([`crate::app`]).
 
 use heapless::{String, Vec};

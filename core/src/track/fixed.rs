@@ -389,8 +389,11 @@ pub struct Tracker<M> {
     content: Option<Content>,
     uncertainty: Option<UncertaintyFx>,
     rate: Option<RateFx>,
+    /// The time to empty (an `Option`, not a `Result`: the outputs copy it
+    /// every sample) …
     tte: Option<TimeToEmpty>,
-    /// Why `tte` is `None`.
+    /// … and why there is none (meaningful while `tte` is `None`); both set
+    /// by `set_tte`.
     tte_why: NoTimeToEmpty,
     predicted: Option<SettledPredictionFx>,
     leak: Option<LeakFx>,
@@ -657,8 +660,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.uncertainty = None;
             self.rate = None;
             self.rate_per_h = None;
-            self.tte = None;
-            self.tte_why = NoTimeToEmpty::NoContent;
+            self.set_tte(Err(NoTimeToEmpty::NoContent));
             self.predicted = None;
             self.gas_sensor = 0;
             self.gas_draw = 0;
@@ -678,6 +680,17 @@ impl<M: CompressibilityFx> Tracker<M> {
             (None, _) => Some(NoTimeToEmpty::NoContent),
             (Some(_), Some(_)) => None,
             (Some(_), None) => Some(self.tte_why),
+        }
+    }
+
+    /// Sets the time to empty, or why there is none.
+    fn set_tte(&mut self, tte: Result<TimeToEmpty, NoTimeToEmpty>) {
+        match tte {
+            Ok(t) => self.tte = Some(t),
+            Err(why) => {
+                self.tte = None;
+                self.tte_why = why;
+            }
         }
     }
 
@@ -706,8 +719,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.ring_len = 0;
             self.t_len = 0;
             self.rate = None;
-            self.tte = None;
-            self.tte_why = NoTimeToEmpty::Learning;
+            self.set_tte(Err(NoTimeToEmpty::Learning));
             self.reset_leak();
             self.last_at = None;
         }
@@ -832,8 +844,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.ring_len = 0;
             self.t_len = 0;
             self.rate = None;
-            self.tte = None;
-            self.tte_why = NoTimeToEmpty::Learning;
+            self.set_tte(Err(NoTimeToEmpty::Learning));
         }
     }
 
@@ -886,8 +897,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         if n < RATE_MIN_BLOCKS {
             self.rate = None;
             self.rate_per_h = None;
-            self.tte = None;
-            self.tte_why = NoTimeToEmpty::Learning;
+            self.set_tte(Err(NoTimeToEmpty::Learning));
             self.gas_sensor = 0;
             self.gas_draw = 0;
             self.steady_ms = 0;
@@ -980,16 +990,15 @@ impl<M: CompressibilityFx> Tracker<M> {
         // Not emptying: the content is not falling, or not measurably (the
         // rate within its own expanded uncertainty of zero: an idle vessel's
         // scatter would give times to empty of years).
-        self.tte_why = if per_h <= u_per_h {
-            NoTimeToEmpty::NotEmptying
+        let tte = if per_h <= u_per_h {
+            Err(NoTimeToEmpty::NotEmptying)
         } else if left <= 0 {
-            NoTimeToEmpty::AtReserve
+            Err(NoTimeToEmpty::AtReserve)
         } else if !steady {
-            NoTimeToEmpty::DrawChanging
+            Err(NoTimeToEmpty::DrawChanging)
+        } else if !settled_draw {
+            Err(NoTimeToEmpty::DrawCooling)
         } else {
-            NoTimeToEmpty::DrawCooling
-        };
-        self.tte = if per_h > u_per_h && left > 0 && steady && settled_draw {
             // left < 2^41 (Q36, ≤ 16 + margin), × 3.6e6 < 2^63.
             let ms = |rate: i64| {
                 Millis(
@@ -1004,7 +1013,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 .time_to_empty_per_h
                 .saturating_mul(2)
                 .min(i64::MAX as u64) as i64;
-            Some(TimeToEmpty {
+            Ok(TimeToEmpty {
                 expected: ms(per_h),
                 earliest: ms(per_h.saturating_add(u_t)),
                 latest: if per_h > u_t {
@@ -1013,9 +1022,8 @@ impl<M: CompressibilityFx> Tracker<M> {
                     None
                 },
             })
-        } else {
-            None
         };
+        self.set_tte(tte);
     }
 
     /// Settling state and prediction.

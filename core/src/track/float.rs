@@ -367,8 +367,11 @@ pub struct Tracker<F: Real, M> {
     content: Option<Content<F>>,
     uncertainty: Option<Uncertainty<F>>,
     rate: Option<Rate<F>>,
+    /// The time to empty (an `Option`, not a `Result`: the outputs copy it
+    /// every sample) …
     tte: Option<TimeToEmpty>,
-    /// Why `tte` is `None`.
+    /// … and why there is none (meaningful while `tte` is `None`); both set
+    /// by `set_tte`.
     tte_why: NoTimeToEmpty,
     predicted: Option<SettledPrediction<F>>,
     leak: Option<Leak<F>>,
@@ -586,8 +589,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.uncertainty = None;
             self.rate = None;
             self.rate_per_h = None;
-            self.tte = None;
-            self.tte_why = NoTimeToEmpty::NoContent;
+            self.set_tte(Err(NoTimeToEmpty::NoContent));
             self.predicted = None;
             self.gas_sensor = F::ZERO;
             self.gas_draw = F::ZERO;
@@ -601,6 +603,17 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             (None, _) => Some(NoTimeToEmpty::NoContent),
             (Some(_), Some(_)) => None,
             (Some(_), None) => Some(self.tte_why),
+        }
+    }
+
+    /// Sets the time to empty, or why there is none.
+    fn set_tte(&mut self, tte: Result<TimeToEmpty, NoTimeToEmpty>) {
+        match tte {
+            Ok(t) => self.tte = Some(t),
+            Err(why) => {
+                self.tte = None;
+                self.tte_why = why;
+            }
         }
     }
 
@@ -629,8 +642,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.ring_len = 0;
             self.t_len = 0;
             self.rate = None;
-            self.tte = None;
-            self.tte_why = NoTimeToEmpty::Learning;
+            self.set_tte(Err(NoTimeToEmpty::Learning));
             self.reset_leak();
             self.last_at = None;
         }
@@ -738,8 +750,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.ring_len = 0;
             self.t_len = 0;
             self.rate = None;
-            self.tte = None;
-            self.tte_why = NoTimeToEmpty::Learning;
+            self.set_tte(Err(NoTimeToEmpty::Learning));
         }
     }
 
@@ -782,8 +793,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         if n < RATE_MIN_BLOCKS {
             self.rate = None;
             self.rate_per_h = None;
-            self.tte = None;
-            self.tte_why = NoTimeToEmpty::Learning;
+            self.set_tte(Err(NoTimeToEmpty::Learning));
             self.gas_sensor = F::ZERO;
             self.gas_draw = F::ZERO;
             self.steady_ms = 0;
@@ -854,21 +864,20 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         // Not emptying: the content is not falling, or not measurably (the
         // rate within its own expanded uncertainty of zero: an idle vessel's
         // scatter would give times to empty of years).
-        self.tte_why = if per_h <= u_per_h {
-            NoTimeToEmpty::NotEmptying
+        let tte = if per_h <= u_per_h {
+            Err(NoTimeToEmpty::NotEmptying)
         } else if left <= F::ZERO {
-            NoTimeToEmpty::AtReserve
+            Err(NoTimeToEmpty::AtReserve)
         } else if !steady {
-            NoTimeToEmpty::DrawChanging
+            Err(NoTimeToEmpty::DrawChanging)
+        } else if !settled_draw {
+            Err(NoTimeToEmpty::DrawCooling)
         } else {
-            NoTimeToEmpty::DrawCooling
-        };
-        self.tte = if per_h > u_per_h && left > F::ZERO && steady && settled_draw {
             let ms = |rate: F| Millis((left / rate * F::lit(HOUR_MS as f64)).to_f64() as u64);
             // The bounds: left/(rate ± U) with U the rate spread of the
             // time to empty's own budget (k = 2).
             let u_t = two * budget.time_to_empty_per_h;
-            Some(TimeToEmpty {
+            Ok(TimeToEmpty {
                 expected: ms(per_h),
                 earliest: ms(per_h + u_t),
                 latest: if per_h > u_t {
@@ -877,9 +886,8 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                     None
                 },
             })
-        } else {
-            None
         };
+        self.set_tte(tte);
     }
 
     /// Settling state and prediction.
