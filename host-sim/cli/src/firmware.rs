@@ -107,22 +107,38 @@ impl Build {
         }
     }
 
-    /// The target folder of this build (builds other than the standard one
-    /// get their own, so the builds do not rebuild each other).
+    /// The target folder of this build: `firmware/target` for the standard
+    /// build of each board, one shared `firmware/target/variants` for every
+    /// other build. Cargo keeps each feature set's artifacts apart inside
+    /// it, so the variants do not rebuild each other, while the host's build
+    /// scripts and procedural macros and every crate whose features do not
+    /// change are built once (a folder per variant cost about 400 MB of disk
+    /// each).
     pub fn target_dir(&self, firmware: &Path) -> PathBuf {
-        if *self == Build::standard(self.board) {
+        if self.is_standard() {
             firmware.join("target")
         } else {
-            firmware.join("target").join(&self.name)
+            firmware.join("target").join("variants")
         }
     }
 
-    /// Path of a binary of this build.
+    fn is_standard(&self) -> bool {
+        *self == Build::standard(self.board)
+    }
+
+    /// Path of a binary of this build: where cargo leaves it for a standard
+    /// build; a copy in a folder of the build's name for the others (the
+    /// shared folder's own path holds whichever variant was built last).
     pub fn elf(&self, firmware: &Path, bin: &str) -> PathBuf {
-        self.target_dir(firmware)
+        let release = self
+            .target_dir(firmware)
             .join(self.board.target())
-            .join("release")
-            .join(bin)
+            .join("release");
+        if self.is_standard() {
+            release.join(bin)
+        } else {
+            release.join(&self.name).join(bin)
+        }
     }
 }
 
@@ -141,9 +157,17 @@ fn run_checked(mut cmd: Command, what: &str) -> Result<String, Error> {
     Ok(String::from_utf8_lossy(&out.stdout).into_owned())
 }
 
+/// One build at a time in this process: the variants share a target folder,
+/// and a variant's binaries are copied out of it before another variant
+/// replaces them.
+static BUILDING: std::sync::Mutex<()> = std::sync::Mutex::new(());
+
 /// Builds binaries of `build` (release) in `firmware`; returns the path of
 /// the first.
 pub fn build(firmware: &Path, b: &Build, bins: &[&str]) -> Result<PathBuf, Error> {
+    let _one_at_a_time = BUILDING
+        .lock()
+        .unwrap_or_else(|poisoned| poisoned.into_inner());
     let mut cmd = Command::new(std::env::var("CARGO").unwrap_or_else(|_| "cargo".into()));
     cmd.current_dir(firmware)
         .args(["build", "--release", "--target", b.board.target()])
@@ -163,6 +187,21 @@ pub fn build(firmware: &Path, b: &Build, bins: &[&str]) -> Result<PathBuf, Error
         cmd.arg("--features").arg(b.features.join(","));
     }
     run_checked(cmd, &format!("building the firmware ({})", b.name))?;
+    if !b.is_standard() {
+        let built = b
+            .target_dir(firmware)
+            .join(b.board.target())
+            .join("release");
+        for bin in bins {
+            let to = b.elf(firmware, bin);
+            if let Some(dir) = to.parent() {
+                std::fs::create_dir_all(dir)
+                    .map_err(|e| Error::Link(format!("{}: {e}", dir.display())))?;
+            }
+            std::fs::copy(built.join(bin), &to)
+                .map_err(|e| Error::Link(format!("copying {bin} of {}: {e}", b.name)))?;
+        }
+    }
     Ok(b.elf(
         firmware,
         bins.first().copied().unwrap_or("isochor-firmware"),
