@@ -399,6 +399,76 @@ pub const fn mul_u32_parts(a: u32, b: u32) -> u64 {
     ((hi as u64) << 32) | lo as u64
 }
 
+/// `a × b`, exact, in 128 bits. On 32-bit Arm from four [`mul_u32`]
+/// products (one when both fit 32 bits): the generic 128-bit product calls
+/// the 64-bit library routine several times over there. Elsewhere the
+/// native multiply.
+#[inline]
+pub const fn mul_u64_wide(a: u64, b: u64) -> u128 {
+    #[cfg(target_arch = "arm")]
+    {
+        mul_u64_parts(a, b)
+    }
+    #[cfg(not(target_arch = "arm"))]
+    {
+        a as u128 * b as u128
+    }
+}
+
+/// The 32-bit Arm form of [`mul_u64_wide`], exposed so that hosts test it.
+#[inline]
+pub const fn mul_u64_parts(a: u64, b: u64) -> u128 {
+    let (a0, a1) = (a as u32, (a >> 32) as u32);
+    let (b0, b1) = (b as u32, (b >> 32) as u32);
+    if a1 == 0 && b1 == 0 {
+        return mul_u32(a0, b0) as u128;
+    }
+    let lo = mul_u32(a0, b0) as u128;
+    let mid = mul_u32(a0, b1) as u128 + mul_u32(a1, b0) as u128;
+    let hi = mul_u32(a1, b1) as u128;
+    (hi << 64) + (mid << 32) + lo
+}
+
+/// `a × b` saturated at `u128::MAX`: [`mul_u64_wide`] when both fit 64
+/// bits (their product cannot overflow), the checked 128-bit product
+/// otherwise.
+#[inline]
+pub const fn saturating_mul_u128(a: u128, b: u128) -> u128 {
+    if a <= u64::MAX as u128 && b <= u64::MAX as u128 {
+        mul_u64_wide(a as u64, b as u64)
+    } else {
+        a.saturating_mul(b)
+    }
+}
+
+/// `a × b` in 128 bits: [`saturating_mul_u128`] under the name of a plain
+/// product, for factors whose product is known to fit (it saturates where a
+/// plain product would wrap).
+#[inline]
+pub const fn mul_u128(a: u128, b: u128) -> u128 {
+    saturating_mul_u128(a, b)
+}
+
+/// `a × b` in 128 bits: [`saturating_mul_i128`] under the name of a plain
+/// product, for factors whose product is known to fit.
+#[inline]
+pub const fn mul_i128(a: i128, b: i128) -> i128 {
+    saturating_mul_i128(a, b)
+}
+
+/// `a × b` saturated at the `i128` limits, as [`saturating_mul_u128`]: two
+/// magnitudes below 2^63 cannot overflow.
+#[inline]
+pub const fn saturating_mul_i128(a: i128, b: i128) -> i128 {
+    let (ma, mb) = (a.unsigned_abs(), b.unsigned_abs());
+    if ma < 1 << 63 && mb < 1 << 63 {
+        let p = mul_u64_wide(ma as u64, mb as u64) as i128;
+        if (a < 0) != (b < 0) { -p } else { p }
+    } else {
+        a.saturating_mul(b)
+    }
+}
+
 /// `a × b` for signed values whose magnitudes fit 32 bits (larger
 /// magnitudes are clamped to `u32::MAX`) and whose product fits `i64`,
 /// through [`mul_u32`].
@@ -547,6 +617,19 @@ mod tests {
             let c = Coef::from_raw(raw, frac);
             let v = raw as f64 / 2f64.powi(frac as i32);
             prop_assert!((c.to_f64() / v - 1.0).abs() < 2.5e-10);
+        }
+    }
+
+    proptest! {
+        #[test]
+        fn wide_multiplies_are_exact(a in any::<u64>(), b in any::<u64>(), sa in 0u32..128, sb in 0u32..128, neg in any::<(bool, bool)>()) {
+            prop_assert_eq!(mul_u64_wide(a, b), a as u128 * b as u128);
+            prop_assert_eq!(mul_u64_parts(a, b), a as u128 * b as u128);
+            let (x, y) = (u128::from(a) << sa.min(64) >> (sa / 2), u128::from(b) << sb.min(64) >> (sb / 2));
+            prop_assert_eq!(saturating_mul_u128(x, y), x.saturating_mul(y));
+            let sx = if neg.0 { -((x >> 1) as i128) } else { (x >> 1) as i128 };
+            let sy = if neg.1 { -((y >> 1) as i128) } else { (y >> 1) as i128 };
+            prop_assert_eq!(saturating_mul_i128(sx, sy), sx.saturating_mul(sy));
         }
     }
 

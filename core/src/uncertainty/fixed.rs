@@ -321,18 +321,24 @@ impl EvaluatorFx {
         let zt = ((t as u64 * z as u64 + (1 << 24)) >> 25).max(1);
         let inv_zt = (1u64 << 57) / zt;
         // 1/Z = T/(Z·T) at 2^-36 (Z ≥ 2^-4 by the model floors in use: < 2^41).
-        let inv_z = (t as u128 * inv_zt as u128) >> 16;
+        let inv_z = fx::mul_u64_wide(t as u64, inv_zt) >> 16;
 
         // c_p = 1 − p·(∂Z/∂p)/Z + e_p·p, Q30.
         let (p_mpa, _) = PER_MPA.scale(p, 4, 20);
-        let p_dz = p_mpa as i128 * c.z.dz_dp_per_mpa.to_bits() as i128; // 2^-44
-        let p_dz_z = (p_dz * inv_z as i128) >> (44 + INV - 30);
-        let ep = (self.tank.elastic_expansion_per_mpa.to_bits() as i128 * p_mpa as i128) >> 22;
+        let p_dz = fx::mul_i128(p_mpa as i128, c.z.dz_dp_per_mpa.to_bits() as i128); // 2^-44
+        let p_dz_z = fx::mul_i128(p_dz, inv_z as i128) >> (44 + INV - 30);
+        let ep = fx::mul_i128(
+            self.tank.elastic_expansion_per_mpa.to_bits() as i128,
+            p_mpa as i128,
+        ) >> 22;
         let c_p = (1i128 << 30) - p_dz_z + ep;
         // c_T = −1 − T·(∂Z/∂T)/Z + e_T·T, Q30.
-        let t_dz = t as i128 * c.z.dz_dt_per_k.to_bits() as i128; // 2^-40
-        let t_dz_z = (t_dz * inv_z as i128) >> (40 + INV - 30);
-        let et = (self.tank.thermal_expansion_per_k.to_bits() as i128 * t as i128) >> 18;
+        let t_dz = fx::mul_i128(t as i128, c.z.dz_dt_per_k.to_bits() as i128); // 2^-40
+        let t_dz_z = fx::mul_i128(t_dz, inv_z as i128) >> (40 + INV - 30);
+        let et = fx::mul_i128(
+            self.tank.thermal_expansion_per_k.to_bits() as i128,
+            t as i128,
+        ) >> 18;
         let c_t = -(1i128 << 30) - t_dz_z + et;
         let (c_p_abs, c_t_abs) = (c_p.unsigned_abs(), c_t.unsigned_abs());
 
@@ -344,9 +350,9 @@ impl EvaluatorFx {
         let rd = mul_q30(rd, c_p_abs);
         let (tf, _) = self.temperature.scale(f, Q, Q);
         // ×1/T = Z/(Z·T): inv_zt·Z at 2^-66 → 2^-36.
-        let inv_t = (inv_zt as u128 * z as u128) >> 30;
+        let inv_t = fx::mul_u64_wide(inv_zt, z as u64) >> 30;
         let tt = mul_q30(
-            ((tf as u128 * inv_t) >> INV).min(TERM_MAX as u128) as u64,
+            (fx::mul_u128(tf as u128, inv_t) >> INV).min(TERM_MAX as u128) as u64,
             c_t_abs,
         );
         let (cap, _) = self.capacity.scale(f, Q, Q);
@@ -412,7 +418,7 @@ impl EvaluatorFx {
         let inv_t = (1u64 << (QT + QT_MEAN)) / (w.temperature as u64).max(1 << QT_MEAN);
         let inv_t = inv_t as i128;
         // k = c_T/T, Q32 per K (signed), and |k|.
-        let kt = (k.c_t * inv_t) >> 30;
+        let kt = fx::mul_i128(k.c_t, inv_t) >> 30;
         let ct = kt.unsigned_abs();
         let f = w.fill_fraction.max(0) as i128;
         let fdot = w.slope_per_h as i128;
@@ -426,34 +432,34 @@ impl EvaluatorFx {
         let reserve = w.reserve_fraction.max(0) as i128;
         let q36 = |v: i128| v >> QR;
         // F·dT/dt and F·(dT/dt)/T, Q36 (signed).
-        let f_td = (f * td) >> QT;
-        let f_td_t = (f_td * inv_t) >> QT;
+        let f_td = fx::mul_i128(f, td) >> QT;
+        let f_td_t = fx::mul_i128(f_td, inv_t) >> QT;
         // A = F·(d²T/dt² − (dT/dt)²/T) + dF/dt·dT/dt, Q68 → Q36.
-        let td2_t = (((td * td) >> QT) * inv_t) >> QT;
-        let a = (f * (tdd - td2_t)).saturating_add(fdot * td) >> QT;
-        let per_k = |v: i128| sat64(v.unsigned_abs().saturating_mul(ct) >> QT);
+        let td2_t = fx::mul_i128(fx::mul_i128(td, td) >> QT, inv_t) >> QT;
+        let a = fx::mul_i128(f, tdd - td2_t).saturating_add(fx::mul_i128(fdot, td)) >> QT;
+        let per_k = |v: i128| sat64(fx::saturating_mul_u128(v.unsigned_abs(), ct) >> QT);
         // The gas's time constant τ = τ_v·F (F ≤ 1), and the lag of the
         // gas (τ) and the sensor (u(τ)) behind the wall in quadrature (see
         // the float form), hours in Q36: one root.
         let f1 = f.min(1 << QR) as u128;
-        let by_f = |v: u64| sat64((v as u128 * f1) >> QR);
+        let by_f = |v: u64| sat64(fx::mul_u128(v as u128, f1) >> QR);
         let lag36 = apply(self.lag_h, 1 << QR);
         let lags36 = match self.vessel_h {
             Some(vessel_h) => hypot(&[lag36, by_f(apply(vessel_h, 1 << QR))]),
             None => lag36,
         };
-        let lags = |v: u64| sat64((v as u128 * lags36 as u128) >> QR);
+        let lags = |v: u64| sat64(fx::mul_u64_wide(v, lags36) >> QR);
         let lag = lags(per_k(a));
-        let lag_t = lags(per_k(q36(f_td.saturating_mul(rho)) + a));
+        let lag_t = lags(per_k(q36(fx::saturating_mul_i128(f_td, rho)) + a));
         let gain = apply(self.gain, per_k(f_td));
         let offset = apply(self.temperature, per_k(fdot - f_td_t));
-        let reserve_rho = q36(reserve.saturating_mul(rho));
+        let reserve_rho = q36(fx::saturating_mul_i128(reserve, rho));
         let offset_t = apply(self.temperature, per_k(reserve_rho - f_td_t));
         // The full-scale term (Q28 → Q36) times |k|·|dT/dt| and |1/t + k·dT/dt|.
         let fs = (k.fs as i128) << (QR - Q);
-        let k_td = (kt * td) >> (2 * QT - QR);
-        let fs_rate = sat64(q36(fs.saturating_mul(k_td.abs())).unsigned_abs());
-        let fs_t = sat64(q36(fs.saturating_mul((rho + k_td).abs())).unsigned_abs());
+        let k_td = fx::mul_i128(kt, td) >> (2 * QT - QR);
+        let fs_rate = sat64(q36(fx::saturating_mul_i128(fs, k_td.abs())).unsigned_abs());
+        let fs_t = sat64(q36(fx::saturating_mul_i128(fs, (rho + k_td).abs())).unsigned_abs());
         // Scale errors (see the float form).
         let c_p = k.c_p.unsigned_abs() as i128;
         let fdot_abs = fdot.abs();
@@ -481,15 +487,12 @@ impl EvaluatorFx {
                 let phi = (c_t2 * z) / c_p;
                 let draw = by_f(apply(
                     vessel_h,
-                    apply(
-                        self.r_over_cv,
-                        sat64((phi as u128 * fdot_abs as u128) >> 24),
-                    ),
+                    apply(self.r_over_cv, sat64(fx::mul_u64_wide(phi, fdot_abs) >> 24)),
                 ));
                 (
                     hypot(&[draw, lags(per_k(f_td))]),
                     draw,
-                    sat64(q36((draw as i128).saturating_mul(rho)).unsigned_abs()),
+                    sat64(q36(fx::saturating_mul_i128(draw as i128, rho)).unsigned_abs()),
                 )
             }
             None => (0, 0, 0),
@@ -500,9 +503,9 @@ impl EvaluatorFx {
         let n = w.blocks as u64;
         let r = (rho as u64) / (w.blocks_per_hour.max(1) as u64);
         let lead = (r as u128 * (n.saturating_sub(1)) as u128) >> 1;
-        let u_end0 = sat64((u as u128).saturating_mul((1u128 << QR) + lead) >> QR);
+        let u_end0 = sat64(fx::saturating_mul_u128(u as u128, (1u128 << QR) + lead) >> QR);
         let spread_n = isqrt(((n * n).saturating_sub(1) << 32) / 12) as u128;
-        let u_end1 = sat64(((u as u128 * r as u128) >> QR).saturating_mul(spread_n) >> 16);
+        let u_end1 = sat64(fx::saturating_mul_u128(fx::mul_u64_wide(u, r) >> QR, spread_n) >> 16);
         RateBudgetFx {
             rate_per_h: hypot(&[u, lag, gain, offset, fs_rate, reading, capacity, model]),
             time_to_empty_per_h: hypot(&[
@@ -516,7 +519,7 @@ impl EvaluatorFx {
 
 /// `a·b` with `b` in Q30, rounded, saturated to the term limit.
 fn mul_q30(a: u64, b: u128) -> u64 {
-    let v = (a as u128 * b + (1 << 29)) >> 30;
+    let v = (fx::mul_u128(a as u128, b) + (1 << 29)) >> 30;
     v.min(TERM_MAX as u128) as u64
 }
 
@@ -532,7 +535,7 @@ fn sat64(v: u128) -> u64 {
 
 /// `v × c` (saturated): one 64×32-bit multiply.
 fn apply(c: Coef, v: u64) -> u64 {
-    let prod = v as u128 * c.mantissa() as u128;
+    let prod = fx::mul_u64_wide(v, u64::from(c.mantissa()));
     let shift = c.shift();
     sat64(if shift >= 0 {
         prod >> shift.unsigned_abs().min(127)
