@@ -469,6 +469,35 @@ pub const fn saturating_mul_i128(a: i128, b: i128) -> i128 {
     }
 }
 
+/// `c × v` for a small factor `c` (the fits' weights: |c| < 2^14), exact.
+/// On ARMv6-M, when |v| < 2^32, from two 32-bit multiplies of `v`'s 16-bit
+/// halves (each product below 2^30) instead of the 64×64 library routine;
+/// elsewhere, and for larger values, the native product.
+#[inline]
+pub const fn mul_small(c: i32, v: i64) -> i64 {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        mul_small_parts(c, v)
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        c as i64 * v
+    }
+}
+
+/// The ARMv6-M form of [`mul_small`], exposed so that hosts test it.
+#[inline]
+pub const fn mul_small_parts(c: i32, v: i64) -> i64 {
+    if c.unsigned_abs() < 1 << 14 && v.unsigned_abs() < 1 << 32 {
+        // v = hi·2^16 + lo, |hi| ≤ 2^16, 0 ≤ lo < 2^16.
+        let hi = (v >> 16) as i32;
+        let lo = (v & 0xFFFF) as i32;
+        (((c * hi) as i64) << 16) + (c * lo) as i64
+    } else {
+        c as i64 * v
+    }
+}
+
 /// `a × b` for signed values whose magnitudes fit 32 bits (larger
 /// magnitudes are clamped to `u32::MAX`) and whose product fits `i64`,
 /// through [`mul_u32`].
@@ -625,6 +654,10 @@ mod tests {
         fn wide_multiplies_are_exact(a in any::<u64>(), b in any::<u64>(), sa in 0u32..128, sb in 0u32..128, neg in any::<(bool, bool)>()) {
             prop_assert_eq!(mul_u64_wide(a, b), a as u128 * b as u128);
             prop_assert_eq!(mul_u64_parts(a, b), a as u128 * b as u128);
+            // Products within i64 (the contract): |c|, |v| ≤ 2^31.
+            let (c, v) = ((a as i32) >> (sa % 32), (b as i64) >> (32 + sb % 32));
+            prop_assert_eq!(mul_small_parts(c, v), c as i64 * v);
+            prop_assert_eq!(mul_small(c, v), c as i64 * v);
             let (x, y) = (u128::from(a) << sa.min(64) >> (sa / 2), u128::from(b) << sb.min(64) >> (sb / 2));
             prop_assert_eq!(saturating_mul_u128(x, y), x.saturating_mul(y));
             let sx = if neg.0 { -((x >> 1) as i128) } else { (x >> 1) as i128 };

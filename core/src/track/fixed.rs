@@ -958,7 +958,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 .iter()
                 .skip(RATE_WINDOW - SETTLE_WINDOW)
                 .enumerate()
-                .map(|(i, &y)| (2 * i as i64 - (k - 1)) * y as i64)
+                .map(|(i, &y)| fx::mul_small(2 * i as i32 - (k as i32 - 1), y as i64))
                 .sum();
             let short504 = (sxy2 * 6) << (QF - Q);
             let diff = (short504 - fit.slope * den)
@@ -1247,7 +1247,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         let sxy2: i64 = ys
             .clone()
             .enumerate()
-            .map(|(i, &y)| (2 * i as i64 - (ni - 1)) * y as i64)
+            .map(|(i, &y)| fx::mul_small(2 * i as i32 - (n as i32 - 1), y as i64))
             .sum();
         // slope = Σ(i − ī)y / Σ(i − ī)² = 6·sxy2 / (n(n² − 1)), Q36.
         let den = ni * (ni * ni - 1);
@@ -1258,8 +1258,8 @@ impl<M: CompressibilityFx> Tracker<M> {
         let (ssr, s1, _) = ys.enumerate().fold(
             (0u128, 0i128, None),
             |(ssr, s1, prev): (u128, i128, Option<i64>), (i, &y)| {
-                let c = 2 * i as i64 - (ni - 1);
-                let fitted = mean + fx::shr_round_i64(slope * c, 1);
+                let c = 2 * i as i32 - (n as i32 - 1);
+                let fitted = mean + fx::shr_round_i64(fx::mul_small(c, slope), 1);
                 let r = ((y as i64) << (QF - Q)) - fitted;
                 let s1 = prev.map_or(s1, |q| s1 + mul_wide(q, r));
                 (ssr + mul_wide(r, r).unsigned_abs(), s1, Some(r))
@@ -1307,9 +1307,9 @@ impl<M: CompressibilityFx> Tracker<M> {
         // (|s1| < 2^44, |s2| < 2^52).
         let (s1, s2) = ts.enumerate().fold((0i64, 0i64), |(s1, s2), (i, &t)| {
             let dev = t as i64 - mean;
-            let d = 2 * i as i64 - (ni - 1);
-            let q = 3 * d * d - (ni * ni - 1);
-            (s1 + d * dev, s2 + q * dev)
+            let d = 2 * i as i32 - (m as i32 - 1);
+            let q = 3 * d * d - (m as i32 * m as i32 - 1);
+            (s1 + fx::mul_small(d, dev), s2 + fx::mul_small(q, dev))
         });
         // m(m² − 1) and m(m² − 1)(m² − 4) (< 2^31 for m ≤ 64).
         let n3 = (ni * (ni * ni - 1)) as i128;
