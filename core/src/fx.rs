@@ -469,6 +469,61 @@ pub const fn saturating_mul_i128(a: i128, b: i128) -> i128 {
     }
 }
 
+/// `n/d` rounded down (0 for `d` = 0), exact. On 32-bit Arm without the
+/// general 128-bit routine (slow on a core without a divider): divisors
+/// below 2^32 (most of the fits': n(n² − 1) and its products for windows of
+/// at most 64 blocks) take 32 bits of `n` at a time, one 64/32-bit division
+/// each and none for the leading zero words; larger ones go bit by bit over
+/// the quotient's bits only. Elsewhere the native division.
+pub fn div_u128(n: u128, d: u128) -> u128 {
+    #[cfg(target_arch = "arm")]
+    {
+        div_u128_parts(n, d)
+    }
+    #[cfg(not(target_arch = "arm"))]
+    {
+        n.checked_div(d).unwrap_or(0)
+    }
+}
+
+/// The 32-bit Arm form of [`div_u128`], exposed so that hosts test it.
+pub fn div_u128_parts(n: u128, d: u128) -> u128 {
+    if d == 0 {
+        return 0;
+    }
+    if d > u32::MAX as u128 {
+        // Larger divisors: shift and subtract over the quotient's bits
+        // only (at most 96 of them, a few tens in the fits).
+        if n < d {
+            return 0;
+        }
+        let shift = d.leading_zeros() - n.leading_zeros();
+        let (mut q, mut r, mut d) = (0u128, n, d << shift);
+        for _ in 0..=shift {
+            q <<= 1;
+            if r >= d {
+                r -= d;
+                q |= 1;
+            }
+            d >>= 1;
+        }
+        return q;
+    }
+    let d = d as u64;
+    let (mut q, mut rem) = (0u128, 0u64);
+    for word in (0..4).rev() {
+        let limb = (n >> (32 * word)) as u32;
+        if rem == 0 && limb == 0 {
+            continue;
+        }
+        // rem < d < 2^32: the quotient word fits 32 bits.
+        let cur = (rem << 32) | u64::from(limb);
+        q |= u128::from(cur / d) << (32 * word);
+        rem = cur % d;
+    }
+    q
+}
+
 /// `c × v` for a small factor `c` (the fits' weights: |c| < 2^14), exact.
 /// On ARMv6-M, when |v| < 2^32, from two 32-bit multiplies of `v`'s 16-bit
 /// halves (each product below 2^30) instead of the 64×64 library routine;

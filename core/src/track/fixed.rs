@@ -1280,8 +1280,8 @@ impl<M: CompressibilityFx> Tracker<M> {
             let (up, down) = ((1i64 << 32) + rho, (1i64 << 32) - rho);
             let f_num = (ni - 2) * up;
             let f_den = (ni * down - 2 * up).max(up);
-            let se2 = div_u128(
-                div_u128(ssr * 12, d).saturating_mul(f_num as u128),
+            let se2 = fx::div_u128(
+                fx::saturating_mul_u128(fx::div_u128(ssr * 12, d), f_num as u128),
                 f_den as u128,
             );
             isqrt(se2.min(u64::MAX as u128) as u64) as i64
@@ -1371,35 +1371,8 @@ fn div_round_i128(num: i128, den: i128) -> i128 {
         return 0;
     }
     let den = den.unsigned_abs();
-    let q = div_u128(num.unsigned_abs().saturating_add(den / 2), den) as i128;
+    let q = fx::div_u128(num.unsigned_abs().saturating_add(den / 2), den) as i128;
     if num >= 0 { q } else { -q }
-}
-
-/// `n/d` rounded down (`d` > 0; 0 for `d` = 0), exact. The fits' divisors
-/// are below 2^32 (n(n² − 1) and its products for windows of at most 64
-/// blocks): those are divided 32 bits of `n` at a time, one 64/32-bit
-/// division each and none for the leading zero words, instead of the
-/// general 128-bit routine (a bit-serial loop on a core without a divider).
-fn div_u128(n: u128, d: u128) -> u128 {
-    if d == 0 {
-        return 0;
-    }
-    let Ok(d32) = u32::try_from(d) else {
-        return n / d;
-    };
-    let d = u64::from(d32);
-    let (mut q, mut rem) = (0u128, 0u64);
-    for word in (0..4).rev() {
-        let limb = (n >> (32 * word)) as u32;
-        if rem == 0 && limb == 0 {
-            continue;
-        }
-        // rem < d < 2^32: the quotient word fits 32 bits.
-        let cur = (rem << 32) | u64::from(limb);
-        q |= u128::from(cur / d) << (32 * word);
-        rem = cur % d;
-    }
-    q
 }
 
 /// `a × b`, exact, in 128 bits: one 32×32 multiply ([`fx::mul_u32`]) when
@@ -1469,14 +1442,16 @@ mod tests {
         ];
         for &n in &edges {
             for &d in &edges[1..] {
-                assert_eq!(div_u128(n, d), n / d, "{n} / {d}");
+                assert_eq!(fx::div_u128(n, d), n / d, "{n} / {d}");
+                assert_eq!(fx::div_u128_parts(n, d), n / d, "{n} / {d}");
             }
         }
         for i in 0..20_000 {
             let n = (u128::from(next()) << 64 | u128::from(next())) >> (i % 128);
             let d = (u128::from(next()) << 64 | u128::from(next())) >> (64 + i % 64);
             let d = d.max(1);
-            assert_eq!(div_u128(n, d), n / d, "{n} / {d}");
+            assert_eq!(fx::div_u128(n, d), n / d, "{n} / {d}");
+            assert_eq!(fx::div_u128_parts(n, d), n / d, "{n} / {d}");
             let (sn, sd) = (n as i128 >> 1, (d as i128).max(1));
             let reference = |num: i128| {
                 if num >= 0 {
@@ -1488,7 +1463,8 @@ mod tests {
             assert_eq!(div_round_i128(sn, sd), reference(sn), "{sn} / {sd}");
             assert_eq!(div_round_i128(-sn, sd), reference(-sn), "-{sn} / {sd}");
         }
-        assert_eq!(div_u128(5, 0), 0);
+        assert_eq!(fx::div_u128(5, 0), 0);
+        assert_eq!(fx::div_u128_parts(5, 0), 0);
         assert_eq!(div_round_i128(5, 0), 0);
         assert_eq!(div_round_i128(5, -2), 0);
     }

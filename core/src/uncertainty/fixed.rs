@@ -425,7 +425,7 @@ impl EvaluatorFx {
         let (td, tdd) = (w.dt_per_h as i128, w.d2t_per_h2 as i128);
         // 1/t = rate/left, Q36 per hour (0 without a time to empty).
         let rho = if fdot < 0 && w.left_fraction > 0 {
-            ((-fdot << QR) / w.left_fraction as i128).min(1 << 62)
+            (fx::div_u128((-fdot << QR) as u128, w.left_fraction as u128) as i128).min(1 << 62)
         } else {
             0
         };
