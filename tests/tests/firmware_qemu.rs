@@ -459,7 +459,11 @@ fn minimal_integration_matches_the_host() {
 /// The firmware built without its feature `signed-config` (configuration
 /// written at manufacture): it announces no signed configuration, refuses
 /// a challenge and every signed command as unsupported, and still answers
-/// its other requests.
+/// its other requests. It is the leanest build (`--no-default-features`:
+/// no `modbus`, no `uncertainty` either), so this also starts that one in
+/// QEMU; without a configuration written at manufacture it has no
+/// estimate to send, so its content is compared with the f64 mirror on
+/// the host instead (`core/tests/features.rs`).
 fn without_signed_config_signed_commands_are_unsupported() {
     use isochor_core::link::capability;
 

@@ -877,13 +877,16 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.episodes(end);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(end, mean);
-        probe::enter(Stage::Uncertainty);
-        let (u, transient) = self
-            .unc
-            .evaluate_with(&sloped, self.gas_sensor, self.gas_draw);
-        self.uncertainty = Some(u);
-        self.gas_transient = transient;
-        probe::enter(Stage::Track);
+        #[cfg(feature = "uncertainty")]
+        {
+            probe::enter(Stage::Uncertainty);
+            let (u, transient) = self
+                .unc
+                .evaluate_with(&sloped, self.gas_sensor, self.gas_draw);
+            self.uncertainty = Some(u);
+            self.gas_transient = transient;
+            probe::enter(Stage::Track);
+        }
         self.rated_pressure_now_pa = Some(
             self.est
                 .pressure_at(fx::Fraction::ONE, content.temperature_k)

@@ -779,11 +779,14 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         self.episodes(end);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(end, mean);
-        let (u, transient) = self
-            .unc
-            .evaluate_with(content, self.gas_sensor, self.gas_draw);
-        self.uncertainty = Some(u);
-        self.gas_transient = transient;
+        #[cfg(feature = "uncertainty")]
+        {
+            let (u, transient) = self
+                .unc
+                .evaluate_with(content, self.gas_sensor, self.gas_draw);
+            self.uncertainty = Some(u);
+            self.gas_transient = transient;
+        }
         self.rated_pressure_now_pa = Some(self.est.pressure_at(F::ONE, content.temperature_k).0);
     }
 

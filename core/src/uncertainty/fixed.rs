@@ -10,9 +10,9 @@
 use crate::error::{Condition, UncertaintyInput};
 use fixed::types::{I8F24, U0F32};
 
-use super::float::{
-    C_P_MIN, GAS_SENSOR_UNSETTLED, MAX_VESSEL_MS, R_OVER_CV, UncertaintyConfig, r_over_cv_class,
-};
+#[cfg(feature = "uncertainty")]
+use super::float::GAS_SENSOR_UNSETTLED;
+use super::float::{C_P_MIN, MAX_VESSEL_MS, R_OVER_CV, UncertaintyConfig, r_over_cv_class};
 use crate::content::fixed::{Content, Estimator};
 use crate::fx::{self, Coef};
 use crate::model::CompressibilityFx;
@@ -236,6 +236,7 @@ pub struct EvaluatorFx {
     lag_h: Coef,
     gain: Coef,
     /// The rated mass, per unit fraction.
+    #[cfg(feature = "uncertainty")]
     rated_mass: Coef,
     /// The vessel's gas–wall time constant at the rated content in hours
     /// (`None`: the gas–sensor term is left out) and R/c_v of the ideal gas
@@ -251,9 +252,14 @@ struct Terms {
     c_p: i128,
     c_t: i128,
     fs: u64,
+    /// The content's own terms (feature `uncertainty`).
+    #[cfg(feature = "uncertainty")]
     rd: u64,
+    #[cfg(feature = "uncertainty")]
     tt: u64,
+    #[cfg(feature = "uncertainty")]
     cap: u64,
+    #[cfg(feature = "uncertainty")]
     model: u64,
 }
 
@@ -287,6 +293,7 @@ impl EvaluatorFx {
             model: frac(cfg.model),
             lag_h: Coef::from_raw(cfg.temperature_lag.0, 0).mul(PER_HOUR_MS),
             gain: frac(cfg.temperature_gain),
+            #[cfg(feature = "uncertainty")]
             rated_mass,
             vessel_h: None,
             r_over_cv: R_OVER_CV_FX
@@ -346,32 +353,43 @@ impl EvaluatorFx {
         let f = (c.fill_fraction.to_bits() >> 4).min(u32::MAX as u64) as u32;
         let (fs, _) = self.fs_term.scale(sat(inv_zt), INV, Q);
         let fs = mul_q30(mul_q30(fs, c.vessel_factor.to_bits() as u128), c_p_abs);
-        let (rd, _) = self.reading.scale(f, Q, Q);
-        let rd = mul_q30(rd, c_p_abs);
-        let (tf, _) = self.temperature.scale(f, Q, Q);
-        // ×1/T = Z/(Z·T): inv_zt·Z at 2^-66 → 2^-36.
-        let inv_t = fx::mul_u64_wide(inv_zt, z as u64) >> 30;
-        let tt = mul_q30(
-            (fx::mul_u128(tf as u128, inv_t) >> INV).min(TERM_MAX as u128) as u64,
-            c_t_abs,
-        );
-        let (cap, _) = self.capacity.scale(f, Q, Q);
-        let (model, _) = self.model.scale(f, Q, Q);
         let m = |v: u64| v.min(TERM_MAX);
+        #[cfg(feature = "uncertainty")]
+        let (rd, tt, cap, model) = {
+            let (rd, _) = self.reading.scale(f, Q, Q);
+            let rd = mul_q30(rd, c_p_abs);
+            let (tf, _) = self.temperature.scale(f, Q, Q);
+            // ×1/T = Z/(Z·T): inv_zt·Z at 2^-66 → 2^-36.
+            let inv_t = fx::mul_u64_wide(inv_zt, z as u64) >> 30;
+            let tt = mul_q30(
+                (fx::mul_u128(tf as u128, inv_t) >> INV).min(TERM_MAX as u128) as u64,
+                c_t_abs,
+            );
+            let (cap, _) = self.capacity.scale(f, Q, Q);
+            let (model, _) = self.model.scale(f, Q, Q);
+            (m(rd), m(tt), m(cap), m(model))
+        };
+        #[cfg(not(feature = "uncertainty"))]
+        let _ = (f, z, c_t_abs);
         Terms {
             c_p,
             c_t,
             fs: m(fs),
-            rd: m(rd),
-            tt: m(tt),
-            cap: m(cap),
-            model: m(model),
+            #[cfg(feature = "uncertainty")]
+            rd,
+            #[cfg(feature = "uncertainty")]
+            tt,
+            #[cfg(feature = "uncertainty")]
+            cap,
+            #[cfg(feature = "uncertainty")]
+            model,
         }
     }
 
     /// Expanded uncertainties (k = 2) of the mass and fill fraction of `c`,
     /// which must carry the model's slopes
     /// ([`Estimator::with_slopes`](crate::content::fixed::Estimator::with_slopes)).
+    #[cfg(feature = "uncertainty")]
     pub fn evaluate(&self, c: &Content) -> UncertaintyFx {
         self.evaluate_with(c, 0, 0).0
     }
@@ -380,6 +398,7 @@ impl EvaluatorFx {
     /// `gas_sensor` (Q36, from [`Self::rate`]), and whether its part from
     /// the draw's cooling, `draw` (Q36), outweighs the rest of the fill
     /// fraction's budget (see [`super::float`]).
+    #[cfg(feature = "uncertainty")]
     pub(crate) fn evaluate_with(
         &self,
         c: &Content,
@@ -667,14 +686,17 @@ mod tests {
                         // The content's U(F) with the term, absolute (a
                         // fraction of the rated content; the tracker's
                         // comparisons assert 1e-6).
-                        let (ufx, tfx) = efx.evaluate_with(&cfx, bfx.gas_sensor, bfx.draw);
-                        let (uf, tf) = ef.evaluate_with(&cf, bf.gas_sensor, bf.draw);
-                        let a = fx::to_f64(ufx.fill_fraction);
-                        worst[3] = worst[3].max((a - uf.fill_fraction).abs());
-                        // The not-settled verdicts agree away from the edge.
-                        let s2 = (uf.fill_fraction / 2.0).powi(2) - bf.gas_sensor.powi(2);
-                        if (bf.draw / s2.max(1e-30).sqrt() - 2.0).abs() > 1e-3 {
-                            assert_eq!(tfx, tf, "{p} {t} {rate} {td} {tdd}");
+                        #[cfg(feature = "uncertainty")]
+                        {
+                            let (ufx, tfx) = efx.evaluate_with(&cfx, bfx.gas_sensor, bfx.draw);
+                            let (uf, tf) = ef.evaluate_with(&cf, bf.gas_sensor, bf.draw);
+                            let a = fx::to_f64(ufx.fill_fraction);
+                            worst[3] = worst[3].max((a - uf.fill_fraction).abs());
+                            // The not-settled verdicts agree away from the edge.
+                            let s2 = (uf.fill_fraction / 2.0).powi(2) - bf.gas_sensor.powi(2);
+                            if (bf.draw / s2.max(1e-30).sqrt() - 2.0).abs() > 1e-3 {
+                                assert_eq!(tfx, tf, "{p} {t} {rate} {td} {tdd}");
+                            }
                         }
                     }
                 }

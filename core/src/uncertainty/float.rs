@@ -242,14 +242,19 @@ struct Terms<F> {
     c_t: F,
     /// Pressure: full-scale part, reading part.
     fs: F,
+    #[cfg(feature = "uncertainty")]
     rd: F,
     /// Temperature.
+    #[cfg(feature = "uncertainty")]
     tt: F,
     /// Water capacity, gas model.
+    #[cfg(feature = "uncertainty")]
     cap: F,
+    #[cfg(feature = "uncertainty")]
     model: F,
 }
 
+#[cfg(feature = "uncertainty")]
 impl<F: Real> Terms<F> {
     /// u(F)², the fill fraction's combined variance.
     fn fraction_variance(&self) -> F {
@@ -312,19 +317,27 @@ impl<F: Real> Evaluator<F> {
             * (cfg.pressure_fs * cfg.pressure_full_scale_pa)
             / (z * t)
             * inv_rated;
+        #[cfg(feature = "uncertainty")]
         let f = c.mass_kg * inv_rated;
+        #[cfg(not(feature = "uncertainty"))]
+        let _ = c_t_abs;
         Terms {
             c_p,
             c_t,
             fs,
+            #[cfg(feature = "uncertainty")]
             rd: c_p_abs * f * cfg.pressure_reading,
+            #[cfg(feature = "uncertainty")]
             tt: c_t_abs * f * cfg.temperature_k / t,
+            #[cfg(feature = "uncertainty")]
             cap: f * cfg.capacity,
+            #[cfg(feature = "uncertainty")]
             model: f * cfg.model,
         }
     }
 
     /// Expanded uncertainties (k = 2) of the mass and fill fraction of `c`.
+    #[cfg(feature = "uncertainty")]
     pub fn evaluate(&self, c: &Content<F>) -> Uncertainty<F> {
         self.evaluate_with(c, F::ZERO, F::ZERO).0
     }
@@ -334,6 +347,7 @@ impl<F: Real> Evaluator<F> {
     /// [`Self::rate`]), and whether its part from the draw's cooling, `draw`,
     /// outweighs the rest of the fill fraction's budget (the gas a draw
     /// cooled has not settled to its sensor: `not_settled`).
+    #[cfg(feature = "uncertainty")]
     pub(crate) fn evaluate_with(
         &self,
         c: &Content<F>,
@@ -463,4 +477,5 @@ pub(crate) const C_P_MIN: f64 = 0.25;
 /// many times the rest of the fill fraction's (the term more than twice the
 /// rest's standard uncertainty: a draw has cooled the gas far below its
 /// sensor's reading; common practice).
+#[cfg(feature = "uncertainty")]
 pub(crate) const GAS_SENSOR_UNSETTLED: u64 = 4;
