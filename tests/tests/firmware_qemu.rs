@@ -86,7 +86,17 @@ fn scenario(build: Build) {
         (0..6).any(|i| c.ping(i).is_ok()),
         "the firmware does not answer"
     );
-    assert_eq!(c.identity().unwrap().serial, SERIAL);
+    let id = c.identity().unwrap();
+    assert_eq!(id.serial, SERIAL);
+    // The standard build announces every part it links.
+    use isochor_core::link::capability;
+    for (bit, part) in [
+        (capability::SIGNED_CONFIG, "signed configuration"),
+        (capability::TRACKING, "tracking"),
+        (capability::UNCERTAINTY, "uncertainty"),
+    ] {
+        assert_ne!(id.capabilities & bit, 0, "{part} not announced: {id:?}");
+    }
 
     // Configuration: prepared here, loaded in signed pieces.
     let setup = SetupFx::from_f64(&Setup::new(Gas::Nitrogen, Tank::new(0.050, 200e5))).unwrap();
@@ -488,6 +498,8 @@ fn without_signed_config_signed_commands_are_unsupported() {
     assert_eq!(id.serial, SERIAL);
     assert_eq!(id.capabilities & capability::SIGNED_CONFIG, 0, "{id:?}");
     assert_ne!(id.capabilities & capability::TELEMETRY, 0, "{id:?}");
+    // Built without `uncertainty` too: the capability is not announced.
+    assert_eq!(id.capabilities & capability::UNCERTAINTY, 0, "{id:?}");
     let setup = SetupFx::from_f64(&Setup::new(Gas::Nitrogen, Tank::new(0.050, 200e5))).unwrap();
     match c.configure(&GaugeConfig::nominal(setup), &mut |_, _| {}) {
         Err(Error::Refused(why)) => assert!(why.contains("does not support"), "{why}"),

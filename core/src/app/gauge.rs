@@ -123,7 +123,11 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
             | capability::ALARMS
             | capability::DIAGNOSTICS
             | capability::TRACKING
-            | capability::UNCERTAINTY
+            | if cfg!(feature = "uncertainty") {
+                capability::UNCERTAINTY
+            } else {
+                0
+            }
             | if injection {
                 capability::SAMPLE_INJECTION
             } else {
