@@ -157,17 +157,20 @@ fn run_checked(mut cmd: Command, what: &str) -> Result<String, Error> {
     Ok(String::from_utf8_lossy(&out.stdout).into_owned())
 }
 
-/// One build at a time in this process: the variants share a target folder,
-/// and a variant's binaries are copied out of it before another variant
-/// replaces them.
-static BUILDING: std::sync::Mutex<()> = std::sync::Mutex::new(());
-
 /// Builds binaries of `build` (release) in `firmware`; returns the path of
-/// the first.
+/// the first. One build at a time over a lock file in the target folder
+/// (across threads and processes): the variants share their folder, and a
+/// variant's binaries are copied out of it before another variant replaces
+/// them.
 pub fn build(firmware: &Path, b: &Build, bins: &[&str]) -> Result<PathBuf, Error> {
-    let _one_at_a_time = BUILDING
-        .lock()
-        .unwrap_or_else(|poisoned| poisoned.into_inner());
+    let lock_path = firmware.join("target").join("isochor-build.lock");
+    if let Some(dir) = lock_path.parent() {
+        std::fs::create_dir_all(dir).map_err(|e| Error::Link(format!("{}: {e}", dir.display())))?;
+    }
+    let lock = std::fs::File::create(&lock_path)
+        .map_err(|e| Error::Link(format!("{}: {e}", lock_path.display())))?;
+    lock.lock()
+        .map_err(|e| Error::Link(format!("locking {}: {e}", lock_path.display())))?;
     let mut cmd = Command::new(std::env::var("CARGO").unwrap_or_else(|_| "cargo".into()));
     cmd.current_dir(firmware)
         .args(["build", "--release", "--target", b.board.target()])
