@@ -9,13 +9,13 @@ use std::{env, fs, path::PathBuf};
 /// gate fails to link. The goal is 32 KiB flash and 6 KiB RAM
 /// (`ISOCHOR_MEMORY=goal`); until the image reaches it, the gate stands at
 /// the figures reached (README, "Footprint"), to be lowered as it shrinks.
-const GATE: (u32, u32, u32) = (92 * 1024, 16 * 1024, STACK_RESERVE);
+const GATE: (u32, u32, u32) = (84 * 1024, 16 * 1024, STACK_RESERVE);
 /// The goal's map.
 const GOAL: (u32, u32, u32) = (32 * 1024, 6 * 1024, STACK_RESERVE);
 /// Stack kept free beside the statics: the firmware's measured stack peak
-/// (`isochor budget`, `stack_bytes`: 8,768 bytes, reached while signed
+/// (`isochor budget`, `stack_bytes`: 9,040 bytes, reached while signed
 /// configuration records are written) plus 1.5 KiB of margin.
-const STACK_RESERVE: u32 = 10_304;
+const STACK_RESERVE: u32 = 10_576;
 
 fn gate_map((flash, ram, stack): (u32, u32, u32)) -> String {
     format!(
