@@ -441,19 +441,20 @@ pub const fn saturating_mul_u128(a: u128, b: u128) -> u128 {
     }
 }
 
-/// `a × b` in 128 bits: [`saturating_mul_u128`] under the name of a plain
-/// product, for factors whose product is known to fit (it saturates where a
-/// plain product would wrap).
+/// `a × b` of two `i64`, exact, in 128 bits: one [`mul_u32`] when both
+/// magnitudes fit 32 bits — the rate fit's residuals do — instead of the
+/// 128-bit product (hundreds of instructions on a Cortex-M0); the 128-bit
+/// product otherwise (it cannot overflow). Cheaper than
+/// [`saturating_mul_i128`] for values known to be `i64`.
 #[inline]
-pub const fn mul_u128(a: u128, b: u128) -> u128 {
-    saturating_mul_u128(a, b)
-}
-
-/// `a × b` in 128 bits: [`saturating_mul_i128`] under the name of a plain
-/// product, for factors whose product is known to fit.
-#[inline]
-pub const fn mul_i128(a: i128, b: i128) -> i128 {
-    saturating_mul_i128(a, b)
+pub const fn mul_i64_wide(a: i64, b: i64) -> i128 {
+    let (ma, mb) = (a.unsigned_abs(), b.unsigned_abs());
+    if ma <= u32::MAX as u64 && mb <= u32::MAX as u64 {
+        let p = mul_u32(ma as u32, mb as u32) as i128;
+        if (a < 0) != (b < 0) { -p } else { p }
+    } else {
+        a as i128 * b as i128
+    }
 }
 
 /// `a × b` saturated at the `i128` limits, as [`saturating_mul_u128`]: two
@@ -702,6 +703,77 @@ mod tests {
             let v = raw as f64 / 2f64.powi(frac as i32);
             prop_assert!((c.to_f64() / v - 1.0).abs() < 2.5e-10);
         }
+    }
+
+    #[test]
+    fn wide_products_of_64_bit_values_are_exact() {
+        // Around the 32-bit fast path and the 64-bit limits (the fits'
+        // residuals, the rate budget's factors).
+        let m = i64::from(u32::MAX);
+        let values = [
+            0,
+            1,
+            -1,
+            7,
+            -7,
+            m,
+            -m,
+            m + 1,
+            -(m + 1),
+            1 << 40,
+            -(1 << 40),
+            i64::MAX,
+            i64::MIN + 1,
+            i64::MIN,
+        ];
+        for &a in &values {
+            for &b in &values {
+                let want = i128::from(a) * i128::from(b);
+                assert_eq!(mul_i64_wide(a, b), want, "{a} × {b}");
+                assert_eq!(saturating_mul_i128(a.into(), b.into()), want, "{a} × {b}");
+                let (ma, mb) = (a.unsigned_abs(), b.unsigned_abs());
+                assert_eq!(mul_u64_parts(ma, mb), u128::from(ma) * u128::from(mb));
+            }
+        }
+    }
+
+    #[test]
+    fn wide_divisions_are_exact() {
+        // Every divisor class (below 2^32 and above), numerators of every
+        // word count, against the native 128-bit division.
+        let mut x = 0x9E37_79B9_7F4A_7C15u64;
+        let mut next = || {
+            // xorshift64*
+            x ^= x >> 12;
+            x ^= x << 25;
+            x ^= x >> 27;
+            x.wrapping_mul(0x2545_F491_4F6C_DD1D)
+        };
+        let edges = [
+            0u128,
+            1,
+            2,
+            3,
+            u32::MAX as u128,
+            1 << 32,
+            u64::MAX as u128,
+            u128::MAX,
+        ];
+        for &n in &edges {
+            for &d in &edges[1..] {
+                assert_eq!(div_u128(n, d), n / d, "{n} / {d}");
+                assert_eq!(div_u128_parts(n, d), n / d, "{n} / {d}");
+            }
+        }
+        for i in 0..20_000 {
+            let n = (u128::from(next()) << 64 | u128::from(next())) >> (i % 128);
+            let d = (u128::from(next()) << 64 | u128::from(next())) >> (64 + i % 64);
+            let d = d.max(1);
+            assert_eq!(div_u128(n, d), n / d, "{n} / {d}");
+            assert_eq!(div_u128_parts(n, d), n / d, "{n} / {d}");
+        }
+        assert_eq!(div_u128(5, 0), 0);
+        assert_eq!(div_u128_parts(5, 0), 0);
     }
 
     proptest! {

@@ -332,17 +332,17 @@ impl EvaluatorFx {
 
         // c_p = 1 − p·(∂Z/∂p)/Z + e_p·p, Q30.
         let (p_mpa, _) = PER_MPA.scale(p, 4, 20);
-        let p_dz = fx::mul_i128(p_mpa as i128, c.z.dz_dp_per_mpa.to_bits() as i128); // 2^-44
-        let p_dz_z = fx::mul_i128(p_dz, inv_z as i128) >> (44 + INV - 30);
-        let ep = fx::mul_i128(
+        let p_dz = fx::saturating_mul_i128(p_mpa as i128, c.z.dz_dp_per_mpa.to_bits() as i128); // 2^-44
+        let p_dz_z = fx::saturating_mul_i128(p_dz, inv_z as i128) >> (44 + INV - 30);
+        let ep = fx::saturating_mul_i128(
             self.tank.elastic_expansion_per_mpa.to_bits() as i128,
             p_mpa as i128,
         ) >> 22;
         let c_p = (1i128 << 30) - p_dz_z + ep;
         // c_T = −1 − T·(∂Z/∂T)/Z + e_T·T, Q30.
-        let t_dz = fx::mul_i128(t as i128, c.z.dz_dt_per_k.to_bits() as i128); // 2^-40
-        let t_dz_z = fx::mul_i128(t_dz, inv_z as i128) >> (40 + INV - 30);
-        let et = fx::mul_i128(
+        let t_dz = fx::saturating_mul_i128(t as i128, c.z.dz_dt_per_k.to_bits() as i128); // 2^-40
+        let t_dz_z = fx::saturating_mul_i128(t_dz, inv_z as i128) >> (40 + INV - 30);
+        let et = fx::saturating_mul_i128(
             self.tank.thermal_expansion_per_k.to_bits() as i128,
             t as i128,
         ) >> 18;
@@ -362,7 +362,7 @@ impl EvaluatorFx {
             // ×1/T = Z/(Z·T): inv_zt·Z at 2^-66 → 2^-36.
             let inv_t = fx::mul_u64_wide(inv_zt, z as u64) >> 30;
             let tt = mul_q30(
-                (fx::mul_u128(tf as u128, inv_t) >> INV).min(TERM_MAX as u128) as u64,
+                (fx::saturating_mul_u128(tf as u128, inv_t) >> INV).min(TERM_MAX as u128) as u64,
                 c_t_abs,
             );
             let (cap, _) = self.capacity.scale(f, Q, Q);
@@ -437,7 +437,7 @@ impl EvaluatorFx {
         let inv_t = (1u64 << (QT + QT_MEAN)) / (w.temperature as u64).max(1 << QT_MEAN);
         let inv_t = inv_t as i128;
         // k = c_T/T, Q32 per K (signed), and |k|.
-        let kt = fx::mul_i128(k.c_t, inv_t) >> 30;
+        let kt = fx::saturating_mul_i128(k.c_t, inv_t) >> 30;
         let ct = kt.unsigned_abs();
         let f = w.fill_fraction.max(0) as i128;
         let fdot = w.slope_per_h as i128;
@@ -451,17 +451,19 @@ impl EvaluatorFx {
         let reserve = w.reserve_fraction.max(0) as i128;
         let q36 = |v: i128| v >> QR;
         // F·dT/dt and F·(dT/dt)/T, Q36 (signed).
-        let f_td = fx::mul_i128(f, td) >> QT;
-        let f_td_t = fx::mul_i128(f_td, inv_t) >> QT;
+        let f_td = fx::saturating_mul_i128(f, td) >> QT;
+        let f_td_t = fx::saturating_mul_i128(f_td, inv_t) >> QT;
         // A = F·(d²T/dt² − (dT/dt)²/T) + dF/dt·dT/dt, Q68 → Q36.
-        let td2_t = fx::mul_i128(fx::mul_i128(td, td) >> QT, inv_t) >> QT;
-        let a = fx::mul_i128(f, tdd - td2_t).saturating_add(fx::mul_i128(fdot, td)) >> QT;
+        let td2_t = fx::saturating_mul_i128(fx::saturating_mul_i128(td, td) >> QT, inv_t) >> QT;
+        let a = fx::saturating_mul_i128(f, tdd - td2_t)
+            .saturating_add(fx::saturating_mul_i128(fdot, td))
+            >> QT;
         let per_k = |v: i128| sat64(fx::saturating_mul_u128(v.unsigned_abs(), ct) >> QT);
         // The gas's time constant τ = τ_v·F (F ≤ 1), and the lag of the
         // gas (τ) and the sensor (u(τ)) behind the wall in quadrature (see
         // the float form), hours in Q36: one root.
         let f1 = f.min(1 << QR) as u128;
-        let by_f = |v: u64| sat64(fx::mul_u128(v as u128, f1) >> QR);
+        let by_f = |v: u64| sat64(fx::saturating_mul_u128(v as u128, f1) >> QR);
         let lag36 = apply(self.lag_h, 1 << QR);
         let lags36 = match self.vessel_h {
             Some(vessel_h) => hypot(&[lag36, by_f(apply(vessel_h, 1 << QR))]),
@@ -476,7 +478,7 @@ impl EvaluatorFx {
         let offset_t = apply(self.temperature, per_k(reserve_rho - f_td_t));
         // The full-scale term (Q28 → Q36) times |k|·|dT/dt| and |1/t + k·dT/dt|.
         let fs = (k.fs as i128) << (QR - Q);
-        let k_td = fx::mul_i128(kt, td) >> (2 * QT - QR);
+        let k_td = fx::saturating_mul_i128(kt, td) >> (2 * QT - QR);
         let fs_rate = sat64(q36(fx::saturating_mul_i128(fs, k_td.abs())).unsigned_abs());
         let fs_t = sat64(q36(fx::saturating_mul_i128(fs, (rho + k_td).abs())).unsigned_abs());
         // Scale errors (see the float form).
@@ -538,7 +540,7 @@ impl EvaluatorFx {
 
 /// `a·b` with `b` in Q30, rounded, saturated to the term limit.
 fn mul_q30(a: u64, b: u128) -> u64 {
-    let v = (fx::mul_u128(a as u128, b) + (1 << 29)) >> 30;
+    let v = fx::saturating_mul_u128(a as u128, b).saturating_add(1 << 29) >> 30;
     v.min(TERM_MAX as u128) as u64
 }
 
