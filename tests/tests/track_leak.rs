@@ -33,21 +33,30 @@ fn first_raise(a: &Agreement, kind: AlarmKind) -> Option<u64> {
 fn a_year_of_day_night_swings_without_loss_raises_no_alarm() {
     let sc = Scenario::standby(365, 2026);
     let cfg = config(&sc);
+    // Whole-day verdicts (two days of hours in the ring) apart from the
+    // early ones of the first two days, whose thresholds are wider.
     let mut worst_loss = 0.0f64;
+    let mut worst_early = 0.0f64;
     let mut verdicts = 0u64;
     let agree = run(&sc, &cfg, |s, a, _| {
         if let Some(l) = a.leak
             && s.t_ms % HOUR_MS == 0
         {
             verdicts += 1;
-            worst_loss = worst_loss.max(fx::to_f64(l.loss_per_day).abs());
+            let loss = fx::to_f64(l.loss_per_day).abs();
+            if s.t_ms < 48 * HOUR_MS {
+                worst_early = worst_early.max(loss);
+            } else {
+                worst_loss = worst_loss.max(loss);
+            }
         }
     });
     println!(
-        "standby year, ±15 K swing: {} hourly leak verdicts, largest |loss| {:.4} %/day (threshold {:.2} %/day), events: {:?}",
+        "standby year, ±15 K swing: {} hourly leak verdicts, largest |loss| {:.4} %/day on whole days (threshold {:.2} %/day), {:.4} %/day in the first two days (wider thresholds), events: {:?}",
         verdicts,
         worst_loss * 100.0,
         cfg.leak_threshold_per_day * 100.0,
+        worst_early * 100.0,
         agree.events_fixed
     );
     println!("{}", agree.summary());

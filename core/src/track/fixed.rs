@@ -31,10 +31,10 @@
 
 use super::float::TrackConfig;
 use super::{
-    DAY_HOURS, EARLY_FACTOR_Q8, EARLY_MIN_PAIRS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS,
-    EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW,
-    SETTLE_TIME_CONSTANTS, SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR,
-    STEADY_TIME_CONSTANTS, TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
+    LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
+    STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, STEADY_TIME_CONSTANTS, TEMPERATURE_WINDOW,
+    effective_lag, validate_timing, window,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -1138,14 +1138,21 @@ impl<M: CompressibilityFx> Tracker<M> {
             *last = ((t as u64 + (1 << 15)) >> 16).min(u16::MAX as u64) as u16;
         }
         self.day_len = (self.day_len + 1).min(LEAK_RING);
-        // Pairs of hours one day apart: the older k of the ring against the
-        // k a day later (24 once the ring is full; see super).
-        let k = self.day_len.saturating_sub(DAY_HOURS);
-        if k < EARLY_MIN_PAIRS {
+        // Pairs of hours one day apart once the ring holds enough of them:
+        // the older k of the ring against the k a day later (24 once the
+        // ring is full); before that, from FIRST_MIN_HOURS after a start,
+        // the older half of the hours against the newer (see super).
+        let Some(w) = window(
+            self.day_len,
+            self.cfg.leak_mode,
+            self.cfg.settle_time_constant,
+        ) else {
             return;
-        }
+        };
+        let k = w.len;
         // Sums of the k hours of each side, Q28, as day sums (24 × the
-        // means: exact for k = 24, one 64-bit division each otherwise).
+        // means, brought to hours one day apart: exact for whole days, one
+        // 64-bit division each otherwise).
         let sum = |from: usize| -> i64 {
             self.day_ring
                 .iter()
@@ -1154,7 +1161,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 .map(|&x| x as i64)
                 .sum()
         };
-        let (older_k, newer_k) = (sum(DAY_HOURS - k), sum(LEAK_RING - k));
+        let (older_k, newer_k) = (sum(w.older), sum(w.newer));
         let per_day = |v: i64| {
             if k == DAY_HOURS {
                 v
@@ -1162,8 +1169,34 @@ impl<M: CompressibilityFx> Tracker<M> {
                 (v * DAY_HOURS as i64).checked_div(k as i64).unwrap_or(0)
             }
         };
+        // A day apart from `apart` hours apart (< 2^42 before the division).
+        let a_day = |v: i64| {
+            if w.apart == DAY_HOURS {
+                v
+            } else {
+                (v * DAY_HOURS as i64)
+                    .checked_div(w.apart as i64)
+                    .unwrap_or(0)
+            }
+        };
         let older = per_day(older_k);
-        let loss24 = per_day(older_k - newer_k);
+        let loss24 = a_day(per_day(older_k - newer_k));
+        // The weather's margin (see super), on the day sum: older · |Δs|/T ·
+        // 3·u_τ/23 h, Δs and T in Q7 (Δs over the k hours of each side, brought
+        // to 23 h), |Δs|/T in Q32 (one 64-bit division, |Δs| < 2^22), older
+        // narrowed by 8 bits before it multiplies (< 2^61), then the lag
+        // factor in Q16 (`lag_q16`), brought to sides a day apart.
+        let t = |i: usize| self.day_t.get(i).copied().unwrap_or(0) as i64;
+        let last = k - 1;
+        let mut ds =
+            ((t(w.newer + last) - t(w.newer)) - (t(w.older + last) - t(w.older))).unsigned_abs();
+        if k < DAY_HOURS {
+            ds = ds * (DAY_HOURS as u64 - 1) / (k as u64 - 1);
+        }
+        let ratio = (ds << 32).checked_div(t(w.older + k) as u64).unwrap_or(0);
+        let x = ((older.max(0) as u64 >> 8).saturating_mul(ratio)) >> 24;
+        let margin24 =
+            a_day((x.saturating_mul(self.lag_q16) >> 16).min(i64::MAX as u64 >> 5) as i64);
         let mut draw_margin24 = 0;
         let expected24 = match self.cfg.leak_mode {
             LeakMode::Standby => 0,
@@ -1189,9 +1222,11 @@ impl<M: CompressibilityFx> Tracker<M> {
         let mut limit =
             ((self.cfg.leak_threshold_per_day.to_bits() as i128 * older as i128) >> 32) as i64;
         if k < DAY_HOURS {
-            let f = EARLY_FACTOR_Q8.get(k).copied().unwrap_or(256) as i64;
-            limit = limit.saturating_mul(f) >> 8;
+            limit = limit.saturating_mul(w.factor_q8 as i64) >> 8;
         }
+        // The first day's floor: FIRST_FLOOR_Q16 of the content between the
+        // two halves, as a loss a day.
+        limit = limit.saturating_add(a_day((older.max(0) * w.floor_q16 as i64) >> 16));
         let rel = |v: i64| {
             if older > 0 {
                 ((v as i128) << 32)
@@ -1203,21 +1238,6 @@ impl<M: CompressibilityFx> Tracker<M> {
                 0
             }
         };
-        // The weather's margin (see super), on the day sum: older · |Δs|/T ·
-        // 3·u_τ/23 h, Δs and T in Q7 (Δs over the k hours of each side, brought
-        // to 23 h), |Δs|/T in Q32 (one 64-bit division, |Δs| < 2^22), older
-        // narrowed by 8 bits before it multiplies (< 2^61), then the lag
-        // factor in Q16 (`lag_q16`).
-        let t = |i: usize| self.day_t.get(i).copied().unwrap_or(0) as i64;
-        let mut ds = ((t(LEAK_RING - 1) - t(LEAK_RING - k))
-            - (t(DAY_HOURS - 1) - t(DAY_HOURS - k)))
-        .unsigned_abs();
-        if k < DAY_HOURS {
-            ds = ds * (DAY_HOURS as u64 - 1) / (k as u64 - 1);
-        }
-        let ratio = (ds << 32).checked_div(t(DAY_HOURS) as u64).unwrap_or(0);
-        let x = ((older.max(0) as u64 >> 8).saturating_mul(ratio)) >> 24;
-        let margin24 = (x.saturating_mul(self.lag_q16) >> 16).min(i64::MAX as u64) as i64;
         self.leak = Some(LeakFx {
             loss_per_day: fx::FractionRate::from_bits(rel(loss24)),
             excess_per_day: fx::FractionRate::from_bits(rel(excess24)),

@@ -2,10 +2,10 @@
 //! [`super`], mirrored step by step by [`super::fixed`]).
 
 use super::{
-    DAY_HOURS, EARLY_FACTOR_Q8, EARLY_MIN_PAIRS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS,
-    EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW,
-    SETTLE_TIME_CONSTANTS, SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR,
-    STEADY_TIME_CONSTANTS, TEMPERATURE_WINDOW, effective_lag, validate_timing,
+    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
+    LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
+    STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, STEADY_TIME_CONSTANTS, TEMPERATURE_WINDOW,
+    effective_lag, validate_timing, window,
 };
 use crate::alarm::float::{Inputs, LevelInputs, Limits};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -989,27 +989,48 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             *last = F::lit(libm::round(self.t_smooth.to_f64() * 128.0) / 128.0);
         }
         self.day_len = (self.day_len + 1).min(LEAK_RING);
-        // Pairs of hours one day apart: the older k of the ring against the
-        // k a day later (24 once the ring is full; see super).
-        let k = self.day_len.saturating_sub(DAY_HOURS);
-        if k < EARLY_MIN_PAIRS {
+        // Pairs of hours one day apart, or in the first day the older half
+        // against the newer (see super).
+        let Some(w) = window(
+            self.day_len,
+            self.cfg.leak_mode,
+            self.cfg.settle_time_constant,
+        ) else {
             return;
-        }
+        };
+        let k = w.len;
         let older: F = self
             .day_ring
             .iter()
-            .skip(DAY_HOURS - k)
+            .skip(w.older)
             .take(k)
             .fold(F::ZERO, |a, &x| a + x);
         let newer: F = self
             .day_ring
             .iter()
-            .skip(LEAK_RING - k)
+            .skip(w.newer)
+            .take(k)
             .fold(F::ZERO, |a, &x| a + x);
         let hours = F::lit(DAY_HOURS as f64);
         let kf = F::lit(k as f64);
+        // A day apart from `apart` hours apart.
+        let a_day = F::lit(DAY_HOURS as f64 / w.apart as f64);
+        let content = older / kf;
+        // The weather's margin (see super): the change of the mean
+        // temperature slope over the k hours of each side.
+        let t = |i: usize| self.day_t.get(i).copied().unwrap_or(F::ZERO);
+        let last = k - 1;
+        let ds = ((t(w.newer + last) - t(w.newer)) - (t(w.older + last) - t(w.older))).abs();
+        let mid = t(w.older + k);
+        let margin = if mid > F::ZERO {
+            content * ds * F::lit((LAG_MARGIN * self.lag_ms) as f64)
+                / (F::lit(HOUR_MS as f64 * (k - 1) as f64) * mid)
+                * a_day
+        } else {
+            F::ZERO
+        };
         // Loss per day as a fraction of the rated content.
-        let loss = (older - newer) / kf;
+        let loss = (older - newer) / kf * a_day;
         let mut draw_margin = F::ZERO;
         let expected = match self.cfg.leak_mode {
             LeakMode::Standby => F::ZERO,
@@ -1030,32 +1051,20 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 },
             },
         };
-        let content = older / kf;
         let excess = loss - expected;
         let (loss_rel, excess_rel) = if content > F::ZERO {
             (loss / content, excess / content)
         } else {
             (F::ZERO, F::ZERO)
         };
-        let factor = F::lit(EARLY_FACTOR_Q8.get(k).copied().unwrap_or(256) as f64 / 256.0);
-        // The weather's margin (see super): the change of the mean
-        // temperature slope over the k hours of each side.
-        let t = |i: usize| self.day_t.get(i).copied().unwrap_or(F::ZERO);
-        let ds =
-            ((t(LEAK_RING - 1) - t(LEAK_RING - k)) - (t(DAY_HOURS - 1) - t(DAY_HOURS - k))).abs();
-        let mid = t(DAY_HOURS);
-        let margin = if mid > F::ZERO {
-            content * ds * F::lit((LAG_MARGIN * self.lag_ms) as f64)
-                / (F::lit(HOUR_MS as f64 * (k - 1) as f64) * mid)
-        } else {
-            F::ZERO
-        };
+        let factor = F::lit(w.factor_q8 as f64 / 256.0);
+        let floor = content * F::lit(w.floor_q16 as f64 / 65_536.0) * a_day;
         self.leak = Some(Leak {
             loss_per_day: loss_rel,
             excess_per_day: excess_rel,
             expected_draw_kg_h: expected * self.rated_mass_kg / hours,
             leaking: excess
-                > self.cfg.leak_threshold_per_day * factor * content + margin + draw_margin,
+                > self.cfg.leak_threshold_per_day * factor * content + floor + margin + draw_margin,
         });
     }
 

@@ -135,6 +135,18 @@
 //! (in use, nothing declared) the first whole day pair is still needed to
 //! learn it.
 //!
+//! Before that, in the first day, a vessel in standby whose gas follows its
+//! wall within [`FIRST_MAX_VESSEL_MS`] is judged from [`FIRST_MIN_HOURS`]
+//! hourly means on: the mean of the older half of the hours against the
+//! mean of the newer half, their distance in hours scaling the loss to a
+//! day. The threshold is the full one plus a floor of [`FIRST_FLOOR_Q16`]
+//! of the content (what part of a day's swing leaves in the compensated
+//! content) and the weather margin, both scaled to a day like the loss: a
+//! strong leak is reported within hours, a weak one when the distance has
+//! grown enough to carry it. Not in use (a day's draw has its hours, which
+//! halves of a day do not balance) nor for a gas that trails its wall by
+//! hours (its swing in a day is larger than the floor).
+//!
 //! ## Weather
 //!
 //! A sensor on the wall runs ahead of the gas when the weather warms and
@@ -211,6 +223,69 @@ pub const EARLY_FACTOR_Q8: [u32; DAY_HOURS + 1] = [
     0, 0, 0, 0, 0, 0, 666, 616, 576, 543, 516, 492, 471, 452, 436, 421, 408, 395, 384, 374, 365,
     356, 348, 340, 256,
 ];
+/// Fewest hours after a start for a first-day leak verdict (the older half
+/// of the hours against the newer; see "Early verdicts").
+pub const FIRST_MIN_HOURS: usize = 6;
+/// The longest gas time constant (the settling time constant) for which a
+/// first-day verdict is given: a vessel whose gas trails its wall by hours
+/// holds a day's swing in its compensated content (3–4 % in a 4 m³ store
+/// at ±12 K), far beyond what halves of a day can tell from a loss; it
+/// waits for hours one day apart (common practice, checked on populations).
+pub const FIRST_MAX_VESSEL_MS: u64 = HOUR_MS;
+/// The first-day verdict's floor, Q16 of the content: the two halves' means
+/// must differ by this much more than the threshold and the weather's
+/// margin allow (what a day's swing leaves in the compensated content
+/// beside the lag: 0.3 %, common practice, checked on the weather
+/// populations).
+pub const FIRST_FLOOR_Q16: u32 = 197;
+
+/// The hours a leak verdict sets against each other: `len` hourly means
+/// from ring index `older` against as many from `newer`, `apart` hours
+/// later; the threshold's factor (1/256) and the first day's floor (Q16 of
+/// the content). One choice for both trackers.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(crate) struct Window {
+    pub older: usize,
+    pub newer: usize,
+    pub len: usize,
+    pub apart: usize,
+    pub factor_q8: u32,
+    pub floor_q16: u32,
+}
+
+/// The verdict's window with `n` hourly means in the ring (the newest at
+/// its end), or none yet: pairs of hours one day apart from
+/// [`EARLY_MIN_PAIRS`] of them, before that, in standby, from
+/// [`FIRST_MIN_HOURS`] the older half against the newer (in use a day's
+/// draw has its hours, and a gas slower than [`FIRST_MAX_VESSEL_MS`] a
+/// day's swing: only hours one day apart compare).
+pub(crate) fn window(n: usize, mode: LeakMode, vessel: crate::time::Millis) -> Option<Window> {
+    let n = n.min(LEAK_RING);
+    let k = n.saturating_sub(DAY_HOURS);
+    if k >= EARLY_MIN_PAIRS {
+        Some(Window {
+            older: DAY_HOURS - k,
+            newer: LEAK_RING - k,
+            len: k,
+            apart: DAY_HOURS,
+            factor_q8: EARLY_FACTOR_Q8.get(k).copied().unwrap_or(256),
+            floor_q16: 0,
+        })
+    } else if n >= FIRST_MIN_HOURS && mode == LeakMode::Standby && vessel.0 <= FIRST_MAX_VESSEL_MS {
+        let h = n / 2;
+        Some(Window {
+            older: LEAK_RING - n,
+            newer: LEAK_RING - h,
+            len: h,
+            apart: n - h,
+            factor_q8: 256,
+            floor_q16: FIRST_FLOOR_Q16,
+        })
+    } else {
+        None
+    }
+}
+
 /// The leak verdict's margin for the temperature sensor's lag behind the
 /// gas, in lag uncertainties (see "Weather" below; common practice: about
 /// three standard uncertainties).
@@ -318,6 +393,31 @@ mod tests {
         assert_eq!(effective_lag(s(600), s(4), s(64)), s(660));
         assert_eq!(effective_lag(s(600), s(64), s(4)), s(660));
         assert_eq!(effective_lag(s(7000), s(0), s(3600)), s(7200));
+    }
+
+    #[test]
+    fn verdict_windows_from_the_first_hours_to_a_full_ring() {
+        let quick = Millis::from_secs(1800);
+        let standby = LeakMode::Standby;
+        assert_eq!(window(FIRST_MIN_HOURS - 1, standby, quick), None);
+        // First day, standby: the older half against the newer.
+        let w = window(11, standby, quick).unwrap();
+        assert_eq!((w.older, w.newer, w.len, w.apart), (37, 43, 5, 6));
+        assert_eq!((w.factor_q8, w.floor_q16), (256, FIRST_FLOOR_Q16));
+        let w = window(29, standby, quick).unwrap();
+        assert_eq!((w.older, w.newer, w.len, w.apart), (19, 34, 14, 15));
+        // Not in use, nor for a gas that trails its wall by hours.
+        assert_eq!(window(29, LeakMode::InUse, quick), None);
+        assert_eq!(window(29, standby, Millis::from_secs(7200)), None);
+        // Pairs one day apart from EARLY_MIN_PAIRS of them, in every mode.
+        for mode in [standby, LeakMode::InUse] {
+            let w = window(DAY_HOURS + EARLY_MIN_PAIRS, mode, Millis::from_secs(7200)).unwrap();
+            assert_eq!((w.older, w.newer, w.len, w.apart), (18, 42, 6, 24));
+            assert_eq!((w.factor_q8, w.floor_q16), (EARLY_FACTOR_Q8[6], 0));
+            let w = window(LEAK_RING + 5, mode, quick).unwrap();
+            assert_eq!((w.older, w.newer, w.len, w.apart), (0, 24, 24, 24));
+            assert_eq!(w.factor_q8, 256);
+        }
     }
 
     #[test]

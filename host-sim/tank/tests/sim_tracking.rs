@@ -253,22 +253,65 @@ fn weather_population_false_alarms_and_leak_delays() {
     }
 }
 
-/// A leak of 1 %/day from the first hour: reported in the second day, on
-/// the pairs of hours one day apart that are in (before early verdicts the
-/// first verdict came 48 h after the start), in both gauges alike.
+/// Leaks from the first hour: the stronger the leak, the sooner it is
+/// reported. In the first day (standby) the older half of the hours is
+/// judged against the newer with a floor for what a day's swing leaves
+/// (before, every leak waited for pairs of hours one day apart: 30 h at
+/// least, whatever its size); in the second day on the pairs that are in.
+/// Indoors, both gauges alike; then 60 weathers of the sunny rack (6 K day
+/// to day, ±10 K, sun): found in every one, and the same 60 idle give no
+/// alarm from their first-day verdicts (the whole two weeks idle:
+/// `weather_population_false_alarms_and_leak_delays`).
 #[test]
-fn leak_at_start_up_is_reported_in_the_second_day() {
-    let text = builtin_text("quiet-sensor-leak").replace("start = \"3d\"", "start = \"1h\"");
-    let sc = Scenario::from_toml(&text)
-        .unwrap()
-        .with(Some(3.0 * 86_400.0), None);
-    let a = run_with(&sc, BackendKind::Fixed);
-    let b = run_with(&sc, BackendKind::Float);
-    show(&a.summary);
-    assert_eq!(events(&a.summary), events(&b.summary));
-    assert_eq!(a.summary.false_alarms, 0);
-    let after = a.summary.leak_detected_after_s.expect("leak found");
-    assert!(after + 3600.0 < 40.0 * 3600.0, "{after}");
+fn leak_at_start_up_is_reported_sooner_the_stronger_it_is() {
+    for (loss, limit_h) in [("0.05", 8.0), ("0.01", 24.0), ("0.002", 48.0)] {
+        let text = builtin_text("quiet-sensor-leak")
+            .replace("start = \"3d\"", "start = \"1h\"")
+            .replace("loss_per_day = 0.01", &format!("loss_per_day = {loss}"));
+        let sc = Scenario::from_toml(&text)
+            .unwrap()
+            .with(Some(3.0 * 86_400.0), None);
+        let a = run_with(&sc, BackendKind::Fixed);
+        let b = run_with(&sc, BackendKind::Float);
+        assert_eq!(events(&a.summary), events(&b.summary), "{loss}");
+        assert_eq!(a.summary.false_alarms, 0, "{loss}");
+        let after = a.summary.leak_detected_after_s.expect("leak found") / 3600.0;
+        eprintln!("{loss} per day from the first hour, indoors: found after {after:.1} h");
+        assert!(after + 1.0 < limit_h, "{loss}: {after} h");
+    }
+
+    let n = 60;
+    let text = builtin_text("sunny-rack-weather");
+    let no_fronts = text.split("[[front]]").next().unwrap().to_string()
+        + &text[text.find("[sensors.pressure]").unwrap()..];
+    let short = no_fronts.replace("duration = \"14d\"", "duration = \"2d\"");
+    let idle = population(&short, n, 7000);
+    assert_eq!(idle.iter().map(|r| r.0).sum::<u64>(), 0, "idle first days");
+    for (loss, limit_h) in [("0.05", 12.0), ("0.01", 24.0)] {
+        let leak = format!("[[leak]]\nstart = \"0s\"\nloss_per_day = {loss}\n\n");
+        let with = short.replacen(
+            "[sensors.pressure]",
+            &format!("{leak}[sensors.pressure]"),
+            1,
+        );
+        let runs = population(&with, n, 7000);
+        let mut delays: Vec<f64> = runs
+            .iter()
+            .filter_map(|r| r.1)
+            .map(|s| s / 3600.0)
+            .collect();
+        delays.sort_by(f64::total_cmp);
+        eprintln!(
+            "{loss} per day from the start, sunny rack: found in {} of {n}; delay h: min {:.1}, median {:.1}, max {:.1}",
+            delays.len(),
+            delays.first().copied().unwrap_or(f64::NAN),
+            delays.get(delays.len() / 2).copied().unwrap_or(f64::NAN),
+            delays.last().copied().unwrap_or(f64::NAN)
+        );
+        assert_eq!(runs.iter().map(|r| r.0).sum::<u64>(), 0);
+        assert_eq!(delays.len() as u64, n);
+        assert!(delays.iter().all(|&h| h < limit_h), "{loss}: {delays:?}");
+    }
 }
 
 /// A 4 m³ methane store in winter with its sensor on the shell: the gas
@@ -310,8 +353,9 @@ fn large_vessel_gas_trailing_its_wall_is_covered() {
 /// leak): the slow pressure ramp (−6 bar over 12 h from 30 h) looks like a
 /// leak and the gauge says so — a raise the ramp justifies, not a leak
 /// found; the temperature ramp (+8 K over 4 h) moves the content as a real
-/// warming would; the fast ramp (+400 bar in 20 s from 126 h, for good) is
-/// the device's to flag: `sensor_fault` within the minute, raised for good.
+/// warming would (and may be called a leak while it lasts, justified too);
+/// the fast ramp (+400 bar in 20 s from 126 h, for good) is the device's
+/// to flag: `sensor_fault` within the minute, raised for good.
 /// Samples under a ramp are not judged; the others are covered.
 #[test]
 fn ramps_are_caught_or_explained() {
@@ -320,11 +364,21 @@ fn ramps_are_caught_or_explained() {
     assert_eq!(s.false_alarms, 0);
     assert_eq!(s.leak_started_s, None);
     assert_eq!(s.leak_detected_after_s, None);
+    // Raised under the slow pressure ramp, and may be under the temperature
+    // ramp (its +8 K reads as a loss of about 2.7 %: the first-day verdict
+    // of the ring restarted after the pressure ramp sees it), never else.
     let leak: Vec<f64> = raised(s, "leak").collect();
-    assert!(!leak.is_empty(), "{:?}", s.alarms);
+    let h = 3600.0;
+    assert!(
+        leak.iter().any(|&t| (30.0 * h..54.0 * h).contains(&t)),
+        "{:?}",
+        s.alarms
+    );
     assert!(
         leak.iter()
-            .all(|&t| (30.0 * 3600.0..54.0 * 3600.0).contains(&t))
+            .all(|&t| (30.0 * h..54.0 * h).contains(&t) || (76.0 * h..84.0 * h).contains(&t)),
+        "{:?}",
+        s.alarms
     );
     let fast = 126.0 * 3600.0;
     let faults: Vec<f64> = raised(s, "sensor_fault").collect();
