@@ -5,8 +5,9 @@
 //!
 //! Run with each feature off, e.g.
 //! `cargo test -p isochor-core --no-default-features --test features`
-//! (every optional part off) and with the defaults (every part on); CI
-//! runs both (`.ci/run`).
+//! (every optional part off), with `--features uncertainty` (tracking off,
+//! the content's uncertainty on) and with the defaults (every part on); CI
+//! runs all three (`.ci/run`).
 
 use isochor_core::app::{Zero, fixed, float};
 use isochor_core::model::DeviceModel;
@@ -48,10 +49,70 @@ fn content_matches_the_f64_mirror_and_left_out_parts_are_withheld() {
         // Both paths withhold the same outputs.
         assert_eq!(x.uncertainty.is_some(), y.uncertainty.is_some(), "{i}");
         if cfg!(feature = "uncertainty") {
-            // From the first block close on.
-            assert_eq!(x.uncertainty.is_some(), i >= 60, "{i}");
+            // The tracker refreshes U at each block close (from the first
+            // on); without it U is that of every sample's content.
+            let from = if cfg!(feature = "tracking") { 60 } else { 0 };
+            assert_eq!(x.uncertainty.is_some(), i >= from, "{i}");
         } else {
             assert!(x.uncertainty.is_none() && y.uncertainty.is_none(), "{i}");
+        }
+        assert_eq!(x.rate.is_some(), y.rate.is_some(), "{i}");
+        assert_eq!(x.time_to_empty.is_some(), y.time_to_empty.is_some(), "{i}");
+        assert_eq!(x.time_to_empty_withheld, y.time_to_empty_withheld, "{i}");
+        assert_eq!(x.leak.is_some(), y.leak.is_some(), "{i}");
+        assert_eq!(x.settling.not_settled, y.settling.not_settled, "{i}");
+        if cfg!(feature = "tracking") {
+            // A rate from the fifth block close on.
+            assert_eq!(x.rate.is_some(), i >= 300, "{i}");
+            // The over-pressure reference from the first block close on.
+            assert_eq!(x.rated_pressure_now_pa.is_some(), i >= 60, "{i}");
+        } else {
+            // Nothing the tracker gives is made up in either path.
+            for (rate, tte, why, leak, settled, reference, not_settled) in [
+                (
+                    x.rate.is_some(),
+                    x.time_to_empty.is_some(),
+                    x.time_to_empty_withheld.is_some(),
+                    x.leak.is_some(),
+                    x.settling.predicted.is_some(),
+                    x.rated_pressure_now_pa.is_some(),
+                    x.settling.not_settled,
+                ),
+                (
+                    y.rate.is_some(),
+                    y.time_to_empty.is_some(),
+                    y.time_to_empty_withheld.is_some(),
+                    y.leak.is_some(),
+                    y.settling.predicted.is_some(),
+                    y.rated_pressure_now_pa.is_some(),
+                    y.settling.not_settled,
+                ),
+            ] {
+                assert!(
+                    !(rate || tte || why || leak || settled || reference || not_settled),
+                    "{i}: a tracking output without the tracker"
+                );
+            }
+            // The content is the sample's own (no smoothing): the same as
+            // the estimate of this sample's readings.
+            let r = reference.last_valid().unwrap();
+            let direct = reference
+                .tracker()
+                .estimator()
+                .estimate(r.pressure.pressure_pa, r.temperature.temperature_k)
+                .unwrap();
+            assert_eq!(cy.fill_fraction, direct.fill_fraction, "{i}");
+        }
+        // `leak` and `not_settled` need the tracker: never raised without it.
+        if !cfg!(feature = "tracking") {
+            use isochor_core::alarm::AlarmKind;
+            assert!(
+                x.events
+                    .iter()
+                    .chain(y.events.iter())
+                    .all(|e| !matches!(e.kind, AlarmKind::Leak | AlarmKind::NotSettled)),
+                "{i}"
+            );
         }
         with_u += u32::from(x.uncertainty.is_some());
         events
@@ -76,9 +137,10 @@ fn content_matches_the_f64_mirror_and_left_out_parts_are_withheld() {
 }
 
 fn features() -> &'static str {
-    if cfg!(feature = "uncertainty") {
-        "uncertainty on"
-    } else {
-        "uncertainty off"
+    match (cfg!(feature = "uncertainty"), cfg!(feature = "tracking")) {
+        (true, true) => "uncertainty on, tracking on",
+        (true, false) => "uncertainty on, tracking off",
+        (false, true) => "uncertainty off, tracking on",
+        (false, false) => "uncertainty off, tracking off",
     }
 }
