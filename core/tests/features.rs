@@ -5,8 +5,8 @@
 //!
 //! Run with each feature off, e.g.
 //! `cargo test -p isochor-core --no-default-features --test features`
-//! (every optional part off), with `--features uncertainty` (tracking off,
-//! the content's uncertainty on) and with the defaults (every part on); CI
+//! (every optional part off), with `--features uncertainty,modbus` (tracking off,
+//! the content's uncertainty and Modbus on) and with the defaults (every part on); CI
 //! runs all three (`.ci/run`).
 
 use isochor_core::app::{Zero, fixed, float};
@@ -120,6 +120,10 @@ fn content_matches_the_f64_mirror_and_left_out_parts_are_withheld() {
         if let (Some(ux), Some(uy)) = (x.uncertainty, y.uncertainty) {
             worst_u = worst_u.max((fx::to_f64(ux.fill_fraction) - uy.fill_fraction).abs());
         }
+        #[cfg(feature = "modbus")]
+        if i % 600 == 599 {
+            tracking_registers(&device, &x);
+        }
         events
             .0
             .extend(x.events.iter().map(|e| (e.kind, e.raised, e.at)));
@@ -155,4 +159,79 @@ fn features() -> &'static str {
         (false, true) => "uncertainty off, tracking on",
         (false, false) => "uncertainty off, tracking off",
     }
+}
+
+/// The Modbus input registers of the tracker's outputs (rate, its U, time
+/// to empty, its bounds and why there is none): "not available" (the map's
+/// NaN, `0x8000_0000` or all ones) without the tracker; with it the rate
+/// and the reason are there once the tracker has a rate.
+#[cfg(feature = "modbus")]
+fn tracking_registers(device: &fixed::Pipeline<&[u8]>, x: &isochor_core::track::fixed::TrackFx) {
+    use isochor_core::Status;
+    use isochor_core::field::FieldScalars;
+    use isochor_core::field::modbus::Space;
+    use isochor_core::field::modbus::map::{Encoding, INPUT, Quantity, Registers, Snapshot};
+    use isochor_core::link::Identity;
+
+    let mut snapshot = Snapshot::new();
+    snapshot.update(
+        1,
+        Some(x),
+        x.at.as_millis(),
+        Status::OK,
+        Some(device.tracker().config()),
+        Some(device.tracker().rated_standard_volume()),
+        fx::Milliamps::from_num(12),
+    );
+    let identity = Identity {
+        serial: 1,
+        hardware_rev: 1,
+        firmware_version: [0, 0, 0],
+        protocol: 1,
+        max_frame_len: 256,
+        capabilities: 0,
+        config_capacity: 0,
+    };
+    let field = FieldScalars::default();
+    let regs = Registers {
+        snapshot: &mut snapshot,
+        identity: &identity,
+        field: &field,
+        now_ms: x.at.as_millis(),
+    };
+    let tracking = [
+        Quantity::RateKgH,
+        Quantity::RateUKgH,
+        Quantity::TimeToEmptyS,
+        Quantity::TimeToEmptyEarliestS,
+        Quantity::TimeToEmptyLatestS,
+        Quantity::TimeToEmptyWithheld,
+    ];
+    let mut seen = 0;
+    for r in INPUT.iter().filter(|r| tracking.contains(&r.quantity)) {
+        seen += 1;
+        let words: Vec<u16> = (0..r.encoding.words())
+            .map(|i| regs.read(false, r.address + i).unwrap())
+            .collect();
+        let not_available = match r.encoding {
+            Encoding::F32 => words == [0x7FC0, 0x0000],
+            Encoding::I32(_) => words == [0x8000, 0x0000],
+            _ => words.iter().all(|&w| w == 0xFFFF),
+        };
+        if cfg!(feature = "tracking") {
+            if matches!(
+                r.quantity,
+                Quantity::RateKgH | Quantity::TimeToEmptyWithheld
+            ) && x.rate.is_some()
+            {
+                assert!(!not_available, "{:?} at {:?}: {words:x?}", r.quantity, x.at);
+            }
+        } else {
+            assert!(not_available, "{:?} at {:?}: {words:x?}", r.quantity, x.at);
+        }
+    }
+    assert!(
+        seen >= tracking.len(),
+        "{seen} tracking registers in the map"
+    );
 }
