@@ -470,7 +470,7 @@ fn minimal_integration_matches_the_host() {
 /// written at manufacture): it announces no signed configuration, refuses
 /// a challenge and every signed command as unsupported, and still answers
 /// its other requests. It is the leanest build (`--no-default-features`:
-/// no `modbus`, no `uncertainty` either), so this also starts that one in
+/// no `modbus`, no `uncertainty`, no `tracking` either), so this also starts that one in
 /// QEMU; without a configuration written at manufacture it has no
 /// estimate to send, so its content is compared with the f64 mirror on
 /// the host instead (`core/tests/features.rs`).
@@ -498,8 +498,10 @@ fn without_signed_config_signed_commands_are_unsupported() {
     assert_eq!(id.serial, SERIAL);
     assert_eq!(id.capabilities & capability::SIGNED_CONFIG, 0, "{id:?}");
     assert_ne!(id.capabilities & capability::TELEMETRY, 0, "{id:?}");
-    // Built without `uncertainty` too: the capability is not announced.
+    // Built without `uncertainty` and `tracking` too: neither capability
+    // is announced.
     assert_eq!(id.capabilities & capability::UNCERTAINTY, 0, "{id:?}");
+    assert_eq!(id.capabilities & capability::TRACKING, 0, "{id:?}");
     let setup = SetupFx::from_f64(&Setup::new(Gas::Nitrogen, Tank::new(0.050, 200e5))).unwrap();
     match c.configure(&GaugeConfig::nominal(setup), &mut |_, _| {}) {
         Err(Error::Refused(why)) => assert!(why.contains("does not support"), "{why}"),

@@ -3,6 +3,8 @@
 //! method is in [`super`].
 
 use super::Zero;
+#[cfg(not(feature = "tracking"))]
+use super::untracked::fixed::Tracker;
 use crate::content::fixed::Estimator;
 use crate::error::DeviceSetting;
 use crate::prepared::{Prepared, PreparedModel};
@@ -12,7 +14,9 @@ use crate::sensor::channel::fixed::{PressureChannel, PressureValue, TemperatureC
 use crate::sensor::plausibility::PlausibilityState;
 use crate::sensor::{TemperatureReading, VALUE_INVALID};
 use crate::time::Instant;
-use crate::track::fixed::{TrackFx, Tracker};
+use crate::track::fixed::TrackFx;
+#[cfg(feature = "tracking")]
+use crate::track::fixed::Tracker;
 use crate::{Error, Status, fx};
 
 /// One sample's converted readings.

@@ -3,6 +3,8 @@
 //! and names as [`super::fixed`]; the method is in [`super`].
 
 use super::Zero;
+#[cfg(not(feature = "tracking"))]
+use super::untracked::float::Tracker;
 use crate::content::float::Estimator;
 use crate::model::Compressibility;
 use crate::prepared::GaugeConfig;
@@ -12,7 +14,9 @@ use crate::sensor::plausibility::PlausibilityState;
 use crate::sensor::plausibility::float::Checker;
 use crate::sensor::{PressureReading, TemperatureReading, VALUE_INVALID};
 use crate::time::Instant;
-use crate::track::float::{Track, Tracker};
+use crate::track::float::Track;
+#[cfg(feature = "tracking")]
+use crate::track::float::Tracker;
 use crate::{Error, Real, Status, fx};
 
 /// One sample's converted readings (float form).

@@ -122,7 +122,11 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
             }
             | capability::ALARMS
             | capability::DIAGNOSTICS
-            | capability::TRACKING
+            | if cfg!(feature = "tracking") {
+                capability::TRACKING
+            } else {
+                0
+            }
             | if cfg!(feature = "uncertainty") {
                 capability::UNCERTAINTY
             } else {

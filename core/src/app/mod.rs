@@ -37,7 +37,11 @@
 //! 4. `plausibility`: where the configuration has them, checks of both
 //!    readings (range, rate of change, stuck value) add their flags.
 //! 5. `track`: the tracker takes pressure, temperature, both channels'
-//!    flags and the sample's time.
+//!    flags and the sample's time. Without feature `tracking` the
+//!    pipeline's tracker is `untracked`'s instead: the content of the
+//!    sample's own reading, its uncertainty and the alarms that need no
+//!    history, in the tracker's output types with rate, time to empty,
+//!    leak and settling left `None`.
 //!
 //! # Zero calibration
 //!
@@ -61,6 +65,8 @@ pub mod float;
 mod gauge;
 pub mod service;
 pub mod telemetry;
+#[cfg(not(feature = "tracking"))]
+pub mod untracked;
 
 pub use gauge::{Gauge, GaugeIo, Mapper};
 

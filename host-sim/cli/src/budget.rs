@@ -376,17 +376,22 @@ pub fn measure(firmware_dir: &Path) -> Result<Budget, Error> {
         Build::with_features(
             Board::Microbit,
             "no-modbus",
-            &["signed-config", "uncertainty"],
+            &["signed-config", "uncertainty", "tracking"],
         ),
         Build::with_features(
             Board::Microbit,
             "no-uncertainty",
-            &["signed-config", "modbus"],
+            &["signed-config", "modbus", "tracking"],
         ),
         Build::with_features(
             Board::Microbit,
             "no-signed-config",
-            &["modbus", "uncertainty"],
+            &["modbus", "uncertainty", "tracking"],
+        ),
+        Build::with_features(
+            Board::Microbit,
+            "no-tracking",
+            &["signed-config", "modbus", "uncertainty"],
         ),
         Build::with_features(Board::Microbit, "lean", &[]),
     ];

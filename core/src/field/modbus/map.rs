@@ -538,6 +538,9 @@ impl Registers<'_> {
             // Milliamps bits (Q24) → µA, rounded.
             Quantity::LoopCurrentUa => (i64::from(s.loop_current) * 1000 + (1 << 23)) >> 24,
             Quantity::Sequence => i64::from(s.sequence),
+            // Without the tracker there is neither a time to empty nor a
+            // reason for none: not available, like the time to empty.
+            Quantity::TimeToEmptyWithheld if !cfg!(feature = "tracking") => return None,
             Quantity::TimeToEmptyWithheld => i64::from(s.withheld),
             Quantity::SerialNumber => id.serial as i64,
             Quantity::FirmwareMajor => i64::from(id.firmware_version[0]),
