@@ -32,9 +32,10 @@
 use super::float::TrackConfig;
 use super::{
     DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
-    LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
-    STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, STEADY_TIME_CONSTANTS, TEMPERATURE_WINDOW,
-    effective_lag, validate_timing, window,
+    LEAD_BIAS, LEAD_Q, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
+    SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, STEADY_TIME_CONSTANTS,
+    TEMPERATURE_WINDOW, VESSEL_LAG_FROM_MS, VESSEL_LAG_SHARE_Q8, effective_lag, validate_timing,
+    window,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -359,11 +360,21 @@ pub struct Tracker<M> {
     hour_blocks: u32,
     day_ring: [u32; LEAK_RING],
     /// The block temperature at each hour's close beside `day_ring`, K in
-    /// Q7 (1/128 K, below 512 K).
+    /// Q7 (1/128 K, below 512 K); for a slow vessel the hour's mean content
+    /// hidden by the sensor's lead on the gas (see [`LEAD_Q`](super::LEAD_Q)).
     day_t: [u16; LEAK_RING],
     /// The leak margin's lag factor, 3·u_τ/23 h in Q16 (u_τ the temperature
     /// lag uncertainty; below 2^16 for any accepted one).
     lag_q16: u64,
+    /// A vessel slower than [`VESSEL_LAG_FROM_MS`] (see super, "Weather"):
+    /// the gas temperature followed from the sensor's (Q23), the filter's
+    /// gain per block at full content (Q16), the time constant τ_v (ms; 0
+    /// for a quicker vessel), and the hour's sum of the content the
+    /// sensor's lead on the gas hides (Q28).
+    t_gas: Option<i64>,
+    gas_gain_q16: u64,
+    vessel_ms: u64,
+    hour_lead: i64,
     day_len: usize,
     learned24: Option<i64>,
     // Draw episodes: one is going on, its blocks, and until when the leak
@@ -458,6 +469,9 @@ impl<M: CompressibilityFx> Tracker<M> {
             ((d.max(0) as u64).saturating_mul(super::DRAW_MARGIN * u_scale) >> 16)
                 .min(i64::MAX as u64) as i64
         });
+        // A vessel slower than VESSEL_LAG_FROM_MS (see super, "Weather").
+        let tau = cfg.settle_time_constant.0.min(1 << 40);
+        let slow = tau > VESSEL_LAG_FROM_MS;
         Ok(Tracker {
             unc,
             alarms: Alarms::new(cfg.debounce),
@@ -502,6 +516,10 @@ impl<M: CompressibilityFx> Tracker<M> {
                 .0)
                 << 16)
                 / (HOUR_MS * (DAY_HOURS as u64 - 1)),
+            t_gas: None,
+            gas_gain_q16: if slow { (cfg.block.0 << 16) / tau } else { 0 },
+            vessel_ms: if slow { tau } else { 0 },
+            hour_lead: 0,
             day_len: 0,
             learned24: None,
             episode: false,
@@ -718,6 +736,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.block_n = 0;
             self.ring_len = 0;
             self.t_len = 0;
+            self.t_gas = None;
             self.rate = None;
             self.set_tte(Err(NoTimeToEmpty::Learning));
             self.reset_leak();
@@ -868,6 +887,18 @@ impl<M: CompressibilityFx> Tracker<M> {
             let t = fx::shr_round_i64(self.t_smooth, 16 + 16 - QT_MEAN);
             *last = t.clamp(0, u32::MAX as i64) as u32;
         }
+        if self.gas_gain_q16 > 0 {
+            // The gas follows the sensor's temperature through its time
+            // constant τ_v·F (first order, one step a block; the gas's heat
+            // capacity goes with its amount).
+            let t = self.t_ring.last().copied().unwrap_or(0) as i64;
+            let f = (mean as u64).clamp(1, 1 << Q);
+            let gain = ((self.gas_gain_q16 << Q) / f).min(1 << 16) as i64;
+            self.t_gas = Some(match self.t_gas {
+                None => t,
+                Some(g) => g + fx::shr_round_i64((t - g) * gain, 16),
+            });
+        }
         self.ring_len = (self.ring_len + 1).min(RATE_WINDOW);
         self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
@@ -876,7 +907,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.rate_and_time_to_empty(&sloped);
         self.episodes(end);
         self.settle(end, mean, content.temperature_k);
-        self.leak_block(end, mean);
+        self.leak_block(end, mean, &sloped);
         #[cfg(feature = "uncertainty")]
         {
             probe::enter(Stage::Uncertainty);
@@ -1110,12 +1141,25 @@ impl<M: CompressibilityFx> Tracker<M> {
     }
 
     /// Leak detection: hourly means into the two-day ring.
-    fn leak_block(&mut self, end: Instant, mean: u32) {
+    fn leak_block(&mut self, end: Instant, mean: u32, content: &Content) {
         if self.leak_held(end, mean) {
             self.reset_leak();
             return;
         }
         self.hour_sum += mean as u64;
+        if let Some(g) = self.t_gas {
+            // The content at the gas's temperature less the content at the
+            // sensor's, at the same pressure (Q28 of the rated content).
+            let tg = fx::Temperature::from_bits(
+                fx::shr_round_i64(g, QT_MEAN - 16).clamp(0, u32::MAX as i64) as u32,
+            );
+            let gas = self.est.estimate(content.pressure_pa, tg);
+            probe::enter(Stage::Track);
+            if !gas.status.intersects(Status::CONTENT_INVALID) {
+                let q28 = |c: &Content| fx::shr_round_i64(c.fill_fraction.to_bits() as i64, 32 - Q);
+                self.hour_lead = self.hour_lead.saturating_add(q28(&gas) - q28(content));
+            }
+        }
         self.hour_blocks += 1;
         if self.hour_blocks < self.blocks_per_hour {
             return;
@@ -1125,7 +1169,9 @@ impl<M: CompressibilityFx> Tracker<M> {
             .checked_div(bph)
             .unwrap_or(0)
             .min(u32::MAX as u64) as u32;
+        let lead = self.hour_lead.checked_div(bph as i64).unwrap_or(0);
         self.hour_sum = 0;
+        self.hour_lead = 0;
         self.hour_blocks = 0;
         self.day_ring.rotate_left(1);
         if let Some(last) = self.day_ring.last_mut() {
@@ -1133,9 +1179,15 @@ impl<M: CompressibilityFx> Tracker<M> {
         }
         self.day_t.rotate_left(1);
         if let Some(last) = self.day_t.last_mut() {
-            // Q23 → Q7, rounded.
-            let t = self.t_ring.last().copied().unwrap_or(0);
-            *last = ((t as u64 + (1 << 15)) >> 16).min(u16::MAX as u64) as u16;
+            // Q23 → Q7, rounded. For a slow vessel the hour's mean content
+            // the sensor's lead hides instead, Q19 offset by LEAD_BIAS
+            // (±6.25 % of the rated content, held there).
+            *last = if self.vessel_ms > 0 {
+                (fx::shr_round_i64(lead, Q - LEAD_Q) + LEAD_BIAS).clamp(0, u16::MAX as i64) as u16
+            } else {
+                let t = self.t_ring.last().copied().unwrap_or(0);
+                ((t as u64 + (1 << 15)) >> 16).min(u16::MAX as u64) as u16
+            };
         }
         self.day_len = (self.day_len + 1).min(LEAK_RING);
         // Pairs of hours one day apart once the ring holds enough of them:
@@ -1181,22 +1233,41 @@ impl<M: CompressibilityFx> Tracker<M> {
         };
         let older = per_day(older_k);
         let loss24 = a_day(per_day(older_k - newer_k));
-        // The weather's margin (see super), on the day sum: older · |Δs|/T ·
-        // 3·u_τ/23 h, Δs and T in Q7 (Δs over the k hours of each side, brought
-        // to 23 h), |Δs|/T in Q32 (one 64-bit division, |Δs| < 2^22), older
-        // narrowed by 8 bits before it multiplies (< 2^61), then the lag
-        // factor in Q16 (`lag_q16`), brought to sides a day apart.
+        let times = |x: u64, q16: u64| (x.saturating_mul(q16) >> 16).min(i64::MAX as u64 >> 5);
         let t = |i: usize| self.day_t.get(i).copied().unwrap_or(0) as i64;
-        let last = k - 1;
-        let mut ds =
-            ((t(w.newer + last) - t(w.newer)) - (t(w.older + last) - t(w.older))).unsigned_abs();
-        if k < DAY_HOURS {
-            ds = ds * (DAY_HOURS as u64 - 1) / (k as u64 - 1);
-        }
-        let ratio = (ds << 32).checked_div(t(w.older + k) as u64).unwrap_or(0);
-        let x = ((older.max(0) as u64 >> 8).saturating_mul(ratio)) >> 24;
-        let margin24 =
-            a_day((x.saturating_mul(self.lag_q16) >> 16).min(i64::MAX as u64 >> 5) as i64);
+        let mut loss24 = loss24;
+        let margin24 = if self.vessel_ms > 0 {
+            // A slow vessel (see super, "Weather"): the loss corrected by the
+            // change between the sides of the content the sensor's lead on
+            // the gas hides (Δc, on the day sum); the margin
+            // 3·(share + u_τ/τ)·|Δc| (share: the time constant's
+            // uncertainty, τ = τ_v·F).
+            let side = |from: usize| (0..k).map(|i| t(from + i) - LEAD_BIAS).sum::<i64>();
+            let dc = a_day(per_day((side(w.older) - side(w.newer)) << (Q - LEAD_Q)));
+            loss24 = loss24.saturating_add(dc);
+            // F (Q16, at most 1) and τ = τ_v·F, ms.
+            let f = ((older.max(0) as u64 / DAY_HOURS as u64) >> (Q - 16)).min(1 << 16);
+            let tau = (self.vessel_ms.saturating_mul(f) >> 16).max(1);
+            // 3·u_τ/τ from 3·u_τ/23 h (`lag_q16`), Q16.
+            let lag = (self.lag_q16 * HOUR_MS * (DAY_HOURS as u64 - 1)) / tau;
+            let factor = ((LAG_MARGIN * VESSEL_LAG_SHARE_Q8) << 8).saturating_add(lag);
+            times(dc.unsigned_abs(), factor) as i64
+        } else {
+            // The sensor's lag (see super): older · |Δs|/T · 3·u_τ/23 h, Δs
+            // over the k hours of each side brought to 23 h, then the lag
+            // factor in Q16 (`lag_q16`), brought to sides a day apart.
+            let last = k - 1;
+            let mut ds = ((t(w.newer + last) - t(w.newer)) - (t(w.older + last) - t(w.older)))
+                .unsigned_abs();
+            if k < DAY_HOURS {
+                ds = ds * (DAY_HOURS as u64 - 1) / (k as u64 - 1);
+            }
+            // |Δs|/T in Q32 (one 64-bit division, |Δs| < 2^22), older
+            // narrowed by 8 bits before it multiplies (< 2^61).
+            let ratio = (ds << 32).checked_div(t(w.older + k) as u64).unwrap_or(0);
+            let x = ((older.max(0) as u64 >> 8).saturating_mul(ratio)) >> 24;
+            a_day(times(x, self.lag_q16) as i64)
+        };
         let mut draw_margin24 = 0;
         let expected24 = match self.cfg.leak_mode {
             LeakMode::Standby => 0,
@@ -1254,6 +1325,7 @@ impl<M: CompressibilityFx> Tracker<M> {
     /// Empties the leak ring (its verdict goes with it).
     fn reset_leak(&mut self) {
         self.hour_sum = 0;
+        self.hour_lead = 0;
         self.hour_blocks = 0;
         self.day_len = 0;
         self.leak = None;

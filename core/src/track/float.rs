@@ -3,9 +3,10 @@
 
 use super::{
     DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
-    LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS, SETTLE_WINDOW,
-    STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, STEADY_TIME_CONSTANTS, TEMPERATURE_WINDOW,
-    effective_lag, validate_timing, window,
+    LEAD_Q, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
+    SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, STEADY_TIME_CONSTANTS,
+    TEMPERATURE_WINDOW, VESSEL_LAG_FROM_MS, VESSEL_LAG_SHARE_Q8, effective_lag, validate_timing,
+    window,
 };
 use crate::alarm::float::{Inputs, LevelInputs, Limits};
 use crate::alarm::{Alarms, DebounceTable, Events};
@@ -339,6 +340,15 @@ pub struct Tracker<F: Real, M> {
     day_t: [F; LEAK_RING],
     /// The temperature lag uncertainty of the leak margin, ms.
     lag_ms: u64,
+    /// A vessel slower than [`VESSEL_LAG_FROM_MS`] (see super, "Weather"):
+    /// the gas temperature followed from the sensor's, the filter's gain
+    /// per block at full content, the time constant τ_v (ms; 0 for a
+    /// quicker vessel), and the hour's sum of the content the sensor's
+    /// lead on the gas hides.
+    t_gas: Option<F>,
+    gas_gain: F,
+    vessel_ms: u64,
+    hour_lead: F,
     /// [`DRAW_MARGIN`](super::DRAW_MARGIN)·u_s, the margin for the gauge's
     /// scale as a share of a declared draw (u_s as the fixed path has it).
     draw_margin: F,
@@ -410,6 +420,9 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             t16(tank.rated_temperature_k),
         );
         let draw_margin = F::lit((super::DRAW_MARGIN * u_scale) as f64 / 65_536.0);
+        // A vessel slower than VESSEL_LAG_FROM_MS (see super, "Weather").
+        let tau = cfg.settle_time_constant.0.min(1 << 40);
+        let slow = tau > VESSEL_LAG_FROM_MS;
         Ok(Tracker {
             unc,
             alarms: Alarms::new(cfg.debounce),
@@ -436,6 +449,14 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             day_ring: [F::ZERO; LEAK_RING],
             day_t: [F::ZERO; LEAK_RING],
             lag_ms,
+            t_gas: None,
+            gas_gain: if slow {
+                F::lit(cfg.block.0 as f64 / tau as f64)
+            } else {
+                F::ZERO
+            },
+            vessel_ms: if slow { tau } else { 0 },
+            hour_lead: F::ZERO,
             draw_margin,
             day_len: 0,
             learned_draw_per_day: None,
@@ -641,6 +662,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             self.block_n = 0;
             self.ring_len = 0;
             self.t_len = 0;
+            self.t_gas = None;
             self.rate = None;
             self.set_tte(Err(NoTimeToEmpty::Learning));
             self.reset_leak();
@@ -772,13 +794,25 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         if let Some(last) = self.t_ring.last_mut() {
             *last = self.t_smooth;
         }
+        if self.vessel_ms > 0 {
+            // The gas follows the sensor's temperature through its time
+            // constant τ_v·F (first order, one step a block; the gas's heat
+            // capacity goes with its amount).
+            let t = self.t_smooth;
+            let f = mean.max(F::lit(1.0 / (1u64 << 28) as f64)).min(F::ONE);
+            let gain = (self.gas_gain / f).min(F::ONE);
+            self.t_gas = Some(match self.t_gas {
+                None => t,
+                Some(g) => g + (t - g) * gain,
+            });
+        }
         self.ring_len = (self.ring_len + 1).min(RATE_WINDOW);
         self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
         self.rate_and_time_to_empty(content);
         self.episodes(end);
         self.settle(end, mean, content.temperature_k);
-        self.leak_block(end, mean);
+        self.leak_block(end, mean, content);
         #[cfg(feature = "uncertainty")]
         {
             let (u, transient) = self
@@ -967,18 +1001,30 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
     }
 
     /// Leak detection: hourly means into the two-day ring.
-    fn leak_block(&mut self, end: Instant, mean: F) {
+    fn leak_block(&mut self, end: Instant, mean: F, c: &Content<F>) {
         if self.leak_held(end, mean) {
             self.reset_leak();
             return;
         }
         self.hour_sum += mean;
+        if let Some(g) = self.t_gas {
+            // The content at the gas's temperature less the content at the
+            // sensor's, at the same pressure (fraction of the rated
+            // content; none when the model refuses it).
+            if let Ok(gas) = self.est.estimate(c.pressure_pa, g)
+                && !gas.status.intersects(Status::CONTENT_INVALID)
+            {
+                self.hour_lead += gas.fill_fraction - c.fill_fraction;
+            }
+        }
         self.hour_blocks += 1;
         if self.hour_blocks < self.blocks_per_hour {
             return;
         }
         let hour = self.hour_sum / F::lit(self.blocks_per_hour as f64);
+        let lead = self.hour_lead / F::lit(self.blocks_per_hour as f64);
         self.hour_sum = F::ZERO;
+        self.hour_lead = F::ZERO;
         self.hour_blocks = 0;
         self.day_ring.rotate_left(1);
         if let Some(last) = self.day_ring.last_mut() {
@@ -986,7 +1032,14 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         }
         self.day_t.rotate_left(1);
         if let Some(last) = self.day_t.last_mut() {
-            *last = F::lit(libm::round(self.t_smooth.to_f64() * 128.0) / 128.0);
+            // For a slow vessel the hour's mean content the sensor's lead
+            // hides instead (on the fixed path's grid and range).
+            *last = if self.vessel_ms > 0 {
+                let q = (1u64 << LEAD_Q) as f64;
+                F::lit(libm::round(lead.to_f64() * q).clamp(-32_768.0, 32_767.0) / q)
+            } else {
+                F::lit(libm::round(self.t_smooth.to_f64() * 128.0) / 128.0)
+            };
         }
         self.day_len = (self.day_len + 1).min(LEAK_RING);
         // Pairs of hours one day apart, or in the first day the older half
@@ -1016,21 +1069,35 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         // A day apart from `apart` hours apart.
         let a_day = F::lit(DAY_HOURS as f64 / w.apart as f64);
         let content = older / kf;
-        // The weather's margin (see super): the change of the mean
-        // temperature slope over the k hours of each side.
         let t = |i: usize| self.day_t.get(i).copied().unwrap_or(F::ZERO);
-        let last = k - 1;
-        let ds = ((t(w.newer + last) - t(w.newer)) - (t(w.older + last) - t(w.older))).abs();
-        let mid = t(w.older + k);
-        let margin = if mid > F::ZERO {
-            content * ds * F::lit((LAG_MARGIN * self.lag_ms) as f64)
-                / (F::lit(HOUR_MS as f64 * (k - 1) as f64) * mid)
-                * a_day
-        } else {
-            F::ZERO
-        };
         // Loss per day as a fraction of the rated content.
-        let loss = (older - newer) / kf * a_day;
+        let mut loss = (older - newer) / kf * a_day;
+        let margin = if self.vessel_ms > 0 {
+            // A slow vessel (see super, "Weather"): the loss corrected by the
+            // change between the sides of the content the sensor's lead on
+            // the gas hides; the margin 3·(share + u_τ/τ)·|Δc| (share: the
+            // time constant's uncertainty, τ = τ_v·F).
+            let side = |from: usize| (0..k).fold(F::ZERO, |a, i| a + t(from + i));
+            let dc = (side(w.older) - side(w.newer)) / kf * a_day;
+            loss += dc;
+            let f = content.max(F::ZERO).min(F::ONE);
+            let tau = (F::lit(self.vessel_ms as f64) * f).max(F::ONE);
+            let share = F::lit((LAG_MARGIN * VESSEL_LAG_SHARE_Q8) as f64 / 256.0);
+            dc.abs() * (share + F::lit((LAG_MARGIN * self.lag_ms) as f64) / tau)
+        } else {
+            // The sensor's lag (see super): the change of the mean
+            // temperature slope over the k hours of each side.
+            let last = k - 1;
+            let ds = ((t(w.newer + last) - t(w.newer)) - (t(w.older + last) - t(w.older))).abs();
+            let mid = t(w.older + k);
+            if mid > F::ZERO {
+                content * ds * F::lit((LAG_MARGIN * self.lag_ms) as f64)
+                    / (F::lit(HOUR_MS as f64 * (k - 1) as f64) * mid)
+                    * a_day
+            } else {
+                F::ZERO
+            }
+        };
         let mut draw_margin = F::ZERO;
         let expected = match self.cfg.leak_mode {
             LeakMode::Standby => F::ZERO,
@@ -1071,6 +1138,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
     /// Empties the leak ring (its verdict goes with it).
     fn reset_leak(&mut self) {
         self.hour_sum = F::ZERO;
+        self.hour_lead = F::ZERO;
         self.hour_blocks = 0;
         self.day_len = 0;
         self.leak = None;

@@ -161,6 +161,22 @@
 //! the difference of the smoothing time constants); s from the block
 //! temperature at each hour's close, kept beside the hourly means (1/128 K).
 //!
+//! A vessel whose gas trails its wall by more than [`VESSEL_LAG_FROM_MS`]
+//! (a large store with a sensor on the shell: its gas–wall time constant
+//! declared as the settling time constant τ_v) leaves far more than the
+//! sensor's lag in a day mean: the gas's lead at τ = τ_v·F (its heat
+//! capacity goes with its amount) moves the day means of the compensated
+//! content by up to ±0.6 %/day in changeable weather. For such a vessel the
+//! tracker follows the gas temperature from the sensor's through that
+//! first-order lag, evaluates once a block the content at the gas's
+//! temperature against the content at the sensor's (same pressure, the
+//! device's gas model: its non-linearity included), keeps the hour's mean
+//! of that difference in place of the hourly temperature (Q19 of the
+//! rated content, ±6.25 % held) and
+//! adds its change between the sides to the loss. The margin becomes
+//! 3·(share + u_τ/τ)·|Δc|, Δc that change and share
+//! [`VESSEL_LAG_SHARE_Q8`] for the declared time constant's uncertainty.
+//!
 //! # Withdrawn outputs
 //!
 //! While the front end flags every sample (a dead or disconnected channel),
@@ -232,6 +248,25 @@ pub const FIRST_MIN_HOURS: usize = 6;
 /// at ±12 K), far beyond what halves of a day can tell from a loss; it
 /// waits for hours one day apart (common practice, checked on populations).
 pub const FIRST_MAX_VESSEL_MS: u64 = HOUR_MS;
+/// The gas time constant (the settling time constant) above which the leak
+/// verdict takes the gas's trailing of its wall into account (see
+/// "Weather"): the hourly temperatures it compares are those of the gas,
+/// followed from the sensor's through a first-order lag of that time
+/// constant, and the day means' difference is corrected for it.
+pub const VESSEL_LAG_FROM_MS: u64 = HOUR_MS;
+/// The uncertainty of a declared gas time constant, as a share of it in
+/// 1/256 (1/8: declared from the vessel's size and content, common
+/// practice, checked on the large-store populations), for the weather
+/// margin of a vessel slower than [`VESSEL_LAG_FROM_MS`].
+pub const VESSEL_LAG_SHARE_Q8: u64 = 32;
+/// A slow vessel's hourly content hidden by the sensor's lead on the gas,
+/// as the fixed tracker keeps it beside the hourly means: Q19 of the rated
+/// content (both trackers round to it), offset by [`LEAD_BIAS`] in a `u16`
+/// (±6.25 % of the rated content, held there).
+pub(crate) const LEAD_Q: u32 = 19;
+/// See [`LEAD_Q`].
+pub(crate) const LEAD_BIAS: i64 = 1 << 15;
+
 /// The first-day verdict's floor, Q16 of the content: the two halves' means
 /// must differ by this much more than the threshold and the weather's
 /// margin allow (what a day's swing leaves in the compensated content

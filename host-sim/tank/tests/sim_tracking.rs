@@ -349,6 +349,79 @@ fn large_vessel_gas_trailing_its_wall_is_covered() {
     assert!(s.uncertainty_coverage.unwrap() < 0.8);
 }
 
+/// The 4 m³ methane store of `methane-store-winter` idle in standby
+/// outdoors (daily mean 5 °C moving 3 K from day to day, ±12 K between
+/// night and afternoon), its gas trailing the shell-mounted sensor by about
+/// two hours: the day means of the compensated content move by up to
+/// ±0.6 %/day with the weather. Before the leak verdict took the gas's
+/// lag into account every one of 100 such two-week weathers raised a
+/// false `leak` (461 alarms); now none of 40 does, and a leak of 1 %/day
+/// from day four is found in every weather within a day, in both gauges
+/// alike.
+#[test]
+fn large_store_idle_outdoors_raises_no_leak_from_weather() {
+    let winter = builtin_text("methane-store-winter");
+    let draw = winter.find("[[draw]]").unwrap();
+    let sensors = winter.find("[sensors.pressure]").unwrap();
+    let idle = (winter[..draw].to_string() + &winter[sensors..])
+        .replace("duration = \"4d\"", "duration = \"14d\"")
+        .replace("pressure = \"160bar\"", "pressure = \"150bar\"")
+        .replace("mean = \"-8C\"", "mean = \"5C\"")
+        .replace("swing = \"6K\"", "swing = \"12K\"")
+        .replace("leak_mode = \"in_use\"", "leak_mode = \"standby\"")
+        .replace(
+            "name = \"methane-store-winter\"",
+            "name = \"methane-store-idle\"",
+        );
+    let n = 40;
+    let runs = population(&idle, n, 9000);
+    let alarms: u64 = runs.iter().map(|r| r.0).sum();
+    eprintln!(
+        "4 m³ store idle outdoors, {n} weathers of 14 days: {alarms} false alarms; pooled coverage {:.1} %",
+        runs.iter().map(|r| r.2).sum::<f64>() / n as f64 * 100.0
+    );
+    assert_eq!(alarms, 0);
+
+    let leak = "[[leak]]\nstart = \"4d\"\nloss_per_day = 0.01\n\n";
+    let leaking = idle
+        .replacen(
+            "[sensors.pressure]",
+            &format!("{leak}[sensors.pressure]"),
+            1,
+        )
+        .replace("duration = \"14d\"", "duration = \"8d\"");
+    let runs = population(&leaking, n, 9000);
+    let mut delays: Vec<f64> = runs
+        .iter()
+        .filter_map(|r| r.1)
+        .map(|s| s / 3600.0)
+        .collect();
+    delays.sort_by(f64::total_cmp);
+    eprintln!(
+        "1 %/day from day four: found in {} of {n}; delay h: median {:.1}, max {:.1}",
+        delays.len(),
+        delays.get(delays.len() / 2).copied().unwrap_or(f64::NAN),
+        delays.last().copied().unwrap_or(f64::NAN)
+    );
+    assert_eq!(runs.iter().map(|r| r.0).sum::<u64>(), 0);
+    assert_eq!(delays.len() as u64, n);
+    assert!(delays.iter().all(|&h| h < 24.0), "{delays:?}");
+
+    let sc = Scenario::from_toml(&leaking)
+        .unwrap()
+        .with(None, Some(9001));
+    let a = run_with(&sc, BackendKind::Fixed);
+    let b = run_with(&sc, BackendKind::Float);
+    show(&a.summary);
+    // The leak events of both gauges are the same. (`not_settled` from the
+    // gas–sensor term flickers at its threshold in this weather and the two
+    // paths differ there by a block at a few edges: 41 of 43 events equal.)
+    let leak =
+        |s: &Summary| -> Vec<_> { events(s).into_iter().filter(|e| e.1 == "leak").collect() };
+    assert_eq!(leak(&a.summary), leak(&b.summary));
+    assert!(a.summary.leak_detected_after_s.is_some());
+}
+
 /// A pressure transmitter and a temperature sensor failing by ramps (no
 /// leak): the slow pressure ramp (−6 bar over 12 h from 30 h) looks like a
 /// leak and the gauge says so — a raise the ramp justifies, not a leak
