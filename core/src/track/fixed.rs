@@ -367,13 +367,10 @@ pub struct Tracker<M> {
     /// lag uncertainty; below 2^16 for any accepted one).
     lag_q16: u64,
     /// A vessel slower than [`VESSEL_LAG_FROM_MS`] (see super, "Weather"):
-    /// the gas temperature followed from the sensor's (Q23), the filter's
-    /// gain per block at full content (Q16), the time constant τ_v (ms; 0
-    /// for a quicker vessel), and the hour's sum of the content the
+    /// the gas temperature followed from the sensor's (Q23; 0: none yet, no
+    /// valid estimate is at 0 K) and the hour's sum of the content the
     /// sensor's lead on the gas hides (Q28).
-    t_gas: Option<i64>,
-    gas_gain_q16: u64,
-    vessel_ms: u64,
+    t_gas: i64,
     hour_lead: i64,
     day_len: usize,
     learned24: Option<i64>,
@@ -469,9 +466,6 @@ impl<M: CompressibilityFx> Tracker<M> {
             ((d.max(0) as u64).saturating_mul(super::DRAW_MARGIN * u_scale) >> 16)
                 .min(i64::MAX as u64) as i64
         });
-        // A vessel slower than VESSEL_LAG_FROM_MS (see super, "Weather").
-        let tau = cfg.settle_time_constant.0.min(1 << 40);
-        let slow = tau > VESSEL_LAG_FROM_MS;
         Ok(Tracker {
             unc,
             alarms: Alarms::new(cfg.debounce),
@@ -516,9 +510,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 .0)
                 << 16)
                 / (HOUR_MS * (DAY_HOURS as u64 - 1)),
-            t_gas: None,
-            gas_gain_q16: if slow { (cfg.block.0 << 16) / tau } else { 0 },
-            vessel_ms: if slow { tau } else { 0 },
+            t_gas: 0,
             hour_lead: 0,
             day_len: 0,
             learned24: None,
@@ -736,7 +728,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.block_n = 0;
             self.ring_len = 0;
             self.t_len = 0;
-            self.t_gas = None;
+            self.t_gas = 0;
             self.rate = None;
             self.set_tte(Err(NoTimeToEmpty::Learning));
             self.reset_leak();
@@ -887,17 +879,21 @@ impl<M: CompressibilityFx> Tracker<M> {
             let t = fx::shr_round_i64(self.t_smooth, 16 + 16 - QT_MEAN);
             *last = t.clamp(0, u32::MAX as i64) as u32;
         }
-        if self.gas_gain_q16 > 0 {
+        // block/τ_v (Q16) for a slow vessel.
+        if let Some(gain_full) = (self.cfg.block.0.min(1 << 40) << 16).checked_div(self.vessel_ms())
+        {
             // The gas follows the sensor's temperature through its time
             // constant τ_v·F (first order, one step a block; the gas's heat
             // capacity goes with its amount).
             let t = self.t_ring.last().copied().unwrap_or(0) as i64;
             let f = (mean as u64).clamp(1, 1 << Q);
-            let gain = ((self.gas_gain_q16 << Q) / f).min(1 << 16) as i64;
-            self.t_gas = Some(match self.t_gas {
-                None => t,
-                Some(g) => g + fx::shr_round_i64((t - g) * gain, 16),
-            });
+            let gain = ((gain_full.min(1 << 16) << Q) / f).min(1 << 16) as i64;
+            let g = self.t_gas;
+            self.t_gas = if g == 0 {
+                t
+            } else {
+                g + fx::shr_round_i64((t - g) * gain, 16)
+            };
         }
         self.ring_len = (self.ring_len + 1).min(RATE_WINDOW);
         self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
@@ -1140,6 +1136,13 @@ impl<M: CompressibilityFx> Tracker<M> {
             || ((mean as u64) << (32 - Q)) <= self.cfg.reserve_fraction.to_bits()
     }
 
+    /// The gas–wall time constant τ_v, ms, of a vessel slower than
+    /// [`VESSEL_LAG_FROM_MS`] (see super, "Weather"); 0 for a quicker one.
+    fn vessel_ms(&self) -> u64 {
+        let tau = self.cfg.settle_time_constant.0.min(1 << 40);
+        if tau > VESSEL_LAG_FROM_MS { tau } else { 0 }
+    }
+
     /// Leak detection: hourly means into the two-day ring.
     fn leak_block(&mut self, end: Instant, mean: u32, content: &Content) {
         if self.leak_held(end, mean) {
@@ -1147,7 +1150,8 @@ impl<M: CompressibilityFx> Tracker<M> {
             return;
         }
         self.hour_sum += mean as u64;
-        if let Some(g) = self.t_gas {
+        if self.t_gas > 0 {
+            let g = self.t_gas;
             // The content at the gas's temperature less the content at the
             // sensor's, at the same pressure (Q28 of the rated content).
             let tg = fx::Temperature::from_bits(
@@ -1177,12 +1181,13 @@ impl<M: CompressibilityFx> Tracker<M> {
         if let Some(last) = self.day_ring.last_mut() {
             *last = hour;
         }
+        let slow = self.vessel_ms() > 0;
         self.day_t.rotate_left(1);
         if let Some(last) = self.day_t.last_mut() {
             // Q23 → Q7, rounded. For a slow vessel the hour's mean content
             // the sensor's lead hides instead, Q19 offset by LEAD_BIAS
             // (±6.25 % of the rated content, held there).
-            *last = if self.vessel_ms > 0 {
+            *last = if slow {
                 (fx::shr_round_i64(lead, Q - LEAD_Q) + LEAD_BIAS).clamp(0, u16::MAX as i64) as u16
             } else {
                 let t = self.t_ring.last().copied().unwrap_or(0);
@@ -1236,7 +1241,8 @@ impl<M: CompressibilityFx> Tracker<M> {
         let times = |x: u64, q16: u64| (x.saturating_mul(q16) >> 16).min(i64::MAX as u64 >> 5);
         let t = |i: usize| self.day_t.get(i).copied().unwrap_or(0) as i64;
         let mut loss24 = loss24;
-        let margin24 = if self.vessel_ms > 0 {
+        let vessel_ms = self.vessel_ms();
+        let margin24 = if vessel_ms > 0 {
             // A slow vessel (see super, "Weather"): the loss corrected by the
             // change between the sides of the content the sensor's lead on
             // the gas hides (Δc, on the day sum); the margin
@@ -1247,7 +1253,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             loss24 = loss24.saturating_add(dc);
             // F (Q16, at most 1) and τ = τ_v·F, ms.
             let f = ((older.max(0) as u64 / DAY_HOURS as u64) >> (Q - 16)).min(1 << 16);
-            let tau = (self.vessel_ms.saturating_mul(f) >> 16).max(1);
+            let tau = (vessel_ms.saturating_mul(f) >> 16).max(1);
             // 3·u_τ/τ from 3·u_τ/23 h (`lag_q16`), Q16.
             let lag = (self.lag_q16 * HOUR_MS * (DAY_HOURS as u64 - 1)) / tau;
             let factor = ((LAG_MARGIN * VESSEL_LAG_SHARE_Q8) << 8).saturating_add(lag);
