@@ -887,7 +887,8 @@ impl<M: CompressibilityFx> Tracker<M> {
             // capacity goes with its amount).
             let t = self.t_ring.last().copied().unwrap_or(0) as i64;
             let f = (mean as u64).clamp(1, 1 << Q);
-            let gain = ((gain_full.min(1 << 16) << Q) / f).min(1 << 16) as i64;
+            let gain =
+                ((gain_full.min(1 << 16) << Q).checked_div(f).unwrap_or(0)).min(1 << 16) as i64;
             let g = self.t_gas;
             self.t_gas = if g == 0 {
                 t
@@ -1255,7 +1256,9 @@ impl<M: CompressibilityFx> Tracker<M> {
             let f = ((older.max(0) as u64 / DAY_HOURS as u64) >> (Q - 16)).min(1 << 16);
             let tau = (vessel_ms.saturating_mul(f) >> 16).max(1);
             // 3·u_τ/τ from 3·u_τ/23 h (`lag_q16`), Q16.
-            let lag = (self.lag_q16 * HOUR_MS * (DAY_HOURS as u64 - 1)) / tau;
+            let lag = (self.lag_q16 * HOUR_MS * (DAY_HOURS as u64 - 1))
+                .checked_div(tau)
+                .unwrap_or(0);
             let factor = ((LAG_MARGIN * VESSEL_LAG_SHARE_Q8) << 8).saturating_add(lag);
             times(dc.unsigned_abs(), factor) as i64
         } else {
@@ -1266,7 +1269,9 @@ impl<M: CompressibilityFx> Tracker<M> {
             let mut ds = ((t(w.newer + last) - t(w.newer)) - (t(w.older + last) - t(w.older)))
                 .unsigned_abs();
             if k < DAY_HOURS {
-                ds = ds * (DAY_HOURS as u64 - 1) / (k as u64 - 1);
+                ds = (ds * (DAY_HOURS as u64 - 1))
+                    .checked_div(k.saturating_sub(1) as u64)
+                    .unwrap_or(0);
             }
             // |Δs|/T in Q32 (one 64-bit division, |Δs| < 2^22), older
             // narrowed by 8 bits before it multiplies (< 2^61).
