@@ -137,8 +137,29 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
             } else {
                 0
             };
+        let g = Self::place(slot, identity, auth, flash, layout, mapper, injection, boot)?;
+        let blob = g.service.config().value.blob;
+        let _ = g.rebuild(&blob);
+        Ok(g)
+    }
+
+    /// [`Gauge::new_in`] without the pipeline: its own step, so that the
+    /// gauge's value built on the stack on the way into `slot` is gone
+    /// before the pipeline is prepared (the two frames do not add up).
+    #[inline(never)]
+    #[allow(clippy::too_many_arguments)]
+    fn place(
+        slot: &mut Option<Gauge<F, M>>,
+        identity: Identity,
+        auth: Authenticator,
+        flash: F,
+        layout: Layout,
+        mapper: M,
+        injection: bool,
+        boot: BootReport,
+    ) -> Result<&mut Gauge<F, M>, Error> {
         let service = Service::new(identity, auth, flash, layout)?;
-        let g = slot.insert(Gauge {
+        Ok(slot.insert(Gauge {
             service,
             mapper,
             pipeline: None,
@@ -159,10 +180,7 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
             loop_current: LoopScalars::UNCONFIGURED.failure.current(),
             #[cfg(feature = "modbus")]
             snapshot: crate::field::modbus::map::Snapshot::new(),
-        });
-        let blob = g.service.config().value.blob;
-        let _ = g.rebuild(&blob);
-        Ok(g)
+        }))
     }
 
     /// The start-up sequence of every device (the firmware's and the host's
@@ -415,20 +433,27 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         let LoadStep::Complete(blob) = step else {
             return Ok(());
         };
-        // The blob must be a configuration this gauge can run before it is
-        // committed: format, version, checksum, every array and stage.
-        {
-            let (flash, layout) = self.service.flash_and_layout();
-            let bytes = self
-                .mapper
-                .map(flash, layout, &blob)
-                .ok_or(Refusal::BlobTooLarge)?;
-            Prepared::new(bytes).map_err(config_refusal)?;
-        }
+        self.check_blob(&blob)?;
         let zero = self.service.zero();
         self.service.commit(blob, zero).map_err(refusal)?;
         // A new configuration starts its tracking afresh.
         self.rebuild(&blob).map_err(refusal)
+    }
+
+    /// The blob must be a configuration this gauge can run before it is
+    /// committed: format, version, checksum, every array and stage. Its
+    /// own step, so that the prepared value it decodes is off the stack
+    /// before the pipeline is prepared.
+    #[cfg(feature = "signed-config")]
+    #[inline(never)]
+    fn check_blob(&mut self, blob: &BlobRef) -> Result<(), Refusal> {
+        let (flash, layout) = self.service.flash_and_layout();
+        let bytes = self
+            .mapper
+            .map(flash, layout, blob)
+            .ok_or(Refusal::BlobTooLarge)?;
+        Prepared::new(bytes).map_err(config_refusal)?;
+        Ok(())
     }
 
     #[cfg(feature = "signed-config")]
