@@ -15,6 +15,7 @@ use embedded_io::{Read, ReadReady, Write};
 use isochor_core::app::{Gauge, GaugeIo, Mapper};
 use isochor_core::auth::NonceSource;
 use isochor_core::link::{BootReport, NONCE_LEN, ResetReason};
+use isochor_core::prepared::Lasting;
 use isochor_core::store::{BlobRef, Layout};
 
 use crate::board::{Board, Clock, FieldSerial, Parts, SampleSource, System, Watchdog};
@@ -35,14 +36,11 @@ pub type BoardGauge<B> = Gauge<<B as Board>::Flash, BoardMap<B>>;
 pub struct BoardMap<B>(PhantomData<fn() -> B>);
 
 impl<B: Board> Mapper<B::Flash> for BoardMap<B> {
-    type Bytes = &'static [u8];
-    fn map(
-        &mut self,
-        _flash: &mut B::Flash,
-        layout: &Layout,
-        blob: &BlobRef,
-    ) -> Option<&'static [u8]> {
-        B::map(layout.blobs.slot_offset(blob.slot), blob.len)
+    /// In place and for good: the stages' and the gas table's views are
+    /// derived once per configuration.
+    type Bytes = Lasting;
+    fn map(&mut self, _flash: &mut B::Flash, layout: &Layout, blob: &BlobRef) -> Option<Lasting> {
+        B::map(layout.blobs.slot_offset(blob.slot), blob.len).map(Lasting)
     }
 }
 

@@ -7,10 +7,12 @@ use super::Zero;
 use super::untracked::fixed::Tracker;
 use crate::content::fixed::Estimator;
 use crate::error::DeviceSetting;
-use crate::prepared::{Prepared, PreparedModel};
+use crate::prepared::{Prepared, PreparedBytes, PreparedModel};
 use crate::probe::{self, Stage};
 use crate::sensor::channel::RawSample;
-use crate::sensor::channel::fixed::{PressureChannel, PressureValue, TemperatureChannel};
+use crate::sensor::channel::fixed::{
+    PressureChannel, PressureStage, PressureValue, TemperatureChannel, TemperatureStage,
+};
 use crate::sensor::plausibility::PlausibilityState;
 use crate::sensor::{TemperatureReading, VALUE_INVALID};
 use crate::time::Instant;
@@ -46,9 +48,12 @@ pub struct Pipeline<B> {
     tracker: Tracker<PreparedModel<B>>,
     plausibility: [PlausibilityState<i64>; 2],
     last_valid: Option<Readings>,
+    /// Both stages' views over bytes that last
+    /// ([`PreparedBytes::lasting`]), derived once per configuration.
+    stages: Option<(TemperatureStage<'static>, PressureStage<'static>)>,
 }
 
-impl<B: AsRef<[u8]> + Clone> Pipeline<B> {
+impl<B: PreparedBytes + Clone> Pipeline<B> {
     /// The pipeline of a (validated) prepared configuration with the zero
     /// offsets in force. No division happens here: the configuration was
     /// prepared on a host.
@@ -66,7 +71,9 @@ impl<B: AsRef<[u8]> + Clone> Pipeline<B> {
         let model = PreparedModel::new(&prepared)?;
         let est = Estimator::from_parts(prepared.scalars().estimator, model)?;
         let track = prepared.scalars().track;
+        let stages = prepared.lasting_stages();
         *slot = Some(Pipeline {
+            stages,
             temperature: TemperatureChannel {
                 offset: zero.temperature,
             },
@@ -124,14 +131,18 @@ impl<B: AsRef<[u8]>> Pipeline<B> {
     /// Steps 1–4: the codes to corrected, checked readings.
     pub fn convert(&mut self, at: Instant, raw: &RawSample) -> Readings {
         probe::enter(Stage::Sensor);
+        let fresh;
+        let (ts, ps) = match &self.stages {
+            Some((t, p)) => (t, p),
+            None => {
+                fresh = (self.prepared.temperature(), self.prepared.pressure());
+                (&fresh.0, &fresh.1)
+            }
+        };
         // 1. temperature
-        let temperature = self
-            .temperature
-            .read(&self.prepared.temperature(), raw.temperature);
+        let temperature = self.temperature.read(ts, raw.temperature);
         // 2. compensation and 3. pressure
-        let mut pressure =
-            self.pressure
-                .read(&self.prepared.pressure(), at, raw.pressure, &temperature);
+        let mut pressure = self.pressure.read(ps, at, raw.pressure, &temperature);
         // 4. plausibility
         let mut temperature = temperature;
         if let Some((pc, tc)) = &self.prepared.scalars().plausibility {

@@ -55,7 +55,7 @@ impl NonceSource for IoNonces<'_> {
 pub trait Mapper<F> {
     /// The bytes handle (a `&'static [u8]` on a device; shared and cheap to
     /// clone).
-    type Bytes: AsRef<[u8]> + Clone;
+    type Bytes: crate::prepared::PreparedBytes + Clone;
     /// The bytes of the (checked) blob `blob` of `layout` in `flash`;
     /// `None` when they cannot be had (a blob larger than the RAM kept for
     /// it).

@@ -253,6 +253,44 @@ pub struct Scalars {
     pub field: FieldScalars,
 }
 
+/// The bytes a prepared configuration is read from: a device's flash read
+/// in place ([`Lasting`]), a buffer on a host (`&[u8]`, shared blobs).
+///
+/// Each view of an array in the bytes (a curve's pieces, a status map, the
+/// gas table's knots) is a checked cast whose length check divides by the
+/// element's size: a library division on a core without a divider, ten of
+/// them per sample when the views are derived on every sample. Bytes that
+/// last as long as the program ([`PreparedBytes::lasting`]) let the
+/// pipeline and its model derive their views once per configuration and
+/// keep them.
+pub trait PreparedBytes: AsRef<[u8]> {
+    /// The same bytes for as long as the program runs, where they are so
+    /// (`None`: the views are derived on every use).
+    fn lasting(&self) -> Option<&'static [u8]> {
+        None
+    }
+}
+
+impl PreparedBytes for &[u8] {}
+
+/// Bytes that last as long as the program: a prepared configuration in a
+/// device's flash, read in place (the views of its stages and of its gas
+/// table are derived once per configuration; see [`PreparedBytes`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Lasting(pub &'static [u8]);
+
+impl AsRef<[u8]> for Lasting {
+    fn as_ref(&self) -> &[u8] {
+        self.0
+    }
+}
+
+impl PreparedBytes for Lasting {
+    fn lasting(&self) -> Option<&'static [u8]> {
+        Some(self.0)
+    }
+}
+
 /// A prepared configuration over its bytes `B` (see the [module](self)
 /// documentation): validated once, then read in place.
 #[derive(Clone, Debug)]
@@ -342,27 +380,44 @@ impl<B: AsRef<[u8]>> Prepared<B> {
 
     /// The curve of `desc`.
     pub fn curve(&self, desc: &CurveDesc) -> Curve<'_> {
-        Curve {
-            pieces: self.array::<Piece>(desc.pieces),
-            end: desc.end,
-            extra: desc.extra,
-        }
+        curve_of(self.bytes.as_ref(), self.arrays, desc)
     }
 
     /// The temperature stage.
     pub fn temperature(&self) -> TemperatureStage<'_> {
+        self.temperature_of(self.bytes.as_ref())
+    }
+
+    /// The pressure stage.
+    pub fn pressure(&self) -> PressureStage<'_> {
+        self.pressure_of(self.bytes.as_ref())
+    }
+
+    /// Both stages over bytes that last ([`PreparedBytes::lasting`]):
+    /// derived once per configuration, kept by the pipeline.
+    pub fn lasting_stages(&self) -> Option<(TemperatureStage<'static>, PressureStage<'static>)>
+    where
+        B: PreparedBytes,
+    {
+        let b = self.bytes.lasting()?;
+        Some((self.temperature_of(b), self.pressure_of(b)))
+    }
+
+    /// The temperature stage over `b` (this configuration's bytes).
+    fn temperature_of<'a>(&self, b: &'a [u8]) -> TemperatureStage<'a> {
         let t = &self.scalars.temperature;
         TemperatureStage {
             full: t.full,
             lo: t.lo,
             hi: t.hi,
-            status: StatusMap(self.array::<Step>(t.status)),
-            curve: self.curve(&t.curve),
+            status: StatusMap(array(b, self.arrays, t.status).unwrap_or(&[])),
+            curve: curve_of(b, self.arrays, &t.curve),
         }
     }
 
-    /// The pressure stage.
-    pub fn pressure(&self) -> PressureStage<'_> {
+    /// The pressure stage over `b` (this configuration's bytes).
+    fn pressure_of<'a>(&self, b: &'a [u8]) -> PressureStage<'a> {
+        let at = self.arrays;
         let front = match &self.scalars.pressure {
             PressureScalars::Bridge {
                 bits,
@@ -382,12 +437,12 @@ impl<B: AsRef<[u8]>> Prepared<B> {
                 rails: *rails,
                 signal_frac: *signal_frac,
                 code_shift: *code_shift,
-                zero: self.curve(zero),
-                inv_span: self.curve(inv_span),
+                zero: curve_of(b, at, zero),
+                inv_span: curve_of(b, at, inv_span),
                 inv_frac: *inv_frac,
                 reference: *reference,
-                status: StatusMap(self.array::<Step>(*status)),
-                curve: self.curve(curve),
+                status: StatusMap(array(b, at, *status).unwrap_or(&[])),
+                curve: curve_of(b, at, curve),
             }),
             PressureScalars::Loop {
                 top,
@@ -398,8 +453,8 @@ impl<B: AsRef<[u8]>> Prepared<B> {
             } => PressureFront::Loop(LoopStage {
                 top: *top,
                 bands: *bands,
-                status: StatusMap(self.array::<Step>(*status)),
-                curve: self.curve(curve),
+                status: StatusMap(array(b, at, *status).unwrap_or(&[])),
+                curve: curve_of(b, at, curve),
                 persistence: *persistence,
             }),
         };
@@ -491,6 +546,15 @@ impl<B: AsRef<[u8]>> Prepared<B> {
         s.track.validate()?;
         s.field.validate()?;
         Ok(())
+    }
+}
+
+/// The curve of `desc` in the arrays starting at `arrays` in `b`.
+fn curve_of<'a>(b: &'a [u8], arrays: usize, desc: &CurveDesc) -> Curve<'a> {
+    Curve {
+        pieces: array(b, arrays, desc.pieces).unwrap_or(&[]),
+        end: desc.end,
+        extra: desc.extra,
     }
 }
 

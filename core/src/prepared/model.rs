@@ -1,7 +1,7 @@
 //! The gas model of a prepared configuration: its table read in place, one
 //! prepared span per axis, and the settled-pressure curve of the setup.
 
-use super::{ModelScalars, Prepared, array};
+use super::{ModelScalars, Prepared, PreparedBytes, array};
 use crate::curve::{Curve, Piece};
 use crate::model::device::fixed::{self, Axes};
 use crate::model::device::{Boundary, Table};
@@ -40,35 +40,65 @@ pub struct PreparedModel<B> {
     arrays: usize,
     scalars: ModelScalars,
     axes: Axes,
+    /// The table's and the settled-pressure curve's views over bytes that
+    /// last ([`PreparedBytes::lasting`]), derived once.
+    lasting: Option<(Table<'static>, Option<Curve<'static>>)>,
 }
 
-impl<B: AsRef<[u8]> + Clone> PreparedModel<B> {
+impl<B: PreparedBytes + Clone> PreparedModel<B> {
     /// The model of a (validated) prepared configuration.
     pub fn new(p: &Prepared<B>) -> Result<PreparedModel<B>, Error> {
         let axes = Axes::prepare(&table(p))?;
+        let scalars = p.scalars.model;
+        let lasting = p.bytes.lasting().map(|b| {
+            (
+                view(b, p.arrays, &scalars),
+                settle_of(b, p.arrays, &scalars),
+            )
+        });
         Ok(PreparedModel {
             bytes: p.bytes.clone(),
             arrays: p.arrays,
-            scalars: p.scalars.model,
+            scalars,
             axes,
+            lasting,
         })
     }
+}
+
+/// The settled-pressure curve of `m` in the arrays at `arrays` in `b`.
+fn settle_of<'a>(b: &'a [u8], arrays: usize, m: &ModelScalars) -> Option<Curve<'a>> {
+    let d = m.settle?;
+    Some(Curve {
+        pieces: array::<Piece>(b, arrays, d.pieces).unwrap_or(&[]),
+        end: d.end,
+        extra: d.extra,
+    })
 }
 
 impl<B: AsRef<[u8]>> PreparedModel<B> {
     /// The table, read in place.
     pub fn table(&self) -> Table<'_> {
-        view(self.bytes.as_ref(), self.arrays, &self.scalars)
+        match &self.lasting {
+            Some((t, _)) => *t,
+            None => view(self.bytes.as_ref(), self.arrays, &self.scalars),
+        }
+    }
+
+    /// `f` of the table (the kept view, or one derived for the call).
+    fn with_table<R>(&self, f: impl FnOnce(&Table<'_>) -> R) -> R {
+        match &self.lasting {
+            Some((t, _)) => f(t),
+            None => f(&view(self.bytes.as_ref(), self.arrays, &self.scalars)),
+        }
     }
 
     /// The settled-pressure curve, if the setup has one.
     pub fn settle_curve(&self) -> Option<Curve<'_>> {
-        let d = self.scalars.settle?;
-        Some(Curve {
-            pieces: array::<Piece>(self.bytes.as_ref(), self.arrays, d.pieces).unwrap_or(&[]),
-            end: d.end,
-            extra: d.extra,
-        })
+        match &self.lasting {
+            Some((_, c)) => *c,
+            None => settle_of(self.bytes.as_ref(), self.arrays, &self.scalars),
+        }
     }
 }
 
@@ -77,10 +107,11 @@ impl<B: AsRef<[u8]>> CompressibilityFx for PreparedModel<B> {
         self.scalars.gas
     }
     fn z_fx(&self, p: fx::Pressure, t: fx::Temperature) -> ZPointFx {
-        fixed::evaluate(&self.table(), &self.axes, p.to_bits(), t.to_bits())
+        self.with_table(|tb| fixed::evaluate(tb, &self.axes, p.to_bits(), t.to_bits()))
     }
     fn z_value_fx(&self, p: fx::Pressure, t: fx::Temperature) -> (fx::Compressibility, Status) {
-        let (z, flags) = fixed::evaluate_z(&self.table(), &self.axes, p.to_bits(), t.to_bits());
+        let (z, flags) =
+            self.with_table(|tb| fixed::evaluate_z(tb, &self.axes, p.to_bits(), t.to_bits()));
         (fx::Compressibility::from_bits(z), flags)
     }
     fn settle_fx(&self, tau: u32) -> Option<u32> {
@@ -96,6 +127,9 @@ impl<B: AsRef<[u8]>> CompressibilityFx for PreparedModel<B> {
         fx::Compressibility::from_bits(self.scalars.z_floor)
     }
     fn pressure_knots_fx(&self) -> &[u32] {
+        if let Some((t, _)) = &self.lasting {
+            return t.pressure_knots;
+        }
         array::<u32>(
             self.bytes.as_ref(),
             self.arrays,
@@ -104,9 +138,9 @@ impl<B: AsRef<[u8]>> CompressibilityFx for PreparedModel<B> {
         .unwrap_or(&[])
     }
     fn isotherm_fx(&self, t: fx::Temperature) -> IsothermFx {
-        fixed::isotherm(&self.table(), &self.axes, t.to_bits())
+        self.with_table(|tb| fixed::isotherm(tb, &self.axes, t.to_bits()))
     }
     fn isotherm_z_fx(&self, iso: &IsothermFx, p: fx::Pressure) -> ZPointFx {
-        fixed::isotherm_z(&self.table(), &self.axes, iso, p.to_bits())
+        self.with_table(|tb| fixed::isotherm_z(tb, &self.axes, iso, p.to_bits()))
     }
 }

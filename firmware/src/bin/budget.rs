@@ -58,7 +58,7 @@ use cortex_m_semihosting::{debug, hprintln};
 use isochor_core::app::{Zero, fixed, float, telemetry};
 use isochor_core::link::{self, FromDevice, MAX_FRAME_LEN};
 use isochor_core::model::DeviceModel;
-use isochor_core::prepared::{Prepared, PreparedModel};
+use isochor_core::prepared::{Lasting, Prepared, PreparedModel};
 use isochor_core::probe::{self, Stage};
 use isochor_core::sensor::channel::RawSample;
 use isochor_core::time::Instant;
@@ -221,10 +221,10 @@ fn report(name: &str, (mean_x100, worst): (u64, u64)) {
 
 /// The fixed pipeline, in a static as the firmware keeps its gauge (so the
 /// stack measured is that of preparing it and of its samples).
-static mut FIXED: Option<fixed::Pipeline<&'static [u8]>> = None;
+static mut FIXED: Option<fixed::Pipeline<Lasting>> = None;
 
-fn prepared() -> Option<Prepared<&'static [u8]>> {
-    Prepared::new(&CONFIG.0)
+fn prepared() -> Option<Prepared<Lasting>> {
+    Prepared::new(Lasting(&CONFIG.0))
         .map_err(|e| hprintln!("configuration: {:?}", e))
         .ok()
 }

@@ -27,7 +27,7 @@ use embedded_io::Write;
 use isochor_core::app::telemetry;
 use isochor_core::content::fixed::Estimator;
 use isochor_core::link::{self, FromDevice, MAX_FRAME_LEN, ResetReason};
-use isochor_core::prepared::{Prepared, PreparedModel};
+use isochor_core::prepared::{Lasting, Prepared, PreparedModel};
 use isochor_core::sensor::VALUE_INVALID;
 use isochor_core::sensor::channel::fixed::{PressureChannel, TemperatureChannel};
 use isochor_core::time::Instant;
@@ -63,7 +63,10 @@ fn main() -> ! {
     let serial = &mut parts.serial;
     // A configuration that does not validate sends nothing: the committed
     // one is checked by the test `committed_firmware_configuration_is_current`.
-    if let Ok(prepared) = Prepared::new(&CONFIG.0[..])
+    // The configuration is read in place from flash (`Lasting`): the
+    // stages' views are derived once, not per sample.
+    if let Ok(prepared) = Prepared::new(Lasting(&CONFIG.0[..]))
+        && let Some((ts, ps)) = prepared.lasting_stages()
         && let Ok(model) = PreparedModel::new(&prepared)
         && let Ok(estimator) = Estimator::from_parts(prepared.scalars().estimator, model)
     {
@@ -72,8 +75,8 @@ fn main() -> ! {
         for i in 0..SAMPLES {
             let at = Instant(u64::from(i) * 1000);
             let raw = isochor_firmware::sweep::codes(i);
-            let t = temperature.read(&prepared.temperature(), raw.temperature);
-            let p = pressure.read(&prepared.pressure(), at, raw.pressure, &t);
+            let t = temperature.read(&ts, raw.temperature);
+            let p = pressure.read(&ps, at, raw.pressure, &t);
             let flags = p.status | t.status;
             let frame = if flags.intersects(VALUE_INVALID) {
                 telemetry::status_only(i, at.as_millis(), flags)

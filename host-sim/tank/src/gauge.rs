@@ -308,6 +308,9 @@ pub struct SharedBlob {
     len: usize,
 }
 
+/// Derives its views on every use (a host's division is cheap).
+impl isochor_core::prepared::PreparedBytes for SharedBlob {}
+
 impl SharedBlob {
     /// The bytes of `buf`.
     pub fn new(buf: &PreparedBuf) -> SharedBlob {
