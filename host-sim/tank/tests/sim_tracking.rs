@@ -159,6 +159,26 @@ fn dead_sensor_withdraws_the_content() {
     assert!(shown_before > 2000);
 }
 
+/// The leak delays of a population's runs that found the leak, hours,
+/// sorted; printed with `what` (how many, min, median, max).
+fn leak_delays(runs: &[(u64, Option<f64>, f64, u64)], what: &str) -> Vec<f64> {
+    let mut delays: Vec<f64> = runs
+        .iter()
+        .filter_map(|r| r.1)
+        .map(|s| s / 3600.0)
+        .collect();
+    delays.sort_by(f64::total_cmp);
+    eprintln!(
+        "{what}: found in {} of {}; delay h: min {:.1}, median {:.1}, max {:.1}",
+        delays.len(),
+        runs.len(),
+        delays.first().copied().unwrap_or(f64::NAN),
+        delays.get(delays.len() / 2).copied().unwrap_or(f64::NAN),
+        delays.last().copied().unwrap_or(f64::NAN)
+    );
+    delays
+}
+
 /// Runs `n` weathers (seeds from `seed0`) of a scenario text at 10 s
 /// samples; returns per run (false alarms, leak found after, coverage,
 /// judged samples).
@@ -234,19 +254,7 @@ fn weather_population_false_alarms_and_leak_delays() {
         ("without fronts", without, 48.0),
     ] {
         let runs = population(&text, n, 5000);
-        let mut delays: Vec<f64> = runs
-            .iter()
-            .filter_map(|r| r.1)
-            .map(|s| s / 3600.0)
-            .collect();
-        delays.sort_by(f64::total_cmp);
-        eprintln!(
-            "0.2 %/day from day four, {what}: found in {} of {n}; delay h: min {:.1}, median {:.1}, max {:.1}",
-            delays.len(),
-            delays.first().copied().unwrap_or(f64::NAN),
-            delays.get(delays.len() / 2).copied().unwrap_or(f64::NAN),
-            delays.last().copied().unwrap_or(f64::NAN)
-        );
+        let delays = leak_delays(&runs, &format!("0.2 %/day from day four, {what}"));
         assert_eq!(runs.iter().map(|r| r.0).sum::<u64>(), 0);
         assert_eq!(delays.len() as u64, n);
         assert!(delays.iter().all(|&h| h < limit_h), "{what}: {delays:?}");
@@ -295,19 +303,7 @@ fn leak_at_start_up_is_reported_sooner_the_stronger_it_is() {
             1,
         );
         let runs = population(&with, n, 7000);
-        let mut delays: Vec<f64> = runs
-            .iter()
-            .filter_map(|r| r.1)
-            .map(|s| s / 3600.0)
-            .collect();
-        delays.sort_by(f64::total_cmp);
-        eprintln!(
-            "{loss} per day from the start, sunny rack: found in {} of {n}; delay h: min {:.1}, median {:.1}, max {:.1}",
-            delays.len(),
-            delays.first().copied().unwrap_or(f64::NAN),
-            delays.get(delays.len() / 2).copied().unwrap_or(f64::NAN),
-            delays.last().copied().unwrap_or(f64::NAN)
-        );
+        let delays = leak_delays(&runs, &format!("{loss} per day from the start, sunny rack"));
         assert_eq!(runs.iter().map(|r| r.0).sum::<u64>(), 0);
         assert_eq!(delays.len() as u64, n);
         assert!(delays.iter().all(|&h| h < limit_h), "{loss}: {delays:?}");
@@ -391,18 +387,7 @@ fn large_store_idle_outdoors_raises_no_leak_from_weather() {
         )
         .replace("duration = \"14d\"", "duration = \"8d\"");
     let runs = population(&leaking, n, 9000);
-    let mut delays: Vec<f64> = runs
-        .iter()
-        .filter_map(|r| r.1)
-        .map(|s| s / 3600.0)
-        .collect();
-    delays.sort_by(f64::total_cmp);
-    eprintln!(
-        "1 %/day from day four: found in {} of {n}; delay h: median {:.1}, max {:.1}",
-        delays.len(),
-        delays.get(delays.len() / 2).copied().unwrap_or(f64::NAN),
-        delays.last().copied().unwrap_or(f64::NAN)
-    );
+    let delays = leak_delays(&runs, "1 %/day from day four");
     assert_eq!(runs.iter().map(|r| r.0).sum::<u64>(), 0);
     assert_eq!(delays.len() as u64, n);
     assert!(delays.iter().all(|&h| h < 24.0), "{delays:?}");
