@@ -93,6 +93,11 @@ pub struct Gauge<F, M: Mapper<F>> {
     loop_current: fx::Milliamps,
     #[cfg(feature = "modbus")]
     snapshot: crate::field::modbus::map::Snapshot,
+    /// A configuration committed by the command being handled, whose
+    /// pipeline is prepared once the command's handler has returned (its
+    /// frames are then off the stack) and before the reply is sent.
+    #[cfg(feature = "signed-config")]
+    rebuild_due: Option<BlobRef>,
 }
 
 impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
@@ -180,6 +185,8 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
             loop_current: LoopScalars::UNCONFIGURED.failure.current(),
             #[cfg(feature = "modbus")]
             snapshot: crate::field::modbus::map::Snapshot::new(),
+            #[cfg(feature = "signed-config")]
+            rebuild_due: None,
         }))
     }
 
@@ -303,7 +310,8 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
 
     #[inline(never)]
     fn on_message(&mut self, msg: &ToDevice, io: &mut dyn GaugeIo) {
-        let (tag, outcome) = match msg {
+        #[allow(unused_mut)]
+        let (tag, mut outcome) = match msg {
             ToDevice::Ping(p) => (p.tag, Outcome::Pong { token: p.token }),
             ToDevice::GetIdentity(g) => (g.tag, Outcome::Identity(self.service.identity().clone())),
             #[cfg(not(feature = "signed-config"))]
@@ -349,6 +357,14 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
                 )
             }
         };
+        // A new configuration starts its tracking afresh; a pipeline that
+        // cannot be prepared refuses the command that committed it.
+        #[cfg(feature = "signed-config")]
+        if let Some(blob) = self.rebuild_due.take()
+            && let Err(e) = self.rebuild(&blob)
+        {
+            outcome = Outcome::Refused(refusal(e));
+        }
         send(io, &FromDevice::Reply(Reply { tag, outcome }));
         self.flush(io);
     }
@@ -436,8 +452,9 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         self.check_blob(&blob)?;
         let zero = self.service.zero();
         self.service.commit(blob, zero).map_err(refusal)?;
-        // A new configuration starts its tracking afresh.
-        self.rebuild(&blob).map_err(refusal)
+        // Prepared by `on_message` once this handler's frames are gone.
+        self.rebuild_due = Some(blob);
+        Ok(())
     }
 
     /// The blob must be a configuration this gauge can run before it is
