@@ -550,7 +550,7 @@ impl<B: AsRef<[u8]>> Prepared<B> {
 }
 
 /// The curve of `desc` in the arrays starting at `arrays` in `b`.
-fn curve_of<'a>(b: &'a [u8], arrays: usize, desc: &CurveDesc) -> Curve<'a> {
+pub(super) fn curve_of<'a>(b: &'a [u8], arrays: usize, desc: &CurveDesc) -> Curve<'a> {
     Curve {
         pieces: array(b, arrays, desc.pieces).unwrap_or(&[]),
         end: desc.end,

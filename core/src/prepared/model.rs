@@ -1,8 +1,8 @@
 //! The gas model of a prepared configuration: its table read in place, one
 //! prepared span per axis, and the settled-pressure curve of the setup.
 
-use super::{ModelScalars, Prepared, PreparedBytes, array};
-use crate::curve::{Curve, Piece};
+use super::{ModelScalars, Prepared, PreparedBytes, array, curve_of};
+use crate::curve::Curve;
 use crate::model::device::fixed::{self, Axes};
 use crate::model::device::{Boundary, Table};
 use crate::model::{CompressibilityFx, IsothermFx, ZPointFx};
@@ -68,12 +68,7 @@ impl<B: PreparedBytes + Clone> PreparedModel<B> {
 
 /// The settled-pressure curve of `m` in the arrays at `arrays` in `b`.
 fn settle_of<'a>(b: &'a [u8], arrays: usize, m: &ModelScalars) -> Option<Curve<'a>> {
-    let d = m.settle?;
-    Some(Curve {
-        pieces: array::<Piece>(b, arrays, d.pieces).unwrap_or(&[]),
-        end: d.end,
-        extra: d.extra,
-    })
+    Some(curve_of(b, arrays, &m.settle?))
 }
 
 impl<B: AsRef<[u8]>> PreparedModel<B> {
