@@ -915,9 +915,16 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.gas_transient = transient;
             probe::enter(Stage::Track);
         }
+        // Started from the last block's answer (the temperature moves
+        // little between blocks): one or two Newton steps instead of up to
+        // five.
         self.rated_pressure_now_pa = Some(
             self.est
-                .pressure_at(fx::Fraction::ONE, content.temperature_k)
+                .pressure_at_from(
+                    fx::Fraction::ONE,
+                    content.temperature_k,
+                    self.rated_pressure_now_pa,
+                )
                 .0,
         );
     }

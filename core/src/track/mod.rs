@@ -190,6 +190,8 @@ pub mod float;
 
 /// Block means in the rate window.
 pub const RATE_WINDOW: usize = 32;
+// The rate budget's table of window spreads covers every window length.
+const _: () = assert!(RATE_WINDOW < crate::uncertainty::fixed::SPREAD_TABLE_LEN);
 /// Fewest blocks for a rate (three degrees of freedom for its standard error).
 pub const RATE_MIN_BLOCKS: usize = 5;
 /// Block temperatures kept for the temperature curvature of the rate

@@ -525,7 +525,10 @@ impl EvaluatorFx {
         let r = (rho as u64) / (w.blocks_per_hour.max(1) as u64);
         let lead = (r as u128 * (n.saturating_sub(1)) as u128) >> 1;
         let u_end0 = sat64(fx::saturating_mul_u128(u as u128, (1u128 << QR) + lead) >> QR);
-        let spread_n = isqrt(((n * n).saturating_sub(1) << 32) / 12) as u128;
+        let spread_n = SPREAD_Q16
+            .get(n as usize)
+            .copied()
+            .unwrap_or_else(|| spread_q16(n)) as u128;
         let u_end1 = sat64(fx::saturating_mul_u128(fx::mul_u64_wide(u, r) >> QR, spread_n) >> 16);
         RateBudgetFx {
             rate_per_h: hypot(&[u, lag, gain, offset, fs_rate, reading, capacity, model]),
@@ -575,8 +578,35 @@ fn hypot(v: &[u64]) -> u64 {
     (isqrt(sum) as u64) << s
 }
 
+/// √((n² − 1)/12) in Q16, rounded down: the spread of a fit's block
+/// positions about their centre (see [`EvaluatorFx::rate`]).
+const fn spread_q16(n: u64) -> u32 {
+    isqrt((n.saturating_mul(n).saturating_sub(1) << 32) / 12)
+}
+
+/// Window lengths [`SPREAD_Q16`] holds: 0 to 32 blocks (the tracker's rate
+/// window; longer windows work the value out).
+pub(crate) const SPREAD_TABLE_LEN: usize = 33;
+
+/// [`spread_q16`] for every window length up to the rate window, worked out
+/// when the crate is built (a block's rate budget then takes no division
+/// and no square root for it).
+#[allow(
+    clippy::indexing_slicing,
+    reason = "n < t.len() by the loop's condition, and a constant: an index out of range would fail the build, not the device"
+)]
+const SPREAD_Q16: [u32; SPREAD_TABLE_LEN] = {
+    let mut t = [0u32; SPREAD_TABLE_LEN];
+    let mut n = 0;
+    while n < t.len() {
+        t[n] = spread_q16(n as u64);
+        n += 1;
+    }
+    t
+};
+
 /// ⌊√v⌋ of a 64-bit value, bit by bit (32 rounds of shifts and compares).
-pub fn isqrt(v: u64) -> u32 {
+pub const fn isqrt(v: u64) -> u32 {
     let mut rem = v;
     let mut root = 0u64;
     let mut bit = 1u64 << 62;
@@ -712,6 +742,15 @@ mod tests {
             largest_gas_sensor > 1e-3,
             "{largest_gas_sensor}"
         );
+    }
+
+    #[test]
+    fn spread_table_is_the_formula() {
+        for (n, &v) in SPREAD_Q16.iter().enumerate() {
+            let want = (((n * n).saturating_sub(1)) as f64 / 12.0).sqrt() * 65536.0;
+            assert_eq!(v, want.floor() as u32, "{n}");
+            assert_eq!(v, spread_q16(n as u64), "{n}");
+        }
     }
 
     #[test]
