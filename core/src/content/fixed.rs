@@ -652,8 +652,8 @@ impl<M: CompressibilityFx> Estimator<M> {
     /// little apart) instead of at the ideal-gas pressure: Newton then
     /// stops after one or two steps instead of three to five. The answer
     /// meets the same convergence test (the last step below 2^-16 of p),
-    /// so it agrees with the unstarted one to far below the model's
-    /// resolution, not bit for bit. `None` or a zero pressure: the
+    /// so it agrees with the unstarted one to within that (4e-6 at worst
+    /// in the tests), not bit for bit. `None` or a zero pressure: the
     /// ideal-gas start; a started solve that raises any flag is done again
     /// from the ideal-gas start.
     pub fn pressure_at_from(
