@@ -896,6 +896,17 @@ mod tests {
         assert!(c.status.is_ok(), "{}", c.status);
     }
 
+    /// The rated pressure these tests give each gas's cylinder: 5 bar for
+    /// the gases that liquefy in the envelope (krypton excepted), 200 bar
+    /// otherwise.
+    fn rated_pa(g: Gas) -> f64 {
+        if g.liquefiable_in_envelope() && g != Gas::Krypton {
+            5e5
+        } else {
+            200e5
+        }
+    }
+
     /// The settled-pressure table (seed and one Newton step on the prepared
     /// isotherm) against the f64 path's solver, for every built-in device
     /// model and the ideal model, rigid and elastic vessels, over contents
@@ -912,11 +923,7 @@ mod tests {
         let mut seeds = 0u32;
         for g in Gas::ALL {
             let model = DeviceModel::builtin(g).unwrap();
-            let rated = if g.liquefiable_in_envelope() && g != Gas::Krypton {
-                5e5
-            } else {
-                200e5
-            };
+            let rated = rated_pa(g);
             for elastic in [0.0, 1e-3] {
                 let mut tank = Tank::new(0.05, rated);
                 tank.elastic_expansion_per_mpa = elastic;
@@ -1015,11 +1022,7 @@ mod tests {
         let mut worst = (0f64, 0f64);
         for g in Gas::ALL {
             let model = DeviceModel::builtin(g).unwrap();
-            let rated = if g.liquefiable_in_envelope() && g != Gas::Krypton {
-                5e5
-            } else {
-                200e5
-            };
+            let rated = rated_pa(g);
             let setup = Setup::new(g, Tank::new(0.05, rated));
             let s = SetupFx::from_f64(&setup).unwrap();
             let e = Estimator::new(s, &model).unwrap();
