@@ -14,6 +14,7 @@ use isochor_core::model::DeviceModel;
 use isochor_core::prepared::{GaugeConfig, PreparedBuf};
 use isochor_core::sensor::channel::RawSample;
 use isochor_core::time::Instant;
+use isochor_core::track::fixed::TrackFx;
 use isochor_core::{Gas, Setup, SetupFx, Tank, fx};
 
 /// The draw-down of the firmware's budget program and the committed
@@ -32,6 +33,9 @@ fn content_matches_the_f64_mirror_and_left_out_parts_are_withheld() {
     let config = GaugeConfig::nominal(setup);
     let (buf, _) = PreparedBuf::build(&config).unwrap();
     let mut device = fixed::Pipeline::new(buf.prepared().unwrap(), Zero::default()).unwrap();
+    // Before any sample the outputs kept in place are the empty record.
+    assert_eq!(*device.output(), TrackFx::EMPTY);
+    assert!(device.output().content.is_none() && device.output().status.is_ok());
     let model = DeviceModel::new(config.table().unwrap()).unwrap();
     let mut reference = float::Pipeline::<f64, _>::new(&config, &model, Zero::default()).unwrap();
     let (mut worst_f, mut worst_m) = (0.0f64, 0.0f64);
@@ -42,9 +46,12 @@ fn content_matches_the_f64_mirror_and_left_out_parts_are_withheld() {
     for i in 0..7200u32 {
         let at = Instant(u64::from(i) * 1000);
         let (x, y) = (
-            device.sample(at, &raw(i)),
+            *device.sample(at, &raw(i)),
             reference.sample(at, &raw(i)).unwrap(),
         );
+        // The record the sample returned is the one kept in place (what the
+        // gauge sends from).
+        assert_eq!(device.output(), &x, "{i}");
         let (cx, cy) = (x.content.unwrap(), y.content.unwrap());
         worst_f = worst_f.max((fx::to_f64(cx.fill_fraction) - cy.fill_fraction).abs());
         worst_m = worst_m.max((fx::to_f64(cx.mass_kg) - cy.mass_kg).abs() / cy.mass_kg);

@@ -216,8 +216,8 @@ where
         let rb = b
             .update(at, fx::to_f64(p), fx::to_f64(t), Status::OK)
             .expect("finite inputs");
-        agree.add(&ra, &rb, rated_kg);
-        observe(&s, &ra, &rb);
+        agree.add(ra, &rb, rated_kg);
+        observe(&s, ra, &rb);
     }
     agree
 }

@@ -98,6 +98,11 @@ impl<B: AsRef<[u8]>> Pipeline<B> {
         &self.tracker
     }
 
+    /// The outputs of the latest sample.
+    pub fn output(&self) -> &TrackFx {
+        self.tracker.output()
+    }
+
     /// The tracker, to clear its alarms.
     pub fn tracker_mut(&mut self) -> &mut Tracker<PreparedModel<B>> {
         &mut self.tracker
@@ -161,8 +166,9 @@ impl<B: AsRef<[u8]>> Pipeline<B> {
         r
     }
 
-    /// One sample: steps 1–5.
-    pub fn sample(&mut self, at: Instant, raw: &RawSample) -> TrackFx {
+    /// One sample: steps 1–5. Returns the tracker's outputs, updated in
+    /// place (see [`Pipeline::output`]).
+    pub fn sample(&mut self, at: Instant, raw: &RawSample) -> &TrackFx {
         let r = self.convert(at, raw);
         self.tracker.update(
             at,

@@ -22,7 +22,6 @@ use crate::prepared::Prepared;
 use crate::sensor::channel::RawSample;
 use crate::store::{BlobRef, Layout};
 use crate::time::Instant;
-use crate::track::fixed::TrackFx;
 use crate::{Error, Status, fx};
 
 /// What the gauge needs from the board while it works.
@@ -65,7 +64,9 @@ pub trait Mapper<F> {
 /// What the last samples and commands left to send.
 #[derive(Default)]
 struct Pending {
-    track: Option<TrackFx>,
+    /// A sample was tracked: its outputs are the pipeline's
+    /// ([`Pipeline::output`]), read in place.
+    tracked: bool,
     unusable_at: Option<Instant>,
     cleared: Option<Events>,
 }
@@ -303,7 +304,10 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         self.samples = self.samples.wrapping_add(1);
         self.last_sample_at = at;
         match &mut self.pipeline {
-            Some(p) => self.pending.track = Some(p.sample(at, raw)),
+            Some(p) => {
+                p.sample(at, raw);
+                self.pending.tracked = true;
+            }
             None => self.pending.unusable_at = Some(at),
         }
     }
@@ -525,18 +529,25 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
     #[inline(never)]
     fn flush(&mut self, io: &mut dyn GaugeIo) {
         let device = self.device_status();
-        if let Some(t) = self.pending.track.take() {
-            let tel = telemetry::from_track(self.telemetry_seq, &t, device);
-            self.field_update(Some(&t), t.at, device);
+        let tracked = core::mem::take(&mut self.pending.tracked);
+        if let Some(t) = self
+            .pipeline
+            .as_ref()
+            .map(|p| p.output())
+            .filter(|_| tracked)
+        {
+            let tel = telemetry::from_track(self.telemetry_seq, t, device);
+            let (at, events) = (t.at, t.events);
+            self.field_update(true, at, device);
             self.telemetry_seq = self.telemetry_seq.wrapping_add(1);
             if !self.quiet {
                 send(io, &FromDevice::Telemetry(tel));
-                self.send_events(&t.events, tel.status(), tel.mass(), io);
+                self.send_events(&events, tel.status(), tel.mass(), io);
             }
         }
         if let Some(at) = self.pending.unusable_at.take() {
             let tel = telemetry::status_only(self.telemetry_seq, at.as_millis(), device);
-            self.field_update(None, at, device);
+            self.field_update(false, at, device);
             self.telemetry_seq = self.telemetry_seq.wrapping_add(1);
             if !self.quiet {
                 send(io, &FromDevice::Telemetry(tel));
@@ -552,11 +563,15 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         }
     }
 
-    /// The loop output's set-point and the Modbus snapshot of an estimate
-    /// (`None`: no usable configuration).
+    /// The loop output's set-point and the Modbus snapshot of the latest
+    /// estimate (`tracked`), or of a sample without a usable configuration.
     #[inline(never)]
-    fn field_update(&mut self, t: Option<&TrackFx>, at: Instant, device: Status) {
+    fn field_update(&mut self, tracked: bool, at: Instant, device: Status) {
         let loop_out = self.field().loop_output;
+        let t = match &self.pipeline {
+            Some(p) if tracked => Some(p.output()),
+            _ => None,
+        };
         self.loop_current = match t {
             Some(t) => loop_out.of_content(t.content.as_ref(), t.status | device),
             None => loop_out.failure.current(),
@@ -564,14 +579,14 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
         #[cfg(feature = "modbus")]
         {
             let tracker = self.pipeline.as_ref().map(|p| p.tracker());
-            let cfg = tracker.map(|k| *k.config());
+            let cfg = tracker.map(|k| k.config());
             let rated = tracker.map(|k| k.rated_standard_volume());
             self.snapshot.update(
                 self.telemetry_seq,
                 t,
                 at.as_millis(),
                 device,
-                cfg.as_ref(),
+                cfg,
                 rated,
                 self.loop_current,
             );

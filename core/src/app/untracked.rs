@@ -56,9 +56,9 @@ pub mod fixed {
     use crate::model::CompressibilityFx;
     use crate::probe::{self, Stage};
     use crate::time::Instant;
-    use crate::track::fixed::{SettlingFx, TrackConfigFx, TrackFx};
+    use crate::track::fixed::{TrackConfigFx, TrackFx};
     #[cfg(feature = "uncertainty")]
-    use crate::uncertainty::fixed::{EvaluatorFx, UncertaintyFx};
+    use crate::uncertainty::fixed::EvaluatorFx;
     use crate::{Error, Status};
 
     /// Content, its uncertainty and the alarms of one tank, sample by
@@ -72,9 +72,8 @@ pub mod fixed {
         alarms: Alarms,
         rated_volume: fx::Volume,
         last_at: Option<Instant>,
-        content: Option<Content>,
-        #[cfg(feature = "uncertainty")]
-        uncertainty: Option<UncertaintyFx>,
+        /// The latest outputs, updated in place by each sample.
+        out: TrackFx,
     }
 
     impl<M: CompressibilityFx> Tracker<M> {
@@ -89,9 +88,7 @@ pub mod fixed {
                 alarms: Alarms::new(cfg.debounce),
                 rated_volume: super::rated_standard_volume(&est)?,
                 last_at: None,
-                content: None,
-                #[cfg(feature = "uncertainty")]
-                uncertainty: None,
+                out: TrackFx::EMPTY,
                 est,
                 cfg,
             })
@@ -114,7 +111,13 @@ pub mod fixed {
 
         /// The latest content estimate.
         pub fn latest_content(&self) -> Option<Content> {
-            self.content
+            self.out.content
+        }
+
+        /// The outputs of the latest sample ([`TrackFx::EMPTY`] before the
+        /// first).
+        pub fn output(&self) -> &TrackFx {
+            &self.out
         }
 
         /// Clears every active alarm at `at`; returns the cleared events.
@@ -122,35 +125,36 @@ pub mod fixed {
             self.alarms.clear_all(at)
         }
 
-        /// Takes one sample (see [`super`]). Never fails.
+        /// Takes one sample (see [`super`]); returns the outputs, updated in
+        /// place. Never fails.
         pub fn update(
             &mut self,
             at: Instant,
             pressure: fx::Pressure,
             temperature: fx::Temperature,
             sensor: Status,
-        ) -> TrackFx {
+        ) -> &TrackFx {
             probe::enter(Stage::Content);
             let sensor = sensor & Status::SENSOR_RANGE;
             let fault = !sensor.is_ok();
             if !fault {
                 let c = self.est.estimate(pressure, temperature);
-                self.content = Some(c);
+                self.out.content = Some(c);
                 #[cfg(feature = "uncertainty")]
                 {
                     probe::enter(Stage::Uncertainty);
-                    self.uncertainty = Some(self.unc.evaluate(&self.est.with_slopes(&c)));
+                    self.out.uncertainty = Some(self.unc.evaluate(&self.est.with_slopes(&c)));
                 }
                 self.last_at = Some(at);
             } else if self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap) {
-                self.content = None;
+                self.out.content = None;
                 #[cfg(feature = "uncertainty")]
                 {
-                    self.uncertainty = None;
+                    self.out.uncertainty = None;
                 }
             }
             probe::enter(Stage::Alarms);
-            let level = self.content.map(|c| LevelInputs {
+            let level = self.out.content.map(|c| LevelInputs {
                 pressure_pa: c.pressure_pa,
                 temperature_k: c.temperature_k,
                 fill_fraction: c.fill_fraction,
@@ -163,27 +167,13 @@ pub mod fixed {
                 leak: false,
                 not_settled: false,
             });
-            let events = self.alarms.update(at, raise, clear);
-            let content_status = self.content.map_or(Status::OK, |c| c.status);
-            TrackFx {
-                at,
-                content: self.content,
-                #[cfg(feature = "uncertainty")]
-                uncertainty: self.uncertainty,
-                #[cfg(not(feature = "uncertainty"))]
-                uncertainty: None,
-                rate: None,
-                time_to_empty: None,
-                time_to_empty_withheld: None,
-                settling: SettlingFx {
-                    not_settled: false,
-                    predicted: None,
-                },
-                leak: None,
-                rated_pressure_now_pa: None,
-                events,
-                status: content_status | sensor | self.alarms.active().status(),
-            }
+            self.out.events = self.alarms.update(at, raise, clear);
+            let content_status = self.out.content.map_or(Status::OK, |c| c.status);
+            self.out.at = at;
+            // No rate, hence no time to empty: not withheld, not given.
+            self.out.time_to_empty_withheld = None;
+            self.out.status = content_status | sensor | self.alarms.active().status();
+            &self.out
         }
     }
 }

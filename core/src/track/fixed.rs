@@ -38,7 +38,7 @@ use super::{
     window,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
-use crate::alarm::{Alarms, DebounceTable, Events};
+use crate::alarm::{AlarmSet, Alarms, DebounceTable, Events};
 use crate::content::fixed::{Content, Estimator};
 use crate::error::{Condition, TrackSetting};
 use crate::fx::{self, Coef};
@@ -292,6 +292,31 @@ pub struct TrackFx {
     pub status: Status,
 }
 
+impl TrackFx {
+    /// The outputs before any sample: no content, nothing derived from it,
+    /// no events, no flags.
+    pub const EMPTY: TrackFx = TrackFx {
+        at: Instant(0),
+        content: None,
+        uncertainty: None,
+        rate: None,
+        time_to_empty: None,
+        time_to_empty_withheld: Some(NoTimeToEmpty::NoContent),
+        settling: SettlingFx {
+            not_settled: false,
+            predicted: None,
+        },
+        leak: None,
+        rated_pressure_now_pa: None,
+        events: Events {
+            raised: AlarmSet::EMPTY,
+            cleared: AlarmSet::EMPTY,
+            at: Instant(0),
+        },
+        status: Status::OK,
+    };
+}
+
 /// One least-squares line through equally spaced block means (Q36).
 #[derive(Clone, Copy, Debug)]
 struct Fit {
@@ -393,19 +418,15 @@ pub struct Tracker<M> {
     settle_active: bool,
     settle_blocks: usize,
     settle_since: Instant,
-    // Latest outputs.
-    content: Option<Content>,
-    uncertainty: Option<UncertaintyFx>,
-    rate: Option<RateFx>,
-    /// The time to empty (an `Option`, not a `Result`: the outputs copy it
-    /// every sample) …
-    tte: Option<TimeToEmpty>,
-    /// … and why there is none (meaningful while `tte` is `None`); both set
-    /// by `set_tte`.
+    /// The latest outputs, kept in the form they are handed out in: a
+    /// sample updates them in place and returns a reference (no copy of
+    /// the whole record per sample). The time to empty in it is set with
+    /// the reason there is none …
+    out: TrackFx,
+    /// … (meaningful while `out.time_to_empty` is `None`), both by
+    /// `set_tte`.
     tte_why: NoTimeToEmpty,
     predicted: Option<SettledPredictionFx>,
-    leak: Option<LeakFx>,
-    rated_pressure_now_pa: Option<fx::Pressure>,
 }
 
 impl<M: CompressibilityFx> Tracker<M> {
@@ -525,14 +546,9 @@ impl<M: CompressibilityFx> Tracker<M> {
             settle_active: false,
             settle_blocks: 0,
             settle_since: Instant(0),
-            content: None,
-            uncertainty: None,
-            rate: None,
-            tte: None,
+            out: TrackFx::EMPTY,
             tte_why: NoTimeToEmpty::Learning,
             predicted: None,
-            leak: None,
-            rated_pressure_now_pa: None,
             est,
             cfg,
         })
@@ -555,7 +571,7 @@ impl<M: CompressibilityFx> Tracker<M> {
 
     /// The latest content estimate (on the smoothed sample).
     pub fn latest_content(&self) -> Option<Content> {
-        self.content
+        self.out.content
     }
 
     /// Clears every active alarm at `at` (see
@@ -579,6 +595,7 @@ impl<M: CompressibilityFx> Tracker<M> {
     /// Takes one sample: absolute pressure and temperature from the sensor
     /// front end, the front end's flags for this sample (only
     /// [`Status::SENSOR_RANGE`] bits are looked at) and the sample's time.
+    /// Returns the outputs, updated in place (see [`Tracker::output`]).
     /// Never fails.
     pub fn update(
         &mut self,
@@ -586,7 +603,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         pressure: fx::Pressure,
         temperature: fx::Temperature,
         sensor: Status,
-    ) -> TrackFx {
+    ) -> &TrackFx {
         probe::enter(Stage::Track);
         let sensor = sensor & Status::SENSOR_RANGE;
         let fault = !sensor.is_ok();
@@ -602,7 +619,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 .est
                 .estimate(fx::Pressure::from_bits(p), fx::Temperature::from_bits(t));
             probe::enter(Stage::Track);
-            self.content = Some(content);
+            self.out.content = Some(content);
             self.close_blocks(at, &content);
             if !content.status.intersects(Status::CONTENT_INVALID) {
                 let bits = content.fill_fraction.to_bits();
@@ -620,7 +637,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         }
 
         probe::enter(Stage::Alarms);
-        let level = self.content.map(|c| LevelInputs {
+        let level = self.out.content.map(|c| LevelInputs {
             pressure_pa: c.pressure_pa,
             temperature_k: c.temperature_k,
             fill_fraction: c.fill_fraction,
@@ -634,31 +651,29 @@ impl<M: CompressibilityFx> Tracker<M> {
         let (raise, clear) = self.cfg.limits.conditions(&Inputs {
             content: level,
             sensor_fault: fault,
-            leak: self.leak.is_some_and(|l| l.leaking),
+            leak: self.out.leak.is_some_and(|l| l.leaking),
             not_settled: self.not_settled(),
         });
-        let events = self.alarms.update(at, raise, clear);
-        let content_status = self.content.map_or(Status::OK, |c| c.status);
-        TrackFx {
-            at,
-            content: self.content,
-            uncertainty: self.uncertainty,
-            rate: self.rate,
-            time_to_empty: self.tte,
-            time_to_empty_withheld: self.tte_withheld(),
-            settling: SettlingFx {
-                not_settled: self.not_settled(),
-                predicted: if self.settle_active {
-                    self.predicted
-                } else {
-                    None
-                },
+        self.out.events = self.alarms.update(at, raise, clear);
+        let content_status = self.out.content.map_or(Status::OK, |c| c.status);
+        self.out.at = at;
+        self.out.time_to_empty_withheld = self.tte_withheld();
+        self.out.settling = SettlingFx {
+            not_settled: self.not_settled(),
+            predicted: if self.settle_active {
+                self.predicted
+            } else {
+                None
             },
-            leak: self.leak,
-            rated_pressure_now_pa: self.rated_pressure_now_pa,
-            events,
-            status: content_status | sensor | self.alarms.active().status(),
-        }
+        };
+        self.out.status = content_status | sensor | self.alarms.active().status();
+        &self.out
+    }
+
+    /// The outputs of the latest sample ([`TrackFx::EMPTY`] before the
+    /// first).
+    pub fn output(&self) -> &TrackFx {
+        &self.out
     }
 
     /// At a flagged sample: once the last usable one is older than
@@ -666,9 +681,9 @@ impl<M: CompressibilityFx> Tracker<M> {
     /// [`super`]; a usable sample restarts the windows).
     fn withdraw_if_stale(&mut self, at: Instant) {
         if self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap) {
-            self.content = None;
-            self.uncertainty = None;
-            self.rate = None;
+            self.out.content = None;
+            self.out.uncertainty = None;
+            self.out.rate = None;
             self.rate_per_h = None;
             self.set_tte(Err(NoTimeToEmpty::NoContent));
             self.predicted = None;
@@ -686,7 +701,7 @@ impl<M: CompressibilityFx> Tracker<M> {
 
     /// Why no time to empty is given, `None` while one is.
     fn tte_withheld(&self) -> Option<NoTimeToEmpty> {
-        match (&self.content, &self.tte) {
+        match (&self.out.content, &self.out.time_to_empty) {
             (None, _) => Some(NoTimeToEmpty::NoContent),
             (Some(_), Some(_)) => None,
             (Some(_), None) => Some(self.tte_why),
@@ -696,9 +711,9 @@ impl<M: CompressibilityFx> Tracker<M> {
     /// Sets the time to empty, or why there is none.
     fn set_tte(&mut self, tte: Result<TimeToEmpty, NoTimeToEmpty>) {
         match tte {
-            Ok(t) => self.tte = Some(t),
+            Ok(t) => self.out.time_to_empty = Some(t),
             Err(why) => {
-                self.tte = None;
+                self.out.time_to_empty = None;
                 self.tte_why = why;
             }
         }
@@ -706,7 +721,7 @@ impl<M: CompressibilityFx> Tracker<M> {
 
     /// The time to empty the low-content alarm may use (confidence ≥ 0.5).
     fn tte_for_alarm(&self) -> Option<Millis> {
-        match (self.rate, self.tte) {
+        match (self.out.rate, self.out.time_to_empty) {
             (Some(r), Some(t)) if r.confidence >= fx::Fraction::from_bits(1 << 31) => {
                 Some(t.expected)
             }
@@ -729,7 +744,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             self.ring_len = 0;
             self.t_len = 0;
             self.t_gas = 0;
-            self.rate = None;
+            self.out.rate = None;
             self.set_tte(Err(NoTimeToEmpty::Learning));
             self.reset_leak();
             self.last_at = None;
@@ -854,7 +869,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         if rise {
             self.ring_len = 0;
             self.t_len = 0;
-            self.rate = None;
+            self.out.rate = None;
             self.set_tte(Err(NoTimeToEmpty::Learning));
         }
     }
@@ -911,19 +926,19 @@ impl<M: CompressibilityFx> Tracker<M> {
             let (u, transient) = self
                 .unc
                 .evaluate_with(&sloped, self.gas_sensor, self.gas_draw);
-            self.uncertainty = Some(u);
+            self.out.uncertainty = Some(u);
             self.gas_transient = transient;
             probe::enter(Stage::Track);
         }
         // Started from the last block's answer (the temperature moves
         // little between blocks): one or two Newton steps instead of up to
         // five.
-        self.rated_pressure_now_pa = Some(
+        self.out.rated_pressure_now_pa = Some(
             self.est
                 .pressure_at_from(
                     fx::Fraction::ONE,
                     content.temperature_k,
-                    self.rated_pressure_now_pa,
+                    self.out.rated_pressure_now_pa,
                 )
                 .0,
         );
@@ -933,7 +948,7 @@ impl<M: CompressibilityFx> Tracker<M> {
     fn rate_and_time_to_empty(&mut self, content: &Content) {
         let n = self.ring_len.min(RATE_WINDOW);
         if n < RATE_MIN_BLOCKS {
-            self.rate = None;
+            self.out.rate = None;
             self.rate_per_h = None;
             self.set_tte(Err(NoTimeToEmpty::Learning));
             self.gas_sensor = 0;
@@ -1007,7 +1022,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 .saturating_mul(den);
             diff <= allowed
         };
-        self.rate = Some(RateFx {
+        self.out.rate = Some(RateFx {
             kg_h: fx::MassRate::from_bits(kg_h),
             standard_m3_h: fx::VolumeRate::from_bits(coef_mul(self.rated_volume, per_h, QF, 32)),
             u_kg_h: fx::MassRate::from_bits(coef_mul(self.rated_mass, u_per_h, QF, 32)),
@@ -1327,7 +1342,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 0
             }
         };
-        self.leak = Some(LeakFx {
+        self.out.leak = Some(LeakFx {
             loss_per_day: fx::FractionRate::from_bits(rel(loss24)),
             excess_per_day: fx::FractionRate::from_bits(rel(excess24)),
             expected_draw_kg_h: fx::MassRate::from_bits(coef_mul(
@@ -1346,7 +1361,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.hour_lead = 0;
         self.hour_blocks = 0;
         self.day_len = 0;
-        self.leak = None;
+        self.out.leak = None;
     }
 
     /// Least-squares line through the last `n` block means (Q28 in, Q36 out).

@@ -271,7 +271,7 @@ fn run_stages() -> bool {
         let raw = sample(i);
         let out = pipe.sample(at, &raw);
         probe::enter(Stage::Link);
-        let tel = telemetry::from_track(seq, &out, Status::OK);
+        let tel = telemetry::from_track(seq, out, Status::OK);
         seq += 1;
         let n = link::encode(&FromDevice::Telemetry(tel), &mut frame).unwrap_or(0);
         probe::enter(Stage::Outside);

@@ -423,7 +423,7 @@ impl Backend for FixedGauge {
     fn sample(&mut self, at: Instant, codes: &Codes) -> Result<Reading, Error> {
         let raw = raw(codes, &self.pressure)?;
         let out = self.pipeline.sample(at, &raw);
-        let frame = app::telemetry::from_track(self.seq, &out, Status::OK);
+        let frame = app::telemetry::from_track(self.seq, out, Status::OK);
         self.seq = self.seq.wrapping_add(1);
         Ok(Reading::from_telemetry(&frame, out.events))
     }
