@@ -294,6 +294,12 @@ impl Alarms {
             at: now,
             ..Events::default()
         };
+        // The usual sample: no alarm wants to change state and none has a
+        // timer running; nothing to do (the loop below would find the same).
+        let wanted = (raise.0 & !self.active.0) | (clear.0 & self.active.0);
+        if wanted == 0 && self.pending_since.iter().all(Option::is_none) {
+            return events;
+        }
         for (kind, pending) in AlarmKind::ALL
             .into_iter()
             .zip(self.pending_since.iter_mut())
