@@ -46,7 +46,7 @@ use crate::model::CompressibilityFx;
 use crate::probe::{self, Stage};
 use crate::time::{Instant, Millis};
 use crate::uncertainty::fixed::{
-    EvaluatorFx, QT_MEAN, RateWindowFx, UncertaintyConfigFx, UncertaintyFx, isqrt,
+    EvaluatorFx, QT_MEAN, RateWindowFx, Terms, UncertaintyConfigFx, UncertaintyFx, isqrt,
 };
 use crate::{Error, Status};
 
@@ -916,7 +916,9 @@ impl<M: CompressibilityFx> Tracker<M> {
 
         // The model's slopes, for the sensitivities of both budgets.
         let sloped = self.est.with_slopes(content);
-        self.rate_and_time_to_empty(&sloped);
+        // Its sensitivities and terms, once for both budgets.
+        let terms = self.unc.terms(&sloped);
+        self.rate_and_time_to_empty(&sloped, &terms);
         self.episodes(end);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(end, mean, &sloped);
@@ -925,7 +927,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             probe::enter(Stage::Uncertainty);
             let (u, transient) = self
                 .unc
-                .evaluate_with(&sloped, self.gas_sensor, self.gas_draw);
+                .evaluate_with(&terms, self.gas_sensor, self.gas_draw);
             self.out.uncertainty = Some(u);
             self.gas_transient = transient;
             probe::enter(Stage::Track);
@@ -945,7 +947,7 @@ impl<M: CompressibilityFx> Tracker<M> {
     }
 
     /// Rate and time to empty from the window.
-    fn rate_and_time_to_empty(&mut self, content: &Content) {
+    fn rate_and_time_to_empty(&mut self, content: &Content, terms: &Terms) {
         let n = self.ring_len.min(RATE_WINDOW);
         if n < RATE_MIN_BLOCKS {
             self.out.rate = None;
@@ -969,6 +971,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         // empty counts down from (crate::uncertainty), Q36.
         let budget = self.unc.rate(
             content,
+            terms,
             &RateWindowFx {
                 slope_per_h: fit.slope * bph,
                 u_fit_per_h: (fit.se * bph).unsigned_abs(),

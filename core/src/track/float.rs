@@ -15,7 +15,7 @@ use crate::error::{Measured, TrackSetting};
 use crate::model::Compressibility;
 use crate::time::{Instant, Millis};
 use crate::uncertainty::float::{
-    Evaluator, RateBudget, RateWindow, Uncertainty, UncertaintyConfig,
+    Evaluator, RateBudget, RateWindow, Terms, Uncertainty, UncertaintyConfig,
 };
 use crate::{Error, Real, Status, Tank};
 
@@ -809,7 +809,9 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         self.ring_len = (self.ring_len + 1).min(RATE_WINDOW);
         self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
-        self.rate_and_time_to_empty(content);
+        // Its sensitivities and terms, once for both budgets.
+        let terms = self.unc.terms(content);
+        self.rate_and_time_to_empty(content, &terms);
         self.episodes(end);
         self.settle(end, mean, content.temperature_k);
         self.leak_block(end, mean, content);
@@ -817,7 +819,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         {
             let (u, transient) = self
                 .unc
-                .evaluate_with(content, self.gas_sensor, self.gas_draw);
+                .evaluate_with(&terms, self.gas_sensor, self.gas_draw);
             self.uncertainty = Some(u);
             self.gas_transient = transient;
         }
@@ -825,7 +827,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
     }
 
     /// Rate and time to empty from the window.
-    fn rate_and_time_to_empty(&mut self, content: &Content<F>) {
+    fn rate_and_time_to_empty(&mut self, content: &Content<F>, terms: &Terms<F>) {
         let n = self.ring_len.min(RATE_WINDOW);
         if n < RATE_MIN_BLOCKS {
             self.rate = None;
@@ -848,6 +850,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         // time to empty counts down from (crate::uncertainty).
         let budget: RateBudget<F> = self.unc.rate(
             content,
+            terms,
             &RateWindow {
                 slope_per_h: fit.slope * bph,
                 u_fit_per_h: fit.se * bph,

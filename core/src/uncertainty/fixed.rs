@@ -246,9 +246,11 @@ pub struct EvaluatorFx {
 }
 
 /// The sensitivities of one estimate (Q30) and its terms (standard
-/// uncertainties, fractions of the rated content, Q28).
+/// uncertainties, fractions of the rated content, Q28): worked out once
+/// per block close ([`EvaluatorFx::terms`]) for both the rate budget and
+/// the content's uncertainty.
 #[derive(Clone, Copy, Debug)]
-struct Terms {
+pub(crate) struct Terms {
     c_p: i128,
     c_t: i128,
     fs: u64,
@@ -316,8 +318,9 @@ impl EvaluatorFx {
         &self.cfg
     }
 
-    /// Sensitivity coefficients and terms of `c`.
-    fn terms(&self, c: &Content) -> Terms {
+    /// Sensitivity coefficients and terms of `c` (an estimate with its
+    /// model slopes), for [`Self::rate`] and [`Self::evaluate_with`].
+    pub(crate) fn terms(&self, c: &Content) -> Terms {
         let (p, t, z) = (
             c.pressure_pa.to_bits(),
             c.temperature_k.to_bits(),
@@ -391,7 +394,7 @@ impl EvaluatorFx {
     /// ([`Estimator::with_slopes`](crate::content::fixed::Estimator::with_slopes)).
     #[cfg(feature = "uncertainty")]
     pub fn evaluate(&self, c: &Content) -> UncertaintyFx {
-        self.evaluate_with(c, 0, 0).0
+        self.evaluate_with(&self.terms(c), 0, 0).0
     }
 
     /// Expanded uncertainties (k = 2) of `c` with the gas–sensor term
@@ -401,11 +404,10 @@ impl EvaluatorFx {
     #[cfg(feature = "uncertainty")]
     pub(crate) fn evaluate_with(
         &self,
-        c: &Content,
+        k: &Terms,
         gas_sensor: u64,
         draw: u64,
     ) -> (UncertaintyFx, bool) {
-        let k = self.terms(c);
         let sq = |v: u64| v * v;
         // Q36 → Q28, rounded; at most the term limit (six squares in u64).
         let q28 = |v: u64| (v.saturating_add(1 << 7) >> 8).min(TERM_MAX);
@@ -431,8 +433,7 @@ impl EvaluatorFx {
     /// Standard uncertainties (k = 1) of the consumption rate measured over
     /// a rate window and of the time to empty, input by input; the same
     /// steps as the float form (the budget is in [`super`]).
-    pub(crate) fn rate(&self, c: &Content, w: &RateWindowFx) -> RateBudgetFx {
-        let k = self.terms(c);
+    pub(crate) fn rate(&self, c: &Content, k: &Terms, w: &RateWindowFx) -> RateBudgetFx {
         // 1/T, Q32 per K (T ≥ 1 K: ≤ 2^32).
         let inv_t = (1u64 << (QT + QT_MEAN)) / (w.temperature as u64).max(1 << QT_MEAN);
         let inv_t = inv_t as i128;
@@ -701,7 +702,8 @@ mod tests {
                             blocks: 32,
                             blocks_per_hour: 60,
                         };
-                        let (bfx, bf) = (efx.rate(&cfx, &wfx), ef.rate(&cf, &wf));
+                        let (kfx, kf) = (efx.terms(&cfx), ef.terms(&cf));
+                        let (bfx, bf) = (efx.rate(&cfx, &kfx, &wfx), ef.rate(&cf, &kf, &wf));
                         largest_gas_sensor = largest_gas_sensor.max(bf.gas_sensor);
                         let pairs = [
                             (bfx.rate_per_h, bf.rate_per_h),
@@ -720,8 +722,8 @@ mod tests {
                         // comparisons assert 1e-6).
                         #[cfg(feature = "uncertainty")]
                         {
-                            let (ufx, tfx) = efx.evaluate_with(&cfx, bfx.gas_sensor, bfx.draw);
-                            let (uf, tf) = ef.evaluate_with(&cf, bf.gas_sensor, bf.draw);
+                            let (ufx, tfx) = efx.evaluate_with(&kfx, bfx.gas_sensor, bfx.draw);
+                            let (uf, tf) = ef.evaluate_with(&kf, bf.gas_sensor, bf.draw);
                             let a = fx::to_f64(ufx.fill_fraction);
                             worst[3] = worst[3].max((a - uf.fill_fraction).abs());
                             // The not-settled verdicts agree away from the edge.

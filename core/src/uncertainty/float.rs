@@ -235,9 +235,10 @@ pub(crate) fn r_over_cv_class(gas: Gas) -> usize {
 }
 
 /// The sensitivities of one estimate and its terms (standard
-/// uncertainties as fractions of the rated content), shared by both budgets.
+/// uncertainties as fractions of the rated content), shared by both budgets:
+/// worked out once per block close ([`Evaluator::terms`]).
 #[derive(Clone, Copy, Debug)]
-struct Terms<F> {
+pub(crate) struct Terms<F> {
     c_p: F,
     c_t: F,
     /// Pressure: full-scale part, reading part.
@@ -301,8 +302,9 @@ impl<F: Real> Evaluator<F> {
         &self.cfg
     }
 
-    /// Sensitivity coefficients and the full-scale term of `c`.
-    fn terms(&self, c: &Content<F>) -> Terms<F> {
+    /// Sensitivity coefficients and the full-scale term of `c`, for
+    /// [`Self::rate`] and [`Self::evaluate_with`].
+    pub(crate) fn terms(&self, c: &Content<F>) -> Terms<F> {
         let cfg = &self.cfg;
         let (p, t, z) = (c.pressure_pa, c.temperature_k, c.z.z);
         let c_p = F::ONE - p * F::lit(1e-6) * c.z.dz_dp_per_mpa / z
@@ -339,7 +341,7 @@ impl<F: Real> Evaluator<F> {
     /// Expanded uncertainties (k = 2) of the mass and fill fraction of `c`.
     #[cfg(feature = "uncertainty")]
     pub fn evaluate(&self, c: &Content<F>) -> Uncertainty<F> {
-        self.evaluate_with(c, F::ZERO, F::ZERO).0
+        self.evaluate_with(&self.terms(c), F::ZERO, F::ZERO).0
     }
 
     /// Expanded uncertainties (k = 2) of `c` with the gas–sensor term
@@ -350,11 +352,10 @@ impl<F: Real> Evaluator<F> {
     #[cfg(feature = "uncertainty")]
     pub(crate) fn evaluate_with(
         &self,
-        c: &Content<F>,
+        k: &Terms<F>,
         gas_sensor: F,
         draw: F,
     ) -> (Uncertainty<F>, bool) {
-        let k = self.terms(c);
         let two = F::lit(2.0);
         let g2 = gas_sensor * gas_sensor;
         let fraction = k.fraction_variance();
@@ -374,9 +375,8 @@ impl<F: Real> Evaluator<F> {
     /// Standard uncertainties (k = 1) of the consumption rate measured over
     /// a rate window and of the time to empty, input by input (the budget is
     /// in [`super`]). `c` is the latest estimate (sensitivities).
-    pub(crate) fn rate(&self, c: &Content<F>, w: &RateWindow<F>) -> RateBudget<F> {
+    pub(crate) fn rate(&self, c: &Content<F>, k: &Terms<F>, w: &RateWindow<F>) -> RateBudget<F> {
         let cfg = &self.cfg;
-        let k = self.terms(c);
         let inv_t = F::ONE / w.temperature_k.max(F::ONE);
         // k = c_T/T: relative content error per kelvin of temperature error.
         let kt = k.c_t * inv_t;
