@@ -475,7 +475,8 @@ pub const fn saturating_mul_i128(a: i128, b: i128) -> i128 {
 /// below 2^32 (most of the fits': n(n² − 1) and its products for windows of
 /// at most 64 blocks) take 32 bits of `n` at a time, one 64/32-bit division
 /// each and none for the leading zero words; larger ones go bit by bit over
-/// the quotient's bits only. Elsewhere the native division.
+/// the quotient's bits only, on 64-bit words when the quotient fits 64 bits
+/// and the divisor 63. Elsewhere the native division.
 pub fn div_u128(n: u128, d: u128) -> u128 {
     #[cfg(target_arch = "arm")]
     {
@@ -499,6 +500,35 @@ pub fn div_u128_parts(n: u128, d: u128) -> u128 {
             return 0;
         }
         let shift = d.leading_zeros() - n.leading_zeros();
+        if d < 1 << 63 && shift < 64 {
+            // A quotient below 2^64 and a divisor below 2^63 (the rate
+            // budget's and the fit's): the remainder stays below 2d < 2^64,
+            // so the same steps run on 64-bit words, the dividend's bits
+            // taken from the top.
+            let d = d as u64;
+            // n's top bits, as many as d has (below 2d) …
+            let mut r = (n >> shift) as u64;
+            let mut q = u64::from(r >= d);
+            if r >= d {
+                r -= d;
+            }
+            // … then its `shift` lower bits one by one, top-aligned.
+            let mut rest = if shift == 0 {
+                0
+            } else {
+                (n as u64) << (64 - shift)
+            };
+            for _ in 0..shift {
+                r = (r << 1) | (rest >> 63);
+                rest <<= 1;
+                q <<= 1;
+                if r >= d {
+                    r -= d;
+                    q |= 1;
+                }
+            }
+            return u128::from(q);
+        }
         let (mut q, mut r, mut d) = (0u128, n, d << shift);
         for _ in 0..=shift {
             q <<= 1;
@@ -771,6 +801,22 @@ mod tests {
             let d = d.max(1);
             assert_eq!(div_u128(n, d), n / d, "{n} / {d}");
             assert_eq!(div_u128_parts(n, d), n / d, "{n} / {d}");
+        }
+        // Divisors from 2^32 to 2^63 with quotients below 2^64 (the 64-bit
+        // path), remainders anywhere below the divisor, and their edges.
+        for i in 0..20_000u32 {
+            let d = (u128::from(next()) >> (1 + i % 31)).max((1 << 32) + 1);
+            let q = u128::from(next()) >> (i % 64);
+            let n = q * d + u128::from(next()) % d;
+            assert_eq!(div_u128_parts(n, d), n / d, "{n} / {d}");
+        }
+        for d in [(1u128 << 32) + 1, (1 << 40) - 1, (1 << 63) - 1, 1 << 63] {
+            for q in [0u128, 1, 2, (1 << 63) - 1, 1 << 63, u64::MAX as u128] {
+                for r in [0, 1, d - 1] {
+                    let n = q * d + r;
+                    assert_eq!(div_u128_parts(n, d), n / d, "{n} / {d}");
+                }
+            }
         }
         assert_eq!(div_u128(5, 0), 0);
         assert_eq!(div_u128_parts(5, 0), 0);
