@@ -1009,13 +1009,13 @@ impl<M: CompressibilityFx> Tracker<M> {
             // Σ < 2^35, × 6 · 2^8 < 2^46; long·504 < 2^46; × bph < 2^58.
             let k = SETTLE_WINDOW as i64;
             let den = k * (k * k - 1);
-            let sxy2: i64 = self
-                .ring
-                .iter()
-                .skip(RATE_WINDOW - SETTLE_WINDOW)
-                .enumerate()
-                .map(|(i, &y)| fx::mul_small(2 * i as i32 - (k as i32 - 1), y as i64))
-                .sum();
+            let [sum, sxy, _] = moments(
+                self.ring
+                    .iter()
+                    .skip(RATE_WINDOW - SETTLE_WINDOW)
+                    .map(|&y| y as i64),
+            );
+            let sxy2 = 2 * sxy - (k - 1) * sum;
             let short504 = (sxy2 * 6) << (QF - Q);
             let diff = (short504 - fit.slope * den)
                 .saturating_mul(bph)
@@ -1371,26 +1371,27 @@ impl<M: CompressibilityFx> Tracker<M> {
     fn fit(&self, n: usize) -> Fit {
         let ys = self.ring.iter().skip(RATE_WINDOW - n);
         let ni = n as i64;
-        let sum: i64 = ys.clone().map(|&y| y as i64).sum();
+        let [sum, sxy, _] = moments(ys.clone().map(|&y| y as i64));
         // Mean in Q36: one 64-bit division (sum < 2^37, << 8 < 2^45).
         let mean = ((sum << (QF - Q)) + ni / 2) / ni;
         // Σ (2i − (n − 1))·y = 2·Σ(i − ī)·y, exact (< 2^42).
-        let sxy2: i64 = ys
-            .clone()
-            .enumerate()
-            .map(|(i, &y)| fx::mul_small(2 * i as i32 - (n as i32 - 1), y as i64))
-            .sum();
+        let sxy2 = 2 * sxy - (ni - 1) * sum;
         // slope = Σ(i − ī)y / Σ(i − ī)² = 6·sxy2 / (n(n² − 1)), Q36.
         let den = ni * (ni * ni - 1);
         let num = (sxy2 as i128) << (QF - Q);
         let slope = div_round_i128(num * 6, den as i128) as i64;
         // Residuals in Q36; the sums of their squares and of products of
         // neighbours in Q72.
+        // c·slope for c = 2i − (n − 1), stepped by 2·slope (the same values
+        // as the products, without a multiply per block).
+        let mut c_slope = fx::mul_small(1 - n as i32, slope);
         let (ssr, s1, _) = ys.enumerate().fold(
             (0u128, 0i128, None),
             |(ssr, s1, prev): (u128, i128, Option<i64>), (i, &y)| {
-                let c = 2 * i as i32 - (n as i32 - 1);
-                let fitted = mean + fx::shr_round_i64(fx::mul_small(c, slope), 1);
+                if i > 0 {
+                    c_slope += 2 * slope;
+                }
+                let fitted = mean + fx::shr_round_i64(c_slope, 1);
                 let r = ((y as i64) << (QF - Q)) - fitted;
                 let s1 = prev.map_or(s1, |q| s1 + fx::mul_i64_wide(q, r));
                 (ssr + fx::mul_i64_wide(r, r).unsigned_abs(), s1, Some(r))
@@ -1435,13 +1436,14 @@ impl<M: CompressibilityFx> Tracker<M> {
         let mean = ((sum + m as u64 / 2) / m as u64).min(u32::MAX as u64) as i64;
         // Deviations from the mean (Q23, |·| < 2^32): Σd = Σq = 0, so the
         // sums against them equal those against the temperatures
-        // (|s1| < 2^44, |s2| < 2^52).
-        let (s1, s2) = ts.enumerate().fold((0i64, 0i64), |(s1, s2), (i, &t)| {
-            let dev = t as i64 - mean;
-            let d = 2 * i as i32 - (m as i32 - 1);
-            let q = 3 * d * d - (m as i32 * m as i32 - 1);
-            (s1 + fx::mul_small(d, dev), s2 + fx::mul_small(q, dev))
-        });
+        // (|s1| < 2^44, |s2| < 2^52). With d = 2i − (m − 1) and
+        // q = 3d² − (m² − 1) = 12i² − 12(m − 1)i + 3(m − 1)² − (m² − 1),
+        // both are sums of the moments Σx, Σi·x, Σi²·x of the deviations
+        // (each below 2^50).
+        let [a0, a1, a2] = moments(ts.map(|&t| t as i64 - mean));
+        let k = ni - 1;
+        let s1 = 2 * a1 - k * a0;
+        let s2 = 12 * a2 - 12 * k * a1 + (3 * k * k - (ni * ni - 1)) * a0;
         // m(m² − 1) and m(m² − 1)(m² − 4) (< 2^31 for m ≤ 64).
         let n3 = (ni * (ni * ni - 1)) as i128;
         let n5 = n3 * (ni * ni - 4) as i128;
@@ -1459,6 +1461,22 @@ impl<M: CompressibilityFx> Tracker<M> {
             curvature_per_h2: curvature.clamp(-(1 << 62), 1 << 62) as i64,
         }
     }
+}
+
+/// The moments Σxᵢ, Σi·xᵢ and Σi²·xᵢ (i from 0) of `xs`, exact, from
+/// running sums taken from the back (no multiply per value): with
+/// sᵢ = Σ_{j≥i} x_j, Σᵢ sᵢ = Σ(i + 1)·xᵢ and its own running sum gives
+/// Σ(i + 1)(i + 2)/2·xᵢ. Each sum must fit `i64` (for |x| < 2^32 and up
+/// to 64 values, the largest is below 2^48).
+fn moments(xs: impl DoubleEndedIterator<Item = i64>) -> [i64; 3] {
+    let (mut s, mut t, mut b) = (0i64, 0i64, 0i64);
+    for x in xs.rev() {
+        s += x;
+        t += s;
+        b += t;
+    }
+    let a1 = t - s;
+    [s, a1, 2 * b - 3 * a1 - 2 * s]
 }
 
 /// The median of three values.
@@ -1538,6 +1556,27 @@ mod tests {
         }
         assert_eq!(div_round_i128(5, 0), 0);
         assert_eq!(div_round_i128(5, -2), 0);
+    }
+
+    #[test]
+    fn moments_are_the_weighted_sums() {
+        // Against the sums with their weights multiplied out, for lengths
+        // 0 to 64 and values of both signs up to 2^32 in magnitude.
+        let mut x = 0x2545_F491_4F6C_DD1Du64;
+        for n in 0..=64usize {
+            let xs: [i64; 64] = core::array::from_fn(|_| {
+                x ^= x << 13;
+                x ^= x >> 7;
+                x ^= x << 17;
+                (x as i64) >> 31
+            });
+            let xs = &xs[..n];
+            let direct = xs.iter().enumerate().fold([0i64; 3], |[a, b, c], (i, &v)| {
+                let i = i as i64;
+                [a + v, b + i * v, c + i * i * v]
+            });
+            assert_eq!(moments(xs.iter().copied()), direct, "{n}");
+        }
     }
 
     #[test]
