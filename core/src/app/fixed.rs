@@ -59,16 +59,23 @@ impl<B: PreparedBytes + Clone> Pipeline<B> {
     /// prepared on a host.
     pub fn new(prepared: Prepared<B>, zero: Zero) -> Result<Self, Error> {
         let mut slot = None;
-        Self::new_in(&mut slot, prepared, zero)?;
+        Self::new_in(&mut slot, &prepared, zero)?;
         slot.ok_or(Error::OutOfRange(DeviceSetting::Configuration.into()))
     }
 
     /// [`Pipeline::new`] straight into `slot` (`None` after an error): a
-    /// device holds no second copy of its pipeline on the stack.
+    /// device holds no second copy of its pipeline on the stack. The
+    /// prepared configuration is read through a reference and copied once,
+    /// into the pipeline (a caller's frame then holds one copy of it, not
+    /// two).
     #[inline(never)]
-    pub fn new_in(slot: &mut Option<Self>, prepared: Prepared<B>, zero: Zero) -> Result<(), Error> {
+    pub fn new_in(
+        slot: &mut Option<Self>,
+        prepared: &Prepared<B>,
+        zero: Zero,
+    ) -> Result<(), Error> {
         *slot = None;
-        let model = PreparedModel::new(&prepared)?;
+        let model = PreparedModel::new(prepared)?;
         let est = Estimator::from_parts(prepared.scalars().estimator, model)?;
         let track = prepared.scalars().track;
         let stages = prepared.lasting_stages();
@@ -79,7 +86,7 @@ impl<B: PreparedBytes + Clone> Pipeline<B> {
             },
             pressure: PressureChannel::new(zero.pressure),
             tracker: Tracker::new(est, track)?,
-            prepared,
+            prepared: prepared.clone(),
             plausibility: [PlausibilityState::new(); 2],
             last_valid: None,
         });

@@ -251,8 +251,12 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
             .mapper
             .map(flash, layout, blob)
             .ok_or(Error::RecordTooLarge)?;
-        let prepared = Prepared::new(bytes)?;
-        Pipeline::new_in(&mut self.pipeline, prepared, zero)
+        // Read in place in the returned value: moving it out of the
+        // `Result` would put a second copy on this frame.
+        match &Prepared::new(bytes) {
+            Ok(prepared) => Pipeline::new_in(&mut self.pipeline, prepared, zero),
+            Err(e) => Err(*e),
+        }
     }
 
     /// Announces the start: one [`Boot`] message.
@@ -473,8 +477,12 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
             .mapper
             .map(flash, layout, blob)
             .ok_or(Refusal::BlobTooLarge)?;
-        Prepared::new(bytes).map_err(config_refusal)?;
-        Ok(())
+        // Looked at in place: mapping the `Result` would copy the prepared
+        // value into a second one on this frame.
+        match &Prepared::new(bytes) {
+            Ok(_) => Ok(()),
+            Err(e) => Err(config_refusal(*e)),
+        }
     }
 
     #[cfg(feature = "signed-config")]

@@ -348,15 +348,20 @@ impl<B: AsRef<[u8]>> Prepared<B> {
         let enc = b
             .get(HEADER_LEN..HEADER_LEN + n)
             .ok_or(bad(Defect::PreparedLayout))?;
-        let (scalars, rest) =
-            postcard::take_from_bytes::<Scalars>(enc).map_err(|_| bad(Defect::PreparedScalars))?;
+        // The decoded scalars are looked at in place and copied once, into
+        // the value: mapping or destructuring the `Result` would put more
+        // copies of them (776 bytes) on this frame.
+        let decoded = postcard::take_from_bytes::<Scalars>(enc);
+        let Ok((scalars, rest)) = &decoded else {
+            return Err(bad(Defect::PreparedScalars));
+        };
         if !rest.is_empty() {
             return Err(bad(Defect::PreparedScalars));
         }
         let p = Prepared {
             bytes,
             arrays,
-            scalars,
+            scalars: *scalars,
         };
         p.validate()?;
         Ok(p)

@@ -234,7 +234,7 @@ fn prepared() -> Option<Prepared<Lasting>> {
 fn run_fixed() -> Option<(u64, u64)> {
     // SAFETY: the only reference to the static, taken once.
     let slot = unsafe { &mut *core::ptr::addr_of_mut!(FIXED) };
-    fixed::Pipeline::new_in(slot, prepared()?, Zero::default())
+    fixed::Pipeline::new_in(slot, &prepared()?, Zero::default())
         .map_err(|e| hprintln!("fixed pipeline: {:?}", e))
         .ok()?;
     let pipe = slot.as_mut()?;
@@ -256,7 +256,7 @@ fn run_stages() -> bool {
     let Some(p) = prepared() else {
         return false;
     };
-    if fixed::Pipeline::new_in(slot, p, Zero::default()).is_err() {
+    if fixed::Pipeline::new_in(slot, &p, Zero::default()).is_err() {
         return false;
     }
     let Some(pipe) = slot.as_mut() else {
