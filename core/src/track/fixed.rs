@@ -1098,10 +1098,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             // Q36 → Q32 fraction.
             let f32 = fx::shr_round_i64(f_inf, QF - 32) as u64;
             let fraction = fx::Fraction::from_bits(f32);
-            // Started from the last block's prediction (f∞ and T move
-            // little between blocks), as the rated content's pressure.
-            let start = self.predicted.map(|p| p.pressure_pa);
-            let (p, _) = self.est.pressure_at_from(fraction, temperature, start);
+            let (p, _) = self.est.pressure_at(fraction, temperature);
             let (mass, _) =
                 self.rated_mass
                     .scale((f_inf >> (QF - Q)).min(u32::MAX as i64) as u32, Q, 40);
