@@ -537,13 +537,10 @@ impl<F: NorFlash, M: Mapper<F>> Gauge<F, M> {
     #[inline(never)]
     fn flush(&mut self, io: &mut dyn GaugeIo) {
         let device = self.device_status();
-        let tracked = core::mem::take(&mut self.pending.tracked);
-        if let Some(t) = self
-            .pipeline
-            .as_ref()
-            .map(|p| p.output())
-            .filter(|_| tracked)
+        if core::mem::take(&mut self.pending.tracked)
+            && let Some(p) = &self.pipeline
         {
+            let t = p.output();
             let tel = telemetry::from_track(self.telemetry_seq, t, device);
             let (at, events) = (t.at, t.events);
             self.field_update(true, at, device);

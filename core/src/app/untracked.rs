@@ -61,6 +61,13 @@ pub mod fixed {
     use crate::uncertainty::fixed::EvaluatorFx;
     use crate::{Error, Status};
 
+    /// The outputs before any sample. No rate, hence no time to empty:
+    /// neither given nor withheld.
+    const EMPTY: TrackFx = TrackFx {
+        time_to_empty_withheld: None,
+        ..TrackFx::EMPTY
+    };
+
     /// Content, its uncertainty and the alarms of one tank, sample by
     /// sample (see [`super`]).
     #[derive(Clone, Debug)]
@@ -88,7 +95,7 @@ pub mod fixed {
                 alarms: Alarms::new(cfg.debounce),
                 rated_volume: super::rated_standard_volume(&est)?,
                 last_at: None,
-                out: TrackFx::EMPTY,
+                out: EMPTY,
                 est,
                 cfg,
             })
@@ -170,8 +177,6 @@ pub mod fixed {
             self.out.events = self.alarms.update(at, raise, clear);
             let content_status = self.out.content.map_or(Status::OK, |c| c.status);
             self.out.at = at;
-            // No rate, hence no time to empty: not withheld, not given.
-            self.out.time_to_empty_withheld = None;
             self.out.status = content_status | sensor | self.alarms.active().status();
             &self.out
         }

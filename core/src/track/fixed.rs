@@ -1383,11 +1383,11 @@ impl<M: CompressibilityFx> Tracker<M> {
         let den = ni * (ni * ni - 1);
         let num = (sxy2 as i128) << (QF - Q);
         let slope = div_round_i128(num * 6, den as i128) as i64;
-        // Residuals in Q36; the sums of their squares and of products of
-        // neighbours in Q72.
         // c·slope for c = 2i − (n − 1), stepped by 2·slope (the same values
         // as the products, without a multiply per block).
         let mut c_slope = fx::mul_small(1 - n as i32, slope);
+        // Residuals in Q36; the sums of their squares and of products of
+        // neighbours in Q72.
         let (ssr, s1, _) = ys.enumerate().fold(
             (0u128, 0i128, None),
             |(ssr, s1, prev): (u128, i128, Option<i64>), (i, &y)| {
