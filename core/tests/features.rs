@@ -68,8 +68,14 @@ fn content_matches_the_f64_mirror_and_left_out_parts_are_withheld() {
         assert_eq!(x.uncertainty.is_some(), y.uncertainty.is_some(), "{i}");
         if cfg!(feature = "uncertainty") {
             // The tracker refreshes U at each block close (from the first
-            // on); without it U is that of every sample's content.
-            let from = if cfg!(feature = "tracking") { 60 } else { 0 };
+            // on), at the eighth of the close's nine steps, which run one a
+            // sample over the samples after it; without it U is that of
+            // every sample's content.
+            let from = if cfg!(feature = "tracking") {
+                60 + 8
+            } else {
+                0
+            };
             assert_eq!(x.uncertainty.is_some(), i >= from, "{i}");
         } else {
             assert!(x.uncertainty.is_none() && y.uncertainty.is_none(), "{i}");
@@ -80,10 +86,10 @@ fn content_matches_the_f64_mirror_and_left_out_parts_are_withheld() {
         assert_eq!(x.leak.is_some(), y.leak.is_some(), "{i}");
         assert_eq!(x.settling.not_settled, y.settling.not_settled, "{i}");
         if cfg!(feature = "tracking") {
-            // A rate from the fifth block close on.
-            assert_eq!(x.rate.is_some(), i >= 300, "{i}");
-            // The over-pressure reference from the first block close on.
-            assert_eq!(x.rated_pressure_now_pa.is_some(), i >= 60, "{i}");
+            // A rate from the fifth block close on (its fifth step) …
+            assert_eq!(x.rate.is_some(), i >= 300 + 5, "{i}");
+            // … and the over-pressure reference from the first (its last).
+            assert_eq!(x.rated_pressure_now_pa.is_some(), i >= 60 + 9, "{i}");
         } else {
             // Nothing the tracker gives is made up in either path.
             for (rate, tte, why, leak, settled, reference, not_settled) in [

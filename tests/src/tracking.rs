@@ -9,6 +9,25 @@ use isochor_core::track::fixed::{RateFx, TrackConfigFx, TrackFx, Tracker as Trac
 use isochor_core::track::float::{TimeToEmpty, Track, TrackConfig, Tracker};
 use isochor_core::{Setup, SetupFx, Status, Tank, fx};
 
+/// Where in each minute (block) the tests judge the outputs: this long
+/// after the block's close, when all of the close's steps have run (they
+/// run one a sample over the samples after it and finish within half a
+/// block; `isochor_core::track`, "A close spread over the samples that
+/// follow it"). A time to empty counts from its close.
+pub const JUDGED_AFTER_CLOSE_MS: u64 = 30_000;
+
+/// Whether the sample at `t_ms` is one the tests judge (once a minute,
+/// [`JUDGED_AFTER_CLOSE_MS`] after the close).
+pub fn judged(t_ms: u64) -> bool {
+    t_ms % 60_000 == JUDGED_AFTER_CLOSE_MS
+}
+
+/// The true time to empty counted from the last close: `truth_now_ms` at a
+/// judged sample plus the time since the close.
+pub fn from_close(truth_now_ms: f64) -> f64 {
+    truth_now_ms + JUDGED_AFTER_CLOSE_MS as f64
+}
+
 /// Worst differences between the fixed-point and the f64 tracker over a
 /// series.
 #[derive(Clone, Debug, Default)]
@@ -254,7 +273,7 @@ impl RateScore {
         tte: Option<TimeToEmpty>,
     ) {
         let Some(r) = rate else { return };
-        if !s.t_ms.is_multiple_of(60_000) || r.blocks < 32 {
+        if !judged(s.t_ms) || r.blocks < 32 {
             return;
         }
         let (kg_h, u) = (fx::to_f64(r.kg_h), fx::to_f64(r.u_kg_h));
@@ -266,7 +285,7 @@ impl RateScore {
         if (kg_h - draw_kg_h).abs() <= u {
             self.covered += 1;
         }
-        let truth_ms = (s.mass_kg - reserve_kg) / draw_kg_h * HOUR_MS as f64;
+        let truth_ms = from_close((s.mass_kg - reserve_kg) / draw_kg_h * HOUR_MS as f64);
         if truth_ms > HOUR_MS as f64 {
             self.tte_minutes += 1;
             if let Some(t) = tte {

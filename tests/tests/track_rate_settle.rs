@@ -8,7 +8,7 @@ use isochor_core::track::float::{NoTimeToEmpty, TrackConfig};
 use isochor_core::uncertainty::float::UncertaintyConfig;
 use isochor_core::{Status, fx};
 use isochor_tests::synth::{Fill, HOUR_MS, Scenario, rated_mass};
-use isochor_tests::tracking::{RateScore, run, tank_of};
+use isochor_tests::tracking::{JUDGED_AFTER_CLOSE_MS, RateScore, from_close, judged, run, tank_of};
 use std::collections::BTreeMap;
 
 fn config(sc: &Scenario) -> TrackConfig {
@@ -32,7 +32,7 @@ fn rate_and_time_to_empty_under_a_steady_draw() {
     let agree = run(&sc, &cfg, |s, a, _| {
         score.add(s, sc.draw_kg_h, reserve_kg, a.rate, a.time_to_empty);
         // Judge once a minute, from a full window on (32 min).
-        if s.t_ms % 60_000 != 0 {
+        if !judged(s.t_ms) {
             return;
         }
         if let Some(r) = a.rate {
@@ -44,13 +44,13 @@ fn rate_and_time_to_empty_under_a_steady_draw() {
             worst_rate = f64::max(worst_rate, e.abs());
             sq_rate += e * e;
             n += 1;
-            let truth_ms = (s.mass_kg - reserve_kg) / sc.draw_kg_h * HOUR_MS as f64;
+            let truth_ms = from_close((s.mass_kg - reserve_kg) / sc.draw_kg_h * HOUR_MS as f64);
             // A time to empty once the draw has been steady for two gas
             // time constants 2·τ_v·F (the settling time constant times the
             // fill fraction; docs/tracking.md): from 32 + 60 min on here.
             let Some(t) = a.time_to_empty else {
                 assert!(
-                    s.t_ms <= 2 * cfg.settle_time_constant.0 + 32 * 60_000,
+                    s.t_ms <= 2 * cfg.settle_time_constant.0 + 32 * 60_000 + JUDGED_AFTER_CLOSE_MS,
                     "a steady consumption has a time to empty"
                 );
                 return;
@@ -134,7 +134,7 @@ fn time_to_empty_says_why_it_is_withheld() {
             a.time_to_empty_withheld.is_none(),
             "a reason exactly when no time to empty is given"
         );
-        if s.t_ms % 60_000 != 0 {
+        if !judged(s.t_ms) {
             return;
         }
         first.get_or_insert(a.time_to_empty_withheld);
@@ -256,7 +256,7 @@ fn settling_after_a_fast_fill_is_flagged_and_predicted() {
             let e = (fx::to_f64(c.fill_fraction) - s.mass_kg / m_rated).abs();
             worst_unflagged = worst_unflagged.max(e);
         }
-        if s.t_ms < fill_end || s.t_ms % 60_000 != 0 {
+        if s.t_ms < fill_end || !judged(s.t_ms) {
             return;
         }
         let truth = s.mass_kg / m_rated;

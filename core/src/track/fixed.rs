@@ -27,15 +27,18 @@
 //! roots), the rate budget (one 64-bit and one 128-bit division, about forty
 //! wide multiplies, three square roots) and two runs of the bounded pressure
 //! solver (over-pressure reference and settled prediction). Per hour: two
-//! 128-bit divisions for the reported leak rates.
+//! 128-bit divisions for the reported leak rates. At a sample interval of
+//! up to 1/18 of the block the per-block work is spread over the samples
+//! after the close, one [`CloseStep`] each (see [`super`]), so no sample
+//! pays for it whole.
 
 use super::float::TrackConfig;
 use super::{
-    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
-    LEAD_BIAS, LEAD_Q, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
-    SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, STEADY_TIME_CONSTANTS,
-    TEMPERATURE_WINDOW, VESSEL_LAG_FROM_MS, VESSEL_LAG_SHARE_Q8, effective_lag, validate_timing,
-    window,
+    CloseStep, DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS,
+    LAG_MARGIN, LEAD_BIAS, LEAD_Q, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW,
+    SETTLE_TIME_CONSTANTS, SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR,
+    STEADY_TIME_CONSTANTS, TEMPERATURE_WINDOW, VESSEL_LAG_FROM_MS, VESSEL_LAG_SHARE_Q8,
+    effective_lag, validate_timing, window,
 };
 use crate::alarm::fixed::{Inputs, LevelInputs, LimitsFx};
 use crate::alarm::{AlarmSet, Alarms, DebounceTable, Events};
@@ -46,7 +49,8 @@ use crate::model::CompressibilityFx;
 use crate::probe::{self, Stage};
 use crate::time::{Instant, Millis};
 use crate::uncertainty::fixed::{
-    EvaluatorFx, QT_MEAN, RateWindowFx, Terms, UncertaintyConfigFx, UncertaintyFx, isqrt,
+    EvaluatorFx, QT_MEAN, RateBudgetFx, RateWindowFx, Terms, UncertaintyConfigFx, UncertaintyFx,
+    isqrt,
 };
 use crate::{Error, Status};
 
@@ -339,6 +343,28 @@ struct TemperatureFit {
     curvature_per_h2: i64,
 }
 
+/// A block close whose steps are still to run (see [`super`], "A close
+/// spread over the samples that follow it").
+#[derive(Clone, Copy, Debug)]
+struct Close {
+    /// The next step.
+    step: CloseStep,
+    /// The block's end and mean (Q28).
+    end: Instant,
+    mean: u32,
+    /// The estimate at the close (with its model slopes from `Terms` on).
+    content: Content,
+    /// Its sensitivities and terms (from `Terms` on).
+    terms: Option<Terms>,
+    /// The rate window's length and line (from `RateFit` on; `None`: too
+    /// few blocks for a rate) …
+    fit: Option<(usize, Fit)>,
+    /// … the block temperatures' parabola (from `TemperatureFit` on) …
+    temperature: Option<TemperatureFit>,
+    /// … and the rate budget (from `Budget` on).
+    budget: Option<RateBudgetFx>,
+}
+
 /// The tracker: all state of the pipeline for one tank (fixed-point form).
 #[derive(Clone, Debug)]
 pub struct Tracker<M> {
@@ -380,6 +406,8 @@ pub struct Tracker<M> {
     t_ring: [u32; TEMPERATURE_WINDOW],
     t_len: usize,
     prev_block: Option<u32>,
+    /// The last close while its steps run.
+    close: Option<Close>,
     // Leak.
     hour_sum: u64,
     hour_blocks: u32,
@@ -521,6 +549,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             t_len: 0,
             ring_len: 0,
             prev_block: None,
+            close: None,
             hour_sum: 0,
             hour_blocks: 0,
             day_ring: [0; LEAK_RING],
@@ -608,6 +637,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         sensor: Status,
     ) -> &TrackFx {
         probe::enter(Stage::Track);
+        self.close_step();
         let sensor = sensor & Status::SENSOR_RANGE;
         let fault = !sensor.is_ok();
         if !fault {
@@ -684,6 +714,7 @@ impl<M: CompressibilityFx> Tracker<M> {
     /// [`super`]; a usable sample restarts the windows).
     fn withdraw_if_stale(&mut self, at: Instant) {
         if self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap) {
+            self.finish_close();
             self.out.content = None;
             self.out.uncertainty = None;
             self.out.rate = None;
@@ -740,6 +771,7 @@ impl<M: CompressibilityFx> Tracker<M> {
             Some(last) => at < last || at.since(last) > self.cfg.max_gap,
         };
         if restart {
+            self.finish_close();
             self.hist_len = 0;
             self.block_start = at;
             self.block_sum = 0;
@@ -809,7 +841,10 @@ impl<M: CompressibilityFx> Tracker<M> {
             // One 64/32 division per block.
             let n = self.block_n as u64;
             let mean = ((self.block_sum + n / 2) / n).min(u32::MAX as u64) as u32;
-            self.block(end, mean, content);
+            let spread = self
+                .last_at
+                .is_some_and(|l| super::spread(at.since(l), self.cfg.block));
+            self.block(end, mean, content, spread);
         }
         self.block_start = end;
         if at >= self.block_start + self.cfg.block {
@@ -877,8 +912,11 @@ impl<M: CompressibilityFx> Tracker<M> {
         }
     }
 
-    /// Everything that happens once per block.
-    fn block(&mut self, end: Instant, mean: u32, content: &Content) {
+    /// Everything that happens once per block: the bookkeeping now, the
+    /// rest as [`CloseStep`]s over the following samples when `spread`, at
+    /// once otherwise (a close still running is finished first).
+    fn block(&mut self, end: Instant, mean: u32, content: &Content, spread: bool) {
+        self.finish_close();
         if let Some(prev) = self.prev_block
             && !self.fast_change(end, prev, mean)
             && self.settle_active
@@ -917,61 +955,149 @@ impl<M: CompressibilityFx> Tracker<M> {
         self.ring_len = (self.ring_len + 1).min(RATE_WINDOW);
         self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
-        // The model's slopes, for the sensitivities of both budgets.
-        let sloped = self.est.with_slopes(content);
-        // Its sensitivities and terms, once for both budgets.
-        let terms = self.unc.terms(&sloped);
-        self.rate_and_time_to_empty(&sloped, &terms);
-        self.episodes(end);
-        self.settle(end, mean, content.temperature_k);
-        self.leak_block(end, mean, &sloped);
-        #[cfg(feature = "uncertainty")]
-        {
-            probe::enter(Stage::Uncertainty);
-            let (u, transient) = self
-                .unc
-                .evaluate_with(&terms, self.gas_sensor, self.gas_draw);
-            self.out.uncertainty = Some(u);
-            self.gas_transient = transient;
-            probe::enter(Stage::Track);
+        self.close = Some(Close {
+            step: CloseStep::Terms,
+            end,
+            mean,
+            content: *content,
+            terms: None,
+            fit: None,
+            temperature: None,
+            budget: None,
+        });
+        if !spread {
+            self.finish_close();
         }
-        // Started from the last block's answer (the temperature moves
-        // little between blocks): one or two Newton steps instead of up to
-        // five.
-        self.out.rated_pressure_now_pa = Some(
-            self.est
-                .pressure_at_from(
-                    fx::Fraction::ONE,
-                    content.temperature_k,
-                    self.out.rated_pressure_now_pa,
-                )
-                .0,
-        );
     }
 
-    /// Rate and time to empty from the window.
-    fn rate_and_time_to_empty(&mut self, content: &Content, terms: &Terms) {
-        let n = self.ring_len.min(RATE_WINDOW);
-        if n < RATE_MIN_BLOCKS {
-            self.out.rate = None;
-            self.rate_per_h = None;
-            self.set_tte(Err(NoTimeToEmpty::Learning));
-            self.gas_sensor = 0;
-            self.gas_draw = 0;
-            self.steady_ms = 0;
+    /// Runs the next step of the close in progress, if any. The steps
+    /// work on the close in place (no copy of it per step).
+    fn close_step(&mut self) {
+        let Some(step) = self.close.as_ref().map(|c| c.step) else {
             return;
+        };
+        match step {
+            CloseStep::Terms => {
+                if let Some(c) = &mut self.close {
+                    // The model's slopes, for the sensitivities of both
+                    // budgets; its sensitivities and terms, once for both.
+                    c.content = self.est.with_slopes(&c.content);
+                    c.terms = Some(self.unc.terms(&c.content));
+                }
+            }
+            CloseStep::RateFit => {
+                let n = self.ring_len.min(RATE_WINDOW);
+                let fit = if n < RATE_MIN_BLOCKS {
+                    self.out.rate = None;
+                    self.rate_per_h = None;
+                    self.set_tte(Err(NoTimeToEmpty::Learning));
+                    self.gas_sensor = 0;
+                    self.gas_draw = 0;
+                    self.steady_ms = 0;
+                    None
+                } else {
+                    Some((n, self.fit(n)))
+                };
+                if let Some(c) = &mut self.close {
+                    c.fit = fit;
+                }
+            }
+            CloseStep::TemperatureFit => {
+                let n = self.close.as_ref().and_then(|c| c.fit).map(|(n, _)| n);
+                let temperature = n
+                    .filter(|&n| self.ring_len == n)
+                    .map(|n| self.temperature_fit(n, self.t_len));
+                if let Some(c) = &mut self.close {
+                    c.temperature = temperature;
+                }
+            }
+            CloseStep::Budget => self.rate_budget(),
+            CloseStep::Rate => {
+                self.rate_and_time_to_empty();
+                if let Some(end) = self.close.as_ref().map(|c| c.end) {
+                    self.episodes(end);
+                }
+            }
+            CloseStep::Settle => {
+                if let Some(c) = &self.close {
+                    let (end, mean, t) = (c.end, c.mean, c.content.temperature_k);
+                    self.settle(end, mean, t);
+                }
+            }
+            CloseStep::Leak => {
+                if let Some(c) = &self.close {
+                    let (end, mean) = (c.end, c.mean);
+                    let (p, f) = (c.content.pressure_pa, c.content.fill_fraction);
+                    self.leak_block(end, mean, p, f);
+                }
+            }
+            CloseStep::Uncertainty => {
+                #[cfg(feature = "uncertainty")]
+                if let Some(Close {
+                    terms: Some(terms), ..
+                }) = &self.close
+                {
+                    probe::enter(Stage::Uncertainty);
+                    let (u, transient) =
+                        self.unc
+                            .evaluate_with(terms, self.gas_sensor, self.gas_draw);
+                    self.out.uncertainty = Some(u);
+                    self.gas_transient = transient;
+                    probe::enter(Stage::Track);
+                }
+            }
+            CloseStep::Reference => {
+                if let Some(t) = self.close.as_ref().map(|c| c.content.temperature_k) {
+                    // Started from the last block's answer (the temperature
+                    // moves little between blocks): one or two Newton steps
+                    // instead of up to five.
+                    let from = self.out.rated_pressure_now_pa;
+                    let (p, _) = self.est.pressure_at_from(fx::Fraction::ONE, t, from);
+                    self.out.rated_pressure_now_pa = Some(p);
+                }
+            }
         }
-        let fit = self.fit(n);
-        let temp = self.temperature_fit(n, self.t_len);
+        match step.next() {
+            Some(next) => {
+                if let Some(c) = &mut self.close {
+                    c.step = next;
+                }
+            }
+            None => self.close = None,
+        }
+    }
+
+    /// Runs the steps left of the close in progress.
+    fn finish_close(&mut self) {
+        while self.close.is_some() {
+            self.close_step();
+        }
+    }
+
+    /// The close's rate window, line and temperature parabola while the
+    /// window is still the tracker's (a fill marked since restarts it).
+    fn window_kept(&self) -> Option<(usize, Fit, TemperatureFit)> {
+        let c = self.close.as_ref()?;
+        let ((n, fit), temperature) = (c.fit?, c.temperature?);
+        (self.ring_len == n).then_some((n, fit, temperature))
+    }
+
+    /// The standard uncertainties of the rate and of the content the time
+    /// to empty counts down from (crate::uncertainty).
+    fn rate_budget(&mut self) {
+        let Some((n, fit, temp)) = self.window_kept() else {
+            return;
+        };
+        let Some(Close {
+            content,
+            terms: Some(terms),
+            ..
+        }) = &self.close
+        else {
+            return;
+        };
         let bph = self.blocks_per_hour as i64;
-        let per_h = -fit.slope * bph;
-        self.rate_per_h = Some(per_h);
-        // Fitted value at the window's end: mean + slope·(n − 1)/2.
-        let end = fit.mean + fx::shr_round_i64(fit.slope * (n as i64 - 1), 1);
         let reserve = (self.cfg.reserve_fraction.to_bits() << (QF - 32)) as i64;
-        let left = end - reserve;
-        // Standard uncertainties of the rate and of the content the time to
-        // empty counts down from (crate::uncertainty), Q36.
         let budget = self.unc.rate(
             content,
             terms,
@@ -982,7 +1108,7 @@ impl<M: CompressibilityFx> Tracker<M> {
                 temperature: temp.mean,
                 dt_per_h: temp.slope_per_h,
                 d2t_per_h2: temp.curvature_per_h2,
-                left_fraction: left,
+                left_fraction: left_fraction(&fit, n, reserve),
                 reserve_fraction: reserve,
                 blocks: n as u32,
                 blocks_per_hour: self.blocks_per_hour,
@@ -990,6 +1116,25 @@ impl<M: CompressibilityFx> Tracker<M> {
         );
         self.gas_sensor = budget.gas_sensor;
         self.gas_draw = budget.draw;
+        if let Some(c) = &mut self.close {
+            c.budget = Some(budget);
+        }
+    }
+
+    /// Rate, steady draw and time to empty from the window's fit and
+    /// budget.
+    fn rate_and_time_to_empty(&mut self) {
+        let (Some((n, fit, _)), Some(budget)) = (
+            self.window_kept(),
+            self.close.as_ref().and_then(|c| c.budget),
+        ) else {
+            return;
+        };
+        let bph = self.blocks_per_hour as i64;
+        let per_h = -fit.slope * bph;
+        self.rate_per_h = Some(per_h);
+        let reserve = (self.cfg.reserve_fraction.to_bits() << (QF - 32)) as i64;
+        let left = left_fraction(&fit, n, reserve);
         let u_per_h = budget.rate_per_h.saturating_mul(2).min(i64::MAX as u64) as i64;
         let confidence = if per_h != 0 {
             let mag = per_h.unsigned_abs();
@@ -1173,7 +1318,7 @@ impl<M: CompressibilityFx> Tracker<M> {
     }
 
     /// Leak detection: hourly means into the two-day ring.
-    fn leak_block(&mut self, end: Instant, mean: u32, content: &Content) {
+    fn leak_block(&mut self, end: Instant, mean: u32, pressure: fx::Pressure, fill: fx::Fraction) {
         if self.leak_held(end, mean) {
             self.reset_leak();
             return;
@@ -1186,11 +1331,13 @@ impl<M: CompressibilityFx> Tracker<M> {
             let tg = fx::Temperature::from_bits(
                 fx::shr_round_i64(g, QT_MEAN - 16).clamp(0, u32::MAX as i64) as u32,
             );
-            let gas = self.est.estimate(content.pressure_pa, tg);
+            let gas = self.est.estimate(pressure, tg);
             probe::enter(Stage::Track);
             if !gas.status.intersects(Status::CONTENT_INVALID) {
-                let q28 = |c: &Content| fx::shr_round_i64(c.fill_fraction.to_bits() as i64, 32 - Q);
-                self.hour_lead = self.hour_lead.saturating_add(q28(&gas) - q28(content));
+                let q28 = |f: fx::Fraction| fx::shr_round_i64(f.to_bits() as i64, 32 - Q);
+                self.hour_lead = self
+                    .hour_lead
+                    .saturating_add(q28(gas.fill_fraction) - q28(fill));
             }
         }
         self.hour_blocks += 1;
@@ -1432,7 +1579,8 @@ impl<M: CompressibilityFx> Tracker<M> {
     /// d = 2i − (m − 1) = 2(i − ī) and
     /// q = 3d² − (m² − 1) = 12((i − ī)² − (m² − 1)/12).
     fn temperature_fit(&self, n: usize, m: usize) -> TemperatureFit {
-        let m = m.max(n).min(TEMPERATURE_WINDOW);
+        // At least one block (a rate window has RATE_MIN_BLOCKS).
+        let m = m.max(n).clamp(1, TEMPERATURE_WINDOW);
         let ts = self.t_ring.iter().skip(TEMPERATURE_WINDOW - m);
         let ni = m as i64;
         let sum: u64 = ts.clone().map(|&t| t as u64).sum();
@@ -1483,6 +1631,12 @@ fn moments(xs: impl DoubleEndedIterator<Item = i64>) -> [i64; 3] {
 }
 
 /// The median of three values.
+/// The fill fraction above the reserve (Q36) at the end of an `n`-block
+/// window: the fitted value there, mean + slope·(n − 1)/2, less `reserve`.
+fn left_fraction(fit: &Fit, n: usize, reserve: i64) -> i64 {
+    fit.mean + fx::shr_round_i64(fit.slope * (n as i64 - 1), 1) - reserve
+}
+
 fn median3(a: u32, b: u32, c: u32) -> u32 {
     a.min(b).max(a.max(b).min(c))
 }

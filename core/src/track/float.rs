@@ -2,8 +2,8 @@
 //! [`super`], mirrored step by step by [`super::fixed`]).
 
 use super::{
-    DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS, LAG_MARGIN,
-    LEAD_Q, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
+    CloseStep, DAY_HOURS, EPISODE_EXPECTED_FACTOR, EPISODE_MAX_HOURS, EPISODE_RATE_PER_H, HOUR_MS,
+    LAG_MARGIN, LEAD_Q, LEAK_RING, LeakMode, RATE_MIN_BLOCKS, RATE_WINDOW, SETTLE_TIME_CONSTANTS,
     SETTLE_WINDOW, STEADY_FLOOR_PER_H, STEADY_SHARE_DIVISOR, STEADY_TIME_CONSTANTS,
     TEMPERATURE_WINDOW, VESSEL_LAG_FROM_MS, VESSEL_LAG_SHARE_Q8, effective_lag, validate_timing,
     window,
@@ -302,6 +302,28 @@ struct TemperatureFit<F> {
     curvature_per_h2: F,
 }
 
+/// A block close whose steps are still to run (see [`super`], "A close
+/// spread over the samples that follow it").
+#[derive(Clone, Copy, Debug)]
+struct Close<F: Real> {
+    /// The next step.
+    step: CloseStep,
+    /// The block's end and mean.
+    end: Instant,
+    mean: F,
+    /// The estimate at the close.
+    content: Content<F>,
+    /// Its sensitivities and terms (from `Terms` on).
+    terms: Option<Terms<F>>,
+    /// The rate window's length and line (from `RateFit` on; `None`: too
+    /// few blocks for a rate) …
+    fit: Option<(usize, Fit<F>)>,
+    /// … the block temperatures' parabola (from `TemperatureFit` on) …
+    temperature: Option<TemperatureFit<F>>,
+    /// … and the rate budget (from `Budget` on).
+    budget: Option<RateBudget<F>>,
+}
+
 /// The tracker: all state of the pipeline for one tank (float form).
 #[derive(Clone, Debug)]
 pub struct Tracker<F: Real, M> {
@@ -331,6 +353,8 @@ pub struct Tracker<F: Real, M> {
     t_ring: [F; TEMPERATURE_WINDOW],
     t_len: usize,
     prev_block: Option<F>,
+    /// The last close while its steps run.
+    close: Option<Close<F>>,
     // Leak.
     hour_sum: F,
     hour_blocks: u32,
@@ -444,6 +468,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             t_len: 0,
             ring_len: 0,
             prev_block: None,
+            close: None,
             hour_sum: F::ZERO,
             hour_blocks: 0,
             day_ring: [F::ZERO; LEAK_RING],
@@ -533,6 +558,9 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             if !temperature_k.is_finite() {
                 return Err(Error::NotFinite(Measured::Temperature.into()));
             }
+        }
+        self.close_step();
+        if !fault {
             self.check_gap(at);
             let (p, t) = self.despike(pressure_pa, temperature_k);
             let (p, t) = self.smooth(at, p, t);
@@ -606,6 +634,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
     /// [`super`]; a usable sample restarts the windows).
     fn withdraw_if_stale(&mut self, at: Instant) {
         if self.last_at.is_some_and(|l| at.since(l) > self.cfg.max_gap) {
+            self.finish_close();
             self.content = None;
             self.uncertainty = None;
             self.rate = None;
@@ -656,6 +685,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             Some(last) => at < last || at.since(last) > self.cfg.max_gap,
         };
         if restart {
+            self.finish_close();
             self.hist_len = 0;
             self.block_start = at;
             self.block_sum = F::ZERO;
@@ -716,7 +746,10 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         }
         if self.block_n > 0 {
             let mean = self.block_sum / F::lit(self.block_n as f64);
-            self.block(end, mean, content);
+            let spread = self
+                .last_at
+                .is_some_and(|l| super::spread(at.since(l), self.cfg.block));
+            self.block(end, mean, content, spread);
         }
         // Blocks stay aligned; a skipped block (no sample) is a gap and was
         // handled by check_gap.
@@ -776,8 +809,11 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         }
     }
 
-    /// Everything that happens once per block.
-    fn block(&mut self, end: Instant, mean: F, content: &Content<F>) {
+    /// Everything that happens once per block: the bookkeeping now, the
+    /// rest as [`CloseStep`]s over the following samples when `spread`, at
+    /// once otherwise (a close still running is finished first).
+    fn block(&mut self, end: Instant, mean: F, content: &Content<F>, spread: bool) {
+        self.finish_close();
         // Settling: a fast change between consecutive blocks.
         if let Some(prev) = self.prev_block
             && !self.fast_change(end, prev, mean)
@@ -809,45 +845,139 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         self.ring_len = (self.ring_len + 1).min(RATE_WINDOW);
         self.t_len = (self.t_len + 1).min(TEMPERATURE_WINDOW);
 
-        // Its sensitivities and terms, once for both budgets.
-        let terms = self.unc.terms(content);
-        self.rate_and_time_to_empty(content, &terms);
-        self.episodes(end);
-        self.settle(end, mean, content.temperature_k);
-        self.leak_block(end, mean, content);
-        #[cfg(feature = "uncertainty")]
-        {
-            let (u, transient) = self
-                .unc
-                .evaluate_with(&terms, self.gas_sensor, self.gas_draw);
-            self.uncertainty = Some(u);
-            self.gas_transient = transient;
+        self.close = Some(Close {
+            step: CloseStep::Terms,
+            end,
+            mean,
+            content: *content,
+            terms: None,
+            fit: None,
+            temperature: None,
+            budget: None,
+        });
+        if !spread {
+            self.finish_close();
         }
-        self.rated_pressure_now_pa = Some(self.est.pressure_at(F::ONE, content.temperature_k).0);
     }
 
-    /// Rate and time to empty from the window.
-    fn rate_and_time_to_empty(&mut self, content: &Content<F>, terms: &Terms<F>) {
-        let n = self.ring_len.min(RATE_WINDOW);
-        if n < RATE_MIN_BLOCKS {
-            self.rate = None;
-            self.rate_per_h = None;
-            self.set_tte(Err(NoTimeToEmpty::Learning));
-            self.gas_sensor = F::ZERO;
-            self.gas_draw = F::ZERO;
-            self.steady_ms = 0;
+    /// Runs the next step of the close in progress, if any.
+    fn close_step(&mut self) {
+        let Some(step) = self.close.as_ref().map(|c| c.step) else {
             return;
+        };
+        match step {
+            CloseStep::Terms => {
+                if let Some(c) = &mut self.close {
+                    // Its sensitivities and terms, once for both budgets.
+                    c.terms = Some(self.unc.terms(&c.content));
+                }
+            }
+            CloseStep::RateFit => {
+                let n = self.ring_len.min(RATE_WINDOW);
+                let fit = if n < RATE_MIN_BLOCKS {
+                    self.rate = None;
+                    self.rate_per_h = None;
+                    self.set_tte(Err(NoTimeToEmpty::Learning));
+                    self.gas_sensor = F::ZERO;
+                    self.gas_draw = F::ZERO;
+                    self.steady_ms = 0;
+                    None
+                } else {
+                    Some((n, self.fit(n)))
+                };
+                if let Some(c) = &mut self.close {
+                    c.fit = fit;
+                }
+            }
+            CloseStep::TemperatureFit => {
+                let n = self.close.as_ref().and_then(|c| c.fit).map(|(n, _)| n);
+                let temperature = n
+                    .filter(|&n| self.ring_len == n)
+                    .map(|n| self.temperature_fit(n, self.t_len));
+                if let Some(c) = &mut self.close {
+                    c.temperature = temperature;
+                }
+            }
+            CloseStep::Budget => self.rate_budget(),
+            CloseStep::Rate => {
+                self.rate_and_time_to_empty();
+                if let Some(end) = self.close.as_ref().map(|c| c.end) {
+                    self.episodes(end);
+                }
+            }
+            CloseStep::Settle => {
+                if let Some(c) = &self.close {
+                    let (end, mean, t) = (c.end, c.mean, c.content.temperature_k);
+                    self.settle(end, mean, t);
+                }
+            }
+            CloseStep::Leak => {
+                if let Some(c) = &self.close {
+                    let (end, mean) = (c.end, c.mean);
+                    let (p, f) = (c.content.pressure_pa, c.content.fill_fraction);
+                    self.leak_block(end, mean, p, f);
+                }
+            }
+            CloseStep::Uncertainty => {
+                #[cfg(feature = "uncertainty")]
+                if let Some(Close {
+                    terms: Some(terms), ..
+                }) = &self.close
+                {
+                    let (u, transient) =
+                        self.unc
+                            .evaluate_with(terms, self.gas_sensor, self.gas_draw);
+                    self.uncertainty = Some(u);
+                    self.gas_transient = transient;
+                }
+            }
+            CloseStep::Reference => {
+                if let Some(t) = self.close.as_ref().map(|c| c.content.temperature_k) {
+                    self.rated_pressure_now_pa = Some(self.est.pressure_at(F::ONE, t).0);
+                }
+            }
         }
-        let fit = self.fit(n);
-        let temp = self.temperature_fit(n, self.t_len);
+        match step.next() {
+            Some(next) => {
+                if let Some(c) = &mut self.close {
+                    c.step = next;
+                }
+            }
+            None => self.close = None,
+        }
+    }
+
+    /// Runs the steps left of the close in progress.
+    fn finish_close(&mut self) {
+        while self.close.is_some() {
+            self.close_step();
+        }
+    }
+
+    /// The close's rate window, line and temperature parabola while the
+    /// window is still the tracker's (a fill marked since restarts it).
+    fn window_kept(&self) -> Option<(usize, Fit<F>, TemperatureFit<F>)> {
+        let c = self.close.as_ref()?;
+        let ((n, fit), temperature) = (c.fit?, c.temperature?);
+        (self.ring_len == n).then_some((n, fit, temperature))
+    }
+
+    /// Standard uncertainties of the rate (the fit's scatter, the
+    /// temperature dynamics and the scale errors) and of the content the
+    /// time to empty counts down from (crate::uncertainty).
+    fn rate_budget(&mut self) {
+        let Some((n, fit, temp)) = self.window_kept() else {
+            return;
+        };
+        let Some(Close {
+            content,
+            terms: Some(terms),
+            ..
+        }) = &self.close
+        else {
+            return;
+        };
         let bph = F::lit(self.blocks_per_hour as f64);
-        let per_h = -fit.slope * bph;
-        self.rate_per_h = Some(per_h);
-        let end = fit.mean + fit.slope * F::lit((n - 1) as f64 / 2.0);
-        let left = end - self.cfg.reserve_fraction;
-        // Standard uncertainties of the rate (the fit's scatter, the
-        // temperature dynamics and the scale errors) and of the content the
-        // time to empty counts down from (crate::uncertainty).
         let budget: RateBudget<F> = self.unc.rate(
             content,
             terms,
@@ -858,7 +988,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
                 temperature_k: temp.mean,
                 dt_per_h: temp.slope_per_h,
                 d2t_per_h2: temp.curvature_per_h2,
-                left_fraction: left,
+                left_fraction: self.left_fraction(&fit, n),
                 reserve_fraction: self.cfg.reserve_fraction,
                 blocks: n as u32,
                 blocks_per_hour: self.blocks_per_hour,
@@ -866,6 +996,31 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
         );
         self.gas_sensor = budget.gas_sensor;
         self.gas_draw = budget.draw;
+        if let Some(c) = &mut self.close {
+            c.budget = Some(budget);
+        }
+    }
+
+    /// The fill fraction above the reserve at the end of an `n`-block
+    /// window: the fitted value there, mean + slope·(n − 1)/2, less the
+    /// reserve.
+    fn left_fraction(&self, fit: &Fit<F>, n: usize) -> F {
+        fit.mean + fit.slope * F::lit((n - 1) as f64 / 2.0) - self.cfg.reserve_fraction
+    }
+
+    /// Rate, steady draw and time to empty from the window's fit and
+    /// budget.
+    fn rate_and_time_to_empty(&mut self) {
+        let (Some((n, fit, _)), Some(budget)) = (
+            self.window_kept(),
+            self.close.as_ref().and_then(|c| c.budget),
+        ) else {
+            return;
+        };
+        let bph = F::lit(self.blocks_per_hour as f64);
+        let per_h = -fit.slope * bph;
+        self.rate_per_h = Some(per_h);
+        let left = self.left_fraction(&fit, n);
         let two = F::lit(2.0);
         let u_per_h = two * budget.rate_per_h;
         let confidence = if per_h.abs() > F::ZERO {
@@ -1004,7 +1159,7 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
     }
 
     /// Leak detection: hourly means into the two-day ring.
-    fn leak_block(&mut self, end: Instant, mean: F, c: &Content<F>) {
+    fn leak_block(&mut self, end: Instant, mean: F, pressure_pa: F, fill: F) {
         if self.leak_held(end, mean) {
             self.reset_leak();
             return;
@@ -1014,10 +1169,10 @@ impl<F: Real, M: Compressibility<F>> Tracker<F, M> {
             // The content at the gas's temperature less the content at the
             // sensor's, at the same pressure (fraction of the rated
             // content; none when the model refuses it).
-            if let Ok(gas) = self.est.estimate(c.pressure_pa, g)
+            if let Ok(gas) = self.est.estimate(pressure_pa, g)
                 && !gas.status.intersects(Status::CONTENT_INVALID)
             {
-                self.hour_lead += gas.fill_fraction - c.fill_fraction;
+                self.hour_lead += gas.fill_fraction - fill;
             }
         }
         self.hour_blocks += 1;

@@ -82,6 +82,29 @@
 //!   uncertainty, `not_settled` is reported (without restarting the rate or
 //!   predicting a settled content).
 //!
+//! # A close spread over the samples that follow it
+//!
+//! Only the block's bookkeeping runs at the sample that closes it: the
+//! fast-change check, the windows and the gas temperature. The rest is
+//! [`CloseStep`]s, one per following sample, in order: the content's
+//! sensitivities (`Terms`), the rate window's line (`RateFit`), the block
+//! temperatures' parabola (`TemperatureFit`), the rate budget (`Budget`),
+//! rate, steady draw, time to empty and episodes (`Rate`), settling
+//! (`Settle`), leak (`Leak`), the content's uncertainty (`Uncertainty`)
+//! and the over-pressure reference (`Reference`). No sample then pays for a whole
+//! close; the outputs of a close appear within [`CloseStep::COUNT`] samples
+//! of it. Each step works on the close's own estimate and on the state as
+//! it is when the step runs: a fill marked in between (which restarts the
+//! rate window) leaves the rate of the window it emptied unreported.
+//!
+//! The steps are spread only when the samples come fast enough for them
+//! to finish well inside the block (an interval Δt with
+//! 2·[`CloseStep::COUNT`]·Δt ≤ `block`, see [`spread`]); slower samples
+//! run a close whole, as do the steps still pending when a block closes,
+//! when the windows restart after a gap and when outputs are withdrawn.
+//! Both paths keep the same schedule, so their outputs change at the same
+//! samples.
+//!
 //! # Per hour: leak detection on the compensated content
 //!
 //! Hourly means of the fill fraction go into a ring of [`LEAK_RING`] hours.
@@ -187,6 +210,57 @@
 
 pub mod fixed;
 pub mod float;
+
+/// The work of a block close after its bookkeeping, one step per sample
+/// when spread (see "A close spread over the samples that follow it").
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum CloseStep {
+    /// The content's model slopes and its uncertainty sensitivities.
+    Terms,
+    /// The rate window's line.
+    RateFit,
+    /// The block temperatures' parabola.
+    TemperatureFit,
+    /// The rate budget (the uncertainties of rate and time to empty).
+    Budget,
+    /// Rate, steady draw, time to empty; draw episodes.
+    Rate,
+    /// Settling state and prediction.
+    Settle,
+    /// The leak step.
+    Leak,
+    /// The content's uncertainty.
+    Uncertainty,
+    /// The over-pressure reference.
+    Reference,
+}
+
+impl CloseStep {
+    /// Steps per close.
+    const COUNT: u64 = 9;
+
+    /// The step after this one (`None` after the last).
+    fn next(self) -> Option<Self> {
+        match self {
+            CloseStep::Terms => Some(CloseStep::RateFit),
+            CloseStep::RateFit => Some(CloseStep::TemperatureFit),
+            CloseStep::TemperatureFit => Some(CloseStep::Budget),
+            CloseStep::Budget => Some(CloseStep::Rate),
+            CloseStep::Rate => Some(CloseStep::Settle),
+            CloseStep::Settle => Some(CloseStep::Leak),
+            CloseStep::Leak => Some(CloseStep::Uncertainty),
+            CloseStep::Uncertainty => Some(CloseStep::Reference),
+            CloseStep::Reference => None,
+        }
+    }
+}
+
+/// Whether a close at a sample `dt` after the previous one is spread over
+/// the samples that follow (all its steps done within half a `block` at
+/// that interval) or run whole.
+fn spread(dt: crate::time::Millis, block: crate::time::Millis) -> bool {
+    dt.0 > 0 && dt.0.saturating_mul(2 * CloseStep::COUNT) <= block.0
+}
 
 /// Block means in the rate window.
 pub const RATE_WINDOW: usize = 32;
