@@ -64,16 +64,20 @@ impl Frac {
     }
 }
 
-/// One axis of a model: the span its latest value fell in, prepared (a
-/// value in the same span again costs two comparisons; another span costs
-/// its preparation, a few divisions). Keeping one span per axis instead of
-/// all of them keeps a prepared model within a few dozen bytes of RAM.
+/// One axis of a model: the spans its latest two values fell in, prepared
+/// (a value in either span again costs a few comparisons; another span
+/// costs its preparation, a few divisions, in place of the span used less
+/// recently). Two spans serve the sample's own state and a solve at
+/// another (the rated content's pressure at each block close) without
+/// preparing either again; keeping two spans per axis instead of all of
+/// them keeps a prepared model within about a hundred bytes of RAM.
 #[derive(Clone, Debug, Default)]
 pub struct Axis {
     /// Raw bits per unit of the slopes (K or MPa).
     raw_per_unit: u64,
-    /// The span in use: its index and constants.
-    cached: core::cell::Cell<Option<(u8, Span)>>,
+    /// The spans in use, index and constants: the one the latest value
+    /// fell in first.
+    cached: [core::cell::Cell<Option<(u8, Span)>>; 2],
 }
 
 /// Q16 of `num/den` (both positive, num ≤ den), rounded, at most one.
@@ -157,7 +161,7 @@ impl Axis {
         }
         Ok(Axis {
             raw_per_unit,
-            cached: core::cell::Cell::new(None),
+            cached: Default::default(),
         })
     }
 
@@ -168,27 +172,34 @@ impl Axis {
     #[cfg_attr(not(target_arch = "arm"), inline(always))]
     fn locate(&self, knots: &[u32], x: u32) -> (usize, Span, u32) {
         let last = knots.len().saturating_sub(2);
-        let (k, span) = match self.cached.get() {
-            Some((k, s))
-                if x >= s.start
-                    && (k as usize >= last
-                        || knots.get(k as usize + 1).is_some_and(|&e| x < e)) =>
-            {
-                (k as usize, s)
-            }
-            _ => {
-                let k = knots
-                    .partition_point(|&t| t <= x)
-                    .saturating_sub(1)
-                    .min(last);
-                match prepare_span(knots, k, self.raw_per_unit) {
-                    Ok(s) => {
-                        self.cached.set(Some((k as u8, s)));
-                        (k, s)
-                    }
-                    Err(_) => return (0, DEFAULT_SPAN, 0),
+        let holds = |k: u8, s: &Span| {
+            x >= s.start
+                && (k as usize >= last || knots.get(k as usize + 1).is_some_and(|&e| x < e))
+        };
+        let [recent, other] = &self.cached;
+        let (k, span) = match recent.get() {
+            Some((k, s)) if holds(k, &s) => (k as usize, s),
+            _ => match other.get() {
+                // The other span: it becomes the recent one.
+                Some((k, s)) if holds(k, &s) => {
+                    recent.swap(other);
+                    (k as usize, s)
                 }
-            }
+                _ => {
+                    let k = knots
+                        .partition_point(|&t| t <= x)
+                        .saturating_sub(1)
+                        .min(last);
+                    match prepare_span(knots, k, self.raw_per_unit) {
+                        Ok(s) => {
+                            // In place of the span used less recently.
+                            other.set(recent.replace(Some((k as u8, s))));
+                            (k, s)
+                        }
+                        Err(_) => return (0, DEFAULT_SPAN, 0),
+                    }
+                }
+            },
         };
         let h = knots.get(k + 1).copied().unwrap_or(span.start) - span.start;
         let hs = h >> span.shift;
