@@ -9,14 +9,14 @@ use std::{env, fs, path::PathBuf};
 /// gate fails to link. The goal is 32 KiB flash and 6 KiB RAM
 /// (`ISOCHOR_MEMORY=goal`); until the image reaches it, the gate stands at
 /// the figures reached (README, "Footprint"), to be lowered as it shrinks.
-const GATE: (u32, u32, u32) = (83 * 1024, 14 * 1024, STACK_RESERVE);
+const GATE: (u32, u32, u32) = (85 * 1024, 14 * 1024, STACK_RESERVE);
 /// The goal's map.
 const GOAL: (u32, u32, u32) = (32 * 1024, 6 * 1024, STACK_RESERVE);
 /// Stack kept free beside the statics: the firmware's measured stack peak
-/// (`isochor budget`, `stack_bytes`: 6,440 bytes, the larger of a run
+/// (`isochor budget`, `stack_bytes`: 6,792 bytes, the larger of a run
 /// that writes its configuration in signed records and a start with the
 /// configuration stored) plus 1.5 KiB of margin.
-const STACK_RESERVE: u32 = 7_976;
+const STACK_RESERVE: u32 = 8_328;
 
 fn gate_map((flash, ram, stack): (u32, u32, u32)) -> String {
     format!(

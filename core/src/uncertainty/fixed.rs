@@ -624,7 +624,11 @@ pub const fn isqrt(v: u64) -> u32 {
     // m − a² < (2s + 1)·2^32 ≤ 2^49: the tangent step (m − a²)/(2a) as a
     // 32-bit division, ⌊⌊(m − a²)/2^17⌋/s⌋ = ⌊(m − a²)/(2a)⌋.
     let rem = m - ((s * s) << 32);
-    let step = ((rem >> 17) as u32 / s as u32) as u64;
+    // (s ≥ 2^15: the division never sees zero.)
+    let step = match ((rem >> 17) as u32).checked_div(s as u32) {
+        Some(q) => q as u64,
+        None => 0,
+    };
     // √ is concave: a + step ≥ ⌊√m⌋, by less than 2 (step²/(2a) < 1 and
     // the floor); below 2^32 so its square fits 64 bits.
     let mut r = (s << 16) + step;
