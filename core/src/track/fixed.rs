@@ -29,7 +29,7 @@
 //! solver (over-pressure reference and settled prediction). Per hour: two
 //! 128-bit divisions for the reported leak rates. At a sample interval of
 //! up to 1/18 of the block the per-block work is spread over the samples
-//! after the close, one [`CloseStep`] each (see [`super`]), so no sample
+//! after the close, one `CloseStep` each (see [`super`]), so no sample
 //! pays for it whole.
 
 use super::float::TrackConfig;

@@ -86,20 +86,20 @@
 //!
 //! Only the block's bookkeeping runs at the sample that closes it: the
 //! fast-change check, the windows and the gas temperature. The rest is
-//! [`CloseStep`]s, one per following sample, in order: the content's
+//! `CloseStep`s, one per following sample, in order: the content's
 //! sensitivities (`Terms`), the rate window's line (`RateFit`), the block
 //! temperatures' parabola (`TemperatureFit`), the rate budget (`Budget`),
 //! rate, steady draw, time to empty and episodes (`Rate`), settling
 //! (`Settle`), leak (`Leak`), the content's uncertainty (`Uncertainty`)
 //! and the over-pressure reference (`Reference`). No sample then pays for a whole
-//! close; the outputs of a close appear within [`CloseStep::COUNT`] samples
+//! close; the outputs of a close appear within `CloseStep::COUNT` (nine) samples
 //! of it. Each step works on the close's own estimate and on the state as
 //! it is when the step runs: a fill marked in between (which restarts the
 //! rate window) leaves the rate of the window it emptied unreported.
 //!
 //! The steps are spread only when the samples come fast enough for them
 //! to finish well inside the block (an interval Δt with
-//! 2·[`CloseStep::COUNT`]·Δt ≤ `block`, see [`spread`]); slower samples
+//! 2·`CloseStep::COUNT`·Δt ≤ `block`, see `spread`); slower samples
 //! run a close whole, as do the steps still pending when a block closes,
 //! when the windows restart after a gap and when outputs are withdrawn.
 //! Both paths keep the same schedule, so their outputs change at the same
