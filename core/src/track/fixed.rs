@@ -1097,7 +1097,6 @@ impl<M: CompressibilityFx> Tracker<M> {
             return;
         };
         let bph = self.blocks_per_hour as i64;
-        let reserve = (self.cfg.reserve_fraction.to_bits() << (QF - 32)) as i64;
         let budget = self.unc.rate(
             content,
             terms,
@@ -1108,8 +1107,8 @@ impl<M: CompressibilityFx> Tracker<M> {
                 temperature: temp.mean,
                 dt_per_h: temp.slope_per_h,
                 d2t_per_h2: temp.curvature_per_h2,
-                left_fraction: left_fraction(&fit, n, reserve),
-                reserve_fraction: reserve,
+                left_fraction: self.left_fraction(&fit, n),
+                reserve_fraction: self.reserve_q36(),
                 blocks: n as u32,
                 blocks_per_hour: self.blocks_per_hour,
             },
@@ -1119,6 +1118,18 @@ impl<M: CompressibilityFx> Tracker<M> {
         if let Some(c) = &mut self.close {
             c.budget = Some(budget);
         }
+    }
+
+    /// The reserve fraction, Q36.
+    fn reserve_q36(&self) -> i64 {
+        (self.cfg.reserve_fraction.to_bits() << (QF - 32)) as i64
+    }
+
+    /// The fill fraction above the reserve (Q36) at the end of an `n`-block
+    /// window: the fitted value there, mean + slope·(n − 1)/2, less the
+    /// reserve.
+    fn left_fraction(&self, fit: &Fit, n: usize) -> i64 {
+        fit.mean + fx::shr_round_i64(fit.slope * (n as i64 - 1), 1) - self.reserve_q36()
     }
 
     /// Rate, steady draw and time to empty from the window's fit and
@@ -1133,8 +1144,7 @@ impl<M: CompressibilityFx> Tracker<M> {
         let bph = self.blocks_per_hour as i64;
         let per_h = -fit.slope * bph;
         self.rate_per_h = Some(per_h);
-        let reserve = (self.cfg.reserve_fraction.to_bits() << (QF - 32)) as i64;
-        let left = left_fraction(&fit, n, reserve);
+        let left = self.left_fraction(&fit, n);
         let u_per_h = budget.rate_per_h.saturating_mul(2).min(i64::MAX as u64) as i64;
         let confidence = if per_h != 0 {
             let mag = per_h.unsigned_abs();
@@ -1631,12 +1641,6 @@ fn moments(xs: impl DoubleEndedIterator<Item = i64>) -> [i64; 3] {
 }
 
 /// The median of three values.
-/// The fill fraction above the reserve (Q36) at the end of an `n`-block
-/// window: the fitted value there, mean + slope·(n − 1)/2, less `reserve`.
-fn left_fraction(fit: &Fit, n: usize, reserve: i64) -> i64 {
-    fit.mean + fx::shr_round_i64(fit.slope * (n as i64 - 1), 1) - reserve
-}
-
 fn median3(a: u32, b: u32, c: u32) -> u32 {
     a.min(b).max(a.max(b).min(c))
 }
